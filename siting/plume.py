@@ -1,0 +1,229 @@
+"""Gaussian plume physics: dispersion coefficients, wind profile, plume rise, plume terms.
+
+Pure functions on floats and numpy arrays, SI units, no files, no printing, no CRS. Stability
+classes are indexed 0..5 for Pasquill classes A..F. The coefficient values themselves are a
+lookup table (config/dispersion.toml) handed in by the caller as :class:`SigmaScheme`.
+
+What is not here: the annual (long-term) summation over weather (``longterm.py``) and dry
+deposition (``deposition.py``).
+
+References
+----------
+.. [Briggs1973] G.A. Briggs, "Diffusion estimation for small emissions", ATDL Contribution
+   No. 79, NOAA (1973); formulas as tabulated in [EPA1995] Vol. II.
+.. [EPA1995] US EPA, "User's guide for the Industrial Source Complex (ISC3) dispersion models,
+   Vol. II: description of model algorithms", EPA-454/B-95-003b (1995).
+.. [Turner1970] D.B. Turner, "Workbook of atmospheric dispersion estimates", AP-26 (1970).
+.. [Irwin1979] J.S. Irwin, Atmos. Environ. 13 (1979) 191-194 (wind-profile exponents).
+.. [Briggs1969] G.A. Briggs, "Plume rise", USAEC Critical Review Series (1969); momentum-rise
+   formulas as used in [EPA1995] Sect. 1.1.4 (from memory).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+STABILITY_CLASSES = ("A", "B", "C", "D", "E", "F")
+_SQRT_2PI = np.sqrt(2.0 * np.pi)
+GRAVITY_M_S2 = 9.80665  # standard gravity, CGPM 1901
+
+#: potential-temperature gradients for stable classes E, F [K m-1], [EPA1995] Sect. 1.1.4.3
+#: (default values, from memory); None for the unstable and neutral classes.
+_STABLE_DTHETA_DZ_K_M = (None, None, None, None, 0.020, 0.035)
+_AMBIENT_TEMPERATURE_K = 293.15  # assumed for stable momentum rise (common practice, no source)
+
+
+@dataclass(frozen=True)
+class SigmaScheme:
+    """Dispersion coefficients for the six stability classes A..F.
+
+    ``kind == "briggs"``: sigma = a x (1 + b x)^c with arrays ``y`` and ``z`` of shape (6, 3)
+    holding (a, b, c) per class [Briggs1973].
+    ``kind == "pasquill_gifford"``: ``y`` holds (c, d) per class; ``z_bands`` per class a
+    tuple of (upper_km, a, b) rows [EPA1995] Tables 1-1/1-2.
+    """
+
+    name: str
+    kind: str
+    y: np.ndarray
+    z: np.ndarray | None = None
+    z_bands: tuple | None = None
+
+    def sigma_y_m(self, distance_m, stability_index: int) -> np.ndarray:
+        """Lateral spread sigma_y [m] at downwind distance [m] for one stability class."""
+        x = np.asarray(distance_m, dtype=float)
+        if self.kind == "briggs":
+            a, b, c = self.y[stability_index]
+            return a * x * (1.0 + b * x) ** c  # [Briggs1973]
+        c, d = self.y[stability_index]
+        x_km = np.maximum(x, 1e-6) / 1000.0
+        theta_rad = 0.017453293 * (c - d * np.log(x_km))  # [EPA1995] Eq. 1-35 (from memory)
+        return 465.11628 * x_km * np.tan(theta_rad)
+
+    def sigma_z_m(self, distance_m, stability_index: int) -> np.ndarray:
+        """Vertical spread sigma_z [m] at downwind distance [m] for one stability class."""
+        x = np.asarray(distance_m, dtype=float)
+        if self.kind == "briggs":
+            a, b, c = self.z[stability_index]
+            return a * x * (1.0 + b * x) ** c  # [Briggs1973]
+        x_km = np.maximum(x, 1e-6) / 1000.0
+        bands = np.asarray(self.z_bands[stability_index], dtype=float)
+        band = np.searchsorted(bands[:, 0], x_km, side="left")
+        band = np.minimum(band, len(bands) - 1)
+        sz = bands[band, 1] * x_km ** bands[band, 2]  # [EPA1995] Eq. 1-34 (from memory)
+        return np.minimum(sz, 5000.0)  # [EPA1995]: sigma_z capped at 5000 m
+
+
+def virtual_distance_m(sigma0_m: float, sigma_of_distance, max_distance_m: float = 1.0e5) -> float:
+    """Distance at which a sigma function reaches an initial spread sigma0 [m].
+
+    The virtual-distance method of [EPA1995] Sect. 1.2.2 for volume sources: the plume of a
+    volume source at distance x has the spread of a point source at x + x_virtual.
+
+    Parameters
+    ----------
+    sigma0_m : float
+        Initial spread [m], >= 0. Zero gives zero.
+    sigma_of_distance : callable
+        Monotone sigma(x) [m] of distance x [m].
+    max_distance_m : float
+        Upper end of the search [m].
+    """
+    if sigma0_m <= 0.0:
+        return 0.0
+    distance_m = np.geomspace(1e-3, max_distance_m, 4000)
+    sigma_m = np.maximum.accumulate(sigma_of_distance(distance_m))
+    return float(np.exp(np.interp(np.log(sigma0_m), np.log(sigma_m), np.log(distance_m))))
+
+
+def wind_speed_at_height_m_s(speed_ref_m_s, reference_height_m, height_m, exponent):
+    """Power-law wind speed u(z) = u_ref (z / z_ref)^p [Irwin1979], [EPA1995] Eq. 1-6.
+
+    Below the anemometer height the reference speed is used unchanged (no extrapolation
+    downwards; common practice, no source), so a low fan outlet never gets a lower wind than
+    the one measured.
+    """
+    height_m = np.maximum(height_m, reference_height_m)
+    return speed_ref_m_s * (height_m / reference_height_m) ** exponent
+
+
+def momentum_plume_rise_m(diameter_m, exit_velocity_m_s, wind_speed_m_s, stability_index: int):
+    """Momentum plume rise of an ambient-temperature jet [m] ([Briggs1969], [EPA1995] 1.1.4).
+
+    Unstable and neutral (A-D): dh = 3 d w / u. Stable (E, F): the smaller of that and
+    1.5 (F_m / (u sqrt(s)))^(1/3) with F_m = w^2 d^2 / 4 and s = g / T_a * dtheta/dz.
+    Livestock house outlets exhaust air near ambient temperature, so buoyancy is neglected.
+    Formulas from memory; a source without exit velocity has no rise (the caller passes 0).
+    """
+    rise_neutral_m = 3.0 * diameter_m * exit_velocity_m_s / wind_speed_m_s
+    dtheta_dz = _STABLE_DTHETA_DZ_K_M[stability_index]
+    if dtheta_dz is None:
+        return rise_neutral_m
+    stability_s2 = GRAVITY_M_S2 / _AMBIENT_TEMPERATURE_K * dtheta_dz
+    momentum_flux_m4_s2 = exit_velocity_m_s**2 * diameter_m**2 / 4.0
+    rise_stable_m = 1.5 * (momentum_flux_m4_s2 / (wind_speed_m_s * np.sqrt(stability_s2))) ** (1 / 3)
+    return np.minimum(rise_neutral_m, rise_stable_m)
+
+
+def vertical_term(sigma_z_m, release_height_m, receptor_height_m=0.0, mixing_height_m=None,
+                  n_images: int = 4):
+    """Dimensionless vertical term V of the Gaussian plume with ground reflection.
+
+    V = exp(-(z - H)^2 / 2 sz^2) + exp(-(z + H)^2 / 2 sz^2), plus image terms for reflection at a
+    mixing lid L when given ([EPA1995] Eq. 1-50, summed over +-n_images reflections); where
+    sz > 1.6 L the plume is taken as well mixed: V = sqrt(2 pi) sz / L ([EPA1995], from memory).
+    The concentration is then Q V / (2 pi u sy sz) times the lateral term.
+    """
+    sz = np.asarray(sigma_z_m, dtype=float)
+    h = release_height_m
+    z = receptor_height_m
+    two_sz2 = 2.0 * sz * sz
+    v = np.exp(-((z - h) ** 2) / two_sz2) + np.exp(-((z + h) ** 2) / two_sz2)
+    if mixing_height_m is None:
+        return v
+    lid = float(mixing_height_m)
+    for n in range(1, n_images + 1):
+        for k in (-n, n):
+            v = v + np.exp(-((z - h - 2 * k * lid) ** 2) / two_sz2)
+            v = v + np.exp(-((z + h - 2 * k * lid) ** 2) / two_sz2)
+    well_mixed = _SQRT_2PI * sz / lid
+    return np.where(sz > 1.6 * lid, well_mixed, v)
+
+
+def plume_concentration_g_m3(emission_g_s, wind_speed_m_s, crosswind_m, sigma_y_m, sigma_z_m,
+                             release_height_m, receptor_height_m=0.0, mixing_height_m=None):
+    """Concentration downwind of a continuous point source, with ground reflection.
+
+    Parameters
+    ----------
+    emission_g_s : float or ndarray
+        Source strength [g s-1], >= 0.
+    wind_speed_m_s : float or ndarray
+        Wind speed at release height [m s-1], > 0.
+    crosswind_m : float or ndarray
+        Crosswind distance of the receptor from the plume axis [m].
+    sigma_y_m, sigma_z_m : float or ndarray
+        Lateral and vertical spreads at the receptor's downwind distance [m], > 0.
+    release_height_m : float
+        Effective release height H [m], >= 0.
+    receptor_height_m : float
+        Receptor height above ground z [m].
+    mixing_height_m : float, optional
+        Height of a reflecting lid [m]; None for no lid.
+
+    Returns
+    -------
+    concentration_g_m3 : ndarray
+        Broadcast shape of the inputs [g m-3].
+
+    Raises
+    ------
+    ValueError
+        If emission_g_s < 0 or wind_speed_m_s <= 0.
+
+    Notes
+    -----
+    Steady state, flat terrain, full reflection at the ground: C = Q / (2 pi u sy sz)
+    exp(-y^2 / 2 sy^2) V, [Turner1970] Eq. 3.1; [EPA1995] Eq. 1-1.
+    """
+    if np.any(np.asarray(emission_g_s) < 0):
+        raise ValueError(f"emission_g_s must be >= 0, got {emission_g_s}")
+    if np.any(np.asarray(wind_speed_m_s) <= 0):
+        raise ValueError(f"wind_speed_m_s must be > 0, got {wind_speed_m_s}")
+    sy = np.asarray(sigma_y_m, dtype=float)
+    lateral = np.exp(-0.5 * (np.asarray(crosswind_m) / sy) ** 2)
+    v = vertical_term(sigma_z_m, release_height_m, receptor_height_m, mixing_height_m)
+    return emission_g_s / (2.0 * np.pi * wind_speed_m_s * sy * sigma_z_m) * lateral * v
+
+
+def sector_average_concentration_g_m3(emission_g_s, frequency_fraction, wind_speed_m_s,
+                                      arc_distance_m, sector_width_rad, sigma_z_m,
+                                      vertical):
+    """Long-term sector-averaged concentration of one weather class [g m-3].
+
+    C = f Q V / (sqrt(2 pi) u sz dtheta x): the plume is spread evenly across a sector of width
+    dtheta at distance x ([Turner1970] Ch. 10; [EPA1995] Eq. 1-? "sector-averaged", from
+    memory). With n = 16 sectors and a ground-level receptor this is the familiar
+    2.032 f Q exp(-H^2 / 2 sz^2) / (sz u x).
+
+    Parameters
+    ----------
+    emission_g_s : float or ndarray
+        Source strength [g s-1].
+    frequency_fraction : float or ndarray
+        Share of the time with this (sector, speed, stability) class [-].
+    wind_speed_m_s : float or ndarray
+        Wind speed at release height [m s-1], > 0.
+    arc_distance_m : ndarray
+        Downwind distance used for the sector arc [m], > 0.
+    sector_width_rad : float
+        Sector width [rad], 2 pi / n.
+    sigma_z_m : ndarray
+        Vertical spread [m].
+    vertical : ndarray
+        Vertical term V from :func:`vertical_term` [-].
+    """
+    return (emission_g_s * frequency_fraction * vertical
+            / (_SQRT_2PI * wind_speed_m_s * sigma_z_m * sector_width_rad * arc_distance_m))
