@@ -1,0 +1,190 @@
+"""Protected habitat sites: read the layer, attach critical values, place sample receptors.
+
+An adapter. Reads any vector format geopandas reads, reprojects to the scenario CRS, repairs
+invalid polygons (or rejects them by name), and looks up for each site its critical load range
+and land cover (config/critical_loads.toml), its critical level (1 ug/m3 where lichens or
+bryophytes matter, else 3 ug/m3; config/critical_levels.toml, or a per-site field), its
+deposition velocity by land cover and its screening threshold by designation tier
+(config/thresholds.toml). It also places receptor points on each polygon (the boundary point
+nearest each source, and an interior lattice) so a small site between grid nodes is not missed.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import shapely
+from shapely.ops import nearest_points
+
+from siting.errors import InputError, InputFileError
+from siting.scenario import HabitatsSection
+from siting.tables import Tables, suggest
+
+MAX_POINTS_PER_SITE = 1500
+
+
+def _read_layer(section: HabitatsSection):
+    import geopandas as gpd
+
+    name = section.file.name
+    try:
+        gdf = gpd.read_file(section.file, layer=section.layer) if section.layer \
+            else gpd.read_file(section.file)
+    except FileNotFoundError as exc:
+        raise InputFileError(f"habitats.file {name}: not found") from exc
+    except Exception as exc:  # drivers raise many types for unreadable files
+        raise InputError(f"habitats.file {name}: cannot read as a vector layer: {exc}") from exc
+    if gdf.empty:
+        raise InputError(f"habitats.file {name}: the layer has no features")
+    if gdf.crs is None:
+        raise InputError(f"habitats.file {name}: the layer has no CRS; set one in your GIS")
+    return gdf
+
+
+def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
+                  critical_load_end: str = "lower"):
+    """Read the habitat layer and attach each site's critical values and threshold.
+
+    Returns
+    -------
+    sites : GeoDataFrame
+        One row per feature, in ``crs``, with the columns listed in DESIGN.md's sites table
+        that describe the site (not yet the results).
+    warnings : list of str
+    """
+    gdf = _read_layer(section)
+    name = section.file.name
+    fields = {"name_field": section.name_field, "habitat_field": section.habitat_field,
+              "designation_field": section.designation_field}
+    for key in ("critical_level_field", "critical_load_field", "background_deposition_field",
+                "background_concentration_field"):
+        if getattr(section, key):
+            fields[key] = getattr(section, key)
+    for key, field in fields.items():
+        if field not in gdf.columns:
+            cols = [c for c in gdf.columns if c != "geometry"]
+            raise InputError(f'habitats.{key} = "{field}": no such field in {name}'
+                             f"{suggest(field, cols)} (fields: {', '.join(cols)})")
+    gdf = gdf.to_crs(crs)
+    warnings: list[str] = []
+    rows = []
+    loads = tables.critical_loads
+    by_name = {str(r["name"]).lower(): k for k, r in loads.items()}
+    tiers = sorted(tables.thresholds, key=lambda t: t["threshold_percent"])
+    tier_by_designation = {d.strip().lower(): t for t in tiers for d in t["designations"]}
+    levels = tables.critical_levels
+    for i, feature in enumerate(gdf.itertuples(index=False), start=1):
+        site_name = str(getattr(feature, section.name_field))
+        where = f'habitats.file {name}, feature {i} ("{site_name}")'
+        geom = feature.geometry
+        if geom is None or geom.is_empty:
+            raise InputError(f"{where}: empty geometry")
+        if geom.geom_type not in ("Polygon", "MultiPolygon"):
+            raise InputError(f"{where}: geometry is a {geom.geom_type}; habitat sites must be "
+                             "polygons")
+        if not geom.is_valid:
+            repaired = shapely.make_valid(geom)
+            polys = shapely.get_parts(repaired)
+            polys = [p for p in polys if p.geom_type in ("Polygon", "MultiPolygon")]
+            if not polys or shapely.union_all(polys).area <= 0:
+                raise InputError(f"{where}: invalid polygon that cannot be repaired "
+                                 f"({shapely.is_valid_reason(geom)})")
+            geom = shapely.union_all(polys)
+            warnings.append(f"{where}: invalid polygon repaired ({shapely.is_valid_reason(feature.geometry)})")
+        habitat_raw = getattr(feature, section.habitat_field)
+        habitat_key = str(habitat_raw).strip().lower()
+        habitat_key = habitat_key if habitat_key in loads else by_name.get(habitat_key)
+        if habitat_key is None:
+            raise InputError(f'{where}: habitat "{habitat_raw}" is not in critical_loads.toml'
+                             f"{suggest(str(habitat_raw).lower(), loads)} "
+                             f"(known: {', '.join(sorted(loads))})")
+        habitat = loads[habitat_key]
+        designation = str(getattr(feature, section.designation_field)).strip()
+        tier = tier_by_designation.get(designation.lower())
+        if tier is None:
+            tier = tiers[0]
+            warnings.append(f'{where}: designation "{designation}" matches no tier in '
+                            f'thresholds.toml; the strictest tier "{tier["id"]}" '
+                            f"({tier['threshold_percent']:g} %) is used")
+        lo, hi = habitat["critical_load_min_kg_n_ha_yr"], habitat["critical_load_max_kg_n_ha_yr"]
+        used = {"lower": lo, "middle": 0.5 * (lo + hi), "upper": hi}[critical_load_end]
+        load_source = f'{habitat["source"]} ({critical_load_end} end of range)'
+        if section.critical_load_field:
+            value = getattr(feature, section.critical_load_field)
+            if value is not None and not pd.isna(value):
+                if float(value) <= 0:
+                    raise InputError(f"{where}: {section.critical_load_field} must be > 0, "
+                                     f"got {value}")
+                used, load_source = float(value), f"habitat layer field {section.critical_load_field}"
+        level_row = levels["lichens_bryophytes" if habitat["lichens_bryophytes"] else "higher_plants"]
+        level, level_source = level_row["critical_level_ug_m3"], level_row["source"]
+        if section.critical_level_field:
+            value = getattr(feature, section.critical_level_field)
+            if value is not None and not pd.isna(value):
+                if float(value) <= 0:
+                    raise InputError(f"{where}: {section.critical_level_field} must be > 0, "
+                                     f"got {value}")
+                level, level_source = float(value), f"habitat layer field {section.critical_level_field}"
+        land_cover = tables.deposition_velocities[habitat["land_cover"]]
+
+        def optional(key):
+            field = getattr(section, key)
+            if not field:
+                return np.nan
+            value = getattr(feature, field)
+            return float(value) if value is not None and not pd.isna(value) else np.nan
+
+        rows.append({
+            "site_id": f"S{i:02d}",
+            "name": site_name,
+            "designation": designation,
+            "tier": tier["id"],
+            "threshold_percent": float(tier["threshold_percent"]),
+            "threshold_source": tier["source"],
+            "habitat": habitat_key,
+            "habitat_name": habitat["name"],
+            "land_cover": habitat["land_cover"],
+            "deposition_velocity_m_s": float(land_cover["deposition_velocity_m_s"]),
+            "deposition_velocity_source": land_cover["source"],
+            "critical_level_ug_m3": float(level),
+            "critical_level_source": level_source,
+            "critical_load_min_kg_n_ha_yr": float(lo),
+            "critical_load_max_kg_n_ha_yr": float(hi),
+            "critical_load_used_kg_n_ha_yr": float(used),
+            "critical_load_source": load_source,
+            "background_dep_kg_n_ha_yr": optional("background_deposition_field"),
+            "background_conc_ug_m3": optional("background_concentration_field"),
+            "area_ha": geom.area / 1e4,
+            "geometry": geom,
+        })
+    import geopandas as gpd
+
+    return gpd.GeoDataFrame(rows, geometry="geometry", crs=crs), warnings
+
+
+def site_sample_points(geometries, source_x_m, source_y_m, spacing_m: float):
+    """Receptor points on each site polygon.
+
+    For each polygon: the boundary point nearest each source, a representative interior point,
+    and a lattice of points inside at ``spacing_m`` (coarsened so no site gets more than
+    MAX_POINTS_PER_SITE points). Returns (site_index, x_m, y_m, is_interior) arrays; the
+    interior lattice (and representative point) gives the site mean, all points its maximum.
+    """
+    index, xs, ys, interior = [], [], [], []
+    for i, geom in enumerate(geometries):
+        boundary = geom.boundary
+        for sx, sy in zip(source_x_m, source_y_m):
+            p = nearest_points(boundary, shapely.Point(sx, sy))[0]
+            index.append(i); xs.append(p.x); ys.append(p.y); interior.append(False)
+        rep = geom.representative_point()
+        index.append(i); xs.append(rep.x); ys.append(rep.y); interior.append(True)
+        minx, miny, maxx, maxy = geom.bounds
+        step = max(spacing_m, np.sqrt(geom.area / MAX_POINTS_PER_SITE))
+        gx, gy = np.meshgrid(np.arange(minx + step / 2, maxx, step),
+                             np.arange(miny + step / 2, maxy, step))
+        inside = shapely.contains_xy(geom, gx.ravel(), gy.ravel())
+        n = int(inside.sum())
+        index.extend([i] * n); xs.extend(gx.ravel()[inside]); ys.extend(gy.ravel()[inside])
+        interior.extend([True] * n)
+    return (np.asarray(index, dtype=int), np.asarray(xs, dtype=float),
+            np.asarray(ys, dtype=float), np.asarray(interior, dtype=bool))

@@ -1,0 +1,274 @@
+"""The scenario file: TOML -> validated :class:`Scenario`.
+
+An adapter: reads the TOML, validates every key with pydantic (unknown keys, missing fields,
+types, units and ranges), checks the CRS is projected in metres, resolves relative paths against
+the scenario file's folder and checks that the files exist. Any problem becomes one
+:class:`~siting.errors.InputError` naming the key (or file) before anything is computed or
+written. No physics here.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+
+from siting.errors import InputError, InputFileError
+
+ROLES = ("proposed", "existing", "removed", "other")
+
+
+class _Section(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+class WeatherSection(_Section):
+    """[weather]: the weather behind the long-term means."""
+
+    frequency_table: Path | None = None
+    hourly: Path | None = None
+    anemometer_height_m: float = Field(10.0, gt=0, le=300)
+    land_type: Literal["rural", "urban"] = "rural"
+    sigma_scheme: Literal["briggs", "pasquill_gifford"] = "briggs"
+    mixing_height_m: float | None = Field(None, gt=10, le=5000)
+    min_wind_speed_m_s: float = Field(1.0, gt=0, le=5)
+
+    @model_validator(mode="after")
+    def _one_record(self):
+        if (self.frequency_table is None) == (self.hourly is None):
+            raise ValueError("give exactly one of frequency_table or hourly")
+        if self.sigma_scheme == "pasquill_gifford" and self.land_type == "urban":
+            raise ValueError("the Pasquill-Gifford curve fits are rural only; use "
+                             'sigma_scheme = "briggs" with land_type = "urban"')
+        return self
+
+
+class GridSection(_Section):
+    """[grid]: the regular receptor grid around the sources."""
+
+    spacing_m: float = Field(25.0, gt=0, le=1000)
+    margin_m: float = Field(3000.0, ge=0, le=50_000)
+
+
+class DepositionSection(_Section):
+    """[deposition]: dry deposition settings."""
+
+    plume_depletion: bool = True
+    depletion_land_cover: str = "short_vegetation"
+
+
+class AssessmentSection(_Section):
+    """[assessment]: how figures are judged (our own optional section)."""
+
+    critical_load_end: Literal["lower", "middle", "upper"] = "lower"
+    config_dir: Path | None = None
+
+
+class HabitatsSection(_Section):
+    """[habitats]: the protected-site layer and which attribute holds what."""
+
+    file: Path
+    layer: str | None = None
+    name_field: str = "name"
+    habitat_field: str = "habitat"
+    designation_field: str = "designation"
+    critical_level_field: str | None = None
+    critical_load_field: str | None = None
+    background_deposition_field: str | None = None
+    background_concentration_field: str | None = None
+
+
+class ReceptorsSection(_Section):
+    """[receptors]: named points, CSV with id,x,y[,land_cover]."""
+
+    file: Path
+
+
+class SourceSpec(_Section):
+    """One [[source]]: where and how ammonia is released, and how much."""
+
+    id: str = Field(min_length=1, max_length=80)
+    kind: Literal["point", "volume", "area"] = "point"
+    x: float
+    y: float
+    height_m: float = Field(ge=0, le=100)
+    role: Literal["proposed", "existing", "removed", "other"] = "proposed"
+    diameter_m: float | None = Field(None, gt=0, le=10)
+    exit_velocity_m_s: float | None = Field(None, ge=0, le=40)
+    width_m: float | None = Field(None, gt=0, le=2000)
+    length_m: float | None = Field(None, gt=0, le=2000)
+    angle_deg: float = Field(0.0, ge=-360, le=360)
+    building_height_m: float | None = Field(None, gt=0, le=100)
+    nh3_kg_per_year: float | None = Field(None, ge=0)
+    livestock: str | None = None
+    housing: str | None = None
+    places: float | None = Field(None, ge=0)
+    abatement: str | None = None
+    reduction_percent: float | None = Field(None, ge=0, le=100)
+    treated_air_fraction: float | None = Field(None, ge=0, le=1)
+
+    @model_validator(mode="after")
+    def _consistent(self):
+        derived = [k for k in ("livestock", "housing", "places") if getattr(self, k) is not None]
+        if self.nh3_kg_per_year is not None and derived:
+            raise ValueError("give either nh3_kg_per_year or livestock/housing/places, not both")
+        if self.nh3_kg_per_year is None and len(derived) != 3:
+            missing = [k for k in ("livestock", "housing", "places") if k not in derived]
+            raise ValueError("needs nh3_kg_per_year, or livestock, housing and places "
+                             f"(missing: {', '.join(missing)})")
+        if self.kind in ("volume", "area") and (self.width_m is None or self.length_m is None):
+            raise ValueError(f"a {self.kind} source needs width_m and length_m")
+        if self.kind == "point" and (self.width_m is not None or self.length_m is not None):
+            raise ValueError("width_m/length_m apply to volume and area sources; "
+                             'set kind = "volume" or "area"')
+        if self.kind != "point" and (self.diameter_m or self.exit_velocity_m_s):
+            raise ValueError("diameter_m/exit_velocity_m_s apply to point sources only")
+        if self.exit_velocity_m_s and not self.diameter_m:
+            raise ValueError("exit_velocity_m_s needs diameter_m (plume rise uses both)")
+        if (self.reduction_percent is not None or self.treated_air_fraction is not None) \
+                and self.abatement is None:
+            raise ValueError("reduction_percent/treated_air_fraction need an abatement technique")
+        return self
+
+
+class Scenario(_Section):
+    """A whole scenario file, validated. Paths are absolute after :func:`load_scenario`."""
+
+    title: str = Field(min_length=1, max_length=200)
+    crs: str
+    weather: WeatherSection
+    grid: GridSection = GridSection()
+    deposition: DepositionSection = DepositionSection()
+    assessment: AssessmentSection = AssessmentSection()
+    habitats: HabitatsSection
+    receptors: ReceptorsSection | None = None
+    sources: list[SourceSpec] = Field(alias="source", min_length=1)
+    path: Path | None = None
+
+    @field_validator("sources")
+    @classmethod
+    def _unique_ids(cls, sources):
+        seen = set()
+        for s in sources:
+            if s.id in seen:
+                raise ValueError(f'duplicate source id "{s.id}"')
+            seen.add(s.id)
+        return sources
+
+    @property
+    def folder(self) -> Path:
+        return self.path.parent if self.path else Path.cwd()
+
+    @property
+    def name(self) -> str:
+        """Short name for the default output folder (the scenario file's stem)."""
+        return self.path.stem if self.path else "scenario"
+
+
+def _where(loc: tuple, raw: dict) -> str:
+    parts = []
+    i = 0
+    while i < len(loc):
+        key = loc[i]
+        if key == "source" and i + 1 < len(loc) and isinstance(loc[i + 1], int):
+            idx = loc[i + 1]
+            sources = raw.get("source") or []
+            sid = sources[idx].get("id") if idx < len(sources) and isinstance(sources[idx], dict) else None
+            parts.append(f'source "{sid}"' if sid else f"[[source]] #{idx + 1}")
+            i += 2
+            continue
+        if isinstance(key, str) and key not in ("function-after",):
+            parts.append(key if not parts or parts[-1].startswith("source") else f"{key}")
+        i += 1
+    return ".".join(p for p in parts) if parts else "(top level)"
+
+
+def _format_error(exc: ValidationError, raw: dict, filename: str) -> str:
+    err = exc.errors()[0]
+    loc = tuple(k for k in err["loc"] if not (isinstance(k, str) and "[" in k))
+    where = _where(loc, raw)
+    kind = err["type"]
+    if kind == "extra_forbidden":
+        return f"{filename}: unknown key {where} (check the spelling; see the demo scenario)"
+    if kind == "missing":
+        return f"{filename}: missing key {where}"
+    got = err.get("input")
+    msg = err["msg"].removeprefix("Value error, ")
+    if isinstance(got, dict):
+        return f"{filename}: {where}: {msg}"
+    return f"{filename}: {where}: {msg}, got {got!r}"
+
+
+def _check_crs(crs: str, filename: str) -> None:
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+
+    try:
+        parsed = CRS.from_user_input(crs)
+    except CRSError as exc:
+        raise InputError(f'{filename}: crs "{crs}" is not a CRS pyproj knows: {exc}') from exc
+    if not parsed.is_projected:
+        raise InputError(f'{filename}: crs "{crs}" is geographic (degrees); give a projected CRS '
+                         "in metres, e.g. the UTM zone of the site (EPSG:326xx north)")
+    units = {axis.unit_name for axis in parsed.axis_info}
+    if units - {"metre", "meter"}:
+        raise InputError(f'{filename}: crs "{crs}" has units {sorted(units)}; need metres')
+
+
+def _resolve(path: Path | None, folder: Path, key: str, filename: str) -> Path | None:
+    if path is None:
+        return None
+    full = (folder / path).resolve() if not path.is_absolute() else path
+    if not full.exists():
+        raise InputFileError(f"{filename}: {key} = \"{path}\": file not found ({full})")
+    return full
+
+
+def load_scenario(path: str | Path) -> Scenario:
+    """Read, validate and resolve a scenario file.
+
+    Raises
+    ------
+    InputFileError
+        The scenario or a file it names does not exist.
+    InputError
+        Any key is unknown, missing, of the wrong type or out of range; the CRS is not
+        projected in metres.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise InputFileError(f"{path}: scenario file not found")
+    try:
+        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"{path.name}: not valid TOML: {exc}") from exc
+    if "path" in raw:
+        raise InputError(f"{path.name}: unknown key path")
+    try:
+        scenario = Scenario.model_validate(raw)
+    except ValidationError as exc:
+        raise InputError(_format_error(exc, raw, path.name)) from None
+    _check_crs(scenario.crs, path.name)
+    if scenario.weather.hourly is not None:
+        raise InputError(f"{path.name}: weather.hourly: hour-by-hour records are not supported "
+                         "in this version; give weather.frequency_table")
+    folder = path.resolve().parent
+    weather = scenario.weather.model_copy(update={
+        "frequency_table": _resolve(scenario.weather.frequency_table, folder,
+                                    "weather.frequency_table", path.name)})
+    habitats = scenario.habitats.model_copy(update={
+        "file": _resolve(scenario.habitats.file, folder, "habitats.file", path.name)})
+    receptors = scenario.receptors
+    if receptors is not None:
+        receptors = receptors.model_copy(update={
+            "file": _resolve(receptors.file, folder, "receptors.file", path.name)})
+    assessment = scenario.assessment
+    if assessment.config_dir is not None:
+        assessment = assessment.model_copy(update={
+            "config_dir": _resolve(assessment.config_dir, folder, "assessment.config_dir",
+                                   path.name)})
+    return scenario.model_copy(update={"weather": weather, "habitats": habitats,
+                                       "receptors": receptors, "assessment": assessment,
+                                       "path": path.resolve()})

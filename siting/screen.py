@@ -1,0 +1,362 @@
+"""The screening run: scenario -> process contribution at every habitat site.
+
+This is the Python API behind ``siting screen``. It wires the adapters (scenario, tables,
+weather, habitats, receptors) to the physics (emissions, long-term plume, deposition) and the
+assessment arithmetic, and returns a :class:`ScreenResult`; writing files is ``outputs.py``'s job.
+
+Roles: the installation's process contribution (PC) is proposed + existing sources; the net
+change is proposed - removed; the in-combination total is PC + other; the predicted
+environmental total is background + PC where the habitat layer gives a background.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+import warnings as _warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from siting import assess
+from siting.constants import KEQ_PER_KG_N, UG_PER_G, deposition_kg_n_ha_yr, kg_n_to_mol_n
+from siting.emissions import derive_emission
+from siting.errors import InputError
+from siting.grids import GridSpec, grid_around
+from siting.habitats import read_habitats, site_sample_points
+from siting.longterm import (
+    DispersionSettings,
+    ReleaseElement,
+    rectangle_elements,
+    source_concentration_g_m3_per_g_s,
+)
+from siting.scenario import ROLES, Scenario, SourceSpec, load_scenario
+from siting.tables import Tables, load_tables
+from siting.weather import read_frequency_table
+
+MAX_GRID_CELLS = 2_000_000
+AREA_MAX_ELEMENTS = 100
+
+CAUTIONS = [
+    "Screening estimate from a simplified model: flat terrain, no building wake, long-term "
+    "annual means from a Gaussian plume; not a substitute for detailed modelling.",
+    "Emission factors and deposition velocities carry wide uncertainty; results depend on the "
+    "weather data and emission figures supplied.",
+    "Screening thresholds here are defaults; local regulations and the competent authority "
+    "decide. For borderline results seek detailed modelling by qualified practitioners.",
+]
+
+
+@dataclass
+class ScreenResult:
+    """Everything a screening run produced, in memory (see outputs.write_outputs)."""
+
+    scenario: Scenario
+    tables: Tables
+    grid: GridSpec
+    weather_summary: dict
+    sources: pd.DataFrame
+    source_geometries: list
+    sites: "object"  # GeoDataFrame
+    receptors: pd.DataFrame
+    fields: dict[str, np.ndarray]
+    warnings: list[str] = field(default_factory=list)
+    timings_s: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def cautions(self) -> list[str]:
+        return list(CAUTIONS)
+
+
+def _source_elements(src: SourceSpec) -> tuple[list[ReleaseElement], object]:
+    """Release elements of a source and its footprint geometry (shapely)."""
+    import shapely
+    from shapely import affinity
+
+    if src.kind == "point":
+        return ([ReleaseElement(src.x, src.y, src.height_m, diameter_m=src.diameter_m or 0.0,
+                                exit_velocity_m_s=src.exit_velocity_m_s or 0.0)],
+                shapely.Point(src.x, src.y))
+    rect = shapely.box(src.x - src.width_m / 2, src.y - src.length_m / 2,
+                       src.x + src.width_m / 2, src.y + src.length_m / 2)
+    footprint = affinity.rotate(rect, -src.angle_deg, origin=(src.x, src.y))
+    if src.kind == "area":
+        size = max(5.0, math.sqrt(src.width_m * src.length_m / AREA_MAX_ELEMENTS))
+        return (rectangle_elements(src.x, src.y, src.width_m, src.length_m, src.angle_deg,
+                                   src.height_m, element_size_m=size), footprint)
+    # volume: a line of adjacent volumes along the length axis, each roughly square;
+    # sigma_y0 = side / 4.3, sigma_z0 = building height / 2.15 (EPA1992 initial dimensions)
+    n = max(1, int(round(src.length_m / src.width_m)))
+    side = math.sqrt(src.width_m * src.length_m / n)
+    building_m = src.building_height_m or src.height_m
+    a = math.radians(src.angle_deg)
+    offsets = (np.arange(n) + 0.5) * src.length_m / n - src.length_m / 2
+    return ([ReleaseElement(src.x + t * math.sin(a), src.y + t * math.cos(a), src.height_m,
+                            sigma_y0_m=side / 4.3, sigma_z0_m=building_m / 2.15,
+                            share_fraction=1.0 / n, min_distance_m=1.0)
+             for t in offsets], footprint)
+
+
+def derive_sources(scenario: Scenario, tables: Tables) -> tuple[pd.DataFrame, list[str]]:
+    """One row per source: the emission derivation down to g/s, with range flags."""
+    rows, warnings = [], []
+    for src in scenario.sources:
+        where = f'source "{src.id}"'
+        factor_row = technique = None
+        if src.nh3_kg_per_year is None:
+            factor_row = tables.factor(src.livestock, src.housing, where)
+        reduction, treated = 0.0, 1.0
+        flag = ""
+        if src.abatement:
+            technique = tables.technique(src.abatement, where)
+            reduction = (src.reduction_percent if src.reduction_percent is not None
+                         else technique["reduction_percent_default"])
+            treated = src.treated_air_fraction if src.treated_air_fraction is not None else 1.0
+            lo, hi = technique["reduction_percent_min"], technique["reduction_percent_max"]
+            if not lo <= reduction <= hi:
+                flag = (f"reduction {reduction:g} % is outside the published range "
+                        f"{lo:g}-{hi:g} % for {technique['name']}")
+                warnings.append(f"{where}: {flag}")
+        is_scrubber = bool(technique) and technique["kind"] == "scrubber"
+        d = derive_emission(
+            nh3_unabated_kg_yr=src.nh3_kg_per_year,
+            factor_nh3_kg_per_place_yr=factor_row["nh3_kg_per_place_yr"] if factor_row else None,
+            places=src.places if factor_row else None,
+            reduction_percent=reduction, treated_air_fraction=treated,
+            effluent_kg_n_per_m3=technique.get("effluent_kg_n_per_m3") if technique else None,
+            captures_in_effluent=is_scrubber)
+        rows.append({
+            "source_id": src.id, "kind": src.kind, "role": src.role, "x_m": src.x, "y_m": src.y,
+            "height_m": src.height_m, "livestock": src.livestock or "",
+            "housing": src.housing or "", "places": src.places,
+            "factor_nh3_kg_per_place_yr": d.factor_nh3_kg_per_place_yr,
+            "factor_source": factor_row["source"] if factor_row else "given in scenario",
+            "nh3_unabated_kg_yr": d.nh3_unabated_kg_yr,
+            "abatement": src.abatement or "",
+            "reduction_percent": d.reduction_percent if src.abatement else np.nan,
+            "reduction_range_percent": (f"{technique['reduction_percent_min']:g}-"
+                                        f"{technique['reduction_percent_max']:g}"
+                                        if technique else ""),
+            "reduction_source": technique["source"] if technique else "",
+            "reduction_flag": flag,
+            "treated_air_fraction": d.treated_air_fraction if src.abatement else np.nan,
+            "effective_reduction_percent": d.effective_reduction_percent,
+            "nh3_kg_yr": d.nh3_kg_yr,
+            "emission_g_s": d.emission_g_s,
+            "nh3_removed_kg_yr": d.nh3_removed_kg_yr,
+            "n_captured_kg_yr": d.n_captured_kg_yr if d.n_captured_kg_yr is not None else np.nan,
+            "effluent_m3_yr": d.effluent_m3_yr if d.effluent_m3_yr is not None else np.nan,
+        })
+    return pd.DataFrame(rows), warnings
+
+
+def _read_named_receptors(scenario: Scenario, tables: Tables) -> pd.DataFrame:
+    empty = pd.DataFrame({"id": [], "x": [], "y": [], "land_cover": []})
+    if scenario.receptors is None:
+        return empty
+    path = scenario.receptors.file
+    try:
+        table = pd.read_csv(path, skipinitialspace=True, dtype={"id": str})
+    except Exception as exc:
+        raise InputError(f"receptors.file {path.name}: cannot read as CSV: {exc}") from exc
+    missing = [c for c in ("id", "x", "y") if c not in table.columns]
+    if missing:
+        raise InputError(f"receptors.file {path.name}: missing column(s) {', '.join(missing)}; "
+                         "need id,x,y[,land_cover]")
+    for col in ("x", "y"):
+        values = pd.to_numeric(table[col], errors="coerce")
+        if values.isna().any():
+            row = int(np.flatnonzero(values.isna().to_numpy())[0]) + 2
+            raise InputError(f"receptors.file {path.name}, line {row}: {col} must be a number")
+        table[col] = values
+    if "land_cover" not in table.columns:
+        table["land_cover"] = scenario.deposition.depletion_land_cover
+    table["land_cover"] = table["land_cover"].fillna(scenario.deposition.depletion_land_cover)
+    unknown = set(table["land_cover"]) - set(tables.deposition_velocities)
+    if unknown:
+        raise InputError(f"receptors.file {path.name}: unknown land_cover {sorted(unknown)}; "
+                         f"known: {', '.join(sorted(tables.deposition_velocities))}")
+    if table["id"].duplicated().any():
+        raise InputError(f"receptors.file {path.name}: duplicate id "
+                         f"{table['id'][table['id'].duplicated()].iloc[0]!r}")
+    return table[["id", "x", "y", "land_cover"]]
+
+
+def _progress(enabled: bool):
+    if not enabled:
+        return None
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    return Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.completed}/{task.total}"),
+                    TimeElapsedColumn(), transient=True)
+
+
+def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> ScreenResult:
+    """Run a full screening assessment of a scenario (a file path or a loaded Scenario)."""
+    import geopandas as gpd
+    import shapely
+
+    clock = {"start": time.perf_counter()}
+    if not isinstance(scenario, Scenario):
+        scenario = load_scenario(scenario)
+    tables = load_tables(scenario.assessment.config_dir)
+    if scenario.deposition.depletion_land_cover not in tables.deposition_velocities:
+        raise InputError(f'deposition.depletion_land_cover "{scenario.deposition.depletion_land_cover}"'
+                         f" is not in deposition_velocities.toml")
+    weather, weather_summary, warnings = read_frequency_table(
+        scenario.weather.frequency_table, scenario.weather.anemometer_height_m,
+        scenario.weather.min_wind_speed_m_s)
+    sources, source_warnings = derive_sources(scenario, tables)
+    warnings += source_warnings
+    sites, habitat_warnings = read_habitats(scenario.habitats, scenario.crs, tables,
+                                            scenario.assessment.critical_load_end)
+    warnings += habitat_warnings
+    named = _read_named_receptors(scenario, tables)
+
+    grid = grid_around([s.x for s in scenario.sources], [s.y for s in scenario.sources],
+                       scenario.grid.margin_m, scenario.grid.spacing_m, scenario.crs)
+    if grid.size > MAX_GRID_CELLS:
+        raise InputError(f"grid: {grid.n_cols} x {grid.n_rows} = {grid.size:,} cells exceeds "
+                         f"{MAX_GRID_CELLS:,}; increase grid.spacing_m or reduce grid.margin_m")
+    gx, gy = grid.centres()
+    extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
+    assessed = np.array([g.intersects(extent) for g in sites.geometry])
+    for name in sites.loc[~assessed, "name"]:
+        warnings.append(f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)')
+
+    elements_and_shapes = [_source_elements(s) for s in scenario.sources]
+    all_x = np.concatenate([[e.x_m for e in els] for els, _ in elements_and_shapes])
+    all_y = np.concatenate([[e.y_m for e in els] for els, _ in elements_and_shapes])
+    assessed_idx = np.flatnonzero(assessed)
+    s_index, s_x, s_y, s_interior = site_sample_points(
+        sites.geometry.iloc[assessed_idx], [s.x for s in scenario.sources],
+        [s.y for s in scenario.sources], scenario.grid.spacing_m)
+    s_index = assessed_idx[s_index] if len(s_index) else s_index
+
+    # every receptor in one flat array: grid cells, named points, site sample points
+    rx = np.concatenate([gx.ravel(), named["x"].to_numpy(float), s_x])
+    ry = np.concatenate([gy.ravel(), named["y"].to_numpy(float), s_y])
+    n_grid, n_named = grid.size, len(named)
+
+    # deposition velocity of each receptor by land cover
+    default_vd = tables.deposition_velocities[scenario.deposition.depletion_land_cover][
+        "deposition_velocity_m_s"]
+    vd = np.full(rx.size, default_vd, dtype=float)
+    member_site, member_receptor, member_interior = [s_index], [n_grid + n_named + np.arange(len(s_x))], [s_interior]
+    for i in assessed_idx:
+        geom = sites.geometry.iloc[i]
+        inside = np.flatnonzero(shapely.contains_xy(geom, rx[:n_grid], ry[:n_grid]))
+        vd[inside] = sites["deposition_velocity_m_s"].iloc[i]
+        member_site.append(np.full(inside.size, i)); member_receptor.append(inside)
+        member_interior.append(np.ones(inside.size, bool))
+    named_vd = named["land_cover"].map(
+        {k: v["deposition_velocity_m_s"] for k, v in tables.deposition_velocities.items()})
+    vd[n_grid:n_grid + n_named] = named_vd.to_numpy(float)
+    vd[n_grid + n_named:] = sites["deposition_velocity_m_s"].to_numpy()[s_index] if len(s_index) else []
+    member_site = np.concatenate(member_site).astype(int)
+    member_receptor = np.concatenate(member_receptor).astype(int)
+    member_interior = np.concatenate(member_interior).astype(bool)
+    clock["inputs"] = time.perf_counter()
+
+    settings = DispersionSettings(
+        scheme=tables.sigma_scheme(scenario.weather.land_type, scenario.weather.sigma_scheme),
+        wind_exponents=tables.wind_exponents(scenario.weather.land_type),
+        mixing_height_m=scenario.weather.mixing_height_m,
+        depletion_velocity_m_s=default_vd if scenario.deposition.plume_depletion else None)
+    conc_by_role = {role: np.zeros(rx.size) for role in ROLES}
+    bar = _progress(progress)
+    task = bar.add_task("dispersion", total=len(scenario.sources)) if bar else None
+    if bar:
+        bar.start()
+    try:
+        for src, (elements, _), emission_g_s in zip(scenario.sources, elements_and_shapes,
+                                                    sources["emission_g_s"]):
+            if emission_g_s > 0:
+                unit = source_concentration_g_m3_per_g_s(rx, ry, elements, weather, settings)
+                conc_by_role[src.role] += emission_g_s * unit * UG_PER_G
+            if bar:
+                bar.advance(task)
+    finally:
+        if bar:
+            bar.stop()
+    clock["dispersion"] = time.perf_counter()
+
+    combos = {
+        "pc": conc_by_role["proposed"] + conc_by_role["existing"],
+        "net": conc_by_role["proposed"] - conc_by_role["removed"],
+    }
+    combos["incomb"] = combos["pc"] + conc_by_role["other"]
+    dep = {k: deposition_kg_n_ha_yr(v, vd) for k, v in combos.items()}
+
+    # per-site statistics
+    n_sites = len(sites)
+    results = {}
+    for key in combos:
+        c_max, c_mean = assess.site_max_and_mean(combos[key][member_receptor], member_site,
+                                                 member_interior, n_sites)
+        d_max, d_mean = assess.site_max_and_mean(dep[key][member_receptor], member_site,
+                                                 member_interior, n_sites)
+        results[key] = (c_max, c_mean, d_max, d_mean)
+    level = sites["critical_level_ug_m3"].to_numpy()
+    load = sites["critical_load_used_kg_n_ha_yr"].to_numpy()
+    out = sites.copy()
+    for key, (c_max, c_mean, d_max, d_mean) in results.items():
+        out[f"{key}_conc_max_ug_m3"] = c_max
+        if key == "pc":
+            out["pc_conc_mean_ug_m3"] = c_mean
+        out[f"{key}_dep_max_kg_n_ha_yr"] = d_max
+        if key == "pc":
+            out["pc_dep_mean_kg_n_ha_yr"] = d_mean
+            out["pc_dep_max_mol_n_ha_yr"] = kg_n_to_mol_n(d_max)
+            out["pc_dep_max_keq_ha_yr"] = d_max * KEQ_PER_KG_N
+        out[f"{key}_pct_level"] = assess.percent_of(c_max, level)
+        out[f"{key}_pct_load"] = assess.percent_of(d_max, load)
+    out["pec_conc_ug_m3"] = out["background_conc_ug_m3"] + out["pc_conc_max_ug_m3"]
+    out["pec_dep_kg_n_ha_yr"] = out["background_dep_kg_n_ha_yr"] + out["pc_dep_max_kg_n_ha_yr"]
+    out["pec_pct_level"] = assess.percent_of(out["pec_conc_ug_m3"], level)
+    out["pec_pct_load"] = assess.percent_of(out["pec_dep_kg_n_ha_yr"], load)
+    installation = [(s.x, s.y) for s in scenario.sources if s.role in ("proposed", "existing")]
+    installation_shapes = [shape for s, (_, shape) in zip(scenario.sources, elements_and_shapes)
+                           if s.role in ("proposed", "existing")]
+    if installation_shapes:
+        union = shapely.union_all(installation_shapes)
+        out["distance_m"] = [g.distance(union) for g in sites.geometry]
+    else:
+        out["distance_m"] = np.nan
+    out["assessed"] = assessed
+    out["verdict"] = assess.verdict(out["pc_pct_level"].to_numpy(), out["pc_pct_load"].to_numpy(),
+                                    out["threshold_percent"].to_numpy(), assessed)
+    for col in [c for c in out.columns if c.startswith(("pc_", "net_", "incomb_", "pec_"))]:
+        out.loc[~assessed, col] = np.nan
+    if not installation:
+        warnings.append("no proposed or existing source: the installation's PC is zero")
+
+    receptors = named.copy()
+    sl = slice(n_grid, n_grid + n_named)
+    receptors["conc_ug_m3"] = combos["pc"][sl]
+    receptors["dep_kg_n_ha_yr"] = dep["pc"][sl]
+    receptors["dep_mol_n_ha_yr"] = kg_n_to_mol_n(dep["pc"][sl])
+    receptors["deposition_velocity_m_s"] = vd[sl]
+    receptors["net_conc_ug_m3"] = combos["net"][sl]
+    receptors["net_dep_kg_n_ha_yr"] = dep["net"][sl]
+    receptors["incomb_conc_ug_m3"] = combos["incomb"][sl]
+    receptors["incomb_dep_kg_n_ha_yr"] = dep["incomb"][sl]
+
+    shape = (grid.n_rows, grid.n_cols)
+    fields = {
+        "pc_conc_ug_m3": combos["pc"][:n_grid].reshape(shape),
+        "pc_dep_kg_n_ha_yr": dep["pc"][:n_grid].reshape(shape),
+        "incomb_dep_kg_n_ha_yr": dep["incomb"][:n_grid].reshape(shape),
+        "net_dep_kg_n_ha_yr": dep["net"][:n_grid].reshape(shape),
+    }
+    clock["assessment"] = time.perf_counter()
+    timings = {"inputs_s": clock["inputs"] - clock["start"],
+               "dispersion_s": clock["dispersion"] - clock["inputs"],
+               "assessment_s": clock["assessment"] - clock["dispersion"],
+               "receptors": int(rx.size)}
+    source_shapes = [shape for _, shape in elements_and_shapes]
+    return ScreenResult(scenario, tables, grid, weather_summary, sources, source_shapes,
+                        gpd.GeoDataFrame(out, geometry="geometry", crs=scenario.crs),
+                        receptors, fields, warnings, timings)

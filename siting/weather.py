@@ -1,0 +1,116 @@
+"""Weather frequency table: CSV -> :class:`~siting.longterm.WeatherClasses` and a summary.
+
+CSV columns: ``direction_deg,speed_m_s,stability,frequency`` — the direction the wind blows FROM
+(sector centre, degrees clockwise from north), the class speed at anemometer height, the
+Pasquill class A-F and the frequency (fractions summing to 1, or counts, normalised here). The
+sectors are the table's distinct directions, which must be evenly spaced round the compass;
+rows of zero frequency are allowed. An adapter: reads, checks, converts; no physics.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from siting.errors import InputError
+from siting.longterm import WeatherClasses
+from siting.plume import STABILITY_CLASSES
+
+COLUMNS = ("direction_deg", "speed_m_s", "stability", "frequency")
+
+
+def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
+                         min_wind_speed_m_s: float = 1.0) -> tuple[WeatherClasses, dict, list[str]]:
+    """Read and check a frequency table.
+
+    Returns
+    -------
+    weather : WeatherClasses
+    summary : dict
+        Sectors, speed classes, share by stability class, mean speed, raised share.
+    warnings : list of str
+        Legal but doubtful content (speeds raised to the floor).
+    """
+    name = Path(path).name
+    try:
+        table = pd.read_csv(path, skipinitialspace=True, comment="#")
+    except Exception as exc:  # pandas raises several types for unreadable text
+        raise InputError(f"{name}: cannot read as CSV: {exc}") from exc
+    table.columns = [str(c).strip() for c in table.columns]
+    missing = [c for c in COLUMNS if c not in table.columns]
+    if missing:
+        raise InputError(f"{name}: missing column(s) {', '.join(missing)}; need "
+                         f"{','.join(COLUMNS)} (got {','.join(table.columns)})")
+    if table.empty:
+        raise InputError(f"{name}: the table has no rows")
+    for col in ("direction_deg", "speed_m_s", "frequency"):
+        values = pd.to_numeric(table[col], errors="coerce")
+        bad = values.isna()
+        if bad.any():
+            row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
+            raise InputError(f"{name}, line {row}: {col} must be a number, got "
+                             f"{table[col].iloc[row - 2]!r}")
+        table[col] = values.astype(float)
+    stability = table["stability"].astype(str).str.strip().str.upper()
+    bad = ~stability.isin(STABILITY_CLASSES)
+    if bad.any():
+        row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
+        raise InputError(f"{name}, line {row}: stability must be one of A-F (Pasquill class), "
+                         f"got {table['stability'].iloc[row - 2]!r}")
+    direction = table["direction_deg"].to_numpy()
+    if ((direction < 0) | (direction > 360)).any():
+        row = int(np.flatnonzero((direction < 0) | (direction > 360))[0]) + 2
+        raise InputError(f"{name}, line {row}: direction_deg must be within 0..360, got "
+                         f"{direction[row - 2]}")
+    direction = np.round(direction % 360.0, 6)
+    speed = table["speed_m_s"].to_numpy()
+    if (speed < 0).any():
+        raise InputError(f"{name}: speed_m_s must be >= 0, got {speed.min()}")
+    freq = table["frequency"].to_numpy()
+    if (freq < 0).any():
+        raise InputError(f"{name}: frequency must be >= 0, got {freq.min()}")
+    total = freq.sum()
+    if total <= 0:
+        raise InputError(f"{name}: frequencies sum to zero")
+
+    sectors = np.unique(direction)
+    n = len(sectors)
+    if n < 4:
+        raise InputError(f"{name}: need at least 4 direction sectors, got {n}")
+    gaps = np.diff(np.concatenate((sectors, [sectors[0] + 360.0])))
+    if not np.allclose(gaps, 360.0 / n, atol=1e-3):
+        raise InputError(f"{name}: the {n} distinct directions must be evenly spaced "
+                         f"({360.0 / n:g} deg apart); got {', '.join(f'{d:g}' for d in sectors)}")
+
+    warnings = []
+    raised = speed < min_wind_speed_m_s
+    raised_share = float(freq[raised].sum() / total)
+    if raised.any():
+        warnings.append(f"{name}: {raised_share:.1%} of the time has class speeds below "
+                        f"{min_wind_speed_m_s} m/s; raised to that floor (plume formula needs u > 0)")
+    speed = np.maximum(speed, min_wind_speed_m_s)
+    speeds = np.unique(speed)
+    frequency = np.zeros((n, len(speeds), len(STABILITY_CLASSES)))
+    k = np.searchsorted(sectors, direction)
+    j = np.searchsorted(speeds, speed)
+    s = stability.map({c: i for i, c in enumerate(STABILITY_CLASSES)}).to_numpy()
+    np.add.at(frequency, (k, j, s), freq / total)
+    weather = WeatherClasses(sectors, speeds, frequency, anemometer_height_m)
+    by_class = frequency.sum(axis=(0, 1))
+    by_sector = frequency.sum(axis=(1, 2))
+    summary = {
+        "file": name,
+        "sectors": n,
+        "sector_width_deg": 360.0 / n,
+        "speed_classes_m_s": [float(v) for v in speeds],
+        "mean_speed_m_s": float((frequency.sum(axis=(0, 2)) * speeds).sum()),
+        "stability_share": {c: float(by_class[i]) for i, c in enumerate(STABILITY_CLASSES)},
+        "prevailing_from_deg": float(sectors[int(np.argmax(by_sector))]),
+        "share_raised_to_min_speed": raised_share,
+        "anemometer_height_m": anemometer_height_m,
+        "rows": int(len(table)),
+        "frequencies_given_as": "fractions" if abs(total - 1.0) < 1e-3 else "counts (normalised)",
+    }
+    return weather, summary, warnings
