@@ -1,0 +1,31 @@
+"""siting: screening of livestock-housing ammonia against protected habitats.
+
+A small public API for notebooks and scripts; the CLI (``siting``) is built on it.
+
+    >>> import siting
+    >>> scenario = siting.load_scenario("data_demo/scenario.toml")
+    >>> result = siting.screen(scenario)
+    >>> siting.write_outputs(result, "maps/demo")
+
+Results are screening estimates from a simplified model; see the cautions in every output.
+"""
+
+from siting.errors import InputError, InputFileError, OutputExistsError, SitingError
+from siting.outputs import write_outputs
+from siting.scenario import Scenario, load_scenario
+from siting.screen import ScreenResult, screen
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "InputError",
+    "InputFileError",
+    "OutputExistsError",
+    "Scenario",
+    "ScreenResult",
+    "SitingError",
+    "__version__",
+    "load_scenario",
+    "screen",
+    "write_outputs",
+]

@@ -1,0 +1,224 @@
+"""Writing a screening run's outputs: tables, GeoTIFFs, run.json, report and map.
+
+An adapter. Everything is written into a temporary folder beside the target and moved into
+place only when complete, so a failed run leaves nothing half-written and an earlier result is
+replaced only with ``overwrite`` (and only once the new one is whole).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import platform
+import shutil
+import tempfile
+from datetime import datetime, timezone
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from siting.errors import OutputExistsError
+from siting.grids import write_geotiff
+
+SITE_COLUMNS = [
+    "site_id", "name", "designation", "tier", "habitat", "habitat_name", "area_ha",
+    "land_cover", "deposition_velocity_m_s", "distance_m",
+    "critical_level_ug_m3", "critical_level_source",
+    "critical_load_min_kg_n_ha_yr", "critical_load_max_kg_n_ha_yr",
+    "critical_load_used_kg_n_ha_yr", "critical_load_source",
+    "threshold_percent", "threshold_source", "assessed",
+    "pc_conc_max_ug_m3", "pc_conc_mean_ug_m3", "pc_dep_max_kg_n_ha_yr", "pc_dep_mean_kg_n_ha_yr",
+    "pc_dep_max_mol_n_ha_yr", "pc_dep_max_keq_ha_yr", "pc_pct_level", "pc_pct_load",
+    "net_conc_max_ug_m3", "net_dep_max_kg_n_ha_yr", "net_pct_level", "net_pct_load",
+    "incomb_conc_max_ug_m3", "incomb_dep_max_kg_n_ha_yr", "incomb_pct_level", "incomb_pct_load",
+    "background_conc_ug_m3", "background_dep_kg_n_ha_yr", "pec_conc_ug_m3",
+    "pec_dep_kg_n_ha_yr", "pec_pct_level", "pec_pct_load", "verdict",
+]
+
+METHOD_NOTES = [
+    "Emission = factor [kg NH3/place/yr] x places, or a figure given directly; less abatement: "
+    "effective reduction = technique reduction x share of the house's ammonia treated.",
+    "Dispersion: ground-reflected Gaussian plume, sector-averaged over the weather frequency "
+    "table (long-term annual mean), Briggs (1973) dispersion coefficients for the chosen land "
+    "type, power-law wind profile by stability class (Irwin 1979 exponents), optional "
+    "reflection at a mixing lid. Values are interpolated linearly in angle between sector "
+    "centre lines.",
+    "Point sources with an exit velocity get momentum plume rise (Briggs); without one, none. "
+    "Houses as volume sources use initial spreads side/4.3 and building height/2.15 with the "
+    "virtual-distance method (US EPA 1992, 1995); area sources are integrated over a lattice of "
+    "small elements.",
+    "Dry deposition = deposition velocity x ground-level concentration, velocity by land cover "
+    "(short vegetation or woodland); plume depletion by the source-depletion method "
+    "(Chamberlain) when switched on, using the short-vegetation velocity along the path.",
+    "Site figures: maximum over receptor points on the site (boundary points nearest each "
+    "source, an interior lattice, grid nodes inside) and mean over its interior points. "
+    "PC = proposed + existing sources; net change = proposed - removed; in-combination = PC + "
+    "other; predicted environmental total = background + PC.",
+    "Verdict: 'below threshold' when the PC is at or under the screening threshold of the site's "
+    "designation tier as a % of both the critical level and the critical load; otherwise "
+    "'above threshold' (further assessment needed).",
+]
+
+
+def sha256_of(path: Path) -> str:
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def check_output_dir(out_dir: Path, overwrite: bool) -> None:
+    """Refuse early (before any work) when the output folder exists without ``overwrite``."""
+    if out_dir.exists() and not overwrite:
+        raise OutputExistsError(f"{out_dir}: output folder exists; pass --overwrite to replace it")
+    if out_dir.exists() and not out_dir.is_dir():
+        raise OutputExistsError(f"{out_dir}: exists and is not a folder")
+
+
+def _input_files(result) -> dict[str, Path]:
+    scenario = result.scenario
+    files = {"scenario": scenario.path, "weather": scenario.weather.frequency_table}
+    habitat = scenario.habitats.file
+    if habitat.suffix.lower() == ".shp":  # a shapefile is several files
+        for sidecar in sorted(habitat.parent.glob(habitat.stem + ".*")):
+            files[f"habitats{sidecar.suffix}"] = sidecar
+    else:
+        files["habitats"] = habitat
+    if scenario.receptors is not None:
+        files["receptors"] = scenario.receptors.file
+    return files
+
+
+def run_record(result, run_time: str) -> dict:
+    """What run.json holds: inputs with SHA-256, parameters, versions, time, warnings."""
+    import folium
+    import geopandas
+    import rasterio
+    import shapely
+
+    from siting import __version__
+
+    inputs = {key: {"path": str(path), "sha256": sha256_of(path)}
+              for key, path in _input_files(result).items() if path is not None}
+    tables = {name: {"path": str(result.tables.folder / name), "sha256": digest}
+              for name, digest in result.tables.files_sha256.items()}
+    return {
+        "tool": "siting",
+        "version": __version__,
+        "run_time_utc": run_time,
+        "title": result.scenario.title,
+        "inputs": inputs,
+        "config_tables": tables,
+        "parameters": json.loads(result.scenario.model_dump_json(by_alias=True)),
+        "grid": {"west_m": result.grid.west_m, "north_m": result.grid.north_m,
+                 "cell_m": result.grid.cell_m, "n_cols": result.grid.n_cols,
+                 "n_rows": result.grid.n_rows, "crs": result.grid.crs},
+        "weather_summary": result.weather_summary,
+        "timings_s": result.timings_s,
+        "warnings": result.warnings,
+        "cautions": result.cautions,
+        "versions": {"python": platform.python_version(), "numpy": np.__version__,
+                     "pandas": pd.__version__, "geopandas": geopandas.__version__,
+                     "shapely": shapely.__version__, "rasterio": rasterio.__version__,
+                     "folium": folium.__version__},
+    }
+
+
+def _habitat_values(sites) -> pd.DataFrame:
+    cols = ["habitat", "habitat_name", "land_cover", "deposition_velocity_m_s",
+            "deposition_velocity_source", "critical_load_min_kg_n_ha_yr",
+            "critical_load_max_kg_n_ha_yr", "critical_load_used_kg_n_ha_yr",
+            "critical_load_source", "critical_level_ug_m3", "critical_level_source"]
+    return pd.DataFrame(sites[cols]).drop_duplicates().reset_index(drop=True)
+
+
+def _contour_levels(sites) -> list[tuple[float, str]]:
+    """Deposition contours at each assessed site's threshold share of its critical load."""
+    levels = {}
+    for row in sites.itertuples():
+        if not row.assessed:
+            continue
+        value = row.threshold_percent / 100.0 * row.critical_load_used_kg_n_ha_yr
+        label = (f"{row.threshold_percent:g} % of {row.critical_load_used_kg_n_ha_yr:g} "
+                 f"kg N/ha/yr = {value:.3g} kg N/ha/yr")
+        levels.setdefault(round(value, 6), label)
+    return sorted(levels.items())
+
+
+def _write_all(result, folder: Path, run_time: str) -> None:
+    import geopandas as gpd
+
+    from siting import __version__
+    from siting.report import deposition_figure, pc_vs_distance_figure, write_report
+    from siting.webmap import write_screen_map
+
+    grid = result.grid
+    write_geotiff(folder / "concentration.tif", grid, result.fields["pc_conc_ug_m3"],
+                  "annual mean NH3 concentration, process contribution (screening estimate)",
+                  "ug/m3")
+    write_geotiff(folder / "deposition.tif", grid, result.fields["pc_dep_kg_n_ha_yr"],
+                  "dry deposition of N from NH3, process contribution (screening estimate)",
+                  "kg N/ha/yr")
+    write_geotiff(folder / "deposition_in_combination.tif", grid,
+                  result.fields["incomb_dep_kg_n_ha_yr"],
+                  "dry deposition of N from NH3, process contribution + other sources",
+                  "kg N/ha/yr")
+    sites = result.sites
+    table = pd.DataFrame(sites[SITE_COLUMNS])
+    table.to_csv(folder / "sites.csv", index=False, float_format="%.6g")
+    gpd.GeoDataFrame(table, geometry=sites.geometry, crs=sites.crs).to_file(
+        folder / "sites.gpkg", layer="sites", driver="GPKG")
+    result.receptors.to_csv(folder / "receptors.csv", index=False, float_format="%.6g")
+    result.sources.to_csv(folder / "sources.csv", index=False, float_format="%.6g")
+    record = run_record(result, run_time)
+    (folder / "run.json").write_text(json.dumps(record, indent=2, default=str), encoding="utf-8")
+
+    sources_gdf = gpd.GeoDataFrame(result.sources.copy(), geometry=result.source_geometries,
+                                   crs=result.scenario.crs)
+    contours = _contour_levels(sites)
+    write_screen_map(folder / "map.html", title=result.scenario.title, crs=result.scenario.crs,
+                     west_m=grid.west_m, north_m=grid.north_m, cell_m=grid.cell_m,
+                     deposition_kg_n_ha_yr=result.fields["pc_dep_kg_n_ha_yr"], sites=sites,
+                     sources=sources_gdf, contours=contours, cautions=result.cautions,
+                     version=__version__, run_time=run_time)
+    figures = {
+        "Deposition (process contribution) with habitat sites and sources":
+            deposition_figure(result.fields["pc_dep_kg_n_ha_yr"], west_m=grid.west_m,
+                              north_m=grid.north_m, cell_m=grid.cell_m, sites=sites,
+                              sources=sources_gdf),
+        "Process contribution at each site against distance from the installation":
+            pc_vs_distance_figure(pd.DataFrame(sites.drop(columns="geometry"))),
+    }
+    write_report(folder / "report.html", title=result.scenario.title, version=__version__,
+                 run_time=run_time, scenario_file=str(result.scenario.path),
+                 sites=table, sources=result.sources, weather_summary=result.weather_summary,
+                 habitat_values=_habitat_values(sites), warnings=result.warnings,
+                 cautions=result.cautions, method_notes=METHOD_NOTES, run_record=record,
+                 figures=figures)
+
+
+def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
+    """Write every output of a screening run atomically into ``out_dir``; returns it."""
+    out_dir = Path(out_dir).resolve()
+    check_output_dir(out_dir, overwrite)
+    out_dir.parent.mkdir(parents=True, exist_ok=True)
+    run_time = datetime.now(timezone.utc).replace(microsecond=0).isoformat()
+    staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", suffix=".partial",
+                                    dir=out_dir.parent))
+    try:
+        _write_all(result, staging, run_time)
+        if out_dir.exists():
+            backup = out_dir.with_name(f".{out_dir.name}.old")
+            if backup.exists():
+                shutil.rmtree(backup)
+            out_dir.rename(backup)
+            staging.rename(out_dir)
+            shutil.rmtree(backup)
+        else:
+            staging.rename(out_dir)
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
+    return out_dir
