@@ -22,12 +22,12 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
+import pandas as pd
 
 from siting.errors import InputError
 
 if TYPE_CHECKING:  # imported for annotations only; the module does not need them at run time
     import geopandas as gpd
-    import pandas as pd
     from matplotlib.figure import Figure
 
 __all__ = [
@@ -39,6 +39,7 @@ __all__ = [
     "deposition_figure",
     "figure_png",
     "format_number",
+    "is_missing",
     "pc_vs_distance_figure",
     "write_report",
 ]
@@ -143,14 +144,26 @@ thead { display: table-header-group; }
 # --------------------------------------------------------------------------------------------
 
 
-def _is_missing(value: Any) -> bool:
-    """True for None, NaN, pandas NA/NaT and blank strings."""
+def is_missing(value: Any) -> bool:
+    """True for None, NaN, pandas NA/NaT and blank strings; False for anything else.
+
+    Parameters
+    ----------
+    value : any
+        A table cell or other value; list-like values count as present.
+
+    Returns
+    -------
+    missing : bool
+    """
     if value is None:
         return True
     if isinstance(value, str):
         return value.strip() == ""
+    if np.ndim(value) != 0:
+        return False
     try:
-        return bool(value != value)  # NaN, pd.NA raise or compare unequal to themselves
+        return bool(pd.isna(value))
     except (TypeError, ValueError):
         return False
 
@@ -174,7 +187,7 @@ def format_number(value: Any, unit: str = "", significant_digits: int = 3) -> st
         E.g. ``"0.0123 kg N/ha/yr"``, ``"1230"``, ``"4.56e-06"`` (below 1e-4 in scientific
         notation to stay short).
     """
-    if _is_missing(value):
+    if is_missing(value):
         return _MISSING
     if isinstance(value, str):
         return value
@@ -347,18 +360,21 @@ def deposition_figure(
     south_m = north_m - n_rows * cell_m
     edges = deposition_class_edges(grid)
     colours = deposition_class_colours(edges.size - 1)
-    cmap = ListedColormap(colours)
-    cmap.set_under((0, 0, 0, 0))
-    cmap.set_over(colours[-1])
-    cmap.set_bad((0, 0, 0, 0))
+    cmap = ListedColormap(colours).with_extremes(
+        under=(0, 0, 0, 0), over=colours[-1], bad=(0, 0, 0, 0)
+    )
     norm = BoundaryNorm(edges, cmap.N)
 
     fig = Figure(figsize=(7.5, 6.5))
     ax = fig.add_subplot()
     shown = np.ma.masked_invalid(grid)
     image = ax.imshow(
-        shown, cmap=cmap, norm=norm, extent=(west_m, east_m, south_m, north_m),
-        origin="upper", interpolation="nearest",
+        shown,
+        cmap=cmap,
+        norm=norm,
+        extent=(west_m, east_m, south_m, north_m),
+        origin="upper",
+        interpolation="nearest",
     )
     colourbar = fig.colorbar(image, ax=ax, extend="neither", shrink=0.85)
     colourbar.set_ticks(edges)
@@ -372,8 +388,9 @@ def deposition_figure(
         vmin, vmax = float(np.nanmin(grid)), float(np.nanmax(grid))
         inside = sorted({float(v) for v, _ in contours if vmin < float(v) < vmax})
         if inside:
-            contour_set = ax.contour(x_m, y_m, shown, levels=inside, colors="#202020",
-                                     linewidths=1.0, linestyles="--")
+            contour_set = ax.contour(
+                x_m, y_m, shown, levels=inside, colors="#202020", linewidths=1.0, linestyles="--"
+            )
             labels = {float(v): str(text) for v, text in contours}
             label_texts = ax.clabel(
                 contour_set, fmt={v: labels.get(v, format_number(v)) for v in inside}, fontsize=7
@@ -386,16 +403,29 @@ def deposition_figure(
             for ring in _polygon_rings(row.geometry):
                 ax.plot(ring[:, 0], ring[:, 1], color="#8a1c0a", linewidth=1.0)
             name = row.get("name")
-            if not _is_missing(name) and row.geometry is not None and not row.geometry.is_empty:
+            if not is_missing(name) and row.geometry is not None and not row.geometry.is_empty:
                 point = row.geometry.representative_point()
-                ax.annotate(str(name), (point.x, point.y), fontsize=7, ha="center",
-                            color="#3a0d05", parse_math=False)
+                ax.annotate(
+                    str(name),
+                    (point.x, point.y),
+                    fontsize=7,
+                    ha="center",
+                    color="#3a0d05",
+                    parse_math=False,
+                )
     if sources is not None and len(sources):
         points = [g.representative_point() for g in sources.geometry if g is not None]
         if points:
-            ax.plot([p.x for p in points], [p.y for p in points], linestyle="none", marker="^",
-                    markersize=7, markerfacecolor="#ffffff", markeredgecolor="#000000",
-                    label="sources")
+            ax.plot(
+                [p.x for p in points],
+                [p.y for p in points],
+                linestyle="none",
+                marker="^",
+                markersize=7,
+                markerfacecolor="#ffffff",
+                markeredgecolor="#000000",
+                label="sources",
+            )
     ax.set_xlim(west_m, east_m)
     ax.set_ylim(south_m, north_m)
     ax.set_aspect("equal")
@@ -442,19 +472,38 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     fig = Figure(figsize=(7.5, 4.8))
     ax = fig.add_subplot()
     if not keep.any():
-        ax.text(0.5, 0.5, "No site with a positive deposition to plot.", ha="center",
-                va="center", transform=ax.transAxes)
+        ax.text(
+            0.5,
+            0.5,
+            "No site with a positive deposition to plot.",
+            ha="center",
+            va="center",
+            transform=ax.transAxes,
+        )
         ax.set_axis_off()
         return figure_png(fig)
-    names = [str(n) if not _is_missing(n) else "" for n in sites["name"]]
+    names = [str(n) if not is_missing(n) else "" for n in sites["name"]]
     verdicts = list(sites["verdict"]) if "verdict" in sites else [None] * len(sites)
     colours = [VERDICT_COLOURS.get(str(v), VERDICT_COLOURS["not assessed"]) for v in verdicts]
     idx = np.flatnonzero(keep)
-    ax.scatter(distance_m[idx], dep_kg_n_ha_yr[idx], c=[colours[i] for i in idx], s=36,
-               zorder=3, edgecolors="#000000", linewidths=0.5)
+    ax.scatter(
+        distance_m[idx],
+        dep_kg_n_ha_yr[idx],
+        c=[colours[i] for i in idx],
+        s=36,
+        zorder=3,
+        edgecolors="#000000",
+        linewidths=0.5,
+    )
     for i in idx:
-        ax.annotate(names[i], (distance_m[i], dep_kg_n_ha_yr[i]), textcoords="offset points",
-                    xytext=(5, 4), fontsize=7, parse_math=False)
+        ax.annotate(
+            names[i],
+            (distance_m[i], dep_kg_n_ha_yr[i]),
+            textcoords="offset points",
+            xytext=(5, 4),
+            fontsize=7,
+            parse_math=False,
+        )
     if {"threshold_percent", "critical_load_used_kg_n_ha_yr"} <= set(sites.columns):
         threshold_kg_n_ha_yr = (
             np.asarray(sites["threshold_percent"], dtype=float)
@@ -463,9 +512,16 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
         )
         marks = idx[np.isfinite(threshold_kg_n_ha_yr[idx]) & (threshold_kg_n_ha_yr[idx] > 0)]
         if marks.size:
-            ax.scatter(distance_m[marks], threshold_kg_n_ha_yr[marks], marker="_", s=220,
-                       color="#000000", linewidths=1.5, zorder=2,
-                       label="screening threshold of the site")
+            ax.scatter(
+                distance_m[marks],
+                threshold_kg_n_ha_yr[marks],
+                marker="_",
+                s=220,
+                color="#000000",
+                linewidths=1.5,
+                zorder=2,
+                label="screening threshold of the site",
+            )
             ax.legend(fontsize=8, loc="best")
     ax.set_yscale("log")
     ax.set_xlabel("Distance from the nearest source [m]")
@@ -482,7 +538,7 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
 
 def _esc(value: Any) -> str:
     """HTML-escaped text of any value (None/NaN -> 'n/a')."""
-    if _is_missing(value):
+    if is_missing(value):
         return _MISSING
     return html.escape(str(value), quote=True)
 
@@ -490,7 +546,7 @@ def _esc(value: Any) -> str:
 def _cell(value: Any, kind: str) -> str:
     """One <td> of a table: numbers right-aligned and formatted, text escaped."""
     if kind == "verdict":
-        text = "" if _is_missing(value) else str(value)
+        text = "" if is_missing(value) else str(value)
         css, hint = _VERDICT_STYLE.get(text.strip().lower(), ("verdict-none", ""))
         shown = _esc(text) if text else _MISSING
         hint_html = f'<span class="verdict-hint">{html.escape(hint)}</span>' if hint else ""
@@ -508,7 +564,7 @@ def _non_empty_columns(frame: pd.DataFrame) -> list[str]:
     for column in frame.columns:
         if str(column) == "geometry":
             continue
-        if any(not _is_missing(v) for v in frame[column]):
+        if any(not is_missing(v) for v in frame[column]):
             keep.append(column)
     return keep
 
@@ -532,7 +588,7 @@ def _summary_table(sites: pd.DataFrame) -> str:
     """The summary table: one row per site, the columns of SUMMARY_COLUMNS."""
     columns = list(SUMMARY_COLUMNS)
     if _INCOMBINATION_COLUMN[0] in sites and any(
-        not _is_missing(v) for v in sites[_INCOMBINATION_COLUMN[0]]
+        not is_missing(v) for v in sites[_INCOMBINATION_COLUMN[0]]
     ):
         at = [c[0] for c in columns].index("pc_pct_load") + 1
         columns.insert(at, _INCOMBINATION_COLUMN)
@@ -542,7 +598,8 @@ def _summary_table(sites: pd.DataFrame) -> str:
         cells = "".join(_cell(record.get(key), kind) for key, _, kind in columns)
         rows.append(f'<tr class="site-row">{cells}</tr>')
     if not rows:
-        body = f'<tr><td colspan="{len(columns)}" class="empty">No habitat site in the layer.</td></tr>'
+        empty = "No habitat site in the layer."
+        body = f'<tr><td colspan="{len(columns)}" class="empty">{empty}</td></tr>'
     else:
         body = "".join(rows)
     return (
@@ -662,7 +719,7 @@ def write_report(
 
     counts = {}
     for verdict in sites["verdict"]:
-        key = "not assessed" if _is_missing(verdict) else str(verdict)
+        key = "not assessed" if is_missing(verdict) else str(verdict)
         counts[key] = counts.get(key, 0) + 1
     count_text = "; ".join(f"{n} {k}" for k, n in counts.items()) or "no sites"
 
@@ -713,8 +770,8 @@ def write_report(
         f"<style>{_CSS}</style></head><body>"
         f'<p class="caution-line">{html.escape(_CAUTION_TOP_LINE)}</p>'
         f"<h1>{_esc(title)}</h1>"
-        f'<p class="meta">Ammonia screening report · siting {_esc(version)} · run {_esc(run_time)}'
-        f" · scenario {_esc(scenario_file)}</p>"
+        f'<p class="meta">Ammonia screening report · siting {_esc(version)} · '
+        f"run {_esc(run_time)} · scenario {_esc(scenario_file)}</p>"
         f'<nav class="toc"><strong>Contents</strong><ol>{toc}</ol></nav>'
         f"{body}</body></html>\n"
     )

@@ -1,0 +1,612 @@
+"""The interactive screening map (map.html), built with folium.
+
+This adapter draws results computed elsewhere: the deposition grid reprojected to Web Mercator
+and coloured in log classes (an image overlay that needs no tile server), contour lines, habitat
+sites coloured by verdict with popups of their figures, the sources styled by role with their
+emission derivation, a legend, a title block with the cautions, a scale bar and a north arrow.
+An OpenStreetMap background is offered in the layer control, but everything we draw shows
+without it. No physics lives here.
+
+Every text that comes from a user file goes through :func:`escape_text` before it reaches the
+page. folium writes popup and tooltip content into JavaScript template literals without
+escaping, so HTML escaping alone is not enough: backticks, ``$``, braces and backslashes are
+turned into HTML character references too. Features are added one by one, with only their
+geometry in the GeoJSON, so no raw user property is ever embedded in the page.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import io
+import re
+import warnings
+from collections.abc import Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from siting.errors import InputError
+from siting.report import (
+    VERDICT_COLOURS,
+    deposition_class_colours,
+    deposition_class_edges,
+    format_number,
+    is_missing,
+)
+
+if TYPE_CHECKING:  # imported for annotations only
+    import folium
+    import geopandas as gpd
+
+__all__ = ["ROLE_STYLES", "escape_text", "write_screen_map"]
+
+#: Marker and outline style of each source role (our own palette).
+ROLE_STYLES: dict[str, dict[str, Any]] = {
+    "proposed": {"color": "#5c0a33", "fill_color": "#d81b60", "dash_array": None},
+    "existing": {"color": "#101820", "fill_color": "#455a64", "dash_array": None},
+    "removed": {"color": "#616161", "fill_color": "#ffffff", "dash_array": "4 3"},
+    "other": {"color": "#3e2723", "fill_color": "#a1887f", "dash_array": None},
+}
+
+#: Opacity of the deposition image overlay [0-1].
+_OVERLAY_OPACITY = 0.7
+
+_CONTOUR_COLOUR = "#111111"
+
+#: Characters that would still act inside a JavaScript template literal after html.escape.
+_JS_TEMPLATE_REPLACEMENTS = (
+    ("`", "&#96;"),
+    ("$", "&#36;"),
+    ("\\", "&#92;"),
+    ("{", "&#123;"),
+    ("}", "&#125;"),
+)
+
+#: Control characters, including the JavaScript line terminators U+2028 and U+2029.
+_CONTROL_CHARACTERS = re.compile("[\x00-\x1f\x7f\u2028\u2029]")
+
+_MAP_CSS = """
+<style>
+.siting-box { position: fixed; z-index: 1000; background: rgba(255,255,255,0.94);
+  border: 1px solid #8c96a3; border-radius: 4px; padding: 6px 10px; color: #1d2430;
+  font: 12px/1.35 "Segoe UI", "Helvetica Neue", Arial, sans-serif;
+  box-shadow: 0 1px 4px rgba(0,0,0,0.25); }
+.siting-title { top: 10px; left: 56px; max-width: 430px; }
+.siting-title h1 { font-size: 15px; margin: 0 0 2px; color: #23436b; }
+.siting-title .meta { color: #5a6472; margin-bottom: 4px; }
+.siting-title details { margin-top: 2px; }
+.siting-title summary { cursor: pointer; font-weight: 600; color: #7a5600; }
+.siting-title ul { margin: 3px 0 0; padding-left: 16px; }
+.siting-legend { bottom: 26px; right: 10px; max-height: 70vh; overflow-y: auto; }
+.siting-legend h2 { font-size: 12px; margin: 6px 0 3px; }
+.siting-legend h2:first-child { margin-top: 0; }
+.siting-legend .row { display: flex; align-items: center; gap: 6px; margin: 1px 0; }
+.siting-legend .swatch { width: 18px; height: 12px; border: 1px solid #555; flex: none; }
+.siting-legend .dot { width: 12px; height: 12px; border-radius: 50%; border: 2px solid #000;
+  flex: none; }
+.siting-legend .line { width: 22px; height: 0; border-top: 2px dashed #111; flex: none; }
+.siting-legend .note { color: #5a6472; font-size: 11px; }
+.siting-north { top: 92px; left: 10px; padding: 2px 4px; text-align: center; }
+.siting-popup table { border-collapse: collapse; }
+.siting-popup th { text-align: left; padding: 1px 8px 1px 0; font-weight: 600;
+  vertical-align: top; }
+.siting-popup td { padding: 1px 0; }
+.siting-popup .head { font-size: 13px; font-weight: 700; margin-bottom: 4px; }
+</style>
+"""
+
+_NORTH_ARROW = (
+    '<div class="siting-box siting-north" title="North is up">'
+    '<svg width="22" height="34" viewBox="0 0 22 34" aria-label="North arrow">'
+    '<text x="11" y="10" text-anchor="middle" font-size="10" font-weight="700" '
+    'font-family="Arial, sans-serif">N</text>'
+    '<polygon points="11,12 18,32 11,27 4,32" fill="#1d2430"/>'
+    "</svg></div>"
+)
+
+
+def escape_text(value: Any) -> str:
+    """Neutralise user text for any place in map.html: HTML and JavaScript template literals.
+
+    The value is HTML-escaped (``&``, ``<``, ``>``, both quotes), then the characters that still
+    act inside a JavaScript template literal become numeric character references: backtick
+    ``&#96;``, dollar ``&#36;``, backslash ``&#92;``, braces ``&#123;`` ``&#125;``. Control
+    characters and the line terminators U+2028/U+2029 become spaces. A browser shows the
+    result as the original text; neither HTML nor JavaScript can read code out of it.
+
+    Parameters
+    ----------
+    value : any
+        Text or any value with a ``str()``; None, NaN, pandas NA and blank text give ``""``.
+
+    Returns
+    -------
+    text : str
+        Safe to place in HTML, in attribute values and inside folium popups and tooltips.
+    """
+    if is_missing(value):
+        return ""
+    text = _CONTROL_CHARACTERS.sub(" ", str(value))
+    text = html.escape(text, quote=True)
+    for raw, reference in _JS_TEMPLATE_REPLACEMENTS:
+        text = text.replace(raw, reference)
+    return text
+
+
+def _num(value: Any, unit: str = "") -> str:
+    """Formatted, escaped number with unit ('n/a' when missing)."""
+    return escape_text(format_number(value, unit if not is_missing(value) else ""))
+
+
+def _num_or_blank(value: Any, unit: str = "") -> str:
+    """Like _num, but empty text when the value is missing (the popup row is then left out)."""
+    return "" if is_missing(value) else _num(value, unit)
+
+
+def _popup_table(head: str, rows: Sequence[tuple[str, str]]) -> str:
+    """Popup HTML from an escaped heading and (escaped label, escaped value) rows."""
+    body = "".join(f"<tr><th>{label}</th><td>{value}</td></tr>" for label, value in rows)
+    return f'<div class="siting-popup"><div class="head">{head}</div><table>{body}</table></div>'
+
+
+def _site_popup(row: Any) -> str:
+    """Popup HTML of one habitat site; every user value escaped."""
+    rows = [
+        ("Site id", escape_text(row.get("site_id"))),
+        ("Designation", escape_text(row.get("designation"))),
+        ("Habitat", escape_text(row.get("habitat"))),
+        ("Verdict", f"<strong>{escape_text(row.get('verdict')) or 'not assessed'}</strong>"),
+        ("PC max concentration", _num(row.get("pc_conc_max_ug_m3"), "µg NH3/m³")),
+        ("Critical level", _num(row.get("critical_level_ug_m3"), "µg NH3/m³")),
+        ("PC as % of level", _num(row.get("pc_pct_level"), "%")),
+        ("PC max deposition", _num(row.get("pc_dep_max_kg_n_ha_yr"), "kg N/ha/yr")),
+        ("Critical load used", _num(row.get("critical_load_used_kg_n_ha_yr"), "kg N/ha/yr")),
+        ("PC as % of load", _num(row.get("pc_pct_load"), "%")),
+        ("Screening threshold", _num(row.get("threshold_percent"), "%")),
+    ]
+    if not is_missing(row.get("incomb_pct_load")):
+        rows.append(("In-combination, % of load", _num(row.get("incomb_pct_load"), "%")))
+    rows = [(label, value) for label, value in rows if value]
+    return _popup_table(escape_text(row.get("name")) or "Unnamed site", rows)
+
+
+def _source_popup(row: Any) -> str:
+    """Popup HTML of one source: its release and emission derivation; user values escaped."""
+    fields = [
+        ("Kind", escape_text(row.get("kind"))),
+        ("Role", escape_text(row.get("role"))),
+        ("Release height", _num(row.get("height_m"), "m")),
+        ("Livestock", escape_text(row.get("livestock"))),
+        ("Housing", escape_text(row.get("housing"))),
+        ("Places", _num_or_blank(row.get("places"))),
+        (
+            "Emission factor",
+            _num_or_blank(row.get("factor_nh3_kg_per_place_yr"), "kg NH3/place/yr"),
+        ),
+        ("Abatement", escape_text(row.get("abatement"))),
+        ("Stated reduction", _num_or_blank(row.get("reduction_percent"), "%")),
+        ("Effective reduction", _num_or_blank(row.get("effective_reduction_percent"), "%")),
+        ("Reduction check", escape_text(row.get("reduction_flag"))),
+        ("Emission", _num(row.get("nh3_kg_yr"), "kg NH3/yr")),
+        ("Source strength", _num(row.get("emission_g_s"), "g/s")),
+    ]
+    rows = [(label, value) for label, value in fields if value]
+    if is_missing(row.get("places")) or is_missing(row.get("factor_nh3_kg_per_place_yr")):
+        rows.append(("Derivation", "emission given directly in the scenario"))
+    else:
+        reduction = row.get("effective_reduction_percent")
+        less = (
+            f", less {_num(reduction, '%')} effective reduction"
+            if not is_missing(reduction)
+            else ""
+        )
+        rows.append(
+            (
+                "Derivation",
+                f"{_num(row.get('places'))} places × "
+                f"{_num(row.get('factor_nh3_kg_per_place_yr'), 'kg NH3/place/yr')}{less} "
+                f"→ {_num(row.get('nh3_kg_yr'), 'kg NH3/yr')}",
+            )
+        )
+    return _popup_table("Source " + (escape_text(row.get("source_id")) or "(no id)"), rows)
+
+
+def _check_grid(deposition_kg_n_ha_yr: np.ndarray, cell_m: float, crs: str) -> tuple:
+    """Validate the grid inputs; return (float grid, pyproj CRS)."""
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+
+    grid = np.asarray(deposition_kg_n_ha_yr, dtype=float)
+    if grid.ndim != 2 or grid.shape[0] < 1 or grid.shape[1] < 1:
+        raise InputError(f"map: deposition grid must be a non-empty 2-D array, got {grid.shape}")
+    if not (np.isfinite(cell_m) and cell_m > 0):
+        raise InputError(f"map: cell_m must be > 0, got {cell_m}")
+    try:
+        projected = CRS.from_user_input(crs)
+    except CRSError as exc:
+        raise InputError(f"map: crs {crs!r} is not a CRS pyproj knows ({exc})") from exc
+    if not projected.is_projected:
+        raise InputError(f"map: crs must be projected in metres, got {crs!r}")
+    return grid, projected
+
+
+def _overlay(
+    grid: np.ndarray,
+    projected: Any,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    edges: np.ndarray,
+    colours: list[str],
+) -> tuple[str, list[list[float]]]:
+    """Reproject the grid to EPSG:3857, colour it by class; PNG data URL and lat/lon bounds."""
+    from matplotlib.colors import to_rgba
+    from matplotlib.image import imsave
+    from pyproj import Transformer
+    from rasterio.enums import Resampling
+    from rasterio.transform import Affine
+    from rasterio.warp import calculate_default_transform, reproject
+
+    n_rows, n_cols = grid.shape
+    src_transform = Affine(cell_m, 0.0, west_m, 0.0, -cell_m, north_m)  # row 0 = north edge
+    east_m = west_m + n_cols * cell_m
+    south_m = north_m - n_rows * cell_m
+    with warnings.catch_warnings():
+        # rasterio's own from_bounds uses Affine "*", which newer affine flags as pending
+        # deprecation; nothing for us to change.
+        warnings.simplefilter("ignore", PendingDeprecationWarning)
+        dst_transform, dst_cols, dst_rows = calculate_default_transform(
+            projected,
+            "EPSG:3857",
+            n_cols,
+            n_rows,
+            left=west_m,
+            bottom=south_m,
+            right=east_m,
+            top=north_m,
+        )
+    mercator = np.full((dst_rows, dst_cols), np.nan, dtype=np.float64)
+    reproject(
+        source=grid,
+        destination=mercator,
+        src_transform=src_transform,
+        src_crs=projected,
+        src_nodata=np.nan,
+        dst_transform=dst_transform,
+        dst_crs="EPSG:3857",
+        dst_nodata=np.nan,
+        resampling=Resampling.nearest,
+    )
+    rgba = np.zeros((dst_rows, dst_cols, 4), dtype=np.uint8)
+    with np.errstate(invalid="ignore"):
+        shown = np.isfinite(mercator) & (mercator >= edges[0])
+    classes = np.clip(
+        np.digitize(np.where(shown, mercator, edges[0]), edges) - 1, 0, len(colours) - 1
+    )
+    palette = (np.array([to_rgba(c) for c in colours]) * 255).round().astype(np.uint8)
+    rgba[shown] = palette[classes[shown]]
+    rgba[~shown, 3] = 0
+    buffer = io.BytesIO()
+    imsave(buffer, rgba, format="png")
+    data_url = "data:image/png;base64," + base64.b64encode(buffer.getvalue()).decode("ascii")
+
+    left = dst_transform.c
+    top = dst_transform.f
+    right = left + dst_cols * dst_transform.a
+    bottom = top + dst_rows * dst_transform.e
+    to_lonlat = Transformer.from_crs("EPSG:3857", "EPSG:4326", always_xy=True)
+    lon_w, lat_s = to_lonlat.transform(left, bottom)
+    lon_e, lat_n = to_lonlat.transform(right, top)
+    return data_url, [[lat_s, lon_w], [lat_n, lon_e]]
+
+
+def _contour_lines(
+    grid: np.ndarray,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    level_kg_n_ha_yr: float,
+) -> list[np.ndarray]:
+    """Contour lines of the grid at one level, as (n, 2) arrays of projected x, y [m]."""
+    import contourpy
+
+    n_rows, n_cols = grid.shape
+    if n_rows < 2 or n_cols < 2 or not np.isfinite(level_kg_n_ha_yr):
+        return []
+    x_m = west_m + (np.arange(n_cols) + 0.5) * cell_m
+    y_m = north_m - (np.arange(n_rows) + 0.5) * cell_m
+    # contourpy wants monotonic increasing coordinates: flip rows so y runs south to north.
+    generator = contourpy.contour_generator(
+        x_m,
+        y_m[::-1],
+        np.ma.masked_invalid(grid[::-1, :]),
+        line_type=contourpy.LineType.Separate,
+    )
+    return [np.asarray(line) for line in generator.lines(float(level_kg_n_ha_yr)) if len(line) > 1]
+
+
+def _with_crs(frame: gpd.GeoDataFrame, crs: Any) -> gpd.GeoDataFrame:
+    """The frame in EPSG:4326; a frame without CRS is taken to be in the scenario CRS."""
+    if frame.crs is None:
+        frame = frame.set_crs(crs)
+    return frame.to_crs("EPSG:4326")
+
+
+def _legend_html(
+    edges: np.ndarray,
+    colours: list[str],
+    contours: Sequence[tuple[float, str]],
+    roles_present: Sequence[str],
+) -> str:
+    """Legend box: deposition classes (kg N/ha/yr), verdicts, source roles, contours."""
+    parts = ['<div class="siting-box siting-legend">', "<h2>Deposition (PC), kg N/ha/yr</h2>"]
+    for i in range(len(colours) - 1, -1, -1):  # high classes on top
+        low, high = format_number(edges[i]), format_number(edges[i + 1])
+        label = f"{low} – {high}" if i < len(colours) - 1 else f"≥ {low}"
+        parts.append(
+            f'<div class="row"><span class="swatch" style="background:{colours[i]};'
+            f'opacity:{_OVERLAY_OPACITY}"></span>{escape_text(label)} kg N/ha/yr</div>'
+        )
+    parts.append(
+        f'<div class="note">below {escape_text(format_number(edges[0]))} kg N/ha/yr: '
+        "not coloured</div>"
+    )
+    parts.append("<h2>Habitat sites, verdict</h2>")
+    for verdict, colour in VERDICT_COLOURS.items():
+        dash = "dashed" if verdict == "not assessed" else "solid"
+        parts.append(
+            f'<div class="row"><span class="swatch" style="background:{colour}33;'
+            f'border:2px {dash} {colour}"></span>{escape_text(verdict)}</div>'
+        )
+    if roles_present:
+        parts.append("<h2>Sources, role</h2>")
+        for role in roles_present:
+            style = ROLE_STYLES.get(role, ROLE_STYLES["other"])
+            dash = "dashed" if style["dash_array"] else "solid"
+            parts.append(
+                f'<div class="row"><span class="dot" style="background:{style["fill_color"]};'
+                f'border:2px {dash} {style["color"]}"></span>{escape_text(role)}</div>'
+            )
+    if contours:
+        parts.append("<h2>Contours</h2>")
+        for level, label in contours:
+            parts.append(
+                f'<div class="row"><span class="line"></span>{escape_text(label)} '
+                f"({escape_text(format_number(level))} kg N/ha/yr)</div>"
+            )
+    parts.append("</div>")
+    return "".join(parts)
+
+
+def _title_html(title: str, run_time: str, version: str, cautions: Sequence[str]) -> str:
+    """Title block: title, run time, version and the cautions (open, collapsible)."""
+    items = "".join(f"<li>{escape_text(c)}</li>" for c in cautions)
+    return (
+        '<div class="siting-box siting-title">'
+        f"<h1>{escape_text(title)}</h1>"
+        f'<div class="meta">Ammonia screening map · {escape_text(run_time)} · '
+        f"siting {escape_text(version)}</div>"
+        f"<details open><summary>Cautions: screening estimate, not a decision</summary>"
+        f"<ul>{items}</ul></details></div>"
+    )
+
+
+def _add_sites(group: folium.FeatureGroup, sites_wgs84: gpd.GeoDataFrame) -> None:
+    """One GeoJson per site (geometry only), styled by verdict, with escaped popup/tooltip."""
+    import folium
+
+    for _, row in sites_wgs84.iterrows():
+        geometry = row.geometry
+        if geometry is None or geometry.is_empty:
+            continue
+        verdict = (
+            str(row.get("verdict")).strip().lower()
+            if not is_missing(row.get("verdict"))
+            else "not assessed"
+        )
+        colour = VERDICT_COLOURS.get(verdict, VERDICT_COLOURS["not assessed"])
+        style = {
+            "color": colour,
+            "weight": 2.5,
+            "fillColor": colour,
+            "fillOpacity": 0.2,
+            "dashArray": "6 4" if verdict not in ("below threshold", "above threshold") else None,
+        }
+        layer = folium.GeoJson(
+            data={"type": "Feature", "properties": {}, "geometry": geometry.__geo_interface__},
+            style_function=lambda _feature, style=style: style,
+            highlight_function=lambda _feature: {"weight": 4, "fillOpacity": 0.35},
+            zoom_on_click=False,
+            control=False,
+        )
+        folium.Popup(_site_popup(row), max_width=380).add_to(layer)
+        folium.Tooltip(escape_text(row.get("name")) or "Unnamed site").add_to(layer)
+        layer.add_to(group)
+
+
+def _add_sources(group: folium.FeatureGroup, sources_wgs84: gpd.GeoDataFrame) -> None:
+    """Sources styled by role: points as circle markers, footprints as outlines."""
+    import folium
+
+    for _, row in sources_wgs84.iterrows():
+        geometry = row.geometry
+        if geometry is None or geometry.is_empty:
+            continue
+        role = str(row.get("role")).strip().lower() if not is_missing(row.get("role")) else "other"
+        style = ROLE_STYLES.get(role, ROLE_STYLES["other"])
+        popup = folium.Popup(_source_popup(row), max_width=380)
+        tooltip = folium.Tooltip(
+            "Source " + (escape_text(row.get("source_id")) or "(no id)") + f" ({escape_text(role)})"
+        )
+        if geometry.geom_type == "Point":
+            marker = folium.CircleMarker(
+                location=[geometry.y, geometry.x],
+                radius=7,
+                color=style["color"],
+                weight=2,
+                fill=True,
+                fill_color=style["fill_color"],
+                fill_opacity=0.95,
+                dash_array=style["dash_array"],
+            )
+        else:
+            leaflet_style = {
+                "color": style["color"],
+                "weight": 2,
+                "fillColor": style["fill_color"],
+                "fillOpacity": 0.6,
+                "dashArray": style["dash_array"],
+            }
+            marker = folium.GeoJson(
+                data={"type": "Feature", "properties": {}, "geometry": geometry.__geo_interface__},
+                style_function=lambda _feature, s=leaflet_style: s,
+                zoom_on_click=False,
+                control=False,
+            )
+        popup.add_to(marker)
+        tooltip.add_to(marker)
+        marker.add_to(group)
+
+
+def write_screen_map(
+    path: Path,
+    *,
+    title: str,
+    crs: str,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    deposition_kg_n_ha_yr: np.ndarray,
+    sites: gpd.GeoDataFrame,
+    sources: gpd.GeoDataFrame,
+    contours: list[tuple[float, str]],
+    cautions: list[str],
+    version: str,
+    run_time: str,
+) -> None:
+    """Write map.html: the deposition surface, contours, habitat sites and sources on a web map.
+
+    Parameters
+    ----------
+    path : Path
+        File to write (the caller makes the output folder atomic).
+    title : str
+        Scenario title (user text, escaped).
+    crs : str
+        Projected CRS of the grid and of frames without a CRS, e.g. ``"EPSG:32632"``.
+    west_m, north_m : float
+        West and north edges of the grid in `crs` [m].
+    cell_m : float
+        Cell size [m], > 0.
+    deposition_kg_n_ha_yr : ndarray, shape (n_rows, n_cols)
+        PC deposition [kg N ha-1 yr-1]; row 0 is the north edge; NaN = no data.
+    sites : GeoDataFrame
+        Habitat sites (polygons) with columns site_id, name, designation, habitat, verdict
+        ("below threshold" | "above threshold" | "not assessed"), pc_pct_level [%],
+        pc_pct_load [%], pc_conc_max_ug_m3 [ug m-3], pc_dep_max_kg_n_ha_yr [kg N ha-1 yr-1],
+        critical_level_ug_m3 [ug m-3], critical_load_used_kg_n_ha_yr [kg N ha-1 yr-1],
+        threshold_percent [%], incomb_pct_load [%]; missing columns show as "n/a".
+    sources : GeoDataFrame
+        Sources (points or polygons) with columns source_id, kind, role
+        (proposed | existing | removed | other), height_m [m], livestock, housing, places,
+        factor_nh3_kg_per_place_yr [kg NH3 place-1 yr-1], abatement, reduction_percent [%],
+        effective_reduction_percent [%], reduction_flag, nh3_kg_yr [kg NH3 yr-1],
+        emission_g_s [g s-1]; blank or NaN values are left out of the popup.
+    contours : list of (float, str)
+        Contour levels [kg N ha-1 yr-1] with their labels (tooltip text, escaped).
+    cautions : list of str
+        Cautions shown in the title block.
+    version : str
+        siting version, shown as "siting <version>".
+    run_time : str
+        Time of the run as it should be shown.
+
+    Raises
+    ------
+    InputError
+        If the grid is not 2-D, cell_m <= 0 or crs is not a projected CRS; nothing is written.
+
+    Notes
+    -----
+    The raster is reprojected with nearest-neighbour resampling so each coloured pixel keeps a
+    value of the grid. Class edges come from :func:`siting.report.deposition_class_edges`.
+    """
+    import folium
+    from pyproj import Transformer
+
+    grid, projected = _check_grid(deposition_kg_n_ha_yr, cell_m, crs)
+    edges = deposition_class_edges(grid)
+    colours = deposition_class_colours(edges.size - 1)
+    data_url, bounds = _overlay(grid, projected, west_m, north_m, cell_m, edges, colours)
+    sites_wgs84 = _with_crs(sites, projected)
+    sources_wgs84 = _with_crs(sources, projected)
+
+    (lat_s, lon_w), (lat_n, lon_e) = bounds
+    fmap = folium.Map(
+        location=[(lat_s + lat_n) / 2.0, (lon_w + lon_e) / 2.0],
+        zoom_start=13,
+        tiles=None,
+        control_scale=True,
+    )
+    root = fmap.get_root()
+    root.header.add_child(folium.Element(f"<title>{escape_text(title)} · siting map</title>"))
+    root.header.add_child(folium.Element(_MAP_CSS))
+    folium.TileLayer(
+        "OpenStreetMap",
+        name=escape_text("OpenStreetMap background (needs internet)"),
+        overlay=False,
+        control=True,
+        show=True,
+    ).add_to(fmap)
+
+    folium.raster_layers.ImageOverlay(
+        image=data_url,
+        bounds=bounds,
+        name=escape_text("Deposition, PC (kg N/ha/yr)"),
+        opacity=_OVERLAY_OPACITY,
+        interactive=False,
+        overlay=True,
+        control=True,
+        show=True,
+        pixelated=True,
+    ).add_to(fmap)
+
+    if contours:
+        to_lonlat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True)
+        contour_group = folium.FeatureGroup(name=escape_text("Contours"), overlay=True)
+        for level, label in contours:
+            for line in _contour_lines(grid, west_m, north_m, cell_m, float(level)):
+                lon, lat = to_lonlat.transform(line[:, 0], line[:, 1])
+                folium.PolyLine(
+                    locations=np.column_stack([lat, lon]).tolist(),
+                    color=_CONTOUR_COLOUR,
+                    weight=2,
+                    opacity=0.9,
+                    dash_array="6 4",
+                    tooltip=folium.Tooltip(
+                        f"{escape_text(label)} ({escape_text(format_number(level))} kg N/ha/yr)"
+                    ),
+                ).add_to(contour_group)
+        contour_group.add_to(fmap)
+
+    site_group = folium.FeatureGroup(name=escape_text("Habitat sites"), overlay=True)
+    _add_sites(site_group, sites_wgs84)
+    site_group.add_to(fmap)
+
+    source_group = folium.FeatureGroup(name=escape_text("Sources"), overlay=True)
+    _add_sources(source_group, sources_wgs84)
+    source_group.add_to(fmap)
+
+    roles = []
+    if "role" in sources_wgs84:
+        seen = {str(r).strip().lower() for r in sources_wgs84["role"] if not is_missing(r)}
+        roles = [r for r in ROLE_STYLES if r in seen] + sorted(seen - set(ROLE_STYLES))
+    root.html.add_child(folium.Element(_title_html(title, run_time, version, cautions)))
+    root.html.add_child(folium.Element(_legend_html(edges, colours, contours, roles)))
+    root.html.add_child(folium.Element(_NORTH_ARROW))
+
+    folium.LayerControl(collapsed=False).add_to(fmap)
+    fmap.fit_bounds(bounds)
+    fmap.save(str(path))

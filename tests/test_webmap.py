@@ -1,0 +1,273 @@
+"""Tests of siting.webmap: map.html content, escaping of user text, overlay, legend, contours."""
+
+from __future__ import annotations
+
+import html
+import re
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pytest
+from shapely.geometry import Point, box
+
+from siting.errors import InputError
+from siting.webmap import escape_text, write_screen_map
+
+CRS = "EPSG:32632"
+WEST_M, NORTH_M, CELL_M = 500_000.0, 5_700_000.0, 25.0
+N_ROWS, N_COLS = 48, 60
+
+NASTY_SCRIPT = "<script>alert(1)</script>"
+NASTY_TEMPLATE = "a`b${alert(1)}\\c"
+NASTY_IMG = "<img src=x onerror=alert(1)>"
+
+CAUTIONS = [
+    "Screening estimate from a simplified model (flat terrain, no building wake, long-term means).",
+    "Emission factors and deposition velocities carry wide uncertainty.",
+    "Local regulations and the competent authority decide.",
+]
+
+
+def _grid() -> np.ndarray:
+    """Synthetic deposition [kg N/ha/yr]: 20 at the source, falling off with distance."""
+    rows, cols = np.mgrid[0:N_ROWS, 0:N_COLS]
+    distance_m = np.hypot(rows - N_ROWS / 2, cols - N_COLS / 2) * CELL_M
+    grid = 20.0 * np.exp(-distance_m / 150.0)  # synthetic, not physics: spans ~0.001-20
+    grid[0, :5] = np.nan  # a strip of no data
+    return grid
+
+
+def _sites() -> gpd.GeoDataFrame:
+    """Three habitat sites whose text fields try to inject HTML and JavaScript."""
+    centre_x = WEST_M + N_COLS * CELL_M / 2
+    centre_y = NORTH_M - N_ROWS * CELL_M / 2
+    geoms = [
+        box(centre_x + 200, centre_y - 100, centre_x + 400, centre_y + 100),
+        box(centre_x - 600, centre_y - 300, centre_x - 400, centre_y - 100),
+        box(centre_x - 100, centre_y + 300, centre_x + 100, centre_y + 500),
+    ]
+    return gpd.GeoDataFrame(
+        {
+            "site_id": ["S1", "S2`x", "S3${1}"],
+            "name": [NASTY_SCRIPT, NASTY_TEMPLATE, NASTY_IMG],
+            "designation": ["SAC", "<b>SSSI</b>", "local"],
+            "habitat": ["raised bog", "oak woodland", "heath \\ dry"],
+            "verdict": ["above threshold", "below threshold", "not assessed"],
+            "pc_pct_level": [120.5, 0.8, np.nan],
+            "pc_pct_load": [250.0, 0.4, np.nan],
+            "pc_conc_max_ug_m3": [1.2, 0.008, np.nan],
+            "pc_dep_max_kg_n_ha_yr": [12.5, 0.04, np.nan],
+            "critical_level_ug_m3": [1.0, 1.0, 3.0],
+            "critical_load_used_kg_n_ha_yr": [5.0, 10.0, 10.0],
+            "threshold_percent": [1.0, 1.0, 100.0],
+            "incomb_pct_load": [260.0, np.nan, np.nan],
+        },
+        geometry=geoms,
+        crs=CRS,
+    )
+
+
+def _sources() -> gpd.GeoDataFrame:
+    """A derived point source, a direct-figure area source and a removed house."""
+    centre_x = WEST_M + N_COLS * CELL_M / 2
+    centre_y = NORTH_M - N_ROWS * CELL_M / 2
+    return gpd.GeoDataFrame(
+        {
+            "source_id": ["H1<i>", "STORE", "OLD"],
+            "kind": ["point", "area", "point"],
+            "role": ["proposed", "existing", "removed"],
+            "height_m": [6.0, 1.0, 4.0],
+            "livestock": ["finishing_pig", None, "finishing_pig"],
+            "housing": ["slatted", None, "slatted"],
+            "places": [2000, np.nan, 500],
+            "factor_nh3_kg_per_place_yr": [2.5, np.nan, 2.5],
+            "abatement": ["acid_scrubber", None, None],
+            "reduction_percent": [90.0, np.nan, np.nan],
+            "effective_reduction_percent": [70.0, np.nan, np.nan],
+            "reduction_flag": ["", None, None],
+            "nh3_kg_yr": [1500.0, 300.0, 1250.0],
+            "emission_g_s": [0.0476, 0.0095, 0.0396],
+        },
+        geometry=[
+            Point(centre_x, centre_y),
+            box(centre_x + 50, centre_y + 50, centre_x + 90, centre_y + 80),
+            Point(centre_x - 80, centre_y),
+        ],
+        crs=CRS,
+    )
+
+
+def _write(path, contours=((1.0, "1 kg N/ha/yr"),), **overrides) -> str:
+    """Write a map with the synthetic inputs and return its HTML."""
+    arguments = dict(
+        title="Farm <Nord> & `test`",
+        crs=CRS,
+        west_m=WEST_M,
+        north_m=NORTH_M,
+        cell_m=CELL_M,
+        deposition_kg_n_ha_yr=_grid(),
+        sites=_sites(),
+        sources=_sources(),
+        contours=list(contours),
+        cautions=CAUTIONS,
+        version="0.1.0",
+        run_time="2024-05-01T12:00:00Z",
+    )
+    arguments.update(overrides)
+    write_screen_map(path, **arguments)
+    return path.read_text(encoding="utf-8")
+
+
+@pytest.fixture(scope="module")
+def map_html(tmp_path_factory) -> str:
+    """The map written once for the read-only checks."""
+    return _write(tmp_path_factory.mktemp("map") / "map.html")
+
+
+def test_escape_text_neutralises_html_and_template_literals():
+    """escape_text leaves no <, >, quotes, backtick, $, braces or backslash in its output."""
+    out = escape_text("<a href='x'>\"`${1}\\</a>")
+    assert not re.search(r"[<>\"'`${}\\]", out)
+    assert out == (
+        "&lt;a href=&#x27;x&#x27;&gt;&quot;&#96;&#36;&#123;1&#125;&#92;&lt;/a&gt;"
+    )  # analytic: html.escape, then the numeric references of escape_text
+
+
+def test_escape_text_handles_missing_and_numbers():
+    """None and NaN become empty text; numbers their str()."""
+    assert escape_text(None) == ""
+    assert escape_text(float("nan")) == ""
+    assert escape_text(2.5) == "2.5"
+
+
+def test_map_file_is_written(tmp_path):
+    """write_screen_map writes an HTML file with a Leaflet map."""
+    path = tmp_path / "map.html"
+    text = _write(path)
+    assert path.exists() and path.stat().st_size > 0
+    assert "L.map(" in text
+
+
+def test_hostile_site_names_never_appear_raw(map_html):
+    """Site names with script tags, template-literal syntax or event handlers are escaped."""
+    for raw in (NASTY_SCRIPT, NASTY_TEMPLATE, NASTY_IMG, "${alert(1)}", "onerror=alert(1)>"):
+        assert raw not in map_html
+    assert escape_text(NASTY_SCRIPT) in map_html
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in map_html
+    assert escape_text(NASTY_TEMPLATE) in map_html
+    assert "a&#96;b&#36;&#123;alert(1)&#125;&#92;c" in map_html
+    assert escape_text(NASTY_IMG) in map_html
+    assert "&lt;img src=x onerror=alert(1)&gt;" in map_html
+
+
+def test_other_user_text_is_escaped(map_html):
+    """Designation, habitat, source id and title reach the page only in escaped form."""
+    assert "<b>SSSI</b>" not in map_html
+    assert "&lt;b&gt;SSSI&lt;/b&gt;" in map_html
+    assert "H1<i>" not in map_html and "H1&lt;i&gt;" in map_html
+    assert "heath &#92; dry" in map_html
+    assert "Farm <Nord>" not in map_html
+    assert "Farm &lt;Nord&gt; &amp; &#96;test&#96;" in map_html
+
+
+def test_raster_overlay_is_a_png_data_url(map_html):
+    """The deposition overlay is embedded as a PNG data URL in an image overlay."""
+    assert "L.imageOverlay(" in map_html
+    assert re.search(r'"data:image/png;base64,[A-Za-z0-9+/=]{100,}"', map_html)
+
+
+def test_legend_lists_classes_in_kg_n_ha_yr(map_html):
+    """The legend names the deposition unit and the class edges adapted to the data (max 20)."""
+    assert "kg N/ha/yr" in map_html
+    assert "≥ 10 kg N/ha/yr" in map_html  # top class 10-30 holds the maximum of 20
+    assert "above threshold" in map_html and "not assessed" in map_html
+
+
+def test_title_block_carries_cautions_version_and_time(map_html):
+    """The title block shows the cautions, the siting version and the run time."""
+    for caution in CAUTIONS:
+        assert escape_text(caution) in map_html
+    assert "siting 0.1.0" in map_html
+    assert "2024-05-01T12:00:00Z" in map_html
+
+
+def test_contours_appear_for_a_level_in_range(tmp_path):
+    """A contour level inside the data range gives a polyline with its label as tooltip."""
+    text = _write(tmp_path / "map.html", contours=[(1.0, "one <kg>")])
+    assert "L.polyline(" in text
+    assert "one &lt;kg&gt;" in text and "one <kg>" not in text
+
+
+def test_no_contour_lines_without_levels(tmp_path):
+    """Without contour levels no polyline is drawn."""
+    text = _write(tmp_path / "map.html", contours=[])
+    assert "L.polyline(" not in text
+
+
+def test_map_has_layer_control_scale_and_osm_option(map_html):
+    """Layer control, scale bar, north arrow and the OpenStreetMap base layer are present."""
+    assert "L.control.layers(" in map_html
+    assert "L.control.scale(" in map_html
+    assert "North arrow" in map_html
+    assert "tile.openstreetmap.org" in map_html
+
+
+def test_map_bounds_follow_the_grid(map_html):
+    """The map is fitted to the grid's lat/lon bounds (UTM 32N near 51.4 N, 9 E)."""
+    match = re.search(
+        r"fitBounds\(\s*\[\[([-\d.]+),\s*([-\d.]+)\],\s*\[([-\d.]+),\s*([-\d.]+)\]\]", map_html
+    )
+    assert match
+    lat_s, lon_w, lat_n, lon_e = map(float, match.groups())
+    # analytic: x = 500 000 m lies on the 9 E central meridian; 5 700 000 m N is ~51.4 N
+    assert 8.99 < lon_w < 9.01 and lon_w < lon_e < 9.03
+    assert 51.4 < lat_s < lat_n < 51.5
+
+
+def test_all_nan_grid_still_writes(tmp_path):
+    """A grid with no data gives a map with a fully transparent overlay, without error."""
+    text = _write(tmp_path / "map.html", deposition_kg_n_ha_yr=np.full((5, 6), np.nan))
+    assert "data:image/png;base64," in text
+
+
+def test_bad_crs_and_grid_raise_input_error(tmp_path):
+    """A geographic CRS or a 1-D grid is refused before anything is written."""
+    with pytest.raises(InputError, match="projected"):
+        _write(tmp_path / "a.html", crs="EPSG:4326")
+    with pytest.raises(InputError, match="2-D"):
+        _write(tmp_path / "b.html", deposition_kg_n_ha_yr=np.ones(5))
+    assert not (tmp_path / "a.html").exists() and not (tmp_path / "b.html").exists()
+
+
+def test_popups_hold_formatted_figures(map_html):
+    """Site popups show formatted figures with units; source popups the derivation."""
+    assert "12.5 kg N/ha/yr" in map_html
+    assert "1.2 µg NH3/m³" in map_html
+    assert "2000 places" in map_html
+    assert "emission given directly in the scenario" in map_html
+    assert html.escape("1500 kg NH3/yr") in map_html
+
+
+def test_overlay_keeps_north_up_and_no_data_transparent(tmp_path):
+    """The NaN strip in row 0 (north-west) is transparent in the top-left of the overlay PNG."""
+    import base64
+    import io
+
+    from matplotlib.image import imread
+
+    text = _write(tmp_path / "map.html")
+    encoded = re.search(r"data:image/png;base64,([A-Za-z0-9+/=]+)", text).group(1)
+    rgba = imread(io.BytesIO(base64.b64decode(encoded)), format="png")
+    assert rgba.shape[2] == 4
+    assert rgba[0, 0, 3] == 0  # no data at the north-west corner: transparent
+    assert rgba[-1, 0, 3] > 0  # south-west corner holds data above the lowest class
+    assert rgba[rgba.shape[0] // 2, rgba.shape[1] // 2, 3] > 0  # the peak is coloured
+
+
+def test_pandas_na_shows_as_blank(tmp_path):
+    """A pandas NA in a text column is treated as missing, not shown as '<NA>'."""
+    sites = _sites().astype({"designation": "string"})
+    sites.loc[0, "designation"] = pd.NA
+    text = _write(tmp_path / "map.html", sites=sites)
+    assert "&lt;NA&gt;" not in text and "<NA>" not in text
