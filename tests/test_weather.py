@@ -1,0 +1,57 @@
+"""Reading a weather frequency table: normalisation, sectors, checks."""
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+from siting.errors import InputError
+from siting.resources import demo_dir
+from siting.weather import read_frequency_table
+
+
+def _write(tmp_path, rows, header="direction_deg,speed_m_s,stability,frequency"):
+    path = tmp_path / "w.csv"
+    path.write_text(header + "\n" + "\n".join(rows) + "\n")
+    return path
+
+
+def test_demo_table_sums_to_one_and_keeps_counts():
+    """The demo table's frequencies sum to 1 and its sectors are 30 deg apart (invented demo)."""
+    weather, summary, warnings = read_frequency_table(demo_dir() / "weather_table.csv")
+    assert_allclose(weather.frequency_fraction.sum(), 1.0, rtol=1e-12)
+    assert weather.sector_width_deg == 30.0 and summary["sectors"] == 12
+    assert warnings == []
+
+
+def test_counts_are_normalised_and_360_is_north(tmp_path):
+    """Counts become fractions; 360 deg is the same sector as 0 deg (compass convention)."""
+    rows = ["360,3,D,2", "90,3,D,1", "180,3,e,1", "270,5,D,4"]
+    weather, summary, _ = read_frequency_table(_write(tmp_path, rows))
+    assert_allclose(weather.sector_centres_deg, [0, 90, 180, 270])
+    assert_allclose(weather.frequency_fraction[0, 0, 3], 2 / 8, rtol=1e-12)
+    assert_allclose(weather.frequency_fraction[2, 0, 4], 1 / 8, rtol=1e-12)  # lower-case class
+    assert summary["frequencies_given_as"] == "counts (normalised)"
+
+
+def test_calm_speeds_raised_with_warning(tmp_path):
+    """Class speeds below the floor are raised to it and the share is reported."""
+    rows = ["0,0.5,F,1", "90,3,D,1", "180,3,D,1", "270,3,D,1"]
+    weather, summary, warnings = read_frequency_table(_write(tmp_path, rows), min_wind_speed_m_s=1.0)
+    assert weather.speeds_m_s.min() == 1.0
+    assert summary["share_raised_to_min_speed"] == pytest.approx(0.25)
+    assert any("raised" in w for w in warnings)
+
+
+@pytest.mark.parametrize("rows,header,match", [
+    (["0,3,D,1", "100,3,D,1", "180,3,D,1", "270,3,D,1"], None, "evenly spaced"),
+    (["0,3,G,1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "stability"),
+    (["0,3,D,1"], "direction_deg,speed,stability,frequency", "speed_m_s"),
+    (["0,3,D,-1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "frequency must be >= 0"),
+    (["400,3,D,1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "0..360"),
+    (["0,3,D,x", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "frequency must be a number"),
+])
+def test_bad_tables_are_refused(tmp_path, rows, header, match):
+    """Uneven sectors, unknown class, missing column, negative or non-numeric values: clear errors."""
+    path = _write(tmp_path, rows, header or "direction_deg,speed_m_s,stability,frequency")
+    with pytest.raises(InputError, match=match):
+        read_frequency_table(path)
