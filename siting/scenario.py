@@ -13,9 +13,18 @@ import tomllib
 from pathlib import Path
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    StrictBool,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 
 from siting.errors import InputError, InputFileError
+from siting.tables import suggest
 
 ROLES = ("proposed", "existing", "removed", "other")
 
@@ -55,7 +64,7 @@ class GridSection(_Section):
 class DepositionSection(_Section):
     """[deposition]: dry deposition settings."""
 
-    plume_depletion: bool = True
+    plume_depletion: StrictBool = True
     depletion_land_cover: str = "short_vegetation"
 
 
@@ -167,8 +176,9 @@ class Scenario(_Section):
         return self.path.stem if self.path else "scenario"
 
 
-def _where(loc: tuple, raw: dict) -> str:
-    parts = []
+def _where(loc: tuple, raw: dict) -> tuple[str, str]:
+    """(section, key) of an error location, e.g. ('source "H2"', 'height_m')."""
+    section, keys = [], []
     i = 0
     while i < len(loc):
         key = loc[i]
@@ -176,29 +186,70 @@ def _where(loc: tuple, raw: dict) -> str:
             idx = loc[i + 1]
             sources = raw.get("source") or []
             sid = sources[idx].get("id") if idx < len(sources) and isinstance(sources[idx], dict) else None
-            parts.append(f'source "{sid}"' if sid else f"[[source]] #{idx + 1}")
+            section.append(f'source "{sid}"' if sid else f"[[source]] #{idx + 1}")
             i += 2
             continue
-        if isinstance(key, str) and key not in ("function-after",):
-            parts.append(key if not parts or parts[-1].startswith("source") else f"{key}")
+        if isinstance(key, str):
+            (keys if section or keys or key not in _SECTIONS else section).append(key)
         i += 1
-    return ".".join(p for p in parts) if parts else "(top level)"
+    return ".".join(section), ".".join(keys)
+
+
+_SECTIONS = ("weather", "grid", "deposition", "assessment", "habitats", "receptors")
+
+
+def _known_keys(loc: tuple) -> list[str]:
+    """Field names allowed where an unknown key was found (for a suggestion)."""
+    model = Scenario
+    for key in loc[:-1]:
+        if isinstance(key, int):
+            continue
+        field = model.model_fields.get("sources" if key == "source" else key)
+        if field is None:
+            return []
+        ann = field.annotation
+        for candidate in getattr(ann, "__args__", ()) or (ann,):
+            if isinstance(candidate, type) and issubclass(candidate, BaseModel):
+                model = candidate
+                break
+        else:
+            return []
+    return [("source" if n == "sources" else n) for n in model.model_fields if n != "path"]
 
 
 def _format_error(exc: ValidationError, raw: dict, filename: str) -> str:
-    err = exc.errors()[0]
+    errors = sorted(exc.errors(), key=lambda e: e["type"] != "extra_forbidden")
+    err = errors[0]
     loc = tuple(k for k in err["loc"] if not (isinstance(k, str) and "[" in k))
-    where = _where(loc, raw)
-    kind = err["type"]
-    if kind == "extra_forbidden":
-        return f"{filename}: unknown key {where} (check the spelling; see the demo scenario)"
-    if kind == "missing":
-        return f"{filename}: missing key {where}"
+    section, key = _where(loc, raw)
+    prefix = f"{filename}, {section}" if section else filename
+    kind, ctx = err["type"], err.get("ctx") or {}
     got = err.get("input")
-    msg = err["msg"].removeprefix("Value error, ")
-    if isinstance(got, dict):
-        return f"{filename}: {where}: {msg}"
-    return f"{filename}: {where}: {msg}, got {got!r}"
+    if kind == "extra_forbidden":
+        hint = suggest(loc[-1], _known_keys(loc)) if loc else ""
+        return f"{prefix}: unknown key {key}{hint or ' (check the spelling; see the demo scenario)'}"
+    if kind == "missing":
+        return f"{prefix}: missing key {key}"
+    wording = {
+        "greater_than_equal": lambda: f"must be >= {ctx.get('ge')}",
+        "greater_than": lambda: f"must be > {ctx.get('gt')}",
+        "less_than_equal": lambda: f"must be <= {ctx.get('le')}",
+        "less_than": lambda: f"must be < {ctx.get('lt')}",
+        "float_parsing": lambda: "must be a number",
+        "float_type": lambda: "must be a number",
+        "int_parsing": lambda: "must be a whole number",
+        "bool_type": lambda: "must be true or false",
+        "bool_parsing": lambda: "must be true or false",
+        "string_type": lambda: "must be text in quotes",
+        "literal_error": lambda: f"must be one of {ctx.get('expected')}",
+        "too_short": lambda: "must not be empty",
+    }.get(kind)
+    if wording is None:
+        msg = err["msg"].removeprefix("Value error, ")
+        if isinstance(got, dict):
+            return f"{prefix}: {key + ': ' if key else ''}{msg}"
+        return f"{prefix}: {key + ': ' if key else ''}{msg}, got {got!r}"
+    return f"{prefix}: {key} {wording()}, got {got!r}"
 
 
 def _check_crs(crs: str, filename: str) -> None:
