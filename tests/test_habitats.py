@@ -88,3 +88,15 @@ def test_sample_points_cover_boundary_nearest_source_and_interior():
     assert np.allclose([x[boundary][0], y[boundary][0]], [100.0, 10.0])  # nearest edge point
     assert shapely.contains_xy(poly, x[interior], y[interior]).all()
     assert interior.sum() >= 16  # 20 m square at 5 m spacing: 4 x 4 lattice (+ representative)
+
+
+@pytest.mark.parametrize("suffix", [".shp", ".geojson", ".gpkg"])
+def test_common_vector_formats_are_read(tmp_path, tables, suffix):
+    """Shapefile, GeoJSON and GeoPackage layers all read the same (any format geopandas reads)."""
+    sites, _ = read_habitats(_section(demo_dir() / "habitats.gpkg"), "EPSG:32632", tables)
+    layer = gpd.read_file(demo_dir() / "habitats.gpkg")
+    path = tmp_path / f"h{suffix}"
+    layer.to_file(path)
+    again, _ = read_habitats(_section(path), "EPSG:32632", tables)
+    assert list(again["name"]) == list(sites["name"])
+    assert np.allclose(again["area_ha"], sites["area_ha"], rtol=1e-6)
