@@ -97,6 +97,11 @@ def test_common_vector_formats_are_read(tmp_path, tables, suffix):
     layer = gpd.read_file(demo_dir() / "habitats.gpkg")
     path = tmp_path / f"h{suffix}"
     layer.to_file(path)
-    again, _ = read_habitats(_section(path), "EPSG:32632", tables)
+    # a shapefile truncates field names to 10 characters; the error says which name to use
+    fields = {"designation_field": "designatio"} if suffix == ".shp" else {}
+    if fields:
+        with pytest.raises(InputError, match='did you mean "designatio"'):
+            read_habitats(_section(path), "EPSG:32632", tables)
+    again, _ = read_habitats(_section(path, **fields), "EPSG:32632", tables)
     assert list(again["name"]) == list(sites["name"])
     assert np.allclose(again["area_ha"], sites["area_ha"], rtol=1e-6)
