@@ -126,6 +126,18 @@ def run_record(result, run_time: str) -> dict:
     }
 
 
+COORDINATE_COLUMNS = ("x", "y", "x_m", "y_m")
+
+
+def write_csv(frame: pd.DataFrame, path: Path) -> None:
+    """CSV with 6 significant figures, except coordinates, which keep centimetres."""
+    out = frame.copy()
+    for col in COORDINATE_COLUMNS:
+        if col in out.columns:
+            out[col] = out[col].map(lambda v: f"{v:.2f}")
+    out.to_csv(path, index=False, float_format="%.6g")
+
+
 def _habitat_values(sites) -> pd.DataFrame:
     cols = ["habitat", "habitat_name", "land_cover", "deposition_velocity_m_s",
             "deposition_velocity_source", "critical_load_min_kg_n_ha_yr",
@@ -167,11 +179,11 @@ def _write_all(result, folder: Path, run_time: str) -> None:
                   "kg N/ha/yr")
     sites = result.sites
     table = pd.DataFrame(sites[SITE_COLUMNS])
-    table.to_csv(folder / "sites.csv", index=False, float_format="%.6g")
+    write_csv(table, folder / "sites.csv")
     gpd.GeoDataFrame(table, geometry=sites.geometry, crs=sites.crs).to_file(
         folder / "sites.gpkg", layer="sites", driver="GPKG")
-    result.receptors.to_csv(folder / "receptors.csv", index=False, float_format="%.6g")
-    result.sources.to_csv(folder / "sources.csv", index=False, float_format="%.6g")
+    write_csv(result.receptors, folder / "receptors.csv")
+    write_csv(result.sources, folder / "sources.csv")
     record = run_record(result, run_time)
     (folder / "run.json").write_text(json.dumps(record, indent=2, default=str), encoding="utf-8")
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import tomllib
 from pathlib import Path
-from typing import Literal
+from typing import Annotated, Literal
 
 from pydantic import (
     BaseModel,
@@ -26,18 +26,22 @@ from pydantic import (
 from siting.errors import InputError, InputFileError
 from siting.tables import suggest
 
+FilePath = Annotated[Path, Field(strict=False)]
+
 ROLES = ("proposed", "existing", "removed", "other")
 
 
 class _Section(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    # strict: a TOML string or boolean is never taken for a number; floats accept integers.
+    # Paths are given as text, so path fields relax strictness (FilePath below).
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
 
 
 class WeatherSection(_Section):
     """[weather]: the weather behind the long-term means."""
 
-    frequency_table: Path | None = None
-    hourly: Path | None = None
+    frequency_table: FilePath | None = None
+    hourly: FilePath | None = None
     anemometer_height_m: float = Field(10.0, gt=0, le=300)
     land_type: Literal["rural", "urban"] = "rural"
     sigma_scheme: Literal["briggs", "pasquill_gifford"] = "briggs"
@@ -72,13 +76,13 @@ class AssessmentSection(_Section):
     """[assessment]: how figures are judged (our own optional section)."""
 
     critical_load_end: Literal["lower", "middle", "upper"] = "lower"
-    config_dir: Path | None = None
+    config_dir: FilePath | None = None
 
 
 class HabitatsSection(_Section):
     """[habitats]: the protected-site layer and which attribute holds what."""
 
-    file: Path
+    file: FilePath
     layer: str | None = None
     name_field: str = "name"
     habitat_field: str = "habitat"
@@ -92,7 +96,7 @@ class HabitatsSection(_Section):
 class ReceptorsSection(_Section):
     """[receptors]: named points, CSV with id,x,y[,land_cover]."""
 
-    file: Path
+    file: FilePath
 
 
 class SourceSpec(_Section):
@@ -154,7 +158,7 @@ class Scenario(_Section):
     habitats: HabitatsSection
     receptors: ReceptorsSection | None = None
     sources: list[SourceSpec] = Field(alias="source", min_length=1)
-    path: Path | None = None
+    path: FilePath | None = None
 
     @field_validator("sources")
     @classmethod
@@ -246,7 +250,7 @@ def _format_error(exc: ValidationError, raw: dict, filename: str) -> str:
     }.get(kind)
     if wording is None:
         msg = err["msg"].removeprefix("Value error, ")
-        if isinstance(got, dict):
+        if isinstance(got, (dict, list)):
             return f"{prefix}: {key + ': ' if key else ''}{msg}"
         return f"{prefix}: {key + ': ' if key else ''}{msg}, got {got!r}"
     return f"{prefix}: {key} {wording()}, got {got!r}"

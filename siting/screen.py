@@ -333,11 +333,12 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     if not installation:
         warnings.append("no proposed or existing source: the installation's PC is zero")
 
-    receptors = named.copy()
+    receptors = named[["id", "x", "y"]].copy()
     sl = slice(n_grid, n_grid + n_named)
     receptors["conc_ug_m3"] = combos["pc"][sl]
     receptors["dep_kg_n_ha_yr"] = dep["pc"][sl]
     receptors["dep_mol_n_ha_yr"] = kg_n_to_mol_n(dep["pc"][sl])
+    receptors["land_cover"] = named["land_cover"].to_numpy()
     receptors["deposition_velocity_m_s"] = vd[sl]
     receptors["net_conc_ug_m3"] = combos["net"][sl]
     receptors["net_dep_kg_n_ha_yr"] = dep["net"][sl]

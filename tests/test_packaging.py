@@ -1,0 +1,89 @@
+"""The wheel: builds, carries the bundled tables and demo, installs into a fresh venv and runs.
+
+Slow (a wheel build plus a venv with numpy, geopandas, rasterio... from the package index):
+run with ``pytest -m slow tests/test_packaging.py``. The installed ``siting demo`` must find its
+config/ and data_demo/ inside the wheel (siting/_bundled, siting/resources.py), not in this
+checkout, so it runs from an empty folder with a clean environment.
+"""
+
+from __future__ import annotations
+
+import importlib.util
+import json
+import os
+import subprocess
+import sys
+import venv
+import zipfile
+from pathlib import Path
+
+import pytest
+
+REPO = Path(__file__).resolve().parents[1]
+BUNDLED = ["siting/_bundled/config/emission_factors.toml",
+           "siting/_bundled/data_demo/scenario.toml"]
+
+pytestmark = pytest.mark.slow
+
+
+def _run(cmd: list[str], timeout_s: float, **kwargs) -> subprocess.CompletedProcess:
+    done = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout_s, **kwargs)
+    assert done.returncode == 0, (f"{' '.join(map(str, cmd))} exited {done.returncode}\n"
+                                  f"{done.stdout[-3000:]}\n{done.stderr[-3000:]}")
+    return done
+
+
+def _clean_env() -> dict[str, str]:
+    """The environment without anything that would point Python at this checkout."""
+    env = {k: v for k, v in os.environ.items()
+           if k not in ("PYTHONPATH", "PYTHONHOME", "VIRTUAL_ENV", "PYTHONSTARTUP")}
+    env["PYTHONNOUSERSITE"] = "1"
+    return env
+
+
+@pytest.fixture(scope="module")
+def wheel(tmp_path_factory) -> Path:
+    """The wheel built from this checkout."""
+    if importlib.util.find_spec("build") is None:
+        pytest.skip("the 'build' package is not installed (pip install build)")
+    outdir = tmp_path_factory.mktemp("dist")
+    _run([sys.executable, "-m", "build", "--wheel", "--outdir", str(outdir), str(REPO)],
+         timeout_s=600, cwd=REPO)
+    wheels = list(outdir.glob("siting-*.whl"))
+    assert len(wheels) == 1, wheels
+    return wheels[0]
+
+
+@pytest.fixture(scope="module")
+def installed(wheel, tmp_path_factory) -> Path:
+    """A fresh venv with the wheel (and its dependencies from the index); returns its bin/."""
+    if importlib.util.find_spec("ensurepip") is None:
+        pytest.skip("venv cannot bootstrap pip here (ensurepip missing)")
+    home = tmp_path_factory.mktemp("venv") / "env"
+    venv.EnvBuilder(with_pip=True, clear=True).create(home)
+    bindir = home / ("Scripts" if os.name == "nt" else "bin")
+    python = bindir / ("python.exe" if os.name == "nt" else "python")
+    _run([str(python), "-m", "pip", "install", "--prefer-binary", "--disable-pip-version-check",
+          str(wheel)], timeout_s=900, env=_clean_env())
+    return bindir
+
+
+def test_wheel_bundles_config_and_demo(wheel):
+    """The wheel holds the lookup tables and the demo scenario under siting/_bundled."""
+    names = set(zipfile.ZipFile(wheel).namelist())
+    for name in BUNDLED:
+        assert name in names
+
+
+def test_installed_demo_runs_from_an_empty_folder(installed, tmp_path):
+    """`siting demo --quiet` from the installed wheel, in an empty folder: ./maps/demo/."""
+    work = tmp_path / "empty"
+    work.mkdir()
+    exe = installed / ("siting.exe" if os.name == "nt" else "siting")
+    _run([str(exe), "demo", "--quiet"], timeout_s=600, cwd=work, env=_clean_env())
+    assert (work / "maps" / "demo" / "sites.csv").is_file()
+    # the demo came from the installed wheel, not from this checkout
+    record = json.loads((work / "maps" / "demo" / "run.json").read_text(encoding="utf-8"))
+    scenario_path = Path(record["inputs"]["scenario"]["path"])
+    assert "_bundled" in scenario_path.parts
+    assert REPO not in scenario_path.parents
