@@ -24,5 +24,10 @@ class OutputExistsError(SitingError, FileExistsError):
     """The output folder exists and --overwrite was not given."""
 
 
+class AssetError(SitingError, RuntimeError):
+    """A page links a script or style sheet that siting cannot inline, or a vendored file is
+    missing; the map would not work offline, so nothing is written."""
+
+
 class SitingWarning(UserWarning):
     """Legal but doubtful input; collected and listed in the outputs."""

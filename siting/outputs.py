@@ -153,8 +153,7 @@ def _contour_levels(sites) -> list[tuple[float, str]]:
         if not row.assessed:
             continue
         value = row.threshold_percent / 100.0 * row.critical_load_used_kg_n_ha_yr
-        label = (f"{row.threshold_percent:g} % of {row.critical_load_used_kg_n_ha_yr:g} "
-                 f"kg N/ha/yr = {value:.3g} kg N/ha/yr")
+        label = f"{row.threshold_percent:g} % of {row.critical_load_used_kg_n_ha_yr:g} kg N/ha/yr"
         levels.setdefault(round(value, 6), label)
     return sorted(levels.items())
 
@@ -199,7 +198,8 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         "Deposition (process contribution) with habitat sites and sources":
             deposition_figure(result.fields["pc_dep_kg_n_ha_yr"], west_m=grid.west_m,
                               north_m=grid.north_m, cell_m=grid.cell_m, sites=sites,
-                              sources=sources_gdf),
+                              sources=sources_gdf, contours=contours,
+                              crs_label=result.scenario.crs),
         "Process contribution at each site against distance from the installation":
             pc_vs_distance_figure(pd.DataFrame(sites.drop(columns="geometry"))),
     }

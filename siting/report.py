@@ -6,8 +6,14 @@ regulator can open it offline years later. It also holds the small presentation 
 with :mod:`siting.webmap` (number formatting, the logarithmic deposition classes and their
 colour map) and two matplotlib figures drawn with the Agg canvas, never through pyplot's global
 state. No physics lives here: every number shown was computed elsewhere; this module only
-formats, tabulates and plots it. Text from user files (site names, designations, source ids,
-the title) is HTML-escaped wherever it enters the page.
+formats, tabulates and plots it. Numbers are formatted by what their column measures, read from
+the unit suffix of the column name (:func:`format_for_column`). Text from user files (site names,
+designations, source ids, the title) is HTML-escaped wherever it enters the page.
+
+The page is laid out to fit an A4 or Letter page, on screen and in print: no table is wider than
+the page (the sources table is transposed, one column per source, and split into blocks of a few
+sources), long citations wrap in a smaller font or become numbered notes, and table rows are
+never split across pages.
 """
 
 from __future__ import annotations
@@ -18,7 +24,7 @@ import io
 import json
 import math
 from collections.abc import Mapping, Sequence
-from pathlib import Path
+from pathlib import Path, PurePath
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -38,6 +44,7 @@ __all__ = [
     "deposition_class_edges",
     "deposition_figure",
     "figure_png",
+    "format_for_column",
     "format_number",
     "is_missing",
     "pc_vs_distance_figure",
@@ -54,28 +61,35 @@ VERDICT_COLOURS = {
     "not assessed": "#8a8a8a",
 }
 
+#: Marker and fill of each source role in the deposition figure; our own choice.
+_SOURCE_MARKERS = {
+    "proposed": ("^", "#c2543a"),
+    "existing": ("^", "#ffffff"),
+    "removed": ("v", "#b0b0b0"),
+    "other": ("s", "#ffffff"),
+}
+
 #: The 1-3-10 series of class edges [kg N ha-1 yr-1] from which the shown classes are picked.
 _CLASS_EDGE_SERIES_KG_N_HA_YR = tuple(
     float(f"{mantissa}e{exponent}") for exponent in range(-5, 5) for mantissa in (1, 3)
 )
 
-#: Columns of the summary table: (column in `sites`, header shown, kind of value).
-SUMMARY_COLUMNS: tuple[tuple[str, str, str], ...] = (
-    ("name", "Site", "text"),
-    ("designation", "Designation", "text"),
-    ("habitat", "Habitat", "text"),
-    ("critical_level_ug_m3", "Critical level used [µg NH3/m³]", "number"),
-    ("critical_load_used_kg_n_ha_yr", "Critical load used [kg N/ha/yr]", "number"),
-    ("pc_conc_max_ug_m3", "PC max concentration [µg NH3/m³]", "number"),
-    ("pc_pct_level", "PC as % of critical level", "percent"),
-    ("pc_dep_max_kg_n_ha_yr", "PC max deposition [kg N/ha/yr]", "number"),
-    ("pc_pct_load", "PC as % of critical load", "percent"),
-    ("threshold_percent", "Screening threshold [%]", "percent"),
-    ("verdict", "Verdict", "verdict"),
+#: Columns the summary table needs: (column in `sites`, what it holds). The table shows them as
+#: Site (name, designation below) | Verdict | Habitat | concentration group | deposition group |
+#: threshold; see :func:`_summary_table`.
+SUMMARY_COLUMNS: tuple[tuple[str, str], ...] = (
+    ("name", "site name"),
+    ("designation", "designation"),
+    ("habitat", "habitat id (habitat_name is shown instead when present)"),
+    ("critical_level_ug_m3", "critical level used [ug NH3 m-3]"),
+    ("critical_load_used_kg_n_ha_yr", "critical load used [kg N ha-1 yr-1]"),
+    ("pc_conc_max_ug_m3", "PC, maximum concentration over the site [ug NH3 m-3]"),
+    ("pc_pct_level", "PC as % of the critical level"),
+    ("pc_dep_max_kg_n_ha_yr", "PC, maximum deposition over the site [kg N ha-1 yr-1]"),
+    ("pc_pct_load", "PC as % of the critical load"),
+    ("threshold_percent", "screening threshold [%]"),
+    ("verdict", "verdict"),
 )
-
-#: Optional summary column shown after "% of load" when the caller provides it.
-_INCOMBINATION_COLUMN = ("incomb_pct_load", "In-combination as % of critical load", "percent")
 
 #: CSS class and plain-words hint per verdict (styling of the verdict cell).
 _VERDICT_STYLE = {
@@ -86,13 +100,167 @@ _VERDICT_STYLE = {
 
 _MISSING = "n/a"
 
+#: Shown in a transposed table where a step does not apply to a source (e.g. no abatement).
+_NOT_APPLICABLE = "–"
+
+#: Column names holding projected coordinates [m]: 0.1 m, no thousands grouping.
+_COORDINATE_COLUMNS = frozenset(
+    {"x", "y", "x_m", "y_m", "west_m", "east_m", "north_m", "south_m", "easting_m", "northing_m"}
+)
+
+#: Column names holding counts: whole numbers.
+_COUNT_COLUMNS = frozenset({"places", "rows", "sectors", "n_cols", "n_rows", "receptors"})
+
+#: Unit suffixes of column names and the unit shown in a label, longest first. `_fraction` and
+#: `_share` values are shown as percentages (see :func:`_display_value`).
+_UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
+    ("_kg_n_ha_yr", "kg N/ha/yr"),
+    ("_mol_n_ha_yr", "mol N/ha/yr"),
+    ("_keq_ha_yr", "keq/ha/yr"),
+    ("_kg_per_place_yr", "kg/place/yr"),
+    ("_ug_m3", "µg/m³"),
+    ("_m3_yr", "m³/yr"),
+    ("_kg_yr", "kg/yr"),
+    ("_g_s", "g/s"),
+    ("_m_s", "m/s"),
+    ("_percent", "%"),
+    ("_fraction", "%"),
+    ("_deg", "deg"),
+    ("_ha", "ha"),
+    ("_m", "m"),
+    ("_s", "s"),
+)
+
+#: Transposed sources table: (group heading, ((column in `sources`, row label), ...)), in the
+#: order of the derivation. Rows empty for every source are left out, and so is a group whose
+#: rows all are; columns not listed here are shown at the end under a label made from the name.
+_DERIVATION_ROWS: tuple[tuple[str, tuple[tuple[str, str], ...]], ...] = (
+    (
+        "Kind, role and release",
+        (
+            ("kind", "Kind of source"),
+            ("role", "Role"),
+            ("x_m", "Position x (easting) [m]"),
+            ("y_m", "Position y (northing) [m]"),
+            ("height_m", "Release height [m]"),
+        ),
+    ),
+    (
+        "Emission before abatement",
+        (
+            ("livestock", "Livestock"),
+            ("housing", "Housing"),
+            ("places", "Animal places"),
+            ("factor_nh3_kg_per_place_yr", "Emission factor [kg NH3/place/yr]"),
+            ("factor_source", "Where the factor comes from"),
+            ("nh3_unabated_kg_yr", "NH3 before abatement [kg/yr]"),
+        ),
+    ),
+    (
+        "Abatement",
+        (
+            ("abatement", "Abatement technique"),
+            ("reduction_percent", "Reduction by the technique [%]"),
+            ("reduction_range_percent", "Published range of the reduction [%]"),
+            ("reduction_flag", "Check of the reduction"),
+            ("reduction_source", "Where the reduction comes from"),
+            ("treated_air_fraction", "Share of the house air treated [%]"),
+            ("effective_reduction_percent", "Effective reduction [%]"),
+        ),
+    ),
+    (
+        "Emission used in the model",
+        (
+            ("nh3_kg_yr", "NH3 emitted [kg/yr]"),
+            ("emission_g_s", "Source strength [g/s]"),
+        ),
+    ),
+    (
+        "Captured by abatement",
+        (
+            ("nh3_removed_kg_yr", "NH3 removed [kg/yr]"),
+            ("n_captured_kg_yr", "N captured in the effluent [kg N/yr]"),
+            ("effluent_m3_yr", "Effluent [m³/yr]"),
+        ),
+    ),
+)
+
+#: Rows of the derivation table shown as citations (small wrapping text) and as a warning.
+_CITATION_ROWS = frozenset({"factor_source", "reduction_source"})
+_FLAG_ROWS = frozenset({"reduction_flag"})
+#: Rows of the derivation table shown in bold: the figures the model uses.
+_RESULT_ROWS = frozenset({"nh3_kg_yr", "emission_g_s"})
+
+#: Habitat table value columns: (header, unit, value column(s) joined by "–", citation column).
+_HABITAT_VALUE_COLUMNS: tuple[tuple[str, str, tuple[str, ...], str | None], ...] = (
+    ("Deposition velocity", "m/s", ("deposition_velocity_m_s",), "deposition_velocity_source"),
+    (
+        "Critical load range",
+        "kg N/ha/yr",
+        ("critical_load_min_kg_n_ha_yr", "critical_load_max_kg_n_ha_yr"),
+        "critical_load_source",
+    ),
+    ("Critical load used", "kg N/ha/yr", ("critical_load_used_kg_n_ha_yr",), None),
+    ("Critical level", "µg NH3/m³", ("critical_level_ug_m3",), "critical_level_source"),
+)
+
+#: Most sources side by side in one block of the transposed table (fits A4 portrait).
+_SOURCES_PER_BLOCK = 6
+
+#: Plain-words labels of the weather summary keys (unknown keys get a label from their name).
+_WEATHER_LABELS = {
+    "file": "Frequency table file",
+    "station": "Station",
+    "sectors": "Wind direction sectors",
+    "sector_width_deg": "Sector width [deg]",
+    "speed_classes_m_s": "Wind speed classes [m/s]",
+    "mean_speed_m_s": "Mean wind speed [m/s]",
+    "stability_share": "Share of each stability class (Pasquill A-F)",
+    "prevailing_from_deg": "Prevailing wind from [deg]",
+    "share_raised_to_min_speed": "Share of the record raised to the minimum wind speed [%]",
+    "anemometer_height_m": "Anemometer height [m]",
+    "rows": "Rows in the table",
+    "frequencies_given_as": "Frequencies given as",
+}
+
+#: Keys of the run record shown elsewhere in the report (not repeated in section 7's tables).
+_RECORD_SHOWN_ELSEWHERE = {
+    "weather_summary": "section 2",
+    "warnings": "section 5",
+    "cautions": "section 6",
+}
+
+#: Scenario parameters not repeated in the model settings table (shown elsewhere).
+_SETTINGS_SHOWN_ELSEWHERE = frozenset({"title", "source", "sources"})
+
+#: Labels of scenario parameters whose names alone read poorly.
+_SETTING_LABELS = {
+    "crs": "Coordinate reference system",
+    "path": "Scenario file",
+    "hourly": "Hourly weather file",
+    "land_type": "Land type (dispersion coefficients)",
+    "sigma_scheme": "Dispersion coefficient scheme",
+    "min_wind_speed_m_s": "Minimum wind speed [m/s]",
+    "plume_depletion": "Plume depletion by deposition",
+    "depletion_land_cover": "Land cover used for depletion",
+    "critical_load_end": "End of the critical load range used",
+    "config_dir": "Own configuration tables folder",
+}
+
+_ROLE_NOTE = (
+    "Roles: proposed and existing sources make up the process contribution (PC); removed "
+    "sources are subtracted in the net change; other sources (somebody else's) count only "
+    "in-combination. “–” marks a step that does not apply to that source."
+)
+
 _CAUTION_TOP_LINE = (
     "Screening estimate from a simplified model, not a decision: read the cautions in section 6. "
     "The competent authority and local regulations decide."
 )
 
 _CSS = """
-:root { --ink: #1d2430; --muted: #5a6472; --rule: #c9ced6; --band: #f3f5f8; --accent: #23436b; }
+:root { --ink: #1d2430; --muted: #5a6472; --rule: #c9ced6; --band: #f3f5f8; --accent: #23436b;
+        --warn-bg: #fbe0d8; --warn-ink: #7f1d0b; --warn-rule: #c2543a; }
 * { box-sizing: border-box; }
 body { font-family: "Segoe UI", "Helvetica Neue", Arial, sans-serif; color: var(--ink);
        margin: 0 auto; max-width: 1200px; padding: 1.2rem 1.6rem 3rem; line-height: 1.45; }
@@ -100,7 +268,9 @@ h1 { font-size: 1.6rem; margin: 0.4rem 0 0.2rem; color: var(--accent); }
 h2 { font-size: 1.25rem; margin-top: 2rem; border-bottom: 2px solid var(--accent);
      padding-bottom: 0.2rem; color: var(--accent); }
 h3 { font-size: 1.05rem; margin-top: 1.4rem; }
+h4 { font-size: 0.95rem; margin: 1rem 0 0.2rem; }
 .meta { color: var(--muted); font-size: 0.9rem; margin: 0 0 0.8rem; }
+.note { color: var(--muted); font-size: 0.9em; margin: 0.2rem 0 0.8rem; }
 .caution-line { background: #fff4d6; border: 1px solid #d9a400; border-left: 6px solid #d9a400;
                 padding: 0.5rem 0.8rem; font-weight: 600; margin: 0.6rem 0 1rem; }
 .cautions { background: #fff4d6; border: 2px solid #d9a400; padding: 0.6rem 1.2rem;
@@ -108,36 +278,72 @@ h3 { font-size: 1.05rem; margin-top: 1.4rem; }
 .cautions li { margin: 0.3rem 0; }
 nav.toc { font-size: 0.92rem; }
 nav.toc ol { margin: 0.2rem 0 0; padding-left: 1.4rem; }
-table { border-collapse: collapse; margin: 0.6rem 0 1rem; font-size: 0.9rem; }
+table { border-collapse: collapse; margin: 0.6rem 0 1rem; font-size: 0.9rem; max-width: 100%; }
 th, td { border: 1px solid var(--rule); padding: 0.28rem 0.5rem; vertical-align: top; }
 th { background: #e4e8ee; text-align: left; }
+thead th { vertical-align: bottom; }
+th .unit { display: block; font-weight: 400; font-size: 0.9em; color: var(--muted);
+           white-space: nowrap; }
+th.group { text-align: center; border-bottom-color: var(--accent); }
 td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+td.na { color: var(--muted); text-align: center; }
+td.over { color: var(--warn-ink); font-weight: 700; }
 tbody tr:nth-child(even) { background: var(--band); }
 .table-wrap { overflow-x: auto; }
+.sub { display: block; font-size: 0.87em; color: var(--muted); }
+.cite { font-size: 0.85em; line-height: 1.3; color: #3b4452; overflow-wrap: anywhere; }
+.mono { font-family: "DejaVu Sans Mono", Consolas, "Liberation Mono", monospace;
+        font-size: 0.87em; overflow-wrap: anywhere; }
+sup.ref { font-size: 0.78em; color: var(--accent); margin-left: 0.15em; }
+table.fit { width: 100%; }
+table.summary th { font-size: 0.92em; }
+table.summary td.site { min-width: 8em; }
+table.summary .site-name { font-weight: 600; }
+table.derivation { width: 100%; table-layout: fixed; }
+table.derivation col.label { width: 16em; }
+table.derivation tbody th { font-weight: 600; background: #eef1f5; }
+tr.step-group th { background: #d5dce6; color: var(--accent); font-size: 0.9em;
+                   text-transform: uppercase; letter-spacing: 0.03em; }
+table.derivation tr.result td { font-weight: 700; }
+table.derivation td { overflow-wrap: anywhere; }
+td.flag { background: var(--warn-bg); color: var(--warn-ink); font-weight: 700;
+          border: 2px solid var(--warn-rule); }
+th.flagged { background: var(--warn-bg); color: var(--warn-ink); }
+table.mini { margin: 0; font-size: 0.95em; }
+table.mini th, table.mini td { padding: 0.1rem 0.45rem; text-align: center; }
+table.compact td, table.compact th { padding: 0.18rem 0.5rem; }
+ol.cite-list { font-size: 0.9em; color: #3b4452; padding-left: 2.2rem; }
+ol.cite-list li { margin: 0.15rem 0; }
 .verdict { font-weight: 700; padding: 0.1rem 0.45rem; border-radius: 0.25rem; white-space: nowrap;
            display: inline-block; }
-.verdict-above { background: #fbe0d8; color: #7f1d0b; border: 1px solid #c2543a; }
+.verdict-above { background: var(--warn-bg); color: var(--warn-ink);
+                 border: 1px solid var(--warn-rule); }
 .verdict-below { background: #dbe9f6; color: #0b3c6e; border: 1px solid #4a7fb5; }
 .verdict-none { background: #ececec; color: #3d3d3d; border: 1px dashed #8a8a8a; }
-.verdict-hint { display: block; font-size: 0.75rem; color: var(--muted); font-weight: 400; }
+.verdict-hint { display: block; font-size: 0.83em; color: var(--muted); font-weight: 400; }
 .empty { color: var(--muted); font-style: italic; }
 figure { margin: 1rem 0 1.6rem; }
 figure img { max-width: 100%; height: auto; border: 1px solid var(--rule); }
 figcaption { color: var(--muted); font-size: 0.9rem; margin-top: 0.3rem; }
+details { margin: 0.8rem 0; }
+details summary { cursor: pointer; color: var(--accent); }
 pre.record { background: var(--band); border: 1px solid var(--rule); padding: 0.6rem;
-             font-size: 0.8rem; white-space: pre-wrap; word-break: break-all; }
-tr, img, figure, pre { page-break-inside: avoid; break-inside: avoid; }
+             font-size: 0.78rem; white-space: pre-wrap; word-break: break-all; }
+tr, img, figure { page-break-inside: avoid; break-inside: avoid; }
 thead { display: table-header-group; }
+@page { margin: 12mm; }
 @media print {
-  body { max-width: none; padding: 0; font-size: 10pt; }
-  h2, h3 { page-break-after: avoid; break-after: avoid; }
+  body { max-width: none; padding: 0; font-size: 9.5pt; }
+  table { font-size: 8pt; }
+  th, td { padding: 0.12rem 0.25rem; }
+  h2, h3, h4 { page-break-after: avoid; break-after: avoid; }
   .table-wrap { overflow: visible; }
   nav.toc { display: none; }
-  .cautions, .caution-line { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
-  .verdict { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+  a { color: inherit; text-decoration: none; }
+  .cautions, .caution-line, .verdict, td.flag, th.flagged, tr.step-group th {
+    -webkit-print-color-adjust: exact; print-color-adjust: exact; }
 }
 """
-
 
 # --------------------------------------------------------------------------------------------
 # Presentation helpers shared with webmap.py
@@ -209,6 +415,77 @@ def format_number(value: Any, unit: str = "", significant_digits: int = 3) -> st
                 number, precision=significant_digits, unique=False, fractional=False, trim="-"
             )
     return f"{text} {unit}" if unit else text
+
+
+def format_for_column(value: Any, column: str) -> str:
+    """A value as text, formatted by what its column measures, read from the column name.
+
+    The unit suffix of the name (``_m``, ``_g_s``, ``_kg_yr``, ``_percent``, ...) picks the
+    precision, so a value reads the same in every table of the report:
+
+    ======================================================  ===================================
+    column name                                             shown as
+    ======================================================  ===================================
+    coordinates: ``x``, ``y``, ``x_m``, ``y_m``,            0.1 m, no grouping: ``500123.4``
+    ``west_m``, ``north_m``, ...
+    counts: ``places``, ``rows``, ``n_cols``, ...           whole number: ``2400``
+    percentages: ``*_percent``, ``*_pct``, ``*_pct_*``      1 decimal: ``5.1`` (a small non-zero
+                                                            value keeps 1 significant digit:
+                                                            ``0.04``)
+    ``*_g_s``                                               4 significant digits: ``0.02141``
+    ``*_kg_yr``, ``*_m3_yr``, ``*_per_place_yr``, ``*_m``   4 significant digits, whole numbers
+                                                            from 1000: ``675.1``, ``6751``
+    anything else (``*_ug_m3``, ``*_kg_n_ha_yr``, ...)      3 significant digits: ``0.0512``
+    ======================================================  ===================================
+
+    Other integer values (Python or numpy ints) show in full. Missing values, strings and
+    booleans are handled as in :func:`format_number`.
+
+    Parameters
+    ----------
+    value : float, int, str or None
+        The value, in the unit its column name says.
+    column : str
+        Column or key name carrying the unit suffix, e.g. ``"emission_g_s"``.
+
+    Returns
+    -------
+    text : str
+        The formatted value without a unit (the header carries it).
+    """
+    if is_missing(value) or isinstance(value, (str, bool, np.bool_)):
+        return format_number(value)
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return str(value)
+    if not math.isfinite(number):
+        return format_number(number)
+    name = str(column).strip().lower()
+    if name in _COORDINATE_COLUMNS or name.endswith(("_x_m", "_y_m")):
+        return f"{number:.1f}"
+    if name.endswith(("_percent", "_pct")) or "_pct_" in name or name.startswith("pct_"):
+        return _format_percent(number)
+    if isinstance(value, (int, np.integer)):
+        return str(int(value))
+    if name in _COUNT_COLUMNS or name.endswith(("_places", "_count")):
+        return f"{round(number):d}"
+    if name.endswith("_g_s"):
+        return format_number(number, significant_digits=4)
+    if name.endswith(("_kg_yr", "_m3_yr", "_per_place_yr", "_m")):
+        if abs(number) >= 1000.0:
+            return f"{round(number):d}"
+        return format_number(number, significant_digits=4)
+    return format_number(number)
+
+
+def _format_percent(percent: float, decimals: int = 1) -> str:
+    """A percentage [%] to `decimals` decimals; a non-zero value that would show as 0 keeps one
+    significant digit instead (0.042 -> "0.04"), so a small contribution never reads as none."""
+    text = f"{percent:.{decimals}f}"
+    if percent != 0.0 and float(text) == 0.0:
+        return format_number(percent, significant_digits=1)
+    return text
 
 
 def deposition_class_edges(deposition_kg_n_ha_yr: np.ndarray, max_classes: int = 7) -> np.ndarray:
@@ -331,7 +608,8 @@ def deposition_figure(
         Habitat sites in the same projected CRS as the grid; outlines drawn and labelled with
         the ``name`` column when present.
     sources : GeoDataFrame, optional
-        Sources in the same CRS; drawn as markers at their representative points.
+        Sources in the same CRS; drawn as markers at their representative points, one marker
+        style per ``role`` (proposed, existing, removed, other) when that column is present.
     contours : sequence of (float, str), optional
         Contour levels [kg N ha-1 yr-1] and their labels.
     crs_label : str, optional
@@ -413,19 +691,34 @@ def deposition_figure(
                     color="#3a0d05",
                     parse_math=False,
                 )
+    if sites is not None and len(sites):
+        ax.plot([], [], color="#8a1c0a", linewidth=1.0, label="habitat site")
     if sources is not None and len(sources):
-        points = [g.representative_point() for g in sources.geometry if g is not None]
-        if points:
-            ax.plot(
-                [p.x for p in points],
-                [p.y for p in points],
-                linestyle="none",
-                marker="^",
-                markersize=7,
-                markerfacecolor="#ffffff",
-                markeredgecolor="#000000",
-                label="sources",
-            )
+        roles = (
+            [str(r).strip().lower() if not is_missing(r) else "" for r in sources["role"]]
+            if "role" in sources
+            else [""] * len(sources)
+        )
+        for role in dict.fromkeys(roles):  # first-seen order
+            marker, face = _SOURCE_MARKERS.get(role, ("^", "#ffffff"))
+            points = [
+                g.representative_point()
+                for g, r in zip(sources.geometry, roles)
+                if r == role and g is not None and not g.is_empty
+            ]
+            if points:
+                ax.plot(
+                    [p.x for p in points],
+                    [p.y for p in points],
+                    linestyle="none",
+                    marker=marker,
+                    markersize=7,
+                    markerfacecolor=face,
+                    markeredgecolor="#000000",
+                    label=f"{role} source" if role else "source",
+                )
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(fontsize=7, loc="lower left", framealpha=0.85)
     ax.set_xlim(west_m, east_m)
     ax.set_ylim(south_m, north_m)
     ax.set_aspect("equal")
@@ -461,6 +754,7 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
         If a required column is missing.
     """
     from matplotlib.figure import Figure
+    from matplotlib.ticker import FuncFormatter, LogLocator
 
     missing = [c for c in ("name", "distance_m", "pc_dep_max_kg_n_ha_yr") if c not in sites]
     if missing:
@@ -522,8 +816,17 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
                 zorder=2,
                 label="screening threshold of the site",
             )
-            ax.legend(fontsize=8, loc="best")
+    for verdict in dict.fromkeys(str(v) for v in verdicts if str(v) in VERDICT_COLOURS):
+        ax.scatter([], [], c=VERDICT_COLOURS[verdict], s=36, edgecolors="#000000",
+                   linewidths=0.5, label=verdict)  # fmt: skip
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(fontsize=8, loc="best")
     ax.set_yscale("log")
+    plain = FuncFormatter(lambda value, _: format_number(value))
+    ax.yaxis.set_major_formatter(plain)
+    ax.yaxis.set_minor_locator(LogLocator(base=10.0, subs=(2.0, 5.0)))
+    ax.yaxis.set_minor_formatter(plain)
+    ax.tick_params(axis="y", which="minor", labelsize=7)
     ax.set_xlabel("Distance from the nearest source [m]")
     ax.set_ylabel("PC max deposition [kg N/ha/yr]")
     ax.set_title("Process contribution at each site by distance", fontsize=10)
@@ -532,7 +835,7 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
 
 
 # --------------------------------------------------------------------------------------------
-# The report
+# The report: small HTML builders
 # --------------------------------------------------------------------------------------------
 
 
@@ -543,83 +846,99 @@ def _esc(value: Any) -> str:
     return html.escape(str(value), quote=True)
 
 
-def _cell(value: Any, kind: str) -> str:
-    """One <td> of a table: numbers right-aligned and formatted, text escaped."""
-    if kind == "verdict":
-        text = "" if is_missing(value) else str(value)
-        css, hint = _VERDICT_STYLE.get(text.strip().lower(), ("verdict-none", ""))
-        shown = _esc(text) if text else _MISSING
-        hint_html = f'<span class="verdict-hint">{html.escape(hint)}</span>' if hint else ""
-        return f'<td><span class="verdict {css}">{shown}</span>{hint_html}</td>'
-    if kind in ("number", "percent") and not isinstance(value, str):
-        return f'<td class="num">{html.escape(format_number(value))}</td>'
-    if not isinstance(value, str) and isinstance(value, (int, float, np.number)):
-        return f'<td class="num">{html.escape(format_number(value))}</td>'
-    return f"<td>{_esc(value)}</td>"
+def _code(value: Any) -> str:
+    """Escaped identifier-like text that may wrap after underscores (``partly_<wbr>slatted``)."""
+    return _esc(value).replace("_", "_<wbr>")
 
 
-def _non_empty_columns(frame: pd.DataFrame) -> list[str]:
-    """Columns of `frame` holding at least one non-missing value, geometry left out."""
-    keep = []
-    for column in frame.columns:
-        if str(column) == "geometry":
-            continue
-        if any(not is_missing(v) for v in frame[column]):
-            keep.append(column)
-    return keep
+def _head(label: str, unit: str = "") -> str:
+    """Contents of a header cell: the label, and the unit on a second, muted line."""
+    unit_html = f'<span class="unit">{html.escape(unit)}</span>' if unit else ""
+    return f"{html.escape(label)}{unit_html}"
 
 
-def _frame_table(frame: pd.DataFrame, empty_text: str) -> str:
-    """An HTML table of every non-empty column of a DataFrame, headers as the column names."""
-    columns = _non_empty_columns(frame)
-    if not len(frame) or not columns:
-        return f'<p class="empty">{html.escape(empty_text)}</p>'
-    head = "".join(f"<th>{_esc(c)}</th>" for c in columns)
-    rows = []
-    for _, record in frame.iterrows():
-        rows.append("<tr>" + "".join(_cell(record[c], "auto") for c in columns) + "</tr>")
+def _plain_label(key: str) -> str:
+    """A readable label made from a column or key name, its unit suffix in brackets.
+
+    ``"calm_fraction"`` -> ``"Calm [%]"``, ``"distance_m"`` -> ``"Distance [m]"``.
+    """
+    name = str(key)
+    unit = ""
+    for suffix, shown in _UNIT_SUFFIXES:
+        if name.lower().endswith(suffix) and len(name) > len(suffix):
+            name, unit = name[: -len(suffix)], shown
+            break
+    words = name.replace("_", " ").strip()
+    words = words[:1].upper() + words[1:]
+    return f"{words} [{unit}]" if unit else words
+
+
+def _is_share(key: str) -> bool:
+    """True when a key names a dimensionless share 0..1 (shown as a percentage)."""
+    name = str(key).lower()
+    return name.endswith("_fraction") or name.startswith("share") or name.endswith("_share")
+
+
+def _compass(direction_deg: float) -> str:
+    """16-point compass name of a direction [deg clockwise from north]."""
+    points = ("N", "NNE", "NE", "ENE", "E", "ESE", "SE", "SSE",
+              "S", "SSW", "SW", "WSW", "W", "WNW", "NW", "NNW")  # fmt: skip
+    return points[int(round(float(direction_deg) / 22.5)) % 16]
+
+
+def _display_value(key: str, value: Any) -> str:
+    """HTML of one value of a key/value listing, formatted by what its key names.
+
+    Shares and fractions become percentages, lists are joined with ", ", a mapping of shares
+    becomes a small row of percentages, other mappings "key: value" pairs, and a prevailing
+    direction gets its compass point. Text is escaped.
+    """
+    if isinstance(value, Mapping):
+        if value and _is_share(key) and all(_is_number(v) for v in value.values()):
+            head = "".join(f"<th>{_esc(k)}</th>" for k in value)
+            cells = "".join(
+                f"<td>{html.escape(_format_percent(100.0 * float(v)))} %</td>"
+                for v in value.values()
+            )
+            return (
+                f'<table class="mini"><thead><tr>{head}</tr></thead>'
+                f"<tbody><tr>{cells}</tr></tbody></table>"
+            )
+        return ", ".join(f"{_esc(k)}: {_display_value(str(k), v)}" for k, v in value.items())
+    if isinstance(value, (list, tuple, np.ndarray)):
+        return ", ".join(_display_value(key, v) for v in value) or _NOT_APPLICABLE
+    if _is_share(key) and _is_number(value):
+        return html.escape(_format_percent(100.0 * float(value)))
+    text = html.escape(format_for_column(value, key))
+    if str(key).endswith("from_deg") and _is_number(value):
+        text += f" ({_compass(float(value))})"
+    return text
+
+
+def _is_number(value: Any) -> bool:
+    """True for a real number (bool excluded) that is not missing."""
     return (
-        f'<div class="table-wrap"><table><thead><tr>{head}</tr></thead>'
-        f"<tbody>{''.join(rows)}</tbody></table></div>"
+        isinstance(value, (int, float, np.integer, np.floating))
+        and not isinstance(value, (bool, np.bool_))
+        and not is_missing(value)
     )
 
 
-def _summary_table(sites: pd.DataFrame) -> str:
-    """The summary table: one row per site, the columns of SUMMARY_COLUMNS."""
-    columns = list(SUMMARY_COLUMNS)
-    if _INCOMBINATION_COLUMN[0] in sites and any(
-        not is_missing(v) for v in sites[_INCOMBINATION_COLUMN[0]]
-    ):
-        at = [c[0] for c in columns].index("pc_pct_load") + 1
-        columns.insert(at, _INCOMBINATION_COLUMN)
-    head = "".join(f"<th>{html.escape(label)}</th>" for _, label, _ in columns)
-    rows = []
-    for _, record in sites.iterrows():
-        cells = "".join(_cell(record.get(key), kind) for key, _, kind in columns)
-        rows.append(f'<tr class="site-row">{cells}</tr>')
-    if not rows:
-        empty = "No habitat site in the layer."
-        body = f'<tr><td colspan="{len(columns)}" class="empty">{empty}</td></tr>'
-    else:
-        body = "".join(rows)
-    return (
-        f'<div class="table-wrap"><table class="summary"><thead><tr>{head}</tr></thead>'
-        f"<tbody>{body}</tbody></table></div>"
-    )
-
-
-def _mapping_table(mapping: Mapping[str, Any], empty_text: str) -> str:
-    """A two-column key/value table of a dict; nested values shown as compact JSON."""
+def _key_value_table(
+    mapping: Mapping[str, Any], labels: Mapping[str, str], empty_text: str, css: str = ""
+) -> str:
+    """Two-column table of a mapping: plain-words label, then the value formatted by its key."""
     if not mapping:
         return f'<p class="empty">{html.escape(empty_text)}</p>'
     rows = []
     for key, value in mapping.items():
-        if isinstance(value, (dict, list, tuple)):
-            shown = f"<td>{_esc(json.dumps(value, default=str, ensure_ascii=False))}</td>"
-        else:
-            shown = _cell(value, "auto")
-        rows.append(f"<tr><th>{_esc(key)}</th>{shown}</tr>")
-    return f"<table><tbody>{''.join(rows)}</tbody></table>"
+        label = labels.get(str(key), _plain_label(str(key)))
+        rows.append(
+            f'<tr><th scope="row">{html.escape(label)}</th>'
+            f"<td>{_display_value(str(key), value)}</td></tr>"
+        )
+    cls = f' class="{css}"' if css else ""
+    return f"<table{cls}><tbody>{''.join(rows)}</tbody></table>"
 
 
 def _bullet_list(items: Sequence[str], empty_text: str, css_class: str = "") -> str:
@@ -628,6 +947,477 @@ def _bullet_list(items: Sequence[str], empty_text: str, css_class: str = "") -> 
         return f'<p class="empty">{html.escape(empty_text)}</p>'
     cls = f' class="{css_class}"' if css_class else ""
     return f"<ul{cls}>" + "".join(f"<li>{_esc(item)}</li>" for item in items) + "</ul>"
+
+
+class _Notes:
+    """Numbered citation notes: the same text gets the same number; rendered as a list."""
+
+    def __init__(self) -> None:
+        self._numbers: dict[str, int] = {}
+
+    def ref(self, text: Any) -> str:
+        """A superscript reference ``[n]`` to `text` (empty for missing text)."""
+        if is_missing(text):
+            return ""
+        number = self._numbers.setdefault(str(text).strip(), len(self._numbers) + 1)
+        return f'<sup class="ref">[{number}]</sup>'
+
+    def html(self, heading: str) -> str:
+        """The notes as an ordered list under a small heading ('' when there are none)."""
+        if not self._numbers:
+            return ""
+        items = "".join(f"<li>{_esc(text)}</li>" for text in self._numbers)
+        return f'<h4>{html.escape(heading)}</h4><ol class="cite-list">{items}</ol>'
+
+
+# --------------------------------------------------------------------------------------------
+# The report: sections
+# --------------------------------------------------------------------------------------------
+
+
+def _verdict_cell(value: Any) -> str:
+    """The verdict <td>: a coloured badge and a plain-words hint."""
+    text = "" if is_missing(value) else str(value)
+    css, hint = _VERDICT_STYLE.get(text.strip().lower(), ("verdict-none", ""))
+    shown = _esc(text) if text else _MISSING
+    hint_html = f'<span class="verdict-hint">{html.escape(hint)}</span>' if hint else ""
+    return f'<td class="verdict-cell"><span class="verdict {css}">{shown}</span>{hint_html}</td>'
+
+
+def _number_cell(value: Any, column: str, css: str = "") -> str:
+    """A right-aligned <td> of a number formatted by its column name."""
+    classes = " ".join(c for c in ("num", css) if c)
+    return f'<td class="{classes}">{html.escape(format_for_column(value, column))}</td>'
+
+
+def _percent_cell(value: Any, column: str, threshold: Any) -> str:
+    """A % <td>; marked when over the threshold, with more decimals when rounding would hide
+    the difference from the threshold (1.04 % against 1 % shows "1.04", not "1.0")."""
+    if is_missing(value) or not _is_number(value) or not _is_number(threshold):
+        return _number_cell(value, column)
+    number, limit = float(value), float(threshold)
+    decimals = 1
+    text = _format_percent(number, decimals)
+    while number != limit and text == _format_percent(limit, decimals) and decimals < 6:
+        decimals += 1
+        text = _format_percent(number, decimals)
+    css = "num over" if number > limit else "num"
+    return f'<td class="{css}">{html.escape(text)}</td>'
+
+
+def _summary_table(sites: pd.DataFrame) -> str:
+    """The summary: one row per site, site and verdict first, fitting a portrait page."""
+    show_incomb = "incomb_pct_load" in sites and any(
+        not is_missing(v) for v in sites["incomb_pct_load"]
+    )
+    n_dep = 4 if show_incomb else 3
+    head_top = (
+        f'<th rowspan="2">{_head("Site", "designation")}</th>'
+        f'<th rowspan="2">{_head("Verdict")}</th>'
+        f'<th rowspan="2">{_head("Habitat")}</th>'
+        f'<th colspan="3" class="group">{_head("Ammonia concentration")}</th>'
+        f'<th colspan="{n_dep}" class="group">{_head("Nitrogen deposition")}</th>'
+        f'<th rowspan="2">{_head("Threshold", "%")}</th>'
+    )
+    head_sub = [
+        _head("Critical level", "µg NH3/m³"),
+        _head("PC max", "µg NH3/m³"),
+        _head("PC", "% of level"),
+        _head("Critical load", "kg N/ha/yr"),
+        _head("PC max", "kg N/ha/yr"),
+        _head("PC", "% of load"),
+    ]
+    if show_incomb:
+        head_sub.append(_head("In-comb.", "% of load"))
+    head = (
+        f"<tr>{head_top}</tr><tr>" + "".join(f"<th>{h}</th>" for h in head_sub) + "</tr>"
+    )
+    rows = []
+    for _, record in sites.iterrows():
+        designation = record.get("designation")
+        designation_html = (
+            "" if is_missing(designation) else f'<span class="sub">{_esc(designation)}</span>'
+        )
+        habitat = record.get("habitat_name")
+        habitat_html = _esc(habitat) if not is_missing(habitat) else _code(record.get("habitat"))
+        threshold = record.get("threshold_percent")
+        cells = [
+            f'<td class="site"><span class="site-name">{_esc(record.get("name"))}</span>'
+            f"{designation_html}</td>",
+            _verdict_cell(record.get("verdict")),
+            f"<td>{habitat_html}</td>",
+            _number_cell(record.get("critical_level_ug_m3"), "critical_level_ug_m3"),
+            _number_cell(record.get("pc_conc_max_ug_m3"), "pc_conc_max_ug_m3"),
+            _percent_cell(record.get("pc_pct_level"), "pc_pct_level", threshold),
+            _number_cell(
+                record.get("critical_load_used_kg_n_ha_yr"), "critical_load_used_kg_n_ha_yr"
+            ),
+            _number_cell(record.get("pc_dep_max_kg_n_ha_yr"), "pc_dep_max_kg_n_ha_yr"),
+            _percent_cell(record.get("pc_pct_load"), "pc_pct_load", threshold),
+        ]
+        if show_incomb:
+            cells.append(_number_cell(record.get("incomb_pct_load"), "incomb_pct_load"))
+        cells.append(_number_cell(threshold, "threshold_percent"))
+        rows.append(f'<tr class="site-row">{"".join(cells)}</tr>')
+    if not rows:
+        empty = "No habitat site in the layer."
+        body = f'<tr><td colspan="{7 + n_dep}" class="empty">{empty}</td></tr>'
+    else:
+        body = "".join(rows)
+    legend = (
+        '<p class="note">PC: process contribution of the installation (proposed + existing '
+        "sources), maximum over the site. Threshold: the site's screening threshold, as a % of "
+        "both the critical level and the critical load; a % in bold red is above it."
+        + (" In-comb.: PC together with the other sources in the scenario." if show_incomb else "")
+        + "</p>"
+    )
+    return (
+        f'<div class="table-wrap"><table class="summary fit"><thead>{head}</thead>'
+        f"<tbody>{body}</tbody></table></div>{legend}"
+    )
+
+
+_CHANGE_COLUMNS = (
+    ("net_conc_max_ug_m3", "Net change", "µg NH3/m³"),
+    ("net_pct_level", "Net change", "% of level"),
+    ("net_dep_max_kg_n_ha_yr", "Net change", "kg N/ha/yr"),
+    ("net_pct_load", "Net change", "% of load"),
+    ("incomb_dep_max_kg_n_ha_yr", "In-combination", "kg N/ha/yr"),
+    ("incomb_pct_load", "In-combination", "% of load"),
+    ("background_dep_kg_n_ha_yr", "Background", "kg N/ha/yr"),
+    ("pec_dep_kg_n_ha_yr", "Background + PC", "kg N/ha/yr"),
+    ("pec_pct_load", "Background + PC", "% of load"),
+)
+
+
+def _change_table(sites: pd.DataFrame) -> str:
+    """Net change (proposed - removed), in-combination and background + PC, one row per site.
+
+    Columns that are empty for every site (e.g. no background in the habitat layer) are left
+    out; returns "" when none is present.
+    """
+    columns = [c for c in _CHANGE_COLUMNS
+               if c[0] in sites and any(not is_missing(v) for v in sites[c[0]])]
+    if not columns:
+        return ""
+    head = "<th>Site</th>" + "".join(f"<th>{_head(label, unit)}</th>" for _, label, unit in columns)
+    rows = []
+    for _, record in sites.iterrows():
+        cells = [f'<td class="site"><span class="site-name">{_esc(record.get("name"))}</span></td>']
+        cells += [_number_cell(record.get(col), col) for col, _, _ in columns]
+        rows.append(f"<tr>{''.join(cells)}</tr>")
+    note = (
+        '<p class="note">Net change: proposed sources less those to be removed, maximum over '
+        "the site (negative where the proposal lowers the contribution). In-combination: PC "
+        "together with the other farms in the scenario. Background + PC: the predicted "
+        "environmental total where the habitat layer gives a background.</p>"
+    )
+    return (
+        "<h3>Net change, in-combination and background</h3>"
+        f'<div class="table-wrap"><table class="summary fit"><thead><tr>{head}</tr></thead>'
+        f"<tbody>{''.join(rows)}</tbody></table></div>{note}"
+    )
+
+
+def _source_ids(sources: pd.DataFrame) -> list[str]:
+    """Column headers of the transposed sources table: source_id, else id, else 1, 2, ..."""
+    for column in ("source_id", "id"):
+        if column in sources:
+            return [
+                str(v) if not is_missing(v) else f"#{i + 1}"
+                for i, v in enumerate(sources[column])
+            ]
+    return [f"#{i + 1}" for i in range(len(sources))]
+
+
+def _derivation_cell(column: str, value: Any) -> str:
+    """One <td> of the transposed sources table, styled by what the row holds."""
+    if is_missing(value):
+        return f'<td class="na">{_NOT_APPLICABLE}</td>'
+    if column in _FLAG_ROWS:
+        return f'<td class="flag">⚠ {_esc(value)}</td>'
+    if column in _CITATION_ROWS:
+        return f'<td class="cite">{_esc(value)}</td>'
+    if _is_share(column) and _is_number(value):
+        return f'<td class="num">{html.escape(_format_percent(100.0 * float(value)))}</td>'
+    if _is_number(value):
+        return _number_cell(value, column)
+    if isinstance(value, str) and len(value) > 40:
+        return f'<td class="cite">{_esc(value)}</td>'
+    return f"<td>{_code(value)}</td>"
+
+
+def _sources_table(sources: pd.DataFrame) -> str:
+    """The emission derivation, transposed: one column per source, one row per step.
+
+    Split into blocks of at most ``_SOURCES_PER_BLOCK`` sources so that it fits the page.
+    """
+    if not len(sources):
+        return '<p class="empty">No sources were given.</p>'
+    ids = _source_ids(sources)
+    listed = {column for _, rows in _DERIVATION_ROWS for column, _ in rows}
+    skip = listed | {"source_id", "id", "geometry"}
+    extra = tuple((c, _plain_label(c)) for c in map(str, sources.columns) if c not in skip)
+    groups = list(_DERIVATION_ROWS) + ([("Other", extra)] if extra else [])
+
+    def filled(column: str) -> bool:
+        return column in sources and any(not is_missing(v) for v in sources[column])
+
+    flagged = [
+        any(not is_missing(sources[c].iloc[i]) for c in _FLAG_ROWS if c in sources)
+        for i in range(len(sources))
+    ]
+    blocks = []
+    for start in range(0, len(sources), _SOURCES_PER_BLOCK):
+        part = range(start, min(start + _SOURCES_PER_BLOCK, len(sources)))
+        head = "".join(
+            f'<th class="flagged" scope="col">{_esc(ids[i])} ⚠</th>'
+            if flagged[i]
+            else f'<th scope="col">{_esc(ids[i])}</th>'
+            for i in part
+        )
+        body = []
+        for heading, rows in groups:
+            shown = [(column, label) for column, label in rows if filled(column)]
+            if not shown:
+                continue
+            body.append(
+                f'<tr class="step-group"><th colspan="{len(part) + 1}">'
+                f"{html.escape(heading)}</th></tr>"
+            )
+            for column, label in shown:
+                css = ' class="result"' if column in _RESULT_ROWS else ""
+                cells = "".join(_derivation_cell(column, sources[column].iloc[i]) for i in part)
+                body.append(f'<tr{css}><th scope="row">{html.escape(label)}</th>{cells}</tr>')
+        blocks.append(
+            '<table class="derivation"><colgroup><col class="label"></colgroup>'
+            f'<thead><tr><th scope="col">Source id</th>{head}</tr></thead>'
+            f"<tbody>{''.join(body)}</tbody></table>"
+        )
+    return "".join(blocks) + f'<p class="note">{html.escape(_ROLE_NOTE)}</p>'
+
+
+def _habitat_table(values: pd.DataFrame) -> str:
+    """Habitats and their critical values, one row per habitat; citations as numbered notes."""
+    if not len(values):
+        return '<p class="empty">No habitat values available.</p>'
+
+    def filled(column: str) -> bool:
+        return column in values and any(not is_missing(v) for v in values[column])
+
+    specs = [s for s in _HABITAT_VALUE_COLUMNS if any(filled(c) for c in s[2])]
+    if not any(s[2] == _HABITAT_VALUE_COLUMNS[1][2] for s in specs):  # no range: cite on "used"
+        specs = [
+            (h, u, c, "critical_load_source" if c == ("critical_load_used_kg_n_ha_yr",) else s)
+            for h, u, c, s in specs
+        ]
+    known = {"habitat", "habitat_name", "source", "land_cover", "geometry"}
+    known |= {c for s in _HABITAT_VALUE_COLUMNS for c in (*s[2], s[3]) if c}
+    extra = [str(c) for c in values.columns if str(c) not in known and filled(str(c))]
+    extra_sources = [c for c in extra if c.endswith("_source")]
+    extra_values = [c for c in extra if c not in extra_sources]
+
+    head = ["<th>Habitat</th>"]
+    if filled("land_cover"):
+        head.append("<th>Land cover</th>")
+    head += [f"<th>{_head(label, unit)}</th>" for label, unit, _, _ in specs]
+    head += [f"<th>{html.escape(_plain_label(c))}</th>" for c in extra_values]
+    if extra_sources:
+        head.append("<th>Other sources</th>")
+
+    notes = _Notes()
+    rows = []
+    for _, record in values.iterrows():
+        get = record.get
+        name, code = get("habitat_name"), get("habitat")
+        main = _esc(name) if not is_missing(name) else _code(code)
+        both = not is_missing(name) and not is_missing(code)
+        sub = f'<span class="sub">{_code(code)}</span>' if both else ""
+        cells = [f"<td>{main}{notes.ref(get('source'))}{sub}</td>"]
+        if filled("land_cover"):
+            cells.append(f"<td>{_code(get('land_cover'))}</td>")
+        for _, _, value_columns, source_column in specs:
+            text = "–".join(format_for_column(get(c), c) for c in value_columns)
+            ref = notes.ref(get(source_column)) if source_column else ""
+            cells.append(f'<td class="num">{html.escape(text)}{ref}</td>')
+        for column in extra_values:
+            value = get(column)
+            cells.append(
+                _number_cell(value, column)
+                if _is_number(value)
+                else f"<td>{_display_value(column, value)}</td>"
+            )
+        if extra_sources:
+            cells.append("<td>" + "".join(notes.ref(get(c)) for c in extra_sources) + "</td>")
+        rows.append(f"<tr>{''.join(cells)}</tr>")
+    return (
+        f'<div class="table-wrap"><table class="fit"><thead><tr>{"".join(head)}</tr></thead>'
+        f"<tbody>{''.join(rows)}</tbody></table></div>"
+        + notes.html("Where the values come from")
+    )
+
+
+def _thresholds_table(sites: pd.DataFrame) -> str:
+    """The screening threshold of each designation used, with its source ('' if not known)."""
+    if "threshold_percent" not in sites or not len(sites):
+        return ""
+    columns = [c for c in ("designation", "tier", "threshold_percent", "threshold_source")
+               if c in sites]  # fmt: skip
+    table = pd.DataFrame(sites[columns]).drop_duplicates()
+    labels = {
+        "designation": _head("Designation"),
+        "tier": _head("Tier"),
+        "threshold_percent": _head("Threshold", "% of CLe and CL"),
+        "threshold_source": _head("Where the threshold comes from"),
+    }
+    head = "".join(f"<th>{labels[c]}</th>" for c in columns)
+    rows = []
+    for _, record in table.iterrows():
+        cells = []
+        for c in columns:
+            if c == "threshold_percent":
+                cells.append(_number_cell(record[c], c))
+            elif c == "threshold_source":
+                cells.append(f'<td class="cite">{_esc(record[c])}</td>')
+            else:
+                cells.append(f"<td>{_code(record[c])}</td>")
+        rows.append(f"<tr>{''.join(cells)}</tr>")
+    return (
+        "<h3>Screening thresholds used</h3>"
+        f'<div class="table-wrap"><table class="fit"><thead><tr>{head}</tr></thead>'
+        f"<tbody>{''.join(rows)}</tbody></table></div>"
+    )
+
+
+def _settings_table(parameters: Mapping[str, Any]) -> str:
+    """The scenario's settings as read (defaults filled in), grouped by scenario table.
+
+    Sources (section 2's derivation) and the title are left out; unset values read "not set".
+    """
+    groups: list[tuple[str, dict[str, Any]]] = [("General", {})]
+    for key, value in parameters.items():
+        if key in _SETTINGS_SHOWN_ELSEWHERE:
+            continue
+        if isinstance(value, Mapping):
+            groups.append((_plain_label(key), dict(value)))
+        elif isinstance(value, (list, tuple)) and any(isinstance(v, Mapping) for v in value):
+            continue  # a list of tables, e.g. sources: shown elsewhere
+        else:
+            groups[0][1][key] = value
+    rows = []
+    for heading, entries in groups:
+        if not entries:
+            continue
+        rows.append(f'<tr class="step-group"><th colspan="2">{html.escape(heading)}</th></tr>')
+        for key, value in entries.items():
+            shown = (
+                '<span class="empty">not set</span>'
+                if value is None
+                else _display_value(str(key), value)
+            )
+            label = _SETTING_LABELS.get(str(key), _plain_label(str(key)))
+            rows.append(f'<tr><th scope="row">{html.escape(label)}</th><td>{shown}</td></tr>')
+    if not rows:
+        return ""
+    return (
+        "<h3>Model settings</h3>"
+        '<p class="note">As read from the scenario file, with defaults filled in.</p>'
+        f'<table class="compact settings"><tbody>{"".join(rows)}</tbody></table>'
+    )
+
+
+def _file_hash_table(files: Mapping[str, Any], first_header: str) -> str:
+    """Input files as a table: key, file name (folder below), SHA-256 in monospace.
+
+    The key column is left out when every key is just the file's name.
+    """
+    entries = {k: (e if isinstance(e, Mapping) else {"sha256": e}) for k, e in files.items()}
+    show_key = any(
+        is_missing(e.get("path")) or PurePath(str(e.get("path"))).name != str(k)
+        for k, e in entries.items()
+    )
+    rows = []
+    for key, entry in entries.items():
+        path = entry.get("path")
+        if is_missing(path):
+            file_html = f'<td class="na">{_NOT_APPLICABLE}</td>'
+        else:
+            pure = PurePath(str(path))
+            folder = str(pure.parent) if str(pure.parent) not in ("", ".") else ""
+            folder_html = f'<span class="sub mono">{_esc(folder)}</span>' if folder else ""
+            file_html = f"<td>{_esc(pure.name)}{folder_html}</td>"
+        key_html = f"<td>{_code(key)}</td>" if show_key else ""
+        rows.append(
+            f"<tr>{key_html}{file_html}"
+            f'<td class="mono">{_esc(entry.get("sha256"))}</td></tr>'
+        )
+    key_head = f"<th>{html.escape(first_header)}</th>" if show_key else ""
+    return (
+        f'<table class="compact"><thead><tr>{key_head}<th>File</th>'
+        f"<th>SHA-256</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"
+    )
+
+
+def _run_record_html(record: Mapping[str, Any]) -> str:
+    """Section 7: the run record as tables (files and hashes, grid, versions) plus raw JSON."""
+    parts = []
+    done = set()
+    overview = {
+        k: v for k, v in record.items() if not isinstance(v, (Mapping, list, tuple))
+    }
+    labels = {"tool": "Tool", "version": "Version", "run_time_utc": "Run time (UTC)",
+              "title": "Title"}  # fmt: skip
+    if overview:
+        parts.append(_key_value_table(overview, labels, "", css="compact"))
+        done |= set(overview)
+    for key, heading, first in (
+        ("inputs", "Input files", "Input"),
+        ("config_tables", "Configuration tables", "Table"),
+    ):
+        if isinstance(record.get(key), Mapping) and record[key]:
+            parts.append(f"<h4>{heading}</h4>" + _file_hash_table(record[key], first))
+            done.add(key)
+    if isinstance(record.get("grid"), Mapping):
+        grid_labels = {"west_m": "West edge [m]", "north_m": "North edge [m]",
+                       "cell_m": "Cell size [m]", "n_cols": "Columns", "n_rows": "Rows",
+                       "crs": "Coordinate reference system"}  # fmt: skip
+        parts.append("<h4>Receptor grid</h4>" + _key_value_table(record["grid"], grid_labels, "",
+                                                                  css="compact"))
+        done.add("grid")
+    if isinstance(record.get("versions"), Mapping) and record["versions"]:
+        versions = record["versions"]
+        head = "".join(f"<th>{_esc(k)}</th>" for k in versions)
+        cells = "".join(f'<td class="mono">{_esc(v)}</td>' for v in versions.values())
+        parts.append(
+            "<h4>Software versions</h4>"
+            f'<table class="compact"><thead><tr>{head}</tr></thead>'
+            f"<tbody><tr>{cells}</tr></tbody></table>"
+        )
+        done.add("versions")
+    if isinstance(record.get("timings_s"), Mapping) and record["timings_s"]:
+        timing_labels = {k: _plain_label(k) for k in record["timings_s"]}
+        timing_labels["receptors"] = "Receptor points computed"
+        parts.append("<h4>Timings</h4>" + _key_value_table(record["timings_s"], timing_labels, "",
+                                                          css="compact"))
+        done.add("timings_s")
+    elsewhere = [(k, where) for k, where in _RECORD_SHOWN_ELSEWHERE.items() if k in record]
+    done |= {k for k, _ in elsewhere} | {"parameters"}
+    rest = {k: v for k, v in record.items() if k not in done}
+    if rest:
+        parts.append("<h4>Other entries</h4>" + _key_value_table(rest, {}, "", css="compact"))
+    notes = []
+    if "parameters" in record:
+        notes.append("model settings: see section 2 (and the raw record below)")
+    notes += [f"{_plain_label(k).lower()}: see {where}" for k, where in elsewhere]
+    if notes:
+        text = "; ".join(notes)
+        parts.append(f'<p class="note">{html.escape(text[:1].upper() + text[1:])}.</p>')
+    raw = json.dumps(record, indent=2, default=str, ensure_ascii=False)
+    parts.append(
+        "<details><summary>Complete run record (as in run.json)</summary>"
+        f'<pre class="record">{html.escape(raw)}</pre></details>'
+    )
+    return "".join(parts)
 
 
 def _figures_html(figures: Mapping[str, bytes]) -> str:
@@ -682,16 +1472,20 @@ def write_report(
         ``designation``, ``habitat``, ``critical_level_ug_m3`` [ug m-3],
         ``critical_load_used_kg_n_ha_yr`` [kg N ha-1 yr-1], ``pc_conc_max_ug_m3`` [ug m-3],
         ``pc_pct_level`` [%], ``pc_dep_max_kg_n_ha_yr`` [kg N ha-1 yr-1], ``pc_pct_load`` [%],
-        ``threshold_percent`` [%], ``verdict``); ``incomb_pct_load`` [%] is shown when present.
+        ``threshold_percent`` [%], ``verdict``). Used when present: ``habitat_name`` (shown
+        instead of the habitat id), ``incomb_pct_load`` [%], and ``tier`` and
+        ``threshold_source`` (the table of screening thresholds).
     sources : DataFrame
-        One row per source with its emission derivation; every non-empty column is shown under
-        its own name (a ``geometry`` column is left out).
+        One row per source with its emission derivation, shown transposed (one column per
+        source, headed by ``source_id``); the known derivation columns get plain-words labels,
+        other non-empty columns a label made from their name (a ``geometry`` column is left out).
     weather_summary : dict
-        Key -> value lines describing the weather data used.
+        Key -> value lines describing the weather data used; known keys get plain-words labels,
+        shares are shown as percentages.
     habitat_values : DataFrame
-        Habitats and their critical values with the source of each (habitat,
-        critical_load_min/max/used, critical_level, land_cover, deposition velocity, source
-        columns); every non-empty column is shown.
+        Habitats and their critical values with the source of each (habitat, habitat_name,
+        critical_load_min/max/used, critical_level, land_cover, deposition velocity, ``*_source``
+        or ``source`` columns); sources become numbered notes under the table.
     warnings : list of str
         Warnings collected during the run.
     cautions : list of str
@@ -699,7 +1493,8 @@ def write_report(
     method_notes : list of str
         Method and assumption statements for section 3.
     run_record : dict
-        Version, time, inputs with SHA-256 and parameters; shown as indented JSON.
+        Version, time, inputs with SHA-256 and parameters; shown as tables, and in full as
+        indented JSON in a collapsed block.
     figures : dict of str to bytes
         Caption -> PNG bytes, inlined as data URLs in that order.
 
@@ -708,20 +1503,28 @@ def write_report(
     InputError
         If `sites` lacks a summary column or a figure is not PNG bytes; nothing is written.
     """
-    missing = [key for key, _, _ in SUMMARY_COLUMNS if key not in sites.columns]
+    missing = [key for key, _ in SUMMARY_COLUMNS if key not in sites.columns]
     if missing:
         raise InputError(
             f"report: sites table lacks column(s) {', '.join(missing)}; "
-            f"expected {', '.join(k for k, _, _ in SUMMARY_COLUMNS)}"
+            f"expected {', '.join(k for k, _ in SUMMARY_COLUMNS)}"
         )
     figures_html = _figures_html(figures)  # validates before anything is written
-    record_text = json.dumps(run_record, indent=2, default=str, ensure_ascii=False)
 
     counts = {}
     for verdict in sites["verdict"]:
         key = "not assessed" if is_missing(verdict) else str(verdict)
         counts[key] = counts.get(key, 0) + 1
     count_text = "; ".join(f"{n} {k}" for k, n in counts.items()) or "no sites"
+    n_flags = sum(
+        1 for c in _FLAG_ROWS if c in sources for v in sources[c] if not is_missing(v)
+    )
+    flag_line = (
+        f'<p class="caution-line">{n_flags} source{"s use" if n_flags > 1 else " uses"} an '
+        "abatement reduction outside its published range: see the ⚠ in section 2.</p>"
+        if n_flags
+        else ""
+    )
 
     sections = [
         (
@@ -731,17 +1534,25 @@ def write_report(
             "Each figure is the maximum process contribution (PC) of the assessed sources over "
             "the site. The verdict compares the PC, as a percentage of the critical level and of "
             "the critical load, with the site's screening threshold; section 3 states how.</p>"
-            + _summary_table(sites),
+            + flag_line
+            + _summary_table(sites)
+            + _change_table(sites),
         ),
         (
             "inputs",
             "2. Inputs",
             "<h3>Sources and emission derivation</h3>"
-            + _frame_table(sources, "No sources were given.")
+            + _sources_table(sources)
             + "<h3>Weather</h3>"
-            + _mapping_table(weather_summary, "No weather summary available.")
+            + _key_value_table(weather_summary, _WEATHER_LABELS, "No weather summary available.")
             + "<h3>Habitats and their critical values</h3>"
-            + _frame_table(habitat_values, "No habitat values available."),
+            + _habitat_table(habitat_values)
+            + _thresholds_table(sites)
+            + (
+                _settings_table(run_record["parameters"])
+                if isinstance(run_record.get("parameters"), Mapping)
+                else ""
+            ),
         ),
         (
             "method",
@@ -755,7 +1566,7 @@ def write_report(
             "6. Cautions",
             f'<div class="cautions">{_bullet_list(cautions, "No cautions given.")}</div>',
         ),
-        ("run-record", "7. Run record", f'<pre class="record">{html.escape(record_text)}</pre>'),
+        ("run-record", "7. Run record", _run_record_html(run_record)),
     ]
     toc = "".join(f'<li><a href="#{anchor}">{html.escape(h)}</a></li>' for anchor, h, _ in sections)
     body = "".join(

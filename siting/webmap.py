@@ -5,7 +5,8 @@ and coloured in log classes (an image overlay that needs no tile server), contou
 sites coloured by verdict with popups of their figures, the sources styled by role with their
 emission derivation, a legend, a title block with the cautions, a scale bar and a north arrow.
 An OpenStreetMap background is offered in the layer control, but everything we draw shows
-without it. No physics lives here.
+without it. The page is one self-contained file: :func:`siting.webassets.inline_assets` puts the
+vendored Leaflet and jQuery in place of folium's CDN links. No physics lives here.
 
 Every text that comes from a user file goes through :func:`escape_text` before it reaches the
 page. folium writes popup and tooltip content into JavaScript template literals without
@@ -35,6 +36,7 @@ from siting.report import (
     format_number,
     is_missing,
 )
+from siting.webassets import inline_assets
 
 if TYPE_CHECKING:  # imported for annotations only
     import folium
@@ -54,6 +56,10 @@ ROLE_STYLES: dict[str, dict[str, Any]] = {
 _OVERLAY_OPACITY = 0.7
 
 _CONTOUR_COLOUR = "#111111"
+
+#: Popup options: an opened popup is panned clear of the title block (top left, ~215 px tall
+#: with the cautions open), which sits above the map panes.
+_POPUP_OPTIONS: dict[str, Any] = {"max_width": 380, "auto_pan_padding_top_left": [10, 240]}
 
 #: Characters that would still act inside a JavaScript template literal after html.escape.
 _JS_TEMPLATE_REPLACEMENTS = (
@@ -79,7 +85,8 @@ _MAP_CSS = """
 .siting-title details { margin-top: 2px; }
 .siting-title summary { cursor: pointer; font-weight: 600; color: #7a5600; }
 .siting-title ul { margin: 3px 0 0; padding-left: 16px; }
-.siting-legend { bottom: 26px; right: 10px; max-height: 70vh; overflow-y: auto; }
+.siting-legend { bottom: 26px; right: 10px; max-width: 250px; max-height: 70vh;
+  overflow-y: auto; }
 .siting-legend h2 { font-size: 12px; margin: 6px 0 3px; }
 .siting-legend h2:first-child { margin-top: 0; }
 .siting-legend .row { display: flex; align-items: center; gap: 6px; margin: 1px 0; }
@@ -89,6 +96,7 @@ _MAP_CSS = """
 .siting-legend .line { width: 22px; height: 0; border-top: 2px dashed #111; flex: none; }
 .siting-legend .note { color: #5a6472; font-size: 11px; }
 .siting-north { top: 92px; left: 10px; padding: 2px 4px; text-align: center; }
+.siting-popup { font-size: 12px; line-height: 1.35; }
 .siting-popup table { border-collapse: collapse; }
 .siting-popup th { text-align: left; padding: 1px 8px 1px 0; font-weight: 600;
   vertical-align: top; }
@@ -421,7 +429,7 @@ def _add_sites(group: folium.FeatureGroup, sites_wgs84: gpd.GeoDataFrame) -> Non
             zoom_on_click=False,
             control=False,
         )
-        folium.Popup(_site_popup(row), max_width=380).add_to(layer)
+        folium.Popup(_site_popup(row), **_POPUP_OPTIONS).add_to(layer)
         folium.Tooltip(escape_text(row.get("name")) or "Unnamed site").add_to(layer)
         layer.add_to(group)
 
@@ -436,7 +444,7 @@ def _add_sources(group: folium.FeatureGroup, sources_wgs84: gpd.GeoDataFrame) ->
             continue
         role = str(row.get("role")).strip().lower() if not is_missing(row.get("role")) else "other"
         style = ROLE_STYLES.get(role, ROLE_STYLES["other"])
-        popup = folium.Popup(_source_popup(row), max_width=380)
+        popup = folium.Popup(_source_popup(row), **_POPUP_OPTIONS)
         tooltip = folium.Tooltip(
             "Source " + (escape_text(row.get("source_id")) or "(no id)") + f" ({escape_text(role)})"
         )
@@ -527,6 +535,8 @@ def write_screen_map(
     ------
     InputError
         If the grid is not 2-D, cell_m <= 0 or crs is not a projected CRS; nothing is written.
+    AssetError
+        If folium links a script or style sheet that siting does not vendor; nothing is written.
 
     Notes
     -----
@@ -609,4 +619,5 @@ def write_screen_map(
 
     folium.LayerControl(collapsed=False).add_to(fmap)
     fmap.fit_bounds(bounds)
-    fmap.save(str(path))
+    page = inline_assets(fmap.get_root().render())
+    Path(path).write_bytes(page.encode("utf-8"))

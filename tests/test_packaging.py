@@ -75,6 +75,14 @@ def test_wheel_bundles_config_and_demo(wheel):
         assert name in names
 
 
+def test_wheel_carries_the_map_assets(wheel):
+    """The vendored Leaflet and jQuery (inlined into map.html) and their licences are packed."""
+    names = set(zipfile.ZipFile(wheel).namelist())
+    for name in ("leaflet/leaflet.js", "leaflet/leaflet.css", "leaflet/LICENSE",
+                 "leaflet/images/layers.png", "jquery/jquery.slim.min.js", "jquery/LICENSE.txt"):
+        assert f"siting/_assets/{name}" in names
+
+
 def test_installed_demo_runs_from_an_empty_folder(installed, tmp_path):
     """`siting demo --quiet` from the installed wheel, in an empty folder: ./maps/demo/."""
     work = tmp_path / "empty"

@@ -18,6 +18,7 @@ from siting.report import (
     deposition_class_edges,
     deposition_figure,
     figure_png,
+    format_for_column,
     format_number,
     pc_vs_distance_figure,
     write_report,
@@ -59,29 +60,89 @@ def _sites() -> pd.DataFrame:
     )
 
 
-def _write(path, **overrides) -> str:
-    """Write a report with synthetic inputs and return its HTML."""
+FLAG = "reduction 95 % is outside the published range 70-90 % for <scrubber>"
+LONG_CITATION = "invented key, Table 9, " + "a long citation text " * 12 + "(from memory)"
+
+
+def _sources(n_extra: int = 0) -> pd.DataFrame:
+    """Two sources with a partial emission derivation, plus `n_extra` plain ones."""
     sources = pd.DataFrame(
         {
-            "source_id": ["H1", "STORE"],
+            "source_id": ["H1", "STORE<1>"],
             "kind": ["point", "area"],
             "role": ["proposed", "existing"],
-            "places": [2000, np.nan],
-            "factor_nh3_kg_per_place_yr": [2.5, np.nan],
-            "nh3_kg_yr": [1500.0, 300.0],
-            "emission_g_s": [0.0476, 0.0095],
+            "x_m": [500123.4, 500200.0],
+            "y_m": [5800456.7, 5800300.0],
+            "places": [2000.0, np.nan],
+            "factor_nh3_kg_per_place_yr": [2.813, np.nan],
+            "factor_source": [LONG_CITATION, "given in scenario"],
+            "nh3_unabated_kg_yr": [5626.0, 300.0],
+            "abatement": ["acid_scrubber", ""],
+            "reduction_percent": [95.0, np.nan],
+            "reduction_flag": [FLAG, ""],
+            "treated_air_fraction": [0.5, np.nan],
+            "nh3_kg_yr": [2953.65, 300.0],
+            "emission_g_s": [0.0935975, 0.0095066],
             "empty_column": [np.nan, None],
+            "stack_diameter_m": [1.2, np.nan],
         }
     )
+    extra = pd.DataFrame(
+        {
+            "source_id": [f"X{i}" for i in range(n_extra)],
+            "kind": "volume",
+            "role": "other",
+            "x_m": 501000.0,
+            "y_m": 5801000.0,
+            "nh3_kg_yr": 100.0,
+            "emission_g_s": 0.00317,
+        }
+    )
+    return pd.concat([sources, extra], ignore_index=True) if n_extra else sources
+
+
+WEATHER = {
+    "station": "Invented <station>",
+    "sectors": 12,
+    "speed_classes_m_s": [1.5, 3.0, 5.0, 8.0],
+    "mean_speed_m_s": 4.50287580435,
+    "stability_share": {"A": 0.0131608995, "B": 0.06139564970000001, "D": 0.9254434508},
+    "prevailing_from_deg": 240.0,
+    "share_raised_to_min_speed": 0.0,
+    "calm_fraction": 0.021,
+}
+
+RUN_RECORD = {
+    "tool": "siting",
+    "version": "0.1.0",
+    "inputs": {
+        "scenario": {"path": "/data/farm/scenario.toml", "sha256": "ab" * 32},
+        "weather": {"path": "/data/farm/weather <x>.csv", "sha256": "cd" * 32},
+    },
+    "parameters": {
+        "crs": "EPSG:32632",
+        "weather": {"land_type": "rural", "mixing_height_m": None, "min_wind_speed_m_s": 1.0},
+        "deposition": {"plume_depletion": True},
+        "source": [{"id": "H1"}],
+    },
+    "versions": {"python": "3.11.7", "numpy": "2.4.6"},
+    "warnings": ["weather record is short <1 yr>"],
+}
+
+
+def _write(path, **overrides) -> str:
+    """Write a report with synthetic inputs and return its HTML."""
     habitat_values = pd.DataFrame(
         {
-            "habitat": ["raised bog", "oak woodland"],
+            "habitat": ["raised_bog", "oak_woodland"],
+            "habitat_name": ["Raised bog", "Oak woodland"],
             "critical_load_min_kg_n_ha_yr": [5.0, 10.0],
             "critical_load_max_kg_n_ha_yr": [10.0, 15.0],
             "critical_load_used_kg_n_ha_yr": [5.0, 10.0],
             "critical_level_ug_m3": [1.0, 1.0],
             "land_cover": ["short_vegetation", "woodland"],
             "deposition_velocity_m_s": [0.02, 0.03],
+            "deposition_velocity_source": ["velocity key, Table 2", "velocity key, Table 2"],
             "source": ["key A, Table 1 (from memory)", "key B, p. 12 & <note>"],
         }
     )
@@ -91,13 +152,13 @@ def _write(path, **overrides) -> str:
         run_time="2024-05-01T12:00:00Z",
         scenario_file="scenario.toml",
         sites=_sites(),
-        sources=sources,
-        weather_summary={"station": "Invented <station>", "years": 3, "calm_fraction": 0.021},
+        sources=_sources(),
+        weather_summary=WEATHER,
         habitat_values=habitat_values,
         warnings=["weather record is short <1 yr>"],
         cautions=CAUTIONS,
         method_notes=["Sector-averaged Gaussian plume, flat terrain."],
-        run_record={"version": "0.1.0", "inputs": {"scenario.toml": {"sha256": "ab" * 32}}},
+        run_record=RUN_RECORD,
         figures={"PC by distance": pc_vs_distance_figure(_sites())},
     )
     arguments.update(overrides)
@@ -113,9 +174,27 @@ def report_html(tmp_path_factory) -> str:
 
 def _summary_body(text: str) -> str:
     """The <tbody> of the summary table."""
-    match = re.search(r'<table class="summary">.*?<tbody>(.*?)</tbody>', text, re.S)
+    match = re.search(r'<table class="summary[^"]*">.*?<tbody>(.*?)</tbody>', text, re.S)
     assert match
     return match.group(1)
+
+
+def _between(text: str, start: str, end: str) -> str:
+    """The part of `text` from `start` up to `end` (both must occur, in that order)."""
+    i = text.index(start)
+    return text[i : text.index(end, i)]
+
+
+def _derivation_tables(text: str) -> list[str]:
+    """Every block of the transposed sources table."""
+    return re.findall(r'<table class="derivation">.*?</table>', text, re.S)
+
+
+def _row(table: str, label: str) -> str:
+    """The <tr> of a transposed table whose row header is `label`."""
+    match = re.search(r"<tr[^>]*><th scope=\"row\">" + re.escape(label) + r"</th>.*?</tr>", table)
+    assert match, label
+    return match.group(0)
 
 
 def test_report_contains_every_site_name_escaped(report_html):
@@ -129,6 +208,7 @@ def test_report_contains_every_site_name_escaped(report_html):
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in report_html
     assert "&lt;img src=x onerror=alert(1)&gt;" in report_html
     assert "<b>SSSI</b>" not in report_html and "&lt;b&gt;SSSI&lt;/b&gt;" in report_html
+    assert "STORE&lt;1&gt;" in report_html and "STORE<1>" not in report_html
 
 
 def test_summary_table_has_one_row_per_site(report_html):
@@ -138,14 +218,36 @@ def test_summary_table_has_one_row_per_site(report_html):
     assert body.count('class="site-row"') == len(NAMES)
 
 
+def test_summary_puts_site_and_verdict_first(report_html):
+    """Each summary row opens with the site (designation below its name), then the verdict."""
+    rows = re.findall(r'<tr class="site-row">(.*?)</tr>', _summary_body(report_html), re.S)
+    for row, name in zip(rows, NAMES):
+        cells = re.findall(r"<td[^>]*>(.*?)</td>", row, re.S)
+        assert html.escape(name, quote=True) in cells[0]
+        assert 'class="verdict ' in cells[1]
+    assert 'class="sub">&lt;b&gt;SSSI&lt;/b&gt;</span>' in rows[1]  # designation under the name
+    assert len(re.findall(r"<td", rows[0])) == 10  # compact: no separate designation column
+
+
 def test_summary_shows_formatted_figures_and_verdict_styles(report_html):
-    """Numbers are formatted to 3 significant digits; verdicts carry a style class."""
+    """Concentrations keep 3 significant digits, percentages 1 decimal; verdicts are styled."""
     body = _summary_body(report_html)
-    assert ">123<" in body and ">1.23<" in body  # 123.4 and 1.234 at 3 significant digits
+    assert ">1.23<" in body  # 1.234 ug/m3 at 3 significant digits
+    assert ">123.4<" in body and ">250.0<" in body  # % of level / load to 1 decimal
+    assert ">0.4<" in body and ">1.0<" in body  # % of load; threshold 1 %
+    assert 'class="num over">250.0<' in body  # above the 1 % threshold: marked
     assert 'class="verdict verdict-above"' in body
     assert 'class="verdict verdict-below"' in body
     assert 'class="verdict verdict-none"' in body
     assert "n/a" in body  # the not-assessed site's missing figures
+
+
+def test_summary_keeps_decimals_where_rounding_would_meet_the_threshold(tmp_path):
+    """1.04 % against a 1 % threshold shows as 1.04, not as 1.0 (which would read as equal)."""
+    sites = _sites()
+    sites.loc[1, ["pc_pct_load", "threshold_percent"]] = [1.04, 1.0]
+    body = _summary_body(_write(tmp_path / "report.html", sites=sites))
+    assert 'class="num over">1.04<' in body
 
 
 def test_images_are_inlined_data_urls(report_html):
@@ -179,23 +281,106 @@ def test_sections_cautions_and_print_css(report_html):
     assert report_html.index('class="caution-line"') < report_html.index("<h1>")
     for caution in CAUTIONS:
         assert html.escape(caution) in report_html
-    assert "tr, img, figure, pre { page-break-inside: avoid" in report_html
+    assert "tr, img, figure { page-break-inside: avoid; break-inside: avoid; }" in report_html
+    assert "thead { display: table-header-group; }" in report_html
+    assert "@media print" in report_html
 
 
-def test_inputs_echo_non_empty_columns_and_sources(report_html):
-    """Source columns with values are shown, empty ones left out; habitat sources escaped."""
-    assert "factor_nh3_kg_per_place_yr" in report_html
-    assert "empty_column" not in report_html
-    assert "key B, p. 12 &amp; &lt;note&gt;" in report_html
-    assert "Invented &lt;station&gt;" in report_html
-    assert "weather record is short &lt;1 yr&gt;" in report_html
+def test_sources_table_is_transposed_with_a_column_per_source(report_html):
+    """One column per source headed by its id, one row per derivation step in plain words."""
+    (table,) = _derivation_tables(report_html)
+    head = re.search(r"<thead>(.*?)</thead>", table, re.S).group(1)
+    assert re.findall(r"<th[^>]*>(.*?)</th>", head) == ["Source id", "H1 ⚠", "STORE&lt;1&gt;"]
+    labels = re.findall(r'<th scope="row">(.*?)</th>', table)
+    assert labels.index("Kind of source") < labels.index("Emission factor [kg NH3/place/yr]")
+    assert labels.index("NH3 emitted [kg/yr]") < labels.index("Source strength [g/s]")
+    assert "Stack diameter [m]" in labels  # a column outside the known steps: label from its name
+    assert "empty_column" not in report_html and "Empty column" not in report_html  # all empty
+    assert "factor_nh3_kg_per_place_yr" not in table  # raw names give way to labels
+    for row in re.findall(r"<tr[^>]*>(.*?)</tr>", table.split("<tbody>")[1], re.S):
+        if "step-group" not in row and "colspan" not in row:
+            assert len(re.findall(r"<td", row)) == 2  # one cell per source
 
 
-def test_run_record_is_pretty_printed(report_html):
-    """The run record shows as indented JSON with the SHA-256 of the inputs."""
-    record = re.search(r'<pre class="record">(.*?)</pre>', report_html, re.S).group(1)
-    assert json.loads(html.unescape(record))["inputs"]["scenario.toml"]["sha256"] == "ab" * 32
-    assert '\n  "version"' in html.unescape(record)
+def test_sources_table_formats_by_column_meaning(report_html):
+    """Coordinates to 0.1 m, places whole, g/s to 4 and kg/yr to 4 significant digits."""
+    (table,) = _derivation_tables(report_html)
+    assert ">500123.4<" in _row(table, "Position x (easting) [m]")  # not 500000
+    assert ">5800456.7<" in _row(table, "Position y (northing) [m]")
+    assert ">2000<" in _row(table, "Animal places")
+    assert ">2.813<" in _row(table, "Emission factor [kg NH3/place/yr]")
+    assert ">0.0936<" in _row(table, "Source strength [g/s]")  # 0.0935975 at 4 digits
+    assert ">2954<" in _row(table, "NH3 emitted [kg/yr]")  # large: whole kg
+    assert ">50.0<" in _row(table, "Share of the house air treated [%]")  # fraction 0.5 as %
+    assert ">95.0<" in _row(table, "Reduction by the technique [%]")
+
+
+def test_sources_table_citations_wrap_and_flag_stands_out(report_html):
+    """Citations sit in small wrapping cells; a reduction flag is a warning cell and a notice."""
+    (table,) = _derivation_tables(report_html)
+    assert f'<td class="cite">{html.escape(LONG_CITATION)}</td>' in table
+    assert f'<td class="flag">⚠ {html.escape(FLAG)}</td>' in table
+    assert '<th class="flagged" scope="col">H1 ⚠</th>' in table
+    summary = _between(report_html, 'id="summary"', 'id="inputs"')
+    assert "outside its published range" in summary
+
+
+def test_sources_table_is_split_into_blocks_that_fit_the_page(tmp_path):
+    """Eight sources give two blocks, of six and two columns."""
+    text = _write(tmp_path / "report.html", sources=_sources(n_extra=6))
+    blocks = _derivation_tables(text)
+    assert len(blocks) == 2
+    assert [b.split("</thead>")[0].count('scope="col"') - 1 for b in blocks] == [6, 2]
+
+
+def test_weather_summary_is_readable(report_html):
+    """Labels in plain words with units, shares as %, lists joined; no raw dict or list."""
+    weather = _between(report_html, "<h3>Weather</h3>", "<h3>Habitats")
+    assert "{" not in weather and "}" not in weather and "[1.5" not in weather
+    assert "0.0131608995" not in weather
+    assert "Wind speed classes [m/s]" in weather and ">1.5, 3, 5, 8<" in weather
+    assert "<th>A</th>" in weather and ">1.3 %<" in weather and ">92.5 %<" in weather
+    assert ">4.5<" in weather  # mean speed at 3 significant digits
+    assert "240 (WSW)" in weather
+    assert "Calm [%]" in weather and ">2.1<" in weather  # unknown key: label from its name
+    assert "Invented &lt;station&gt;" in weather
+
+
+def test_habitat_values_cite_sources_as_numbered_notes(report_html):
+    """Each distinct source text is listed once under the table and referenced by number."""
+    habitats = _between(report_html, "<h3>Habitats", "<h3>Screening thresholds")
+    notes = re.search(r'<ol class="cite-list">(.*?)</ol>', habitats, re.S).group(1)
+    assert notes.count("<li>") == 3  # two habitat sources + one shared velocity source
+    assert notes.count("velocity key, Table 2") == 1
+    assert "key B, p. 12 &amp; &lt;note&gt;" in notes
+    assert ">5–10<" in habitats  # critical load range
+    assert "Oak woodland" in habitats and "oak_<wbr>woodland" in habitats
+
+
+def test_thresholds_and_model_settings_are_shown(report_html):
+    """The screening thresholds used and the scenario's model settings are in section 2."""
+    inputs = _between(report_html, 'id="inputs"', 'id="method"')
+    assert "<h3>Screening thresholds used</h3>" in inputs
+    settings = _between(inputs, "<h3>Model settings</h3>", "</table>")
+    assert "Land type (dispersion coefficients)" in settings and ">rural<" in settings
+    assert "Mixing height [m]" in settings and "not set" in settings
+    assert "Plume depletion by deposition" in settings and ">yes<" in settings
+    assert ">H1<" not in settings  # sources are section 2's derivation, not repeated
+
+
+def test_run_record_is_shown_as_tables_and_raw_json(report_html):
+    """Inputs list file name and SHA-256 (monospace), versions are a table; raw JSON is kept."""
+    record = _between(report_html, 'id="run-record"', "</section>")
+    files = _between(record, "<h4>Input files</h4>", "</table>")
+    assert "<td>scenario.toml<" in files and "/data/farm" in files
+    assert "weather &lt;x&gt;.csv" in files
+    assert f'<td class="mono">{"ab" * 32}</td>' in files
+    versions = _between(record, "<h4>Software versions</h4>", "</table>")
+    assert "<th>numpy</th>" in versions and ">2.4.6<" in versions
+    raw = re.search(r'<details><summary>.*?</summary><pre class="record">(.*?)</pre>', record, re.S)
+    parsed = json.loads(html.unescape(raw.group(1)))
+    assert parsed["inputs"]["scenario"]["sha256"] == "ab" * 32
+    assert '\n  "version"' in html.unescape(raw.group(1))
 
 
 def test_missing_summary_column_raises_and_writes_nothing(tmp_path):
@@ -251,9 +436,41 @@ def test_class_edges_follow_the_data_range():
     assert deposition_class_edges(np.full((2, 2), np.nan))[-1] == pytest.approx(30.0)
 
 
+def test_format_for_column_follows_the_unit_suffix():
+    """Precision follows what the column measures (common practice, no source)."""
+    assert format_for_column(500123.4, "x_m") == "500123.4"  # no 3-digit rounding, no grouping
+    assert format_for_column(5800000, "y") == "5800000.0"
+    assert format_for_column(2400.0, "places") == "2400"
+    assert format_for_column(0.0214079, "emission_g_s") == "0.02141"
+    assert format_for_column(675.12, "nh3_kg_yr") == "675.1"
+    assert format_for_column(6751.2, "nh3_unabated_kg_yr") == "6751"
+    assert format_for_column(5.09813, "pc_pct_level") == "5.1"
+    assert format_for_column(4, "threshold_percent") == "4.0"
+    assert format_for_column(0.042, "incomb_pct_load") == "0.04"  # small, not shown as 0.0
+    assert format_for_column(0.050981, "pc_conc_max_ug_m3") == "0.051"
+    assert format_for_column(2.2002, "pc_dep_max_kg_n_ha_yr") == "2.2"
+    assert format_for_column(57795, "receptors") == "57795"  # integers in full
+    assert format_for_column(np.nan, "x_m") == "n/a"
+    assert format_for_column("70-99", "reduction_range_percent") == "70-99"
+
+
 def test_format_number_significant_digits():
     """format_number keeps 3 significant digits, adds the unit and marks missing values."""
     assert format_number(0.012345, "kg N/ha/yr") == "0.0123 kg N/ha/yr"
     assert format_number(1234.5) == "1230"
     assert format_number(np.nan, "%") == "n/a"
     assert format_number(0.0) == "0"
+
+
+def test_net_change_table_lists_each_site():
+    """The net-change/in-combination table shows each site's net change when present."""
+    import pandas as pd
+
+    from siting.report import _change_table
+
+    sites = pd.DataFrame({"name": ["A", "B"], "net_conc_max_ug_m3": [0.012, -0.3],
+                          "net_pct_load": [1.5, -4.0], "background_dep_kg_n_ha_yr": [None, None]})
+    html_text = _change_table(sites)
+    assert "Net change" in html_text and html_text.count("<tr>") == 3
+    assert "Background" not in html_text.split("<thead>")[1].split("</thead>")[0]
+    assert _change_table(pd.DataFrame({"name": ["A"]})) == ""

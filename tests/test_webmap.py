@@ -173,8 +173,7 @@ def test_other_user_text_is_escaped(map_html):
 
 def test_raster_overlay_is_a_png_data_url(map_html):
     """The deposition overlay is embedded as a PNG data URL in an image overlay."""
-    assert "L.imageOverlay(" in map_html
-    assert re.search(r'"data:image/png;base64,[A-Za-z0-9+/=]{100,}"', map_html)
+    assert re.search(r'L\.imageOverlay\(\s*"data:image/png;base64,[A-Za-z0-9+/=]{100,}"', map_html)
 
 
 def test_legend_lists_classes_in_kg_n_ha_yr(map_html):
@@ -216,8 +215,9 @@ def test_map_has_layer_control_scale_and_osm_option(map_html):
 def test_map_bounds_follow_the_grid(map_html):
     """The map is fitted to the grid's lat/lon bounds (UTM 32N near 51.4 N, 9 E)."""
     match = re.search(
-        r"fitBounds\(\s*\[\[([-\d.]+),\s*([-\d.]+)\],\s*\[([-\d.]+),\s*([-\d.]+)\]\]", map_html
-    )
+        r"map_\w+\.fitBounds\(\s*\[\[([-\d.]+),\s*([-\d.]+)\],\s*\[([-\d.]+),\s*([-\d.]+)\]\]",
+        map_html,
+    )  # the map's own call, not the fitWorld inside the inlined Leaflet code
     assert match
     lat_s, lon_w, lat_n, lon_e = map(float, match.groups())
     # analytic: x = 500 000 m lies on the 9 E central meridian; 5 700 000 m N is ~51.4 N
@@ -257,7 +257,10 @@ def test_overlay_keeps_north_up_and_no_data_transparent(tmp_path):
     from matplotlib.image import imread
 
     text = _write(tmp_path / "map.html")
-    encoded = re.search(r"data:image/png;base64,([A-Za-z0-9+/=]+)", text).group(1)
+    # the overlay's PNG, not the layer-control icon inlined with leaflet.css
+    encoded = re.search(
+        r'L\.imageOverlay\(\s*"data:image/png;base64,([A-Za-z0-9+/=]+)"', text
+    ).group(1)
     rgba = imread(io.BytesIO(base64.b64decode(encoded)), format="png")
     assert rgba.shape[2] == 4
     assert rgba[0, 0, 3] == 0  # no data at the north-west corner: transparent
