@@ -30,7 +30,7 @@ def _print_summary(result, out_dir: Path, quiet: bool) -> None:
                          ("PC ug NH3/m3", "right"), ("% level", "right"),
                          ("PC kg N/ha/yr", "right"), ("% load", "right"),
                          ("threshold %", "right"), ("verdict", "left")):
-        table.add_column(col, justify=justify, no_wrap=col in ("site", "verdict"))
+        table.add_column(col, justify=justify, no_wrap=col in ("site", "tier", "verdict"))
     for row in result.sites.itertuples():
         def fmt(v, spec=".3g"):
             return "-" if v != v else format(v, spec)

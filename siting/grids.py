@@ -46,9 +46,10 @@ class GridSpec:
         return np.meshgrid(x, y)
 
     def transform(self):
-        from rasterio.transform import from_origin
+        """Affine transform of the grid (north-up: row 0 at north_m)."""
+        from affine import Affine
 
-        return from_origin(self.west_m, self.north_m, self.cell_m, self.cell_m)
+        return Affine(self.cell_m, 0.0, self.west_m, 0.0, -self.cell_m, self.north_m)
 
 
 def grid_around(x_m, y_m, margin_m: float, cell_m: float, crs: str) -> GridSpec:

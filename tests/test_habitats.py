@@ -90,6 +90,7 @@ def test_sample_points_cover_boundary_nearest_source_and_interior():
     assert interior.sum() >= 16  # 20 m square at 5 m spacing: 4 x 4 lattice (+ representative)
 
 
+@pytest.mark.filterwarnings("ignore:.*(truncated|laundered)")  # shapefile's 10-char names
 @pytest.mark.parametrize("suffix", [".shp", ".geojson", ".gpkg"])
 def test_common_vector_formats_are_read(tmp_path, tables, suffix):
     """Shapefile, GeoJSON and GeoPackage layers all read the same (any format geopandas reads)."""
