@@ -127,7 +127,7 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
                 level, level_source = float(value), f"habitat layer field {section.critical_level_field}"
         land_cover = tables.deposition_velocities[habitat["land_cover"]]
 
-        def optional(key):
+        def optional(key, feature=feature):
             field = getattr(section, key)
             if not field:
                 return np.nan

@@ -193,8 +193,8 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     for s in range(N_STABILITY):
         if not freq[:, :, s].any():
             continue
-        xy_m = virtual_distance_m(element.sigma_y0_m, lambda x: scheme.sigma_y_m(x, s))
-        xz_m = virtual_distance_m(element.sigma_z0_m, lambda x: scheme.sigma_z_m(x, s))
+        xy_m = virtual_distance_m(element.sigma_y0_m, lambda x, s=s: scheme.sigma_y_m(x, s))
+        xz_m = virtual_distance_m(element.sigma_z0_m, lambda x, s=s: scheme.sigma_z_m(x, s))
 
         def sigma_z_of(x, s=s, xz_m=xz_m):
             return scheme.sigma_z_m(x + xz_m, s)

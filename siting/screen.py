@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import math
 import time
-import warnings as _warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -227,8 +226,6 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
         warnings.append(f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)')
 
     elements_and_shapes = [_source_elements(s) for s in scenario.sources]
-    all_x = np.concatenate([[e.x_m for e in els] for els, _ in elements_and_shapes])
-    all_y = np.concatenate([[e.y_m for e in els] for els, _ in elements_and_shapes])
     assessed_idx = np.flatnonzero(assessed)
     s_index, s_x, s_y, s_interior = site_sample_points(
         sites.geometry.iloc[assessed_idx], [s.x for s in scenario.sources],

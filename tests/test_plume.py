@@ -173,7 +173,7 @@ def test_wind_profile_exponents(rural_exponents):
 def test_virtual_distance_inverts_sigma(briggs_rural):
     """Virtual distance: sigma(x_v) = sigma0 (EPA1995 volume sources; analytic inverse)."""
     for s in range(6):
-        xv = virtual_distance_m(9.30, lambda x: briggs_rural.sigma_y_m(x, s))
+        xv = virtual_distance_m(9.30, lambda x, s=s: briggs_rural.sigma_y_m(x, s))
         assert_allclose(briggs_rural.sigma_y_m(xv, s), 9.30, rtol=2e-3)
     assert virtual_distance_m(0.0, lambda x: x) == 0.0
 

@@ -20,7 +20,7 @@ import pandas as pd
 import pytest
 
 from siting.cli import main
-from siting.errors import InputError, InputFileError, SitingError
+from siting.errors import InputError, InputFileError
 from siting.resources import demo_dir
 from siting.scenario import load_scenario
 from siting.screen import screen

@@ -11,7 +11,6 @@ memory) = 2.572 kg N/ha/yr with the rounded 259.7 factor; 49.5 % of a 1 ug/m3 cr
 import math
 
 import numpy as np
-import pytest
 from numpy.testing import assert_allclose
 
 from siting.constants import UG_NH3_M2_S_TO_KG_N_HA_YR

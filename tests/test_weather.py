@@ -1,6 +1,5 @@
 """Reading a weather frequency table: normalisation, sectors, checks."""
 
-import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
