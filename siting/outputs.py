@@ -162,7 +162,8 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     import geopandas as gpd
 
     from siting import __version__
-    from siting.report import deposition_figure, pc_vs_distance_figure, write_report
+    from siting.figures import deposition_figure, pc_vs_distance_figure
+    from siting.report import write_report
     from siting.webmap import write_screen_map
 
     grid = result.grid

@@ -1,14 +1,14 @@
-"""The screening report (report.html) and the figures it shows.
+"""The screening report (report.html).
 
 This adapter turns results that other modules computed into one self-contained HTML file: inline
 CSS, figures inlined as base64 PNG data URLs, no scripts and no links outside the file, so a
-regulator can open it offline years later. It also holds the small presentation helpers shared
-with :mod:`siting.webmap` (number formatting, the logarithmic deposition classes and their
-colour map) and two matplotlib figures drawn with the Agg canvas, never through pyplot's global
-state. No physics lives here: every number shown was computed elsewhere; this module only
-formats, tabulates and plots it. Numbers are formatted by what their column measures, read from
-the unit suffix of the column name (:func:`format_for_column`). Text from user files (site names,
-designations, source ids, the title) is HTML-escaped wherever it enters the page.
+regulator can open it offline years later. No physics lives here: every number shown was computed
+elsewhere; this module only formats and tabulates it. The figures are drawn by
+:mod:`siting.figures` and arrive as PNG bytes; number formatting and the other presentation
+helpers shared with :mod:`siting.webmap` live in :mod:`siting.presentation`. Numbers are
+formatted by what their column measures, read from the unit suffix of the column name
+(:func:`siting.presentation.format_for_column`). Text from user files (site names, designations,
+source ids, the title) is HTML-escaped wherever it enters the page.
 
 The page is laid out to fit an A4 or Letter page, on screen and in print: no table is wider than
 the page (the sources table is transposed, one column per source, and split into blocks of a few
@@ -20,59 +20,18 @@ from __future__ import annotations
 
 import base64
 import html
-import io
 import json
-import math
 from collections.abc import Mapping, Sequence
 from pathlib import Path, PurePath
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from siting.errors import InputError
+from siting.presentation import MISSING_TEXT, format_for_column, format_percent, is_missing
 
-if TYPE_CHECKING:  # imported for annotations only; the module does not need them at run time
-    import geopandas as gpd
-    from matplotlib.figure import Figure
-
-__all__ = [
-    "DEPOSITION_COLORMAP",
-    "SUMMARY_COLUMNS",
-    "VERDICT_COLOURS",
-    "deposition_class_colours",
-    "deposition_class_edges",
-    "deposition_figure",
-    "figure_png",
-    "format_for_column",
-    "format_number",
-    "is_missing",
-    "pc_vs_distance_figure",
-    "write_report",
-]
-
-#: Perceptually uniform matplotlib colour map used for the deposition classes (map and report).
-DEPOSITION_COLORMAP = "cividis"
-
-#: Colour of each verdict (map outlines, report figure points); our own choice.
-VERDICT_COLOURS = {
-    "below threshold": "#2f6fad",
-    "above threshold": "#c2543a",
-    "not assessed": "#8a8a8a",
-}
-
-#: Marker and fill of each source role in the deposition figure; our own choice.
-_SOURCE_MARKERS = {
-    "proposed": ("^", "#c2543a"),
-    "existing": ("^", "#ffffff"),
-    "removed": ("v", "#b0b0b0"),
-    "other": ("s", "#ffffff"),
-}
-
-#: The 1-3-10 series of class edges [kg N ha-1 yr-1] from which the shown classes are picked.
-_CLASS_EDGE_SERIES_KG_N_HA_YR = tuple(
-    float(f"{mantissa}e{exponent}") for exponent in range(-5, 5) for mantissa in (1, 3)
-)
+__all__ = ["SUMMARY_COLUMNS", "write_report"]
 
 #: Columns the summary table needs: (column in `sites`, what it holds). The table shows them as
 #: Site (name, designation below) | Verdict | Habitat | concentration group | deposition group |
@@ -98,18 +57,8 @@ _VERDICT_STYLE = {
     "not assessed": ("verdict-none", "no PC figure for this site"),
 }
 
-_MISSING = "n/a"
-
 #: Shown in a transposed table where a step does not apply to a source (e.g. no abatement).
 _NOT_APPLICABLE = "–"
-
-#: Column names holding projected coordinates [m]: 0.1 m, no thousands grouping.
-_COORDINATE_COLUMNS = frozenset(
-    {"x", "y", "x_m", "y_m", "west_m", "east_m", "north_m", "south_m", "easting_m", "northing_m"}
-)
-
-#: Column names holding counts: whole numbers.
-_COUNT_COLUMNS = frozenset({"places", "rows", "sectors", "n_cols", "n_rows", "receptors"})
 
 #: Unit suffixes of column names and the unit shown in a label, longest first. `_fraction` and
 #: `_share` values are shown as percentages (see :func:`_display_value`).
@@ -346,495 +295,6 @@ thead { display: table-header-group; }
 """
 
 # --------------------------------------------------------------------------------------------
-# Presentation helpers shared with webmap.py
-# --------------------------------------------------------------------------------------------
-
-
-def is_missing(value: Any) -> bool:
-    """True for None, NaN, pandas NA/NaT and blank strings; False for anything else.
-
-    Parameters
-    ----------
-    value : any
-        A table cell or other value; list-like values count as present.
-
-    Returns
-    -------
-    missing : bool
-    """
-    if value is None:
-        return True
-    if isinstance(value, str):
-        return value.strip() == ""
-    if np.ndim(value) != 0:
-        return False
-    try:
-        return bool(pd.isna(value))
-    except (TypeError, ValueError):
-        return False
-
-
-def format_number(value: Any, unit: str = "", significant_digits: int = 3) -> str:
-    """A number as short readable text with a fixed count of significant digits.
-
-    Parameters
-    ----------
-    value : float, int, str or None
-        The value; None, NaN and blank strings become ``"n/a"``; strings are returned unchanged
-        (not escaped: callers escape).
-    unit : str, optional
-        Appended after a space when given, e.g. ``"kg N/ha/yr"``.
-    significant_digits : int, optional
-        Significant digits shown [-], >= 1. Values >= 10**significant_digits show as integers.
-
-    Returns
-    -------
-    text : str
-        E.g. ``"0.0123 kg N/ha/yr"``, ``"1230"``, ``"4.56e-06"`` (below 1e-4 in scientific
-        notation to stay short).
-    """
-    if is_missing(value):
-        return _MISSING
-    if isinstance(value, str):
-        return value
-    if isinstance(value, (bool, np.bool_)):
-        text = "yes" if value else "no"
-    else:
-        try:
-            number = float(value)
-        except (TypeError, ValueError):
-            return str(value)
-        if math.isinf(number):
-            text = "∞" if number > 0 else "−∞"
-        elif number == 0.0:
-            text = "0"
-        elif abs(number) < 1e-4:
-            text = f"{number:.{max(significant_digits - 1, 0)}e}"
-        else:
-            text = np.format_float_positional(
-                number, precision=significant_digits, unique=False, fractional=False, trim="-"
-            )
-    return f"{text} {unit}" if unit else text
-
-
-def format_for_column(value: Any, column: str) -> str:
-    """A value as text, formatted by what its column measures, read from the column name.
-
-    The unit suffix of the name (``_m``, ``_g_s``, ``_kg_yr``, ``_percent``, ...) picks the
-    precision, so a value reads the same in every table of the report:
-
-    ======================================================  ===================================
-    column name                                             shown as
-    ======================================================  ===================================
-    coordinates: ``x``, ``y``, ``x_m``, ``y_m``,            0.1 m, no grouping: ``500123.4``
-    ``west_m``, ``north_m``, ...
-    counts: ``places``, ``rows``, ``n_cols``, ...           whole number: ``2400``
-    percentages: ``*_percent``, ``*_pct``, ``*_pct_*``      1 decimal: ``5.1`` (a small non-zero
-                                                            value keeps 1 significant digit:
-                                                            ``0.04``)
-    ``*_g_s``                                               4 significant digits: ``0.02141``
-    ``*_kg_yr``, ``*_m3_yr``, ``*_per_place_yr``, ``*_m``   4 significant digits, whole numbers
-                                                            from 1000: ``675.1``, ``6751``
-    anything else (``*_ug_m3``, ``*_kg_n_ha_yr``, ...)      3 significant digits: ``0.0512``
-    ======================================================  ===================================
-
-    Other integer values (Python or numpy ints) show in full. Missing values, strings and
-    booleans are handled as in :func:`format_number`.
-
-    Parameters
-    ----------
-    value : float, int, str or None
-        The value, in the unit its column name says.
-    column : str
-        Column or key name carrying the unit suffix, e.g. ``"emission_g_s"``.
-
-    Returns
-    -------
-    text : str
-        The formatted value without a unit (the header carries it).
-    """
-    if is_missing(value) or isinstance(value, (str, bool, np.bool_)):
-        return format_number(value)
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        return str(value)
-    if not math.isfinite(number):
-        return format_number(number)
-    name = str(column).strip().lower()
-    if name in _COORDINATE_COLUMNS or name.endswith(("_x_m", "_y_m")):
-        return f"{number:.1f}"
-    if name.endswith(("_percent", "_pct")) or "_pct_" in name or name.startswith("pct_"):
-        return _format_percent(number)
-    if isinstance(value, (int, np.integer)):
-        return str(int(value))
-    if name in _COUNT_COLUMNS or name.endswith(("_places", "_count")):
-        return f"{round(number):d}"
-    if name.endswith("_g_s"):
-        return format_number(number, significant_digits=4)
-    if name.endswith(("_kg_yr", "_m3_yr", "_per_place_yr", "_m")):
-        if abs(number) >= 1000.0:
-            return f"{round(number):d}"
-        return format_number(number, significant_digits=4)
-    return format_number(number)
-
-
-def _format_percent(percent: float, decimals: int = 1) -> str:
-    """A percentage [%] to `decimals` decimals; a non-zero value that would show as 0 keeps one
-    significant digit instead (0.042 -> "0.04"), so a small contribution never reads as none."""
-    text = f"{percent:.{decimals}f}"
-    if percent != 0.0 and float(text) == 0.0:
-        return format_number(percent, significant_digits=1)
-    return text
-
-
-def deposition_class_edges(deposition_kg_n_ha_yr: np.ndarray, max_classes: int = 7) -> np.ndarray:
-    """Log-spaced class edges [kg N ha-1 yr-1] adapted to the range of a deposition grid.
-
-    The edges come from the 1-3-10 series (..., 0.01, 0.03, 0.1, 0.3, 1, 3, 10, 30, ...). The top
-    edge is the first series value above the largest finite value; the classes reach down
-    ``max_classes`` steps from there (about three and a half decades), and values below the
-    lowest edge are not coloured.
-
-    Parameters
-    ----------
-    deposition_kg_n_ha_yr : ndarray
-        Deposition values [kg N ha-1 yr-1]; NaN ignored.
-    max_classes : int, optional
-        Number of classes (edges minus one), >= 1.
-
-    Returns
-    -------
-    edges_kg_n_ha_yr : ndarray
-        Increasing class edges [kg N ha-1 yr-1], ``max_classes + 1`` of them. When the grid has
-        no positive finite value the default edges 0.01 ... 30 are returned for 7 classes.
-    """
-    if max_classes < 1:
-        raise InputError(f"deposition classes: max_classes must be >= 1, got {max_classes}")
-    series = np.asarray(_CLASS_EDGE_SERIES_KG_N_HA_YR)
-    values = np.asarray(deposition_kg_n_ha_yr, dtype=float)
-    finite = values[np.isfinite(values) & (values > 0.0)]
-    if finite.size == 0:
-        top_index = int(np.searchsorted(series, 30.0))
-    else:
-        top_index = int(np.searchsorted(series, float(finite.max()), side="right"))
-        top_index = min(top_index, series.size - 1)
-    top_index = max(top_index, max_classes)
-    return series[top_index - max_classes : top_index + 1].copy()
-
-
-def deposition_class_colours(n_classes: int) -> list[str]:
-    """Hex colours of ``n_classes`` deposition classes, low to high, from DEPOSITION_COLORMAP.
-
-    Parameters
-    ----------
-    n_classes : int
-        Number of classes, >= 1.
-
-    Returns
-    -------
-    colours : list of str
-        ``"#rrggbb"`` strings sampled evenly along the colour map.
-    """
-    from matplotlib import colormaps
-    from matplotlib.colors import to_hex
-
-    cmap = colormaps[DEPOSITION_COLORMAP]
-    positions = np.linspace(0.0, 1.0, n_classes) if n_classes > 1 else np.array([0.5])
-    return [to_hex(cmap(float(p))) for p in positions]
-
-
-def figure_png(fig: Figure, dpi: int = 110) -> bytes:
-    """Render a matplotlib Figure to PNG bytes with the Agg canvas (no pyplot, no display).
-
-    Parameters
-    ----------
-    fig : matplotlib.figure.Figure
-        The figure; a FigureCanvasAgg is attached when it has none of that kind.
-    dpi : int, optional
-        Resolution [dots per inch].
-
-    Returns
-    -------
-    png : bytes
-        The PNG file contents.
-    """
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-
-    if not isinstance(fig.canvas, FigureCanvasAgg):
-        FigureCanvasAgg(fig)
-    buffer = io.BytesIO()
-    fig.savefig(buffer, format="png", dpi=dpi, bbox_inches="tight")
-    return buffer.getvalue()
-
-
-def _polygon_rings(geometry: Any) -> list[np.ndarray]:
-    """Exterior and interior rings of a (multi)polygon as (n, 2) coordinate arrays."""
-    rings: list[np.ndarray] = []
-    if geometry is None or getattr(geometry, "is_empty", True):
-        return rings
-    parts = getattr(geometry, "geoms", [geometry])
-    for part in parts:
-        if part.geom_type == "Polygon":
-            rings.append(np.asarray(part.exterior.coords))
-            rings.extend(np.asarray(ring.coords) for ring in part.interiors)
-        elif part.geom_type in ("LineString", "LinearRing"):
-            rings.append(np.asarray(part.coords))
-    return rings
-
-
-def deposition_figure(
-    deposition_kg_n_ha_yr: np.ndarray,
-    *,
-    west_m: float,
-    north_m: float,
-    cell_m: float,
-    sites: gpd.GeoDataFrame | None = None,
-    sources: gpd.GeoDataFrame | None = None,
-    contours: Sequence[tuple[float, str]] = (),
-    crs_label: str = "",
-) -> bytes:
-    """PNG of the deposition grid in log classes, with site outlines, sources and contours.
-
-    Parameters
-    ----------
-    deposition_kg_n_ha_yr : ndarray, shape (n_rows, n_cols)
-        Deposition [kg N ha-1 yr-1]; row 0 is the north edge; NaN = no data (not coloured).
-    west_m, north_m : float
-        West and north edges of the grid in the projected CRS [m].
-    cell_m : float
-        Cell size [m], > 0.
-    sites : GeoDataFrame, optional
-        Habitat sites in the same projected CRS as the grid; outlines drawn and labelled with
-        the ``name`` column when present.
-    sources : GeoDataFrame, optional
-        Sources in the same CRS; drawn as markers at their representative points, one marker
-        style per ``role`` (proposed, existing, removed, other) when that column is present.
-    contours : sequence of (float, str), optional
-        Contour levels [kg N ha-1 yr-1] and their labels.
-    crs_label : str, optional
-        Shown in the axis labels, e.g. ``"EPSG:32632"``.
-
-    Returns
-    -------
-    png : bytes
-        The figure as PNG.
-
-    Raises
-    ------
-    InputError
-        If the grid is not 2-D or cell_m <= 0.
-    """
-    from matplotlib.colors import BoundaryNorm, ListedColormap
-    from matplotlib.figure import Figure
-
-    grid = np.asarray(deposition_kg_n_ha_yr, dtype=float)
-    if grid.ndim != 2:
-        raise InputError(f"deposition figure: grid must be 2-D, got shape {grid.shape}")
-    if not cell_m > 0:
-        raise InputError(f"deposition figure: cell_m must be > 0, got {cell_m}")
-    n_rows, n_cols = grid.shape
-    east_m = west_m + n_cols * cell_m
-    south_m = north_m - n_rows * cell_m
-    edges = deposition_class_edges(grid)
-    colours = deposition_class_colours(edges.size - 1)
-    cmap = ListedColormap(colours).with_extremes(
-        under=(0, 0, 0, 0), over=colours[-1], bad=(0, 0, 0, 0)
-    )
-    norm = BoundaryNorm(edges, cmap.N)
-
-    fig = Figure(figsize=(7.5, 6.5))
-    ax = fig.add_subplot()
-    shown = np.ma.masked_invalid(grid)
-    image = ax.imshow(
-        shown,
-        cmap=cmap,
-        norm=norm,
-        extent=(west_m, east_m, south_m, north_m),
-        origin="upper",
-        interpolation="nearest",
-    )
-    colourbar = fig.colorbar(image, ax=ax, extend="neither", shrink=0.85)
-    colourbar.set_ticks(edges)
-    colourbar.set_ticklabels([format_number(e) for e in edges])
-    colourbar.set_label("Deposition, PC [kg N/ha/yr]")
-
-    valid = np.isfinite(grid)
-    if contours and valid.any():
-        x_m = west_m + (np.arange(n_cols) + 0.5) * cell_m
-        y_m = north_m - (np.arange(n_rows) + 0.5) * cell_m
-        vmin, vmax = float(np.nanmin(grid)), float(np.nanmax(grid))
-        inside = sorted({float(v) for v, _ in contours if vmin < float(v) < vmax})
-        if inside:
-            contour_set = ax.contour(
-                x_m, y_m, shown, levels=inside, colors="#202020", linewidths=1.0, linestyles="--"
-            )
-            labels = {float(v): str(text) for v, text in contours}
-            label_texts = ax.clabel(
-                contour_set, fmt={v: labels.get(v, format_number(v)) for v in inside}, fontsize=7
-            )
-            for text in label_texts:
-                text.set_parse_math(False)  # user labels may contain "$"
-
-    if sites is not None and len(sites):
-        for _, row in sites.iterrows():
-            for ring in _polygon_rings(row.geometry):
-                ax.plot(ring[:, 0], ring[:, 1], color="#8a1c0a", linewidth=1.0)
-            name = row.get("name")
-            if not is_missing(name) and row.geometry is not None and not row.geometry.is_empty:
-                point = row.geometry.representative_point()
-                ax.annotate(
-                    str(name),
-                    (point.x, point.y),
-                    fontsize=7,
-                    ha="center",
-                    color="#3a0d05",
-                    parse_math=False,
-                )
-    if sites is not None and len(sites):
-        ax.plot([], [], color="#8a1c0a", linewidth=1.0, label="habitat site")
-    if sources is not None and len(sources):
-        roles = (
-            [str(r).strip().lower() if not is_missing(r) else "" for r in sources["role"]]
-            if "role" in sources
-            else [""] * len(sources)
-        )
-        for role in dict.fromkeys(roles):  # first-seen order
-            marker, face = _SOURCE_MARKERS.get(role, ("^", "#ffffff"))
-            points = [
-                g.representative_point()
-                for g, r in zip(sources.geometry, roles)
-                if r == role and g is not None and not g.is_empty
-            ]
-            if points:
-                ax.plot(
-                    [p.x for p in points],
-                    [p.y for p in points],
-                    linestyle="none",
-                    marker=marker,
-                    markersize=7,
-                    markerfacecolor=face,
-                    markeredgecolor="#000000",
-                    label=f"{role} source" if role else "source",
-                )
-    if ax.get_legend_handles_labels()[0]:
-        ax.legend(fontsize=7, loc="lower left", framealpha=0.85)
-    ax.set_xlim(west_m, east_m)
-    ax.set_ylim(south_m, north_m)
-    ax.set_aspect("equal")
-    suffix = f" ({crs_label})" if crs_label else ""
-    ax.set_xlabel(f"Easting [m]{suffix}")
-    ax.set_ylabel(f"Northing [m]{suffix}")
-    ax.set_title("Process contribution: nitrogen deposition", fontsize=10)
-    ax.ticklabel_format(useOffset=False, style="plain")
-    ax.tick_params(labelsize=7)
-    return figure_png(fig)
-
-
-def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
-    """PNG of each site's maximum PC deposition against its distance from the sources.
-
-    Parameters
-    ----------
-    sites : DataFrame
-        One row per site with columns ``name``, ``distance_m`` (distance from the nearest
-        assessed source [m]) and ``pc_dep_max_kg_n_ha_yr`` [kg N ha-1 yr-1]. When
-        ``threshold_percent`` and ``critical_load_used_kg_n_ha_yr`` are present each site's
-        screening threshold (threshold % of its critical load) is marked with a bar, and
-        ``verdict`` colours the points. Rows without a positive deposition are left out (log y).
-
-    Returns
-    -------
-    png : bytes
-        The figure as PNG.
-
-    Raises
-    ------
-    InputError
-        If a required column is missing.
-    """
-    from matplotlib.figure import Figure
-    from matplotlib.ticker import FuncFormatter, LogLocator
-
-    missing = [c for c in ("name", "distance_m", "pc_dep_max_kg_n_ha_yr") if c not in sites]
-    if missing:
-        raise InputError(f"PC-distance figure: sites table lacks column(s) {', '.join(missing)}")
-    distance_m = np.asarray(sites["distance_m"], dtype=float)
-    dep_kg_n_ha_yr = np.asarray(sites["pc_dep_max_kg_n_ha_yr"], dtype=float)
-    keep = np.isfinite(distance_m) & np.isfinite(dep_kg_n_ha_yr) & (dep_kg_n_ha_yr > 0)
-
-    fig = Figure(figsize=(7.5, 4.8))
-    ax = fig.add_subplot()
-    if not keep.any():
-        ax.text(
-            0.5,
-            0.5,
-            "No site with a positive deposition to plot.",
-            ha="center",
-            va="center",
-            transform=ax.transAxes,
-        )
-        ax.set_axis_off()
-        return figure_png(fig)
-    names = [str(n) if not is_missing(n) else "" for n in sites["name"]]
-    verdicts = list(sites["verdict"]) if "verdict" in sites else [None] * len(sites)
-    colours = [VERDICT_COLOURS.get(str(v), VERDICT_COLOURS["not assessed"]) for v in verdicts]
-    idx = np.flatnonzero(keep)
-    ax.scatter(
-        distance_m[idx],
-        dep_kg_n_ha_yr[idx],
-        c=[colours[i] for i in idx],
-        s=36,
-        zorder=3,
-        edgecolors="#000000",
-        linewidths=0.5,
-    )
-    for i in idx:
-        ax.annotate(
-            names[i],
-            (distance_m[i], dep_kg_n_ha_yr[i]),
-            textcoords="offset points",
-            xytext=(5, 4),
-            fontsize=7,
-            parse_math=False,
-        )
-    if {"threshold_percent", "critical_load_used_kg_n_ha_yr"} <= set(sites.columns):
-        threshold_kg_n_ha_yr = (
-            np.asarray(sites["threshold_percent"], dtype=float)
-            / 100.0
-            * np.asarray(sites["critical_load_used_kg_n_ha_yr"], dtype=float)
-        )
-        marks = idx[np.isfinite(threshold_kg_n_ha_yr[idx]) & (threshold_kg_n_ha_yr[idx] > 0)]
-        if marks.size:
-            ax.scatter(
-                distance_m[marks],
-                threshold_kg_n_ha_yr[marks],
-                marker="_",
-                s=220,
-                color="#000000",
-                linewidths=1.5,
-                zorder=2,
-                label="screening threshold of the site",
-            )
-    for verdict in dict.fromkeys(str(v) for v in verdicts if str(v) in VERDICT_COLOURS):
-        ax.scatter([], [], c=VERDICT_COLOURS[verdict], s=36, edgecolors="#000000",
-                   linewidths=0.5, label=verdict)  # fmt: skip
-    if ax.get_legend_handles_labels()[0]:
-        ax.legend(fontsize=8, loc="best")
-    ax.set_yscale("log")
-    plain = FuncFormatter(lambda value, _: format_number(value))
-    ax.yaxis.set_major_formatter(plain)
-    ax.yaxis.set_minor_locator(LogLocator(base=10.0, subs=(2.0, 5.0)))
-    ax.yaxis.set_minor_formatter(plain)
-    ax.tick_params(axis="y", which="minor", labelsize=7)
-    ax.set_xlabel("Distance from the nearest source [m]")
-    ax.set_ylabel("PC max deposition [kg N/ha/yr]")
-    ax.set_title("Process contribution at each site by distance", fontsize=10)
-    ax.grid(True, which="both", linewidth=0.4, alpha=0.5)
-    return figure_png(fig)
-
-
-# --------------------------------------------------------------------------------------------
 # The report: small HTML builders
 # --------------------------------------------------------------------------------------------
 
@@ -842,7 +302,7 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
 def _esc(value: Any) -> str:
     """HTML-escaped text of any value (None/NaN -> 'n/a')."""
     if is_missing(value):
-        return _MISSING
+        return MISSING_TEXT
     return html.escape(str(value), quote=True)
 
 
@@ -897,7 +357,7 @@ def _display_value(key: str, value: Any) -> str:
         if value and _is_share(key) and all(_is_number(v) for v in value.values()):
             head = "".join(f"<th>{_esc(k)}</th>" for k in value)
             cells = "".join(
-                f"<td>{html.escape(_format_percent(100.0 * float(v)))} %</td>"
+                f"<td>{html.escape(format_percent(100.0 * float(v)))} %</td>"
                 for v in value.values()
             )
             return (
@@ -908,7 +368,7 @@ def _display_value(key: str, value: Any) -> str:
     if isinstance(value, (list, tuple, np.ndarray)):
         return ", ".join(_display_value(key, v) for v in value) or _NOT_APPLICABLE
     if _is_share(key) and _is_number(value):
-        return html.escape(_format_percent(100.0 * float(value)))
+        return html.escape(format_percent(100.0 * float(value)))
     text = html.escape(format_for_column(value, key))
     if str(key).endswith("from_deg") and _is_number(value):
         text += f" ({_compass(float(value))})"
@@ -979,7 +439,7 @@ def _verdict_cell(value: Any) -> str:
     """The verdict <td>: a coloured badge and a plain-words hint."""
     text = "" if is_missing(value) else str(value)
     css, hint = _VERDICT_STYLE.get(text.strip().lower(), ("verdict-none", ""))
-    shown = _esc(text) if text else _MISSING
+    shown = _esc(text) if text else MISSING_TEXT
     hint_html = f'<span class="verdict-hint">{html.escape(hint)}</span>' if hint else ""
     return f'<td class="verdict-cell"><span class="verdict {css}">{shown}</span>{hint_html}</td>'
 
@@ -997,10 +457,10 @@ def _percent_cell(value: Any, column: str, threshold: Any) -> str:
         return _number_cell(value, column)
     number, limit = float(value), float(threshold)
     decimals = 1
-    text = _format_percent(number, decimals)
-    while number != limit and text == _format_percent(limit, decimals) and decimals < 6:
+    text = format_percent(number, decimals)
+    while number != limit and text == format_percent(limit, decimals) and decimals < 6:
         decimals += 1
-        text = _format_percent(number, decimals)
+        text = format_percent(number, decimals)
     css = "num over" if number > limit else "num"
     return f'<td class="{css}">{html.escape(text)}</td>'
 
@@ -1139,7 +599,7 @@ def _derivation_cell(column: str, value: Any) -> str:
     if column in _CITATION_ROWS:
         return f'<td class="cite">{_esc(value)}</td>'
     if _is_share(column) and _is_number(value):
-        return f'<td class="num">{html.escape(_format_percent(100.0 * float(value)))}</td>'
+        return f'<td class="num">{html.escape(format_percent(100.0 * float(value)))}</td>'
     if _is_number(value):
         return _number_cell(value, column)
     if isinstance(value, str) and len(value) > 40:

@@ -29,7 +29,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from siting.errors import InputError
-from siting.report import (
+from siting.presentation import (
     VERDICT_COLOURS,
     deposition_class_colours,
     deposition_class_edges,
@@ -541,7 +541,7 @@ def write_screen_map(
     Notes
     -----
     The raster is reprojected with nearest-neighbour resampling so each coloured pixel keeps a
-    value of the grid. Class edges come from :func:`siting.report.deposition_class_edges`.
+    value of the grid. Class edges come from :func:`siting.presentation.deposition_class_edges`.
     """
     import folium
     from pyproj import Transformer

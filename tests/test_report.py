@@ -6,25 +6,14 @@ import html
 import json
 import re
 
-import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pytest
-from matplotlib.figure import Figure
-from shapely.geometry import Point, box
 
 from siting.errors import InputError
-from siting.report import (
-    deposition_class_edges,
-    deposition_figure,
-    figure_png,
-    format_for_column,
-    format_number,
-    pc_vs_distance_figure,
-    write_report,
-)
+from siting.figures import pc_vs_distance_figure
+from siting.report import write_report
 
-PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 NAMES = [
     "<script>alert(1)</script>",
     "a`b${alert(1)}\\c",
@@ -389,77 +378,6 @@ def test_missing_summary_column_raises_and_writes_nothing(tmp_path):
     with pytest.raises(InputError, match="verdict"):
         _write(path, sites=_sites().drop(columns="verdict"))
     assert not path.exists()
-
-
-def test_figure_png_returns_png_bytes():
-    """figure_png renders a plain Figure with the Agg canvas to PNG bytes."""
-    fig = Figure(figsize=(2, 2))
-    fig.add_subplot().plot([0, 1], [0, 1])
-    assert figure_png(fig).startswith(PNG_MAGIC)
-
-
-def test_pc_vs_distance_figure_with_hostile_names():
-    """Names with $ and backslashes are drawn as plain text (no mathtext error)."""
-    assert pc_vs_distance_figure(_sites()).startswith(PNG_MAGIC)
-
-
-def test_pc_vs_distance_figure_without_positive_values():
-    """A table without positive deposition still gives a PNG (a note instead of points)."""
-    sites = _sites().assign(pc_dep_max_kg_n_ha_yr=0.0)
-    assert pc_vs_distance_figure(sites).startswith(PNG_MAGIC)
-
-
-def test_deposition_figure_returns_png():
-    """The deposition figure draws grid, site outlines, sources and a contour."""
-    rows, cols = np.mgrid[0:30, 0:40]
-    grid = 20.0 * np.exp(-np.hypot(rows - 15, cols - 20) / 6.0)  # synthetic, spans ~0.01-20
-    grid[0, 0] = np.nan
-    sites = gpd.GeoDataFrame({"name": ["a$b$\\c"]}, geometry=[box(100, -300, 300, -100)])
-    sources = gpd.GeoDataFrame({"source_id": ["H1"]}, geometry=[Point(500, -375)])
-    png = deposition_figure(
-        grid,
-        west_m=0.0,
-        north_m=0.0,
-        cell_m=25.0,
-        sites=sites,
-        sources=sources,
-        contours=[(1.0, "1 $kg$")],
-        crs_label="EPSG:32632",
-    )
-    assert png.startswith(PNG_MAGIC)
-
-
-def test_class_edges_follow_the_data_range():
-    """Class edges come from the 1-3-10 series, topped by the first edge above the maximum."""
-    edges = deposition_class_edges(np.array([[0.5, 20.0], [np.nan, 1.0]]))
-    np.testing.assert_allclose(edges, [0.01, 0.03, 0.1, 0.3, 1, 3, 10, 30])  # analytic
-    assert deposition_class_edges(np.full((2, 2), np.nan))[-1] == pytest.approx(30.0)
-
-
-def test_format_for_column_follows_the_unit_suffix():
-    """Precision follows what the column measures (common practice, no source)."""
-    assert format_for_column(500123.4, "x_m") == "500123.4"  # no 3-digit rounding, no grouping
-    assert format_for_column(5800000, "y") == "5800000.0"
-    assert format_for_column(2400.0, "places") == "2400"
-    assert format_for_column(0.0214079, "emission_g_s") == "0.02141"
-    assert format_for_column(675.12, "nh3_kg_yr") == "675.1"
-    assert format_for_column(6751.2, "nh3_unabated_kg_yr") == "6751"
-    assert format_for_column(5.09813, "pc_pct_level") == "5.1"
-    assert format_for_column(4, "threshold_percent") == "4.0"
-    assert format_for_column(0.042, "incomb_pct_load") == "0.04"  # small, not shown as 0.0
-    assert format_for_column(0.050981, "pc_conc_max_ug_m3") == "0.051"
-    assert format_for_column(2.2002, "pc_dep_max_kg_n_ha_yr") == "2.2"
-    assert format_for_column(57795, "receptors") == "57795"  # integers in full
-    assert format_for_column(np.nan, "x_m") == "n/a"
-    assert format_for_column("70-99", "reduction_range_percent") == "70-99"
-
-
-def test_format_number_significant_digits():
-    """format_number keeps 3 significant digits, adds the unit and marks missing values."""
-    assert format_number(0.012345, "kg N/ha/yr") == "0.0123 kg N/ha/yr"
-    assert format_number(1234.5) == "1230"
-    assert format_number(np.nan, "%") == "n/a"
-    assert format_number(0.0) == "0"
 
 
 def test_net_change_table_lists_each_site():

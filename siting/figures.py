@@ -1,0 +1,333 @@
+"""The matplotlib figures of the screening report, rendered to PNG bytes.
+
+Two figures: the deposition grid in log classes with site outlines, sources and contours
+(:func:`deposition_figure`), and each site's maximum process contribution against its distance
+from the sources (:func:`pc_vs_distance_figure`). Both are drawn with the Agg canvas
+(:func:`figure_png`), never through pyplot's global state, and text from user files (site names,
+contour labels) is drawn as plain text, never as mathtext. No physics lives here: every number
+plotted was computed elsewhere. The deposition classes, the verdict colours and the number
+formats come from :mod:`siting.presentation`; inlining the PNGs in report.html is the job of
+:mod:`siting.report`.
+"""
+
+from __future__ import annotations
+
+import io
+from collections.abc import Sequence
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from siting.errors import InputError
+from siting.presentation import (
+    VERDICT_COLOURS,
+    deposition_class_colours,
+    deposition_class_edges,
+    format_number,
+    is_missing,
+)
+
+if TYPE_CHECKING:  # imported for annotations only; the module does not need them at run time
+    import geopandas as gpd
+    import pandas as pd
+    from matplotlib.figure import Figure
+
+__all__ = ["deposition_figure", "figure_png", "pc_vs_distance_figure"]
+
+#: Marker and fill of each source role in the deposition figure; our own choice.
+_SOURCE_MARKERS = {
+    "proposed": ("^", "#c2543a"),
+    "existing": ("^", "#ffffff"),
+    "removed": ("v", "#b0b0b0"),
+    "other": ("s", "#ffffff"),
+}
+
+
+def figure_png(fig: Figure, dpi: int = 110) -> bytes:
+    """Render a matplotlib Figure to PNG bytes with the Agg canvas (no pyplot, no display).
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        The figure; a FigureCanvasAgg is attached when it has none of that kind.
+    dpi : int, optional
+        Resolution [dots per inch].
+
+    Returns
+    -------
+    png : bytes
+        The PNG file contents.
+    """
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    if not isinstance(fig.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(fig)
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=dpi, bbox_inches="tight")
+    return buffer.getvalue()
+
+
+def _polygon_rings(geometry: Any) -> list[np.ndarray]:
+    """Exterior and interior rings of a (multi)polygon as (n, 2) coordinate arrays."""
+    rings: list[np.ndarray] = []
+    if geometry is None or getattr(geometry, "is_empty", True):
+        return rings
+    parts = getattr(geometry, "geoms", [geometry])
+    for part in parts:
+        if part.geom_type == "Polygon":
+            rings.append(np.asarray(part.exterior.coords))
+            rings.extend(np.asarray(ring.coords) for ring in part.interiors)
+        elif part.geom_type in ("LineString", "LinearRing"):
+            rings.append(np.asarray(part.coords))
+    return rings
+
+
+def deposition_figure(
+    deposition_kg_n_ha_yr: np.ndarray,
+    *,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    sites: gpd.GeoDataFrame | None = None,
+    sources: gpd.GeoDataFrame | None = None,
+    contours: Sequence[tuple[float, str]] = (),
+    crs_label: str = "",
+) -> bytes:
+    """PNG of the deposition grid in log classes, with site outlines, sources and contours.
+
+    Parameters
+    ----------
+    deposition_kg_n_ha_yr : ndarray, shape (n_rows, n_cols)
+        Deposition [kg N ha-1 yr-1]; row 0 is the north edge; NaN = no data (not coloured).
+    west_m, north_m : float
+        West and north edges of the grid in the projected CRS [m].
+    cell_m : float
+        Cell size [m], > 0.
+    sites : GeoDataFrame, optional
+        Habitat sites in the same projected CRS as the grid; outlines drawn and labelled with
+        the ``name`` column when present.
+    sources : GeoDataFrame, optional
+        Sources in the same CRS; drawn as markers at their representative points, one marker
+        style per ``role`` (proposed, existing, removed, other) when that column is present.
+    contours : sequence of (float, str), optional
+        Contour levels [kg N ha-1 yr-1] and their labels.
+    crs_label : str, optional
+        Shown in the axis labels, e.g. ``"EPSG:32632"``.
+
+    Returns
+    -------
+    png : bytes
+        The figure as PNG.
+
+    Raises
+    ------
+    InputError
+        If the grid is not 2-D or cell_m <= 0.
+    """
+    from matplotlib.colors import BoundaryNorm, ListedColormap
+    from matplotlib.figure import Figure
+
+    grid = np.asarray(deposition_kg_n_ha_yr, dtype=float)
+    if grid.ndim != 2:
+        raise InputError(f"deposition figure: grid must be 2-D, got shape {grid.shape}")
+    if not cell_m > 0:
+        raise InputError(f"deposition figure: cell_m must be > 0, got {cell_m}")
+    n_rows, n_cols = grid.shape
+    east_m = west_m + n_cols * cell_m
+    south_m = north_m - n_rows * cell_m
+    edges = deposition_class_edges(grid)
+    colours = deposition_class_colours(edges.size - 1)
+    cmap = ListedColormap(colours).with_extremes(
+        under=(0, 0, 0, 0), over=colours[-1], bad=(0, 0, 0, 0)
+    )
+    norm = BoundaryNorm(edges, cmap.N)
+
+    fig = Figure(figsize=(7.5, 6.5))
+    ax = fig.add_subplot()
+    shown = np.ma.masked_invalid(grid)
+    image = ax.imshow(
+        shown,
+        cmap=cmap,
+        norm=norm,
+        extent=(west_m, east_m, south_m, north_m),
+        origin="upper",
+        interpolation="nearest",
+    )
+    colourbar = fig.colorbar(image, ax=ax, extend="neither", shrink=0.85)
+    colourbar.set_ticks(edges)
+    colourbar.set_ticklabels([format_number(e) for e in edges])
+    colourbar.set_label("Deposition, PC [kg N/ha/yr]")
+
+    valid = np.isfinite(grid)
+    if contours and valid.any():
+        x_m = west_m + (np.arange(n_cols) + 0.5) * cell_m
+        y_m = north_m - (np.arange(n_rows) + 0.5) * cell_m
+        vmin, vmax = float(np.nanmin(grid)), float(np.nanmax(grid))
+        inside = sorted({float(v) for v, _ in contours if vmin < float(v) < vmax})
+        if inside:
+            contour_set = ax.contour(
+                x_m, y_m, shown, levels=inside, colors="#202020", linewidths=1.0, linestyles="--"
+            )
+            labels = {float(v): str(text) for v, text in contours}
+            label_texts = ax.clabel(
+                contour_set, fmt={v: labels.get(v, format_number(v)) for v in inside}, fontsize=7
+            )
+            for text in label_texts:
+                text.set_parse_math(False)  # user labels may contain "$"
+
+    if sites is not None and len(sites):
+        for _, row in sites.iterrows():
+            for ring in _polygon_rings(row.geometry):
+                ax.plot(ring[:, 0], ring[:, 1], color="#8a1c0a", linewidth=1.0)
+            name = row.get("name")
+            if not is_missing(name) and row.geometry is not None and not row.geometry.is_empty:
+                point = row.geometry.representative_point()
+                ax.annotate(
+                    str(name),
+                    (point.x, point.y),
+                    fontsize=7,
+                    ha="center",
+                    color="#3a0d05",
+                    parse_math=False,
+                )
+    if sites is not None and len(sites):
+        ax.plot([], [], color="#8a1c0a", linewidth=1.0, label="habitat site")
+    if sources is not None and len(sources):
+        roles = (
+            [str(r).strip().lower() if not is_missing(r) else "" for r in sources["role"]]
+            if "role" in sources
+            else [""] * len(sources)
+        )
+        for role in dict.fromkeys(roles):  # first-seen order
+            marker, face = _SOURCE_MARKERS.get(role, ("^", "#ffffff"))
+            points = [
+                g.representative_point()
+                for g, r in zip(sources.geometry, roles)
+                if r == role and g is not None and not g.is_empty
+            ]
+            if points:
+                ax.plot(
+                    [p.x for p in points],
+                    [p.y for p in points],
+                    linestyle="none",
+                    marker=marker,
+                    markersize=7,
+                    markerfacecolor=face,
+                    markeredgecolor="#000000",
+                    label=f"{role} source" if role else "source",
+                )
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(fontsize=7, loc="lower left", framealpha=0.85)
+    ax.set_xlim(west_m, east_m)
+    ax.set_ylim(south_m, north_m)
+    ax.set_aspect("equal")
+    suffix = f" ({crs_label})" if crs_label else ""
+    ax.set_xlabel(f"Easting [m]{suffix}")
+    ax.set_ylabel(f"Northing [m]{suffix}")
+    ax.set_title("Process contribution: nitrogen deposition", fontsize=10)
+    ax.ticklabel_format(useOffset=False, style="plain")
+    ax.tick_params(labelsize=7)
+    return figure_png(fig)
+
+
+def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
+    """PNG of each site's maximum PC deposition against its distance from the sources.
+
+    Parameters
+    ----------
+    sites : DataFrame
+        One row per site with columns ``name``, ``distance_m`` (distance from the nearest
+        assessed source [m]) and ``pc_dep_max_kg_n_ha_yr`` [kg N ha-1 yr-1]. When
+        ``threshold_percent`` and ``critical_load_used_kg_n_ha_yr`` are present each site's
+        screening threshold (threshold % of its critical load) is marked with a bar, and
+        ``verdict`` colours the points. Rows without a positive deposition are left out (log y).
+
+    Returns
+    -------
+    png : bytes
+        The figure as PNG.
+
+    Raises
+    ------
+    InputError
+        If a required column is missing.
+    """
+    from matplotlib.figure import Figure
+    from matplotlib.ticker import FuncFormatter, LogLocator
+
+    missing = [c for c in ("name", "distance_m", "pc_dep_max_kg_n_ha_yr") if c not in sites]
+    if missing:
+        raise InputError(f"PC-distance figure: sites table lacks column(s) {', '.join(missing)}")
+    distance_m = np.asarray(sites["distance_m"], dtype=float)
+    dep_kg_n_ha_yr = np.asarray(sites["pc_dep_max_kg_n_ha_yr"], dtype=float)
+    keep = np.isfinite(distance_m) & np.isfinite(dep_kg_n_ha_yr) & (dep_kg_n_ha_yr > 0)
+
+    fig = Figure(figsize=(7.5, 4.8))
+    ax = fig.add_subplot()
+    if not keep.any():
+        ax.text(
+            0.5,
+            0.5,
+            "No site with a positive deposition to plot.",
+            ha="center",
+            va="center",
+            transform=ax.transAxes,
+        )
+        ax.set_axis_off()
+        return figure_png(fig)
+    names = [str(n) if not is_missing(n) else "" for n in sites["name"]]
+    verdicts = list(sites["verdict"]) if "verdict" in sites else [None] * len(sites)
+    colours = [VERDICT_COLOURS.get(str(v), VERDICT_COLOURS["not assessed"]) for v in verdicts]
+    idx = np.flatnonzero(keep)
+    ax.scatter(
+        distance_m[idx],
+        dep_kg_n_ha_yr[idx],
+        c=[colours[i] for i in idx],
+        s=36,
+        zorder=3,
+        edgecolors="#000000",
+        linewidths=0.5,
+    )
+    for i in idx:
+        ax.annotate(
+            names[i],
+            (distance_m[i], dep_kg_n_ha_yr[i]),
+            textcoords="offset points",
+            xytext=(5, 4),
+            fontsize=7,
+            parse_math=False,
+        )
+    if {"threshold_percent", "critical_load_used_kg_n_ha_yr"} <= set(sites.columns):
+        threshold_kg_n_ha_yr = (
+            np.asarray(sites["threshold_percent"], dtype=float)
+            / 100.0
+            * np.asarray(sites["critical_load_used_kg_n_ha_yr"], dtype=float)
+        )
+        marks = idx[np.isfinite(threshold_kg_n_ha_yr[idx]) & (threshold_kg_n_ha_yr[idx] > 0)]
+        if marks.size:
+            ax.scatter(
+                distance_m[marks],
+                threshold_kg_n_ha_yr[marks],
+                marker="_",
+                s=220,
+                color="#000000",
+                linewidths=1.5,
+                zorder=2,
+                label="screening threshold of the site",
+            )
+    for verdict in dict.fromkeys(str(v) for v in verdicts if str(v) in VERDICT_COLOURS):
+        ax.scatter([], [], c=VERDICT_COLOURS[verdict], s=36, edgecolors="#000000",
+                   linewidths=0.5, label=verdict)  # fmt: skip
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(fontsize=8, loc="best")
+    ax.set_yscale("log")
+    plain = FuncFormatter(lambda value, _: format_number(value))
+    ax.yaxis.set_major_formatter(plain)
+    ax.yaxis.set_minor_locator(LogLocator(base=10.0, subs=(2.0, 5.0)))
+    ax.yaxis.set_minor_formatter(plain)
+    ax.tick_params(axis="y", which="minor", labelsize=7)
+    ax.set_xlabel("Distance from the nearest source [m]")
+    ax.set_ylabel("PC max deposition [kg N/ha/yr]")
+    ax.set_title("Process contribution at each site by distance", fontsize=10)
+    ax.grid(True, which="both", linewidth=0.4, alpha=0.5)
+    return figure_png(fig)

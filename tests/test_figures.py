@@ -1,0 +1,80 @@
+"""Tests of siting.figures: the report figures render to PNG, hostile names included."""
+
+from __future__ import annotations
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+from matplotlib.figure import Figure
+from shapely.geometry import Point, box
+
+from siting.figures import deposition_figure, figure_png, pc_vs_distance_figure
+
+PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
+NAMES = [
+    "<script>alert(1)</script>",
+    "a`b${alert(1)}\\c",
+    "<img src=x onerror=alert(1)>",
+    "Plain Moor",
+]
+
+
+def _sites() -> pd.DataFrame:
+    """Four sites, three with hostile names, one per verdict and an unknown one."""
+    return pd.DataFrame(
+        {
+            "site_id": ["S1", "S2", "S3", "S4"],
+            "name": NAMES,
+            "designation": ["SAC", "<b>SSSI</b>", "local", "SPA"],
+            "habitat": ["raised bog", "oak woodland", "heath", "dune grassland"],
+            "critical_level_ug_m3": [1.0, 1.0, 3.0, 3.0],
+            "critical_load_used_kg_n_ha_yr": [5.0, 10.0, 10.0, 8.0],
+            "pc_conc_max_ug_m3": [1.234, 0.008, np.nan, 0.05],
+            "pc_pct_level": [123.4, 0.8, np.nan, 1.67],
+            "pc_dep_max_kg_n_ha_yr": [12.5, 0.04, np.nan, 0.39],
+            "pc_pct_load": [250.0, 0.4, np.nan, 4.9],
+            "threshold_percent": [1.0, 1.0, 100.0, 1.0],
+            "verdict": ["above threshold", "below threshold", "not assessed", "above threshold"],
+            "distance_m": [350.0, 900.0, 1500.0, 600.0],
+        }
+    )
+
+
+
+def test_figure_png_returns_png_bytes():
+    """figure_png renders a plain Figure with the Agg canvas to PNG bytes."""
+    fig = Figure(figsize=(2, 2))
+    fig.add_subplot().plot([0, 1], [0, 1])
+    assert figure_png(fig).startswith(PNG_MAGIC)
+
+
+def test_pc_vs_distance_figure_with_hostile_names():
+    """Names with $ and backslashes are drawn as plain text (no mathtext error)."""
+    assert pc_vs_distance_figure(_sites()).startswith(PNG_MAGIC)
+
+
+def test_pc_vs_distance_figure_without_positive_values():
+    """A table without positive deposition still gives a PNG (a note instead of points)."""
+    sites = _sites().assign(pc_dep_max_kg_n_ha_yr=0.0)
+    assert pc_vs_distance_figure(sites).startswith(PNG_MAGIC)
+
+
+def test_deposition_figure_returns_png():
+    """The deposition figure draws grid, site outlines, sources and a contour."""
+    rows, cols = np.mgrid[0:30, 0:40]
+    grid = 20.0 * np.exp(-np.hypot(rows - 15, cols - 20) / 6.0)  # synthetic, spans ~0.01-20
+    grid[0, 0] = np.nan
+    sites = gpd.GeoDataFrame({"name": ["a$b$\\c"]}, geometry=[box(100, -300, 300, -100)])
+    sources = gpd.GeoDataFrame({"source_id": ["H1"]}, geometry=[Point(500, -375)])
+    png = deposition_figure(
+        grid,
+        west_m=0.0,
+        north_m=0.0,
+        cell_m=25.0,
+        sites=sites,
+        sources=sources,
+        contours=[(1.0, "1 $kg$")],
+        crs_label="EPSG:32632",
+    )
+    assert png.startswith(PNG_MAGIC)
+
