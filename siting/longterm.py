@@ -138,7 +138,7 @@ def _sector_interpolation(dx_m, dy_m, weather: WeatherClasses):
     return k0, (k0 + 1) % n, w1
 
 
-def _depletion_integral(sigma_z_of: Callable, release_height_m: float, mixing_height_m,
+def depletion_integral_table(sigma_z_of: Callable, release_height_m: float, mixing_height_m,
                         max_distance_m: float, n_points: int):
     """Distance table [m] and I(x) for one stability class and effective height."""
     table_m = np.concatenate(([0.0], np.geomspace(0.01, max(max_distance_m, 1.0) * 1.01,
@@ -217,7 +217,7 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
             c = sector_average_concentration_g_m3(1.0, f, u, arc_m, width_rad, sz, v)
             if settings.depletion_velocity_m_s:
                 if height_m not in depleted_integral_by_height:
-                    table_m, integral = _depletion_integral(
+                    table_m, integral = depletion_integral_table(
                         sigma_z_of, height_m, settings.mixing_height_m, max_distance_m,
                         settings.depletion_table_points)
                     depleted_integral_by_height[height_m] = np.interp(distance_m, table_m,

@@ -41,7 +41,10 @@ class WeatherSection(_Section):
     """[weather]: the weather behind the long-term means."""
 
     frequency_table: FilePath | None = None
-    hourly: FilePath | None = None
+    hourly: FilePath | list[FilePath] | None = None
+    utc_offset_h: float | None = Field(None, ge=-14, le=14)
+    calm_threshold_m_s: float = Field(0.5, ge=0, le=3)
+    max_missing_percent: float = Field(10.0, ge=0, le=100)
     anemometer_height_m: float = Field(10.0, gt=0, le=300)
     land_type: Literal["rural", "urban"] = "rural"
     sigma_scheme: Literal["briggs", "pasquill_gifford"] = "briggs"
@@ -55,6 +58,26 @@ class WeatherSection(_Section):
         if self.sigma_scheme == "pasquill_gifford" and self.land_type == "urban":
             raise ValueError("the Pasquill-Gifford curve fits are rural only; use "
                              'sigma_scheme = "briggs" with land_type = "urban"')
+        return self
+
+
+class SeasonalSection(_Section):
+    """[seasonal]: hour-by-hour emission weights and ventilation (hourly records only).
+
+    The defaults are common practice with no published source (siting/seasonal.py); replace
+    them with the house's own figures where known.
+    """
+
+    temperature_dependent_emission: StrictBool = False
+    emission_coefficient_per_k: float = Field(0.05, ge=0, le=0.3)
+    min_ventilation_fraction: float = Field(0.1, gt=0, le=1)
+    ventilation_ramp_start_c: float = Field(10.0, ge=-30, le=40)
+    ventilation_ramp_end_c: float = Field(25.0, ge=-30, le=45)
+
+    @model_validator(mode="after")
+    def _ramp(self):
+        if self.ventilation_ramp_end_c <= self.ventilation_ramp_start_c:
+            raise ValueError("ventilation_ramp_end_c must be above ventilation_ramp_start_c")
         return self
 
 
@@ -121,6 +144,7 @@ class SourceSpec(_Section):
     abatement: str | None = None
     reduction_percent: float | None = Field(None, ge=0, le=100)
     treated_air_fraction: float | None = Field(None, ge=0, le=1)
+    scrubber_design_share: float | None = Field(None, ge=0, le=1)
 
     @model_validator(mode="after")
     def _consistent(self):
@@ -140,9 +164,13 @@ class SourceSpec(_Section):
             raise ValueError("diameter_m/exit_velocity_m_s apply to point sources only")
         if self.exit_velocity_m_s and not self.diameter_m:
             raise ValueError("exit_velocity_m_s needs diameter_m (plume rise uses both)")
-        if (self.reduction_percent is not None or self.treated_air_fraction is not None) \
-                and self.abatement is None:
-            raise ValueError("reduction_percent/treated_air_fraction need an abatement technique")
+        if (self.reduction_percent is not None or self.treated_air_fraction is not None
+                or self.scrubber_design_share is not None) and self.abatement is None:
+            raise ValueError("reduction_percent/treated_air_fraction/scrubber_design_share need "
+                             "an abatement technique")
+        if self.treated_air_fraction is not None and self.scrubber_design_share is not None:
+            raise ValueError("give treated_air_fraction or scrubber_design_share (from which the "
+                             "treated share is computed over the hourly record), not both")
         return self
 
 
@@ -155,6 +183,7 @@ class Scenario(_Section):
     grid: GridSection = GridSection()
     deposition: DepositionSection = DepositionSection()
     assessment: AssessmentSection = AssessmentSection()
+    seasonal: SeasonalSection = SeasonalSection()
     habitats: HabitatsSection
     receptors: ReceptorsSection | None = None
     sources: list[SourceSpec] = Field(alias="source", min_length=1)
@@ -306,13 +335,24 @@ def load_scenario(path: str | Path) -> Scenario:
     except ValidationError as exc:
         raise InputError(_format_error(exc, raw, path.name)) from None
     _check_crs(scenario.crs, path.name)
-    if scenario.weather.hourly is not None:
-        raise InputError(f"{path.name}: weather.hourly: hour-by-hour records are not supported "
-                         "in this version; give weather.frequency_table")
+    hourly_needed = [s.id for s in scenario.sources if s.scrubber_design_share is not None]
+    if scenario.weather.hourly is None and (hourly_needed
+                                            or scenario.seasonal.temperature_dependent_emission):
+        what = (f'source "{hourly_needed[0]}": scrubber_design_share' if hourly_needed
+                else "seasonal.temperature_dependent_emission")
+        raise InputError(f"{path.name}: {what} needs an hourly weather record with "
+                         "temperature_c (weather.hourly)")
     folder = path.resolve().parent
+    hourly = scenario.weather.hourly
+    if hourly is not None:
+        files = hourly if isinstance(hourly, list) else [hourly]
+        if not files:
+            raise InputError(f"{path.name}: weather.hourly: give at least one file")
+        hourly = [_resolve(f, folder, "weather.hourly", path.name) for f in files]
     weather = scenario.weather.model_copy(update={
         "frequency_table": _resolve(scenario.weather.frequency_table, folder,
-                                    "weather.frequency_table", path.name)})
+                                    "weather.frequency_table", path.name),
+        "hourly": hourly})
     habitats = scenario.habitats.model_copy(update={
         "file": _resolve(scenario.habitats.file, folder, "habitats.file", path.name)})
     receptors = scenario.receptors

@@ -25,6 +25,7 @@ from siting.emissions import derive_emission
 from siting.errors import InputError
 from siting.grids import GridSpec, grid_around
 from siting.habitats import read_habitats, site_sample_points
+from siting.hourly import source_hourly_mean_g_m3_per_g_s
 from siting.longterm import (
     DispersionSettings,
     ReleaseElement,
@@ -98,9 +99,15 @@ def _source_elements(src: SourceSpec) -> tuple[list[ReleaseElement], object]:
              for t in offsets], footprint)
 
 
-def derive_sources(scenario: Scenario, tables: Tables) -> tuple[pd.DataFrame, list[str]]:
-    """One row per source: the emission derivation down to g/s, with range flags."""
+def derive_sources(scenario: Scenario, tables: Tables,
+                   treated_shares: dict[str, float] | None = None) -> tuple[pd.DataFrame, list[str]]:
+    """One row per source: the emission derivation down to g/s, with range flags.
+
+    ``treated_shares`` holds, for sources with a scrubber_design_share, the share of the year's
+    ammonia the scrubber treats, computed over the hourly record (seasonal.treated_ammonia_share).
+    """
     rows, warnings = [], []
+    treated_shares = treated_shares or {}
     for src in scenario.sources:
         where = f'source "{src.id}"'
         factor_row = technique = None
@@ -113,6 +120,11 @@ def derive_sources(scenario: Scenario, tables: Tables) -> tuple[pd.DataFrame, li
             reduction = (src.reduction_percent if src.reduction_percent is not None
                          else technique["reduction_percent_default"])
             treated = src.treated_air_fraction if src.treated_air_fraction is not None else 1.0
+            if src.scrubber_design_share is not None:
+                if technique["kind"] != "scrubber":
+                    raise InputError(f"{where}: scrubber_design_share applies to scrubbers; "
+                                     f'"{src.abatement}" is a {technique["kind"]}')
+                treated = treated_shares[src.id]
             lo, hi = technique["reduction_percent_min"], technique["reduction_percent_max"]
             if not lo <= reduction <= hi:
                 flag = (f"reduction {reduction:g} % is outside the published range "
@@ -140,6 +152,8 @@ def derive_sources(scenario: Scenario, tables: Tables) -> tuple[pd.DataFrame, li
                                         if technique else ""),
             "reduction_source": technique["source"] if technique else "",
             "reduction_flag": flag,
+            "scrubber_design_share": (src.scrubber_design_share
+                                      if src.scrubber_design_share is not None else np.nan),
             "treated_air_fraction": d.treated_air_fraction if src.abatement else np.nan,
             "effective_reduction_percent": d.effective_reduction_percent,
             "nh3_kg_yr": d.nh3_kg_yr,
@@ -149,6 +163,74 @@ def derive_sources(scenario: Scenario, tables: Tables) -> tuple[pd.DataFrame, li
             "effluent_m3_yr": d.effluent_m3_yr if d.effluent_m3_yr is not None else np.nan,
         })
     return pd.DataFrame(rows), warnings
+
+
+def _site_lat_lon(scenario: Scenario) -> tuple[float, float]:
+    """Latitude and longitude [deg] of the sources' centre, from the scenario CRS."""
+    from pyproj import Transformer
+
+    x = float(np.mean([src.x for src in scenario.sources]))
+    y = float(np.mean([src.y for src in scenario.sources]))
+    lon, lat = Transformer.from_crs(scenario.crs, "EPSG:4326", always_xy=True).transform(x, y)
+    return float(lat), float(lon)
+
+
+def _read_hourly(scenario: Scenario):
+    from siting.weather import read_hourly_record
+
+    lat, lon = _site_lat_lon(scenario)
+    w = scenario.weather
+    return read_hourly_record(w.hourly, lat, lon, anemometer_height_m=w.anemometer_height_m,
+                              utc_offset_h=w.utc_offset_h, calm_threshold_m_s=w.calm_threshold_m_s,
+                              min_wind_speed_m_s=w.min_wind_speed_m_s,
+                              max_missing_percent=w.max_missing_percent)
+
+
+def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summary: dict):
+    """Per-source hourly emission weights (mean 1) and annual treated shares of scrubbers.
+
+    Weights follow air temperature when [seasonal] temperature_dependent_emission is on; a
+    source with scrubber_design_share has its hourly emission lowered by reduction x the share
+    of that hour's air the scrubber takes, and the annual treated share becomes its
+    treated_air_fraction (so the annual total in sources.csv matches the hourly weights).
+    """
+    from siting.seasonal import (
+        temperature_emission_weights,
+        treated_ammonia_share,
+        ventilation_fraction,
+    )
+
+    cfg = scenario.seasonal
+    temperature_c = weather.temperature_c
+    needs_temperature = cfg.temperature_dependent_emission or any(
+        s.scrubber_design_share is not None for s in scenario.sources)
+    if needs_temperature and not np.isfinite(temperature_c).all():
+        missing = int((~np.isfinite(temperature_c)).sum())
+        raise InputError(f"weather.hourly: {missing} hour(s) have no temperature_c, which "
+                         "[seasonal] emission or scrubber_design_share need")
+    base = (temperature_emission_weights(temperature_c, cfg.emission_coefficient_per_k)
+            if cfg.temperature_dependent_emission else np.ones(weather.n_hours))
+    weights, treated = {}, {}
+    for src in scenario.sources:
+        if src.scrubber_design_share is None:
+            weights[src.id] = base
+            continue
+        technique = tables.technique(src.abatement, f'source "{src.id}"')
+        reduction = (src.reduction_percent if src.reduction_percent is not None
+                     else technique["reduction_percent_default"]) / 100.0
+        r = ventilation_fraction(temperature_c, cfg.min_ventilation_fraction,
+                                 cfg.ventilation_ramp_start_c, cfg.ventilation_ramp_end_c)
+        treated[src.id] = treated_ammonia_share(r, src.scrubber_design_share, base)
+        hourly_treated = np.minimum(r, src.scrubber_design_share) / r
+        after = base * (1.0 - reduction * hourly_treated)
+        weights[src.id] = after / after.mean() if after.mean() > 0 else base
+        summary.setdefault("scrubber_treated_share", {})[src.id] = {
+            "design_share_of_max_ventilation": src.scrubber_design_share,
+            "treated_share_of_annual_ammonia": treated[src.id]}
+    if cfg.temperature_dependent_emission:
+        summary["emission_profile"] = (f"temperature dependent, exp({cfg.emission_coefficient_per_k:g}"
+                                       " x (T - mean T)), normalised to the annual total")
+    return weights, treated
 
 
 def _read_named_receptors(scenario: Scenario, tables: Tables) -> pd.DataFrame:
@@ -204,10 +286,16 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     if scenario.deposition.depletion_land_cover not in tables.deposition_velocities:
         raise InputError(f'deposition.depletion_land_cover "{scenario.deposition.depletion_land_cover}"'
                          f" is not in deposition_velocities.toml")
-    weather, weather_summary, warnings = read_frequency_table(
-        scenario.weather.frequency_table, scenario.weather.anemometer_height_m,
-        scenario.weather.min_wind_speed_m_s)
-    sources, source_warnings = derive_sources(scenario, tables)
+    if scenario.weather.hourly is None:
+        weather, weather_summary, warnings = read_frequency_table(
+            scenario.weather.frequency_table, scenario.weather.anemometer_height_m,
+            scenario.weather.min_wind_speed_m_s)
+        hour_weights = treated_shares = {}
+    else:
+        weather, weather_summary, warnings = _read_hourly(scenario)
+        hour_weights, treated_shares = _hourly_emission_weights(scenario, tables, weather,
+                                                                weather_summary)
+    sources, source_warnings = derive_sources(scenario, tables, treated_shares)
     warnings += source_warnings
     sites, habitat_warnings = read_habitats(scenario.habitats, scenario.crs, tables,
                                             scenario.assessment.critical_load_end)
@@ -270,8 +358,12 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     try:
         for src, (elements, _), emission_g_s in zip(scenario.sources, elements_and_shapes,
                                                     sources["emission_g_s"]):
-            if emission_g_s > 0:
+            if emission_g_s > 0 and scenario.weather.hourly is None:
                 unit = source_concentration_g_m3_per_g_s(rx, ry, elements, weather, settings)
+                conc_by_role[src.role] += emission_g_s * unit * UG_PER_G
+            elif emission_g_s > 0:
+                unit = source_hourly_mean_g_m3_per_g_s(rx, ry, elements, weather, settings,
+                                                       hour_weights.get(src.id))
                 conc_by_role[src.role] += emission_g_s * unit * UG_PER_G
             if bar:
                 bar.advance(task)
