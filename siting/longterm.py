@@ -68,7 +68,8 @@ class ReleaseElement:
     """One release element of a source, in projected metres.
 
     ``share_fraction`` is the element's part of its source's emission; ``min_distance_m`` keeps
-    receptors on top of the element from a singular 1/x (receptors closer are evaluated at it).
+    receptors on top of the element from a singular 1/x (receptors closer are evaluated at it);
+    for a volume element it is its effective radius 2.15 sigma_y0 ([EPA1995] Sect. 1.2.2).
     """
 
     x_m: float
@@ -193,14 +194,16 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     for s in range(N_STABILITY):
         if not freq[:, :, s].any():
             continue
-        xy_m = virtual_distance_m(element.sigma_y0_m, lambda x, s=s: scheme.sigma_y_m(x, s))
         xz_m = virtual_distance_m(element.sigma_z0_m, lambda x, s=s: scheme.sigma_z_m(x, s))
 
         def sigma_z_of(x, s=s, xz_m=xz_m):
             return scheme.sigma_z_m(x + xz_m, s)
 
         sz = np.maximum(sigma_z_of(distance_m), 1e-6)
-        arc_m = distance_m + xy_m
+        # the sector's arc is at the receptor's own distance: the lateral initial spread of a
+        # volume source does not widen the sector, so the ring flux stays equal to the
+        # emission (mass balance); x_y only matters where a plume is narrower than a sector
+        arc_m = distance_m
         depleted_integral_by_height: dict[float, np.ndarray] = {}
         for j, speed_ref in enumerate(weather.speeds_m_s):
             if not freq[:, j, s].any():

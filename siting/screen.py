@@ -95,7 +95,7 @@ def _source_elements(src: SourceSpec) -> tuple[list[ReleaseElement], object]:
     offsets = (np.arange(n) + 0.5) * src.length_m / n - src.length_m / 2
     return ([ReleaseElement(src.x + t * math.sin(a), src.y + t * math.cos(a), src.height_m,
                             sigma_y0_m=side / 4.3, sigma_z0_m=building_m / 2.15,
-                            share_fraction=1.0 / n, min_distance_m=1.0)
+                            share_fraction=1.0 / n, min_distance_m=side / 2)
              for t in offsets], footprint)
 
 

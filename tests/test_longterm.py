@@ -163,3 +163,23 @@ def test_rectangle_orientation():
     els = rectangle_elements(0.0, 0.0, 10.0, 100.0, 90.0, 1.0, element_size_m=10.0)
     xs = np.array([e.x_m for e in els]); ys = np.array([e.y_m for e in els])
     assert np.ptp(xs) == pytest.approx(90.0) and np.ptp(ys) == pytest.approx(0.0, abs=1e-9)
+
+
+def test_volume_source_ring_flux_equals_emission(briggs_rural, rural_exponents):
+    """A volume source's sector average also carries Q through every ring (conservation).
+
+    The lateral initial spread must not widen the sector arc: ring flux = Q g(x + x_z) / u.
+    """
+    weather = _weather()
+    settings = _settings(briggs_rural, rural_exponents)
+    element = ReleaseElement(0, 0, 5.0, sigma_y0_m=9.3, sigma_z0_m=2.8, min_distance_m=20.0)
+    theta = np.linspace(0, 2 * np.pi, 3601)
+    from siting.plume import virtual_distance_m
+
+    xz = virtual_distance_m(2.8, lambda x: briggs_rural.sigma_z_m(x, D))
+    for x in (200.0, 1500.0):
+        c = element_concentration_g_m3_per_g_s(x * np.sin(theta), x * np.cos(theta), element,
+                                               weather, settings)
+        sz = briggs_rural.sigma_z_m(x + xz, D)
+        assert_allclose(np.trapezoid(c * x, theta),
+                        ground_vertical_density_per_m(sz, 5.0) / 5.0, rtol=1e-4)
