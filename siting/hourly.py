@@ -22,14 +22,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from siting.deposition import source_depletion_fraction
-from siting.longterm import DispersionSettings, ReleaseElement, depletion_integral_table
-from siting.plume import (
-    momentum_plume_rise_m,
-    vertical_term,
-    virtual_distance_m,
-    wind_speed_at_height_m_s,
+from siting.longterm import (
+    DepletionTables,
+    DispersionSettings,
+    ReleaseElement,
+    release_wind_and_height,
+    virtual_distances_m,
 )
+from siting.plume import vertical_term
 
 N_STABILITY = 6
 LATERAL_CUTOFF_SIGMAS = 6.0
@@ -133,14 +133,13 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
         in_class = classes == s
         if not in_class.any():
             continue
-        xy_m = virtual_distance_m(element.sigma_y0_m, lambda x, s=s: scheme.sigma_y_m(x, s))
-        xz_m = virtual_distance_m(element.sigma_z0_m, lambda x, s=s: scheme.sigma_z_m(x, s))
+        xy_m, xz_m = virtual_distances_m(element, scheme, s)
         half_window = _half_window_rad(scheme, s, xy_m, max_distance_m)
 
         def sigma_z_of(x, s=s, xz_m=xz_m):
             return scheme.sigma_z_m(x + xz_m, s)
 
-        depletion_tables: dict[float, tuple[np.ndarray, np.ndarray]] = {}
+        depletion = DepletionTables(sigma_z_of, settings, max_distance_m)
         for direction, speed_ref, weight in zip(directions[in_class], speeds[in_class],
                                                 weights[in_class]):
             if weight == 0:
@@ -159,26 +158,13 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
                 continue
             sel, along_m, cross_m = sel[downwind], along_m[downwind], cross_m[downwind]
             along_m = np.maximum(along_m, element.min_distance_m)
-            u = float(wind_speed_at_height_m_s(speed_ref, weather.anemometer_height_m,
-                                               element.release_height_m,
-                                               settings.wind_exponents[s]))
-            height_m = element.release_height_m
-            if element.exit_velocity_m_s > 0 and element.diameter_m > 0:
-                height_m += float(momentum_plume_rise_m(element.diameter_m,
-                                                        element.exit_velocity_m_s, u, s))
+            u, height_m = release_wind_and_height(element, speed_ref, weather.anemometer_height_m,
+                                                  settings.wind_exponents[s], s)
             sy = np.maximum(scheme.sigma_y_m(along_m + xy_m, s), 1e-6)
             sz = np.maximum(sigma_z_of(along_m), 1e-6)
             c = (weight / (2.0 * np.pi * u * sy * sz) * np.exp(-0.5 * (cross_m / sy) ** 2)
                  * vertical_term(sz, height_m, 0.0, settings.mixing_height_m))
-            if settings.depletion_velocity_m_s:
-                key = round(height_m, 6)
-                if key not in depletion_tables:
-                    depletion_tables[key] = depletion_integral_table(
-                        sigma_z_of, height_m, settings.mixing_height_m, max_distance_m,
-                        settings.depletion_table_points)
-                table_m, integral = depletion_tables[key]
-                c *= source_depletion_fraction(settings.depletion_velocity_m_s, u,
-                                               np.interp(along_m, table_m, integral))
+            c *= depletion.fraction(height_m, u, along_m)
             total[sel] += c
     return (total / weather.n_hours).reshape(np.shape(receptor_x_m))
 

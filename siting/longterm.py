@@ -149,6 +149,50 @@ def depletion_integral_table(sigma_z_of: Callable, release_height_m: float, mixi
     return table_m, cumulative_depletion_integral_m0(table_m, density)
 
 
+def virtual_distances_m(element: ReleaseElement, scheme: SigmaScheme, s: int) -> tuple[float, float]:
+    """Lateral and vertical virtual distances [m] of an element for stability class s."""
+    xy_m = virtual_distance_m(element.sigma_y0_m, lambda x: scheme.sigma_y_m(x, s))
+    xz_m = virtual_distance_m(element.sigma_z0_m, lambda x: scheme.sigma_z_m(x, s))
+    return xy_m, xz_m
+
+
+def release_wind_and_height(element: ReleaseElement, speed_ref_m_s: float,
+                            anemometer_height_m: float, exponent: float,
+                            s: int) -> tuple[float, float]:
+    """Wind speed at release height [m s-1] and effective release height with rise [m]."""
+    u = float(wind_speed_at_height_m_s(speed_ref_m_s, anemometer_height_m,
+                                       element.release_height_m, exponent))
+    height_m = element.release_height_m
+    if element.exit_velocity_m_s > 0 and element.diameter_m > 0:
+        height_m += float(momentum_plume_rise_m(element.diameter_m, element.exit_velocity_m_s,
+                                                u, s))
+    return u, height_m
+
+
+class DepletionTables:
+    """Depletion integrals I(x) of one element and stability class, cached by release height."""
+
+    def __init__(self, sigma_z_of: Callable, settings: DispersionSettings, max_distance_m: float):
+        self._sigma_z_of = sigma_z_of
+        self._settings = settings
+        self._max_distance_m = max_distance_m
+        self._tables: dict[float, tuple[np.ndarray, np.ndarray]] = {}
+
+    def fraction(self, height_m: float, wind_speed_m_s: float, distance_m) -> np.ndarray:
+        """Share of the emission still airborne at the distances [-] (1 without depletion)."""
+        vd = self._settings.depletion_velocity_m_s
+        if not vd:
+            return np.ones_like(np.asarray(distance_m, dtype=float))
+        key = round(height_m, 6)
+        if key not in self._tables:
+            self._tables[key] = depletion_integral_table(
+                self._sigma_z_of, height_m, self._settings.mixing_height_m,
+                self._max_distance_m, self._settings.depletion_table_points)
+        table_m, integral = self._tables[key]
+        return source_depletion_fraction(vd, wind_speed_m_s, np.interp(distance_m, table_m,
+                                                                       integral))
+
+
 def element_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: ReleaseElement,
                                        weather: WeatherClasses,
                                        settings: DispersionSettings) -> np.ndarray:
@@ -194,7 +238,7 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     for s in range(N_STABILITY):
         if not freq[:, :, s].any():
             continue
-        xz_m = virtual_distance_m(element.sigma_z0_m, lambda x, s=s: scheme.sigma_z_m(x, s))
+        _, xz_m = virtual_distances_m(element, scheme, s)
 
         def sigma_z_of(x, s=s, xz_m=xz_m):
             return scheme.sigma_z_m(x + xz_m, s)
@@ -204,29 +248,16 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
         # volume source does not widen the sector, so the ring flux stays equal to the
         # emission (mass balance); x_y only matters where a plume is narrower than a sector
         arc_m = distance_m
-        depleted_integral_by_height: dict[float, np.ndarray] = {}
+        depletion = DepletionTables(sigma_z_of, settings, max_distance_m)
         for j, speed_ref in enumerate(weather.speeds_m_s):
             if not freq[:, j, s].any():
                 continue
             f = w0 * freq[k0, j, s] + w1 * freq[k1, j, s]
-            u = float(wind_speed_at_height_m_s(speed_ref, weather.anemometer_height_m,
-                                               element.release_height_m,
-                                               settings.wind_exponents[s]))
-            height_m = element.release_height_m
-            if element.exit_velocity_m_s > 0 and element.diameter_m > 0:
-                height_m += float(momentum_plume_rise_m(element.diameter_m,
-                                                        element.exit_velocity_m_s, u, s))
+            u, height_m = release_wind_and_height(element, speed_ref, weather.anemometer_height_m,
+                                                  settings.wind_exponents[s], s)
             v = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
             c = sector_average_concentration_g_m3(1.0, f, u, arc_m, width_rad, sz, v)
-            if settings.depletion_velocity_m_s:
-                if height_m not in depleted_integral_by_height:
-                    table_m, integral = depletion_integral_table(
-                        sigma_z_of, height_m, settings.mixing_height_m, max_distance_m,
-                        settings.depletion_table_points)
-                    depleted_integral_by_height[height_m] = np.interp(distance_m, table_m,
-                                                                      integral)
-                c = c * source_depletion_fraction(settings.depletion_velocity_m_s, u,
-                                                  depleted_integral_by_height[height_m])
+            c = c * depletion.fraction(height_m, u, distance_m)
             total += c
     return total
 
