@@ -6,11 +6,13 @@ describes a real place, and no number here may be used for a real decision.
 
 Writes, next to this script:
   weather_table.csv  12 sectors x 4 speed classes x 6 Pasquill classes, frequencies summing to 1
+  hourly_weather.csv one invented year (2025) of hourly station-style observations
   habitats.gpkg      layer "habitats": four fictional protected sites (EPSG:32632)
   receptors.csv      five named points on or at the edge of those sites
 
-scenario.toml and README.md are written by hand; this script only checks that the scenario's
-sources lie outside every habitat polygon. The output is the same on every run (fixed seed).
+scenario.toml, scenario_hourly.toml and README.md are written by hand; this script only checks
+that the scenarios' sources lie outside every habitat polygon. The output is the same on every
+run (fixed seeds; the hourly record has its own generator, so adding it changed nothing else).
 
 Run:  python data_demo/make_demo.py
 Needs numpy, shapely, geopandas (with pyogrio).
@@ -79,6 +81,102 @@ def make_weather(rng: np.random.Generator) -> list[tuple[int, float, str, float]
     for row, f in zip(rows, freq):
         row[3] = float(round(f, 10))
     return [tuple(r) for r in rows]
+
+
+# --- hourly record -----------------------------------------------------------------------------
+
+HOURLY_SEED = SEED + 1  # its own stream: the older files do not depend on it
+HOURLY_YEAR = 2025
+HOURLY_UTC_OFFSET = "+01:00"  # the invented station keeps its local standard time all year
+# Invented weather regimes: (mean direction FROM [deg], spread [deg], mean speed [m/s], share,
+# cloud tendency [oktas]). Prevailing south-westerly and moist, an easterly mode drier and
+# lighter, a north-westerly mode behind fronts.
+REGIMES = [
+    (235.0, 30.0, 5.0, 0.52, 5.0),
+    (300.0, 30.0, 5.5, 0.18, 4.0),
+    (80.0, 35.0, 3.4, 0.20, 1.5),
+    (170.0, 35.0, 3.6, 0.10, 3.0),
+]
+REGIME_MEAN_HOURS = 60.0  # mean persistence of a regime
+#: two gaps, one with empty values, one with the rows left out (local start hour, length)
+HOURLY_GAPS = [("2025-03-14T08", 3, "empty"), ("2025-08-21T01", 7, "absent")]
+
+
+def _ar1(rng: np.random.Generator, n: int, correlation: float) -> np.ndarray:
+    """Unit-variance AR(1) series (hour-to-hour correlation given)."""
+    noise = rng.standard_normal(n) * math.sqrt(1.0 - correlation**2)
+    out = np.empty(n)
+    out[0] = rng.standard_normal()
+    for i in range(1, n):
+        out[i] = correlation * out[i - 1] + noise[i]
+    return out
+
+
+def make_hourly_weather(rng: np.random.Generator) -> list[list[str]]:
+    """One invented year of hourly observations as CSV cells (header first).
+
+    Station-like reporting: direction in 10 deg steps (360 = north, 0 with a calm), speed in
+    0.5 m/s steps, whole oktas, ceiling in 100 ft steps when 5 oktas or more, temperature to
+    0.1 deg C. Seasonal temperature cycle about 2 deg C in January to 17 deg C in July with a
+    daily cycle; about 3 % calms, mostly on clear nights; two short gaps (HOURLY_GAPS).
+    """
+    start = np.datetime64(f"{HOURLY_YEAR}-01-01T00", "h")
+    n = int((np.datetime64(f"{HOURLY_YEAR + 1}-01-01T00", "h") - start).astype(int))
+    hour_of_day = np.arange(n) % 24
+    day = np.arange(n) / 24.0
+    season = np.cos(2.0 * math.pi * (day - 196.0) / 365.0)  # +1 mid-July, -1 mid-January
+
+    # regimes as a persistent Markov chain
+    shares = np.array([r[3] for r in REGIMES])
+    regime = np.empty(n, dtype=int)
+    regime[0] = 0
+    switch = rng.random(n) < 1.0 / REGIME_MEAN_HOURS
+    picks = rng.choice(len(REGIMES), size=n, p=shares)
+    for i in range(1, n):
+        regime[i] = picks[i] if switch[i] else regime[i - 1]
+    mean_dir = np.array([r[0] for r in REGIMES])[regime]
+    spread = np.array([r[1] for r in REGIMES])[regime]
+    mean_speed = np.array([r[2] for r in REGIMES])[regime]
+    cloud_bias = np.array([r[4] for r in REGIMES])[regime]
+
+    direction = mean_dir + spread * _ar1(rng, n, 0.97) + 8.0 * rng.standard_normal(n)
+    cloud_latent = cloud_bias + 1.0 * (1.0 - season) + 2.6 * _ar1(rng, n, 0.93)
+    cloud = np.clip(np.round(cloud_latent), 0, 8).astype(int)
+    daytime = np.sin(math.pi * np.clip((hour_of_day - 5.0) / 15.0, 0.0, 1.0))  # 0 at night
+    clear_night = (daytime == 0) & (cloud <= 3)
+    strength = np.exp(0.45 * _ar1(rng, n, 0.96) - 0.1)
+    speed = (mean_speed * strength * (1.0 - 0.12 * season) * (0.8 + 0.35 * daytime)
+             * np.where(clear_night, 0.5, 1.0))
+    still = clear_night & (_ar1(rng, n, 0.8) > 0.3)  # spells of still, clear nights
+    speed = np.where(still, 0.0, speed)
+    temperature = (9.8 + 7.8 * season
+                   + (2.5 + 1.2 * season) * (1.0 - 0.07 * cloud)
+                   * np.cos(2.0 * math.pi * (hour_of_day - 15.0) / 24.0)
+                   + 2.8 * _ar1(rng, n, 0.985))
+    ceiling = np.clip(np.round(np.exp(rng.normal(math.log(2500.0), 0.8, n)) / 100.0) * 100.0,
+                      200.0, 20000.0)
+
+    speed_reported = np.round(speed * 2.0) / 2.0
+    direction_reported = (np.round(direction / 10.0) * 10.0) % 360.0
+    direction_reported = np.where(direction_reported == 0, 360.0, direction_reported)
+    direction_reported = np.where(speed_reported == 0, 0.0, direction_reported)  # calm code
+
+    gap_empty, gap_absent = set(), set()
+    for first, length, kind in HOURLY_GAPS:
+        i0 = int((np.datetime64(first, "h") - start).astype(int))
+        (gap_empty if kind == "empty" else gap_absent).update(range(i0, i0 + length))
+    rows = [["time", "direction_deg", "speed_m_s", "cloud_oktas", "ceiling_ft", "temperature_c"]]
+    for i in range(n):
+        if i in gap_absent:
+            continue
+        stamp = f"{start + i}:00{HOURLY_UTC_OFFSET}"
+        if i in gap_empty:
+            rows.append([stamp, "", "", "", "", ""])
+            continue
+        rows.append([stamp, f"{direction_reported[i]:.0f}", f"{speed_reported[i]:.1f}",
+                     str(cloud[i]), f"{ceiling[i]:.0f}" if cloud[i] >= 5 else "",
+                     f"{temperature[i]:.1f}"])
+    return rows
 
 
 # --- habitat polygons --------------------------------------------------------------------------
@@ -238,13 +336,15 @@ def _check(habitats: gpd.GeoDataFrame, weather: list, receptors: list) -> None:
     assert abs(sum(r[3] for r in weather) - 1.0) < 1e-12
     for pid, x, y, _ in receptors:
         assert habitats.contains(Point(x, y)).any(), f"receptor {pid} not in any habitat"
-    scenario_path = HERE / "scenario.toml"
-    if scenario_path.exists():
+    for scenario_path in (HERE / "scenario.toml", HERE / "scenario_hourly.toml"):
+        if not scenario_path.exists():
+            continue
         scenario = tomllib.loads(scenario_path.read_text(encoding="utf-8"))
         for src in scenario.get("source", []):
             p = Point(src["x"], src["y"])
             assert not habitats.contains(p).any(), f"source {src['id']} lies in a habitat"
-            print(f"  source {src['id']:3s} {p.distance(farm):7.0f} m from the farm centre")
+            print(f"  {scenario_path.name}: source {src['id']:3s} {p.distance(farm):7.0f} m "
+                  "from the farm centre")
 
 
 def main() -> None:
@@ -269,7 +369,11 @@ def main() -> None:
         out.writerow(["id", "x", "y", "land_cover"])
         for pid, x, y, cover in receptors:
             out.writerow([pid, f"{x:.1f}", f"{y:.1f}", cover])
-    print(f"wrote weather_table.csv ({len(weather)} rows), habitats.gpkg, receptors.csv")
+    hourly = make_hourly_weather(np.random.default_rng(HOURLY_SEED))
+    with open(HERE / "hourly_weather.csv", "w", newline="", encoding="utf-8") as fh:
+        csv.writer(fh, lineterminator="\n").writerows(hourly)
+    print(f"wrote weather_table.csv ({len(weather)} rows), hourly_weather.csv "
+          f"({len(hourly) - 1} rows), habitats.gpkg, receptors.csv")
 
 
 if __name__ == "__main__":

@@ -3,6 +3,8 @@
 Each command is a short function over the Python API. A :class:`~siting.errors.SitingError`
 becomes one line on stderr and exit code 2; nothing is written in that case.
 Exit codes: 0 ok; 1 only with --fail-on-exceed when a site is above its threshold; 2 bad input.
+Commands: screen, demo (optionally on the hourly demo record), weather (products of an hourly
+record).
 """
 
 from __future__ import annotations
@@ -74,8 +76,77 @@ def cmd_screen(args) -> int:
 def cmd_demo(args) -> int:
     from siting.resources import demo_dir
 
-    out = Path(args.out) if args.out else Path("maps") / "demo"
-    return _run_screen(demo_dir() / "scenario.toml", out, args.overwrite, False, args.quiet)
+    name, scenario = (("demo_hourly", "scenario_hourly.toml") if args.hourly
+                      else ("demo", "scenario.toml"))
+    out = Path(args.out) if args.out else Path("maps") / name
+    return _run_screen(demo_dir() / scenario, out, args.overwrite, False, args.quiet)
+
+
+def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path,
+                           quiet: bool) -> None:
+    from rich.console import Console
+    from rich.table import Table
+
+    if quiet:
+        return
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    table = Table(title=f"Hourly weather record: {', '.join(summary['files'])}",
+                  title_justify="left", show_header=False)
+    table.add_column("what", style="bold")
+    table.add_column("value")
+    table.add_row("period (UTC)", f"{summary['first_time_utc']} to {summary['last_time_utc']}")
+    table.add_row("hours used", f"{summary['hours_used']} of {summary['hours_expected']} "
+                                f"expected")
+    longest = (f"; longest gap {summary['gaps'][0]['hours']} h from "
+               f"{summary['gaps'][0]['start_utc']}" if summary["gaps"] else "")
+    table.add_row("missing (not filled)", f"{summary['hours_missing']} h "
+                                          f"({summary['missing_percent']:.2f} %) in "
+                                          f"{summary['gap_count']} gap(s){longest}")
+    table.add_row("calms", f"{summary['calm_hours']} h ({summary['calm_percent']:.1f} %) below "
+                           f"{summary['calm_threshold_m_s']:g} m/s, raised to "
+                           f"{summary['min_wind_speed_m_s']:g} m/s")
+    table.add_row("light winds raised", f"{summary['raised_to_min_speed_percent']:.1f} % of "
+                                        "the hours")
+    table.add_row("mean wind speed", f"{summary['mean_speed_m_s']:.2f} m/s (after raising; "
+                                     f"{summary['mean_observed_speed_m_s']:.2f} m/s observed)")
+    table.add_row("prevailing wind", summary["prevailing_from_words"])
+    table.add_row("stability A-F", "  ".join(f"{k} {100 * v:.1f} %"
+                                             for k, v in summary["stability_share"].items()))
+    table.add_row("stability from", summary["stability_method"])
+    if summary["temperature_c"]:
+        t = summary["temperature_c"]
+        table.add_row("temperature", f"{t['min']:.1f} / {t['mean']:.1f} / {t['max']:.1f} deg C "
+                                     "(min / mean / max)")
+    console.print(table)
+    for message in warnings_:
+        console.print(f"[yellow]warning:[/] {message}", markup=True, soft_wrap=False)
+    console.print(f"Outputs in {out_dir} (frequency_table.csv, wind_rose.png, "
+                  "stability_by_speed.png, summary.json).")
+
+
+def cmd_weather(args) -> int:
+    from siting.errors import InputError
+    from siting.outputs import check_output_dir
+    from siting.weather import read_hourly_record, write_weather_outputs
+
+    if not -90.0 <= args.lat <= 90.0:
+        raise InputError(f"--lat must be within -90..90 (degrees north), got {args.lat}")
+    if not -180.0 <= args.lon <= 180.0:
+        raise InputError(f"--lon must be within -180..180 (degrees east), got {args.lon}")
+    if not 4 <= args.sectors <= 360:
+        raise InputError(f"--sectors must be within 4..360, got {args.sectors}")
+    out_dir = Path(args.out).resolve()
+    check_output_dir(out_dir, args.overwrite)
+    paths = [Path(p) for p in args.hourly]
+    weather, summary, warnings_ = read_hourly_record(
+        paths, args.lat, args.lon, anemometer_height_m=args.anemometer_height,
+        utc_offset_h=args.utc_offset, calm_threshold_m_s=args.calm_threshold,
+        min_wind_speed_m_s=args.min_speed, max_missing_percent=args.max_missing_percent)
+    written, warnings_ = write_weather_outputs(out_dir, weather, summary, warnings_,
+                                               n_sectors=args.sectors, overwrite=args.overwrite,
+                                               input_paths=paths)
+    _print_weather_summary(summary, warnings_, written, args.quiet)
+    return EXIT_OK
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -103,8 +174,40 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("demo", parents=[common], help="run the bundled invented demo",
                        description="Run the invented demo scenario into ./maps/demo/.")
-    p.add_argument("--out", help="output folder (default: maps/demo)")
+    p.add_argument("--out", help="output folder (default: maps/demo, or maps/demo_hourly)")
+    p.add_argument("--hourly", action="store_true",
+                   help="run the demo on its invented hourly weather record "
+                        "(scenario_hourly.toml) into maps/demo_hourly")
     p.set_defaults(func=cmd_demo)
+
+    p = sub.add_parser("weather", parents=[common],
+                       help="frequency table and charts from an hourly weather record",
+                       description="Check an hourly station record (one or more CSV files in "
+                                   "time order) and write frequency_table.csv (usable as a "
+                                   "scenario's frequency_table), wind_rose.png, "
+                                   "stability_by_speed.png and summary.json.")
+    p.add_argument("hourly", nargs="+", metavar="HOURLY.csv",
+                   help="hourly record: time,direction_deg,speed_m_s and stability or "
+                        "cloud_oktas (optional ceiling_ft, temperature_c)")
+    p.add_argument("--lat", type=float, required=True,
+                   help="site latitude [deg north], -90..90 (sets the sun for Turner's method)")
+    p.add_argument("--lon", type=float, required=True,
+                   help="site longitude [deg east], -180..180")
+    p.add_argument("--out", required=True, help="output folder")
+    p.add_argument("--utc-offset", type=float, default=None, metavar="H",
+                   help="offset of the file's clock from UTC in hours, for times written "
+                        "without an offset (e.g. 1 for UTC+1)")
+    p.add_argument("--sectors", type=int, default=12,
+                   help="direction sectors of the frequency table (default 12)")
+    p.add_argument("--calm-threshold", type=float, default=0.5, metavar="M_S",
+                   help="speeds below this are calms [m/s] (default 0.5)")
+    p.add_argument("--min-speed", type=float, default=1.0, metavar="M_S",
+                   help="calms and lighter winds are raised to this speed [m/s] (default 1.0)")
+    p.add_argument("--max-missing-percent", type=float, default=10.0, metavar="PERCENT",
+                   help="refuse a record with more missing hours than this (default 10)")
+    p.add_argument("--anemometer-height", type=float, default=10.0, metavar="M",
+                   help="height of the wind measurement [m] (default 10)")
+    p.set_defaults(func=cmd_weather)
     return parser
 
 

@@ -1,8 +1,10 @@
 """The matplotlib figures of the screening report, rendered to PNG bytes.
 
-Two figures: the deposition grid in log classes with site outlines, sources and contours
+Two report figures: the deposition grid in log classes with site outlines, sources and contours
 (:func:`deposition_figure`), and each site's maximum process contribution against its distance
-from the sources (:func:`pc_vs_distance_figure`). Both are drawn with the Agg canvas
+from the sources (:func:`pc_vs_distance_figure`); and two weather charts of an hourly record
+for ``siting weather``: a wind rose (:func:`wind_rose_png`) and the stability classes by wind
+speed (:func:`stability_by_speed_png`). All four are drawn with the Agg canvas
 (:func:`figure_png`), never through pyplot's global state, and text from user files (site names,
 contour labels) is drawn as plain text, never as mathtext. No physics lives here: every number
 plotted was computed elsewhere. The deposition classes, the verdict colours and the number
@@ -32,7 +34,8 @@ if TYPE_CHECKING:  # imported for annotations only; the module does not need the
     import pandas as pd
     from matplotlib.figure import Figure
 
-__all__ = ["deposition_figure", "figure_png", "pc_vs_distance_figure"]
+__all__ = ["deposition_figure", "figure_png", "pc_vs_distance_figure", "stability_by_speed_png",
+           "wind_rose_png"]
 
 #: Marker and fill of each source role in the deposition figure; our own choice.
 _SOURCE_MARKERS = {
@@ -330,4 +333,153 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     ax.set_ylabel("PC max deposition [kg N/ha/yr]")
     ax.set_title("Process contribution at each site by distance", fontsize=10)
     ax.grid(True, which="both", linewidth=0.4, alpha=0.5)
+    return figure_png(fig)
+
+
+#: Fill of each Pasquill class A..F in the weather charts: warm (unstable) to cool (stable),
+#: neutral D grey. Our own choice.
+_STABILITY_COLOURS = ("#c8402a", "#e8885a", "#f2c77e", "#b9b9b4", "#7fa8c9", "#2f5f8f")
+#: Fill of the speed classes in the wind rose, light (calm) to dark (strong); our own choice.
+_SPEED_COLOURS = ("#e7efd6", "#b9d69a", "#7fb86c", "#478f4e", "#24643a", "#0f3b22")
+
+
+def _record_span(weather) -> str:
+    """'2024-12-31 23:00 - 2025-12-31 22:00 UTC' of an hourly record."""
+    if weather.n_hours == 0:
+        return "no hours"
+    first = str(np.datetime64(weather.time_utc[0], "m")).replace("T", " ")
+    last = str(np.datetime64(weather.time_utc[-1], "m")).replace("T", " ")
+    return f"{first} - {last} UTC"
+
+
+def _colours(palette: Sequence[str], n: int) -> list[str]:
+    """n colours from a palette, repeating its last colour when there are more classes."""
+    return [palette[min(i, len(palette) - 1)] for i in range(n)]
+
+
+def wind_rose_png(weather, n_sectors: int = 16, *,
+                  speed_edges_m_s: Sequence[float] | None = None) -> bytes:
+    """PNG wind rose of an hourly record: % of hours by direction sector, stacked by speed.
+
+    Parameters
+    ----------
+    weather : siting.hourly.HourlyWeather
+        The hours used (calms already raised to the floor speed, so they sit in the lowest
+        class with the direction the calm rule gave them).
+    n_sectors : int, optional
+        Direction sectors, centred on north, >= 4.
+    speed_edges_m_s : sequence of float, optional
+        Lower edges of the speed classes [m s-1] (default ``weather.DEFAULT_SPEED_EDGES_M_S``).
+
+    Returns
+    -------
+    png : bytes
+        North up, directions clockwise, bars pointing to where the wind blows FROM; radial axis
+        in % of the hours used; legend in m/s.
+
+    Notes
+    -----
+    Directions reported in steps (10 deg) are spread evenly over their step before binning
+    (``weather.hours_by_sector``), so 16 sectors from 10 deg data do not alternate in height.
+    """
+    from matplotlib.figure import Figure
+
+    from siting.weather import (
+        DEFAULT_SPEED_EDGES_M_S,
+        direction_step_deg,
+        hours_by_sector,
+        speed_class_index,
+        speed_class_labels,
+    )
+
+    if n_sectors < 4:
+        raise InputError(f"wind rose: n_sectors must be >= 4, got {n_sectors}")
+    edges = DEFAULT_SPEED_EDGES_M_S if speed_edges_m_s is None else speed_edges_m_s
+    labels = speed_class_labels(edges)
+    fig = Figure(figsize=(6.4, 6.0))
+    ax = fig.add_subplot(projection="polar")
+    ax.set_theta_zero_location("N")
+    ax.set_theta_direction(-1)  # clockwise, as on a compass
+    n = weather.n_hours
+    title = f"Wind rose: direction the wind blows from\n{n} hours, {_record_span(weather)}"
+    if n == 0:
+        ax.set_title(title, fontsize=10)
+        return figure_png(fig)
+    step = direction_step_deg(weather.direction_deg)
+    classes = speed_class_index(weather.speed_m_s, edges)
+    width_rad = 2 * np.pi / n_sectors
+    theta = np.arange(n_sectors) * width_rad
+    bottom = np.zeros(n_sectors)
+    for c, (label, colour) in enumerate(zip(labels, _colours(_SPEED_COLOURS, len(labels)))):
+        percent = 100.0 * hours_by_sector(weather.direction_deg[classes == c], n_sectors,
+                                          step) / n
+        ax.bar(theta, percent, width=width_rad * 0.92, bottom=bottom, color=colour,
+               edgecolor="#404040", linewidth=0.4, label=f"{label} m/s", align="center")
+        bottom += percent
+    ax.set_xticks(np.deg2rad(np.arange(0, 360, 45)))
+    ax.set_xticklabels(["N", "NE", "E", "SE", "S", "SW", "W", "NW"])
+    ax.yaxis.set_major_formatter(lambda value, _: f"{value:g} %")
+    ax.tick_params(axis="y", labelsize=7)
+    ax.set_rlabel_position(112.5)
+    ax.legend(title="wind speed", fontsize=7, title_fontsize=8, loc="upper left",
+              bbox_to_anchor=(1.05, 1.0), framealpha=0.9)
+    ax.set_title(title, fontsize=10)
+    note = f"{n_sectors} sectors; % of hours used"
+    if step > 0:
+        note += f"; directions reported in {step:g} deg steps, spread over each step"
+    fig.text(0.5, 0.01, note, ha="center", fontsize=7, color="#505050")
+    return figure_png(fig)
+
+
+def stability_by_speed_png(weather, *, speed_edges_m_s: Sequence[float] | None = None) -> bytes:
+    """PNG stacked bars: share of hours in each Pasquill class A-F within each speed class.
+
+    Parameters
+    ----------
+    weather : siting.hourly.HourlyWeather
+        The hours used.
+    speed_edges_m_s : sequence of float, optional
+        Lower edges of the speed classes [m s-1] (default ``weather.DEFAULT_SPEED_EDGES_M_S``).
+
+    Returns
+    -------
+    png : bytes
+        One bar per speed class summing to 100 % (empty classes left blank), the number of
+        hours in the class written above it.
+    """
+    from matplotlib.figure import Figure
+
+    from siting.plume import STABILITY_CLASSES
+    from siting.weather import DEFAULT_SPEED_EDGES_M_S, speed_class_index, speed_class_labels
+
+    edges = DEFAULT_SPEED_EDGES_M_S if speed_edges_m_s is None else speed_edges_m_s
+    labels = speed_class_labels(edges)
+    n_classes, n_stab = len(labels), len(STABILITY_CLASSES)
+    classes = speed_class_index(weather.speed_m_s, edges)
+    counts = np.zeros((n_classes, n_stab))
+    np.add.at(counts, (classes, np.asarray(weather.stability_index, dtype=int)), 1.0)
+    per_class = counts.sum(axis=1)
+    share = 100.0 * counts / np.maximum(per_class, 1.0)[:, None]
+
+    fig = Figure(figsize=(7.0, 4.4))
+    ax = fig.add_subplot()
+    x = np.arange(n_classes)
+    bottom = np.zeros(n_classes)
+    for s, (name, colour) in enumerate(zip(STABILITY_CLASSES, _STABILITY_COLOURS)):
+        ax.bar(x, share[:, s], bottom=bottom, color=colour, edgecolor="#404040", linewidth=0.4,
+               label=name, width=0.7)
+        bottom += share[:, s]
+    for i, hours in enumerate(per_class):
+        ax.annotate(f"{int(hours)} h", (x[i], 100.0), textcoords="offset points", xytext=(0, 3),
+                    ha="center", fontsize=7)
+    ax.set_xticks(x)
+    ax.set_xticklabels(labels)
+    ax.set_xlabel("Wind speed at the anemometer [m/s]")
+    ax.set_ylabel("Share of the hours in the speed class [%]")
+    ax.set_ylim(0, 108)
+    ax.legend(title="Pasquill class", fontsize=7, title_fontsize=8, loc="upper left",
+              bbox_to_anchor=(1.01, 1.0))
+    ax.set_title(f"Stability by wind speed: {weather.n_hours} hours, {_record_span(weather)}",
+                 fontsize=10)
+    ax.grid(True, axis="y", linewidth=0.4, alpha=0.5)
     return figure_png(fig)
