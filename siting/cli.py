@@ -127,7 +127,7 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path,
 def cmd_weather(args) -> int:
     from siting.errors import InputError
     from siting.outputs import check_output_dir
-    from siting.weather import read_hourly_record, write_weather_outputs
+    from siting.weather_hourly import read_hourly_record, write_weather_outputs
 
     if not -90.0 <= args.lat <= 90.0:
         raise InputError(f"--lat must be within -90..90 (degrees north), got {args.lat}")

@@ -369,7 +369,8 @@ def wind_rose_png(weather, n_sectors: int = 16, *,
     n_sectors : int, optional
         Direction sectors, centred on north, >= 4.
     speed_edges_m_s : sequence of float, optional
-        Lower edges of the speed classes [m s-1] (default ``weather.DEFAULT_SPEED_EDGES_M_S``).
+        Lower edges of the speed classes [m s-1] (default
+        ``weather_hourly.DEFAULT_SPEED_EDGES_M_S``).
 
     Returns
     -------
@@ -380,11 +381,11 @@ def wind_rose_png(weather, n_sectors: int = 16, *,
     Notes
     -----
     Directions reported in steps (10 deg) are spread evenly over their step before binning
-    (``weather.hours_by_sector``), so 16 sectors from 10 deg data do not alternate in height.
+    (``weather_hourly.hours_by_sector``), so 16 sectors from 10 deg data do not alternate in height.
     """
     from matplotlib.figure import Figure
 
-    from siting.weather import (
+    from siting.weather_hourly import (
         DEFAULT_SPEED_EDGES_M_S,
         direction_step_deg,
         hours_by_sector,
@@ -439,7 +440,8 @@ def stability_by_speed_png(weather, *, speed_edges_m_s: Sequence[float] | None =
     weather : siting.hourly.HourlyWeather
         The hours used.
     speed_edges_m_s : sequence of float, optional
-        Lower edges of the speed classes [m s-1] (default ``weather.DEFAULT_SPEED_EDGES_M_S``).
+        Lower edges of the speed classes [m s-1] (default
+        ``weather_hourly.DEFAULT_SPEED_EDGES_M_S``).
 
     Returns
     -------
@@ -450,7 +452,7 @@ def stability_by_speed_png(weather, *, speed_edges_m_s: Sequence[float] | None =
     from matplotlib.figure import Figure
 
     from siting.plume import STABILITY_CLASSES
-    from siting.weather import DEFAULT_SPEED_EDGES_M_S, speed_class_index, speed_class_labels
+    from siting.weather_hourly import DEFAULT_SPEED_EDGES_M_S, speed_class_index, speed_class_labels
 
     edges = DEFAULT_SPEED_EDGES_M_S if speed_edges_m_s is None else speed_edges_m_s
     labels = speed_class_labels(edges)

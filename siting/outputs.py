@@ -2,7 +2,9 @@
 
 An adapter. Everything is written into a temporary folder beside the target and moved into
 place only when complete, so a failed run leaves nothing half-written and an earlier result is
-replaced only with ``overwrite`` (and only once the new one is whole).
+replaced only with ``overwrite`` (and only once the new one is whole). That staging is
+:func:`staged_folder`, which ``siting weather`` (``weather_hourly.write_weather_outputs``) uses
+too.
 """
 
 from __future__ import annotations
@@ -12,6 +14,8 @@ import json
 import platform
 import shutil
 import tempfile
+from collections.abc import Iterator
+from contextlib import contextmanager
 from datetime import datetime, timezone
 from pathlib import Path
 
@@ -79,7 +83,13 @@ def check_output_dir(out_dir: Path, overwrite: bool) -> None:
 
 def _input_files(result) -> dict[str, Path]:
     scenario = result.scenario
-    files = {"scenario": scenario.path, "weather": scenario.weather.frequency_table}
+    files = {"scenario": scenario.path}
+    if scenario.weather.hourly is not None:
+        hourly = scenario.weather.hourly
+        for i, path in enumerate(hourly if isinstance(hourly, list) else [hourly], start=1):
+            files["weather" if i == 1 else f"weather_{i}"] = path
+    else:
+        files["weather"] = scenario.weather.frequency_table
     habitat = scenario.habitats.file
     if habitat.suffix.lower() == ".shp":  # a shapefile is several files
         for sidecar in sorted(habitat.parent.glob(habitat.stem + ".*")):
@@ -162,8 +172,14 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     import geopandas as gpd
 
     from siting import __version__
-    from siting.figures import deposition_figure, pc_vs_distance_figure
+    from siting.figures import (
+        deposition_figure,
+        pc_vs_distance_figure,
+        stability_by_speed_png,
+        wind_rose_png,
+    )
     from siting.report import write_report
+    from siting.hourly import HourlyWeather
     from siting.webmap import write_screen_map
 
     grid = result.grid
@@ -204,6 +220,11 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         "Process contribution at each site against distance from the installation":
             pc_vs_distance_figure(pd.DataFrame(sites.drop(columns="geometry"))),
     }
+    if isinstance(result.weather, HourlyWeather):
+        figures["Wind rose of the hourly record (direction the wind blows from)"] = \
+            wind_rose_png(result.weather)
+        figures["Stability class by wind speed (Turner's method or as given)"] = \
+            stability_by_speed_png(result.weather)
     write_report(folder / "report.html", title=result.scenario.title, version=__version__,
                  run_time=run_time, scenario_file=str(result.scenario.path),
                  sites=table, sources=result.sources, weather_summary=result.weather_summary,
@@ -216,22 +237,65 @@ def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
     """Write every output of a screening run atomically into ``out_dir``; returns it."""
     out_dir = Path(out_dir).resolve()
     check_output_dir(out_dir, overwrite)
-    out_dir.parent.mkdir(parents=True, exist_ok=True)
     run_time = datetime.now(timezone.utc).replace(microsecond=0).isoformat()
+    with staged_folder(out_dir, overwrite) as staging:
+        _write_all(result, staging, run_time)
+    return out_dir
+
+
+@contextmanager
+def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
+    """A staging folder beside ``out_dir`` that takes its place only if the block succeeds.
+
+    Parameters
+    ----------
+    out_dir : Path
+        The folder to produce; its parent is created if needed.
+    overwrite : bool
+        Whether an existing ``out_dir`` may be replaced.
+
+    Yields
+    ------
+    staging : Path
+        A new, empty folder ``.<name>.<random>.partial`` in the parent of ``out_dir``, mode
+        0o755 (``tempfile.mkdtemp`` makes it 0o700; the result is an ordinary folder).
+
+    Raises
+    ------
+    OutputExistsError
+        On entry, or when the block ends, if ``out_dir`` exists without ``overwrite`` or is
+        not a folder (:func:`check_output_dir`); nothing is then changed.
+
+    Notes
+    -----
+    When the block ends normally the staging folder is renamed to ``out_dir``. An existing
+    ``out_dir`` is first renamed aside to ``.<name>.old`` and deleted only once the new folder
+    is in place (it is put back if that rename fails). When the block raises anything (also
+    KeyboardInterrupt), the staging folder is deleted, ``out_dir`` is left as it was and the
+    exception propagates. Both renames stay within one folder, so each is atomic on POSIX.
+    """
+    out_dir = Path(out_dir).resolve()
+    check_output_dir(out_dir, overwrite)
+    out_dir.parent.mkdir(parents=True, exist_ok=True)
     staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", suffix=".partial",
                                     dir=out_dir.parent))
     try:
-        _write_all(result, staging, run_time)
+        staging.chmod(0o755)
+        yield staging
+        check_output_dir(out_dir, overwrite)  # it may have appeared while the block ran
         if out_dir.exists():
             backup = out_dir.with_name(f".{out_dir.name}.old")
             if backup.exists():
                 shutil.rmtree(backup)
             out_dir.rename(backup)
-            staging.rename(out_dir)
+            try:
+                staging.rename(out_dir)
+            except BaseException:
+                backup.rename(out_dir)
+                raise
             shutil.rmtree(backup)
         else:
             staging.rename(out_dir)
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
-    return out_dir

@@ -113,7 +113,8 @@ _DERIVATION_ROWS: tuple[tuple[str, tuple[tuple[str, str], ...]], ...] = (
             ("reduction_range_percent", "Published range of the reduction [%]"),
             ("reduction_flag", "Check of the reduction"),
             ("reduction_source", "Where the reduction comes from"),
-            ("treated_air_fraction", "Share of the house air treated [%]"),
+            ("scrubber_design_share", "Scrubber sized for [% of maximum ventilation]"),
+            ("treated_air_fraction", "Share of the ammonia treated over the year [%]"),
             ("effective_reduction_percent", "Effective reduction [%]"),
         ),
     ),
@@ -170,6 +171,36 @@ _WEATHER_LABELS = {
     "anemometer_height_m": "Anemometer height [m]",
     "rows": "Rows in the table",
     "frequencies_given_as": "Frequencies given as",
+    # hourly records
+    "files": "Hourly record file(s)",
+    "latitude_deg": "Site latitude [deg]",
+    "longitude_deg": "Site longitude [deg]",
+    "first_time_utc": "First hour (UTC)",
+    "last_time_utc": "Last hour (UTC)",
+    "time_offsets": "Time offsets",
+    "years_covered": "Calendar years covered",
+    "record_years": "Length of record [years]",
+    "hours_expected": "Hours in the period",
+    "hours_used": "Hours used",
+    "hours_missing": "Hours missing (not filled)",
+    "missing_percent": "Missing [% of hours]",
+    "gap_count": "Gaps",
+    "gaps": "Longest gaps",
+    "calm_threshold_m_s": "Calm below [m/s]",
+    "min_wind_speed_m_s": "Minimum wind speed used [m/s]",
+    "calm_hours": "Calm hours",
+    "calm_percent": "Calms [% of hours used]",
+    "calm_direction_filled_hours": "Calm hours given the last wind direction",
+    "raised_to_min_speed_percent": "Raised to the minimum speed [% of hours used]",
+    "mean_observed_speed_m_s": "Mean observed wind speed [m/s]",
+    "prevailing_from_words": "Prevailing wind",
+    "direction_step_deg": "Reported direction step [deg]",
+    "stability_method": "Stability class from",
+    "temperature_c": "Air temperature [deg C]",
+    "calm_rule": "Rule for calms",
+    "missing_rule": "Rule for missing hours",
+    "scrubber_treated_share": "Partial scrubbing: share of the year's ammonia treated",
+    "emission_profile": "Hourly emission profile",
 }
 
 #: Keys of the run record shown elsewhere in the report (not repeated in section 7's tables).
@@ -365,6 +396,14 @@ def _display_value(key: str, value: Any) -> str:
                 f"<tbody><tr>{cells}</tr></tbody></table>"
             )
         return ", ".join(f"{_esc(k)}: {_display_value(str(k), v)}" for k, v in value.items())
+    if isinstance(value, (list, tuple)) and value and all(isinstance(v, Mapping) for v in value):
+        columns = list(dict.fromkeys(k for row in value for k in row))
+        head = "".join(f"<th>{_esc(_plain_label(c))}</th>" for c in columns)
+        body = "".join(
+            "<tr>" + "".join(f"<td>{_display_value(c, row.get(c))}</td>" for c in columns) + "</tr>"
+            for row in value
+        )
+        return f'<table class="mini"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
     if isinstance(value, (list, tuple, np.ndarray)):
         return ", ".join(_display_value(key, v) for v in value) or _NOT_APPLICABLE
     if _is_share(key) and _is_number(value):

@@ -64,6 +64,7 @@ class ScreenResult:
     fields: dict[str, np.ndarray]
     warnings: list[str] = field(default_factory=list)
     timings_s: dict[str, float] = field(default_factory=dict)
+    weather: object = None  # WeatherClasses or HourlyWeather, for the weather figures
 
     @property
     def cautions(self) -> list[str]:
@@ -176,7 +177,7 @@ def _site_lat_lon(scenario: Scenario) -> tuple[float, float]:
 
 
 def _read_hourly(scenario: Scenario):
-    from siting.weather import read_hourly_record
+    from siting.weather_hourly import read_hourly_record
 
     lat, lon = _site_lat_lon(scenario)
     w = scenario.weather
@@ -225,8 +226,8 @@ def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summar
         after = base * (1.0 - reduction * hourly_treated)
         weights[src.id] = after / after.mean() if after.mean() > 0 else base
         summary.setdefault("scrubber_treated_share", {})[src.id] = {
-            "design_share_of_max_ventilation": src.scrubber_design_share,
-            "treated_share_of_annual_ammonia": treated[src.id]}
+            "design_share": src.scrubber_design_share,   # of the maximum ventilation rate
+            "treated_share": treated[src.id]}            # of the year's ammonia
     if cfg.temperature_dependent_emission:
         summary["emission_profile"] = (f"temperature dependent, exp({cfg.emission_coefficient_per_k:g}"
                                        " x (T - mean T)), normalised to the annual total")
@@ -449,4 +450,4 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     source_shapes = [shape for _, shape in elements_and_shapes]
     return ScreenResult(scenario, tables, grid, weather_summary, sources, source_shapes,
                         gpd.GeoDataFrame(out, geometry="geometry", crs=scenario.crs),
-                        receptors, fields, warnings, timings)
+                        receptors, fields, warnings, timings, weather)

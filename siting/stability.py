@@ -10,7 +10,7 @@ Turner's class table (Table 6-4 of [EPA2000]) is a fixed published key, not a tu
 coefficient, so it lives here next to the procedure that indexes it rather than in ``config/``.
 
 What is not here: the solar position (``solar.py``), reading weather files and turning hourly
-classes into a frequency table (``weather.py``), and other stability schemes (sigma-theta,
+classes into a frequency table (``weather_hourly.py``), and other stability schemes (sigma-theta,
 solar radiation/delta-T, Monin-Obukhov length).
 
 References

@@ -300,7 +300,7 @@ def test_sources_table_formats_by_column_meaning(report_html):
     assert ">2.813<" in _row(table, "Emission factor [kg NH3/place/yr]")
     assert ">0.0936<" in _row(table, "Source strength [g/s]")  # 0.0935975 at 4 digits
     assert ">2954<" in _row(table, "NH3 emitted [kg/yr]")  # large: whole kg
-    assert ">50.0<" in _row(table, "Share of the house air treated [%]")  # fraction 0.5 as %
+    assert ">50.0<" in _row(table, "Share of the ammonia treated over the year [%]")  # fraction 0.5 as %
     assert ">95.0<" in _row(table, "Reduction by the technique [%]")
 
 

@@ -1,0 +1,82 @@
+"""The output folder's staging (outputs.staged_folder): atomic, replaced only with overwrite."""
+
+import os
+import stat
+
+import pytest
+
+from siting.errors import OutputExistsError
+from siting.outputs import staged_folder
+
+
+def _old_result(out_dir):
+    """An earlier output folder holding one file."""
+    out_dir.mkdir()
+    (out_dir / "old.txt").write_text("old result", encoding="utf-8")
+    return out_dir
+
+
+def test_failure_inside_the_block_leaves_nothing(tmp_path):
+    """An exception in the block removes the staging folder, writes no output and propagates."""
+    out_dir = tmp_path / "out"
+    with pytest.raises(RuntimeError, match="half way"):
+        with staged_folder(out_dir, overwrite=False) as staging:
+            (staging / "part.txt").write_text("partial", encoding="utf-8")
+            raise RuntimeError("failed half way")
+    assert not staging.exists()
+    assert list(tmp_path.iterdir()) == []  # no output folder, no staging or backup left
+
+
+def test_success_moves_the_staging_folder_into_place(tmp_path):
+    """A block that ends normally leaves exactly its files in out_dir and nothing beside it."""
+    out_dir = tmp_path / "new" / "out"  # the parent is created too
+    with staged_folder(out_dir, overwrite=False) as staging:
+        assert staging.parent == out_dir.parent and staging.name.endswith(".partial")
+        (staging / "result.txt").write_text("done", encoding="utf-8")
+    assert not staging.exists()
+    assert [p.name for p in out_dir.iterdir()] == ["result.txt"]
+    assert [p.name for p in out_dir.parent.iterdir()] == ["out"]
+
+
+def test_existing_folder_without_overwrite_is_refused_and_kept(tmp_path):
+    """overwrite=False with an existing folder raises OutputExistsError before the block runs."""
+    out_dir = _old_result(tmp_path / "out")
+    ran = False
+    with pytest.raises(OutputExistsError, match="--overwrite"):
+        with staged_folder(out_dir, overwrite=False):
+            ran = True
+    assert not ran
+    assert [p.name for p in out_dir.iterdir()] == ["old.txt"]
+    assert (out_dir / "old.txt").read_text(encoding="utf-8") == "old result"
+    assert [p.name for p in tmp_path.iterdir()] == ["out"]  # no staging folder left
+
+
+def test_overwrite_replaces_the_old_folder_after_success(tmp_path):
+    """overwrite=True: the old folder stays whole while the block runs, then is replaced."""
+    out_dir = _old_result(tmp_path / "out")
+    with staged_folder(out_dir, overwrite=True) as staging:
+        (staging / "new.txt").write_text("new result", encoding="utf-8")
+        assert (out_dir / "old.txt").read_text(encoding="utf-8") == "old result"
+    assert [p.name for p in out_dir.iterdir()] == ["new.txt"]
+    assert [p.name for p in tmp_path.iterdir()] == ["out"]  # the backup is deleted
+
+
+def test_overwrite_keeps_the_old_folder_when_the_block_fails(tmp_path):
+    """overwrite=True and a failure in the block: the old folder is left intact."""
+    out_dir = _old_result(tmp_path / "out")
+    with pytest.raises(RuntimeError, match="failed"):
+        with staged_folder(out_dir, overwrite=True) as staging:
+            (staging / "new.txt").write_text("new result", encoding="utf-8")
+            raise RuntimeError("failed")
+    assert [p.name for p in out_dir.iterdir()] == ["old.txt"]
+    assert (out_dir / "old.txt").read_text(encoding="utf-8") == "old result"
+    assert [p.name for p in tmp_path.iterdir()] == ["out"]
+
+
+@pytest.mark.skipif(os.name != "posix", reason="POSIX permission bits")
+def test_final_folder_has_ordinary_permissions(tmp_path):
+    """The output folder is mode 0o755, not mkdtemp's private 0o700 (documented choice)."""
+    out_dir = tmp_path / "out"
+    with staged_folder(out_dir, overwrite=False):
+        pass
+    assert stat.S_IMODE(out_dir.stat().st_mode) == 0o755
