@@ -25,7 +25,7 @@ from siting.emissions import derive_emission
 from siting.errors import InputError
 from siting.grids import GridSpec, grid_around
 from siting.habitats import read_habitats, site_sample_points
-from siting.hourly import source_hourly_mean_g_m3_per_g_s
+from siting.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
 from siting.longterm import (
     DispersionSettings,
     ReleaseElement,
@@ -275,12 +275,40 @@ def _progress(enabled: bool):
                     TimeElapsedColumn(), transient=True)
 
 
-def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> ScreenResult:
-    """Run a full screening assessment of a scenario (a file path or a loaded Scenario)."""
-    import geopandas as gpd
-    import shapely
+@dataclass
+class Prepared:
+    """What every run of a scenario needs before any dispersion: inputs read and checked."""
 
-    clock = {"start": time.perf_counter()}
+    scenario: Scenario
+    tables: Tables
+    weather: object  # WeatherClasses or HourlyWeather
+    weather_summary: dict
+    hour_weights: dict
+    sources: pd.DataFrame
+    sites: object  # GeoDataFrame
+    settings: DispersionSettings
+    warnings: list[str]
+
+    @property
+    def default_deposition_velocity_m_s(self) -> float:
+        land_cover = self.scenario.deposition.depletion_land_cover
+        return self.tables.deposition_velocities[land_cover]["deposition_velocity_m_s"]
+
+    def unit_concentration_ug_m3(self, source_id: str, elements, receptor_x_m,
+                                 receptor_y_m) -> np.ndarray:
+        """Annual mean concentration [ug m-3] per 1 g s-1 (annual mean) of one source."""
+        if isinstance(self.weather, HourlyWeather):
+            unit = source_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, elements,
+                                                   self.weather, self.settings,
+                                                   self.hour_weights.get(source_id))
+        else:
+            unit = source_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m, elements,
+                                                     self.weather, self.settings)
+        return unit * UG_PER_G
+
+
+def prepare(scenario: Scenario | str | Path) -> Prepared:
+    """Read and check a scenario's tables, weather, sources and habitats (no dispersion)."""
     if not isinstance(scenario, Scenario):
         scenario = load_scenario(scenario)
     tables = load_tables(scenario.assessment.config_dir)
@@ -301,6 +329,27 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     sites, habitat_warnings = read_habitats(scenario.habitats, scenario.crs, tables,
                                             scenario.assessment.critical_load_end)
     warnings += habitat_warnings
+    default_vd = tables.deposition_velocities[scenario.deposition.depletion_land_cover][
+        "deposition_velocity_m_s"]
+    settings = DispersionSettings(
+        scheme=tables.sigma_scheme(scenario.weather.land_type, scenario.weather.sigma_scheme),
+        wind_exponents=tables.wind_exponents(scenario.weather.land_type),
+        mixing_height_m=scenario.weather.mixing_height_m,
+        depletion_velocity_m_s=default_vd if scenario.deposition.plume_depletion else None)
+    return Prepared(scenario, tables, weather, weather_summary, hour_weights, sources, sites,
+                    settings, warnings)
+
+
+def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> ScreenResult:
+    """Run a full screening assessment of a scenario (a file path or a loaded Scenario)."""
+    import geopandas as gpd
+    import shapely
+
+    clock = {"start": time.perf_counter()}
+    prep = prepare(scenario)
+    scenario, tables, weather = prep.scenario, prep.tables, prep.weather
+    weather_summary, sources, sites = prep.weather_summary, prep.sources, prep.sites
+    warnings = list(prep.warnings)
     named = _read_named_receptors(scenario, tables)
 
     grid = grid_around([s.x for s in scenario.sources], [s.y for s in scenario.sources],
@@ -327,8 +376,7 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     n_grid, n_named = grid.size, len(named)
 
     # deposition velocity of each receptor by land cover
-    default_vd = tables.deposition_velocities[scenario.deposition.depletion_land_cover][
-        "deposition_velocity_m_s"]
+    default_vd = prep.default_deposition_velocity_m_s
     vd = np.full(rx.size, default_vd, dtype=float)
     member_site, member_receptor, member_interior = [s_index], [n_grid + n_named + np.arange(len(s_x))], [s_interior]
     for i in assessed_idx:
@@ -346,11 +394,6 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     member_interior = np.concatenate(member_interior).astype(bool)
     clock["inputs"] = time.perf_counter()
 
-    settings = DispersionSettings(
-        scheme=tables.sigma_scheme(scenario.weather.land_type, scenario.weather.sigma_scheme),
-        wind_exponents=tables.wind_exponents(scenario.weather.land_type),
-        mixing_height_m=scenario.weather.mixing_height_m,
-        depletion_velocity_m_s=default_vd if scenario.deposition.plume_depletion else None)
     conc_by_role = {role: np.zeros(rx.size) for role in ROLES}
     bar = _progress(progress)
     task = bar.add_task("dispersion", total=len(scenario.sources)) if bar else None
@@ -359,13 +402,9 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     try:
         for src, (elements, _), emission_g_s in zip(scenario.sources, elements_and_shapes,
                                                     sources["emission_g_s"]):
-            if emission_g_s > 0 and scenario.weather.hourly is None:
-                unit = source_concentration_g_m3_per_g_s(rx, ry, elements, weather, settings)
-                conc_by_role[src.role] += emission_g_s * unit * UG_PER_G
-            elif emission_g_s > 0:
-                unit = source_hourly_mean_g_m3_per_g_s(rx, ry, elements, weather, settings,
-                                                       hour_weights.get(src.id))
-                conc_by_role[src.role] += emission_g_s * unit * UG_PER_G
+            if emission_g_s > 0:
+                conc_by_role[src.role] += emission_g_s * prep.unit_concentration_ug_m3(
+                    src.id, elements, rx, ry)
             if bar:
                 bar.advance(task)
     finally:
