@@ -347,6 +347,27 @@ def _check(habitats: gpd.GeoDataFrame, weather: list, receptors: list) -> None:
                   "from the farm centre")
 
 
+def make_holding(habitats: gpd.GeoDataFrame):
+    """The invented holding (about 50 ha) and its exclusions: two dwellings and a brook.
+
+    Fixed shapes (no randomness), clipped so the holding never overlaps a habitat site.
+    """
+    from shapely.geometry import LineString, Polygon
+
+    cx, cy = FARM_X_M, FARM_Y_M
+    boundary = Polygon([(cx - 230, cy - 420), (cx + 520, cy - 470), (cx + 610, cy - 60),
+                        (cx + 540, cy + 230), (cx + 60, cy + 260), (cx - 260, cy + 120)])
+    boundary = boundary.difference(habitats.union_all().buffer(30.0))
+    dwellings = [Point(cx - 90, cy + 60), Point(cx + 560, cy - 420)]  # farmhouse, cottage
+    brook = LineString([(cx - 300, cy - 250), (cx + 100, cy - 180), (cx + 400, cy - 260),
+                        (cx + 700, cy - 200)])
+    crs = habitats.crs
+    return (gpd.GeoDataFrame({"name": ["Hollowmere Farm holding (invented)"]},
+                             geometry=[boundary], crs=crs),
+            gpd.GeoDataFrame({"name": ["farmhouse", "cottage"]}, geometry=dwellings, crs=crs),
+            gpd.GeoDataFrame({"name": ["Hollow Brook"]}, geometry=[brook], crs=crs))
+
+
 def main() -> None:
     rng = np.random.default_rng(SEED)
     weather = make_weather(rng)
@@ -369,6 +390,12 @@ def main() -> None:
         out.writerow(["id", "x", "y", "land_cover"])
         for pid, x, y, cover in receptors:
             out.writerow([pid, f"{x:.1f}", f"{y:.1f}", cover])
+    holding, dwellings, brook = make_holding(habitats)
+    print(f"holding: {holding.area.iloc[0] / 1e4:.1f} ha")
+    for name, frame in (("holding.gpkg", holding), ("dwellings.gpkg", dwellings),
+                        ("watercourses.gpkg", brook)):
+        (HERE / name).unlink(missing_ok=True)
+        frame.to_file(HERE / name, driver="GPKG")
     hourly = make_hourly_weather(np.random.default_rng(HOURLY_SEED))
     with open(HERE / "hourly_weather.csv", "w", newline="", encoding="utf-8") as fh:
         csv.writer(fh, lineterminator="\n").writerows(hourly)

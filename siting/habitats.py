@@ -188,3 +188,26 @@ def site_sample_points(geometries, source_x_m, source_y_m, spacing_m: float):
         interior.extend([True] * n)
     return (np.asarray(index, dtype=int), np.asarray(xs, dtype=float),
             np.asarray(ys, dtype=float), np.asarray(interior, dtype=bool))
+
+
+def site_outline_points(geometries, spacing_m: float):
+    """Receptor points on each site for positions not known in advance (placement search).
+
+    The boundary sampled every ``spacing_m`` (at least 8 points per ring) plus the interior
+    lattice of :func:`site_sample_points`; a house anywhere outside the site has its nearest
+    boundary point within spacing_m / 2 of a sample. Returns (site_index, x_m, y_m).
+    """
+    index, xs, ys = [], [], []
+    for i, geom in enumerate(geometries):
+        for part in shapely.get_parts(geom):
+            for ring in [part.exterior, *part.interiors]:
+                n = max(8, int(np.ceil(ring.length / spacing_m)))
+                pts = shapely.line_interpolate_point(ring, np.linspace(0, ring.length, n,
+                                                                      endpoint=False))
+                coords = shapely.get_coordinates(pts)
+                index.extend([i] * len(coords)); xs.extend(coords[:, 0]); ys.extend(coords[:, 1])
+    lattice_index, lx, ly, interior = site_sample_points(geometries, [], [], spacing_m)
+    keep = interior
+    return (np.concatenate([np.asarray(index, int), lattice_index[keep]]),
+            np.concatenate([np.asarray(xs, float), lx[keep]]),
+            np.concatenate([np.asarray(ys, float), ly[keep]]))

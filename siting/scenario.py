@@ -122,6 +122,27 @@ class ReceptorsSection(_Section):
     file: FilePath
 
 
+class ExclusionSpec(_Section):
+    """[[holding.exclusion]]: a layer of places the new house must keep away from."""
+
+    file: FilePath
+    layer: str | None = None
+    buffer_m: float = Field(0.0, ge=0, le=5000)
+    name: str | None = Field(None, max_length=80)
+
+
+class HoldingSection(_Section):
+    """[holding]: where on the farm a new house could go (``siting place``)."""
+
+    file: FilePath
+    layer: str | None = None
+    spacing_m: float = Field(10.0, gt=0, le=500)
+    boundary_buffer_m: float = Field(0.0, ge=0, le=1000)
+    min_distance_to_existing_m: float = Field(0.0, ge=0, le=5000)
+    in_combination: StrictBool = False
+    exclusion: list[ExclusionSpec] = []
+
+
 class SourceSpec(_Section):
     """One [[source]]: where and how ammonia is released, and how much."""
 
@@ -186,6 +207,7 @@ class Scenario(_Section):
     seasonal: SeasonalSection = SeasonalSection()
     habitats: HabitatsSection
     receptors: ReceptorsSection | None = None
+    holding: HoldingSection | None = None
     sources: list[SourceSpec] = Field(alias="source", min_length=1)
     path: FilePath | None = None
 
@@ -364,6 +386,15 @@ def load_scenario(path: str | Path) -> Scenario:
         assessment = assessment.model_copy(update={
             "config_dir": _resolve(assessment.config_dir, folder, "assessment.config_dir",
                                    path.name)})
+    holding = scenario.holding
+    if holding is not None:
+        exclusions = [e.model_copy(update={"file": _resolve(e.file, folder,
+                                                            f"holding.exclusion #{i} file",
+                                                            path.name)})
+                      for i, e in enumerate(holding.exclusion, start=1)]
+        holding = holding.model_copy(update={
+            "file": _resolve(holding.file, folder, "holding.file", path.name),
+            "exclusion": exclusions})
     return scenario.model_copy(update={"weather": weather, "habitats": habitats,
                                        "receptors": receptors, "assessment": assessment,
-                                       "path": path.resolve()})
+                                       "holding": holding, "path": path.resolve()})
