@@ -2,9 +2,10 @@
 
 Two report figures: the deposition grid in log classes with site outlines, sources and contours
 (:func:`deposition_figure`), and each site's maximum process contribution against its distance
-from the sources (:func:`pc_vs_distance_figure`); and two weather charts of an hourly record
-for ``siting weather``: a wind rose (:func:`wind_rose_png`) and the stability classes by wind
-speed (:func:`stability_by_speed_png`). All four are drawn with the Agg canvas
+from the sources (:func:`pc_vs_distance_figure`); and the weather charts: a wind rose of an
+hourly record (:func:`wind_rose_png`, also used by ``siting weather``) or of a frequency table
+(:func:`wind_rose_from_table_png`), drawn alike, and the stability classes of an hourly record
+by wind speed (:func:`stability_by_speed_png`). All are drawn with the Agg canvas
 (:func:`figure_png`), never through pyplot's global state, and text from user files (site names,
 contour labels) is drawn as plain text, never as mathtext. No physics lives here: every number
 plotted was computed elsewhere. The deposition classes, the verdict colours and the number
@@ -34,8 +35,10 @@ if TYPE_CHECKING:  # imported for annotations only; the module does not need the
     import pandas as pd
     from matplotlib.figure import Figure
 
+    from siting.longterm import WeatherClasses
+
 __all__ = ["deposition_figure", "figure_png", "pc_vs_distance_figure", "stability_by_speed_png",
-           "wind_rose_png"]
+           "wind_rose_from_table_png", "wind_rose_png"]
 
 #: Marker and fill of each source role in the deposition figure; our own choice.
 _SOURCE_MARKERS = {
@@ -357,6 +360,57 @@ def _colours(palette: Sequence[str], n: int) -> list[str]:
     return [palette[min(i, len(palette) - 1)] for i in range(n)]
 
 
+def _rose_png(percent: np.ndarray, sector_centres_deg: np.ndarray, labels: Sequence[str],
+              title: str, note: str, legend_title: str = "wind speed") -> bytes:
+    """PNG of a wind rose drawn from shares already binned by speed class and direction sector.
+
+    Parameters
+    ----------
+    percent : ndarray, shape (n_classes, n_sectors)
+        Share of the time in each speed class and direction sector [%].
+    sector_centres_deg : ndarray, shape (n_sectors,)
+        Direction the wind blows FROM at each sector centre [deg clockwise from north], evenly
+        spaced.
+    labels : sequence of str
+        Legend label of each speed class, without the unit.
+    title, note : str
+        Title above the rose and a small note below it.
+    legend_title : str, optional
+        Title of the speed legend.
+
+    Returns
+    -------
+    png : bytes
+        North up, directions clockwise, bars stacked from the lowest speed class outwards;
+        radial axis in %; legend in m/s. Both roses of this module are drawn here, so a
+        frequency-table run and an hourly run look alike.
+    """
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(6.4, 6.0))
+    ax = fig.add_subplot(projection="polar")
+    ax.set_theta_zero_location("N")
+    ax.set_theta_direction(-1)  # clockwise, as on a compass
+    n_sectors = len(sector_centres_deg)
+    width_rad = 2 * np.pi / n_sectors
+    theta = np.deg2rad(np.asarray(sector_centres_deg, dtype=float))
+    bottom = np.zeros(n_sectors)
+    for row, label, colour in zip(percent, labels, _colours(_SPEED_COLOURS, len(labels))):
+        ax.bar(theta, row, width=width_rad * 0.92, bottom=bottom, color=colour,
+               edgecolor="#404040", linewidth=0.4, label=f"{label} m/s", align="center")
+        bottom += row
+    ax.set_xticks(np.deg2rad(np.arange(0, 360, 45)))
+    ax.set_xticklabels(["N", "NE", "E", "SE", "S", "SW", "W", "NW"])
+    ax.yaxis.set_major_formatter(lambda value, _: f"{value:g} %")
+    ax.tick_params(axis="y", labelsize=7)
+    ax.set_rlabel_position(112.5)
+    ax.legend(title=legend_title, fontsize=7, title_fontsize=8, loc="upper left",
+              bbox_to_anchor=(1.05, 1.0), framealpha=0.9)
+    ax.set_title(title, fontsize=10)
+    fig.text(0.5, 0.01, note, ha="center", fontsize=7, color="#505050")
+    return figure_png(fig)
+
+
 def wind_rose_png(weather, n_sectors: int = 16, *,
                   speed_edges_m_s: Sequence[float] | None = None) -> bytes:
     """PNG wind rose of an hourly record: % of hours by direction sector, stacked by speed.
@@ -397,39 +451,77 @@ def wind_rose_png(weather, n_sectors: int = 16, *,
         raise InputError(f"wind rose: n_sectors must be >= 4, got {n_sectors}")
     edges = DEFAULT_SPEED_EDGES_M_S if speed_edges_m_s is None else speed_edges_m_s
     labels = speed_class_labels(edges)
-    fig = Figure(figsize=(6.4, 6.0))
-    ax = fig.add_subplot(projection="polar")
-    ax.set_theta_zero_location("N")
-    ax.set_theta_direction(-1)  # clockwise, as on a compass
     n = weather.n_hours
     title = f"Wind rose: direction the wind blows from\n{n} hours, {_record_span(weather)}"
     if n == 0:
+        fig = Figure(figsize=(6.4, 6.0))
+        ax = fig.add_subplot(projection="polar")
         ax.set_title(title, fontsize=10)
         return figure_png(fig)
     step = direction_step_deg(weather.direction_deg)
     classes = speed_class_index(weather.speed_m_s, edges)
-    width_rad = 2 * np.pi / n_sectors
-    theta = np.arange(n_sectors) * width_rad
-    bottom = np.zeros(n_sectors)
-    for c, (label, colour) in enumerate(zip(labels, _colours(_SPEED_COLOURS, len(labels)))):
-        percent = 100.0 * hours_by_sector(weather.direction_deg[classes == c], n_sectors,
-                                          step) / n
-        ax.bar(theta, percent, width=width_rad * 0.92, bottom=bottom, color=colour,
-               edgecolor="#404040", linewidth=0.4, label=f"{label} m/s", align="center")
-        bottom += percent
-    ax.set_xticks(np.deg2rad(np.arange(0, 360, 45)))
-    ax.set_xticklabels(["N", "NE", "E", "SE", "S", "SW", "W", "NW"])
-    ax.yaxis.set_major_formatter(lambda value, _: f"{value:g} %")
-    ax.tick_params(axis="y", labelsize=7)
-    ax.set_rlabel_position(112.5)
-    ax.legend(title="wind speed", fontsize=7, title_fontsize=8, loc="upper left",
-              bbox_to_anchor=(1.05, 1.0), framealpha=0.9)
-    ax.set_title(title, fontsize=10)
+    percent = np.array([
+        100.0 * hours_by_sector(weather.direction_deg[classes == c], n_sectors, step) / n
+        for c in range(len(labels))
+    ])
     note = f"{n_sectors} sectors; % of hours used"
     if step > 0:
         note += f"; directions reported in {step:g} deg steps, spread over each step"
-    fig.text(0.5, 0.01, note, ha="center", fontsize=7, color="#505050")
-    return figure_png(fig)
+    return _rose_png(percent, np.arange(n_sectors) * 360.0 / n_sectors, labels, title, note)
+
+
+def wind_rose_from_table_png(weather: WeatherClasses) -> bytes:
+    """PNG wind rose of a frequency table: % of the time by direction sector, stacked by speed.
+
+    Parameters
+    ----------
+    weather : siting.longterm.WeatherClasses
+        The table as used by the model (class speeds below the minimum wind speed already
+        raised to it, so such classes merge into the lowest one).
+
+    Returns
+    -------
+    png : bytes
+        The same look as :func:`wind_rose_png`: north up, directions clockwise, one bar per
+        sector of the table pointing to where the wind blows FROM, stacked by the table's own
+        speed classes (labelled by their class speed), radial axis in % of the time (the
+        frequencies summed over the stability classes, :func:`_table_rose_percent`).
+
+    Raises
+    ------
+    InputError
+        If ``frequency_fraction`` is not shaped (sectors, speeds, stability classes) or the
+        table has fewer than 4 sectors.
+    """
+    percent = _table_rose_percent(weather)
+    centres_deg = np.asarray(weather.sector_centres_deg, dtype=float)
+    labels = [format_number(u) for u in np.asarray(weather.speeds_m_s, dtype=float)]
+    title = (f"Wind rose: direction the wind blows from\nfrequency table, {centres_deg.size} "
+             f"sectors of {360.0 / centres_deg.size:g} deg")
+    note = (f"% of the time; stacked by the table's class speeds at the anemometer "
+            f"({format_number(weather.anemometer_height_m)} m)")
+    return _rose_png(percent, centres_deg, labels, title, note, legend_title="class speed")
+
+
+def _table_rose_percent(weather: WeatherClasses) -> np.ndarray:
+    """Share of the time in each speed class and sector of a frequency table [%].
+
+    Returns an array of shape (n_speeds, n_sectors): ``frequency_fraction`` summed over the
+    stability classes, normalised to 100 % in total (all zeros stay zeros).
+    """
+    centres_deg = np.asarray(weather.sector_centres_deg, dtype=float)
+    speeds_m_s = np.asarray(weather.speeds_m_s, dtype=float)
+    frequency = np.asarray(weather.frequency_fraction, dtype=float)
+    if frequency.ndim != 3 or frequency.shape[:2] != (centres_deg.size, speeds_m_s.size):
+        raise InputError(
+            f"wind rose: frequency_fraction must have shape (sectors {centres_deg.size}, "
+            f"speeds {speeds_m_s.size}, stability classes), got {frequency.shape}")
+    if centres_deg.size < 4:
+        raise InputError(f"wind rose: need at least 4 sectors, got {centres_deg.size}")
+    by_sector_speed = frequency.sum(axis=2)
+    total = by_sector_speed.sum()
+    share = by_sector_speed / total if total > 0 else by_sector_speed
+    return 100.0 * share.T
 
 
 def stability_by_speed_png(weather, *, speed_edges_m_s: Sequence[float] | None = None) -> bytes:

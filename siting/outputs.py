@@ -176,10 +176,12 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         deposition_figure,
         pc_vs_distance_figure,
         stability_by_speed_png,
+        wind_rose_from_table_png,
         wind_rose_png,
     )
-    from siting.report import write_report
     from siting.hourly import HourlyWeather
+    from siting.longterm import WeatherClasses
+    from siting.report import write_report
     from siting.webmap import write_screen_map
 
     grid = result.grid
@@ -220,17 +222,21 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         "Process contribution at each site against distance from the installation":
             pc_vs_distance_figure(pd.DataFrame(sites.drop(columns="geometry"))),
     }
+    weather_figures = {}  # shown in the report's weather part, after the summary table
     if isinstance(result.weather, HourlyWeather):
-        figures["Wind rose of the hourly record (direction the wind blows from)"] = \
+        weather_figures["Wind rose of the hourly record (direction the wind blows from)"] = \
             wind_rose_png(result.weather)
-        figures["Stability class by wind speed (Turner's method or as given)"] = \
+        weather_figures["Stability class by wind speed (Turner's method or as given)"] = \
             stability_by_speed_png(result.weather)
+    elif isinstance(result.weather, WeatherClasses):
+        weather_figures["Wind rose of the frequency table (direction the wind blows from)"] = \
+            wind_rose_from_table_png(result.weather)
     write_report(folder / "report.html", title=result.scenario.title, version=__version__,
                  run_time=run_time, scenario_file=str(result.scenario.path),
                  sites=table, sources=result.sources, weather_summary=result.weather_summary,
                  habitat_values=_habitat_values(sites), warnings=result.warnings,
                  cautions=result.cautions, method_notes=METHOD_NOTES, run_record=record,
-                 figures=figures)
+                 figures=figures, weather_figures=weather_figures)
 
 
 def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:

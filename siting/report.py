@@ -13,7 +13,11 @@ source ids, the title) is HTML-escaped wherever it enters the page.
 The page is laid out to fit an A4 or Letter page, on screen and in print: no table is wider than
 the page (the sources table is transposed, one column per source, and split into blocks of a few
 sources), long citations wrap in a smaller font or become numbered notes, and table rows are
-never split across pages.
+never split across pages. In print (A4 portrait) table headers repeat on each page, headings stay
+with what follows them, figures, list items and the run record's small tables are kept whole,
+and figures are capped in height so that two fit on a page. The weather charts (wind rose,
+stability by wind speed) sit in section 2 right after the weather summary; the other figures
+in section 4.
 """
 
 from __future__ import annotations
@@ -311,15 +315,22 @@ pre.record { background: var(--band); border: 1px solid var(--rule); padding: 0.
              font-size: 0.78rem; white-space: pre-wrap; word-break: break-all; }
 tr, img, figure { page-break-inside: avoid; break-inside: avoid; }
 thead { display: table-header-group; }
-@page { margin: 12mm; }
+table.keyval > tbody > tr > th { min-width: 13em; }
+@page { size: A4 portrait; margin: 14mm 12mm; }
 @media print {
   body { max-width: none; padding: 0; font-size: 9.5pt; }
   table { font-size: 8pt; }
   th, td { padding: 0.12rem 0.25rem; }
-  h2, h3, h4 { page-break-after: avoid; break-after: avoid; }
+  h1, h2, h3, h4 { page-break-after: avoid; break-after: avoid; }
+  tr.step-group { page-break-after: avoid; break-after: avoid; }
   .table-wrap { overflow: visible; }
   nav.toc { display: none; }
   a { color: inherit; text-decoration: none; }
+  figure { margin: 0.6rem 0 1rem; }
+  figure img { max-height: 100mm; width: auto; }
+  figcaption { page-break-before: avoid; break-before: avoid; }
+  .cautions, .caution-line, table.mini, li { page-break-inside: avoid; break-inside: avoid; }
+  #run-record table { page-break-inside: avoid; break-inside: avoid; }
   .cautions, .caution-line, .verdict, td.flag, th.flagged, tr.step-group th {
     -webkit-print-color-adjust: exact; print-color-adjust: exact; }
 }
@@ -919,10 +930,13 @@ def _run_record_html(record: Mapping[str, Any]) -> str:
     return "".join(parts)
 
 
-def _figures_html(figures: Mapping[str, bytes]) -> str:
-    """<figure> elements with PNG data URLs, captions escaped."""
+def _figures_html(
+    figures: Mapping[str, bytes], empty_text: str = "No figures were made for this run."
+) -> str:
+    """<figure> elements with PNG data URLs, captions escaped; `empty_text` when none ('' for
+    nothing at all)."""
     if not figures:
-        return '<p class="empty">No figures were made for this run.</p>'
+        return f'<p class="empty">{html.escape(empty_text)}</p>' if empty_text else ""
     parts = []
     for caption, png in figures.items():
         if not isinstance(png, (bytes, bytearray)) or not bytes(png).startswith(b"\x89PNG"):
@@ -951,6 +965,7 @@ def write_report(
     method_notes: list[str],
     run_record: dict,
     figures: dict[str, bytes],
+    weather_figures: Mapping[str, bytes] | None = None,
 ) -> None:
     """Write report.html: a self-contained, offline-readable account of one screening run.
 
@@ -995,7 +1010,10 @@ def write_report(
         Version, time, inputs with SHA-256 and parameters; shown as tables, and in full as
         indented JSON in a collapsed block.
     figures : dict of str to bytes
-        Caption -> PNG bytes, inlined as data URLs in that order.
+        Caption -> PNG bytes, inlined as data URLs in that order (section 4).
+    weather_figures : mapping of str to bytes, optional
+        Caption -> PNG bytes of the weather charts (wind rose, stability by wind speed), shown
+        in section 2 right after the weather summary table; none by default.
 
     Raises
     ------
@@ -1009,6 +1027,7 @@ def write_report(
             f"expected {', '.join(k for k, _ in SUMMARY_COLUMNS)}"
         )
     figures_html = _figures_html(figures)  # validates before anything is written
+    weather_figures_html = _figures_html(weather_figures or {}, empty_text="")
 
     counts = {}
     for verdict in sites["verdict"]:
@@ -1042,8 +1061,12 @@ def write_report(
             "2. Inputs",
             "<h3>Sources and emission derivation</h3>"
             + _sources_table(sources)
-            + "<h3>Weather</h3>"
-            + _key_value_table(weather_summary, _WEATHER_LABELS, "No weather summary available.")
+            + '<div class="weather" id="weather"><h3>Weather</h3>'
+            + _key_value_table(
+                weather_summary, _WEATHER_LABELS, "No weather summary available.", css="keyval"
+            )
+            + weather_figures_html
+            + "</div>"
             + "<h3>Habitats and their critical values</h3>"
             + _habitat_table(habitat_values)
             + _thresholds_table(sites)
@@ -1058,7 +1081,16 @@ def write_report(
             "3. Method and assumptions",
             _bullet_list(method_notes, "No method notes recorded."),
         ),
-        ("figures", "4. Figures", figures_html),
+        (
+            "figures",
+            "4. Figures",
+            figures_html
+            + (
+                '<p class="note">The weather charts are in section 2, under Weather.</p>'
+                if weather_figures
+                else ""
+            ),
+        ),
         ("warnings", "5. Warnings", _bullet_list(warnings, "No warnings were raised.")),
         (
             "cautions",

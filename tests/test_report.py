@@ -392,3 +392,40 @@ def test_net_change_table_lists_each_site():
     assert "Net change" in html_text and html_text.count("<tr>") == 3
     assert "Background" not in html_text.split("<thead>")[1].split("</thead>")[0]
     assert _change_table(pd.DataFrame({"name": ["A"]})) == ""
+
+
+def test_weather_figures_follow_the_weather_summary(tmp_path):
+    """Weather charts sit in section 2 right after the weather table, not among the figures."""
+    png = pc_vs_distance_figure(_sites())
+    text = _write(tmp_path / "report.html", weather_figures={"Wind rose <of the table>": png})
+    weather = _between(text, '<div class="weather" id="weather"><h3>Weather</h3>',
+                       "<h3>Habitats")
+    table_end = weather.index("</table>")
+    figure = weather.index('<figure><img src="data:image/png;base64,')
+    assert table_end < figure
+    assert "<figcaption>Wind rose &lt;of the table&gt;</figcaption>" in weather
+    figures = _between(text, 'id="figures"', "</section>")
+    assert "Wind rose" not in figures and "section 2, under Weather" in figures
+
+
+def test_no_weather_figures_by_default(report_html):
+    """Without weather figures the weather part holds the table only, and no empty note."""
+    weather = _between(report_html, "<h3>Weather</h3>", "<h3>Habitats")
+    assert "<figure" not in weather and 'class="empty"' not in weather
+
+
+def test_weather_figure_that_is_not_png_is_refused(tmp_path):
+    """A weather figure that is not PNG bytes raises before anything is written."""
+    path = tmp_path / "report.html"
+    with pytest.raises(InputError, match="Wind rose"):
+        _write(path, weather_figures={"Wind rose": b"GIF89a"})
+    assert not path.exists()
+
+
+def test_print_css_sets_a4_and_keeps_blocks_whole(report_html):
+    """Print CSS: A4 portrait, headings kept with what follows, figures capped in height."""
+    assert "@page { size: A4 portrait;" in report_html
+    print_css = report_html[report_html.index("@media print"):report_html.index("</style>")]
+    assert "h1, h2, h3, h4 { page-break-after: avoid; break-after: avoid; }" in print_css
+    assert "tr.step-group { page-break-after: avoid; break-after: avoid; }" in print_css
+    assert "figure img { max-height:" in print_css
