@@ -149,6 +149,57 @@ def cmd_weather(args) -> int:
     return EXIT_OK
 
 
+def cmd_place(args) -> int:
+    from siting.errors import InputError
+    from siting.outputs import check_output_dir
+    from siting.place import place
+    from siting.place_outputs import write_place_outputs
+    from siting.scenario import load_scenario
+
+    if args.spacing is not None and not 0 < args.spacing <= 500:
+        raise InputError(f"--spacing must be in (0, 500] m, got {args.spacing:g}")
+    if args.top < 1:
+        raise InputError(f"--top must be >= 1, got {args.top}")
+    scenario = load_scenario(args.scenario)
+    out_dir = Path(args.out) if args.out else Path("maps") / f"{scenario.name}_place_{args.house}"
+    check_output_dir(out_dir.resolve(), args.overwrite)
+    result = place(scenario, args.house, spacing_m=args.spacing,
+                   in_combination=args.in_combination)
+    written = write_place_outputs(result, out_dir, overwrite=args.overwrite, top=args.top)
+    if not args.quiet:
+        _print_place_summary(result, written, args.top)
+    return EXIT_OK
+
+
+def _print_place_summary(result, out_dir: Path, top: int) -> None:
+    from rich.console import Console
+    from rich.table import Table
+
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    t = result.timings_s
+    table = Table(title=f"Best positions for {result.house_id} ({t['positions']:,} positions "
+                        f"searched)", title_justify="left")
+    for col in ("rank", "x", "y", "limiting site", "worst % load", "worst % level",
+                "share of threshold", "reduction needed %", "max places unabated"):
+        table.add_column(col, justify="left" if col == "limiting site" else "right")
+    for row in result.positions.head(top).itertuples():
+        places = getattr(row, "max_places_unabated", float("nan"))
+        table.add_row(str(row.Index + 1), f"{row.x:.0f}", f"{row.y:.0f}", str(row.limiting_site),
+                      f"{row.worst_pct_load:.1f}", f"{row.worst_pct_level:.1f}",
+                      f"{row.limiting_share_of_threshold:.2f}",
+                      f"{row.required_reduction_percent:.0f}",
+                      "-" if places != places else f"{places:.0f}")
+    console.print(table)
+    passing = int(result.positions["passes_as_described"].sum())
+    console.print(f"{passing:,} of {len(result.positions):,} positions pass every site's "
+                  "threshold with the house as described.")
+    for message in result.warnings:
+        console.print(f"[yellow]warning:[/] {message}", markup=True)
+    console.print(f"Outputs in {out_dir} (map.html, positions.csv, suitability.tif).")
+    console.print("Screening estimate only; local rules and the competent authority decide.",
+                  style="dim")
+
+
 def build_parser() -> argparse.ArgumentParser:
     from siting import __version__
 
@@ -208,6 +259,23 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--anemometer-height", type=float, default=10.0, metavar="M",
                    help="height of the wind measurement [m] (default 10)")
     p.set_defaults(func=cmd_weather)
+
+    p = sub.add_parser("place", parents=[common],
+                       help="where on the holding could a new house go",
+                       description="Placement search: the screening figures of one house at "
+                                   "every allowed position on the holding ([holding] table of "
+                                   "the scenario), ranked best first.")
+    p.add_argument("scenario", help="scenario file (TOML) with a [holding] table")
+    p.add_argument("--house", required=True, metavar="ID",
+                   help="id of the [[source]] to place (its x/y are ignored)")
+    p.add_argument("--out", help="output folder (default: maps/<scenario>_place_<ID>)")
+    p.add_argument("--spacing", type=float, metavar="M",
+                   help="candidate spacing in metres (default: holding.spacing_m)")
+    p.add_argument("--in-combination", action="store_true", default=None,
+                   help="add the other sources' contribution at each site")
+    p.add_argument("--top", type=int, default=10, metavar="N",
+                   help="positions listed on the terminal and marked on the map (default 10)")
+    p.set_defaults(func=cmd_place)
     return parser
 
 

@@ -81,8 +81,17 @@ def check_output_dir(out_dir: Path, overwrite: bool) -> None:
         raise OutputExistsError(f"{out_dir}: exists and is not a folder")
 
 
-def _input_files(result) -> dict[str, Path]:
-    scenario = result.scenario
+def _layer_files(key: str, path: Path) -> dict[str, Path]:
+    """A vector layer's files: a shapefile is several (same stem), anything else one."""
+    if path.suffix.lower() == ".shp":
+        return {f"{key}{sidecar.suffix}": sidecar
+                for sidecar in sorted(path.parent.glob(path.stem + ".*"))}
+    return {key: path}
+
+
+def _input_files(scenario, holding: bool = False) -> dict[str, Path]:
+    """Every file a run reads, by a short key (scenario, weather, habitats, ...); the holding
+    layers only for a placement search (``holding``)."""
     files = {"scenario": scenario.path}
     if scenario.weather.hourly is not None:
         hourly = scenario.weather.hourly
@@ -90,19 +99,20 @@ def _input_files(result) -> dict[str, Path]:
             files["weather" if i == 1 else f"weather_{i}"] = path
     else:
         files["weather"] = scenario.weather.frequency_table
-    habitat = scenario.habitats.file
-    if habitat.suffix.lower() == ".shp":  # a shapefile is several files
-        for sidecar in sorted(habitat.parent.glob(habitat.stem + ".*")):
-            files[f"habitats{sidecar.suffix}"] = sidecar
-    else:
-        files["habitats"] = habitat
+    files.update(_layer_files("habitats", scenario.habitats.file))
     if scenario.receptors is not None:
         files["receptors"] = scenario.receptors.file
+    if holding and scenario.holding is not None:
+        files.update(_layer_files("holding", scenario.holding.file))
+        for i, ex in enumerate(scenario.holding.exclusion, start=1):
+            files.update(_layer_files(f"exclusion_{i}", ex.file))
     return files
 
 
-def run_record(result, run_time: str) -> dict:
-    """What run.json holds: inputs with SHA-256, parameters, versions, time, warnings."""
+def run_record_base(run, run_time: str, holding: bool = False) -> dict:
+    """The part of run.json every command shares: inputs and tables with SHA-256, parameters,
+    weather summary, cautions and versions. ``run`` has .scenario, .tables, .weather_summary,
+    .cautions (a ScreenResult or a screen.Prepared)."""
     import folium
     import geopandas
     import rasterio
@@ -111,29 +121,37 @@ def run_record(result, run_time: str) -> dict:
     from siting import __version__
 
     inputs = {key: {"path": str(path), "sha256": sha256_of(path)}
-              for key, path in _input_files(result).items() if path is not None}
-    tables = {name: {"path": str(result.tables.folder / name), "sha256": digest}
-              for name, digest in result.tables.files_sha256.items()}
+              for key, path in _input_files(run.scenario, holding).items() if path is not None}
+    tables = {name: {"path": str(run.tables.folder / name), "sha256": digest}
+              for name, digest in run.tables.files_sha256.items()}
     return {
         "tool": "siting",
         "version": __version__,
         "run_time_utc": run_time,
-        "title": result.scenario.title,
+        "title": run.scenario.title,
         "inputs": inputs,
         "config_tables": tables,
-        "parameters": json.loads(result.scenario.model_dump_json(by_alias=True)),
-        "grid": {"west_m": result.grid.west_m, "north_m": result.grid.north_m,
-                 "cell_m": result.grid.cell_m, "n_cols": result.grid.n_cols,
-                 "n_rows": result.grid.n_rows, "crs": result.grid.crs},
-        "weather_summary": result.weather_summary,
-        "timings_s": result.timings_s,
-        "warnings": result.warnings,
-        "cautions": result.cautions,
+        "parameters": json.loads(run.scenario.model_dump_json(by_alias=True)),
+        "weather_summary": run.weather_summary,
+        "cautions": list(run.cautions),
         "versions": {"python": platform.python_version(), "numpy": np.__version__,
                      "pandas": pd.__version__, "geopandas": geopandas.__version__,
                      "shapely": shapely.__version__, "rasterio": rasterio.__version__,
                      "folium": folium.__version__},
     }
+
+
+def run_record(result, run_time: str) -> dict:
+    """What a screening run's run.json holds: the shared part plus grid, timings, warnings."""
+    record = run_record_base(result, run_time)
+    record.update({
+        "grid": {"west_m": result.grid.west_m, "north_m": result.grid.north_m,
+                 "cell_m": result.grid.cell_m, "n_cols": result.grid.n_cols,
+                 "n_rows": result.grid.n_rows, "crs": result.grid.crs},
+        "timings_s": result.timings_s,
+        "warnings": result.warnings,
+    })
+    return record
 
 
 COORDINATE_COLUMNS = ("x", "y", "x_m", "y_m")

@@ -290,6 +290,10 @@ class Prepared:
     warnings: list[str]
 
     @property
+    def cautions(self) -> list[str]:
+        return list(CAUTIONS)
+
+    @property
     def default_deposition_velocity_m_s(self) -> float:
         land_cover = self.scenario.deposition.depletion_land_cover
         return self.tables.deposition_velocities[land_cover]["deposition_velocity_m_s"]
