@@ -190,12 +190,11 @@ def site_sample_points(geometries, source_x_m, source_y_m, spacing_m: float):
             np.asarray(ys, dtype=float), np.asarray(interior, dtype=bool))
 
 
-def site_outline_points(geometries, spacing_m: float):
-    """Receptor points on each site for positions not known in advance (placement search).
+def site_boundary_points(geometries, spacing_m: float):
+    """Points along every ring of each site, every ``spacing_m`` (at least 8 per ring).
 
-    The boundary sampled every ``spacing_m`` (at least 8 points per ring) plus the interior
-    lattice of :func:`site_sample_points`; a house anywhere outside the site has its nearest
-    boundary point within spacing_m / 2 of a sample. Returns (site_index, x_m, y_m).
+    Returns (site_index, x_m, y_m). Any point outside a site then has its nearest boundary
+    point within spacing_m / 2 of a sample, wherever the source is.
     """
     index, xs, ys = [], [], []
     for i, geom in enumerate(geometries):
@@ -206,8 +205,14 @@ def site_outline_points(geometries, spacing_m: float):
                                                                       endpoint=False))
                 coords = shapely.get_coordinates(pts)
                 index.extend([i] * len(coords)); xs.extend(coords[:, 0]); ys.extend(coords[:, 1])
+    return np.asarray(index, int), np.asarray(xs, float), np.asarray(ys, float)
+
+
+def site_outline_points(geometries, spacing_m: float):
+    """Receptor points on each site for positions not known in advance (placement search):
+    the boundary every ``spacing_m`` plus the interior lattice of :func:`site_sample_points`.
+    Returns (site_index, x_m, y_m)."""
+    b_index, bx, by = site_boundary_points(geometries, spacing_m)
     lattice_index, lx, ly, interior = site_sample_points(geometries, [], [], spacing_m)
-    keep = interior
-    return (np.concatenate([np.asarray(index, int), lattice_index[keep]]),
-            np.concatenate([np.asarray(xs, float), lx[keep]]),
-            np.concatenate([np.asarray(ys, float), ly[keep]]))
+    return (np.concatenate([b_index, lattice_index[interior]]),
+            np.concatenate([bx, lx[interior]]), np.concatenate([by, ly[interior]]))

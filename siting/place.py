@@ -35,7 +35,7 @@ from siting.placement import (
     site_maxima,
 )
 from siting.scenario import Scenario, load_scenario
-from siting.screen import Prepared, _source_elements, prepare
+from siting.screen import BOUNDARY_SPACING_M, Prepared, _source_elements, prepare
 
 MAX_CANDIDATES = 200_000
 
@@ -163,7 +163,7 @@ def place(scenario: Scenario | str | Path, house_id: str, *, spacing_m: float | 
 
     sites = prep.sites
     n_sites = len(sites)
-    p_site, px, py = site_outline_points(sites.geometry, min(spacing_m, 10.0))
+    p_site, px, py = site_outline_points(sites.geometry, min(spacing_m, BOUNDARY_SPACING_M))
     clock["inputs"] = time.perf_counter()
 
     # the house's unit field as a kernel of offsets, wide enough for every candidate-site pair

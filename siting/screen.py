@@ -24,7 +24,7 @@ from siting.constants import KEQ_PER_KG_N, UG_PER_G, deposition_kg_n_ha_yr, kg_n
 from siting.emissions import derive_emission
 from siting.errors import InputError
 from siting.grids import GridSpec, grid_around
-from siting.habitats import read_habitats, site_sample_points
+from siting.habitats import read_habitats, site_boundary_points, site_sample_points
 from siting.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
 from siting.longterm import (
     DispersionSettings,
@@ -38,6 +38,7 @@ from siting.weather import read_frequency_table
 
 MAX_GRID_CELLS = 2_000_000
 AREA_MAX_ELEMENTS = 100
+BOUNDARY_SPACING_M = 10.0  # site boundaries are sampled at least this densely
 
 CAUTIONS = [
     "Screening estimate from a simplified model: flat terrain, no building wake, long-term "
@@ -372,6 +373,11 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     s_index, s_x, s_y, s_interior = site_sample_points(
         sites.geometry.iloc[assessed_idx], [s.x for s in scenario.sources],
         [s.y for s in scenario.sources], scenario.grid.spacing_m)
+    b_index, b_x, b_y = site_boundary_points(sites.geometry.iloc[assessed_idx],
+                                             min(scenario.grid.spacing_m, BOUNDARY_SPACING_M))
+    s_index = np.concatenate([s_index, b_index])
+    s_x, s_y = np.concatenate([s_x, b_x]), np.concatenate([s_y, b_y])
+    s_interior = np.concatenate([s_interior, np.zeros(b_index.size, bool)])
     s_index = assessed_idx[s_index] if len(s_index) else s_index
 
     # every receptor in one flat array: grid cells, named points, site sample points
