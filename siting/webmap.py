@@ -42,7 +42,14 @@ if TYPE_CHECKING:  # imported for annotations only
     import folium
     import geopandas as gpd
 
-__all__ = ["ROLE_STYLES", "escape_text", "write_screen_map"]
+__all__ = [
+    "OVERLAY_CLASS",
+    "ROLE_STYLES",
+    "SITE_CLASS",
+    "SOURCE_CLASS",
+    "escape_text",
+    "write_screen_map",
+]
 
 #: Marker and outline style of each source role (our own palette).
 ROLE_STYLES: dict[str, dict[str, Any]] = {
@@ -54,6 +61,12 @@ ROLE_STYLES: dict[str, dict[str, Any]] = {
 
 #: Opacity of the deposition image overlay [0-1].
 _OVERLAY_OPACITY = 0.7
+
+#: CSS classes on the drawn features (SVG paths, the overlay <img>): stable hooks for the browser
+#: tests (tests/test_browser.py) and for anyone restyling the page; keep them when refactoring.
+SITE_CLASS = "siting-site"
+SOURCE_CLASS = "siting-source"
+OVERLAY_CLASS = "siting-deposition"
 
 _CONTOUR_COLOUR = "#111111"
 
@@ -421,6 +434,7 @@ def _add_sites(group: folium.FeatureGroup, sites_wgs84: gpd.GeoDataFrame) -> Non
             "fillColor": colour,
             "fillOpacity": 0.2,
             "dashArray": "6 4" if verdict not in ("below threshold", "above threshold") else None,
+            "className": SITE_CLASS,
         }
         layer = folium.GeoJson(
             data={"type": "Feature", "properties": {}, "geometry": geometry.__geo_interface__},
@@ -459,6 +473,8 @@ def _add_sources(group: folium.FeatureGroup, sources_wgs84: gpd.GeoDataFrame) ->
                 fill_opacity=0.95,
                 dash_array=style["dash_array"],
             )
+            # set directly: folium 0.15's path_options drops a class_name argument
+            marker.options["className"] = SOURCE_CLASS
         else:
             leaflet_style = {
                 "color": style["color"],
@@ -466,6 +482,7 @@ def _add_sources(group: folium.FeatureGroup, sources_wgs84: gpd.GeoDataFrame) ->
                 "fillColor": style["fill_color"],
                 "fillOpacity": 0.6,
                 "dashArray": style["dash_array"],
+                "className": SOURCE_CLASS,
             }
             marker = folium.GeoJson(
                 data={"type": "Feature", "properties": {}, "geometry": geometry.__geo_interface__},
@@ -581,6 +598,7 @@ def write_screen_map(
         control=True,
         show=True,
         pixelated=True,
+        class_name=OVERLAY_CLASS,
     ).add_to(fmap)
 
     if contours:

@@ -4,7 +4,6 @@ import json
 import shutil
 
 import numpy as np
-import pytest
 from numpy.testing import assert_allclose
 
 from siting.cli import main

@@ -1,0 +1,467 @@
+"""map.html in headless Chromium: offline, no errors, every feature drawn, user text inert.
+
+The other map tests read the HTML as text; these open it in a real browser (Debian's
+``chromium`` driven by Playwright, never a downloaded browser) with the network blocked: every
+request that is not ``file:`` or ``data:`` is aborted and recorded (the optional background's
+tiles are the only ones expected). The demo runs once (``demo_output`` in conftest.py) and a
+hostile copy of it, whose habitat names and designations are HTML and JavaScript, runs once
+here; its report.html is opened too. Features are found by the CSS classes webmap.py puts on
+them (``SITE_CLASS``, ``SOURCE_CLASS``, ``OVERLAY_CLASS``). The tests skip, with the reason,
+only when no Chromium is found (``SITING_CHROMIUM`` or ``chromium``/``chromium-browser`` on
+PATH); a missing Playwright is a failure, since ``pip install '.[test]'`` brings it.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import re
+import shutil
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pytest
+
+try:
+    from playwright.sync_api import TimeoutError as PlaywrightTimeoutError
+    from playwright.sync_api import sync_playwright
+except ImportError:  # reported by the `browser` fixture, so the module still collects
+    sync_playwright = None
+    PlaywrightTimeoutError = TimeoutError
+
+from siting.cli import main
+from siting.resources import demo_dir
+from siting.webmap import OVERLAY_CLASS, SITE_CLASS, SOURCE_CLASS
+
+pytestmark = pytest.mark.browser
+
+#: The optional OpenStreetMap background (webmap.py); its tiles are the only requests the
+#: page makes, and they are aborted here.
+TILE_URL = re.compile(r"^https://tile\.openstreetmap\.org/\d+/\d+/\d+\.png$")
+
+VIEWPORT = {"width": 1200, "height": 800}
+
+#: Flags for a quiet, sandbox-free (containers, CI) headless Chromium that phones nobody.
+CHROMIUM_ARGS = [
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+    "--disable-dev-shm-usage",
+    # second lock on the door: no host name resolves, should a request slip past the route
+    "--host-resolver-rules=MAP * ~NOTFOUND",
+]
+
+PWNED = "window.__pwned=1"
+#: Hostile site names, one per demo site; each would set window.__pwned, throw or open a dialog
+#: if it reached the page as markup or as JavaScript template-literal syntax.
+HOSTILE_NAMES = [
+    f"<script>{PWNED}</script>",
+    f'<img src=x onerror="{PWNED}">',
+    "a`b",
+    "${" + PWNED + "}",
+]
+#: Hostile designations (unknown ones: the strictest tier, with a warning); None keeps the demo's.
+HOSTILE_DESIGNATIONS = [
+    f"</div><script>{PWNED}</script>",
+    "<img src=x onerror=alert(1)>",
+    None,
+    "${alert(1)}",
+]
+HOSTILE_TITLE = f"<script>{PWNED}</script> Farm `${{alert(1)}}`"
+
+
+@dataclass
+class Visit:
+    """A page opened with the network blocked, and what it did."""
+
+    page: object
+    aborted: list = field(default_factory=list)  # (url, resource type) of blocked requests
+    requests: list = field(default_factory=list)  # every URL the page asked for
+    console_errors: list = field(default_factory=list)  # (text, url of the message's source)
+    page_errors: list = field(default_factory=list)  # uncaught exceptions
+    dialogs: list = field(default_factory=list)  # alert/confirm/prompt messages
+
+    def unexpected_console_errors(self) -> list:
+        """Console errors other than the failed loads of blocked tiles.
+
+        Chromium logs "Failed to load resource: net::ERR_FAILED" for each aborted tile image,
+        with the tile's URL as the message's source; those are the expected cost of the blocked
+        network and are the only ones left out.
+        """
+        return [(text, url) for text, url in self.console_errors if not TILE_URL.match(url)]
+
+
+@pytest.fixture(scope="module")
+def browser(chromium_executable):
+    """Headless Chromium started once for the module through Playwright."""
+    if sync_playwright is None:
+        pytest.fail("playwright is not installed; pip install -e '.[test]' brings it")
+    with sync_playwright() as playwright:
+        chromium = playwright.chromium.launch(
+            executable_path=str(chromium_executable), headless=True, args=CHROMIUM_ARGS
+        )
+        yield chromium
+        chromium.close()
+
+
+@pytest.fixture
+def open_offline(browser):
+    """A function that opens a file in a fresh page with the network blocked; pages close after."""
+    contexts = []
+
+    def _open(path: Path, overlay: bool = True) -> Visit:
+        context = browser.new_context(viewport=VIEWPORT, service_workers="block")
+        contexts.append(context)
+        page = context.new_page()
+        visit = Visit(page)
+
+        def route(route):
+            url = route.request.url
+            if url.startswith(("file:", "data:")):
+                route.continue_()
+            else:
+                visit.aborted.append((url, route.request.resource_type))
+                route.abort()
+
+        context.route("**/*", route)
+        page.on("request", lambda request: visit.requests.append(request.url))
+        page.on(
+            "console",
+            lambda message: (
+                message.type == "error"
+                and visit.console_errors.append((message.text, message.location.get("url", "")))
+            ),
+        )
+        page.on("pageerror", lambda error: visit.page_errors.append(str(error)))
+
+        def on_dialog(dialog):
+            visit.dialogs.append(dialog.message)
+            dialog.dismiss()
+
+        page.on("dialog", on_dialog)
+        page.goto(Path(path).resolve().as_uri(), wait_until="load")
+        if not overlay:  # a page without a map
+            return visit
+        # the overlay is a data: PNG, decoded after "load" in some builds: wait until it is
+        try:
+            page.wait_for_function(
+                "cls => { const i = document.querySelector('img.' + cls);"
+                " return i !== null && i.complete && i.naturalWidth > 0; }",
+                arg=OVERLAY_CLASS,
+                timeout=10_000,
+            )
+            loaded = True
+        except PlaywrightTimeoutError:
+            loaded = False
+        if not loaded:  # outside the except: the report shows our message, not the timeout's
+            pytest.fail(
+                f"{path}: the deposition overlay never loaded; page errors {visit.page_errors}, "
+                f"console errors {visit.unexpected_console_errors()}"
+            )
+        return visit
+
+    yield _open
+    for context in contexts:
+        context.close()
+
+
+def _rows(path: Path) -> int:
+    """Number of data rows of a CSV file."""
+    with open(path, newline="", encoding="utf-8") as handle:
+        return sum(1 for _ in csv.DictReader(handle))
+
+
+def _assert_clean(visit: Visit) -> None:
+    """No uncaught error, no console error but blocked tiles, no dialog, nothing but tiles asked."""
+    assert visit.page_errors == []
+    assert visit.unexpected_console_errors() == []
+    assert visit.dialogs == []
+    not_tiles = [(url, kind) for url, kind in visit.aborted if not TILE_URL.match(url)]
+    assert not_tiles == []  # no script, style sheet, font or data fetched from the network
+    assert all(kind == "image" for _url, kind in visit.aborted)
+    files = {url for url in visit.requests if url.startswith("file:")}
+    assert files == {visit.page.url}  # only the page itself: nothing loads a file beside it
+
+
+def test_demo_map_opens_offline_without_errors(open_offline, demo_output):
+    """The demo map loads with the network blocked: no errors, only tile requests aborted."""
+    visit = open_offline(demo_output / "map.html")
+    _assert_clean(visit)
+    assert visit.aborted  # the background was asked for and refused: the block was exercised
+    assert visit.page.evaluate("typeof L") == "object"  # inlined Leaflet ran
+    assert visit.page.locator(".leaflet-control-layers").count() == 1
+    assert visit.page.locator(".siting-legend").is_visible()
+
+
+def test_demo_map_draws_every_site_source_and_the_overlay(open_offline, demo_output):
+    """One visible SVG path per row of sites.csv and sources.csv; the overlay is a loaded PNG."""
+    page = open_offline(demo_output / "map.html").page
+    for cls, table in ((SITE_CLASS, "sites.csv"), (SOURCE_CLASS, "sources.csv")):
+        paths = page.locator(f"path.{cls}")
+        assert paths.count() == _rows(demo_output / table) > 0, cls  # demo: 4 sites, 6 sources
+        for i in range(paths.count()):
+            assert paths.nth(i).get_attribute("d"), (cls, i)  # Leaflet drew an outline
+            box = paths.nth(i).bounding_box()
+            assert box is not None and box["width"] > 0 and box["height"] > 0, (cls, i)
+    overlay = page.locator(f"img.{OVERLAY_CLASS}")
+    assert overlay.count() == 1
+    assert overlay.get_attribute("src").startswith("data:image/png;base64,")
+    width, height = overlay.evaluate("i => [i.naturalWidth, i.naturalHeight]")
+    assert width > 0 and height > 0
+    box = overlay.bounding_box()
+    assert box["width"] > 100 and box["height"] > 100  # fitted to the grid: most of the view
+
+
+def _overlay_region(page) -> tuple[int, int, int, int]:
+    """The overlay's bounding box clipped to the viewport, as (left, top, right, bottom) px."""
+    box = page.locator(f"img.{OVERLAY_CLASS}").bounding_box()
+    left, top = max(0, int(np.ceil(box["x"]))), max(0, int(np.ceil(box["y"])))
+    right = min(VIEWPORT["width"], int(box["x"] + box["width"]))
+    bottom = min(VIEWPORT["height"], int(box["y"] + box["height"]))
+    assert right - left > 100 and bottom - top > 100
+    return left, top, right, bottom
+
+
+def _pixels(page, region) -> np.ndarray:
+    """RGB pixels [0-255] of the region of a viewport screenshot, shape (rows, cols, 3)."""
+    from PIL import Image
+
+    png = page.screenshot(animations="disabled")
+    image = np.asarray(Image.open(io.BytesIO(png)).convert("RGB"), dtype=float)
+    assert image.shape[:2] == (VIEWPORT["height"], VIEWPORT["width"])  # CSS px = device px
+    left, top, right, bottom = region
+    return image[top:bottom, left:right]
+
+
+def _main_colours(pixels: np.ndarray, tolerance: int, min_share: float) -> list:
+    """Colours covering at least min_share of the pixels, shades within tolerance merged.
+
+    Chromium's compositing can put one flat colour on screen as two shades one unit apart, so
+    shades whose channels all differ by at most `tolerance` (0-255) count as one colour.
+    """
+    colours, counts = np.unique(pixels.reshape(-1, 3).astype(int), axis=0, return_counts=True)
+    kept, totals = [], []
+    for i in counts.argsort()[::-1]:  # most common first: each shade joins its main colour
+        near = [
+            k for k, colour in enumerate(kept) if np.abs(colour - colours[i]).max() <= tolerance
+        ]
+        if near:
+            totals[near[0]] += counts[i]
+        else:
+            kept.append(colours[i])
+            totals.append(counts[i])
+    share = np.array(totals) / counts.sum()
+    return [tuple(colour) for colour, s in zip(kept, share) if s >= min_share]
+
+
+def _overlay_statistics(shown: np.ndarray, hidden: np.ndarray) -> dict:
+    """Pixel statistics of the overlay's box, with the overlay shown and switched off."""
+    difference = np.abs(shown - hidden)
+    changed = difference.max(axis=2) > 8  # 8 of 255: above compositing noise (1-2 units)
+    return {
+        "changed_fraction": changed.mean(),
+        "mean_difference": difference.mean(),
+        # spread of the overlay's own pixels: standard deviation per channel, averaged
+        "std_overlay": shown[changed].std(axis=0).mean() if changed.any() else 0.0,
+        "std_hidden": hidden.std(axis=(0, 1)).mean(),
+        "main_colours": _main_colours(shown[changed], tolerance=6, min_share=0.005),
+    }
+
+
+def _show_boxes(page, show: bool) -> None:
+    """Show or hide the title, legend, north arrow and Leaflet controls (a style rule)."""
+    page.evaluate(
+        """show => {
+            let rule = document.getElementById('test-hide-boxes');
+            if (!rule) {
+                rule = document.createElement('style');
+                rule.id = 'test-hide-boxes';
+                rule.textContent = '.siting-box, .leaflet-control-container { display: none; }';
+                document.head.appendChild(rule);
+            }
+            rule.disabled = show;
+        }""",
+        show,
+    )
+
+
+def _pixels_with_and_without_overlay(page) -> tuple[np.ndarray, np.ndarray]:
+    """The overlay's box on screen, shown and then switched off in the layer control.
+
+    Contours, sites and sources are switched off first and the title, legend and controls
+    hidden, in both shots: they sit on top of the overlay and would add colours of their own.
+    """
+    for layer in ("Contours", "Habitat sites", "Sources"):
+        page.get_by_label(layer).uncheck()  # the layer control, as a user would
+    region = _overlay_region(page)
+    _show_boxes(page, False)
+    shown = _pixels(page, region)
+    _show_boxes(page, True)
+    page.get_by_label("Deposition, PC (kg N/ha/yr)").uncheck()
+    assert page.locator(f"img.{OVERLAY_CLASS}").count() == 0  # Leaflet took the layer off
+    _show_boxes(page, False)
+    hidden = _pixels(page, region)
+    return shown, hidden
+
+
+def test_overlay_colours_the_map_in_several_classes(open_offline, demo_output):
+    """A screenshot shows the overlay in several colours that vanish with the layer switched off."""
+    page = open_offline(demo_output / "map.html").page
+    stats = _overlay_statistics(*_pixels_with_and_without_overlay(page))
+    # Regression, measured on the demo when written (Chromium 156, 1200 x 800): changed
+    # fraction 0.94, mean difference 111, overlay std 17.3, 5 main colours, background std 0.
+    # Controls made by patching webmap by hand: every class painted one colour gives 0.94, 83,
+    # 0.3 and 1; an all-NaN grid (transparent PNG) gives 0, 0, 0 and 0. Thresholds sit between.
+    # Switched off, the blocked tiles leave Leaflet's flat grey: the box is one colour.
+    assert stats["std_hidden"] < 1.0, stats  # 1 of 255: screenshot noise only
+    # The coloured classes cover most of the grid's box (the lowest runs to the grid edge); a
+    # quarter leaves room for other class edges and still fails a blank or sparse overlay.
+    assert stats["changed_fraction"] > 0.25, stats
+    # Mean absolute difference over the box per channel (0-255): far above noise (0), far
+    # below what a 0.7-opaque colour ramp over grey gives (~100).
+    assert stats["mean_difference"] > 20.0, stats
+    # Several classes, not one flat tint: at least 4 colours on >= 0.5 % each of the overlay's
+    # pixels (the demo: its 5 widest of 7 classes; the top two are a few pixels; one colour 1).
+    assert len(stats["main_colours"]) >= 4, stats
+    # and they spread: 5 of 255 is far above one flat colour's 0.3, well below the demo's 17.
+    assert stats["std_overlay"] > 5.0, stats
+
+
+@pytest.fixture(scope="module")
+def hostile_output(tmp_path_factory) -> Path:
+    """The demo with hostile habitat names, designations and title, screened once (100 m grid)."""
+    folder = tmp_path_factory.mktemp("hostile")
+    scenario_dir = folder / "scenario"
+    shutil.copytree(demo_dir(), scenario_dir)
+    habitats = gpd.read_file(scenario_dir / "habitats.gpkg", layer="habitats")
+    assert len(habitats) == len(HOSTILE_NAMES)  # the demo's four sites
+    habitats["name"] = HOSTILE_NAMES
+    for i, designation in enumerate(HOSTILE_DESIGNATIONS):
+        if designation is not None:
+            habitats.loc[i, "designation"] = designation
+    (scenario_dir / "habitats.gpkg").unlink()
+    habitats.to_file(scenario_dir / "habitats.gpkg", layer="habitats", driver="GPKG")
+
+    toml = scenario_dir / "scenario.toml"
+    text = toml.read_text(encoding="utf-8")
+    # a coarser grid keeps the run to seconds; the map's features are the same
+    faster = re.sub(r"(?m)^spacing_m = 25\.0", "spacing_m = 100.0", text)
+    hostile = re.sub(r'(?m)^title = ".*"$', f"title = '{HOSTILE_TITLE}'", faster)
+    assert hostile.count("spacing_m = 100.0") == 1 and HOSTILE_TITLE in hostile
+    toml.write_text(hostile, encoding="utf-8")
+
+    out = folder / "out"
+    assert main(["screen", str(toml), "--out", str(out), "--quiet"]) == 0
+    return out
+
+
+_INTERIOR_POINT = """
+([cls, index]) => {
+    // A viewport point where the index-th path of the class is the topmost element, so a real
+    // mouse event lands on it (title, legend or a contour may cover part of a site).
+    const path = document.querySelectorAll('path.' + cls)[index];
+    const box = path.getBoundingClientRect();
+    for (let step = 8; step >= 1; step /= 2) {
+        for (let y = box.top + step / 2; y < box.bottom; y += step) {
+            for (let x = box.left + step / 2; x < box.right; x += step) {
+                if (document.elementFromPoint(x, y) === path) return [x, y];
+            }
+        }
+    }
+    return null;
+}
+"""
+
+#: The page's L.map object (folium names it map_<hex>).
+_MAP = "window[Object.keys(window).find(k => /^map_[0-9a-f]+$/.test(k))]"
+
+_OPEN_EVERY_POPUP_AND_TOOLTIP = f"""
+() => {{
+    // Open the popup and the tooltip of every layer in turn through Leaflet's own API and
+    // read what the page shows: the text a user would see.
+    const map = {_MAP};
+    const popups = [], tooltips = [];
+    map.eachLayer(layer => {{
+        if (layer.getPopup && layer.getPopup()) {{
+            layer.openPopup();
+            // this popup's own element: a closed one may still be fading out in the pane
+            popups.push(layer.getPopup().getElement().innerText);
+            map.closePopup();
+        }}
+        if (layer.getTooltip && layer.getTooltip()) {{
+            layer.openTooltip();
+            tooltips.push(layer.getTooltip().getElement().innerText);
+            layer.closeTooltip();
+        }}
+    }});
+    return [popups, tooltips];
+}}
+"""
+
+
+def test_hostile_habitat_text_shows_as_text_and_runs_nothing(open_offline, hostile_output):
+    """Names and designations made of HTML and JavaScript show literally and execute nothing."""
+    visit = open_offline(hostile_output / "map.html")
+    page = visit.page
+    sites = page.locator(f"path.{SITE_CLASS}")
+    assert sites.count() == len(HOSTILE_NAMES)
+
+    # As a user: hover each site for its tooltip, click it for its popup. A closed popup or
+    # tooltip fades out for 200 ms before Leaflet removes it, so wait for both panes to empty.
+    hovered, clicked = [], []
+    for i in range(sites.count()):
+        page.evaluate(f"() => {_MAP}.closePopup()")
+        page.mouse.move(1, VIEWPORT["height"] - 1)  # off every site: a tooltip closes
+        page.wait_for_function(
+            "() => !document.querySelector('.leaflet-popup, .leaflet-tooltip')", timeout=5_000
+        )
+        point = page.evaluate(_INTERIOR_POINT, [SITE_CLASS, i])
+        assert point is not None, f"site path {i} is covered everywhere"
+        page.mouse.move(*point)
+        tooltip = page.locator(".leaflet-tooltip")
+        tooltip.wait_for(state="visible", timeout=5_000)
+        hovered.append(tooltip.inner_text())
+        page.mouse.click(*point)
+        popup = page.locator(".leaflet-popup-content")
+        popup.wait_for(state="visible", timeout=5_000)
+        clicked.append(popup.inner_text())
+    assert len(set(clicked)) == len(HOSTILE_NAMES)  # four different popups
+
+    # Through Leaflet: every popup and tooltip on the map, sources and contours included.
+    popups, tooltips = page.evaluate(_OPEN_EVERY_POPUP_AND_TOOLTIP)
+    assert len(popups) >= len(HOSTILE_NAMES) + _rows(hostile_output / "sources.csv")
+
+    assert page.evaluate("typeof window.__pwned") == "undefined"
+    _assert_clean(visit)  # no dialog, no error, and the <img src=x> never fetched x
+    markup = page.locator(
+        ".leaflet-popup-pane script, .leaflet-popup-pane img, "
+        ".leaflet-tooltip-pane script, .leaflet-tooltip-pane img"
+    )
+    assert markup.count() == 0
+    for name in HOSTILE_NAMES:
+        assert any(name in text for text in hovered), name  # literal, as typed
+        assert any(name in text for text in clicked), name
+        assert any(name in text for text in popups), name
+        assert any(name in text for text in tooltips), name
+    for designation in filter(None, HOSTILE_DESIGNATIONS):
+        assert any(designation in text for text in clicked), designation
+    assert page.title().startswith(HOSTILE_TITLE)
+    assert HOSTILE_TITLE in page.locator(".siting-title h1").inner_text()
+
+
+def test_hostile_habitat_text_in_the_report_runs_nothing(open_offline, hostile_output):
+    """report.html of the hostile run shows the names and title as text and executes nothing."""
+    visit = open_offline(hostile_output / "report.html", overlay=False)
+    page = visit.page
+    assert page.evaluate("typeof window.__pwned") == "undefined"
+    _assert_clean(visit)
+    assert visit.aborted == []  # the report asks the network for nothing, not even tiles
+    text = page.inner_text("body")
+    for name in HOSTILE_NAMES:
+        assert name in text, name
+    assert HOSTILE_TITLE in text
