@@ -181,7 +181,8 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
                         f"searched)", title_justify="left")
     for col in ("rank", "x", "y", "limiting site", "worst % load", "worst % level",
                 "share of threshold", "reduction needed %", "max places unabated"):
-        table.add_column(col, justify="left" if col == "limiting site" else "right")
+        table.add_column(col, justify="left" if col == "limiting site" else "right",
+                         no_wrap=col == "limiting site")
     for row in result.positions.head(top).itertuples():
         places = getattr(row, "max_places_unabated", float("nan"))
         table.add_row(str(row.Index + 1), f"{row.x:.0f}", f"{row.y:.0f}", str(row.limiting_site),

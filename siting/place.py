@@ -49,6 +49,7 @@ class PlaceResult:
     positions: pd.DataFrame
     grid: GridSpec
     suitability_pct_load: np.ndarray
+    share_of_threshold: np.ndarray  # same grid: worst share of a site's threshold
     allowed_area: object  # shapely geometry
     holding: object  # shapely geometry
     options: list[dict]
@@ -232,11 +233,13 @@ def place(scenario: Scenario | str | Path, house_id: str, *, spacing_m: float | 
     by_site = {"pct_level": pct_level[order], "pct_load": pct_load[order]}
     surface = np.full((grid.n_rows, grid.n_cols), np.nan)
     surface[row, col] = pct_load.max(axis=1)
+    share_surface = np.full((grid.n_rows, grid.n_cols), np.nan)
+    share_surface[row, col] = share.max(axis=1)
     clock["assessment"] = time.perf_counter()
     timings = {"inputs_s": clock["inputs"] - clock["start"],
                "kernel_s": clock["kernel"] - clock["inputs"],
                "assessment_s": clock["assessment"] - clock["kernel"],
                "positions": int(cx.size), "site_points": int(px.size),
                "kernel_points": int(ox.size)}
-    return PlaceResult(prep, house_id, table, grid, surface, allowed, holding, options,
-                       by_site, warnings, timings)
+    return PlaceResult(prep, house_id, table, grid, surface, share_surface, allowed, holding,
+                       options, by_site, warnings, timings)

@@ -54,7 +54,7 @@ def write_place_outputs(result, out_dir: Path, overwrite: bool = False,
         write_place_map(
             staging / "map.html", title=f"{scenario.title}: where could {result.house_id} go?",
             crs=scenario.crs, west_m=result.grid.west_m, north_m=result.grid.north_m,
-            cell_m=result.grid.cell_m, suitability_pct_load=result.suitability_pct_load,
+            cell_m=result.grid.cell_m, share_of_threshold=result.share_of_threshold,
             allowed_area=gpd.GeoDataFrame(geometry=[result.allowed_area], crs=scenario.crs),
             holding=gpd.GeoDataFrame(geometry=[result.holding], crs=scenario.crs),
             positions=gpd.GeoDataFrame(best.copy(), geometry=shapely.points(best["x"], best["y"]),

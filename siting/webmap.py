@@ -48,6 +48,7 @@ __all__ = [
     "SITE_CLASS",
     "SOURCE_CLASS",
     "escape_text",
+    "write_place_map",
     "write_screen_map",
 ]
 
@@ -360,22 +361,30 @@ def _legend_html(
     colours: list[str],
     contours: Sequence[tuple[float, str]],
     roles_present: Sequence[str],
+    heading: str = "Deposition (PC), kg N/ha/yr",
+    unit: str = "kg N/ha/yr",
+    extra_rows: Sequence[str] = (),
+    verdicts: bool = True,
 ) -> str:
-    """Legend box: deposition classes (kg N/ha/yr), verdicts, source roles, contours."""
-    parts = ['<div class="siting-box siting-legend">', "<h2>Deposition (PC), kg N/ha/yr</h2>"]
+    """Legend box: surface classes (in ``unit``), verdicts, source roles, contours, and
+    ``extra_rows`` (ready-made HTML rows, e.g. the grid edge)."""
+    parts = ['<div class="siting-box siting-legend">', f"<h2>{escape_text(heading)}</h2>"]
     for i in range(len(colours) - 1, -1, -1):  # high classes on top
         low, high = format_number(edges[i]), format_number(edges[i + 1])
         label = f"{low} – {high}" if i < len(colours) - 1 else f"≥ {low}"
         parts.append(
             f'<div class="row"><span class="swatch" style="background:{colours[i]};'
-            f'opacity:{_OVERLAY_OPACITY}"></span>{escape_text(label)} kg N/ha/yr</div>'
+            f'opacity:{_OVERLAY_OPACITY}"></span>{escape_text(label)} {escape_text(unit)}</div>'
         )
-    parts.append(
-        f'<div class="note">below {escape_text(format_number(edges[0]))} kg N/ha/yr: '
-        "not coloured</div>"
-    )
-    parts.append("<h2>Habitat sites, verdict</h2>")
-    for verdict, colour in VERDICT_COLOURS.items():
+    if edges[0] > 0:
+        parts.append(
+            f'<div class="note">below {escape_text(format_number(edges[0]))} '
+            f"{escape_text(unit)}: not coloured</div>"
+        )
+    parts.extend(extra_rows)
+    for verdict, colour in (VERDICT_COLOURS.items() if verdicts else ()):
+        if verdict == next(iter(VERDICT_COLOURS)):
+            parts.append("<h2>Habitat sites, verdict</h2>")
         dash = "dashed" if verdict == "not assessed" else "solid"
         parts.append(
             f'<div class="row"><span class="swatch" style="background:{colour}33;'
@@ -619,6 +628,9 @@ def write_screen_map(
                 ).add_to(contour_group)
         contour_group.add_to(fmap)
 
+    _add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape,
+                        "Edge of the computed grid: nothing was computed outside it")
+
     site_group = folium.FeatureGroup(name=escape_text("Habitat sites"), overlay=True)
     _add_sites(site_group, sites_wgs84)
     site_group.add_to(fmap)
@@ -632,9 +644,148 @@ def write_screen_map(
         seen = {str(r).strip().lower() for r in sources_wgs84["role"] if not is_missing(r)}
         roles = [r for r in ROLE_STYLES if r in seen] + sorted(seen - set(ROLE_STYLES))
     root.html.add_child(folium.Element(_title_html(title, run_time, version, cautions)))
-    root.html.add_child(folium.Element(_legend_html(edges, colours, contours, roles)))
+    root.html.add_child(folium.Element(_legend_html(edges, colours, contours, roles,
+                                                    extra_rows=[_extent_legend_row()])))
     root.html.add_child(folium.Element(_NORTH_ARROW))
 
+    folium.LayerControl(collapsed=False).add_to(fmap)
+    fmap.fit_bounds(bounds)
+    page = inline_assets(fmap.get_root().render())
+    Path(path).write_bytes(page.encode("utf-8"))
+
+
+_EXTENT_COLOUR = "#555555"
+def _extent_legend_row(label: str = "edge of the computed grid") -> str:
+    return ('<div class="row"><span class="line" style="border-top:2px dotted #555555"></span>'
+            f"{escape_text(label)}</div>")
+
+
+def _add_extent_outline(fmap, projected, west_m: float, north_m: float, cell_m: float,
+                        shape: tuple[int, int], tooltip: str) -> None:
+    """A dotted outline of the grid, so its edge is not read as the edge of the plume."""
+    import folium
+    from pyproj import Transformer
+
+    n_rows, n_cols = shape
+    east_m, south_m = west_m + n_cols * cell_m, north_m - n_rows * cell_m
+    xs = np.array([west_m, east_m, east_m, west_m, west_m])
+    ys = np.array([north_m, north_m, south_m, south_m, north_m])
+    # densify so the outline follows the projection's curvature
+    t = np.linspace(0.0, 1.0, 25)[:-1]
+    dx = np.concatenate([xs[i] + (xs[i + 1] - xs[i]) * t for i in range(4)] + [xs[-1:]])
+    dy = np.concatenate([ys[i] + (ys[i + 1] - ys[i]) * t for i in range(4)] + [ys[-1:]])
+    lon, lat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True).transform(dx, dy)
+    folium.PolyLine(locations=np.column_stack([lat, lon]).tolist(), color=_EXTENT_COLOUR,
+                    weight=2, opacity=0.8, dash_array="2 5",
+                    tooltip=folium.Tooltip(escape_text(tooltip))).add_to(fmap)
+
+
+#: Classes of the placement surface: the worst share of a site's screening threshold
+#: (1 = exactly at it); four passing classes, four failing ones. Our own choice.
+SHARE_CLASS_EDGES = np.array([0.0, 0.25, 0.5, 0.75, 1.0, 1.5, 2.0, 5.0, 10.0])
+
+
+def _share_colours() -> list[str]:
+    """Diverging colours: blue-greens for passing classes, browns for failing ones."""
+    from matplotlib import colormaps
+    from matplotlib.colors import to_hex
+
+    cmap = colormaps["BrBG_r"]
+    return [to_hex(cmap(v)) for v in (0.08, 0.2, 0.32, 0.44, 0.6, 0.72, 0.84, 0.96)]
+
+
+def write_place_map(path: Path, *, title: str, crs: str, west_m: float, north_m: float,
+                    cell_m: float, share_of_threshold: np.ndarray, allowed_area, holding,
+                    positions, sites, cautions: list[str], version: str, run_time: str) -> None:
+    """Write the placement map: where on the holding the house does least harm.
+
+    Parameters
+    ----------
+    share_of_threshold : ndarray (n_rows, n_cols)
+        With the house at each cell centre, the largest share of a site's screening threshold
+        over all sites (1 = exactly at the threshold; below 1 passes); NaN where the house may
+        not go. Row 0 is the north edge of the grid (west_m, north_m, cell_m in ``crs``).
+    allowed_area, holding : GeoDataFrame
+        The allowed area and the holding boundary (polygons).
+    positions : GeoDataFrame
+        The best positions (points) with the columns of positions.csv, best first.
+    sites : GeoDataFrame
+        Habitat sites, as for :func:`write_screen_map` (figures are of the screening run, not
+        of the positions, so only name, designation, habitat are shown).
+
+    Other parameters as for :func:`write_screen_map`. User text is escaped throughout.
+    """
+    import folium
+
+    grid, projected = _check_grid(share_of_threshold, cell_m, crs)
+    edges, colours = SHARE_CLASS_EDGES, _share_colours()
+    data_url, bounds = _overlay(grid, projected, west_m, north_m, cell_m, edges, colours)
+    fmap = folium.Map(location=[(bounds[0][0] + bounds[1][0]) / 2,
+                                (bounds[0][1] + bounds[1][1]) / 2],
+                      zoom_start=15, tiles=None, control_scale=True)
+    root = fmap.get_root()
+    root.header.add_child(folium.Element(f"<title>{escape_text(title)} · siting map</title>"))
+    root.header.add_child(folium.Element(_MAP_CSS))
+    folium.TileLayer("OpenStreetMap", name=escape_text("OpenStreetMap background (needs internet)"),
+                     overlay=False, control=True, show=True).add_to(fmap)
+    folium.raster_layers.ImageOverlay(
+        image=data_url, bounds=bounds,
+        name=escape_text("Worst share of a threshold, by house position"),
+        opacity=_OVERLAY_OPACITY, interactive=False, overlay=True, control=True, show=True,
+        pixelated=True, class_name=OVERLAY_CLASS).add_to(fmap)
+    area_group = folium.FeatureGroup(name=escape_text("Holding and allowed area"), overlay=True)
+    for frame, colour, dash, label in ((holding, "#3b3b3b", "6 4", "holding boundary"),
+                                       (allowed_area, "#1b7f3b", None, "allowed area")):
+        for geom in _with_crs(frame, projected).geometry:
+            folium.GeoJson(geom.__geo_interface__,
+                           style_function=lambda _f, c=colour, d=dash: {
+                               "color": c, "weight": 2, "fill": False, "dashArray": d},
+                           tooltip=folium.Tooltip(escape_text(label))).add_to(area_group)
+    area_group.add_to(fmap)
+    site_group = folium.FeatureGroup(name=escape_text("Habitat sites"), overlay=True)
+    for row in _with_crs(sites, projected).itertuples():
+        text = (f"<b>{escape_text(row.name)}</b><br>{escape_text(row.designation)}<br>"
+                f"{escape_text(getattr(row, 'habitat_name', row.habitat))}")
+        folium.GeoJson(row.geometry.__geo_interface__,
+                       style_function=lambda _f: {"color": "#6a3d9a", "weight": 2,
+                                                  "fillOpacity": 0.15, "className": SITE_CLASS},
+                       tooltip=folium.Tooltip(escape_text(row.name)),
+                       popup=folium.Popup(text, max_width=300)).add_to(site_group)
+    site_group.add_to(fmap)
+    best_group = folium.FeatureGroup(name=escape_text("Best positions"), overlay=True)
+    for row in _with_crs(positions, projected).reset_index(drop=True).itertuples():
+        lines = [f"<b>Rank {row.Index + 1}</b>",
+                 f"x {row.x:.0f}, y {row.y:.0f}",
+                 f"limiting site: {escape_text(row.limiting_site)} "
+                 f"({row.limiting_share_of_threshold:.2f} of its threshold)",
+                 f"worst % of critical load: {format_number(row.worst_pct_load)} "
+                 f"({escape_text(row.worst_site)})",
+                 f"worst % of critical level: {format_number(row.worst_pct_level)}",
+                 f"reduction needed: {row.required_reduction_percent:.0f} %"]
+        places = getattr(row, "max_places_unabated", None)
+        if places is not None and not is_missing(places):
+            lines.append(f"most places unabated: {places:.0f}")
+        folium.CircleMarker(location=[row.geometry.y, row.geometry.x], radius=8,
+                            color="#111111", weight=2, fill=True, fill_color="#ffffff",
+                            fill_opacity=1.0,
+                            tooltip=folium.Tooltip(f"rank {row.Index + 1}"),
+                            popup=folium.Popup("<br>".join(lines), max_width=320)
+                            ).add_to(best_group)
+    best_group.add_to(fmap)
+    _add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape,
+                        "Edge of the searched area")
+    root.html.add_child(folium.Element(_title_html(title, run_time, version, cautions)))
+    best_row = ('<div class="row"><span class="dot" style="background:#ffffff;'
+                'border:2px solid #111111"></span>best positions (rank in popup)</div>')
+    note = ('<div class="note">House placed at a coloured cell: its process contribution at '
+            "the worst-hit site, as a share of that site's screening threshold. Below 1 it "
+            "passes every site; above 1 it needs abatement or fewer places (see positions.csv)."
+            "</div>")
+    root.html.add_child(folium.Element(_legend_html(
+        edges, colours, [], [], heading="Worst share of a site's threshold (1 = at it)",
+        unit="", extra_rows=[note, best_row, _extent_legend_row("edge of the searched area")],
+        verdicts=False)))
+    root.html.add_child(folium.Element(_NORTH_ARROW))
     folium.LayerControl(collapsed=False).add_to(fmap)
     fmap.fit_bounds(bounds)
     page = inline_assets(fmap.get_root().render())

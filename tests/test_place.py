@@ -113,3 +113,42 @@ def test_bad_holdings_are_refused(tmp_path):
     scenario.write_text(text)
     with pytest.raises(InputError, match='"H9": no such source'):
         place(scenario, "H9")
+
+
+def test_place_command_writes_its_outputs(tmp_path):
+    """`siting place`: positions.csv in the documented column order, GeoTIFF, map, run.json."""
+    import json
+
+    import pandas as pd
+    import rasterio
+
+    from siting.cli import main
+
+    out = tmp_path / "out"
+    rc = main(["place", str(demo_dir() / "scenario.toml"), "--house", "H2", "--out", str(out),
+               "--spacing", "25", "--quiet"])
+    assert rc == 0
+    table = pd.read_csv(out / "positions.csv")
+    assert list(table.columns[:7]) == ["x", "y", "worst_site", "worst_pct_load",
+                                       "worst_pct_level", "required_reduction_percent",
+                                       "max_places_unabated"]
+    assert "max_places_acid_scrubber" in table.columns
+    assert table["limiting_share_of_threshold"].is_monotonic_increasing  # ranked best first
+    with rasterio.open(out / "suitability.tif") as src:
+        assert src.crs.to_epsg() == 32632 and src.res == (25.0, 25.0)
+        assert src.tags(1)["units"] == "% of critical load"
+        data = src.read(1, masked=True)
+        assert data.count() == len(table)  # one valid cell per position, nodata elsewhere
+    record = json.loads((out / "run.json").read_text())
+    assert "holding" in record["inputs"] and record["house"] == "H2"
+    assert "Best positions" in (out / "map.html").read_text()
+
+
+def test_place_command_bad_house_writes_nothing(tmp_path, capsys):
+    """An unknown --house: exit 2, one line naming it, no output folder."""
+    from siting.cli import main
+
+    out = tmp_path / "out"
+    rc = main(["place", str(demo_dir() / "scenario.toml"), "--house", "H9", "--out", str(out)])
+    assert rc == 2 and not out.exists()
+    assert '"H9"' in capsys.readouterr().err
