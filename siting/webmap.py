@@ -655,6 +655,9 @@ def write_screen_map(
 
 
 _EXTENT_COLOUR = "#555555"
+#: Layer-control name and CSS class of the grid's outline.
+GRID_EDGE_LAYER = "Grid edge"
+GRID_EDGE_CLASS = "siting-grid-edge"
 def _extent_legend_row(label: str = "edge of the computed grid") -> str:
     return ('<div class="row"><span class="line" style="border-top:2px dotted #555555"></span>'
             f"{escape_text(label)}</div>")
@@ -675,9 +678,11 @@ def _add_extent_outline(fmap, projected, west_m: float, north_m: float, cell_m: 
     dx = np.concatenate([xs[i] + (xs[i + 1] - xs[i]) * t for i in range(4)] + [xs[-1:]])
     dy = np.concatenate([ys[i] + (ys[i + 1] - ys[i]) * t for i in range(4)] + [ys[-1:]])
     lon, lat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True).transform(dx, dy)
+    group = folium.FeatureGroup(name=escape_text(GRID_EDGE_LAYER), overlay=True)
     folium.PolyLine(locations=np.column_stack([lat, lon]).tolist(), color=_EXTENT_COLOUR,
-                    weight=2, opacity=0.8, dash_array="2 5",
-                    tooltip=folium.Tooltip(escape_text(tooltip))).add_to(fmap)
+                    weight=2, opacity=0.8, dash_array="2 5", class_name=GRID_EDGE_CLASS,
+                    tooltip=folium.Tooltip(escape_text(tooltip))).add_to(group)
+    group.add_to(fmap)
 
 
 #: Classes of the placement surface: the worst share of a site's screening threshold

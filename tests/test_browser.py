@@ -293,10 +293,10 @@ def _show_boxes(page, show: bool) -> None:
 def _pixels_with_and_without_overlay(page) -> tuple[np.ndarray, np.ndarray]:
     """The overlay's box on screen, shown and then switched off in the layer control.
 
-    Contours, sites and sources are switched off first and the title, legend and controls
+    Contours, sites, sources and the grid edge are switched off first and the title, legend and controls
     hidden, in both shots: they sit on top of the overlay and would add colours of their own.
     """
-    for layer in ("Contours", "Habitat sites", "Sources"):
+    for layer in ("Contours", "Habitat sites", "Sources", "Grid edge"):
         page.get_by_label(layer).uncheck()  # the layer control, as a user would
     region = _overlay_region(page)
     _show_boxes(page, False)

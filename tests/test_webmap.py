@@ -199,9 +199,9 @@ def test_contours_appear_for_a_level_in_range(tmp_path):
 
 
 def test_no_contour_lines_without_levels(tmp_path):
-    """Without contour levels no polyline is drawn."""
+    """Without contour levels no contour line is drawn (the grid edge is the only polyline)."""
     text = _write(tmp_path / "map.html", contours=[])
-    assert "L.polyline(" not in text
+    assert text.count("L.polyline(") == 1 and "siting-grid-edge" in text
 
 
 def test_map_has_layer_control_scale_and_osm_option(map_html):
