@@ -6,12 +6,14 @@ A small public API for notebooks and scripts; the CLI (``siting``) is built on i
     >>> scenario = siting.load_scenario("data_demo/scenario.toml")
     >>> result = siting.screen(scenario)
     >>> siting.write_outputs(result, "maps/demo")
+    >>> best = siting.place(scenario, "H2").positions.head()   # placement search
 
 Results are screening estimates from a simplified model; see the cautions in every output.
 """
 
 from siting.errors import InputError, InputFileError, OutputExistsError, SitingError
 from siting.outputs import write_outputs
+from siting.place import PlaceResult, place
 from siting.scenario import Scenario, load_scenario
 from siting.screen import ScreenResult, screen
 
@@ -21,11 +23,13 @@ __all__ = [
     "InputError",
     "InputFileError",
     "OutputExistsError",
+    "PlaceResult",
     "Scenario",
     "ScreenResult",
     "SitingError",
     "__version__",
     "load_scenario",
+    "place",
     "screen",
     "write_outputs",
 ]
