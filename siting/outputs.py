@@ -141,6 +141,46 @@ def run_record_base(run, run_time: str, holding: bool = False) -> dict:
     }
 
 
+PACKAGE_FOLDER = "inputs"
+PACKAGE_CONFIG = "_config"
+PACKAGE_EXTERNAL = "_external"
+
+
+def package_inputs(run, folder: Path) -> dict:
+    """Copy every input of a run under ``folder/inputs`` so the output folder stands alone.
+
+    Files inside the scenario's folder keep their path relative to it (so the copied scenario
+    finds them unchanged); files elsewhere go to ``inputs/_external/<key>/``; the config tables
+    used go to ``inputs/_config/``. The holding layers are packed whenever the scenario names
+    them (the packed scenario must load), though only a placement run hashes them in run.json's
+    inputs. Returns the package map written into run.json:
+    {"files": {key: path under inputs/}, "config": "_config"}.
+    """
+    import shutil
+
+    scenario = run.scenario
+    base = scenario.folder.resolve()
+    package = folder / PACKAGE_FOLDER
+    files = {}
+    for key, path in _input_files(scenario, holding=True).items():
+        if path is None:
+            continue
+        path = Path(path).resolve()
+        try:
+            relative = path.relative_to(base)
+        except ValueError:
+            relative = Path(PACKAGE_EXTERNAL) / key / path.name
+        target = package / relative
+        target.parent.mkdir(parents=True, exist_ok=True)
+        shutil.copy2(path, target)
+        files[key] = relative.as_posix()
+    config = package / PACKAGE_CONFIG
+    config.mkdir(parents=True, exist_ok=True)
+    for name in run.tables.files_sha256:
+        shutil.copy2(run.tables.folder / name, config / name)
+    return {"files": files, "config": PACKAGE_CONFIG}
+
+
 def run_record(result, run_time: str) -> dict:
     """What a screening run's run.json holds: the shared part plus grid, timings, warnings."""
     record = run_record_base(result, run_time)
@@ -221,6 +261,7 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     write_csv(result.receptors, folder / "receptors.csv")
     write_csv(result.sources, folder / "sources.csv")
     record = run_record(result, run_time)
+    record["package"] = package_inputs(result, folder)
     (folder / "run.json").write_text(json.dumps(record, indent=2, default=str), encoding="utf-8")
 
     sources_gdf = gpd.GeoDataFrame(result.sources.copy(), geometry=result.source_geometries,

@@ -11,7 +11,13 @@ from datetime import datetime, timezone
 from pathlib import Path
 
 from siting.grids import write_geotiff
-from siting.outputs import check_output_dir, run_record_base, staged_folder, write_csv
+from siting.outputs import (
+    check_output_dir,
+    package_inputs,
+    run_record_base,
+    staged_folder,
+    write_csv,
+)
 
 #: How many of the best positions the map marks.
 TOP_POSITIONS = 10
@@ -48,6 +54,7 @@ def write_place_outputs(result, out_dir: Path, overwrite: bool = False,
             "timings_s": result.timings_s,
             "warnings": result.warnings,
         })
+        record["package"] = package_inputs(prep, staging)
         (staging / "run.json").write_text(json.dumps(record, indent=2, default=str),
                                           encoding="utf-8")
         best = result.positions.head(top)
