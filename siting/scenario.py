@@ -50,6 +50,8 @@ class WeatherSection(_Section):
     sigma_scheme: Literal["briggs", "pasquill_gifford"] = "briggs"
     mixing_height_m: float | None = Field(None, gt=10, le=5000)
     min_wind_speed_m_s: float = Field(1.0, gt=0, le=5)
+    station_latitude_deg: float | None = Field(None, ge=-90, le=90)
+    station_longitude_deg: float | None = Field(None, ge=-180, le=180)
 
     @model_validator(mode="after")
     def _one_record(self):

@@ -31,7 +31,8 @@ from siting.outputs import SITE_COLUMNS
 from siting.resources import config_dir, demo_dir
 
 OUTPUTS = ["concentration.tif", "deposition.tif", "deposition_in_combination.tif", "sites.csv",
-           "sites.gpkg", "receptors.csv", "sources.csv", "run.json", "report.html", "map.html"]
+           "sites.gpkg", "receptors.csv", "sources.csv", "run.json", "report.html", "map.html",
+           "inputs"]  # inputs/: the copies that make the folder a complete package
 
 # CSV tables are written with float_format "%.6g" (siting/outputs.py): 6 significant figures,
 # so a value read back is within 5e-6 relative of the one computed.
@@ -87,6 +88,9 @@ def test_demo_exits_zero_and_quiet_prints_nothing(demo):
 def test_demo_writes_every_output(demo, name):
     """Every output DESIGN.md lists for `screen` is written and not empty."""
     path = demo["out"] / name
+    if name == "inputs":  # a folder: the packed scenario and the tables it used
+        assert (path / "scenario.toml").is_file() and (path / "_config").is_dir()
+        return
     assert path.is_file()
     assert path.stat().st_size > 0
 
