@@ -201,6 +201,50 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
                   style="dim")
 
 
+def cmd_verify(args) -> int:
+    from siting.outputs import check_output_dir
+    from siting.verify import verify, write_verify_outputs
+
+    out_dir = Path(args.out)
+    check_output_dir(out_dir.resolve(), args.overwrite)
+    result = verify(Path(args.submission), results=Path(args.results) if args.results else None,
+                    reference_habitats=Path(args.habitats) if args.habitats else None,
+                    name_field=args.name_field, weather_files=[Path(p) for p in args.weather])
+    written = write_verify_outputs(result, out_dir, overwrite=args.overwrite)
+    if not args.quiet:
+        _print_verify_summary(result, written)
+    return result.exit_code
+
+
+def _print_verify_summary(result, out_dir: Path) -> None:
+    from rich.console import Console
+    from rich.table import Table
+
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    style = "green" if result.consistent else "bold red"
+    console.print(f"[{style}]{'Consistent' if result.consistent else 'Not consistent'}[/] "
+                  f"(submitted with siting {result.submitted_version or '?'}, checked with "
+                  f"siting {result.this_version})", markup=True)
+    changed = [r for r in result.integrity if r["status"] != "ok"]
+    console.print(f"inputs: {len(result.integrity) - len(changed)} of {len(result.integrity)} "
+                  f"intact; figures differing beyond tolerance: {len(result.differences)}")
+    if result.findings:
+        table = Table(title="Findings", title_justify="left")
+        for col in ("severity", "code", "subject", "message"):
+            table.add_column(col, no_wrap=col != "message")
+        for f in result.findings:
+            colour = {"high": "red", "medium": "yellow"}.get(f.severity, "")
+            table.add_row(f"[{colour}]{f.severity}[/]" if colour else f.severity, f.code,
+                          f.subject, f.message)
+        console.print(table)
+    flips = result.sensitivity_summary
+    flips = flips[flips["verdict_flips"]] if len(flips) else flips
+    for row in flips.itertuples():
+        console.print(f"[yellow]verdict flips[/] at {row.site}: {row.flipping_variants}",
+                      markup=True)
+    console.print(f"Outputs in {out_dir} (verify.html, findings.json).")
+
+
 def build_parser() -> argparse.ArgumentParser:
     from siting import __version__
 
@@ -277,6 +321,25 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--top", type=int, default=10, metavar="N",
                    help="positions listed on the terminal and marked on the map (default 10)")
     p.set_defaults(func=cmd_place)
+
+    p = sub.add_parser("verify", parents=[common],
+                       help="re-run and question a submitted assessment",
+                       description="Verify a submission: input hashes, a re-run with this "
+                                   "version, a plausibility review and a sensitivity analysis. "
+                                   "Exit code 0 when consistent, 1 when a difference or a "
+                                   "high-severity finding stands, 2 when it cannot be read.")
+    p.add_argument("submission", help="output folder of `siting screen`, or a scenario file "
+                                      "(then give --results)")
+    p.add_argument("--out", required=True, help="folder for verify.html and findings.json")
+    p.add_argument("--results", help="the applicant's sites.csv (with a scenario file)")
+    p.add_argument("--habitats", help="reference habitat layer: flags sites within the search "
+                                      "distance left out of the submission")
+    p.add_argument("--name-field", help="site name field of the reference layer "
+                                        "(default: the scenario's name_field)")
+    p.add_argument("--weather", action="append", default=[], metavar="FILE",
+                   help="another weather year (frequency table or hourly record) for the "
+                        "sensitivity analysis; repeatable")
+    p.set_defaults(func=cmd_verify)
     return parser
 
 

@@ -325,17 +325,23 @@ def _check_crs(crs: str, filename: str) -> None:
         raise InputError(f'{filename}: crs "{crs}" has units {sorted(units)}; need metres')
 
 
-def _resolve(path: Path | None, folder: Path, key: str, filename: str) -> Path | None:
+def _resolve(path: Path | None, folder: Path, key: str, filename: str,
+             moved: dict[str, Path] | None = None) -> Path | None:
     if path is None:
         return None
     full = (folder / path).resolve() if not path.is_absolute() else path
+    if moved and str(full) in moved:
+        full = Path(moved[str(full)])
     if not full.exists():
         raise InputFileError(f"{filename}: {key} = \"{path}\": file not found ({full})")
     return full
 
 
-def load_scenario(path: str | Path) -> Scenario:
+def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Scenario:
     """Read, validate and resolve a scenario file.
+
+    ``moved`` maps a file's original absolute path to where it is now (a packed submission
+    whose scenario named files outside its own folder); other paths resolve as written.
 
     Raises
     ------
@@ -372,30 +378,30 @@ def load_scenario(path: str | Path) -> Scenario:
         files = hourly if isinstance(hourly, list) else [hourly]
         if not files:
             raise InputError(f"{path.name}: weather.hourly: give at least one file")
-        hourly = [_resolve(f, folder, "weather.hourly", path.name) for f in files]
+        hourly = [_resolve(f, folder, "weather.hourly", path.name, moved) for f in files]
     weather = scenario.weather.model_copy(update={
         "frequency_table": _resolve(scenario.weather.frequency_table, folder,
-                                    "weather.frequency_table", path.name),
+                                    "weather.frequency_table", path.name, moved),
         "hourly": hourly})
     habitats = scenario.habitats.model_copy(update={
-        "file": _resolve(scenario.habitats.file, folder, "habitats.file", path.name)})
+        "file": _resolve(scenario.habitats.file, folder, "habitats.file", path.name, moved)})
     receptors = scenario.receptors
     if receptors is not None:
         receptors = receptors.model_copy(update={
-            "file": _resolve(receptors.file, folder, "receptors.file", path.name)})
+            "file": _resolve(receptors.file, folder, "receptors.file", path.name, moved)})
     assessment = scenario.assessment
     if assessment.config_dir is not None:
         assessment = assessment.model_copy(update={
             "config_dir": _resolve(assessment.config_dir, folder, "assessment.config_dir",
-                                   path.name)})
+                                   path.name, moved)})
     holding = scenario.holding
     if holding is not None:
         exclusions = [e.model_copy(update={"file": _resolve(e.file, folder,
                                                             f"holding.exclusion #{i} file",
-                                                            path.name)})
+                                                            path.name, moved)})
                       for i, e in enumerate(holding.exclusion, start=1)]
         holding = holding.model_copy(update={
-            "file": _resolve(holding.file, folder, "holding.file", path.name),
+            "file": _resolve(holding.file, folder, "holding.file", path.name, moved),
             "exclusion": exclusions})
     return scenario.model_copy(update={"weather": weather, "habitats": habitats,
                                        "receptors": receptors, "assessment": assessment,

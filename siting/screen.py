@@ -312,11 +312,15 @@ class Prepared:
         return unit * UG_PER_G
 
 
-def prepare(scenario: Scenario | str | Path) -> Prepared:
-    """Read and check a scenario's tables, weather, sources and habitats (no dispersion)."""
+def prepare(scenario: Scenario | str | Path, tables: Tables | None = None) -> Prepared:
+    """Read and check a scenario's tables, weather, sources and habitats (no dispersion).
+
+    ``tables`` replaces the lookup tables the scenario names (a sensitivity run).
+    """
     if not isinstance(scenario, Scenario):
         scenario = load_scenario(scenario)
-    tables = load_tables(scenario.assessment.config_dir)
+    if tables is None:
+        tables = load_tables(scenario.assessment.config_dir)
     if scenario.deposition.depletion_land_cover not in tables.deposition_velocities:
         raise InputError(f'deposition.depletion_land_cover "{scenario.deposition.depletion_land_cover}"'
                          f" is not in deposition_velocities.toml")
@@ -345,13 +349,19 @@ def prepare(scenario: Scenario | str | Path) -> Prepared:
                     settings, warnings)
 
 
-def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> ScreenResult:
-    """Run a full screening assessment of a scenario (a file path or a loaded Scenario)."""
+def screen(scenario: Scenario | str | Path, *, progress: bool = False,
+           tables: Tables | None = None, with_grid: bool = True) -> ScreenResult:
+    """Run a full screening assessment of a scenario (a file path or a loaded Scenario).
+
+    ``tables`` replaces the scenario's lookup tables (used by sensitivity runs);
+    ``with_grid=False`` computes the sites and named points only (the fields are then empty:
+    site figures come from their own points, so only a site's grid nodes are missing).
+    """
     import geopandas as gpd
     import shapely
 
     clock = {"start": time.perf_counter()}
-    prep = prepare(scenario)
+    prep = prepare(scenario, tables)
     scenario, tables, weather = prep.scenario, prep.tables, prep.weather
     weather_summary, sources, sites = prep.weather_summary, prep.sources, prep.sites
     warnings = list(prep.warnings)
@@ -362,7 +372,7 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     if grid.size > MAX_GRID_CELLS:
         raise InputError(f"grid: {grid.n_cols} x {grid.n_rows} = {grid.size:,} cells exceeds "
                          f"{MAX_GRID_CELLS:,}; increase grid.spacing_m or reduce grid.margin_m")
-    gx, gy = grid.centres()
+    gx, gy = grid.centres() if with_grid else (np.empty((0, 0)), np.empty((0, 0)))
     extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
     assessed = np.array([g.intersects(extent) for g in sites.geometry])
     for name in sites.loc[~assessed, "name"]:
@@ -383,7 +393,7 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     # every receptor in one flat array: grid cells, named points, site sample points
     rx = np.concatenate([gx.ravel(), named["x"].to_numpy(float), s_x])
     ry = np.concatenate([gy.ravel(), named["y"].to_numpy(float), s_y])
-    n_grid, n_named = grid.size, len(named)
+    n_grid, n_named = gx.size, len(named)
 
     # deposition velocity of each receptor by land cover
     default_vd = prep.default_deposition_velocity_m_s
@@ -484,7 +494,7 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False) -> Screen
     receptors["incomb_conc_ug_m3"] = combos["incomb"][sl]
     receptors["incomb_dep_kg_n_ha_yr"] = dep["incomb"][sl]
 
-    shape = (grid.n_rows, grid.n_cols)
+    shape = (grid.n_rows, grid.n_cols) if with_grid else (0, 0)
     fields = {
         "pc_conc_ug_m3": combos["pc"][:n_grid].reshape(shape),
         "pc_dep_kg_n_ha_yr": dep["pc"][:n_grid].reshape(shape),

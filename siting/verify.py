@@ -1,0 +1,618 @@
+"""A regulator's spot-check of a submitted screening run (``siting verify``).
+
+Given an output folder of ``siting screen`` (or a scenario plus the applicant's sites table):
+1. integrity: every input and table recorded in run.json is found in the folder's inputs/ with
+   the same SHA-256;
+2. re-run: the packed scenario is assessed again with this version and every site and receptor
+   figure is compared with the submitted one at a stated tolerance; each difference says which
+   changed input (or version) explains it, when one does;
+3. plausibility review: each finding gives its reason and the published range or table value it
+   is judged against (this version's config/ tables, which cite their sources);
+4. sensitivity: the deposition-velocity range, the critical-load range and other weather years
+   give each site's range of % of critical load and whether its verdict flips.
+
+The arithmetic of the comparisons lives here; reading and writing is done by the loaders it
+calls (scenario, tables) and by verify_report.py.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import json
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from siting import assess
+from siting.errors import InputError, InputFileError, SitingError
+
+#: Site figures compared between the submission and the re-run.
+SITE_FIGURES = [
+    "critical_level_ug_m3", "critical_load_used_kg_n_ha_yr", "threshold_percent",
+    "pc_conc_max_ug_m3", "pc_dep_max_kg_n_ha_yr", "pc_pct_level", "pc_pct_load",
+    "net_conc_max_ug_m3", "net_dep_max_kg_n_ha_yr", "incomb_conc_max_ug_m3",
+    "incomb_dep_max_kg_n_ha_yr", "pec_dep_kg_n_ha_yr",
+]
+RECEPTOR_FIGURES = ["conc_ug_m3", "dep_kg_n_ha_yr"]
+RELATIVE_TOLERANCE = 1e-3
+ABSOLUTE_TOLERANCE = 1e-9
+TOLERANCE_TEXT = (
+    "Figures agree when they differ by at most 0.1 % (relative) or 1e-9 (absolute). The tables "
+    "are written to 6 significant figures (rounding below 5e-6 relative), so 0.1 % leaves room "
+    "for differences between library versions and platforms while any edit of a reported "
+    "figure at its third significant digit is caught."
+)
+
+#: Screening search distances by designation tier [m]: European sites 10 km, national 5 km,
+#: local 2 km (EA farm-permit decision documents, e.g. EPR/WP3034VF; confirmed).
+SEARCH_DISTANCE_M = {"international": 10_000.0, "national": 5_000.0, "local": 2_000.0}
+
+#: Ranges below are common practice without a published source; findings say so.
+HOUSE_HEIGHT_RANGE_M = (1.0, 15.0)
+EXIT_VELOCITY_MAX_M_S = 15.0
+STATION_DISTANCE_M = (30_000.0, 60_000.0)  # medium, high
+SEVERITY_ORDER = {"high": 0, "medium": 1, "low": 2, "info": 3}
+
+
+@dataclass
+class Finding:
+    """One result of the review: code, severity, subject, message and its evidence."""
+
+    code: str
+    severity: str
+    subject: str
+    message: str
+    evidence: dict = field(default_factory=dict)
+
+    def as_dict(self) -> dict:
+        return dataclasses.asdict(self)
+
+
+@dataclass
+class Submission:
+    """What was submitted: its folder, run record, tables and the packed scenario."""
+
+    folder: Path
+    record: dict | None
+    sites: pd.DataFrame
+    receptors: pd.DataFrame | None
+    scenario_path: Path
+    moved: dict[str, Path]
+    config_dir: Path | None
+
+
+@dataclass
+class VerifyResult:
+    """Everything a verification found (see module docstring)."""
+
+    submission: Submission
+    integrity: list[dict]
+    differences: list[dict]
+    findings: list[Finding]
+    sensitivity: pd.DataFrame
+    sensitivity_summary: pd.DataFrame
+    submitted_version: str
+    this_version: str
+
+    @property
+    def consistent(self) -> bool:
+        return not self.differences and not any(f.severity == "high" for f in self.findings) \
+            and all(row["status"] == "ok" for row in self.integrity)
+
+    @property
+    def exit_code(self) -> int:
+        return 0 if self.consistent else 1
+
+
+def _sha256(path: Path) -> str:
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def _read_csv(path: Path, what: str) -> pd.DataFrame:
+    try:
+        return pd.read_csv(path, dtype={"id": str, "site_id": str, "name": str})
+    except FileNotFoundError as exc:
+        raise InputFileError(f"{what}: {path} not found") from exc
+    except Exception as exc:  # pandas raises many types
+        raise InputError(f"{what}: {path.name} cannot be read as CSV: {exc}") from exc
+
+
+def load_submission(path: Path, results: Path | None = None) -> Submission:
+    """Read a submission: an output folder of `screen`, or a scenario file plus a sites table."""
+    path = Path(path)
+    if path.is_file():
+        if results is None:
+            raise InputError(f"{path.name}: a scenario file needs the applicant's sites table "
+                             "(--results sites.csv)")
+        return Submission(path.parent, None, _read_csv(results, "--results"), None,
+                          path.resolve(), {}, None)
+    if not path.is_dir():
+        raise InputFileError(f"{path}: no such submission folder or scenario file")
+    record_path = path / "run.json"
+    try:
+        record = json.loads(record_path.read_text(encoding="utf-8"))
+    except FileNotFoundError as exc:
+        raise InputFileError(f"{path}: no run.json; is this an output folder of `siting "
+                             "screen`?") from exc
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"{record_path}: not readable JSON: {exc}") from exc
+    package = record.get("package")
+    if not isinstance(package, dict) or "files" not in package:
+        raise InputError(f"{record_path}: no package map; the folder was written by a version "
+                         "that did not pack its inputs (re-run `siting screen`)")
+    inputs = path / "inputs"
+    files = package["files"]
+    if "scenario" not in files:
+        raise InputError(f"{record_path}: the package map names no scenario")
+    moved = {}
+    for key, relative in files.items():
+        original = record.get("inputs", {}).get(key, {}).get("path")
+        if original and relative.startswith("_external/"):
+            moved[str(Path(original).resolve())] = (inputs / relative).resolve()
+    sites = _read_csv(results if results else path / "sites.csv", "sites table")
+    receptors = _read_csv(path / "receptors.csv", "receptors table") \
+        if (path / "receptors.csv").exists() else None
+    return Submission(path, record, sites, receptors, (inputs / files["scenario"]).resolve(),
+                      moved, inputs / package.get("config", "_config"))
+
+
+def check_integrity(sub: Submission) -> list[dict]:
+    """Each recorded input and table against its packed copy: ok, changed or missing."""
+    if sub.record is None:
+        return []
+    rows = []
+    files = sub.record["package"]["files"]
+    for key, entry in sub.record.get("inputs", {}).items():
+        packed = sub.folder / "inputs" / files.get(key, "")
+        status, actual = "missing", None
+        if key in files and packed.is_file():
+            actual = _sha256(packed)
+            status = "ok" if actual == entry["sha256"] else "changed"
+        rows.append({"key": key, "file": f"inputs/{files.get(key, '?')}",
+                     "expected_sha256": entry["sha256"], "actual_sha256": actual,
+                     "status": status})
+    for name, entry in sub.record.get("config_tables", {}).items():
+        packed = sub.config_dir / name
+        actual = _sha256(packed) if packed.is_file() else None
+        rows.append({"key": f"table {name}", "file": f"inputs/_config/{name}",
+                     "expected_sha256": entry["sha256"], "actual_sha256": actual,
+                     "status": "missing" if actual is None else
+                     ("ok" if actual == entry["sha256"] else "changed")})
+    return rows
+
+
+def _differs(a, b) -> tuple[bool, float | None]:
+    if isinstance(a, str) or isinstance(b, str):
+        return (str(a) != str(b)), None
+    a, b = float(a), float(b)
+    if math.isnan(a) and math.isnan(b):
+        return False, None
+    if math.isnan(a) != math.isnan(b):
+        return True, None
+    scale = max(abs(a), abs(b))
+    rel = abs(a - b) / scale if scale > 0 else 0.0
+    return abs(a - b) > max(RELATIVE_TOLERANCE * scale, ABSOLUTE_TOLERANCE), rel
+
+
+def compare_figures(sub: Submission, result, explanation: str) -> list[dict]:
+    """Submitted vs recomputed figures: one row per figure beyond the tolerance."""
+    rows = []
+    recomputed = pd.DataFrame(result.sites.drop(columns="geometry")).set_index("name")
+    submitted = sub.sites.set_index("name") if "name" in sub.sites else sub.sites
+    for name in submitted.index:
+        if name not in recomputed.index:
+            rows.append({"table": "sites", "id": str(name), "column": "(site)",
+                         "submitted": "present", "recomputed": "absent",
+                         "relative_difference": None, "explained_by": explanation})
+            continue
+        for column in [*SITE_FIGURES, "verdict"]:
+            if column not in submitted.columns or column not in recomputed.columns:
+                continue
+            a, b = submitted.at[name, column], recomputed.at[name, column]
+            differs, rel = _differs(a, b)
+            if differs:
+                rows.append({"table": "sites", "id": str(name), "column": column,
+                             "submitted": a, "recomputed": b, "relative_difference": rel,
+                             "explained_by": explanation})
+    for name in recomputed.index.difference(submitted.index):
+        rows.append({"table": "sites", "id": str(name), "column": "(site)",
+                     "submitted": "absent", "recomputed": "present",
+                     "relative_difference": None, "explained_by": explanation})
+    if sub.receptors is not None and len(sub.receptors):
+        mine = result.receptors.set_index("id")
+        for rid, row in sub.receptors.set_index("id").iterrows():
+            if rid not in mine.index:
+                continue
+            for column in RECEPTOR_FIGURES:
+                differs, rel = _differs(row[column], mine.at[rid, column])
+                if differs:
+                    rows.append({"table": "receptors", "id": str(rid), "column": column,
+                                 "submitted": row[column], "recomputed": mine.at[rid, column],
+                                 "relative_difference": rel, "explained_by": explanation})
+    return rows
+
+
+def _explanation(integrity: list[dict], submitted_version: str, this_version: str) -> str:
+    changed = [row["key"] for row in integrity if row["status"] != "ok"]
+    if changed:
+        return ("input(s) changed since the run (SHA-256 differs from run.json): "
+                + ", ".join(changed))
+    if submitted_version and submitted_version != this_version:
+        return f"the run used siting {submitted_version}; this is siting {this_version}"
+    return ""
+
+
+def review(sub: Submission, result, this_tables, reference_habitats: Path | None = None,
+           name_field: str | None = None) -> list[Finding]:
+    """Plausibility findings, each judged against this version's tables or a stated range."""
+    findings: list[Finding] = []
+    scenario = result.scenario
+    used = result.tables
+    for src in scenario.sources:
+        subject = f'source "{src.id}"'
+        if src.livestock and src.housing:
+            mine = [r for r in this_tables.emission_factors
+                    if r["livestock"] == src.livestock and r["housing"] == src.housing]
+            theirs = [r for r in used.emission_factors
+                      if r["livestock"] == src.livestock and r["housing"] == src.housing]
+            if not mine:
+                findings.append(Finding("FACTOR_NOT_IN_TABLE", "medium", subject,
+                                        f"{src.livestock}/{src.housing} has no row in this "
+                                        "version's emission-factor table", {}))
+            elif theirs and theirs[0]["nh3_kg_per_place_yr"] < mine[0]["nh3_kg_per_place_yr"]:
+                findings.append(Finding(
+                    "FACTOR_BELOW_TABLE", "high", subject,
+                    f"emission factor {theirs[0]['nh3_kg_per_place_yr']:g} kg NH3/place/yr is "
+                    f"below the table value {mine[0]['nh3_kg_per_place_yr']:g} for "
+                    f"{src.livestock}, {src.housing}",
+                    {"submitted_kg_per_place_yr": theirs[0]["nh3_kg_per_place_yr"],
+                     "table_kg_per_place_yr": mine[0]["nh3_kg_per_place_yr"],
+                     "source": mine[0]["source"]}))
+        elif src.nh3_kg_per_year is not None:
+            findings.append(Finding("EMISSION_GIVEN_DIRECTLY", "low", subject,
+                                    f"emission given directly ({src.nh3_kg_per_year:g} kg NH3/yr),"
+                                    " not derived from a factor and places: ask for its basis",
+                                    {"nh3_kg_per_year": src.nh3_kg_per_year}))
+        if src.abatement:
+            technique = this_tables.abatement.get(src.abatement)
+            reduction = src.reduction_percent if src.reduction_percent is not None else (
+                technique["reduction_percent_default"] if technique else None)
+            if technique and reduction is not None and not (
+                    technique["reduction_percent_min"] <= reduction
+                    <= technique["reduction_percent_max"]):
+                findings.append(Finding(
+                    "REDUCTION_OUT_OF_RANGE", "high", subject,
+                    f"{technique['name']}: {reduction:g} % reduction is outside the published "
+                    f"range {technique['reduction_percent_min']:g}-"
+                    f"{technique['reduction_percent_max']:g} %",
+                    {"reduction_percent": reduction,
+                     "published_range_percent": f"{technique['reduction_percent_min']:g}-"
+                                                f"{technique['reduction_percent_max']:g}",
+                     "source": technique["source"]}))
+            if src.treated_air_fraction is not None and src.treated_air_fraction < 1.0:
+                findings.append(Finding(
+                    "TREATED_SHARE_UNDERIVED", "medium", subject,
+                    f"treated share {src.treated_air_fraction:g} given without its derivation "
+                    "(give scrubber_design_share with an hourly record, or the ventilation "
+                    "calculation behind it)", {"treated_air_fraction": src.treated_air_fraction}))
+        lo, hi = HOUSE_HEIGHT_RANGE_M
+        if src.kind in ("point", "volume") and not lo <= src.height_m <= hi:
+            findings.append(Finding(
+                "RELEASE_HEIGHT_UNUSUAL", "medium", subject,
+                f"release height {src.height_m:g} m is unusual for a livestock house "
+                f"({lo:g}-{hi:g} m; common practice, no source)",
+                {"height_m": src.height_m, "usual_range_m": f"{lo:g}-{hi:g}"}))
+        if src.exit_velocity_m_s and src.exit_velocity_m_s > EXIT_VELOCITY_MAX_M_S:
+            findings.append(Finding(
+                "EXIT_VELOCITY_UNUSUAL", "medium", subject,
+                f"exit velocity {src.exit_velocity_m_s:g} m/s is above what house fans or "
+                f"scrubber outlets usually give (<= {EXIT_VELOCITY_MAX_M_S:g} m/s; common "
+                "practice, no source); plume rise lowers nearby figures",
+                {"exit_velocity_m_s": src.exit_velocity_m_s}))
+    findings += _table_findings(used, this_tables)
+    findings += _weather_findings(scenario, result)
+    findings += _grid_findings(scenario, result)
+    if reference_habitats is not None:
+        findings += _missing_sites(scenario, result, reference_habitats, name_field)
+    return sorted(findings, key=lambda f: SEVERITY_ORDER.get(f.severity, 9))
+
+
+def _table_findings(used, mine) -> list[Finding]:
+    findings = []
+    for key, row in used.critical_loads.items():
+        ref = mine.critical_loads.get(key)
+        if ref and row["critical_load_min_kg_n_ha_yr"] > ref["critical_load_min_kg_n_ha_yr"]:
+            findings.append(Finding(
+                "CRITICAL_LOAD_ABOVE_TABLE", "high", f'habitat "{key}"',
+                f"critical load range starts at {row['critical_load_min_kg_n_ha_yr']:g}, above "
+                f"the table's {ref['critical_load_min_kg_n_ha_yr']:g} kg N/ha/yr",
+                {"published_range_kg_n_ha_yr": f"{ref['critical_load_min_kg_n_ha_yr']:g}-"
+                                               f"{ref['critical_load_max_kg_n_ha_yr']:g}",
+                 "source": ref["source"]}))
+    for key, row in used.deposition_velocities.items():
+        ref = mine.deposition_velocities.get(key)
+        if ref and row["deposition_velocity_m_s"] < ref["deposition_velocity_m_s"]:
+            findings.append(Finding(
+                "DEPOSITION_VELOCITY_BELOW_TABLE", "high", f'land cover "{key}"',
+                f"deposition velocity {row['deposition_velocity_m_s']:g} m/s is below the "
+                f"table's {ref['deposition_velocity_m_s']:g} m/s",
+                {"table_m_s": ref["deposition_velocity_m_s"], "source": ref["source"]}))
+    theirs = {t["id"]: t for t in used.thresholds}
+    for tier in mine.thresholds:
+        other = theirs.get(tier["id"])
+        if other and other["threshold_percent"] > tier["threshold_percent"]:
+            findings.append(Finding(
+                "THRESHOLD_ABOVE_DEFAULT", "medium", f'tier "{tier["id"]}"',
+                f"screening threshold {other['threshold_percent']:g} % is above this version's "
+                f"default {tier['threshold_percent']:g} % (defaults are to be replaced by the "
+                "jurisdiction's; check which applies)", {"source": tier["source"]}))
+    return findings
+
+
+def _weather_findings(scenario, result) -> list[Finding]:
+    findings = []
+    summary = result.weather_summary
+    w = scenario.weather
+    if w.hourly is None:
+        findings.append(Finding("WEATHER_TABLE_UNVERIFIABLE", "info", "weather",
+                                "a frequency table: its record length, station and calms cannot "
+                                "be checked; ask for the hourly record behind it", {}))
+    else:
+        years = float(summary.get("record_years", 0))
+        if years < 1.0:
+            findings.append(Finding("WEATHER_SHORT", "high", "weather",
+                                    f"the hourly record covers {years:.2f} years; a long-term "
+                                    "mean needs at least one full year", {"record_years": years}))
+        elif years < 3.0:
+            findings.append(Finding("WEATHER_FEW_YEARS", "low", "weather",
+                                    f"{years:.1f} year(s) of weather; several years (3-5) reduce "
+                                    "the year-to-year spread (common practice, no source)",
+                                    {"record_years": years}))
+        calms = float(summary.get("calm_percent", 0.0))
+        if calms > 10.0:
+            findings.append(Finding("WEATHER_MANY_CALMS", "medium", "weather",
+                                    f"{calms:.1f} % calms (over 10 %; common practice, no "
+                                    "source): results rest on the calm rule", {"calm_percent": calms}))
+        missing = float(summary.get("missing_percent", 0.0))
+        if missing > 5.0:
+            findings.append(Finding("WEATHER_GAPS", "medium", "weather",
+                                    f"{missing:.1f} % of hours missing (over 5 %; common "
+                                    "practice, no source)", {"missing_percent": missing}))
+    if w.station_latitude_deg is None or w.station_longitude_deg is None:
+        findings.append(Finding("WEATHER_STATION_UNKNOWN", "info", "weather",
+                                "the weather station's position is not given "
+                                "(weather.station_latitude_deg/longitude_deg): distance to the "
+                                "site not checked", {}))
+    else:
+        from pyproj import Geod
+
+        from siting.screen import _site_lat_lon
+
+        lat, lon = _site_lat_lon(scenario)
+        _, _, distance = Geod(ellps="WGS84").inv(lon, lat, w.station_longitude_deg,
+                                                 w.station_latitude_deg)
+        medium, high = STATION_DISTANCE_M
+        if distance > medium:
+            findings.append(Finding("WEATHER_FAR", "high" if distance > high else "medium",
+                                    "weather", f"the station is {distance / 1000:.0f} km from the "
+                                    f"site (over {medium / 1000:.0f} km; common practice, no "
+                                    "source)", {"distance_km": round(distance / 1000, 1)}))
+    return findings
+
+
+def _grid_findings(scenario, result) -> list[Finding]:
+    sites = result.sites
+    assessed = sites[sites["assessed"]]
+    if assessed.empty:
+        return []
+    nearest = float(assessed["distance_m"].min())
+    spacing = scenario.grid.spacing_m
+    if spacing > nearest / 10.0:
+        name = assessed.loc[assessed["distance_m"].idxmin(), "name"]
+        return [Finding("GRID_COARSE", "medium", "grid",
+                        f"grid spacing {spacing:g} m is coarse for the nearest site ({name}, "
+                        f"{nearest:.0f} m away): at most a tenth of the distance resolves the "
+                        "gradient (common practice, no source); site points soften this",
+                        {"spacing_m": spacing, "nearest_site_m": round(nearest, 1)})]
+    return []
+
+
+def _missing_sites(scenario, result, reference: Path, name_field: str | None) -> list[Finding]:
+    import geopandas as gpd
+    import shapely
+
+    try:
+        ref = gpd.read_file(reference).to_crs(scenario.crs)
+    except Exception as exc:
+        raise InputError(f"--habitats {reference}: cannot read as a vector layer: {exc}") from exc
+    field_name = name_field or scenario.habitats.name_field
+    designation_field = scenario.habitats.designation_field
+    tier_of = {d.strip().lower(): t["id"] for t in result.tables.thresholds
+               for d in t["designations"]}
+    installation = [s for s in scenario.sources if s.role in ("proposed", "existing")]
+    if not installation:
+        return []
+    centre = shapely.MultiPoint([(s.x, s.y) for s in installation])
+    submitted = shapely.union_all(result.sites.geometry.to_numpy())
+    findings = []
+    for row in ref.itertuples():
+        geom = row.geometry
+        if geom is None or geom.is_empty:
+            continue
+        tier = tier_of.get(str(getattr(row, designation_field, "")).strip().lower(), "local")
+        limit = SEARCH_DISTANCE_M.get(tier, 2_000.0)
+        distance = geom.distance(centre)
+        if distance > limit:
+            continue
+        overlap = geom.intersection(submitted).area / geom.area if geom.area > 0 else 0.0
+        if overlap < 0.5:
+            name = str(getattr(row, field_name, "?"))
+            findings.append(Finding(
+                "SITE_LEFT_OUT", "high", f'site "{name}"',
+                f"{name} ({tier}) lies {distance:.0f} m from the installation, within the "
+                f"{limit / 1000:g} km search distance, but is not in the submitted habitat layer",
+                {"distance_m": round(distance, 1), "search_distance_m": limit,
+                 "source": "EA farm-permit decisions (e.g. EPR/WP3034VF): 10 km European sites, "
+                           "5 km national, 2 km local; confirmed"}))
+    return findings
+
+
+def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Each site's % of critical load (and level) under the published ranges and other weather.
+
+    Variants are computed at the sites' own points only (no grid), so a variant's site maximum
+    can sit a little below the central run's where a grid node inside a site held it.
+    """
+    from siting.screen import screen
+
+    sites = result.sites
+    rows = []
+
+    def add(variant, frame, load_col="critical_load_used_kg_n_ha_yr"):
+        pct_load = 100.0 * frame["pc_dep_max_kg_n_ha_yr"].to_numpy() / frame[load_col].to_numpy()
+        pct_level = frame["pc_pct_level"].to_numpy()
+        verdicts = assess.verdict(pct_level, pct_load, frame["threshold_percent"].to_numpy(),
+                                  frame["assessed"].to_numpy())
+        for name, load, level, v in zip(frame["name"], pct_load, pct_level, verdicts):
+            rows.append({"site": name, "variant": variant, "pct_load": load,
+                         "pct_level": level, "verdict": v})
+
+    add("central", sites)
+    add("critical load lower end", sites, "critical_load_min_kg_n_ha_yr")
+    add("critical load upper end", sites, "critical_load_max_kg_n_ha_yr")
+    tables = result.tables
+    for end, label in (("deposition_velocity_min_m_s", "deposition velocity low"),
+                       ("deposition_velocity_max_m_s", "deposition velocity high")):
+        velocities = {k: {**v, "deposition_velocity_m_s": v[end]}
+                      for k, v in tables.deposition_velocities.items()}
+        variant = screen(scenario, tables=dataclasses.replace(
+            tables, deposition_velocities=velocities), with_grid=False)
+        add(label, variant.sites)
+    for path in weather_files:
+        path = Path(path)
+        first = path.read_text(encoding="utf-8", errors="replace").splitlines()[:1]
+        hourly = bool(first) and first[0].lower().startswith("time")
+        weather = scenario.weather.model_copy(update={
+            "frequency_table": None if hourly else path.resolve(),
+            "hourly": [path.resolve()] if hourly else None})
+        variant = screen(scenario.model_copy(update={"weather": weather}), with_grid=False)
+        add(f"weather: {path.name}", variant.sites)
+    long = pd.DataFrame(rows)
+    summary = []
+    for name, group in long.groupby("site", sort=False):
+        central = group[group["variant"] == "central"].iloc[0]
+        flips = group[group["verdict"] != central["verdict"]]
+        summary.append({"site": name, "central_pct_load": central["pct_load"],
+                        "min_pct_load": group["pct_load"].min(),
+                        "max_pct_load": group["pct_load"].max(),
+                        "central_verdict": central["verdict"],
+                        "verdict_flips": not flips.empty,
+                        "flipping_variants": ", ".join(flips["variant"])})
+    return long, pd.DataFrame(summary)
+
+
+def verify(submission: Path, *, results: Path | None = None,
+           reference_habitats: Path | None = None, name_field: str | None = None,
+           weather_files=()) -> VerifyResult:
+    """Verify a submission (see module docstring). Raises SitingError if it cannot be read."""
+    from siting import __version__
+    from siting.scenario import load_scenario
+    from siting.screen import screen
+    from siting.tables import load_tables
+
+    sub = load_submission(Path(submission), results)
+    integrity = check_integrity(sub)
+    submitted_version = str(sub.record.get("version", "")) if sub.record else ""
+    try:
+        scenario = load_scenario(sub.scenario_path, moved=sub.moved)
+        if sub.config_dir is not None and sub.config_dir.is_dir():
+            scenario = scenario.model_copy(update={"assessment": scenario.assessment.model_copy(
+                update={"config_dir": sub.config_dir})})
+        result = screen(scenario)
+    except SitingError as exc:
+        raise InputError(f"the submission cannot be re-run: {exc}") from exc
+    explanation = _explanation(integrity, submitted_version, __version__)
+    differences = compare_figures(sub, result, explanation)
+    findings = review(sub, result, load_tables(), reference_habitats, name_field)
+    for row in integrity:
+        if row["status"] != "ok":
+            findings.insert(0, Finding(
+                "INPUT_CHANGED" if row["status"] == "changed" else "INPUT_MISSING", "high",
+                f"input {row['key']}",
+                f"{row['file']} {'differs from' if row['status'] == 'changed' else 'is missing; it was'}"
+                " the file the run recorded (SHA-256)",
+                {"expected_sha256": row["expected_sha256"],
+                 "actual_sha256": row["actual_sha256"]}))
+    if sub.record is None:
+        findings.append(Finding("NO_RUN_RECORD", "info", "submission",
+                                "no run.json: inputs could not be checked against hashes", {}))
+    if differences:
+        findings.insert(0, Finding(
+            "RESULTS_DIFFER", "high", "results",
+            f"{len(differences)} figure(s) differ from this version's re-run beyond the "
+            "tolerance" + (f"; {explanation}" if explanation else "; no changed input explains "
+                                                                   "it (edited results?)"),
+            {"figures": len(differences)}))
+    long, summary = sensitivity(scenario, result, weather_files)
+    return VerifyResult(sub, integrity, differences, findings, long, summary,
+                        submitted_version, __version__)
+
+
+def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = False) -> Path:
+    """findings.json and verify.html, written atomically into ``out_dir``."""
+    from datetime import datetime, timezone
+
+    from siting.outputs import check_output_dir, staged_folder
+    from siting.screen import CAUTIONS
+    from siting.verify_report import write_verify_report
+
+    out_dir = Path(out_dir).resolve()
+    check_output_dir(out_dir, overwrite)
+    run_time = datetime.now(timezone.utc).replace(microsecond=0).isoformat()
+    verdict = ("Consistent: inputs intact, the same figures with this version, no high-severity "
+               "finding." if result.consistent else
+               "Not consistent: see the findings (differences, changed inputs or high-severity "
+               "findings).")
+    payload = {
+        "submission": str(result.submission.folder),
+        "submitted_version": result.submitted_version,
+        "this_version": result.this_version,
+        "run_time_utc": run_time,
+        "consistent": result.consistent,
+        "exit_code": result.exit_code,
+        "tolerance": TOLERANCE_TEXT,
+        "findings": [f.as_dict() for f in result.findings],
+        "integrity": result.integrity,
+        "differences": result.differences,
+        "sensitivity_summary": result.sensitivity_summary.to_dict(orient="records"),
+    }
+    with staged_folder(out_dir, overwrite) as staging:
+        (staging / "findings.json").write_text(
+            json.dumps(payload, indent=2, default=_json_default), encoding="utf-8")
+        write_verify_report(
+            staging / "verify.html", submission=str(result.submission.folder),
+            submitted_version=result.submitted_version, this_version=result.this_version,
+            run_time=run_time, verdict=verdict, exit_code=result.exit_code,
+            integrity=result.integrity, differences=result.differences,
+            tolerance_text=TOLERANCE_TEXT, findings=[f.as_dict() for f in result.findings],
+            sensitivity=result.sensitivity, sensitivity_summary=result.sensitivity_summary,
+            cautions=list(CAUTIONS))
+    return out_dir
+
+
+def _json_default(value):
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, (np.floating,)):
+        return None if np.isnan(value) else float(value)
+    if isinstance(value, np.bool_):
+        return bool(value)
+    return str(value)

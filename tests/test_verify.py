@@ -1,0 +1,137 @@
+"""`siting verify`: clean submissions pass; tampering, edits, implausible inputs are flagged."""
+
+import json
+import shutil
+
+import geopandas as gpd
+import pandas as pd
+import pytest
+
+from siting.cli import main
+from siting.resources import demo_dir
+from siting.verify import verify
+
+
+def _screen(tmp_path, name="sub", edit=None, habitats=None):
+    """Run `siting screen` on a copy of the demo (optionally edited) into tmp_path/name."""
+    folder = tmp_path / f"{name}_in"
+    shutil.copytree(demo_dir(), folder)
+    scenario = folder / "scenario.toml"
+    text = scenario.read_text()
+    text = text.replace("spacing_m = 25.0", "spacing_m = 100.0", 1)  # keep the tests quick
+    if edit:
+        text = edit(text)
+    scenario.write_text(text)
+    if habitats is not None:
+        habitats(folder / "habitats.gpkg")
+    out = tmp_path / name
+    assert main(["screen", str(scenario), "--out", str(out), "--quiet"]) == 0
+    return out
+
+
+@pytest.fixture(scope="module")
+def clean(tmp_path_factory):
+    return _screen(tmp_path_factory.mktemp("clean"))
+
+
+def _codes(result):
+    return {f.code for f in result.findings}
+
+
+def test_clean_submission_verifies(clean, tmp_path):
+    """A folder written by `screen` verifies clean: exit 0, inputs intact, same figures."""
+    rc = main(["verify", str(clean), "--out", str(tmp_path / "v"), "--quiet"])
+    assert rc == 0
+    payload = json.loads((tmp_path / "v" / "findings.json").read_text())
+    assert payload["consistent"] and payload["differences"] == []
+    assert all(row["status"] == "ok" for row in payload["integrity"])
+    assert not [f for f in payload["findings"] if f["severity"] == "high"]
+    assert (tmp_path / "v" / "verify.html").is_file()
+
+
+def test_tampered_input_is_flagged_and_explains_the_difference(clean, tmp_path):
+    """A changed packed input: INPUT_CHANGED, and the differing figures name it."""
+    sub = tmp_path / "sub"
+    shutil.copytree(clean, sub)
+    table = sub / "inputs" / "weather_table.csv"
+    frame = pd.read_csv(table)
+    frame.loc[frame["frequency"].idxmax(), "frequency"] *= 3  # more of the prevailing wind
+    frame.to_csv(table, index=False)
+    result = verify(sub)
+    assert {"INPUT_CHANGED", "RESULTS_DIFFER"} <= _codes(result)
+    assert result.exit_code == 1
+    assert result.differences and all("weather" in d["explained_by"]
+                                      for d in result.differences)
+
+
+def test_edited_result_figure_is_flagged(clean, tmp_path):
+    """An edited figure in sites.csv differs from the re-run, with no input to explain it."""
+    sub = tmp_path / "sub"
+    shutil.copytree(clean, sub)
+    sites = pd.read_csv(sub / "sites.csv")
+    sites.loc[0, "pc_pct_load"] *= 0.8
+    sites.to_csv(sub / "sites.csv", index=False)
+    result = verify(sub)
+    diffs = [d for d in result.differences if d["column"] == "pc_pct_load"]
+    assert len(diffs) == 1 and diffs[0]["id"] == sites.loc[0, "name"]
+    assert diffs[0]["relative_difference"] == pytest.approx(0.2, rel=1e-3)
+    assert diffs[0]["explained_by"] == ""
+    assert "RESULTS_DIFFER" in _codes(result) and result.exit_code == 1
+
+
+def test_inflated_reduction_is_flagged(tmp_path):
+    """An acid scrubber claimed at 99.9 %: outside the published 70-99 % (BATc2017, from memory)."""
+    out = _screen(tmp_path, edit=lambda t: t.replace('abatement = "acid_scrubber"',
+                                                     'abatement = "acid_scrubber"\n'
+                                                     "reduction_percent = 99.9", 1))
+    result = verify(out)
+    finding = next(f for f in result.findings if f.code == "REDUCTION_OUT_OF_RANGE")
+    assert finding.severity == "high" and finding.subject == 'source "H1"'
+    assert finding.evidence["published_range_percent"] == "70-99"
+    assert result.differences == [] and result.exit_code == 1
+
+
+def test_missing_habitat_site_is_flagged(tmp_path):
+    """A site left out of the submitted layer but within its search distance: SITE_LEFT_OUT."""
+    def drop_heath(path):
+        layer = gpd.read_file(path)
+        layer[layer["name"] != "Gorseburrow Heath"].to_file(path, layer="habitats", driver="GPKG")
+
+    out = _screen(tmp_path, habitats=drop_heath)
+    result = verify(out, reference_habitats=demo_dir() / "habitats.gpkg")
+    left_out = [f for f in result.findings if f.code == "SITE_LEFT_OUT"]
+    assert [f.subject for f in left_out] == ['site "Gorseburrow Heath"']
+    assert left_out[0].evidence["search_distance_m"] == 5000.0  # national tier: 5 km
+    assert result.exit_code == 1
+
+
+def test_sensitivity_brackets_the_central_result(clean):
+    """Each site's range over v_d and critical-load ends contains its central % of load."""
+    result = verify(clean)
+    variants = set(result.sensitivity["variant"])
+    assert {"central", "deposition velocity low", "deposition velocity high",
+            "critical load lower end", "critical load upper end"} <= variants
+    summary = result.sensitivity_summary
+    assert (summary["min_pct_load"] <= summary["central_pct_load"]).all()
+    assert (summary["central_pct_load"] <= summary["max_pct_load"]).all()
+    assert (summary["max_pct_load"] > summary["min_pct_load"]).all()  # the ranges have width
+
+
+def test_other_weather_year_is_a_variant(clean, tmp_path):
+    """--weather adds a variant per file (here the demo's hourly record)."""
+    result = verify(clean, weather_files=[demo_dir() / "hourly_weather.csv"])
+    assert "weather: hourly_weather.csv" in set(result.sensitivity["variant"])
+
+
+def test_unreadable_submission_exits_2(tmp_path, capsys):
+    """A folder without run.json cannot be verified: exit 2, nothing written."""
+    (tmp_path / "empty").mkdir()
+    rc = main(["verify", str(tmp_path / "empty"), "--out", str(tmp_path / "v")])
+    assert rc == 2 and not (tmp_path / "v").exists()
+    assert "run.json" in capsys.readouterr().err
+
+
+def test_scenario_plus_results_table(clean, tmp_path):
+    """A scenario file with the applicant's sites table re-runs and compares (no hashes)."""
+    result = verify(clean / "inputs" / "scenario.toml", results=clean / "sites.csv")
+    assert result.differences == [] and "NO_RUN_RECORD" in _codes(result)
