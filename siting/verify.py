@@ -21,6 +21,7 @@ import dataclasses
 import hashlib
 import json
 import math
+import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -152,16 +153,31 @@ def load_submission(path: Path, results: Path | None = None) -> Submission:
     files = package["files"]
     if "scenario" not in files:
         raise InputError(f"{record_path}: the package map names no scenario")
-    moved = {}
+    original_folder = Path(record.get("inputs", {}).get("scenario", {}).get("path", ".")).parent
+    moved: dict[str, Path] = {}
+
+    def move(original: str, now: Path) -> None:
+        """Where the packed scenario will look for a file it named, and where it is now: an
+        absolute name stays as written; a relative one now resolves against inputs/."""
+        original_path = Path(original).resolve()
+        moved[str(original_path)] = now.resolve()
+        relative = os.path.relpath(original_path, original_folder.resolve())
+        moved[str(Path(os.path.normpath(scenario_folder / relative)))] = now.resolve()
+
+    scenario_folder = (inputs / files["scenario"]).resolve().parent
     for key, relative in files.items():
         original = record.get("inputs", {}).get(key, {}).get("path")
-        if original and relative.startswith("_external/"):
-            moved[str(Path(original).resolve())] = (inputs / relative).resolve()
+        if original:
+            move(original, inputs / relative)
+    config_dir = inputs / package.get("config", "_config")
+    for entry in record.get("config_tables", {}).values():  # the tables' own folder, packed
+        move(str(Path(entry["path"]).parent), config_dir)
+        break
     sites = _read_csv(results if results else path / "sites.csv", "sites table")
     receptors = _read_csv(path / "receptors.csv", "receptors table") \
         if (path / "receptors.csv").exists() else None
     return Submission(path, record, sites, receptors, (inputs / files["scenario"]).resolve(),
-                      moved, inputs / package.get("config", "_config"))
+                      moved, config_dir)
 
 
 def check_integrity(sub: Submission) -> list[dict]:

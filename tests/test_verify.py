@@ -1,6 +1,7 @@
 """`siting verify`: clean submissions pass; tampering, edits, implausible inputs are flagged."""
 
 import json
+import re
 import shutil
 
 import geopandas as gpd
@@ -135,3 +136,49 @@ def test_scenario_plus_results_table(clean, tmp_path):
     """A scenario file with the applicant's sites table re-runs and compares (no hashes)."""
     result = verify(clean / "inputs" / "scenario.toml", results=clean / "sites.csv")
     assert result.differences == [] and "NO_RUN_RECORD" in _codes(result)
+
+
+def test_factor_below_table_and_underived_treated_share(tmp_path):
+    """A lowered factor in the applicant's own tables, a bare treated share: both flagged."""
+    from siting.resources import config_dir
+
+    def edit(text):
+        text = re.sub(r"(?m)^treated_air_fraction = [0-9.]+", "treated_air_fraction = 0.5", text,
+                      count=1)
+        return text + '\n[assessment]\nconfig_dir = "my_tables"\n'
+
+
+    folder_tables = tmp_path / "sub_in" / "my_tables"
+
+    def tables(_habitats_path):
+        shutil.copytree(config_dir(), folder_tables)
+        path = folder_tables / "emission_factors.toml"
+        path.write_text(path.read_text().replace("nh3_kg_per_place_yr = 2.813",
+                                                 "nh3_kg_per_place_yr = 1.5", 1))
+
+    out = _screen(tmp_path, edit=edit, habitats=tables)
+    result = verify(out)
+    below = next(f for f in result.findings if f.code == "FACTOR_BELOW_TABLE")
+    assert below.severity == "high" and below.evidence["table_kg_per_place_yr"] == 2.813
+    assert "EA2024" in below.evidence["source"]  # the table row's published source
+    assert "TREATED_SHARE_UNDERIVED" in _codes(result)
+    assert result.differences == []  # the run itself is reproducible; its inputs are not
+
+
+def test_package_stands_alone_with_inputs_from_elsewhere(tmp_path):
+    """Inputs named outside the scenario folder are packed too; the folder verifies elsewhere."""
+    def edit(text):
+        return text.replace('frequency_table = "weather_table.csv"',
+                            'frequency_table = "../shared_weather/weather_table.csv"', 1)
+
+    (tmp_path / "shared_weather").mkdir()
+    shutil.copy(demo_dir() / "weather_table.csv", tmp_path / "shared_weather")
+    out = _screen(tmp_path, edit=edit)
+    moved = tmp_path / "elsewhere" / "received"
+    shutil.copytree(out, moved)  # as if zipped, sent and unpacked on another machine
+    shutil.rmtree(out)
+    shutil.rmtree(tmp_path / "shared_weather")
+    shutil.rmtree(tmp_path / "sub_in")
+    result = verify(moved)
+    assert result.consistent, [f.code for f in result.findings if f.severity == "high"]
+    assert (moved / "inputs" / "_external" / "weather" / "weather_table.csv").is_file()
