@@ -5,10 +5,12 @@ CSS, figures inlined as base64 PNG data URLs, no scripts and no links outside th
 regulator can open it offline years later. No physics lives here: every number shown was computed
 elsewhere; this module only formats and tabulates it. The figures are drawn by
 :mod:`siting.figures` and arrive as PNG bytes; number formatting and the other presentation
-helpers shared with :mod:`siting.webmap` live in :mod:`siting.presentation`. Numbers are
-formatted by what their column measures, read from the unit suffix of the column name
-(:func:`siting.presentation.format_for_column`). Text from user files (site names, designations,
-source ids, the title) is HTML-escaped wherever it enters the page.
+helpers shared with :mod:`siting.webmap` live in :mod:`siting.presentation`, and the small HTML
+building blocks shared with the verification report (stylesheet, escaping, labels, value
+display) in :mod:`siting.html_parts`. Numbers are formatted by what their column measures, read
+from the unit suffix of the column name (:func:`siting.presentation.format_for_column`). Text
+from user files (site names, designations, source ids, the title) is HTML-escaped wherever it
+enters the page.
 
 The page is laid out to fit an A4 or Letter page, on screen and in print: no table is wider than
 the page (the sources table is transposed, one column per source, and split into blocks of a few
@@ -25,14 +27,26 @@ from __future__ import annotations
 import base64
 import html
 import json
-from collections.abc import Mapping, Sequence
+from collections.abc import Mapping
 from pathlib import Path, PurePath
 from typing import Any
 
-import numpy as np
 import pandas as pd
 
 from siting.errors import InputError
+from siting.html_parts import (
+    NOT_APPLICABLE,
+    SHARED_CSS,
+    VERDICT_STYLE,
+    bullet_list,
+    code_html,
+    display_value,
+    esc,
+    header_html,
+    is_number,
+    is_share,
+    plain_label,
+)
 from siting.presentation import MISSING_TEXT, format_for_column, format_percent, is_missing
 
 __all__ = ["SUMMARY_COLUMNS", "write_report"]
@@ -52,36 +66,6 @@ SUMMARY_COLUMNS: tuple[tuple[str, str], ...] = (
     ("pc_pct_load", "PC as % of the critical load"),
     ("threshold_percent", "screening threshold [%]"),
     ("verdict", "verdict"),
-)
-
-#: CSS class and plain-words hint per verdict (styling of the verdict cell).
-_VERDICT_STYLE = {
-    "below threshold": ("verdict-below", "insignificant at screening"),
-    "above threshold": ("verdict-above", "needs further assessment"),
-    "not assessed": ("verdict-none", "no PC figure for this site"),
-}
-
-#: Shown in a transposed table where a step does not apply to a source (e.g. no abatement).
-_NOT_APPLICABLE = "–"
-
-#: Unit suffixes of column names and the unit shown in a label, longest first. `_fraction` and
-#: `_share` values are shown as percentages (see :func:`_display_value`).
-_UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
-    ("_kg_n_ha_yr", "kg N/ha/yr"),
-    ("_mol_n_ha_yr", "mol N/ha/yr"),
-    ("_keq_ha_yr", "keq/ha/yr"),
-    ("_kg_per_place_yr", "kg/place/yr"),
-    ("_ug_m3", "µg/m³"),
-    ("_m3_yr", "m³/yr"),
-    ("_kg_yr", "kg/yr"),
-    ("_g_s", "g/s"),
-    ("_m_s", "m/s"),
-    ("_percent", "%"),
-    ("_fraction", "%"),
-    ("_deg", "deg"),
-    ("_ha", "ha"),
-    ("_m", "m"),
-    ("_s", "s"),
 )
 
 #: Transposed sources table: (group heading, ((column in `sources`, row label), ...)), in the
@@ -242,196 +226,9 @@ _CAUTION_TOP_LINE = (
     "The competent authority and local regulations decide."
 )
 
-_CSS = """
-:root { --ink: #1d2430; --muted: #5a6472; --rule: #c9ced6; --band: #f3f5f8; --accent: #23436b;
-        --warn-bg: #fbe0d8; --warn-ink: #7f1d0b; --warn-rule: #c2543a; }
-* { box-sizing: border-box; }
-body { font-family: "Segoe UI", "Helvetica Neue", Arial, sans-serif; color: var(--ink);
-       margin: 0 auto; max-width: 1200px; padding: 1.2rem 1.6rem 3rem; line-height: 1.45; }
-h1 { font-size: 1.6rem; margin: 0.4rem 0 0.2rem; color: var(--accent); }
-h2 { font-size: 1.25rem; margin-top: 2rem; border-bottom: 2px solid var(--accent);
-     padding-bottom: 0.2rem; color: var(--accent); }
-h3 { font-size: 1.05rem; margin-top: 1.4rem; }
-h4 { font-size: 0.95rem; margin: 1rem 0 0.2rem; }
-.meta { color: var(--muted); font-size: 0.9rem; margin: 0 0 0.8rem; }
-.note { color: var(--muted); font-size: 0.9em; margin: 0.2rem 0 0.8rem; }
-.caution-line { background: #fff4d6; border: 1px solid #d9a400; border-left: 6px solid #d9a400;
-                padding: 0.5rem 0.8rem; font-weight: 600; margin: 0.6rem 0 1rem; }
-.cautions { background: #fff4d6; border: 2px solid #d9a400; padding: 0.6rem 1.2rem;
-            font-size: 1.02rem; }
-.cautions li { margin: 0.3rem 0; }
-nav.toc { font-size: 0.92rem; }
-nav.toc ol { margin: 0.2rem 0 0; padding-left: 1.4rem; }
-table { border-collapse: collapse; margin: 0.6rem 0 1rem; font-size: 0.9rem; max-width: 100%; }
-th, td { border: 1px solid var(--rule); padding: 0.28rem 0.5rem; vertical-align: top; }
-th { background: #e4e8ee; text-align: left; }
-thead th { vertical-align: bottom; }
-th .unit { display: block; font-weight: 400; font-size: 0.9em; color: var(--muted);
-           white-space: nowrap; }
-th.group { text-align: center; border-bottom-color: var(--accent); }
-td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
-td.na { color: var(--muted); text-align: center; }
-td.over { color: var(--warn-ink); font-weight: 700; }
-tbody tr:nth-child(even) { background: var(--band); }
-.table-wrap { overflow-x: auto; }
-.sub { display: block; font-size: 0.87em; color: var(--muted); }
-.cite { font-size: 0.85em; line-height: 1.3; color: #3b4452; overflow-wrap: anywhere; }
-.mono { font-family: "DejaVu Sans Mono", Consolas, "Liberation Mono", monospace;
-        font-size: 0.87em; overflow-wrap: anywhere; }
-sup.ref { font-size: 0.78em; color: var(--accent); margin-left: 0.15em; }
-table.fit { width: 100%; }
-table.summary th { font-size: 0.92em; }
-table.summary td.site { min-width: 8em; }
-table.summary .site-name { font-weight: 600; }
-table.derivation { width: 100%; table-layout: fixed; }
-table.derivation col.label { width: 16em; }
-table.derivation tbody th { font-weight: 600; background: #eef1f5; }
-tr.step-group th { background: #d5dce6; color: var(--accent); font-size: 0.9em;
-                   text-transform: uppercase; letter-spacing: 0.03em; }
-table.derivation tr.result td { font-weight: 700; }
-table.derivation td { overflow-wrap: anywhere; }
-td.flag { background: var(--warn-bg); color: var(--warn-ink); font-weight: 700;
-          border: 2px solid var(--warn-rule); }
-th.flagged { background: var(--warn-bg); color: var(--warn-ink); }
-table.mini { margin: 0; font-size: 0.95em; }
-table.mini th, table.mini td { padding: 0.1rem 0.45rem; text-align: center; }
-table.compact td, table.compact th { padding: 0.18rem 0.5rem; }
-ol.cite-list { font-size: 0.9em; color: #3b4452; padding-left: 2.2rem; }
-ol.cite-list li { margin: 0.15rem 0; }
-.verdict { font-weight: 700; padding: 0.1rem 0.45rem; border-radius: 0.25rem; white-space: nowrap;
-           display: inline-block; }
-.verdict-above { background: var(--warn-bg); color: var(--warn-ink);
-                 border: 1px solid var(--warn-rule); }
-.verdict-below { background: #dbe9f6; color: #0b3c6e; border: 1px solid #4a7fb5; }
-.verdict-none { background: #ececec; color: #3d3d3d; border: 1px dashed #8a8a8a; }
-.verdict-hint { display: block; font-size: 0.83em; color: var(--muted); font-weight: 400; }
-.empty { color: var(--muted); font-style: italic; }
-figure { margin: 1rem 0 1.6rem; }
-figure img { max-width: 100%; height: auto; border: 1px solid var(--rule); }
-figcaption { color: var(--muted); font-size: 0.9rem; margin-top: 0.3rem; }
-details { margin: 0.8rem 0; }
-details summary { cursor: pointer; color: var(--accent); }
-pre.record { background: var(--band); border: 1px solid var(--rule); padding: 0.6rem;
-             font-size: 0.78rem; white-space: pre-wrap; word-break: break-all; }
-tr, img, figure { page-break-inside: avoid; break-inside: avoid; }
-thead { display: table-header-group; }
-table.keyval > tbody > tr > th { min-width: 13em; }
-@page { size: A4 portrait; margin: 14mm 12mm; }
-@media print {
-  body { max-width: none; padding: 0; font-size: 9.5pt; }
-  table { font-size: 8pt; }
-  th, td { padding: 0.12rem 0.25rem; }
-  h1, h2, h3, h4 { page-break-after: avoid; break-after: avoid; }
-  tr.step-group { page-break-after: avoid; break-after: avoid; }
-  .table-wrap { overflow: visible; }
-  nav.toc { display: none; }
-  a { color: inherit; text-decoration: none; }
-  figure { margin: 0.6rem 0 1rem; }
-  figure img { max-height: 100mm; width: auto; }
-  figcaption { page-break-before: avoid; break-before: avoid; }
-  .cautions, .caution-line, table.mini, li { page-break-inside: avoid; break-inside: avoid; }
-  #run-record table { page-break-inside: avoid; break-inside: avoid; }
-  .cautions, .caution-line, .verdict, td.flag, th.flagged, tr.step-group th {
-    -webkit-print-color-adjust: exact; print-color-adjust: exact; }
-}
-"""
-
 # --------------------------------------------------------------------------------------------
 # The report: small HTML builders
 # --------------------------------------------------------------------------------------------
-
-
-def _esc(value: Any) -> str:
-    """HTML-escaped text of any value (None/NaN -> 'n/a')."""
-    if is_missing(value):
-        return MISSING_TEXT
-    return html.escape(str(value), quote=True)
-
-
-def _code(value: Any) -> str:
-    """Escaped identifier-like text that may wrap after underscores (``partly_<wbr>slatted``)."""
-    return _esc(value).replace("_", "_<wbr>")
-
-
-def _head(label: str, unit: str = "") -> str:
-    """Contents of a header cell: the label, and the unit on a second, muted line."""
-    unit_html = f'<span class="unit">{html.escape(unit)}</span>' if unit else ""
-    return f"{html.escape(label)}{unit_html}"
-
-
-def _plain_label(key: str) -> str:
-    """A readable label made from a column or key name, its unit suffix in brackets.
-
-    ``"calm_fraction"`` -> ``"Calm [%]"``, ``"distance_m"`` -> ``"Distance [m]"``.
-    """
-    name = str(key)
-    unit = ""
-    for suffix, shown in _UNIT_SUFFIXES:
-        if name.lower().endswith(suffix) and len(name) > len(suffix):
-            name, unit = name[: -len(suffix)], shown
-            break
-    words = name.replace("_", " ").strip()
-    words = words[:1].upper() + words[1:]
-    return f"{words} [{unit}]" if unit else words
-
-
-def _is_share(key: str) -> bool:
-    """True when a key names a dimensionless share 0..1 (shown as a percentage)."""
-    name = str(key).lower()
-    return name.endswith("_fraction") or name.startswith("share") or name.endswith("_share")
-
-
-def _compass(direction_deg: float) -> str:
-    """16-point compass name of a direction [deg clockwise from north]."""
-    points = ("N", "NNE", "NE", "ENE", "E", "ESE", "SE", "SSE",
-              "S", "SSW", "SW", "WSW", "W", "WNW", "NW", "NNW")  # fmt: skip
-    return points[int(round(float(direction_deg) / 22.5)) % 16]
-
-
-def _display_value(key: str, value: Any) -> str:
-    """HTML of one value of a key/value listing, formatted by what its key names.
-
-    Shares and fractions become percentages, lists are joined with ", ", a mapping of shares
-    becomes a small row of percentages, other mappings "key: value" pairs, and a prevailing
-    direction gets its compass point. Text is escaped.
-    """
-    if isinstance(value, Mapping):
-        if value and _is_share(key) and all(_is_number(v) for v in value.values()):
-            head = "".join(f"<th>{_esc(k)}</th>" for k in value)
-            cells = "".join(
-                f"<td>{html.escape(format_percent(100.0 * float(v)))} %</td>"
-                for v in value.values()
-            )
-            return (
-                f'<table class="mini"><thead><tr>{head}</tr></thead>'
-                f"<tbody><tr>{cells}</tr></tbody></table>"
-            )
-        return ", ".join(f"{_esc(k)}: {_display_value(str(k), v)}" for k, v in value.items())
-    if isinstance(value, (list, tuple)) and value and all(isinstance(v, Mapping) for v in value):
-        columns = list(dict.fromkeys(k for row in value for k in row))
-        head = "".join(f"<th>{_esc(_plain_label(c))}</th>" for c in columns)
-        body = "".join(
-            "<tr>" + "".join(f"<td>{_display_value(c, row.get(c))}</td>" for c in columns) + "</tr>"
-            for row in value
-        )
-        return f'<table class="mini"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
-    if isinstance(value, (list, tuple, np.ndarray)):
-        return ", ".join(_display_value(key, v) for v in value) or _NOT_APPLICABLE
-    if _is_share(key) and _is_number(value):
-        return html.escape(format_percent(100.0 * float(value)))
-    text = html.escape(format_for_column(value, key))
-    if str(key).endswith("from_deg") and _is_number(value):
-        text += f" ({_compass(float(value))})"
-    return text
-
-
-def _is_number(value: Any) -> bool:
-    """True for a real number (bool excluded) that is not missing."""
-    return (
-        isinstance(value, (int, float, np.integer, np.floating))
-        and not isinstance(value, (bool, np.bool_))
-        and not is_missing(value)
-    )
 
 
 def _key_value_table(
@@ -442,21 +239,13 @@ def _key_value_table(
         return f'<p class="empty">{html.escape(empty_text)}</p>'
     rows = []
     for key, value in mapping.items():
-        label = labels.get(str(key), _plain_label(str(key)))
+        label = labels.get(str(key), plain_label(str(key)))
         rows.append(
             f'<tr><th scope="row">{html.escape(label)}</th>'
-            f"<td>{_display_value(str(key), value)}</td></tr>"
+            f"<td>{display_value(str(key), value)}</td></tr>"
         )
     cls = f' class="{css}"' if css else ""
     return f"<table{cls}><tbody>{''.join(rows)}</tbody></table>"
-
-
-def _bullet_list(items: Sequence[str], empty_text: str, css_class: str = "") -> str:
-    """An escaped <ul>, or a muted paragraph when the list is empty."""
-    if not items:
-        return f'<p class="empty">{html.escape(empty_text)}</p>'
-    cls = f' class="{css_class}"' if css_class else ""
-    return f"<ul{cls}>" + "".join(f"<li>{_esc(item)}</li>" for item in items) + "</ul>"
 
 
 class _Notes:
@@ -476,7 +265,7 @@ class _Notes:
         """The notes as an ordered list under a small heading ('' when there are none)."""
         if not self._numbers:
             return ""
-        items = "".join(f"<li>{_esc(text)}</li>" for text in self._numbers)
+        items = "".join(f"<li>{esc(text)}</li>" for text in self._numbers)
         return f'<h4>{html.escape(heading)}</h4><ol class="cite-list">{items}</ol>'
 
 
@@ -488,8 +277,8 @@ class _Notes:
 def _verdict_cell(value: Any) -> str:
     """The verdict <td>: a coloured badge and a plain-words hint."""
     text = "" if is_missing(value) else str(value)
-    css, hint = _VERDICT_STYLE.get(text.strip().lower(), ("verdict-none", ""))
-    shown = _esc(text) if text else MISSING_TEXT
+    css, hint = VERDICT_STYLE.get(text.strip().lower(), ("verdict-none", ""))
+    shown = esc(text) if text else MISSING_TEXT
     hint_html = f'<span class="verdict-hint">{html.escape(hint)}</span>' if hint else ""
     return f'<td class="verdict-cell"><span class="verdict {css}">{shown}</span>{hint_html}</td>'
 
@@ -503,7 +292,7 @@ def _number_cell(value: Any, column: str, css: str = "") -> str:
 def _percent_cell(value: Any, column: str, threshold: Any) -> str:
     """A % <td>; marked when over the threshold, with more decimals when rounding would hide
     the difference from the threshold (1.04 % against 1 % shows "1.04", not "1.0")."""
-    if is_missing(value) or not _is_number(value) or not _is_number(threshold):
+    if is_missing(value) or not is_number(value) or not is_number(threshold):
         return _number_cell(value, column)
     number, limit = float(value), float(threshold)
     decimals = 1
@@ -522,23 +311,23 @@ def _summary_table(sites: pd.DataFrame) -> str:
     )
     n_dep = 4 if show_incomb else 3
     head_top = (
-        f'<th rowspan="2">{_head("Site", "designation")}</th>'
-        f'<th rowspan="2">{_head("Verdict")}</th>'
-        f'<th rowspan="2">{_head("Habitat")}</th>'
-        f'<th colspan="3" class="group">{_head("Ammonia concentration")}</th>'
-        f'<th colspan="{n_dep}" class="group">{_head("Nitrogen deposition")}</th>'
-        f'<th rowspan="2">{_head("Threshold", "%")}</th>'
+        f'<th rowspan="2">{header_html("Site", "designation")}</th>'
+        f'<th rowspan="2">{header_html("Verdict")}</th>'
+        f'<th rowspan="2">{header_html("Habitat")}</th>'
+        f'<th colspan="3" class="group">{header_html("Ammonia concentration")}</th>'
+        f'<th colspan="{n_dep}" class="group">{header_html("Nitrogen deposition")}</th>'
+        f'<th rowspan="2">{header_html("Threshold", "%")}</th>'
     )
     head_sub = [
-        _head("Critical level", "µg NH3/m³"),
-        _head("PC max", "µg NH3/m³"),
-        _head("PC", "% of level"),
-        _head("Critical load", "kg N/ha/yr"),
-        _head("PC max", "kg N/ha/yr"),
-        _head("PC", "% of load"),
+        header_html("Critical level", "µg NH3/m³"),
+        header_html("PC max", "µg NH3/m³"),
+        header_html("PC", "% of level"),
+        header_html("Critical load", "kg N/ha/yr"),
+        header_html("PC max", "kg N/ha/yr"),
+        header_html("PC", "% of load"),
     ]
     if show_incomb:
-        head_sub.append(_head("In-comb.", "% of load"))
+        head_sub.append(header_html("In-comb.", "% of load"))
     head = (
         f"<tr>{head_top}</tr><tr>" + "".join(f"<th>{h}</th>" for h in head_sub) + "</tr>"
     )
@@ -546,13 +335,13 @@ def _summary_table(sites: pd.DataFrame) -> str:
     for _, record in sites.iterrows():
         designation = record.get("designation")
         designation_html = (
-            "" if is_missing(designation) else f'<span class="sub">{_esc(designation)}</span>'
+            "" if is_missing(designation) else f'<span class="sub">{esc(designation)}</span>'
         )
         habitat = record.get("habitat_name")
-        habitat_html = _esc(habitat) if not is_missing(habitat) else _code(record.get("habitat"))
+        habitat_html = esc(habitat) if not is_missing(habitat) else code_html(record.get("habitat"))
         threshold = record.get("threshold_percent")
         cells = [
-            f'<td class="site"><span class="site-name">{_esc(record.get("name"))}</span>'
+            f'<td class="site"><span class="site-name">{esc(record.get("name"))}</span>'
             f"{designation_html}</td>",
             _verdict_cell(record.get("verdict")),
             f"<td>{habitat_html}</td>",
@@ -610,10 +399,12 @@ def _change_table(sites: pd.DataFrame) -> str:
                if c[0] in sites and any(not is_missing(v) for v in sites[c[0]])]
     if not columns:
         return ""
-    head = "<th>Site</th>" + "".join(f"<th>{_head(label, unit)}</th>" for _, label, unit in columns)
+    head = "<th>Site</th>" + "".join(
+        f"<th>{header_html(label, unit)}</th>" for _, label, unit in columns
+    )
     rows = []
     for _, record in sites.iterrows():
-        cells = [f'<td class="site"><span class="site-name">{_esc(record.get("name"))}</span></td>']
+        cells = [f'<td class="site"><span class="site-name">{esc(record.get("name"))}</span></td>']
         cells += [_number_cell(record.get(col), col) for col, _, _ in columns]
         rows.append(f"<tr>{''.join(cells)}</tr>")
     note = (
@@ -643,18 +434,18 @@ def _source_ids(sources: pd.DataFrame) -> list[str]:
 def _derivation_cell(column: str, value: Any) -> str:
     """One <td> of the transposed sources table, styled by what the row holds."""
     if is_missing(value):
-        return f'<td class="na">{_NOT_APPLICABLE}</td>'
+        return f'<td class="na">{NOT_APPLICABLE}</td>'
     if column in _FLAG_ROWS:
-        return f'<td class="flag">⚠ {_esc(value)}</td>'
+        return f'<td class="flag">⚠ {esc(value)}</td>'
     if column in _CITATION_ROWS:
-        return f'<td class="cite">{_esc(value)}</td>'
-    if _is_share(column) and _is_number(value):
+        return f'<td class="cite">{esc(value)}</td>'
+    if is_share(column) and is_number(value):
         return f'<td class="num">{html.escape(format_percent(100.0 * float(value)))}</td>'
-    if _is_number(value):
+    if is_number(value):
         return _number_cell(value, column)
     if isinstance(value, str) and len(value) > 40:
-        return f'<td class="cite">{_esc(value)}</td>'
-    return f"<td>{_code(value)}</td>"
+        return f'<td class="cite">{esc(value)}</td>'
+    return f"<td>{code_html(value)}</td>"
 
 
 def _sources_table(sources: pd.DataFrame) -> str:
@@ -667,7 +458,7 @@ def _sources_table(sources: pd.DataFrame) -> str:
     ids = _source_ids(sources)
     listed = {column for _, rows in _DERIVATION_ROWS for column, _ in rows}
     skip = listed | {"source_id", "id", "geometry"}
-    extra = tuple((c, _plain_label(c)) for c in map(str, sources.columns) if c not in skip)
+    extra = tuple((c, plain_label(c)) for c in map(str, sources.columns) if c not in skip)
     groups = list(_DERIVATION_ROWS) + ([("Other", extra)] if extra else [])
 
     def filled(column: str) -> bool:
@@ -681,9 +472,9 @@ def _sources_table(sources: pd.DataFrame) -> str:
     for start in range(0, len(sources), _SOURCES_PER_BLOCK):
         part = range(start, min(start + _SOURCES_PER_BLOCK, len(sources)))
         head = "".join(
-            f'<th class="flagged" scope="col">{_esc(ids[i])} ⚠</th>'
+            f'<th class="flagged" scope="col">{esc(ids[i])} ⚠</th>'
             if flagged[i]
-            else f'<th scope="col">{_esc(ids[i])}</th>'
+            else f'<th scope="col">{esc(ids[i])}</th>'
             for i in part
         )
         body = []
@@ -730,8 +521,8 @@ def _habitat_table(values: pd.DataFrame) -> str:
     head = ["<th>Habitat</th>"]
     if filled("land_cover"):
         head.append("<th>Land cover</th>")
-    head += [f"<th>{_head(label, unit)}</th>" for label, unit, _, _ in specs]
-    head += [f"<th>{html.escape(_plain_label(c))}</th>" for c in extra_values]
+    head += [f"<th>{header_html(label, unit)}</th>" for label, unit, _, _ in specs]
+    head += [f"<th>{html.escape(plain_label(c))}</th>" for c in extra_values]
     if extra_sources:
         head.append("<th>Other sources</th>")
 
@@ -740,12 +531,12 @@ def _habitat_table(values: pd.DataFrame) -> str:
     for _, record in values.iterrows():
         get = record.get
         name, code = get("habitat_name"), get("habitat")
-        main = _esc(name) if not is_missing(name) else _code(code)
+        main = esc(name) if not is_missing(name) else code_html(code)
         both = not is_missing(name) and not is_missing(code)
-        sub = f'<span class="sub">{_code(code)}</span>' if both else ""
+        sub = f'<span class="sub">{code_html(code)}</span>' if both else ""
         cells = [f"<td>{main}{notes.ref(get('source'))}{sub}</td>"]
         if filled("land_cover"):
-            cells.append(f"<td>{_code(get('land_cover'))}</td>")
+            cells.append(f"<td>{code_html(get('land_cover'))}</td>")
         for _, _, value_columns, source_column in specs:
             text = "–".join(format_for_column(get(c), c) for c in value_columns)
             ref = notes.ref(get(source_column)) if source_column else ""
@@ -754,8 +545,8 @@ def _habitat_table(values: pd.DataFrame) -> str:
             value = get(column)
             cells.append(
                 _number_cell(value, column)
-                if _is_number(value)
-                else f"<td>{_display_value(column, value)}</td>"
+                if is_number(value)
+                else f"<td>{display_value(column, value)}</td>"
             )
         if extra_sources:
             cells.append("<td>" + "".join(notes.ref(get(c)) for c in extra_sources) + "</td>")
@@ -775,10 +566,10 @@ def _thresholds_table(sites: pd.DataFrame) -> str:
                if c in sites]  # fmt: skip
     table = pd.DataFrame(sites[columns]).drop_duplicates()
     labels = {
-        "designation": _head("Designation"),
-        "tier": _head("Tier"),
-        "threshold_percent": _head("Threshold", "% of CLe and CL"),
-        "threshold_source": _head("Where the threshold comes from"),
+        "designation": header_html("Designation"),
+        "tier": header_html("Tier"),
+        "threshold_percent": header_html("Threshold", "% of CLe and CL"),
+        "threshold_source": header_html("Where the threshold comes from"),
     }
     head = "".join(f"<th>{labels[c]}</th>" for c in columns)
     rows = []
@@ -788,9 +579,9 @@ def _thresholds_table(sites: pd.DataFrame) -> str:
             if c == "threshold_percent":
                 cells.append(_number_cell(record[c], c))
             elif c == "threshold_source":
-                cells.append(f'<td class="cite">{_esc(record[c])}</td>')
+                cells.append(f'<td class="cite">{esc(record[c])}</td>')
             else:
-                cells.append(f"<td>{_code(record[c])}</td>")
+                cells.append(f"<td>{code_html(record[c])}</td>")
         rows.append(f"<tr>{''.join(cells)}</tr>")
     return (
         "<h3>Screening thresholds used</h3>"
@@ -809,7 +600,7 @@ def _settings_table(parameters: Mapping[str, Any]) -> str:
         if key in _SETTINGS_SHOWN_ELSEWHERE:
             continue
         if isinstance(value, Mapping):
-            groups.append((_plain_label(key), dict(value)))
+            groups.append((plain_label(key), dict(value)))
         elif isinstance(value, (list, tuple)) and any(isinstance(v, Mapping) for v in value):
             continue  # a list of tables, e.g. sources: shown elsewhere
         else:
@@ -823,9 +614,9 @@ def _settings_table(parameters: Mapping[str, Any]) -> str:
             shown = (
                 '<span class="empty">not set</span>'
                 if value is None
-                else _display_value(str(key), value)
+                else display_value(str(key), value)
             )
-            label = _SETTING_LABELS.get(str(key), _plain_label(str(key)))
+            label = _SETTING_LABELS.get(str(key), plain_label(str(key)))
             rows.append(f'<tr><th scope="row">{html.escape(label)}</th><td>{shown}</td></tr>')
     if not rows:
         return ""
@@ -850,16 +641,16 @@ def _file_hash_table(files: Mapping[str, Any], first_header: str) -> str:
     for key, entry in entries.items():
         path = entry.get("path")
         if is_missing(path):
-            file_html = f'<td class="na">{_NOT_APPLICABLE}</td>'
+            file_html = f'<td class="na">{NOT_APPLICABLE}</td>'
         else:
             pure = PurePath(str(path))
             folder = str(pure.parent) if str(pure.parent) not in ("", ".") else ""
-            folder_html = f'<span class="sub mono">{_esc(folder)}</span>' if folder else ""
-            file_html = f"<td>{_esc(pure.name)}{folder_html}</td>"
-        key_html = f"<td>{_code(key)}</td>" if show_key else ""
+            folder_html = f'<span class="sub mono">{esc(folder)}</span>' if folder else ""
+            file_html = f"<td>{esc(pure.name)}{folder_html}</td>"
+        key_html = f"<td>{code_html(key)}</td>" if show_key else ""
         rows.append(
             f"<tr>{key_html}{file_html}"
-            f'<td class="mono">{_esc(entry.get("sha256"))}</td></tr>'
+            f'<td class="mono">{esc(entry.get("sha256"))}</td></tr>'
         )
     key_head = f"<th>{html.escape(first_header)}</th>" if show_key else ""
     return (
@@ -896,8 +687,8 @@ def _run_record_html(record: Mapping[str, Any]) -> str:
         done.add("grid")
     if isinstance(record.get("versions"), Mapping) and record["versions"]:
         versions = record["versions"]
-        head = "".join(f"<th>{_esc(k)}</th>" for k in versions)
-        cells = "".join(f'<td class="mono">{_esc(v)}</td>' for v in versions.values())
+        head = "".join(f"<th>{esc(k)}</th>" for k in versions)
+        cells = "".join(f'<td class="mono">{esc(v)}</td>' for v in versions.values())
         parts.append(
             "<h4>Software versions</h4>"
             f'<table class="compact"><thead><tr>{head}</tr></thead>'
@@ -905,7 +696,7 @@ def _run_record_html(record: Mapping[str, Any]) -> str:
         )
         done.add("versions")
     if isinstance(record.get("timings_s"), Mapping) and record["timings_s"]:
-        timing_labels = {k: _plain_label(k) for k in record["timings_s"]}
+        timing_labels = {k: plain_label(k) for k in record["timings_s"]}
         timing_labels["receptors"] = "Receptor points computed"
         parts.append("<h4>Timings</h4>" + _key_value_table(record["timings_s"], timing_labels, "",
                                                           css="compact"))
@@ -918,7 +709,7 @@ def _run_record_html(record: Mapping[str, Any]) -> str:
     notes = []
     if "parameters" in record:
         notes.append("model settings: see section 2 (and the raw record below)")
-    notes += [f"{_plain_label(k).lower()}: see {where}" for k, where in elsewhere]
+    notes += [f"{plain_label(k).lower()}: see {where}" for k, where in elsewhere]
     if notes:
         text = "; ".join(notes)
         parts.append(f'<p class="note">{html.escape(text[:1].upper() + text[1:])}.</p>')
@@ -943,8 +734,8 @@ def _figures_html(
             raise InputError(f"report figure {caption!r}: expected PNG bytes")
         data = base64.b64encode(bytes(png)).decode("ascii")
         parts.append(
-            f'<figure><img src="data:image/png;base64,{data}" alt="{_esc(caption)}">'
-            f"<figcaption>{_esc(caption)}</figcaption></figure>"
+            f'<figure><img src="data:image/png;base64,{data}" alt="{esc(caption)}">'
+            f"<figcaption>{esc(caption)}</figcaption></figure>"
         )
     return "".join(parts)
 
@@ -1048,7 +839,7 @@ def write_report(
         (
             "summary",
             "1. Summary",
-            f"<p>{len(sites)} habitat site(s): {_esc(count_text)}. "
+            f"<p>{len(sites)} habitat site(s): {esc(count_text)}. "
             "Each figure is the maximum process contribution (PC) of the assessed sources over "
             "the site. The verdict compares the PC, as a percentage of the critical level and of "
             "the critical load, with the site's screening threshold; section 3 states how.</p>"
@@ -1079,7 +870,7 @@ def write_report(
         (
             "method",
             "3. Method and assumptions",
-            _bullet_list(method_notes, "No method notes recorded."),
+            bullet_list(method_notes, "No method notes recorded."),
         ),
         (
             "figures",
@@ -1091,11 +882,11 @@ def write_report(
                 else ""
             ),
         ),
-        ("warnings", "5. Warnings", _bullet_list(warnings, "No warnings were raised.")),
+        ("warnings", "5. Warnings", bullet_list(warnings, "No warnings were raised.")),
         (
             "cautions",
             "6. Cautions",
-            f'<div class="cautions">{_bullet_list(cautions, "No cautions given.")}</div>',
+            f'<div class="cautions">{bullet_list(cautions, "No cautions given.")}</div>',
         ),
         ("run-record", "7. Run record", _run_record_html(run_record)),
     ]
@@ -1108,12 +899,12 @@ def write_report(
         "<!DOCTYPE html>\n"
         '<html lang="en"><head><meta charset="utf-8">'
         '<meta name="viewport" content="width=device-width, initial-scale=1">'
-        f"<title>{_esc(title)} · siting report</title>"
-        f"<style>{_CSS}</style></head><body>"
+        f"<title>{esc(title)} · siting report</title>"
+        f"<style>{SHARED_CSS}</style></head><body>"
         f'<p class="caution-line">{html.escape(_CAUTION_TOP_LINE)}</p>'
-        f"<h1>{_esc(title)}</h1>"
-        f'<p class="meta">Ammonia screening report · siting {_esc(version)} · '
-        f"run {_esc(run_time)} · scenario {_esc(scenario_file)}</p>"
+        f"<h1>{esc(title)}</h1>"
+        f'<p class="meta">Ammonia screening report · siting {esc(version)} · '
+        f"run {esc(run_time)} · scenario {esc(scenario_file)}</p>"
         f'<nav class="toc"><strong>Contents</strong><ol>{toc}</ol></nav>'
         f"{body}</body></html>\n"
     )

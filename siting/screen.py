@@ -167,7 +167,7 @@ def derive_sources(scenario: Scenario, tables: Tables,
     return pd.DataFrame(rows), warnings
 
 
-def _site_lat_lon(scenario: Scenario) -> tuple[float, float]:
+def site_lat_lon(scenario: Scenario) -> tuple[float, float]:
     """Latitude and longitude [deg] of the sources' centre, from the scenario CRS."""
     from pyproj import Transformer
 
@@ -180,7 +180,7 @@ def _site_lat_lon(scenario: Scenario) -> tuple[float, float]:
 def _read_hourly(scenario: Scenario):
     from siting.weather_hourly import read_hourly_record
 
-    lat, lon = _site_lat_lon(scenario)
+    lat, lon = site_lat_lon(scenario)
     w = scenario.weather
     return read_hourly_record(w.hourly, lat, lon, anemometer_height_m=w.anemometer_height_m,
                               utc_offset_h=w.utc_offset_h, calm_threshold_m_s=w.calm_threshold_m_s,

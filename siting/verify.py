@@ -410,9 +410,9 @@ def _weather_findings(scenario, result) -> list[Finding]:
     else:
         from pyproj import Geod
 
-        from siting.screen import _site_lat_lon
+        from siting.screen import site_lat_lon
 
-        lat, lon = _site_lat_lon(scenario)
+        lat, lon = site_lat_lon(scenario)
         _, _, distance = Geod(ellps="WGS84").inv(lon, lat, w.station_longitude_deg,
                                                  w.station_latitude_deg)
         medium, high = STATION_DISTANCE_M

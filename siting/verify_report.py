@@ -7,11 +7,12 @@ plausibility findings and the sensitivity runs all arrive as plain data, and thi
 orders, formats and tabulates them. Text that may come from the applicant's files (site names,
 file names, source ids, finding subjects, evidence) is HTML-escaped wherever it enters the page.
 
-The page reuses the screening report's stylesheet, escaping and key/value formatting (private
-helpers of :mod:`siting.report`, imported rather than copied, so both pages read alike) and the
-number formatting of :mod:`siting.presentation`. It is laid out for A4 portrait, on screen and in
-print: table rows are never split across pages, headings stay with what follows, table headers
-repeat, and the long sensitivity table is printed in full (no collapsed blocks).
+The page reuses the screening report's stylesheet, escaping and key/value formatting (the
+building blocks of :mod:`siting.html_parts`, shared with :mod:`siting.report` so both pages read
+alike) and the number formatting of :mod:`siting.presentation`. It is laid out for A4
+portrait, on screen and in print: table rows are never split across pages, headings stay with
+what follows, table headers repeat, and the long sensitivity table is printed in full (no
+collapsed blocks).
 """
 
 from __future__ import annotations
@@ -25,17 +26,18 @@ import numpy as np
 import pandas as pd
 
 from siting.errors import InputError
-from siting.presentation import MISSING_TEXT, format_number, format_percent, is_missing
-from siting.report import _CSS as _REPORT_CSS
-from siting.report import (
-    _VERDICT_STYLE,
-    _bullet_list,
-    _code,
-    _display_value,
-    _esc,
-    _head,
-    _plain_label,
+from siting.html_parts import (
+    SHARED_CSS,
+    VERDICT_STYLE,
+    bullet_list,
+    code_html,
+    display_value,
+    esc,
+    header_html,
+    is_number,
+    plain_label,
 )
+from siting.presentation import MISSING_TEXT, format_number, format_percent, is_missing
 
 __all__ = ["SENSITIVITY_COLUMNS", "SENSITIVITY_SUMMARY_COLUMNS", "write_verify_report"]
 
@@ -85,7 +87,7 @@ _CENTRAL = "central"
 _SHA_PLACEHOLDER = "same as recorded"
 
 _CSS = (
-    _REPORT_CSS
+    SHARED_CSS
     + """
 .verdict-box { border: 2px solid; border-left-width: 10px; padding: 0.7rem 1rem;
                margin: 0.8rem 0 1rem; border-radius: 0.2rem; }
@@ -170,15 +172,6 @@ def _verb(count: int, singular: str = "differs", plural: str = "differ") -> str:
     return singular if count == 1 else plural
 
 
-def _is_number(value: Any) -> bool:
-    """True for a finite or infinite real number (bool excluded) that is not missing."""
-    return (
-        isinstance(value, (int, float, np.integer, np.floating))
-        and not isinstance(value, (bool, np.bool_))
-        and not is_missing(value)
-    )
-
-
 def _is_percent_column(column: str) -> bool:
     """True when a column name says it holds a percentage (``pc_pct_load``, ``*_percent``)."""
     name = str(column).lower()
@@ -187,7 +180,7 @@ def _is_percent_column(column: str) -> bool:
 
 def _percent_text(value: Any, decimals: int | None = None) -> str:
     """A percentage without the sign: 2 decimals below 100 %, 1 from there (or `decimals`)."""
-    if not _is_number(value):
+    if not is_number(value):
         return format_number(value)
     number = float(value)
     if not np.isfinite(number):
@@ -205,7 +198,7 @@ def _pair_texts(first: Any, second: Any, column: str) -> tuple[str, str]:
     Percentages start at 2 decimals, other numbers at 3 significant digits; text is returned
     as given (unescaped).
     """
-    if not (_is_number(first) and _is_number(second)):
+    if not (is_number(first) and is_number(second)):
         return format_number(first), format_number(second)
     a, b = float(first), float(second)
     if _is_percent_column(column):
@@ -227,8 +220,8 @@ def _pair_texts(first: Any, second: Any, column: str) -> tuple[str, str]:
 def _verdict_badge(value: Any) -> str:
     """A screening verdict as the report's coloured badge (no hint line)."""
     text = "" if is_missing(value) else str(value)
-    css, _ = _VERDICT_STYLE.get(text.strip().lower(), ("verdict-none", ""))
-    return f'<span class="verdict {css}">{_esc(text) if text else MISSING_TEXT}</span>'
+    css, _ = VERDICT_STYLE.get(text.strip().lower(), ("verdict-none", ""))
+    return f'<span class="verdict {css}">{esc(text) if text else MISSING_TEXT}</span>'
 
 
 def _severity(finding: Mapping[str, Any]) -> str:
@@ -240,7 +233,7 @@ def _severity(finding: Mapping[str, Any]) -> str:
 def _severity_badge(severity: str) -> str:
     """A coloured badge with the severity in words (colour is never the only cue)."""
     css = f"sev-{severity}" if severity in _SEVERITY_RANK else "sev-other"
-    return f'<span class="badge {css}">{_esc(severity or "unrated")}</span>'
+    return f'<span class="badge {css}">{esc(severity or "unrated")}</span>'
 
 
 def _truthy(value: Any) -> bool:
@@ -293,7 +286,7 @@ def _verdict_box(verdict: str, exit_code: int, n_high: int, flips: Sequence[str]
     )
     return (
         f'<div class="verdict-box {css}" role="status">'
-        f'<p class="headline">{_esc(verdict)}</p>'
+        f'<p class="headline">{esc(verdict)}</p>'
         '<p class="meaning">“Consistent” means that this version of siting reproduces the '
         "submission from its own inputs within the stated tolerance; it is not a judgement on "
         "the proposal or on its effect on any habitat.</p>"
@@ -400,9 +393,9 @@ def _evidence_html(evidence: Any) -> str:
     if empty:
         return '<span class="empty">none given</span>'
     if not isinstance(evidence, Mapping):
-        return _esc(evidence)
+        return esc(evidence)
     entries = "".join(
-        f"<dt>{html.escape(_plain_label(str(key)))}</dt><dd>{_display_value(str(key), value)}</dd>"
+        f"<dt>{html.escape(plain_label(str(key)))}</dt><dd>{display_value(str(key), value)}</dd>"
         for key, value in evidence.items()
     )
     return f'<dl class="evidence">{entries}</dl>'
@@ -424,9 +417,9 @@ def _findings_section(findings: Sequence[Mapping[str, Any]]) -> str:
         rows.append(
             f'<tr class="finding sev-row-{html.escape(severity or "unrated")}">'
             f'<td class="sev">{_severity_badge(severity)}</td>'
-            f'<td><span class="subject">{_esc(finding.get("subject"))}</span>'
-            f'<span class="message">{_esc(finding.get("message"))}</span>'
-            f'<span class="code mono">{_esc(finding.get("code"))}</span></td>'
+            f'<td><span class="subject">{esc(finding.get("subject"))}</span>'
+            f'<span class="message">{esc(finding.get("message"))}</span>'
+            f'<span class="code mono">{esc(finding.get("code"))}</span></td>'
             f'<td class="evidence">{_evidence_html(finding.get("evidence"))}</td></tr>'
         )
     counts = _severity_count_text(_severity_counts(findings))
@@ -434,8 +427,9 @@ def _findings_section(findings: Sequence[Mapping[str, Any]]) -> str:
         f'<p class="counts">{_plural(len(findings), "finding")}: {html.escape(counts)}.</p>'
         f'<ul class="sev-legend">{legend}</ul>'
         '<div class="table-wrap"><table class="findings"><thead><tr>'
-        f"<th>{_head('Severity')}</th><th>{_head('Finding', 'what, message, check code')}</th>"
-        f"<th>{_head('Evidence')}</th></tr></thead><tbody>{''.join(rows)}</tbody></table></div>"
+        f"<th>{header_html('Severity')}</th>"
+        f"<th>{header_html('Finding', 'what, message, check code')}</th>"
+        f"<th>{header_html('Evidence')}</th></tr></thead><tbody>{''.join(rows)}</tbody></table></div>"
     )
 
 
@@ -454,8 +448,8 @@ def _file_cell(path: Any) -> str:
         return f"<td>{MISSING_TEXT}</td>"
     pure = PurePath(str(path))
     folder = str(pure.parent) if str(pure.parent) not in ("", ".") else ""
-    folder_html = f'<span class="sub mono">{_esc(folder)}/</span>' if folder else ""
-    return f"<td>{_esc(pure.name)}{folder_html}</td>"
+    folder_html = f'<span class="sub mono">{esc(folder)}/</span>' if folder else ""
+    return f"<td>{esc(pure.name)}{folder_html}</td>"
 
 
 def _integrity_section(integrity: Sequence[Mapping[str, Any]]) -> str:
@@ -485,19 +479,20 @@ def _integrity_section(integrity: Sequence[Mapping[str, Any]]) -> str:
         elif not is_missing(expected) and str(actual).lower() == str(expected).lower():
             actual_html = f'<span class="empty">{_SHA_PLACEHOLDER}</span>'
         else:
-            actual_html = f'<span class="mono">{_esc(actual)}</span>'
+            actual_html = f'<span class="mono">{esc(actual)}</span>'
         rows.append(
-            f'<tr class="{css}"><td class="ident">{_code(row.get("key"))}</td>'
+            f'<tr class="{css}"><td class="ident">{code_html(row.get("key"))}</td>'
             f"{_file_cell(row.get('file'))}"
-            f'<td><span class="badge {css}">{"⚠ " if css == "bad" else ""}{_esc(text)}</span></td>'
-            f'<td class="hash mono">{_esc(expected)}</td><td class="hash">{actual_html}</td></tr>'
+            f'<td><span class="badge {css}">{"⚠ " if css == "bad" else ""}{esc(text)}</span></td>'
+            f'<td class="hash mono">{esc(expected)}</td><td class="hash">{actual_html}</td></tr>'
         )
     return (
         f'<p class="{"counts" if bad else ""}">{html.escape(lead)}</p>'
         '<div class="table-wrap"><table class="integrity"><thead><tr>'
-        f"<th>{_head('Input')}</th><th>{_head('File', 'folder below')}</th>"
-        f"<th>{_head('Status')}</th><th>{_head('SHA-256 recorded', 'in the submission')}</th>"
-        f"<th>{_head('SHA-256 now', 'of the file as found')}</th></tr></thead>"
+        f"<th>{header_html('Input')}</th><th>{header_html('File', 'folder below')}</th>"
+        f"<th>{header_html('Status')}</th>"
+        f"<th>{header_html('SHA-256 recorded', 'in the submission')}</th>"
+        f"<th>{header_html('SHA-256 now', 'of the file as found')}</th></tr></thead>"
         f"<tbody>{''.join(rows)}</tbody></table></div>"
     )
 
@@ -512,7 +507,7 @@ def _difference_rows(differences: Sequence[Mapping[str, Any]]) -> tuple[list, in
 
     def size(row: Mapping[str, Any]) -> float:
         value = row.get("relative_difference")
-        return abs(float(value)) if _is_number(value) else np.inf  # unknown size first
+        return abs(float(value)) if is_number(value) else np.inf  # unknown size first
 
     largest = sorted(receptors, key=size, reverse=True)[:_MAX_RECEPTOR_ROWS]
     return sites + largest, len(receptors) - _MAX_RECEPTOR_ROWS
@@ -520,7 +515,7 @@ def _difference_rows(differences: Sequence[Mapping[str, Any]]) -> tuple[list, in
 
 def _relative_text(value: Any) -> str:
     """A relative difference as a number and, below it, as a percentage."""
-    if not _is_number(value):
+    if not is_number(value):
         return '<span class="empty">–</span>'
     number = float(value)
     return (
@@ -538,8 +533,8 @@ def _figures_section(
     """Section 3: versions, how figures were compared, and the figures that differ."""
     same = str(submitted_version).strip() == str(this_version).strip()
     versions = (
-        f"<p>The submission was made with siting <strong>{_esc(submitted_version)}</strong>; "
-        f"this check re-ran it with siting <strong>{_esc(this_version)}</strong>"
+        f"<p>The submission was made with siting <strong>{esc(submitted_version)}</strong>; "
+        f"this check re-ran it with siting <strong>{esc(this_version)}</strong>"
         + (
             " (the same version), so any difference points at changed inputs or settings.</p>"
             if same
@@ -547,7 +542,7 @@ def _figures_section(
             "two versions explains is listed with that change; the others are unexplained.</p>"
         )
     )
-    tolerance = f'<p class="note">How figures were compared: {_esc(tolerance_text)}</p>'
+    tolerance = f'<p class="note">How figures were compared: {esc(tolerance_text)}</p>'
     if not differences:
         return (
             versions
@@ -572,12 +567,12 @@ def _figures_section(
         explained_html = (
             '<span class="badge unexplained">⚠ not explained</span>'
             if is_missing(explained)
-            else _esc(explained)
+            else esc(explained)
         )
         css = ' class="bad"' if is_missing(explained) else ""
         rows.append(
-            f"<tr{css}><td>{_esc(d.get('table'))}</td><td>{_esc(d.get('id'))}</td>"
-            f'<td class="ident">{_code(column)}</td>'
+            f"<tr{css}><td>{esc(d.get('table'))}</td><td>{esc(d.get('id'))}</td>"
+            f'<td class="ident">{code_html(column)}</td>'
             f'<td class="num">{html.escape(submitted)}</td>'
             f'<td class="num">{html.escape(recomputed)}</td>'
             f'<td class="num">{_relative_text(d.get("relative_difference"))}</td>'
@@ -595,12 +590,12 @@ def _figures_section(
         + tolerance
         + f'<p class="counts">{html.escape(lead)}</p>'
         + '<div class="table-wrap"><table class="differences"><thead><tr>'
-        f"<th>{_head('Table')}</th><th>{_head('Site or receptor')}</th>"
-        f"<th>{_head('Figure', 'column')}</th>"
-        f"<th>{_head('Submitted', f'siting {submitted_version}')}</th>"
-        f"<th>{_head('This version', f'siting {this_version}')}</th>"
-        f"<th>{_head('Relative difference', 'fraction, then %')}</th>"
-        f"<th>{_head('Explained by')}</th></tr></thead>"
+        f"<th>{header_html('Table')}</th><th>{header_html('Site or receptor')}</th>"
+        f"<th>{header_html('Figure', 'column')}</th>"
+        f"<th>{header_html('Submitted', f'siting {submitted_version}')}</th>"
+        f"<th>{header_html('This version', f'siting {this_version}')}</th>"
+        f"<th>{header_html('Relative difference', 'fraction, then %')}</th>"
+        f"<th>{header_html('Explained by')}</th></tr></thead>"
         f"<tbody>{''.join(rows)}</tbody></table></div>"
         + more
         + '<p class="note">Figures are shown with as many digits as it takes to tell the two '
@@ -630,7 +625,7 @@ def _summary_table(summary: pd.DataFrame) -> str:
         variants = row.get("flipping_variants")
         if flips:
             flip_html = '<span class="badge flip">⚠ flips</span>' + (
-                f'<span class="sub">under: {_esc(variants)}</span>'
+                f'<span class="sub">under: {esc(variants)}</span>'
                 if not is_missing(variants)
                 else ""
             )
@@ -638,7 +633,7 @@ def _summary_table(summary: pd.DataFrame) -> str:
             flip_html = '<span class="badge noflip">no</span>'
         rows.append(
             f'<tr class="{"flips" if flips else ""}">'
-            f'<td class="site"><span class="site-name">{_esc(row.get("site"))}</span></td>'
+            f'<td class="site"><span class="site-name">{esc(row.get("site"))}</span></td>'
             f"<td>{_verdict_badge(row.get('central_verdict'))}</td>"
             f'<td class="num">{html.escape(_percent_text(row.get("central_pct_load")))}</td>'
             f'<td class="num">'
@@ -647,10 +642,10 @@ def _summary_table(summary: pd.DataFrame) -> str:
         )
     return (
         '<div class="table-wrap"><table class="sensitivity"><thead><tr>'
-        f"<th>{_head('Site')}</th><th>{_head('Central verdict')}</th>"
-        f"<th>{_head('PC, central', '% of critical load')}</th>"
-        f"<th>{_head('PC, lowest – highest', '% of critical load, all variants')}</th>"
-        f"<th>{_head('Verdict flips?', 'variants that flip it')}</th></tr></thead>"
+        f"<th>{header_html('Site')}</th><th>{header_html('Central verdict')}</th>"
+        f"<th>{header_html('PC, central', '% of critical load')}</th>"
+        f"<th>{header_html('PC, lowest – highest', '% of critical load, all variants')}</th>"
+        f"<th>{header_html('Verdict flips?', 'variants that flip it')}</th></tr></thead>"
         f"<tbody>{''.join(rows)}</tbody></table></div>"
     )
 
@@ -665,7 +660,7 @@ def _long_table(sensitivity: pd.DataFrame) -> str:
             if str(r["variant"]).strip().lower() == _CENTRAL
         ]  # fmt: skip
         central_verdict = None if not central else str(central[0]).strip().lower()
-        rows.append(f'<tr class="step-group"><th colspan="4">{_esc(site)}</th></tr>')
+        rows.append(f'<tr class="step-group"><th colspan="4">{esc(site)}</th></tr>')
         for _, r in group.iterrows():
             is_central = str(r["variant"]).strip().lower() == _CENTRAL
             verdict = "" if is_missing(r["verdict"]) else str(r["verdict"]).strip().lower()
@@ -673,15 +668,16 @@ def _long_table(sensitivity: pd.DataFrame) -> str:
             css = "flips" if flips else ("central" if is_central else "")
             mark = ' <span class="badge flip">⚠ flips</span>' if flips else ""
             rows.append(
-                f'<tr class="{css}"><td>{_esc(r["variant"])}</td>'
+                f'<tr class="{css}"><td>{esc(r["variant"])}</td>'
                 f'<td class="num">{html.escape(_percent_text(r["pct_load"]))}</td>'
                 f'<td class="num">{html.escape(_percent_text(r["pct_level"]))}</td>'
                 f"<td>{_verdict_badge(r['verdict'])}{mark}</td></tr>"
             )
     return (
         '<div class="table-wrap"><table class="sensitivity long"><thead><tr>'
-        f"<th>{_head('Variant')}</th><th>{_head('PC', '% of critical load')}</th>"
-        f"<th>{_head('PC', '% of critical level')}</th><th>{_head('Verdict')}</th></tr></thead>"
+        f"<th>{header_html('Variant')}</th><th>{header_html('PC', '% of critical load')}</th>"
+        f"<th>{header_html('PC', '% of critical level')}</th>"
+        f"<th>{header_html('Verdict')}</th></tr></thead>"
         f"<tbody>{''.join(rows)}</tbody></table></div>"
     )
 
@@ -708,7 +704,7 @@ def _sensitivity_section(sensitivity: pd.DataFrame, summary: pd.DataFrame) -> st
             if flips
             else f"The verdict holds across every variant for all {_plural(len(summary), 'site')}."
         )
-        parts.append(f'<p class="counts">{_esc(lead)}</p>')
+        parts.append(f'<p class="counts">{esc(lead)}</p>')
         parts.append(_summary_table(summary))
     if sensitivity is not None and len(sensitivity):
         parts.append("<h3>Every variant, by site</h3>")
@@ -804,7 +800,7 @@ def write_verify_report(
         (
             "cautions",
             "5. Cautions",
-            f'<div class="cautions">{_bullet_list(cautions, "No cautions given.")}</div>',
+            f'<div class="cautions">{bullet_list(cautions, "No cautions given.")}</div>',
         ),
     )
     body = "".join(
@@ -815,21 +811,21 @@ def write_verify_report(
         "<!DOCTYPE html>\n"
         '<html lang="en"><head><meta charset="utf-8">'
         '<meta name="viewport" content="width=device-width, initial-scale=1">'
-        f"<title>Verification of {_esc(PurePath(str(submission)).name or submission)} · siting"
+        f"<title>Verification of {esc(PurePath(str(submission)).name or submission)} · siting"
         f"</title><style>{_CSS}</style></head><body>"
         "<h1>Verification of a screening submission</h1>"
-        f'<p class="meta">Submission <span class="mono">{_esc(submission)}</span> · made with '
-        f"siting {_esc(submitted_version)} · verified with siting {_esc(this_version)} on "
-        f"{_esc(run_time)}</p>"
+        f'<p class="meta">Submission <span class="mono">{esc(submission)}</span> · made with '
+        f"siting {esc(submitted_version)} · verified with siting {esc(this_version)} on "
+        f"{esc(run_time)}</p>"
         + _verdict_box(verdict, exit_code, n_high, _flipping_sites(sensitivity_summary))
         + _checks_list(findings, integrity, differences, sensitivity_summary, str(this_version))
         + '<p class="caution-line">A screening submission is an estimate from a simplified '
         "model: read the cautions in section 5. The competent authority and local regulations "
         "decide.</p>"
         + body
-        + f"<footer>Verification report written by siting {_esc(this_version)} on "
-        f"{_esc(run_time)} · submission made with siting {_esc(submitted_version)} · "
-        f'submission folder <span class="mono">{_esc(submission)}</span> · '
+        + f"<footer>Verification report written by siting {esc(this_version)} on "
+        f"{esc(run_time)} · submission made with siting {esc(submitted_version)} · "
+        f'submission folder <span class="mono">{esc(submission)}</span> · '
         f"exit code {int(exit_code)}</footer>"
         "</body></html>\n"
     )
