@@ -29,6 +29,7 @@ from siting.longterm import (
     release_wind_and_height,
     virtual_distances_m,
 )
+from siting.deposition import source_depletion_fraction
 from siting.plume import vertical_term
 
 N_STABILITY = 6
@@ -140,9 +141,11 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
             return scheme.sigma_z_m(x + xz_m, s)
 
         depletion = DepletionTables(sigma_z_of, settings, max_distance_m)
-        for direction, speed_ref, weight in zip(directions[in_class], speeds[in_class],
-                                                weights[in_class]):
-            if weight == 0:
+        class_dirs, class_speeds = directions[in_class], speeds[in_class]
+        class_weights = weights[in_class]
+        for direction in np.unique(class_dirs):
+            same = (class_dirs == direction) & (class_weights != 0)
+            if not same.any():
                 continue
             travel_rad = np.deg2rad(direction + 180.0)
             travel_rad = (travel_rad + np.pi) % (2 * np.pi) - np.pi  # into [-pi, pi)
@@ -158,14 +161,30 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
                 continue
             sel, along_m, cross_m = sel[downwind], along_m[downwind], cross_m[downwind]
             along_m = np.maximum(along_m, element.min_distance_m)
-            u, height_m = release_wind_and_height(element, speed_ref, weather.anemometer_height_m,
-                                                  settings.wind_exponents[s], s)
+            # the geometry of this direction and class is shared by all its speeds: only the
+            # wind (and with plume rise, the height) and the depletion depend on the speed
             sy = np.maximum(scheme.sigma_y_m(along_m + xy_m, s), 1e-6)
             sz = np.maximum(sigma_z_of(along_m), 1e-6)
-            c = (weight / (2.0 * np.pi * u * sy * sz) * np.exp(-0.5 * (cross_m / sy) ** 2)
-                 * vertical_term(sz, height_m, 0.0, settings.mixing_height_m))
-            c *= depletion.fraction(height_m, u, along_m)
-            total[sel] += c
+            shape = np.exp(-0.5 * (cross_m / sy) ** 2) / (2.0 * np.pi * sy * sz)
+            by_height: dict[float, list[tuple[float, float]]] = {}
+            for speed_ref, weight in zip(class_speeds[same], class_weights[same]):
+                u, height_m = release_wind_and_height(
+                    element, speed_ref, weather.anemometer_height_m,
+                    settings.wind_exponents[s], s)
+                by_height.setdefault(height_m, []).append((u, weight))
+            c = np.zeros(along_m.size)
+            for height_m, winds in by_height.items():
+                vertical = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
+                integral = depletion.integral(height_m, along_m)
+                speed_sum = np.zeros(along_m.size)
+                for u, weight in winds:
+                    if integral is None:
+                        speed_sum += weight / u
+                    else:
+                        speed_sum += weight / u * source_depletion_fraction(
+                            settings.depletion_velocity_m_s, u, integral)
+                c += vertical * speed_sum
+            total[sel] += shape * c
     return (total / weather.n_hours).reshape(np.shape(receptor_x_m))
 
 

@@ -178,19 +178,25 @@ class DepletionTables:
         self._max_distance_m = max_distance_m
         self._tables: dict[float, tuple[np.ndarray, np.ndarray]] = {}
 
-    def fraction(self, height_m: float, wind_speed_m_s: float, distance_m) -> np.ndarray:
-        """Share of the emission still airborne at the distances [-] (1 without depletion)."""
-        vd = self._settings.depletion_velocity_m_s
-        if not vd:
-            return np.ones_like(np.asarray(distance_m, dtype=float))
+    def integral(self, height_m: float, distance_m) -> np.ndarray | None:
+        """I(x) at the distances for a release height [-]; None without depletion."""
+        if not self._settings.depletion_velocity_m_s:
+            return None
         key = round(height_m, 6)
         if key not in self._tables:
             self._tables[key] = depletion_integral_table(
                 self._sigma_z_of, height_m, self._settings.mixing_height_m,
                 self._max_distance_m, self._settings.depletion_table_points)
         table_m, integral = self._tables[key]
-        return source_depletion_fraction(vd, wind_speed_m_s, np.interp(distance_m, table_m,
-                                                                       integral))
+        return np.interp(distance_m, table_m, integral)
+
+    def fraction(self, height_m: float, wind_speed_m_s: float, distance_m) -> np.ndarray:
+        """Share of the emission still airborne at the distances [-] (1 without depletion)."""
+        integral = self.integral(height_m, distance_m)
+        if integral is None:
+            return np.ones_like(np.asarray(distance_m, dtype=float))
+        return source_depletion_fraction(self._settings.depletion_velocity_m_s, wind_speed_m_s,
+                                         integral)
 
 
 def element_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: ReleaseElement,
@@ -249,16 +255,28 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
         # emission (mass balance); x_y only matters where a plume is narrower than a sector
         arc_m = distance_m
         depletion = DepletionTables(sigma_z_of, settings, max_distance_m)
+        # the vertical term and depletion integral depend on the height only: one evaluation
+        # per height (one per class without plume rise), then a cheap sum over speeds
+        by_height: dict[float, list[tuple[int, float]]] = {}
         for j, speed_ref in enumerate(weather.speeds_m_s):
-            if not freq[:, j, s].any():
-                continue
-            f = w0 * freq[k0, j, s] + w1 * freq[k1, j, s]
-            u, height_m = release_wind_and_height(element, speed_ref, weather.anemometer_height_m,
-                                                  settings.wind_exponents[s], s)
+            if freq[:, j, s].any():
+                u, height_m = release_wind_and_height(
+                    element, speed_ref, weather.anemometer_height_m,
+                    settings.wind_exponents[s], s)
+                by_height.setdefault(height_m, []).append((j, u))
+        for height_m, winds in by_height.items():
             v = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
-            c = sector_average_concentration_g_m3(1.0, f, u, arc_m, width_rad, sz, v)
-            c = c * depletion.fraction(height_m, u, distance_m)
-            total += c
+            unit = sector_average_concentration_g_m3(1.0, 1.0, 1.0, arc_m, width_rad, sz, v)
+            integral = depletion.integral(height_m, distance_m)
+            speed_sum = np.zeros_like(distance_m)
+            for j, u in winds:
+                f = w0 * freq[k0, j, s] + w1 * freq[k1, j, s]
+                if integral is None:
+                    speed_sum += f / u
+                else:
+                    speed_sum += f / u * source_depletion_fraction(
+                        settings.depletion_velocity_m_s, u, integral)
+            total += unit * speed_sum
     return total
 
 
