@@ -24,6 +24,7 @@ import numpy as np
 
 from siting.longterm import (
     DepletionTables,
+    receptor_reach_m,
     DispersionSettings,
     ReleaseElement,
     release_wind_and_height,
@@ -119,6 +120,20 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
     """
     rx = np.asarray(receptor_x_m, dtype=float).ravel()
     ry = np.asarray(receptor_y_m, dtype=float).ravel()
+    chunk = settings.chunk_receptors
+    reach_m = receptor_reach_m(rx, ry, element)
+    if rx.size > chunk:  # bounded memory: receptors in chunks (each sorted by bearing)
+        out = np.concatenate([
+            _element_hourly_chunk(rx[a:a + chunk], ry[a:a + chunk], element, weather, settings,
+                                  hour_weights, reach_m) for a in range(0, rx.size, chunk)])
+    else:
+        out = _element_hourly_chunk(rx, ry, element, weather, settings, hour_weights, reach_m)
+    return out.reshape(np.shape(receptor_x_m))
+
+
+def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeather,
+                          settings: DispersionSettings, hour_weights,
+                          max_distance_m: float) -> np.ndarray:
     dx, dy = rx - element.x_m, ry - element.y_m
     distance_m = np.hypot(dx, dy)
     bearing_rad = np.arctan2(dx, dy)  # source -> receptor, clockwise from north
@@ -126,8 +141,7 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
     sorted_bearing = bearing_rad[order]
     total = np.zeros(rx.size)
     if rx.size == 0 or weather.n_hours == 0:
-        return total.reshape(np.shape(receptor_x_m))
-    max_distance_m = float(distance_m.max()) + element.min_distance_m
+        return total
     scheme = settings.scheme
     directions, speeds, classes, weights = group_identical_hours(weather, hour_weights)
     for s in range(N_STABILITY):
@@ -185,7 +199,7 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
                             settings.depletion_velocity_m_s, u, integral)
                 c += vertical * speed_sum
             total[sel] += shape * c
-    return (total / weather.n_hours).reshape(np.shape(receptor_x_m))
+    return total / weather.n_hours
 
 
 def _window_indices(sorted_bearing: np.ndarray, centre_rad: float, half_rad: float) -> np.ndarray:

@@ -34,7 +34,9 @@ from siting.plume import (
 )
 
 N_STABILITY = 6
-_CHUNK_RECEPTORS = 100_000
+#: Working memory of the engines per receptor in a chunk [bytes]: an upper estimate (40 float64
+#: arrays alive at once; tracemalloc shows about half of that, tests/test_memory.py).
+BYTES_PER_RECEPTOR = 40 * 8
 
 
 @dataclass(frozen=True)
@@ -97,7 +99,13 @@ class DispersionSettings:
     mixing_height_m: float | None = None
     depletion_velocity_m_s: float | None = 0.02
     depletion_table_points: int = 256
+    memory_budget_mb: float = 256.0
     extra: dict = field(default_factory=dict)
+
+    @property
+    def chunk_receptors(self) -> int:
+        """Receptors evaluated at once so the engines' working arrays fit the memory budget."""
+        return max(1_000, int(self.memory_budget_mb * 1e6 / BYTES_PER_RECEPTOR))
 
 
 def rectangle_elements(x_m: float, y_m: float, width_m: float, length_m: float, angle_deg: float,
@@ -224,14 +232,24 @@ def element_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Rele
     ry = np.asarray(receptor_y_m, dtype=float)
     out = np.zeros(rx.shape, dtype=float)
     flat_x, flat_y, flat_out = rx.ravel(), ry.ravel(), out.ravel()
-    for start in range(0, flat_x.size, _CHUNK_RECEPTORS):
-        sl = slice(start, start + _CHUNK_RECEPTORS)
-        flat_out[sl] = _element_chunk(flat_x[sl], flat_y[sl], element, weather, settings)
+    chunk = settings.chunk_receptors
+    reach_m = receptor_reach_m(flat_x, flat_y, element)
+    for start in range(0, flat_x.size, chunk):
+        sl = slice(start, start + chunk)
+        flat_out[sl] = _element_chunk(flat_x[sl], flat_y[sl], element, weather, settings,
+                                      reach_m)
     return flat_out.reshape(rx.shape)
 
 
+def receptor_reach_m(rx, ry, element: ReleaseElement) -> float:
+    """Farthest receptor distance [m]: the depletion tables span it, for every chunk alike."""
+    if rx.size == 0:
+        return 1.0
+    return float(np.hypot(rx - element.x_m, ry - element.y_m).max()) + element.min_distance_m
+
+
 def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
-                   settings: DispersionSettings) -> np.ndarray:
+                   settings: DispersionSettings, max_distance_m: float) -> np.ndarray:
     dx, dy = rx - element.x_m, ry - element.y_m
     distance_m = np.maximum(np.hypot(dx, dy), element.min_distance_m)
     k0, k1, w1 = _sector_interpolation(dx, dy, weather)
@@ -240,7 +258,6 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     width_rad = np.deg2rad(weather.sector_width_deg)
     scheme = settings.scheme
     total = np.zeros_like(distance_m)
-    max_distance_m = float(distance_m.max()) if distance_m.size else 1.0
     for s in range(N_STABILITY):
         if not freq[:, :, s].any():
             continue

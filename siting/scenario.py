@@ -88,6 +88,7 @@ class GridSection(_Section):
 
     spacing_m: float = Field(25.0, gt=0, le=1000)
     margin_m: float = Field(3000.0, ge=0, le=50_000)
+    memory_mb: float = Field(256.0, ge=16, le=65_536)  # working memory of the engines
 
 
 class DepositionSection(_Section):

@@ -344,7 +344,8 @@ def prepare(scenario: Scenario | str | Path, tables: Tables | None = None) -> Pr
         scheme=tables.sigma_scheme(scenario.weather.land_type, scenario.weather.sigma_scheme),
         wind_exponents=tables.wind_exponents(scenario.weather.land_type),
         mixing_height_m=scenario.weather.mixing_height_m,
-        depletion_velocity_m_s=default_vd if scenario.deposition.plume_depletion else None)
+        depletion_velocity_m_s=default_vd if scenario.deposition.plume_depletion else None,
+        memory_budget_mb=scenario.grid.memory_mb)
     return Prepared(scenario, tables, weather, weather_summary, hour_weights, sources, sites,
                     settings, warnings)
 
