@@ -150,6 +150,11 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
             continue
         xy_m, xz_m = virtual_distances_m(element, scheme, s)
         half_window = _half_window_rad(scheme, s, xy_m, max_distance_m)
+        # receptors near the element are reached by every plume whatever the angle: upwind
+        # ones closer than min_distance count as downwind at it, with their crosswind offset
+        near_m = element.min_distance_m + LATERAL_CUTOFF_SIGMAS * float(
+            scheme.sigma_y_m(element.min_distance_m + xy_m, s))
+        near = np.flatnonzero(distance_m < near_m)
 
         def sigma_z_of(x, s=s, xz_m=xz_m):
             return scheme.sigma_z_m(x + xz_m, s)
@@ -164,9 +169,12 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
             travel_rad = np.deg2rad(direction + 180.0)
             travel_rad = (travel_rad + np.pi) % (2 * np.pi) - np.pi  # into [-pi, pi)
             idx = _window_indices(sorted_bearing, travel_rad, half_window)
-            if idx.size == 0:
-                continue
             sel = order[idx]
+            if near.size:  # add the near receptors the angular window left out
+                off = np.abs((bearing_rad[near] - travel_rad + np.pi) % (2 * np.pi) - np.pi)
+                sel = np.concatenate([sel, near[off > half_window]])
+            if sel.size == 0:
+                continue
             off_axis = bearing_rad[sel] - travel_rad
             along_m = distance_m[sel] * np.cos(off_axis)
             cross_m = distance_m[sel] * np.sin(off_axis)

@@ -147,11 +147,40 @@ def _sector_interpolation(dx_m, dy_m, weather: WeatherClasses):
     return k0, (k0 + 1) % n, w1
 
 
+_TABLE_START_M = 0.01
+
+
+def depletion_table_m(max_distance_m: float, n_points: int) -> np.ndarray:
+    """Distances of a depletion table [m]: 0, then log-spaced from 1 cm to just past max."""
+    return np.concatenate(([0.0], np.geomspace(_TABLE_START_M, max(max_distance_m, 1.0) * 1.01,
+                                                n_points)))
+
+
+def table_position(distance_m, max_distance_m: float, n_points: int):
+    """Index and weight of each distance in the table of :func:`depletion_table_m`.
+
+    The table is log-spaced, so the position is computed, not searched for: the same linear
+    interpolation as np.interp, without its binary search. Returns (i0, weight of i0 + 1).
+    """
+    x = np.asarray(distance_m, dtype=float)
+    end = max(max_distance_m, 1.0) * 1.01
+    step = np.log(end / _TABLE_START_M) / (n_points - 1)
+    with np.errstate(divide="ignore"):
+        f = np.log(np.maximum(x, _TABLE_START_M) / _TABLE_START_M) / step
+    i0 = np.clip(np.floor(f).astype(np.intp), 0, n_points - 2) + 1  # +1: the leading 0
+    node = _TABLE_START_M * np.exp((i0 - 1) * step)
+    node_next = _TABLE_START_M * np.exp(i0 * step)
+    weight = np.clip((x - node) / (node_next - node), 0.0, 1.0)
+    below = x < _TABLE_START_M  # between the leading 0 and 1 cm
+    i0 = np.where(below, 0, i0)
+    weight = np.where(below, x / _TABLE_START_M, weight)
+    return i0, weight
+
+
 def depletion_integral_table(sigma_z_of: Callable, release_height_m: float, mixing_height_m,
                         max_distance_m: float, n_points: int):
     """Distance table [m] and I(x) for one stability class and effective height."""
-    table_m = np.concatenate(([0.0], np.geomspace(0.01, max(max_distance_m, 1.0) * 1.01,
-                                                     n_points)))
+    table_m = depletion_table_m(max_distance_m, n_points)
     density = ground_vertical_density_per_m(np.maximum(sigma_z_of(table_m), 1e-6),
                                             release_height_m, mixing_height_m)
     return table_m, cumulative_depletion_integral_m0(table_m, density)
@@ -186,8 +215,11 @@ class DepletionTables:
         self._max_distance_m = max_distance_m
         self._tables: dict[float, tuple[np.ndarray, np.ndarray]] = {}
 
-    def integral(self, height_m: float, distance_m) -> np.ndarray | None:
-        """I(x) at the distances for a release height [-]; None without depletion."""
+    def integral(self, height_m: float, distance_m, position=None) -> np.ndarray | None:
+        """I(x) at the distances for a release height [-]; None without depletion.
+
+        ``position`` is table_position(distance_m, ...) when the caller has it already.
+        """
         if not self._settings.depletion_velocity_m_s:
             return None
         key = round(height_m, 6)
@@ -195,8 +227,10 @@ class DepletionTables:
             self._tables[key] = depletion_integral_table(
                 self._sigma_z_of, height_m, self._settings.mixing_height_m,
                 self._max_distance_m, self._settings.depletion_table_points)
-        table_m, integral = self._tables[key]
-        return np.interp(distance_m, table_m, integral)
+        _, integral = self._tables[key]
+        i0, weight = position if position is not None else table_position(
+            distance_m, self._max_distance_m, self._settings.depletion_table_points)
+        return integral[i0] + weight * (integral[i0 + 1] - integral[i0])
 
     def fraction(self, height_m: float, wind_speed_m_s: float, distance_m) -> np.ndarray:
         """Share of the emission still airborne at the distances [-] (1 without depletion)."""
@@ -258,6 +292,7 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     width_rad = np.deg2rad(weather.sector_width_deg)
     scheme = settings.scheme
     total = np.zeros_like(distance_m)
+    position = table_position(distance_m, max_distance_m, settings.depletion_table_points)
     for s in range(N_STABILITY):
         if not freq[:, :, s].any():
             continue
@@ -284,7 +319,7 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
         for height_m, winds in by_height.items():
             v = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
             unit = sector_average_concentration_g_m3(1.0, 1.0, 1.0, arc_m, width_rad, sz, v)
-            integral = depletion.integral(height_m, distance_m)
+            integral = depletion.integral(height_m, distance_m, position)
             speed_sum = np.zeros_like(distance_m)
             for j, u in winds:
                 f = w0 * freq[k0, j, s] + w1 * freq[k1, j, s]
