@@ -4,7 +4,7 @@ Each command is a short function over the Python API. A :class:`~siting.errors.S
 becomes one line on stderr and exit code 2; nothing is written in that case.
 Exit codes: 0 ok; 1 only with --fail-on-exceed when a site is above its threshold; 2 bad input.
 Commands: screen, demo (optionally on the hourly demo record), weather (products of an hourly
-record).
+record), place, verify, region (many farms over a region).
 """
 
 from __future__ import annotations
@@ -245,6 +245,69 @@ def _print_verify_summary(result, out_dir: Path) -> None:
     console.print(f"Outputs in {out_dir} (verify.html, findings.json).")
 
 
+def cmd_region(args) -> int:
+    from siting.outputs import check_output_dir
+    from siting.region import FarmFields, RegionOptions, region, write_region_outputs
+
+    options = RegionOptions(
+        spacing_m=args.spacing, margin_m=args.margin, tile_size=args.tile_size,
+        memory_mb=args.memory_mb,
+        scheduler=None if args.scheduler.lower() == "none" else args.scheduler,
+        workers=args.workers, reach_m=args.reach_m, top=args.top, land_type=args.land_type,
+        anemometer_height_m=args.anemometer_height, plume_depletion=not args.no_depletion,
+        near_field_cells=args.near_field, critical_load_end=args.critical_load_end)
+    options.check()
+    farms = Path(args.farms)
+    out_dir = Path(args.out) if args.out else Path("maps") / f"{farms.stem}_region"
+    check_output_dir(out_dir.resolve(), args.overwrite)
+    fields = FarmFields(id_field=args.id_field, emission_field=args.emission_field,
+                        height_field=args.height_field, layer=args.layer)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        result = region(farms, Path(args.weather), Path(args.habitats) if args.habitats else None,
+                        options, fields, crs=args.crs, habitats_layer=args.habitats_layer,
+                        name_field=args.name_field, habitat_field=args.habitat_field,
+                        designation_field=args.designation_field)
+    written = write_region_outputs(result, out_dir, overwrite=args.overwrite)
+    if not args.quiet:
+        _print_region_summary(result, written)
+    return EXIT_OK
+
+
+def _print_region_summary(result, out_dir: Path) -> None:
+    from rich.console import Console
+    from rich.table import Table
+
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    grid, t = result.grid, result.timings_s
+    console.print(f"{t['farms']:,} farms in {t['release_classes']} release class(es); grid "
+                  f"{grid.n_cols} x {grid.n_rows} cells of {grid.cell_m:g} m in {t['tiles']} "
+                  f"tile(s); {t['total_s']:.1f} s with {t['workers']} worker(s)")
+    if result.sites is not None:
+        table = Table(title="All farms together, by habitat site", title_justify="left")
+        for col in ("site", "tier", "kg N/ha/yr", "% load", "% level", "verdict",
+                    "largest contributor"):
+            table.add_column(col, justify="right" if col in ("kg N/ha/yr", "% load", "% level")
+                             else "left", no_wrap=col in ("site", "verdict"))
+        first = result.contributors[result.contributors["rank"] == 1].set_index("site_id")
+        for row in result.sites.itertuples():
+            style = {"above threshold": "bold red", "below threshold": "green"}.get(row.verdict,
+                                                                                   "yellow")
+            top = (f"{first.loc[row.site_id, 'farm_id']} "
+                   f"({first.loc[row.site_id, 'share_of_site_total_percent']:.0f} %)"
+                   if row.site_id in first.index else "-")
+            table.add_row(str(row.name), str(row.tier), f"{row.pc_dep_max_kg_n_ha_yr:.3g}",
+                          f"{row.pc_pct_load:.1f}", f"{row.pc_pct_level:.1f}",
+                          f"[{style}]{row.verdict}[/]", top)
+        console.print(table)
+    for message in result.warnings:
+        console.print(f"[yellow]warning:[/] {message}", markup=True)
+    console.print(f"Outputs in {out_dir} (deposition.tif, concentration.tif, sites.csv, "
+                  "contributors.csv, farms.csv, run.json).")
+    console.print("Screening estimate only; local rules and the competent authority decide.",
+                  style="dim")
+
+
 def build_parser() -> argparse.ArgumentParser:
     from siting import __version__
 
@@ -340,6 +403,71 @@ def build_parser() -> argparse.ArgumentParser:
                    help="another weather year (frequency table or hourly record) for the "
                         "sensitivity analysis; repeatable")
     p.set_defaults(func=cmd_verify)
+
+    p = sub.add_parser("region", parents=[common],
+                       help="in-combination deposition of many farms over a region",
+                       description="Concentration and deposition of every farm of a layer "
+                                   "together, over a tiled grid (FFT convolution, on dask), "
+                                   "with each habitat site's figures and its top contributing "
+                                   "farms. Farms: points (point sources) or polygons (house "
+                                   "footprints, volume sources), with an annual NH3 emission "
+                                   "or livestock, housing and places.")
+    p.add_argument("farms", metavar="FARMS", help="farms layer (any vector format geopandas "
+                                                  "reads)")
+    p.add_argument("--weather", required=True, metavar="TABLE.csv",
+                   help="weather frequency table: direction_deg,speed_m_s,stability,frequency")
+    p.add_argument("--habitats", metavar="FILE",
+                   help="habitat sites layer, fields as in a scenario's [habitats]; without "
+                        "it only the grids are written")
+    p.add_argument("--out", help="output folder (default: maps/<FARMS name>_region)")
+    p.add_argument("--spacing", type=float, default=100.0, metavar="M",
+                   help="grid cell size in metres (default 100)")
+    p.add_argument("--margin", type=float, default=2000.0, metavar="M",
+                   help="grid = the farms' bounding box + this margin in metres (default 2000)")
+    p.add_argument("--crs", help="projected CRS in metres to work in (default: the farms "
+                                 "layer's own)")
+    p.add_argument("--tile-size", type=int, metavar="CELLS",
+                   help="tile side in cells (default: the whole grid when it fits the memory "
+                        "budget, else the largest tile that does)")
+    p.add_argument("--memory-mb", type=float, default=2000.0, metavar="MB",
+                   help="memory budget of the run in MB (default 2000)")
+    p.add_argument("--scheduler", default="threads", metavar="ADDRESS",
+                   help="threads (default: dask threads on this machine), synchronous, none "
+                        "(no dask), or a dask.distributed scheduler address such as "
+                        "tcp://10.0.0.5:8786 (needs pip install 'siting[region]')")
+    p.add_argument("--workers", type=int, metavar="N",
+                   help="threads for the threads scheduler (default: the machine's cores)")
+    p.add_argument("--reach-m", type=float, metavar="M",
+                   help="count farms only within this distance of a cell or site point "
+                        "(default: every farm everywhere)")
+    p.add_argument("--top", type=int, default=10, metavar="N",
+                   help="contributors listed per site in contributors.csv (default 10)")
+    p.add_argument("--layer", help="layer of the farms file (default: its first)")
+    p.add_argument("--id-field", metavar="FIELD", help="farm id field (default: id)")
+    p.add_argument("--emission-field", metavar="FIELD",
+                   help="annual emission in kg NH3 per year (default: nh3_kg_per_year; where "
+                        "empty, livestock, housing and places fields are used)")
+    p.add_argument("--height-field", metavar="FIELD",
+                   help="release height in m (default: height_m; where absent, 6 m for points "
+                        "and 4 m for polygons)")
+    p.add_argument("--habitats-layer", metavar="LAYER", help="layer of the habitats file")
+    p.add_argument("--name-field", default="name", help="site name field (default: name)")
+    p.add_argument("--habitat-field", default="habitat",
+                   help="habitat id field, ids of config/critical_loads.toml (default: habitat)")
+    p.add_argument("--designation-field", default="designation",
+                   help="designation field (default: designation)")
+    p.add_argument("--critical-load-end", choices=("lower", "middle", "upper"), default="lower",
+                   help="end of each habitat's critical load range used (default: lower)")
+    p.add_argument("--land-type", choices=("rural", "urban"), default="rural",
+                   help="dispersion coefficients (default: rural)")
+    p.add_argument("--anemometer-height", type=float, default=10.0, metavar="M",
+                   help="height of the wind measurement in m (default 10)")
+    p.add_argument("--no-depletion", action="store_true",
+                   help="no plume depletion (more cautious)")
+    p.add_argument("--near-field", type=int, default=10, metavar="CELLS",
+                   help="cells around each farm where the grid is made the direct sum at the "
+                        "farm's true position (default 10; 0 = none)")
+    p.set_defaults(func=cmd_region)
     return parser
 
 
