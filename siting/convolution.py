@@ -56,6 +56,9 @@ from siting.longterm import (
 #: Release heights of a class are rounded to this step [m] (common practice, no source: half a
 #: metre is below what anyone knows of a house's effective release height).
 HEIGHT_STEP_M = 0.5
+#: Distances at which a radial kernel's centre-line profiles are evaluated (log-spaced); the
+#: lattice's distinct distances are interpolated from them.
+_PROFILE_NODES = 4096
 #: Footprint sides of volume classes are rounded in the logarithm to a ladder of ratio sqrt(2)
 #: through FOOTPRINT_LADDER_BASE_M (..., 7.1, 10, 14.1, 20, 28.3, 40, 56.6, 80, 113, ... m), so a
 #: side is off by at most 19 % (common practice, no source).
@@ -334,8 +337,19 @@ def _radial_kernel(element: ReleaseElement, weather: WeatherClasses,
                    settings: DispersionSettings, lattice: OffsetLattice,
                    reference_distance_m: float) -> np.ndarray:
     """Kernel of one element at the origin from its centre-line profiles (module docstring)."""
-    profiles = centre_line_profiles(element, weather, settings, lattice.radius_m,
-                                    reference_distance_m).ravel()
+    radius_m = lattice.radius_m
+    if radius_m.size > _PROFILE_NODES:
+        # the profiles are smooth in log distance: evaluate them on a log-spaced table and
+        # interpolate to the lattice's distinct distances (error below 1e-5 relative,
+        # tests/test_convolution.py), instead of running the engine on every distance
+        nodes = np.geomspace(max(radius_m.min(), 1e-3), radius_m.max(), _PROFILE_NODES)
+        at_nodes = centre_line_profiles(element, weather, settings, nodes,
+                                        reference_distance_m)
+        log_r = np.log(np.maximum(radius_m, nodes[0]))
+        profiles = np.stack([np.interp(log_r, np.log(nodes), row) for row in at_nodes]).ravel()
+    else:
+        profiles = centre_line_profiles(element, weather, settings, radius_m,
+                                        reference_distance_m).ravel()
     out = np.empty(lattice.flat0.size)
     step = max(1, min(_ASSEMBLY_OFFSETS, settings.chunk_receptors))
     for start in range(0, out.size, step):

@@ -293,6 +293,11 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     scheme = settings.scheme
     total = np.zeros_like(distance_m)
     position = table_position(distance_m, max_distance_m, settings.depletion_table_points)
+    # flat indices of each receptor's two sectors in the frequency table (take is faster
+    # than three-axis fancy indexing in the speed loop)
+    flat_freq = np.ascontiguousarray(freq).ravel()
+    per_sector = freq.shape[1] * freq.shape[2]
+    base0, base1 = k0 * per_sector, k1 * per_sector
     for s in range(N_STABILITY):
         if not freq[:, :, s].any():
             continue
@@ -322,12 +327,19 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
             integral = depletion.integral(height_m, distance_m, position)
             speed_sum = np.zeros_like(distance_m)
             for j, u in winds:
-                f = w0 * freq[k0, j, s] + w1 * freq[k1, j, s]
-                if integral is None:
-                    speed_sum += f / u
-                else:
-                    speed_sum += f / u * source_depletion_fraction(
-                        settings.depletion_velocity_m_s, u, integral)
+                # f = (1 - w1) f(k0) + w1 f(k1), then f / u x depletion, in place (same
+                # arithmetic as deposition.source_depletion_fraction, fewer passes)
+                f = flat_freq.take(base0 + (j * N_STABILITY + s))
+                f1 = flat_freq.take(base1 + (j * N_STABILITY + s))
+                f1 -= f
+                f1 *= w1
+                f += f1
+                f *= 1.0 / u
+                if integral is not None:
+                    depleted = integral * (-settings.depletion_velocity_m_s / u)
+                    np.exp(depleted, out=depleted)
+                    f *= depleted
+                speed_sum += f
             total += unit * speed_sum
     return total
 
