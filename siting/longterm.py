@@ -287,7 +287,6 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     dx, dy = rx - element.x_m, ry - element.y_m
     distance_m = np.maximum(np.hypot(dx, dy), element.min_distance_m)
     k0, k1, w1 = _sector_interpolation(dx, dy, weather)
-    w0 = 1.0 - w1
     freq = weather.frequency_fraction
     width_rad = np.deg2rad(weather.sector_width_deg)
     scheme = settings.scheme
