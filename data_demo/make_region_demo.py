@@ -39,10 +39,10 @@ HERE = Path(__file__).resolve().parent
 
 # invented regional sites: name, designation, habitat, centre offset (m), radius (m)
 REGIONAL_SITES = [
-    ("Brackenhollow Fen", "Special Area of Conservation", "valley_mire", (-6500.0, 5200.0), 450.0),
-    ("Curlew Rise Heath", "Site of Special Scientific Interest", "dry_heath", (6200.0, -4800.0), 600.0),
-    ("Starwort Mire", "Special Area of Conservation", "raised_bog", (-5200.0, -6600.0), 700.0),
-    ("Hazelgrove Wood", "Ancient Woodland", "broadleaved_woodland", (4300.0, 6900.0), 350.0),
+    ("Brackenmeal Fen", "Special Area of Conservation", "valley_mire", (-6500.0, 5200.0), 450.0),
+    ("Tumblebent Heath", "Site of Special Scientific Interest", "dry_heath", (6200.0, -4800.0), 600.0),
+    ("Quillwort Mire", "Special Area of Conservation", "raised_bog", (-5200.0, -6600.0), 700.0),
+    ("Wrenhallow Copse", "Ancient Woodland", "broadleaved_woodland", (4300.0, 6900.0), 350.0),
 ]
 # farms given by livestock instead of a figure: (livestock, housing, places range)
 LIVESTOCK = [("finishing_pig", "fully_slatted", (800, 4000)),
