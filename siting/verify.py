@@ -18,7 +18,6 @@ calls (scenario, tables) and by verify_report.py.
 from __future__ import annotations
 
 import dataclasses
-import hashlib
 import json
 import math
 import os
@@ -30,6 +29,7 @@ import pandas as pd
 
 from siting import assess
 from siting.errors import InputError, InputFileError, SitingError
+from siting.outputs import sha256_of
 
 #: Site figures compared between the submission and the re-run.
 SITE_FIGURES = [
@@ -109,14 +109,6 @@ class VerifyResult:
         return 0 if self.consistent else 1
 
 
-def _sha256(path: Path) -> str:
-    digest = hashlib.sha256()
-    with open(path, "rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
-
-
 def _read_csv(path: Path, what: str) -> pd.DataFrame:
     try:
         return pd.read_csv(path, dtype={"id": str, "site_id": str, "name": str})
@@ -190,14 +182,14 @@ def check_integrity(sub: Submission) -> list[dict]:
         packed = sub.folder / "inputs" / files.get(key, "")
         status, actual = "missing", None
         if key in files and packed.is_file():
-            actual = _sha256(packed)
+            actual = sha256_of(packed)
             status = "ok" if actual == entry["sha256"] else "changed"
         rows.append({"key": key, "file": f"inputs/{files.get(key, '?')}",
                      "expected_sha256": entry["sha256"], "actual_sha256": actual,
                      "status": status})
     for name, entry in sub.record.get("config_tables", {}).items():
         packed = sub.config_dir / name
-        actual = _sha256(packed) if packed.is_file() else None
+        actual = sha256_of(packed) if packed.is_file() else None
         rows.append({"key": f"table {name}", "file": f"inputs/_config/{name}",
                      "expected_sha256": entry["sha256"], "actual_sha256": actual,
                      "status": "missing" if actual is None else
