@@ -93,7 +93,7 @@ def virtual_distance_m(sigma0_m: float, sigma_of_distance, max_distance_m: float
     """
     if sigma0_m <= 0.0:
         return 0.0
-    distance_m = np.geomspace(1e-3, max_distance_m, 4000)
+    distance_m = np.geomspace(1e-3, max_distance_m, 800)  # 1 % steps; log-log interpolation
     sigma_m = np.maximum.accumulate(sigma_of_distance(distance_m))
     return float(np.exp(np.interp(np.log(sigma0_m), np.log(sigma_m), np.log(distance_m))))
 
