@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import geopandas as gpd
 import numpy as np
-import pandas as pd
 import pytest
 from matplotlib.figure import Figure
 from numpy.testing import assert_allclose
@@ -19,35 +18,11 @@ from siting.figures import (
     wind_rose_from_table_png,
 )
 from siting.longterm import WeatherClasses
+from synthetic import hostile_sites
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
-NAMES = [
-    "<script>alert(1)</script>",
-    "a`b${alert(1)}\\c",
-    "<img src=x onerror=alert(1)>",
-    "Plain Moor",
-]
 
 
-def _sites() -> pd.DataFrame:
-    """Four sites, three with hostile names, one per verdict and an unknown one."""
-    return pd.DataFrame(
-        {
-            "site_id": ["S1", "S2", "S3", "S4"],
-            "name": NAMES,
-            "designation": ["SAC", "<b>SSSI</b>", "local", "SPA"],
-            "habitat": ["raised bog", "oak woodland", "heath", "dune grassland"],
-            "critical_level_ug_m3": [1.0, 1.0, 3.0, 3.0],
-            "critical_load_used_kg_n_ha_yr": [5.0, 10.0, 10.0, 8.0],
-            "pc_conc_max_ug_m3": [1.234, 0.008, np.nan, 0.05],
-            "pc_pct_level": [123.4, 0.8, np.nan, 1.67],
-            "pc_dep_max_kg_n_ha_yr": [12.5, 0.04, np.nan, 0.39],
-            "pc_pct_load": [250.0, 0.4, np.nan, 4.9],
-            "threshold_percent": [1.0, 1.0, 100.0, 1.0],
-            "verdict": ["above threshold", "below threshold", "not assessed", "above threshold"],
-            "distance_m": [350.0, 900.0, 1500.0, 600.0],
-        }
-    )
 
 
 
@@ -60,12 +35,12 @@ def test_figure_png_returns_png_bytes():
 
 def test_pc_vs_distance_figure_with_hostile_names():
     """Names with $ and backslashes are drawn as plain text (no mathtext error)."""
-    assert pc_vs_distance_figure(_sites()).startswith(PNG_MAGIC)
+    assert pc_vs_distance_figure(hostile_sites()).startswith(PNG_MAGIC)
 
 
 def test_pc_vs_distance_figure_without_positive_values():
     """A table without positive deposition still gives a PNG (a note instead of points)."""
-    sites = _sites().assign(pc_dep_max_kg_n_ha_yr=0.0)
+    sites = hostile_sites().assign(pc_dep_max_kg_n_ha_yr=0.0)
     assert pc_vs_distance_figure(sites).startswith(PNG_MAGIC)
 
 

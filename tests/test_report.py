@@ -13,13 +13,8 @@ import pytest
 from siting.errors import InputError
 from siting.figures import pc_vs_distance_figure
 from siting.report import write_report
+from synthetic import NAMES, hostile_sites
 
-NAMES = [
-    "<script>alert(1)</script>",
-    "a`b${alert(1)}\\c",
-    "<img src=x onerror=alert(1)>",
-    "Plain Moor",
-]
 CAUTIONS = [
     "Screening estimate from a simplified model (flat terrain, no building wake, long-term means);"
     " not a substitute for detailed modelling by qualified practitioners.",
@@ -28,25 +23,6 @@ CAUTIONS = [
 ]
 
 
-def _sites() -> pd.DataFrame:
-    """Four sites, three with hostile names, one per verdict and an unknown one."""
-    return pd.DataFrame(
-        {
-            "site_id": ["S1", "S2", "S3", "S4"],
-            "name": NAMES,
-            "designation": ["SAC", "<b>SSSI</b>", "local", "SPA"],
-            "habitat": ["raised bog", "oak woodland", "heath", "dune grassland"],
-            "critical_level_ug_m3": [1.0, 1.0, 3.0, 3.0],
-            "critical_load_used_kg_n_ha_yr": [5.0, 10.0, 10.0, 8.0],
-            "pc_conc_max_ug_m3": [1.234, 0.008, np.nan, 0.05],
-            "pc_pct_level": [123.4, 0.8, np.nan, 1.67],
-            "pc_dep_max_kg_n_ha_yr": [12.5, 0.04, np.nan, 0.39],
-            "pc_pct_load": [250.0, 0.4, np.nan, 4.9],
-            "threshold_percent": [1.0, 1.0, 100.0, 1.0],
-            "verdict": ["above threshold", "below threshold", "not assessed", "above threshold"],
-            "distance_m": [350.0, 900.0, 1500.0, 600.0],
-        }
-    )
 
 
 FLAG = "reduction 95 % is outside the published range 70-90 % for <scrubber>"
@@ -140,7 +116,7 @@ def _write(path, **overrides) -> str:
         version="0.1.0",
         run_time="2024-05-01T12:00:00Z",
         scenario_file="scenario.toml",
-        sites=_sites(),
+        sites=hostile_sites(),
         sources=_sources(),
         weather_summary=WEATHER,
         habitat_values=habitat_values,
@@ -148,7 +124,7 @@ def _write(path, **overrides) -> str:
         cautions=CAUTIONS,
         method_notes=["Sector-averaged Gaussian plume, flat terrain."],
         run_record=RUN_RECORD,
-        figures={"PC by distance": pc_vs_distance_figure(_sites())},
+        figures={"PC by distance": pc_vs_distance_figure(hostile_sites())},
     )
     arguments.update(overrides)
     write_report(path, **arguments)
@@ -233,7 +209,7 @@ def test_summary_shows_formatted_figures_and_verdict_styles(report_html):
 
 def test_summary_keeps_decimals_where_rounding_would_meet_the_threshold(tmp_path):
     """1.04 % against a 1 % threshold shows as 1.04, not as 1.0 (which would read as equal)."""
-    sites = _sites()
+    sites = hostile_sites()
     sites.loc[1, ["pc_pct_load", "threshold_percent"]] = [1.04, 1.0]
     body = _summary_body(_write(tmp_path / "report.html", sites=sites))
     assert 'class="num over">1.04<' in body
@@ -376,7 +352,7 @@ def test_missing_summary_column_raises_and_writes_nothing(tmp_path):
     """A sites table without a verdict column is refused before the file is written."""
     path = tmp_path / "report.html"
     with pytest.raises(InputError, match="verdict"):
-        _write(path, sites=_sites().drop(columns="verdict"))
+        _write(path, sites=hostile_sites().drop(columns="verdict"))
     assert not path.exists()
 
 
@@ -396,7 +372,7 @@ def test_net_change_table_lists_each_site():
 
 def test_weather_figures_follow_the_weather_summary(tmp_path):
     """Weather charts sit in section 2 right after the weather table, not among the figures."""
-    png = pc_vs_distance_figure(_sites())
+    png = pc_vs_distance_figure(hostile_sites())
     text = _write(tmp_path / "report.html", weather_figures={"Wind rose <of the table>": png})
     weather = _between(text, '<div class="weather" id="weather"><h3>Weather</h3>',
                        "<h3>Habitats")
