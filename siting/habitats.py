@@ -23,21 +23,22 @@ from siting.tables import Tables, suggest
 MAX_POINTS_PER_SITE = 1500
 
 
-def _read_layer(section: HabitatsSection):
+def read_vector_layer(path, layer: str | None, what: str):
+    """Read a vector layer geopandas can read; refuse one that is unreadable, empty or has no
+    CRS. ``what`` names it in messages (e.g. "habitats.file")."""
     import geopandas as gpd
 
-    name = section.file.name
+    name = path.name
     try:
-        gdf = gpd.read_file(section.file, layer=section.layer) if section.layer \
-            else gpd.read_file(section.file)
+        gdf = gpd.read_file(path, layer=layer) if layer else gpd.read_file(path)
     except FileNotFoundError as exc:
-        raise InputFileError(f"habitats.file {name}: not found") from exc
+        raise InputFileError(f"{what} {name}: not found") from exc
     except Exception as exc:  # drivers raise many types for unreadable files
-        raise InputError(f"habitats.file {name}: cannot read as a vector layer: {exc}") from exc
+        raise InputError(f"{what} {name}: cannot read as a vector layer: {exc}") from exc
     if gdf.empty:
-        raise InputError(f"habitats.file {name}: the layer has no features")
+        raise InputError(f"{what} {name}: the layer has no features")
     if gdf.crs is None:
-        raise InputError(f"habitats.file {name}: the layer has no CRS; set one in your GIS")
+        raise InputError(f"{what} {name}: the layer has no CRS; set one in your GIS")
     return gdf
 
 
@@ -52,7 +53,7 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
         that describe the site (not yet the results).
     warnings : list of str
     """
-    gdf = _read_layer(section)
+    gdf = read_vector_layer(section.file, section.layer, "habitats.file")
     name = section.file.name
     fields = {"name_field": section.name_field, "habitat_field": section.habitat_field,
               "designation_field": section.designation_field}

@@ -26,7 +26,7 @@ import pandas as pd
 from siting.constants import KG_YR_TO_G_S, UG_NH3_M2_S_TO_KG_N_HA_YR
 from siting.errors import InputError
 from siting.grids import GridSpec
-from siting.habitats import site_outline_points
+from siting.habitats import read_vector_layer, site_outline_points
 from siting.placement import (
     PolarKernel,
     max_places,
@@ -59,17 +59,10 @@ class PlaceResult:
 
 
 def _read_polygons(path: Path, layer: str | None, crs: str, what: str):
-    import geopandas as gpd
+    """A layer's geometries as one valid geometry in ``crs``, and the layer itself."""
     import shapely
 
-    try:
-        gdf = gpd.read_file(path, layer=layer) if layer else gpd.read_file(path)
-    except Exception as exc:  # drivers raise many types
-        raise InputError(f"{what} {path.name}: cannot read as a vector layer: {exc}") from exc
-    if gdf.empty:
-        raise InputError(f"{what} {path.name}: the layer has no features")
-    if gdf.crs is None:
-        raise InputError(f"{what} {path.name}: the layer has no CRS")
+    gdf = read_vector_layer(path, layer, what)
     geoms = gdf.to_crs(crs).geometry
     return shapely.make_valid(shapely.union_all(geoms.to_numpy())), gdf
 

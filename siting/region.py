@@ -60,6 +60,7 @@ from siting.convolution import (
 from siting.emissions import derive_emission
 from siting.errors import InputError, InputFileError, SitingError
 from siting.grids import NODATA, GridSpec, grid_around
+from siting.habitats import read_vector_layer
 from siting.longterm import DispersionSettings
 from siting.tables import Tables, load_tables, suggest
 
@@ -254,21 +255,13 @@ def read_farms(path: Path, tables: Tables, fields: FarmFields = FarmFields(),
         Missing or unreadable file; no CRS or a geographic one; no emission field; a value out
         of range, an unknown livestock, a duplicate id or an unusable geometry (named by farm).
     """
-    import geopandas as gpd
     import shapely
 
     path = Path(path)
     name = f"farms layer {path.name}"
     if not path.exists():
         raise InputFileError(f"{name}: not found ({path})")
-    try:
-        gdf = gpd.read_file(path, layer=fields.layer) if fields.layer else gpd.read_file(path)
-    except Exception as exc:  # drivers raise many types
-        raise InputError(f"{name}: cannot read as a vector layer: {exc}") from exc
-    if gdf.empty:
-        raise InputError(f"{name}: the layer has no features")
-    if gdf.crs is None:
-        raise InputError(f"{name}: the layer has no CRS; set one in your GIS")
+    gdf = read_vector_layer(path, fields.layer, "farms layer")
     if crs is None:
         crs = _projected_crs(gdf.crs, name)
     else:
