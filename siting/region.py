@@ -62,6 +62,7 @@ from siting.errors import InputError, InputFileError, SitingError
 from siting.grids import NODATA, GridSpec, grid_around
 from siting.habitats import read_vector_layer
 from siting.longterm import DispersionSettings
+from siting.scenario import projected_crs
 from siting.tables import Tables, load_tables, suggest
 
 #: Release height of a farm whose layer gives none [m], by kind (common practice, no source):
@@ -183,23 +184,8 @@ class FarmFields:
 # --- reading --------------------------------------------------------------------------------
 
 
-def _projected_crs(crs, where: str) -> str:
-    """The CRS as text if it is projected in metres, else an InputError."""
-    from pyproj import CRS
-    from pyproj.exceptions import CRSError
-
-    try:
-        parsed = CRS.from_user_input(crs)
-    except CRSError as exc:
-        raise InputError(f'{where}: "{crs}" is not a CRS pyproj knows: {exc}') from exc
-    if not parsed.is_projected:
-        raise InputError(f"{where}: {parsed.to_string()} is geographic (degrees); give --crs with "
-                         "a projected CRS in metres, e.g. the UTM zone of the region "
-                         "(EPSG:326xx north)")
-    units = {axis.unit_name for axis in parsed.axis_info}
-    if units - {"metre", "meter"}:
-        raise InputError(f"{where}: {parsed.to_string()} has units {sorted(units)}; need metres")
-    return parsed.to_string()
+_CRS_FIX = ("give --crs with a projected CRS in metres, e.g. the UTM zone of the region "
+            "(EPSG:326xx north)")
 
 
 def _numbers(frame, column: str, name: str, ids, low: float, high: float | None,
@@ -263,9 +249,9 @@ def read_farms(path: Path, tables: Tables, fields: FarmFields = FarmFields(),
         raise InputFileError(f"{name}: not found ({path})")
     gdf = read_vector_layer(path, fields.layer, "farms layer")
     if crs is None:
-        crs = _projected_crs(gdf.crs, name)
+        crs = projected_crs(gdf.crs, name, _CRS_FIX)
     else:
-        crs = _projected_crs(crs, "--crs")
+        crs = projected_crs(crs, "--crs", _CRS_FIX)
         gdf = gdf.to_crs(crs)
     columns = [c for c in gdf.columns if c != "geometry"]
     warnings: list[str] = []

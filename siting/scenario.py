@@ -310,20 +310,28 @@ def _format_error(exc: ValidationError, raw: dict, filename: str) -> str:
     return f"{prefix}: {key} {wording()}, got {got!r}"
 
 
-def _check_crs(crs: str, filename: str) -> None:
+_CRS_FIX = "give a projected CRS in metres, e.g. the UTM zone of the site (EPSG:326xx north)"
+
+
+def projected_crs(crs, where: str, fix: str = _CRS_FIX) -> str:
+    """The CRS as text if it is projected in metres, else an InputError naming ``where``.
+
+    ``fix`` is the advice given when the CRS is geographic (degrees).
+    """
     from pyproj import CRS
     from pyproj.exceptions import CRSError
 
     try:
         parsed = CRS.from_user_input(crs)
     except CRSError as exc:
-        raise InputError(f'{filename}: crs "{crs}" is not a CRS pyproj knows: {exc}') from exc
+        raise InputError(f'{where}: crs "{crs}" is not a CRS pyproj knows: {exc}') from exc
+    label = parsed.to_string()
     if not parsed.is_projected:
-        raise InputError(f'{filename}: crs "{crs}" is geographic (degrees); give a projected CRS '
-                         "in metres, e.g. the UTM zone of the site (EPSG:326xx north)")
+        raise InputError(f'{where}: crs "{label}" is geographic (degrees); {fix}')
     units = {axis.unit_name for axis in parsed.axis_info}
     if units - {"metre", "meter"}:
-        raise InputError(f'{filename}: crs "{crs}" has units {sorted(units)}; need metres')
+        raise InputError(f'{where}: crs "{label}" has units {sorted(units)}; need metres')
+    return label
 
 
 def _resolve(path: Path | None, folder: Path, key: str, filename: str,
@@ -365,7 +373,7 @@ def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Sce
         scenario = Scenario.model_validate(raw)
     except ValidationError as exc:
         raise InputError(_format_error(exc, raw, path.name)) from None
-    _check_crs(scenario.crs, path.name)
+    projected_crs(scenario.crs, path.name)
     hourly_needed = [s.id for s in scenario.sources if s.scrubber_design_share is not None]
     if scenario.weather.hourly is None and (hourly_needed
                                             or scenario.seasonal.temperature_dependent_emission):
