@@ -42,6 +42,18 @@ def read_vector_layer(path, layer: str | None, what: str):
     return gdf
 
 
+def _positive_field(feature, field: str | None, where: str):
+    """(value, "habitat layer field F") where the layer gives a per-site value, else None."""
+    if not field:
+        return None
+    value = getattr(feature, field)
+    if value is None or pd.isna(value):
+        return None
+    if float(value) <= 0:
+        raise InputError(f"{where}: {field} must be > 0, got {value}")
+    return float(value), f"habitat layer field {field}"
+
+
 def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
                   critical_load_end: str = "lower"):
     """Read the habitat layer and attach each site's critical values and threshold.
@@ -110,22 +122,14 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
         lo, hi = habitat["critical_load_min_kg_n_ha_yr"], habitat["critical_load_max_kg_n_ha_yr"]
         used = {"lower": lo, "middle": 0.5 * (lo + hi), "upper": hi}[critical_load_end]
         load_source = f'{habitat["source"]} ({critical_load_end} end of range)'
-        if section.critical_load_field:
-            value = getattr(feature, section.critical_load_field)
-            if value is not None and not pd.isna(value):
-                if float(value) <= 0:
-                    raise InputError(f"{where}: {section.critical_load_field} must be > 0, "
-                                     f"got {value}")
-                used, load_source = float(value), f"habitat layer field {section.critical_load_field}"
+        override = _positive_field(feature, section.critical_load_field, where)
+        if override is not None:
+            used, load_source = override
         level_row = levels["lichens_bryophytes" if habitat["lichens_bryophytes"] else "higher_plants"]
         level, level_source = level_row["critical_level_ug_m3"], level_row["source"]
-        if section.critical_level_field:
-            value = getattr(feature, section.critical_level_field)
-            if value is not None and not pd.isna(value):
-                if float(value) <= 0:
-                    raise InputError(f"{where}: {section.critical_level_field} must be > 0, "
-                                     f"got {value}")
-                level, level_source = float(value), f"habitat layer field {section.critical_level_field}"
+        override = _positive_field(feature, section.critical_level_field, where)
+        if override is not None:
+            level, level_source = override
         land_cover = tables.deposition_velocities[habitat["land_cover"]]
 
         def optional(key, feature=feature):
