@@ -315,7 +315,6 @@ def convolution_from_blocks(convolution, case: Case, elements, emission_g_s) -> 
     cell_m = case.cell_m
     west_m, north_m = 0.0, n_rows * cell_m
     half_rows, half_cols = convolution.kernel_half_size(n_rows, n_cols, cell_m)
-    reference_m = convolution.kernel_reference_distance_m(half_rows, half_cols, cell_m)
     groups: dict = {}
     for i, element in enumerate(elements):  # release class = the element moved to the origin
         groups.setdefault(replace(element, x_m=0.0, y_m=0.0), []).append(i)
@@ -326,12 +325,12 @@ def convolution_from_blocks(convolution, case: Case, elements, emission_g_s) -> 
         y = np.array([elements[i].y_m for i in members])
         q = q_all[members]
         kernel = convolution.unit_kernel([at_origin], case.weather, case.settings, cell_m,
-                                         half_rows, half_cols, reference_distance_m=reference_m)
+                                         half_rows, half_cols)
         placed = convolution.place_on_cells(x, y, q, west_m, north_m, cell_m, n_rows, n_cols)
         total += convolution.convolve_emissions(placed.raster(), kernel)
         correction = convolution.near_field_correction(
             x, y, q, placed, kernel, [at_origin], case.weather, case.settings, west_m, north_m,
-            NEAR_FIELD_CELLS, reference_m)
+            NEAR_FIELD_CELLS)
         np.add.at(total, (correction.rows, correction.cols), correction.values)
     return np.maximum(total, 0.0)
 

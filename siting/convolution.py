@@ -23,11 +23,9 @@ grid) and the offsets are then assembled by interpolation in angle, as longterm.
 ways give the same numbers to rounding (tests/test_convolution.py). Placement near the sources
 can be made exact with :func:`near_field_correction`.
 
-Batching. longterm.py tabulates the depletion integral up to the farthest receptor of each call,
-so a value depends (to ~1e-4) on the other receptors of the call. Every engine call here adds
-one receptor at a fixed ``reference_distance_m`` (longer than any offset of the run) so all
-calls use the same table and a value never depends on how receptors are batched: kernels,
-tiles, chunks of site points and dask tasks all see identical per-pair values.
+Batching. A value of longterm.py's engine depends on its own offset only (the engine's profile
+nodes sit on a fixed lattice in distance), so kernels, tiles, chunks of site points and dask
+tasks all see identical per-pair values however the receptors are batched.
 
 Tiling. :func:`tile_concentration` gives the concentration on one tile of the grid by overlap-
 add over blocks of sources: for each source block within the kernel's reach, a circular FFT
@@ -50,22 +48,19 @@ from siting.longterm import (
     DispersionSettings,
     ReleaseElement,
     WeatherClasses,
+    radial_profiles,
+    sector_position,
     source_concentration_g_m3_per_g_s,
 )
 
 #: Release heights of a class are rounded to this step [m] (common practice, no source: half a
 #: metre is below what anyone knows of a house's effective release height).
 HEIGHT_STEP_M = 0.5
-#: Distances at which a radial kernel's centre-line profiles are evaluated (log-spaced); the
-#: lattice's distinct distances are interpolated from them.
-_PROFILE_NODES = 4096
 #: Footprint sides of volume classes are rounded in the logarithm to a ladder of ratio sqrt(2)
 #: through FOOTPRINT_LADDER_BASE_M (..., 7.1, 10, 14.1, 20, 28.3, 40, 56.6, 80, 113, ... m), so a
 #: side is off by at most 19 % (common practice, no source).
 FOOTPRINT_LADDER_BASE_M = 10.0
 FOOTPRINT_LADDER_RATIO = math.sqrt(2.0)
-#: Offsets evaluated per engine call at most (bounds the engine's working memory).
-MAX_OFFSETS_PER_CALL = 65_536
 #: Offsets assembled at once from the centre-line profiles (bounds the temporaries).
 _ASSEMBLY_OFFSETS = 262_144
 
@@ -175,15 +170,10 @@ def kernel_half_size(n_rows: int, n_cols: int, cell_m: float,
     return max(half_rows, 0), max(half_cols, 0)
 
 
-def kernel_reference_distance_m(half_rows: int, half_cols: int, cell_m: float) -> float:
-    """The farthest offset of a kernel [m] (its corner), a lower bound for reference_distance_m."""
-    return math.hypot(half_rows, half_cols) * cell_m
-
-
 def offset_concentration_g_m3_per_g_s(dx_m, dy_m, elements: list[ReleaseElement],
-                                      weather: WeatherClasses, settings: DispersionSettings,
-                                      reference_distance_m: float | None = None) -> np.ndarray:
-    """The long-term engine at receptor offsets from the elements, batch-independent.
+                                      weather: WeatherClasses,
+                                      settings: DispersionSettings) -> np.ndarray:
+    """The long-term engine at receptor offsets from the elements [g m-3 per g s-1].
 
     Parameters
     ----------
@@ -193,32 +183,16 @@ def offset_concentration_g_m3_per_g_s(dx_m, dy_m, elements: list[ReleaseElement]
         The source's elements, positioned relative to the same reference point.
     weather, settings :
         As for ``longterm.source_concentration_g_m3_per_g_s``.
-    reference_distance_m : float, optional
-        Every engine call gets one extra receptor at this distance [m], so the depletion table
-        of every call spans the same distances; give the same value (at least the farthest
-        offset) to every call whose values are to agree to rounding. None: the farthest offset
-        of this call.
 
     Returns
     -------
     concentration : ndarray
-        Shape of dx_m [g m-3 per g s-1].
+        Shape of dx_m. A value depends on its own offset only, never on the other offsets of
+        the call (longterm.py's profile nodes are fixed), so batches, tiles and tasks agree.
     """
     dx = np.asarray(dx_m, dtype=float)
     dy = np.asarray(dy_m, dtype=float)
-    flat_x, flat_y = dx.ravel(), dy.ravel()
-    out = np.empty(flat_x.size)
-    if flat_x.size == 0:
-        return out.reshape(dx.shape)
-    farthest = float(np.sqrt(np.max(flat_x * flat_x + flat_y * flat_y)))
-    anchor_m = max(reference_distance_m or 0.0, farthest, 1.0)
-    chunk = max(1, min(MAX_OFFSETS_PER_CALL, settings.chunk_receptors) - 1)
-    for start in range(0, flat_x.size, chunk):
-        sl = slice(start, start + chunk)
-        rx = np.append(flat_x[sl], 0.0)
-        ry = np.append(flat_y[sl], anchor_m)
-        out[sl] = source_concentration_g_m3_per_g_s(rx, ry, elements, weather, settings)[:-1]
-    return out.reshape(dx.shape)
+    return source_concentration_g_m3_per_g_s(dx, dy, elements, weather, settings)
 
 
 def _offset_lattice(half_rows: int, half_cols: int, cell_m: float):
@@ -228,21 +202,6 @@ def _offset_lattice(half_rows: int, half_cols: int, cell_m: float):
     return np.meshgrid(d_col * cell_m, -d_row * cell_m)
 
 
-def sector_weights(dx_m, dy_m, weather: WeatherClasses):
-    """Sectors bracketing each offset and the weight of the second: (k0, k1, w1).
-
-    The wind that carries a plume from the source to a receptor at bearing b (clockwise from
-    north) blows from b + 180 deg; between two sector centre lines the field is interpolated
-    linearly in that angle (longterm.py's documented rule).
-    """
-    travel_deg = np.degrees(np.arctan2(dx_m, dy_m))
-    wind_from_deg = (travel_deg + 180.0) % 360.0
-    n = len(weather.sector_centres_deg)
-    pos = ((wind_from_deg - weather.sector_centres_deg[0]) / weather.sector_width_deg) % n
-    k0 = np.floor(pos).astype(np.intp) % n
-    return k0, (k0 + 1) % n, pos - np.floor(pos)
-
-
 @dataclass(frozen=True)
 class OffsetLattice:
     """The cell-centre offsets of a kernel as distance and angle, shared by every class.
@@ -250,7 +209,7 @@ class OffsetLattice:
     ``radius_m`` holds the distinct offset distances [m]; for offset n (row-major over the
     kernel) ``flat0[n]`` and ``flat1[n]`` index a (n_sectors, n_radii) profile table, flattened,
     at the two sectors bracketing the offset's bearing and at its distance; ``w1[n]`` is the
-    weight of the second sector (:func:`sector_weights`).
+    weight of the second sector (``longterm.sector_position``).
     """
 
     half_rows: int
@@ -295,7 +254,8 @@ def offset_lattice(half_rows: int, half_cols: int, cell_m: float, weather: Weath
         d_row = np.arange(start, min(start + strip, shape[0])) - half_rows
         dx = np.broadcast_to(d_col[None, :] * cell_m, (d_row.size, d_col.size))
         dy = np.broadcast_to(-d_row[:, None] * cell_m, dx.shape)
-        k0, k1, w = sector_weights(dx, dy, weather)
+        k0, w = sector_position(dx, dy, weather)
+        k1 = (k0 + 1) % n_sectors
         ridx = index[np.abs(d_row)[:, None], np.abs(d_col)[None, :]]
         flat0[start:start + d_row.size] = k0 * n_radii + ridx
         flat1[start:start + d_row.size] = k1 * n_radii + ridx
@@ -306,50 +266,25 @@ def offset_lattice(half_rows: int, half_cols: int, cell_m: float, weather: Weath
 
 
 def centre_line_profiles(element: ReleaseElement, weather: WeatherClasses,
-                         settings: DispersionSettings, radius_m: np.ndarray,
-                         reference_distance_m: float | None = None) -> np.ndarray:
+                         settings: DispersionSettings, radius_m: np.ndarray) -> np.ndarray:
     """A_k(r): each sector's centre-line field of one element at the given distances.
 
     Returns an array (n_sectors, n_radii) [g m-3 per g s-1]: A_k(r) = sum_js f[k, j, s] g_js(r),
-    g_js being the engine's field for one weather class of frequency 1 in every sector (then
-    the same at every bearing), run once per (speed, stability) class with a non-zero frequency.
+    read off the engine's own radial profiles (``longterm.radial_profiles``) with the engine's
+    interpolation, receptors closer than the element's min_distance_m taken at it.
     """
-    freq = weather.frequency_fraction
-    n_sectors, _, n_stability = freq.shape
-    radius_m = np.asarray(radius_m, dtype=float)
-    zeros = np.zeros_like(radius_m)
-    profiles = np.zeros((n_sectors, radius_m.size))
-    for j, speed in enumerate(weather.speeds_m_s):
-        for s in range(n_stability):
-            if not freq[:, j, s].any():
-                continue
-            single = np.zeros((n_sectors, 1, n_stability))
-            single[:, 0, s] = 1.0
-            one_class = WeatherClasses(weather.sector_centres_deg, np.array([speed]), single,
-                                       weather.anemometer_height_m)
-            g = offset_concentration_g_m3_per_g_s(zeros, radius_m, [element], one_class,
-                                                  settings, reference_distance_m)
-            profiles += freq[:, j, s][:, None] * g[None, :]
-    return profiles
+    radius_m = np.maximum(np.asarray(radius_m, dtype=float), element.min_distance_m)
+    if radius_m.size == 0:
+        return np.zeros((len(weather.sector_centres_deg), 0))
+    profiles = radial_profiles(element, weather, settings, float(radius_m.min()),
+                               float(radius_m.max()))
+    return profiles.values_at(radius_m)
 
 
 def _radial_kernel(element: ReleaseElement, weather: WeatherClasses,
-                   settings: DispersionSettings, lattice: OffsetLattice,
-                   reference_distance_m: float) -> np.ndarray:
+                   settings: DispersionSettings, lattice: OffsetLattice) -> np.ndarray:
     """Kernel of one element at the origin from its centre-line profiles (module docstring)."""
-    radius_m = lattice.radius_m
-    if radius_m.size > _PROFILE_NODES:
-        # the profiles are smooth in log distance: evaluate them on a log-spaced table and
-        # interpolate to the lattice's distinct distances (error below 1e-5 relative,
-        # tests/test_convolution.py), instead of running the engine on every distance
-        nodes = np.geomspace(max(radius_m.min(), 1e-3), radius_m.max(), _PROFILE_NODES)
-        at_nodes = centre_line_profiles(element, weather, settings, nodes,
-                                        reference_distance_m)
-        log_r = np.log(np.maximum(radius_m, nodes[0]))
-        profiles = np.stack([np.interp(log_r, np.log(nodes), row) for row in at_nodes]).ravel()
-    else:
-        profiles = centre_line_profiles(element, weather, settings, radius_m,
-                                        reference_distance_m).ravel()
+    profiles = centre_line_profiles(element, weather, settings, lattice.radius_m).ravel()
     out = np.empty(lattice.flat0.size)
     step = max(1, min(_ASSEMBLY_OFFSETS, settings.chunk_receptors))
     for start in range(0, out.size, step):
@@ -362,7 +297,7 @@ def _radial_kernel(element: ReleaseElement, weather: WeatherClasses,
 
 def unit_kernel(elements: list[ReleaseElement], weather: WeatherClasses,
                 settings: DispersionSettings, cell_m: float, half_rows: int, half_cols: int,
-                *, reach_m: float | None = None, reference_distance_m: float | None = None,
+                *, reach_m: float | None = None,
                 method: str = "auto", lattice: OffsetLattice | None = None) -> UnitKernel:
     """The unit-source kernel of a source on the cell-centre offsets of a grid.
 
@@ -378,8 +313,6 @@ def unit_kernel(elements: list[ReleaseElement], weather: WeatherClasses,
         Largest row and column offsets held (:func:`kernel_half_size`).
     reach_m : float, optional
         Offsets farther than this [m] are set to zero (the kernel is truncated); None keeps all.
-    reference_distance_m : float, optional
-        See :func:`offset_concentration_g_m3_per_g_s`; at least the kernel's corner distance.
     method : str
         "direct": the engine at every offset; "radial": centre-line profiles on the distinct
         distances, assembled in angle (one element at the origin only); "auto": radial where it
@@ -396,8 +329,6 @@ def unit_kernel(elements: list[ReleaseElement], weather: WeatherClasses,
     """
     if cell_m <= 0:
         raise ValueError(f"cell_m must be > 0, got {cell_m}")
-    corner_m = kernel_reference_distance_m(half_rows, half_cols, cell_m)
-    reference = max(reference_distance_m or 0.0, corner_m)
     single_at_origin = (len(elements) == 1 and elements[0].x_m == 0.0
                         and elements[0].y_m == 0.0 and elements[0].share_fraction == 1.0)
     if method == "auto":
@@ -410,11 +341,10 @@ def unit_kernel(elements: list[ReleaseElement], weather: WeatherClasses,
         elif (lattice.half_rows, lattice.half_cols, lattice.cell_m) != (half_rows, half_cols,
                                                                         cell_m):
             raise ValueError("the lattice was made for another kernel size or cell size")
-        values = _radial_kernel(elements[0], weather, settings, lattice, reference)
+        values = _radial_kernel(elements[0], weather, settings, lattice)
     elif method == "direct":
         dx, dy = _offset_lattice(half_rows, half_cols, cell_m)
-        values = offset_concentration_g_m3_per_g_s(dx, dy, elements, weather, settings,
-                                                   reference)
+        values = offset_concentration_g_m3_per_g_s(dx, dy, elements, weather, settings)
     else:
         raise ValueError(f"method must be auto, radial or direct, got {method!r}")
     if reach_m is not None:
@@ -534,7 +464,7 @@ def _kernel_lookup(kernel: UnitKernel, d_row: np.ndarray, d_col: np.ndarray) -> 
 def near_field_correction(x_m, y_m, emission_g_s, placed: CellValues, kernel: UnitKernel,
                           elements: list[ReleaseElement], weather: WeatherClasses,
                           settings: DispersionSettings, west_m: float, north_m: float,
-                          window_cells: int, reference_distance_m: float | None = None,
+                          window_cells: int,
                           sources_per_batch: int = 512) -> CellValues:
     """What to add near each source so the field there is the direct sum at its true position.
 
@@ -551,8 +481,8 @@ def near_field_correction(x_m, y_m, emission_g_s, placed: CellValues, kernel: Un
         The same sources as placed on the cells.
     kernel : UnitKernel
         The sources' kernel; ``elements`` the release element(s) it was made from.
-    weather, settings, reference_distance_m :
-        As for the kernel (the same reference distance, so the values agree).
+    weather, settings :
+        As for the kernel.
     west_m, north_m : float
         The grid's west and north edges [m]; the cell size is the kernel's.
     window_cells : int
@@ -587,8 +517,7 @@ def near_field_correction(x_m, y_m, emission_g_s, placed: CellValues, kernel: Un
         rows, cols = rows[inside], cols[inside]
         dx = west_m + (cols + 0.5) * cell - x[src]
         dy = north_m - (rows + 0.5) * cell - y[src]
-        exact = q[src] * offset_concentration_g_m3_per_g_s(dx, dy, elements, weather, settings,
-                                                           reference_distance_m)
+        exact = q[src] * offset_concentration_g_m3_per_g_s(dx, dy, elements, weather, settings)
         # what the placed entries of the same source give on those cells through the kernel
         lo = np.searchsorted(entry_source, src, side="left")
         hi = np.searchsorted(entry_source, src, side="right")

@@ -535,17 +535,16 @@ def prepare_region(farms_path: str | Path, weather_path: str | Path,
 # tasks: plain functions of arrays, so dask (or a loop) can run them anywhere
 
 
-def _task_kernel(cls: ReleaseClass, weather, settings, lattice, reach_m, reference_m):
+def _task_kernel(cls: ReleaseClass, weather, settings, lattice, reach_m):
     return unit_kernel(cls.elements(), weather, settings, lattice.cell_m, lattice.half_rows,
-                       lattice.half_cols, reach_m=reach_m, reference_distance_m=reference_m,
-                       lattice=lattice)
+                       lattice.half_cols, reach_m=reach_m, lattice=lattice)
 
 
 def _task_correction(kernel, cls: ReleaseClass, x, y, q, placed, weather, settings, west_m,
-                     north_m, window, reference_m):
+                     north_m, window):
     per_batch = max(1, settings.chunk_receptors // (2 * window) ** 2)
     return near_field_correction(x, y, q, placed, kernel, cls.elements(), weather, settings,
-                                 west_m, north_m, window, reference_m, per_batch)
+                                 west_m, north_m, window, per_batch)
 
 
 def _task_tile(kernels, placed, corrections, row_range, col_range, block):
@@ -556,20 +555,18 @@ def _task_tile(kernels, placed, corrections, row_range, col_range, block):
     return out * UG_PER_G
 
 
-def _pair_values(cls: ReleaseClass, fx, fy, q, px, py, weather, settings, reach_m, reference_m):
+def _pair_values(cls: ReleaseClass, fx, fy, q, px, py, weather, settings, reach_m):
     """Concentration [ug m-3] of each farm (rows) at each point (columns)."""
     dx = px[None, :] - fx[:, None]
     dy = py[None, :] - fy[:, None]
-    unit = offset_concentration_g_m3_per_g_s(dx, dy, cls.elements(), weather, settings,
-                                             reference_m)
+    unit = offset_concentration_g_m3_per_g_s(dx, dy, cls.elements(), weather, settings)
     if reach_m is not None:
         unit = np.where(np.hypot(dx, dy) <= reach_m, unit, 0.0)
     return q[:, None] * unit * UG_PER_G
 
 
-def _task_site_sum(cls, fx, fy, q, px, py, weather, settings, reach_m, reference_m):
-    return _pair_values(cls, fx, fy, q, px, py, weather, settings, reach_m,
-                        reference_m).sum(axis=0)
+def _task_site_sum(cls, fx, fy, q, px, py, weather, settings, reach_m):
+    return _pair_values(cls, fx, fy, q, px, py, weather, settings, reach_m).sum(axis=0)
 
 
 class _Runner:
@@ -654,11 +651,6 @@ def compute_region(inputs: RegionInputs) -> RegionResult:
                                         if inputs.sites is not None else
                                         (np.zeros(0, int), np.zeros(0), np.zeros(0),
                                          np.zeros(0, bool)))
-        # one depletion-table reach for every engine call of the run (convolution.py)
-        xs = np.concatenate([[grid.west_m, grid.east_m], px])
-        ys = np.concatenate([[grid.south_m, grid.north_m], py])
-        reference_m = float(math.hypot(xs.max() - xs.min(), ys.max() - ys.min()))
-
         fx_all, fy_all = farms["x_m"].to_numpy(float), farms["y_m"].to_numpy(float)
         q_all = farms["emission_g_s"].to_numpy(float)
         class_of = {c: i for i, c in enumerate(inputs.classes)}
@@ -670,7 +662,7 @@ def compute_region(inputs: RegionInputs) -> RegionResult:
         kernels, placed, corrections, site_parts = [], [], [], []
         for cls, idx in zip(inputs.classes, members):
             kernel = runner.call(_task_kernel, cls, inputs.weather, settings, lattice,
-                                 opt.reach_m, reference_m)
+                                 opt.reach_m)
             cells = place_on_cells(fx_all[idx], fy_all[idx], q_all[idx], grid.west_m,
                                    grid.north_m, grid.cell_m, grid.n_rows, grid.n_cols,
                                    opt.placement)
@@ -679,14 +671,14 @@ def compute_region(inputs: RegionInputs) -> RegionResult:
             corrections.append(
                 runner.call(_task_correction, kernel, cls, fx_all[idx], fy_all[idx], q_all[idx],
                             cells, inputs.weather, settings, grid.west_m, grid.north_m,
-                            opt.near_field_cells, reference_m)
+                            opt.near_field_cells)
                 if opt.near_field_cells > 0 else None)
             per_task = max(1, min(PAIRS_PER_TASK, chunk) // max(1, px.size))
             for start in range(0, idx.size, per_task) if px.size else ():
                 part = idx[start:start + per_task]
                 site_parts.append(runner.call(_task_site_sum, cls, fx_all[part], fy_all[part],
                                               q_all[part], px, py, inputs.weather,
-                                              settings, opt.reach_m, reference_m))
+                                              settings, opt.reach_m))
         tiles, ranges = [], []
         tr, tc = plan.tile_rows, plan.tile_cols
         for r0 in range(0, grid.n_rows, tr):
@@ -714,7 +706,7 @@ def compute_region(inputs: RegionInputs) -> RegionResult:
             for cls, idx in zip(inputs.classes, members):
                 nodes.append(runner.call(_pair_values, cls, fx_all[idx], fy_all[idx], q_all[idx],
                                          max_points[:, 0], max_points[:, 1], inputs.weather,
-                                         settings, opt.reach_m, reference_m))
+                                         settings, opt.reach_m))
             by_class = runner.compute(nodes)
             conc_at_max = np.zeros((len(farms), len(sites)))
             for idx, values in zip(members, by_class):

@@ -18,7 +18,6 @@ from siting.convolution import (
     ReleaseClass,
     convolve_emissions,
     kernel_half_size,
-    kernel_reference_distance_m,
     near_field_correction,
     offset_concentration_g_m3_per_g_s,
     offset_lattice,
@@ -55,10 +54,10 @@ def _grid(n):
     return np.meshgrid(x, y)
 
 
-def _direct(gx, gy, xs, ys, qs, elements, weather, settings, reference_m):
+def _direct(gx, gy, xs, ys, qs, elements, weather, settings):
     """The direct per-source sum at the true positions [g m-3]."""
     return sum(q * offset_concentration_g_m3_per_g_s(gx - x, gy - y, elements, weather,
-                                                     settings, reference_m)
+                                                     settings)
                for x, y, q in zip(xs, ys, qs))
 
 
@@ -81,14 +80,14 @@ def test_release_class_rounds_height_and_footprint():
 
 
 def test_batch_independent_values(weather, settings):
-    """With a reference distance, a receptor's value is the same alone or in any batch."""
+    """A receptor's value is the same alone or in any batch (fixed profile nodes)."""
     elements = release_class("volume", 4.0, 900.0).elements()
     x = np.array([150.0, -900.0, 3000.0, 40.0])
     y = np.array([-20.0, 700.0, 2500.0, 5.0])
-    together = offset_concentration_g_m3_per_g_s(x, y, elements, weather, settings, 20_000.0)
+    together = offset_concentration_g_m3_per_g_s(x, y, elements, weather, settings)
     for i in range(x.size):
         alone = offset_concentration_g_m3_per_g_s(x[i:i + 1], y[i:i + 1], elements, weather,
-                                                  settings, 20_000.0)
+                                                  settings)
         assert_allclose(alone, together[i], rtol=1e-14)  # cross-check: same per-receptor ops
 
 
@@ -123,13 +122,11 @@ def test_convolution_equals_direct_sum_on_cell_centres(weather, settings):
     rows, cols = rng.integers(0, n, 12), rng.integers(0, n, 12)
     xs, ys, qs = gx[0, cols], gy[rows, 0], rng.uniform(0.01, 0.3, 12)
     for cls in (ReleaseClass("point", 6.0), ReleaseClass("volume", 4.0, 40.0)):
-        reference = kernel_reference_distance_m(n - 1, n - 1, CELL_M)
-        kernel = unit_kernel(cls.elements(), weather, settings, CELL_M, n - 1, n - 1,
-                             reference_distance_m=reference)
+        kernel = unit_kernel(cls.elements(), weather, settings, CELL_M, n - 1, n - 1)
         placed = place_on_cells(xs, ys, qs, 0.0, n * CELL_M, CELL_M, n, n)
         assert placed.values.size == 12  # bilinear weight 1 on the centre, none elsewhere
         conv = convolve_emissions(placed.raster(), kernel)
-        direct = _direct(gx, gy, xs, ys, qs, cls.elements(), weather, settings, reference)
+        direct = _direct(gx, gy, xs, ys, qs, cls.elements(), weather, settings)
         _close(conv, direct, rtol=1e-9)  # cross-check; FFT round-off only
 
 
@@ -200,15 +197,13 @@ def test_bilinear_placement_error_falls_as_one_over_distance(cls, weather, setti
     """
     n = 70
     gx, gy = _grid(n)
-    reference = kernel_reference_distance_m(n - 1, n - 1, CELL_M)
     elements = cls.elements()
-    kernel = unit_kernel(elements, weather, settings, CELL_M, n - 1, n - 1,
-                         reference_distance_m=reference)
+    kernel = unit_kernel(elements, weather, settings, CELL_M, n - 1, n - 1)
     rng = np.random.default_rng(2)
     for _ in range(3):
         x = gx[0, 35] + rng.uniform(-50, 50)
         y = gy[35, 0] + rng.uniform(-50, 50)
-        direct = _direct(gx, gy, [x], [y], [1.0], elements, weather, settings, reference)
+        direct = _direct(gx, gy, [x], [y], [1.0], elements, weather, settings)
         cells = np.hypot(gx - x, gy - y) / CELL_M
         floor = 1e-9 * direct.max()
 
@@ -224,7 +219,7 @@ def test_bilinear_placement_error_falls_as_one_over_distance(cls, weather, setti
         worse = error(tile_concentration(nearest, kernel, (0, n), (0, n)))
         assert worse[cells >= 10].max() > plain[cells >= 10].max()  # first order, not second
         correction = near_field_correction([x], [y], [1.0], bilinear, kernel, elements, weather,
-                                           settings, 0.0, n * CELL_M, 10, reference)
+                                           settings, 0.0, n * CELL_M, 10)
         assert correction.values.size == 400  # the 20 x 20 cells around the source
         corrected = error(tile_concentration(bilinear, kernel, (0, n), (0, n),
                                              correction=correction))
@@ -243,18 +238,16 @@ def test_near_field_correction_of_many_sources(weather, settings):
     ys = rng.uniform(800, 3200, 6)
     qs = rng.uniform(0.05, 0.2, 6)
     cls = ReleaseClass("volume", 5.0, 40.0)
-    reference = kernel_reference_distance_m(n - 1, n - 1, CELL_M)
-    kernel = unit_kernel(cls.elements(), weather, settings, CELL_M, n - 1, n - 1,
-                         reference_distance_m=reference)
+    kernel = unit_kernel(cls.elements(), weather, settings, CELL_M, n - 1, n - 1)
     placed = place_on_cells(xs, ys, qs, 0.0, n * CELL_M, CELL_M, n, n)
     one_batch = near_field_correction(xs, ys, qs, placed, kernel, cls.elements(), weather,
-                                      settings, 0.0, n * CELL_M, n, reference)
+                                      settings, 0.0, n * CELL_M, n)
     small_batches = near_field_correction(xs, ys, qs, placed, kernel, cls.elements(), weather,
-                                          settings, 0.0, n * CELL_M, n, reference,
+                                          settings, 0.0, n * CELL_M, n,
                                           sources_per_batch=2)
     assert_allclose(small_batches.raster(), one_batch.raster(), rtol=1e-14, atol=0)
     field = tile_concentration(placed, kernel, (0, n), (0, n), correction=one_batch)
-    direct = _direct(gx, gy, xs, ys, qs, cls.elements(), weather, settings, reference)
+    direct = _direct(gx, gy, xs, ys, qs, cls.elements(), weather, settings)
     assert one_batch.values.size == 6 * n * n  # every window is the whole grid
     _close(field, direct, rtol=1e-9)  # cross-check: the direct sum at the true positions
 
