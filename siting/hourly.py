@@ -22,15 +22,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from siting.deposition import source_depletion_fraction
 from siting.longterm import (
     DepletionTables,
-    receptor_reach_m,
     DispersionSettings,
     ReleaseElement,
+    receptor_reach_m,
     release_wind_and_height,
+    table_position,
     virtual_distances_m,
 )
-from siting.deposition import source_depletion_fraction
 from siting.plume import vertical_term
 
 N_STABILITY = 6
@@ -195,9 +196,11 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
                     settings.wind_exponents[s], s)
                 by_height.setdefault(height_m, []).append((u, weight))
             c = np.zeros(along_m.size)
+            position = (table_position(along_m, max_distance_m, settings.depletion_table_points)
+                        if settings.depletion_velocity_m_s else None)  # shared by the heights
             for height_m, winds in by_height.items():
                 vertical = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
-                integral = depletion.integral(height_m, along_m)
+                integral = depletion.integral(height_m, along_m, position)
                 speed_sum = np.zeros(along_m.size)
                 for u, weight in winds:
                     if integral is None:
