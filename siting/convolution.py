@@ -16,12 +16,11 @@ relative to the largest value of the field, are the only differences from the di
 Kernels. :func:`unit_kernel` evaluates ``longterm.source_concentration_g_m3_per_g_s`` at the
 offsets, either directly (any element list) or, for a single element at the origin, through its
 radial and angular parts: the sector-averaged field is C(r, theta) = w0(theta) A_k0(r) +
-w1(theta) A_k1(r), sector k's centre-line profile A_k(r) = sum_js f[k, j, s] g_js(r) being
-linear in the class frequencies, so the engine is only run once per (speed, stability) class on
-the *distinct* distances of the offset lattice (79,000 for the 998,001 offsets of a 500 x 500
-grid) and the offsets are then assembled by interpolation in angle, as longterm.py does. Both
-ways give the same numbers to rounding (tests/test_convolution.py). Placement near the sources
-can be made exact with :func:`near_field_correction`.
+w1(theta) A_k1(r), so the engine's own centre-line profiles (``longterm.radial_profiles``) are
+read off once at the *distinct* distances of the offset lattice (79,000 for the 998,001 offsets
+of a 500 x 500 grid) and the offsets are then assembled by interpolation in angle, as
+longterm.py does. Both ways give the same numbers to rounding (tests/test_convolution.py).
+Placement near the sources can be made exact with :func:`near_field_correction`.
 
 Batching. A value of longterm.py's engine depends on its own offset only (the engine's profile
 nodes sit on a fixed lattice in distance), so kernels, tiles, chunks of site points and dask

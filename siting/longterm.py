@@ -13,7 +13,7 @@ so each element's centre-line profiles (one per sector: the frequency table time
 profiles, a matrix product) are evaluated once on nodes 0.2 % apart in distance and each
 receptor reads its two sectors' values off them, interpolating log-linearly in distance. The
 work per receptor is then independent of the number of weather classes; the interpolation
-changes values by ~2e-6 of the exact per-receptor sum (tests/test_longterm.py).
+changes values by at most ~2e-6 of the per-receptor formula (tests/test_fast_paths.py).
 
 What is not here: reading the table (``weather.py``), emission strengths (``emissions.py``),
 deposition velocities by land cover (the caller multiplies by v_d).
@@ -258,10 +258,6 @@ class RadialProfiles:
     def n_nodes(self) -> int:
         return self.log_value.shape[1]
 
-    def distance_m(self) -> np.ndarray:
-        """Distances of the nodes [m]."""
-        return np.exp((self.first_node + np.arange(self.n_nodes)) * self.log_step)
-
     def position(self, distance_m):
         """Node below each distance and the weight of the next one, (i0, w), in ln(distance).
 
@@ -389,9 +385,9 @@ def element_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Rele
     """Annual mean ground-level concentration per unit emission of one element [g m-3 per g s-1].
 
     The element's centre-line profiles (:func:`radial_profiles`) are interpolated to each
-    receptor: log-linearly in ln(distance) (exact for a power law; 2e-6 of the exact per-receptor
-    sum with the default 0.2 % node spacing, tests/test_longterm.py) and linearly in angle
-    between the two sector centre lines either side.
+    receptor: log-linearly in ln(distance) (exact for a power law; within ~2e-6 of the
+    per-receptor formula with the default 0.2 % node spacing, tests/test_fast_paths.py) and
+    linearly in angle between the two sector centre lines either side.
 
     Parameters
     ----------
