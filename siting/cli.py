@@ -247,7 +247,8 @@ def _print_verify_summary(result, out_dir: Path) -> None:
 
 def cmd_region(args) -> int:
     from siting.outputs import check_output_dir
-    from siting.region import FarmFields, RegionOptions, region, write_region_outputs
+    from siting.region import FarmFields, RegionOptions, region
+    from siting.region_outputs import write_region_outputs
 
     options = RegionOptions(
         spacing_m=args.spacing, margin_m=args.margin, tile_size=args.tile_size,

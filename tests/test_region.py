@@ -23,7 +23,6 @@ from siting.convolution import offset_concentration_g_m3_per_g_s
 from siting.errors import InputError, InputFileError
 from siting.region import (
     CONTRIBUTOR_COLUMNS,
-    SITE_COLUMNS,
     FarmFields,
     RegionOptions,
     compute_region,
@@ -32,6 +31,7 @@ from siting.region import (
     read_farms,
     region,
 )
+from siting.region_outputs import SITE_COLUMNS
 from siting.resources import demo_dir
 from siting.tables import load_tables
 
