@@ -9,8 +9,9 @@ of a key/value listing, bullet lists, and the CSS class and hint of each screeni
 is a small function of plain values returning an HTML fragment as a string; text is escaped
 wherever it enters one.
 
-What does not live here: page layout. The sections, the tables specific to one page and the
-page around them stay in :mod:`siting.report` and :mod:`siting.verify_report`. Number
+Also the page shell both use (:func:`page_html`, :func:`sections_html`) and the two-column
+key/value table. What does not live here: the sections and the tables specific to one page,
+which stay in :mod:`siting.report` and :mod:`siting.verify_report`. Number
 formatting (significant digits, percentages, the text shown for a missing value) belongs to
 :mod:`siting.presentation`, which this module calls; no checking or physics happens here.
 """
@@ -37,7 +38,10 @@ __all__ = [
     "header_html",
     "is_number",
     "is_share",
+    "key_value_table",
+    "page_html",
     "plain_label",
+    "sections_html",
 ]
 
 #: CSS class and plain-words hint per verdict (styling of a verdict cell or badge).
@@ -266,3 +270,39 @@ def bullet_list(items: Sequence[str], empty_text: str, css_class: str = "") -> s
         return f'<p class="empty">{html.escape(empty_text)}</p>'
     cls = f' class="{css_class}"' if css_class else ""
     return f"<ul{cls}>" + "".join(f"<li>{esc(item)}</li>" for item in items) + "</ul>"
+
+
+def key_value_table(
+    mapping: Mapping[str, Any], labels: Mapping[str, str], empty_text: str, css: str = ""
+) -> str:
+    """Two-column table of a mapping: plain-words label, then the value formatted by its key."""
+    if not mapping:
+        return f'<p class="empty">{html.escape(empty_text)}</p>'
+    rows = []
+    for key, value in mapping.items():
+        label = labels.get(str(key), plain_label(str(key)))
+        rows.append(
+            f'<tr><th scope="row">{html.escape(label)}</th>'
+            f"<td>{display_value(str(key), value)}</td></tr>"
+        )
+    cls = f' class="{css}"' if css else ""
+    return f"<table{cls}><tbody>{''.join(rows)}</tbody></table>"
+
+
+def sections_html(sections: Sequence[tuple[str, str, str]]) -> str:
+    """<section> elements from (anchor, heading, content HTML); headings escaped."""
+    return "".join(
+        f'<section id="{anchor}"><h2>{html.escape(heading)}</h2>{content}</section>'
+        for anchor, heading, content in sections
+    )
+
+
+def page_html(title: str, css: str, body: str) -> str:
+    """A whole self-contained page: UTF-8, viewport, escaped title, inline stylesheet, body."""
+    return (
+        "<!DOCTYPE html>\n"
+        '<html lang="en"><head><meta charset="utf-8">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        f"<title>{esc(title)}</title><style>{css}</style></head><body>"
+        f"{body}</body></html>\n"
+    )

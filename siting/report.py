@@ -26,9 +26,8 @@ from __future__ import annotations
 
 import base64
 import html
-import json
 from collections.abc import Mapping
-from pathlib import Path, PurePath
+from pathlib import Path
 from typing import Any
 
 import pandas as pd
@@ -45,9 +44,13 @@ from siting.html_parts import (
     header_html,
     is_number,
     is_share,
+    key_value_table,
+    page_html,
     plain_label,
+    sections_html,
 )
 from siting.presentation import MISSING_TEXT, format_for_column, format_percent, is_missing
+from siting.report_record import run_record_html, settings_table
 
 __all__ = ["SUMMARY_COLUMNS", "write_report"]
 
@@ -191,30 +194,6 @@ _WEATHER_LABELS = {
     "emission_profile": "Hourly emission profile",
 }
 
-#: Keys of the run record shown elsewhere in the report (not repeated in section 7's tables).
-_RECORD_SHOWN_ELSEWHERE = {
-    "weather_summary": "section 2",
-    "warnings": "section 5",
-    "cautions": "section 6",
-}
-
-#: Scenario parameters not repeated in the model settings table (shown elsewhere).
-_SETTINGS_SHOWN_ELSEWHERE = frozenset({"title", "source", "sources"})
-
-#: Labels of scenario parameters whose names alone read poorly.
-_SETTING_LABELS = {
-    "crs": "Coordinate reference system",
-    "path": "Scenario file",
-    "hourly": "Hourly weather file",
-    "land_type": "Land type (dispersion coefficients)",
-    "sigma_scheme": "Dispersion coefficient scheme",
-    "min_wind_speed_m_s": "Minimum wind speed [m/s]",
-    "plume_depletion": "Plume depletion by deposition",
-    "depletion_land_cover": "Land cover used for depletion",
-    "critical_load_end": "End of the critical load range used",
-    "config_dir": "Own configuration tables folder",
-}
-
 _ROLE_NOTE = (
     "Roles: proposed and existing sources make up the process contribution (PC); removed "
     "sources are subtracted in the net change; other sources (somebody else's) count only "
@@ -229,23 +208,6 @@ _CAUTION_TOP_LINE = (
 # --------------------------------------------------------------------------------------------
 # The report: small HTML builders
 # --------------------------------------------------------------------------------------------
-
-
-def _key_value_table(
-    mapping: Mapping[str, Any], labels: Mapping[str, str], empty_text: str, css: str = ""
-) -> str:
-    """Two-column table of a mapping: plain-words label, then the value formatted by its key."""
-    if not mapping:
-        return f'<p class="empty">{html.escape(empty_text)}</p>'
-    rows = []
-    for key, value in mapping.items():
-        label = labels.get(str(key), plain_label(str(key)))
-        rows.append(
-            f'<tr><th scope="row">{html.escape(label)}</th>'
-            f"<td>{display_value(str(key), value)}</td></tr>"
-        )
-    cls = f' class="{css}"' if css else ""
-    return f"<table{cls}><tbody>{''.join(rows)}</tbody></table>"
 
 
 class _Notes:
@@ -590,137 +552,6 @@ def _thresholds_table(sites: pd.DataFrame) -> str:
     )
 
 
-def _settings_table(parameters: Mapping[str, Any]) -> str:
-    """The scenario's settings as read (defaults filled in), grouped by scenario table.
-
-    Sources (section 2's derivation) and the title are left out; unset values read "not set".
-    """
-    groups: list[tuple[str, dict[str, Any]]] = [("General", {})]
-    for key, value in parameters.items():
-        if key in _SETTINGS_SHOWN_ELSEWHERE:
-            continue
-        if isinstance(value, Mapping):
-            groups.append((plain_label(key), dict(value)))
-        elif isinstance(value, (list, tuple)) and any(isinstance(v, Mapping) for v in value):
-            continue  # a list of tables, e.g. sources: shown elsewhere
-        else:
-            groups[0][1][key] = value
-    rows = []
-    for heading, entries in groups:
-        if not entries:
-            continue
-        rows.append(f'<tr class="step-group"><th colspan="2">{html.escape(heading)}</th></tr>')
-        for key, value in entries.items():
-            shown = (
-                '<span class="empty">not set</span>'
-                if value is None
-                else display_value(str(key), value)
-            )
-            label = _SETTING_LABELS.get(str(key), plain_label(str(key)))
-            rows.append(f'<tr><th scope="row">{html.escape(label)}</th><td>{shown}</td></tr>')
-    if not rows:
-        return ""
-    return (
-        "<h3>Model settings</h3>"
-        '<p class="note">As read from the scenario file, with defaults filled in.</p>'
-        f'<table class="compact settings"><tbody>{"".join(rows)}</tbody></table>'
-    )
-
-
-def _file_hash_table(files: Mapping[str, Any], first_header: str) -> str:
-    """Input files as a table: key, file name (folder below), SHA-256 in monospace.
-
-    The key column is left out when every key is just the file's name.
-    """
-    entries = {k: (e if isinstance(e, Mapping) else {"sha256": e}) for k, e in files.items()}
-    show_key = any(
-        is_missing(e.get("path")) or PurePath(str(e.get("path"))).name != str(k)
-        for k, e in entries.items()
-    )
-    rows = []
-    for key, entry in entries.items():
-        path = entry.get("path")
-        if is_missing(path):
-            file_html = f'<td class="na">{NOT_APPLICABLE}</td>'
-        else:
-            pure = PurePath(str(path))
-            folder = str(pure.parent) if str(pure.parent) not in ("", ".") else ""
-            folder_html = f'<span class="sub mono">{esc(folder)}</span>' if folder else ""
-            file_html = f"<td>{esc(pure.name)}{folder_html}</td>"
-        key_html = f"<td>{code_html(key)}</td>" if show_key else ""
-        rows.append(
-            f"<tr>{key_html}{file_html}"
-            f'<td class="mono">{esc(entry.get("sha256"))}</td></tr>'
-        )
-    key_head = f"<th>{html.escape(first_header)}</th>" if show_key else ""
-    return (
-        f'<table class="compact"><thead><tr>{key_head}<th>File</th>'
-        f"<th>SHA-256</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"
-    )
-
-
-def _run_record_html(record: Mapping[str, Any]) -> str:
-    """Section 7: the run record as tables (files and hashes, grid, versions) plus raw JSON."""
-    parts = []
-    done = set()
-    overview = {
-        k: v for k, v in record.items() if not isinstance(v, (Mapping, list, tuple))
-    }
-    labels = {"tool": "Tool", "version": "Version", "run_time_utc": "Run time (UTC)",
-              "title": "Title"}  # fmt: skip
-    if overview:
-        parts.append(_key_value_table(overview, labels, "", css="compact"))
-        done |= set(overview)
-    for key, heading, first in (
-        ("inputs", "Input files", "Input"),
-        ("config_tables", "Configuration tables", "Table"),
-    ):
-        if isinstance(record.get(key), Mapping) and record[key]:
-            parts.append(f"<h4>{heading}</h4>" + _file_hash_table(record[key], first))
-            done.add(key)
-    if isinstance(record.get("grid"), Mapping):
-        grid_labels = {"west_m": "West edge [m]", "north_m": "North edge [m]",
-                       "cell_m": "Cell size [m]", "n_cols": "Columns", "n_rows": "Rows",
-                       "crs": "Coordinate reference system"}  # fmt: skip
-        parts.append("<h4>Receptor grid</h4>" + _key_value_table(record["grid"], grid_labels, "",
-                                                                  css="compact"))
-        done.add("grid")
-    if isinstance(record.get("versions"), Mapping) and record["versions"]:
-        versions = record["versions"]
-        head = "".join(f"<th>{esc(k)}</th>" for k in versions)
-        cells = "".join(f'<td class="mono">{esc(v)}</td>' for v in versions.values())
-        parts.append(
-            "<h4>Software versions</h4>"
-            f'<table class="compact"><thead><tr>{head}</tr></thead>'
-            f"<tbody><tr>{cells}</tr></tbody></table>"
-        )
-        done.add("versions")
-    if isinstance(record.get("timings_s"), Mapping) and record["timings_s"]:
-        timing_labels = {k: plain_label(k) for k in record["timings_s"]}
-        timing_labels["receptors"] = "Receptor points computed"
-        parts.append("<h4>Timings</h4>" + _key_value_table(record["timings_s"], timing_labels, "",
-                                                          css="compact"))
-        done.add("timings_s")
-    elsewhere = [(k, where) for k, where in _RECORD_SHOWN_ELSEWHERE.items() if k in record]
-    done |= {k for k, _ in elsewhere} | {"parameters"}
-    rest = {k: v for k, v in record.items() if k not in done}
-    if rest:
-        parts.append("<h4>Other entries</h4>" + _key_value_table(rest, {}, "", css="compact"))
-    notes = []
-    if "parameters" in record:
-        notes.append("model settings: see section 2 (and the raw record below)")
-    notes += [f"{plain_label(k).lower()}: see {where}" for k, where in elsewhere]
-    if notes:
-        text = "; ".join(notes)
-        parts.append(f'<p class="note">{html.escape(text[:1].upper() + text[1:])}.</p>')
-    raw = json.dumps(record, indent=2, default=str, ensure_ascii=False)
-    parts.append(
-        "<details><summary>Complete run record (as in run.json)</summary>"
-        f'<pre class="record">{html.escape(raw)}</pre></details>'
-    )
-    return "".join(parts)
-
-
 def _figures_html(
     figures: Mapping[str, bytes], empty_text: str = "No figures were made for this run."
 ) -> str:
@@ -853,7 +684,7 @@ def write_report(
             "<h3>Sources and emission derivation</h3>"
             + _sources_table(sources)
             + '<div class="weather" id="weather"><h3>Weather</h3>'
-            + _key_value_table(
+            + key_value_table(
                 weather_summary, _WEATHER_LABELS, "No weather summary available.", css="keyval"
             )
             + weather_figures_html
@@ -862,7 +693,7 @@ def write_report(
             + _habitat_table(habitat_values)
             + _thresholds_table(sites)
             + (
-                _settings_table(run_record["parameters"])
+                settings_table(run_record["parameters"])
                 if isinstance(run_record.get("parameters"), Mapping)
                 else ""
             ),
@@ -888,24 +719,16 @@ def write_report(
             "6. Cautions",
             f'<div class="cautions">{bullet_list(cautions, "No cautions given.")}</div>',
         ),
-        ("run-record", "7. Run record", _run_record_html(run_record)),
+        ("run-record", "7. Run record", run_record_html(run_record)),
     ]
     toc = "".join(f'<li><a href="#{anchor}">{html.escape(h)}</a></li>' for anchor, h, _ in sections)
-    body = "".join(
-        f'<section id="{anchor}"><h2>{html.escape(heading)}</h2>{content}</section>'
-        for anchor, heading, content in sections
-    )
-    page = (
-        "<!DOCTYPE html>\n"
-        '<html lang="en"><head><meta charset="utf-8">'
-        '<meta name="viewport" content="width=device-width, initial-scale=1">'
-        f"<title>{esc(title)} · siting report</title>"
-        f"<style>{SHARED_CSS}</style></head><body>"
+    body = (
         f'<p class="caution-line">{html.escape(_CAUTION_TOP_LINE)}</p>'
         f"<h1>{esc(title)}</h1>"
         f'<p class="meta">Ammonia screening report · siting {esc(version)} · '
         f"run {esc(run_time)} · scenario {esc(scenario_file)}</p>"
         f'<nav class="toc"><strong>Contents</strong><ol>{toc}</ol></nav>'
-        f"{body}</body></html>\n"
+        + sections_html(sections)
     )
-    Path(path).write_text(page, encoding="utf-8")
+    Path(path).write_text(page_html(f"{title} · siting report", SHARED_CSS, body),
+                          encoding="utf-8")

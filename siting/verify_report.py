@@ -35,7 +35,9 @@ from siting.html_parts import (
     esc,
     header_html,
     is_number,
+    page_html,
     plain_label,
+    sections_html,
 )
 from siting.presentation import MISSING_TEXT, format_number, format_percent, is_missing
 
@@ -803,16 +805,7 @@ def write_verify_report(
             f'<div class="cautions">{bullet_list(cautions, "No cautions given.")}</div>',
         ),
     )
-    body = "".join(
-        f'<section id="{anchor}"><h2>{html.escape(heading)}</h2>{content}</section>'
-        for anchor, heading, content in sections
-    )
-    page = (
-        "<!DOCTYPE html>\n"
-        '<html lang="en"><head><meta charset="utf-8">'
-        '<meta name="viewport" content="width=device-width, initial-scale=1">'
-        f"<title>Verification of {esc(PurePath(str(submission)).name or submission)} · siting"
-        f"</title><style>{_CSS}</style></head><body>"
+    body = (
         "<h1>Verification of a screening submission</h1>"
         f'<p class="meta">Submission <span class="mono">{esc(submission)}</span> · made with '
         f"siting {esc(submitted_version)} · verified with siting {esc(this_version)} on "
@@ -822,11 +815,11 @@ def write_verify_report(
         + '<p class="caution-line">A screening submission is an estimate from a simplified '
         "model: read the cautions in section 5. The competent authority and local regulations "
         "decide.</p>"
-        + body
+        + sections_html(sections)
         + f"<footer>Verification report written by siting {esc(this_version)} on "
         f"{esc(run_time)} · submission made with siting {esc(submitted_version)} · "
         f'submission folder <span class="mono">{esc(submission)}</span> · '
         f"exit code {int(exit_code)}</footer>"
-        "</body></html>\n"
     )
-    Path(path).write_text(page, encoding="utf-8")
+    title = f"Verification of {PurePath(str(submission)).name or submission} · siting"
+    Path(path).write_text(page_html(title, _CSS, body), encoding="utf-8")
