@@ -285,12 +285,19 @@ class RadialProfiles:
         these in angle equals the engine at every offset to rounding.
         """
         i0, weight = self.position(np.asarray(distance_m, dtype=float).copy())
-        a = self.log_value[:-1, i0]
-        b = self.log_value[:-1, i0 + 1]
-        b -= a
-        b *= weight
-        b += a
-        return np.exp(b, out=b)
+        return _exp_of_log_lerp(self.log_value[:-1, i0], self.log_value[:-1, i0 + 1], weight)
+
+
+def _exp_of_log_lerp(log_below, log_above, weight) -> np.ndarray:
+    """exp(a + w (b - a)): the value between two nodes, interpolated in the logarithm.
+
+    The one interpolation of the profiles, for the engine and for kernels alike (so they agree
+    to rounding). ``log_above`` is overwritten with the result.
+    """
+    log_above -= log_below
+    log_above *= weight
+    log_above += log_below
+    return np.exp(log_above, out=log_above)
 
 
 _LOG_ZERO = -1e300
@@ -445,14 +452,9 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     index = k0 * profiles.n_nodes + i0
     out = np.zeros_like(w1)
     for sector_weight in (1.0 - w1, w1):  # this sector's centre line, then the next one's
-        a = flat.take(index)
-        b = flat.take(index + 1)
-        b -= a
-        b *= weight
-        b += a
-        np.exp(b, out=b)
-        b *= sector_weight
-        out += b
+        value = _exp_of_log_lerp(flat.take(index), flat.take(index + 1), weight)
+        value *= sector_weight
+        out += value
         index += profiles.n_nodes
     return out
 
