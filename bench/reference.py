@@ -35,6 +35,7 @@ import numpy as np
 
 from siting.plume import (
     momentum_plume_rise_m,
+    stack_tip_downwash_height_m,
     plume_concentration_g_m3,
     vertical_term,
     virtual_distance_m,
@@ -68,12 +69,19 @@ def _emissions(sources: Sequence, emission_g_s) -> np.ndarray:
 
 
 def _wind_and_height(element, speed_ref_m_s: float, anemometer_height_m: float,
-                     exponent: float, s: int) -> tuple[float, float]:
-    """Wind at release height [m s-1] (power law) and release height plus momentum rise [m]."""
+                     exponent: float, s: int, settings) -> tuple[float, float]:
+    """Wind at release height [m s-1] (power law, the settings' rule below the anemometer)
+    and release height after stack-tip downwash, plus momentum rise where allowed [m]."""
     u = float(wind_speed_at_height_m_s(speed_ref_m_s, anemometer_height_m,
-                                       element.release_height_m, exponent))
+                                       element.release_height_m, exponent,
+                                       settings.wind_below_anemometer,
+                                       settings.wind_profile_min_height_m,
+                                       settings.min_wind_speed_m_s))
     height_m = float(element.release_height_m)
-    if element.exit_velocity_m_s > 0 and element.diameter_m > 0:
+    if element.diameter_m > 0 and element.stack_tip_downwash:
+        height_m = float(stack_tip_downwash_height_m(height_m, element.diameter_m,
+                                                     element.exit_velocity_m_s, u))
+    if element.plume_rise and element.exit_velocity_m_s > 0 and element.diameter_m > 0:
         height_m += float(momentum_plume_rise_m(element.diameter_m, element.exit_velocity_m_s,
                                                 u, s))
     return u, height_m
@@ -197,7 +205,7 @@ def reference_sector_average(receptor_x, receptor_y, sources: Sequence, weather,
                 integral_at_x: dict = {}  # I(x) at the receptors, by effective height
                 for j, speed_ref in enumerate(weather.speeds_m_s):
                     u, height_m = _wind_and_height(element, speed_ref, weather.anemometer_height_m,
-                                                   settings.wind_exponents[s], s)
+                                                   settings.wind_exponents[s], s, settings)
                     key = round(height_m, 9)
                     if settings.depletion_velocity_m_s and key not in integral_at_x:
                         integral_at_x[key] = DirectDepletionIntegral(
@@ -284,7 +292,7 @@ def reference_hourly(receptor_x, receptor_y, sources: Sequence, weather, setting
 
                 u, height_m = _wind_and_height(element, float(weather.speed_m_s[h]),
                                                weather.anemometer_height_m,
-                                               settings.wind_exponents[s], s)
+                                               settings.wind_exponents[s], s, settings)
                 travel_rad = np.deg2rad(float(weather.direction_deg[h]) + 180.0)
                 off_axis = bearing_rad - travel_rad
                 along_m = distance_m * np.cos(off_axis)

@@ -255,8 +255,11 @@ def cmd_region(args) -> int:
         memory_mb=args.memory_mb,
         scheduler=None if args.scheduler.lower() == "none" else args.scheduler,
         workers=args.workers, reach_m=args.reach_m, top=args.top, land_type=args.land_type,
-        anemometer_height_m=args.anemometer_height, plume_depletion=not args.no_depletion,
-        near_field_cells=args.near_field, critical_load_end=args.critical_load_end)
+        anemometer_height_m=args.anemometer_height,
+        plume_depletion=args.depletion and not args.no_depletion,
+        near_field_cells=args.near_field, critical_load_end=args.critical_load_end,
+        critical_load_review=args.critical_load_review,
+        wind_below_anemometer=args.wind_below_anemometer)
     options.check()
     farms = Path(args.farms)
     out_dir = Path(args.out) if args.out else Path("maps") / f"{farms.stem}_region"
@@ -463,8 +466,16 @@ def build_parser() -> argparse.ArgumentParser:
                    help="dispersion coefficients (default: rural)")
     p.add_argument("--anemometer-height", type=float, default=10.0, metavar="M",
                    help="height of the wind measurement in m (default 10)")
-    p.add_argument("--no-depletion", action="store_true",
-                   help="no plume depletion (more cautious)")
+    p.add_argument("--depletion", action="store_true",
+                   help="deplete the plume by deposition on its way (default: no depletion, "
+                        "the cautious choice)")
+    p.add_argument("--no-depletion", action="store_true", help=argparse.SUPPRESS)
+    p.add_argument("--critical-load-review", choices=("2022", "2011"), default="2022",
+                   help="which review's critical load ranges (default: 2022)")
+    p.add_argument("--wind-below-anemometer", choices=("power_law", "unchanged"),
+                   default="power_law",
+                   help="wind at a release height below the anemometer: power_law (default, "
+                        "cautious) or unchanged (the measured speed)")
     p.add_argument("--near-field", type=int, default=10, metavar="CELLS",
                    help="cells around each farm where the grid is made the direct sum at the "
                         "farm's true position (default 10; 0 = none)")

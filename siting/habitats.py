@@ -54,8 +54,72 @@ def _positive_field(feature, field: str | None, where: str):
     return float(value), f"habitat layer field {field}"
 
 
+#: Values of a habitat layer's lichens_bryophytes_field, case-insensitive (empty = not known).
+_ABSENT = {"absent", "no", "false", "0", "n", "none"}
+_PRESENT = {"present", "yes", "true", "1", "y"}
+
+
+def _lichens_absent(feature, field: str | None, where: str) -> bool | None:
+    """True/False where the layer says lichens and bryophytes are absent/present, else None."""
+    if not field:
+        return None
+    value = getattr(feature, field)
+    if value is None or (not isinstance(value, str) and pd.isna(value)):
+        return None
+    text = str(value).strip().lower()
+    if isinstance(value, (bool, np.bool_)) or text in _ABSENT | _PRESENT:
+        return text in _ABSENT
+    if isinstance(value, (int, float, np.number)) and float(value) in (0.0, 1.0):
+        return float(value) == 0.0
+    if not text:
+        return None
+    raise InputError(f"{where}: {field} must say whether lichens and bryophytes are present "
+                     f"(present/absent, yes/no, true/false, 1/0; empty = not known), "
+                     f"got {value!r}")
+
+
+def critical_level_for(habitat: dict, levels: dict, absent: bool | None,
+                       absent_by_scenario: bool, field: str | None) -> tuple[float, str, str]:
+    """(critical level [ug m-3], basis in words, source) of one site.
+
+    1 ug/m3 (lichens and bryophytes) unless the habitat layer's field or the scenario states
+    they are absent: they grow on most sites unless shown otherwise, so the cautious level is
+    the default whatever the habitat type ([UNECE2007]; critical_levels.toml).
+    """
+    if absent is True:
+        row, basis = levels["higher_plants"], (f"habitat layer field {field}: lichens and "
+                                               "bryophytes absent")
+    elif absent is False:
+        row, basis = levels["lichens_bryophytes"], (f"habitat layer field {field}: lichens "
+                                                    "and bryophytes present")
+    elif absent_by_scenario:
+        row, basis = levels["higher_plants"], ("scenario habitats.lichens_bryophytes_absent: "
+                                               "lichens and bryophytes absent")
+    elif habitat.get("lichens_bryophytes"):
+        row, basis = levels["lichens_bryophytes"], ("habitat type where lichens and bryophytes "
+                                                    "are important")
+    else:
+        row, basis = levels["lichens_bryophytes"], ("lichens and bryophytes not shown absent "
+                                                    "(default)")
+    return float(row["critical_level_ug_m3"]), basis, row["source"]
+
+
+def critical_load_range(habitat: dict, review: str) -> tuple[float, float, str, str]:
+    """(min, max [kg N ha-1 yr-1], review used, source) of a habitat row for a review.
+
+    ``review`` "2022" (Bobbink et al. 2022, the default) or "2011" (Bobbink & Hettelingh
+    2011). A row without 2022 values (a user's older table) falls back to 2011; the returned
+    review says which was used.
+    """
+    if review == "2022" and "critical_load_2022_min_kg_n_ha_yr" in habitat:
+        return (habitat["critical_load_2022_min_kg_n_ha_yr"],
+                habitat["critical_load_2022_max_kg_n_ha_yr"], "2022", habitat["source_2022"])
+    return (habitat["critical_load_min_kg_n_ha_yr"], habitat["critical_load_max_kg_n_ha_yr"],
+            "2011", habitat["source"])
+
+
 def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
-                  critical_load_end: str = "lower"):
+                  critical_load_end: str = "lower", critical_load_review: str = "2022"):
     """Read the habitat layer and attach each site's critical values and threshold.
 
     Returns
@@ -70,7 +134,7 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
     fields = {"name_field": section.name_field, "habitat_field": section.habitat_field,
               "designation_field": section.designation_field}
     for key in ("critical_level_field", "critical_load_field", "background_deposition_field",
-                "background_concentration_field"):
+                "background_concentration_field", "lichens_bryophytes_field"):
         if getattr(section, key):
             fields[key] = getattr(section, key)
     for key, field in fields.items():
@@ -86,6 +150,12 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
     tiers = sorted(tables.thresholds, key=lambda t: t["threshold_percent"])
     tier_by_designation = {d.strip().lower(): t for t in tiers for d in t["designations"]}
     levels = tables.critical_levels
+    absent_names = {n.strip().lower() for n in section.lichens_bryophytes_absent}
+    site_names = {str(v).strip().lower() for v in gdf[section.name_field]}
+    for missing in sorted(absent_names - site_names):
+        warnings.append(f'habitats.lichens_bryophytes_absent: "{missing}" is not a site name in '
+                        f"{name}; it is ignored")
+    fallback: set[str] = set()
     for i, feature in enumerate(gdf.itertuples(index=False), start=1):
         site_name = str(getattr(feature, section.name_field))
         where = f'habitats.file {name}, feature {i} ("{site_name}")'
@@ -119,17 +189,21 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
             warnings.append(f'{where}: designation "{designation}" matches no tier in '
                             f'thresholds.toml; the strictest tier "{tier["id"]}" '
                             f"({tier['threshold_percent']:g} %) is used")
-        lo, hi = habitat["critical_load_min_kg_n_ha_yr"], habitat["critical_load_max_kg_n_ha_yr"]
+        lo, hi, review, range_source = critical_load_range(habitat, critical_load_review)
+        if review != critical_load_review:
+            fallback.add(habitat_key)
         used = {"lower": lo, "middle": 0.5 * (lo + hi), "upper": hi}[critical_load_end]
-        load_source = f'{habitat["source"]} ({critical_load_end} end of range)'
+        load_source = f"{range_source} ({critical_load_end} end of range)"
         override = _positive_field(feature, section.critical_load_field, where)
         if override is not None:
             used, load_source = override
-        level_row = levels["lichens_bryophytes" if habitat["lichens_bryophytes"] else "higher_plants"]
-        level, level_source = level_row["critical_level_ug_m3"], level_row["source"]
+        level, level_basis, level_source = critical_level_for(
+            habitat, levels, _lichens_absent(feature, section.lichens_bryophytes_field, where),
+            site_name.strip().lower() in absent_names, section.lichens_bryophytes_field)
         override = _positive_field(feature, section.critical_level_field, where)
         if override is not None:
             level, level_source = override
+            level_basis = "given per site in the habitat layer"
         land_cover = tables.deposition_velocities[habitat["land_cover"]]
 
         def optional(key, feature=feature):
@@ -152,7 +226,9 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
             "deposition_velocity_m_s": float(land_cover["deposition_velocity_m_s"]),
             "deposition_velocity_source": land_cover["source"],
             "critical_level_ug_m3": float(level),
+            "critical_level_basis": level_basis,
             "critical_level_source": level_source,
+            "critical_load_review": review,
             "critical_load_min_kg_n_ha_yr": float(lo),
             "critical_load_max_kg_n_ha_yr": float(hi),
             "critical_load_used_kg_n_ha_yr": float(used),
@@ -162,6 +238,9 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
             "area_ha": geom.area / 1e4,
             "geometry": geom,
         })
+    for key in sorted(fallback):
+        warnings.append(f'critical_loads.toml, habitat "{key}": no 2022 range in the table; '
+                        "the 2011 range is used")
     import geopandas as gpd
 
     return gpd.GeoDataFrame(rows, geometry="geometry", crs=crs), warnings

@@ -193,7 +193,7 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
             for speed_ref, weight in zip(class_speeds[same], class_weights[same]):
                 u, height_m = release_wind_and_height(
                     element, speed_ref, weather.anemometer_height_m,
-                    settings.wind_exponents[s], s)
+                    settings.wind_exponents[s], s, settings)
                 by_height.setdefault(height_m, []).append((u, weight))
             c = np.zeros(along_m.size)
             position = (table_position(along_m, max_distance_m, settings.depletion_table_points)

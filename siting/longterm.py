@@ -32,8 +32,10 @@ from siting.deposition import (
     source_depletion_fraction,
 )
 from siting.plume import (
+    WIND_PROFILE_MIN_HEIGHT_M,
     SigmaScheme,
     momentum_plume_rise_m,
+    stack_tip_downwash_height_m,
     virtual_distance_m,
     wind_speed_at_height_m_s,
 )
@@ -77,6 +79,12 @@ class ReleaseElement:
     ``share_fraction`` is the element's part of its source's emission; ``min_distance_m`` keeps
     receptors on top of the element from a singular 1/x (receptors closer are evaluated at it);
     for a volume element it is its effective radius 2.15 sigma_y0 ([EPA1995] Sect. 1.2.2).
+
+    ``plume_rise``: momentum rise from ``diameter_m`` and ``exit_velocity_m_s`` is added (only
+    for an outlet clear of the building wake; the caller decides, see
+    plume.gep_stack_height_m). ``stack_tip_downwash``: the release height is lowered where the
+    exit velocity is below 1.5 times the wind speed (plume.stack_tip_downwash_height_m). Both
+    off by default: no rise is the cautious choice.
     """
 
     x_m: float
@@ -88,6 +96,8 @@ class ReleaseElement:
     exit_velocity_m_s: float = 0.0
     share_fraction: float = 1.0
     min_distance_m: float = 1.0
+    plume_rise: bool = False
+    stack_tip_downwash: bool = False
 
 
 @dataclass(frozen=True)
@@ -96,19 +106,24 @@ class DispersionSettings:
 
     ``wind_exponents`` holds the power-law exponent p per stability class A..F;
     ``depletion_velocity_m_s`` is the deposition velocity used to deplete the plume along its
-    path (None switches depletion off); ``depletion_table_points`` the nodes of each depletion
+    path (None, the default, switches depletion off); ``depletion_table_points`` the nodes of each depletion
     integral table; ``profile_log_step`` the spacing of the sector engine's centre-line profile
     nodes in ln(distance) (0.002: nodes 0.2 % apart); ``memory_budget_mb`` bounds the engines'
-    working arrays (receptors are evaluated in chunks that fit it).
+    working arrays (receptors are evaluated in chunks that fit it). ``wind_below_anemometer``,
+    ``wind_profile_min_height_m`` and ``min_wind_speed_m_s`` say how the wind at a release
+    height below the anemometer is found (plume.wind_speed_at_height_m_s).
     """
 
     scheme: SigmaScheme
     wind_exponents: np.ndarray
     mixing_height_m: float | None = None
-    depletion_velocity_m_s: float | None = 0.02
+    depletion_velocity_m_s: float | None = None
     depletion_table_points: int = 256
     profile_log_step: float = 0.002
     memory_budget_mb: float = 256.0
+    wind_below_anemometer: str = "power_law"
+    wind_profile_min_height_m: float = WIND_PROFILE_MIN_HEIGHT_M
+    min_wind_speed_m_s: float = 1.0
     extra: dict = field(default_factory=dict)
 
     @property
@@ -192,13 +207,25 @@ def virtual_distances_m(element: ReleaseElement, scheme: SigmaScheme, s: int) ->
 
 
 def release_wind_and_height(element: ReleaseElement, speed_ref_m_s: float,
-                            anemometer_height_m: float, exponent: float,
-                            s: int) -> tuple[float, float]:
-    """Wind speed at release height [m s-1] and effective release height with rise [m]."""
+                            anemometer_height_m: float, exponent: float, s: int,
+                            settings: DispersionSettings) -> tuple[float, float]:
+    """Wind speed at release height [m s-1] and effective release height [m].
+
+    The wind is taken at the outlet's own height (plume.wind_speed_at_height_m_s, with the
+    settings' rule below the anemometer); stack-tip downwash then lowers the height where the
+    element has it, and momentum rise is added where the element is allowed rise
+    ([EPA1995] Sect. 1.1.2-1.1.4: rise from the downwash-corrected height).
+    """
     u = float(wind_speed_at_height_m_s(speed_ref_m_s, anemometer_height_m,
-                                       element.release_height_m, exponent))
+                                       element.release_height_m, exponent,
+                                       settings.wind_below_anemometer,
+                                       settings.wind_profile_min_height_m,
+                                       settings.min_wind_speed_m_s))
     height_m = element.release_height_m
-    if element.exit_velocity_m_s > 0 and element.diameter_m > 0:
+    if element.diameter_m > 0 and element.stack_tip_downwash:
+        height_m = float(stack_tip_downwash_height_m(height_m, element.diameter_m,
+                                                     element.exit_velocity_m_s, u))
+    if element.plume_rise and element.exit_velocity_m_s > 0 and element.diameter_m > 0:
         height_m += float(momentum_plume_rise_m(element.diameter_m, element.exit_velocity_m_s,
                                                 u, s))
     return u, height_m
@@ -345,7 +372,7 @@ def radial_profiles(element: ReleaseElement, weather: WeatherClasses,
             if freq[:, j, s].any():
                 u, height_m = release_wind_and_height(
                     element, speed_ref, weather.anemometer_height_m,
-                    settings.wind_exponents[s], s)
+                    settings.wind_exponents[s], s, settings)
                 by_height.setdefault(height_m, []).append((j, u))
         for height_m, winds in by_height.items():
             density_per_m = ground_vertical_density_per_m(sz, height_m, settings.mixing_height_m)

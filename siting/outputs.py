@@ -28,8 +28,8 @@ from siting.grids import write_geotiff
 SITE_COLUMNS = [
     "site_id", "name", "designation", "tier", "habitat", "habitat_name", "area_ha",
     "land_cover", "deposition_velocity_m_s", "distance_m",
-    "critical_level_ug_m3", "critical_level_source",
-    "critical_load_min_kg_n_ha_yr", "critical_load_max_kg_n_ha_yr",
+    "critical_level_ug_m3", "critical_level_basis", "critical_level_source",
+    "critical_load_review", "critical_load_min_kg_n_ha_yr", "critical_load_max_kg_n_ha_yr",
     "critical_load_used_kg_n_ha_yr", "critical_load_source",
     "threshold_percent", "threshold_source", "assessed",
     "pc_conc_max_ug_m3", "pc_conc_mean_ug_m3", "pc_dep_max_kg_n_ha_yr", "pc_dep_mean_kg_n_ha_yr",
@@ -38,6 +38,12 @@ SITE_COLUMNS = [
     "incomb_conc_max_ug_m3", "incomb_dep_max_kg_n_ha_yr", "incomb_pct_level", "incomb_pct_load",
     "background_conc_ug_m3", "background_dep_kg_n_ha_yr", "pec_conc_ug_m3",
     "pec_dep_kg_n_ha_yr", "pec_pct_level", "pec_pct_load", "verdict",
+]
+
+#: Written beside the depleted figures when plume depletion is switched on: what depletion took off.
+UNDEPLETED_COLUMNS = [
+    "pc_conc_max_undepleted_ug_m3", "pc_dep_max_undepleted_kg_n_ha_yr",
+    "pc_pct_level_undepleted", "pc_pct_load_undepleted",
 ]
 
 METHOD_NOTES = [
@@ -254,7 +260,10 @@ def _write_all(result, folder: Path, run_time: str) -> None:
                   "dry deposition of N from NH3, process contribution + other sources",
                   "kg N/ha/yr")
     sites = result.sites
-    table = pd.DataFrame(sites[SITE_COLUMNS])
+    columns = list(SITE_COLUMNS)
+    at = columns.index("pc_pct_load") + 1  # beside the depleted figures
+    columns[at:at] = [c for c in UNDEPLETED_COLUMNS if c in sites.columns]
+    table = pd.DataFrame(sites[columns])
     write_csv(table, folder / "sites.csv")
     gpd.GeoDataFrame(table, geometry=sites.geometry, crs=sites.crs).to_file(
         folder / "sites.gpkg", layer="sites", driver="GPKG")

@@ -35,6 +35,7 @@ from siting.placement import (
     site_maxima,
 )
 from siting.scenario import Scenario, load_scenario
+from siting.tables import default_reduction_percent
 from siting.screen import BOUNDARY_SPACING_M, Prepared, _source_elements, prepare
 
 MAX_CANDIDATES = 200_000
@@ -213,7 +214,7 @@ def place(scenario: Scenario | str | Path, house_id: str, *, spacing_m: float | 
         table["max_places_unabated"] = max_places(places, unabated_share, other_share)
         for option in options:
             table[f"max_places_{option['id']}"] = max_places(
-                places, unabated_share, other_share, option["reduction_percent_default"])
+                places, unabated_share, other_share, default_reduction_percent(option))
     else:
         warnings.append(f'source "{house_id}" gives nh3_kg_per_year, not places: the '
                         "max-places columns are left out")

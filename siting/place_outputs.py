@@ -11,6 +11,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 
 from siting.grids import write_geotiff
+from siting.tables import default_reduction_percent
 from siting.outputs import (
     check_output_dir,
     package_inputs,
@@ -50,7 +51,7 @@ def write_place_outputs(result, out_dir: Path, overwrite: bool = False,
             "holding": {"spacing_m": result.grid.cell_m, "positions": len(result.positions),
                         "allowed_area_ha": result.allowed_area.area / 1e4,
                         "holding_area_ha": result.holding.area / 1e4},
-            "abatement_options": {o["id"]: o["reduction_percent_default"] for o in result.options},
+            "abatement_options": {o["id"]: default_reduction_percent(o) for o in result.options},
             "timings_s": result.timings_s,
             "warnings": result.warnings,
         })

@@ -17,6 +17,11 @@ References
 .. [Irwin1979] J.S. Irwin, Atmos. Environ. 13 (1979) 191-194 (wind-profile exponents).
 .. [Briggs1969] G.A. Briggs, "Plume rise", USAEC Critical Review Series (1969); momentum-rise
    formulas as used in [EPA1995] Sect. 1.1.4 (from memory).
+.. [Briggs1974] G.A. Briggs, "Diffusion estimation for small emissions", ATDL-106 (1974);
+   stack-tip downwash as given in [EPA1995] Sect. 1.1.2, Eq. 1-7 (equation number from memory).
+.. [EPA1985] US EPA, "Guideline for determination of good engineering practice stack height
+   (technical support document for the stack height regulations), revised", EPA-450/4-80-023R
+   (1985); Hg = H + 1.5 L, also 40 CFR 51.100(ii) (from memory).
 """
 
 from __future__ import annotations
@@ -98,15 +103,83 @@ def virtual_distance_m(sigma0_m: float, sigma_of_distance, max_distance_m: float
     return float(np.exp(np.interp(np.log(sigma0_m), np.log(sigma_m), np.log(distance_m))))
 
 
-def wind_speed_at_height_m_s(speed_ref_m_s, reference_height_m, height_m, exponent):
+WIND_BELOW_ANEMOMETER = ("power_law", "unchanged")
+#: Lowest height the power law is taken down to [m]: below it (a ground-level store or yard)
+#: the speed at this height is used. Common practice, no source; the minimum wind speed of the
+#: run then applies on top.
+WIND_PROFILE_MIN_HEIGHT_M = 1.0
+
+
+def wind_speed_at_height_m_s(speed_ref_m_s, reference_height_m, height_m, exponent,
+                             below_reference: str = "power_law",
+                             min_height_m: float = WIND_PROFILE_MIN_HEIGHT_M,
+                             min_speed_m_s: float = 0.0):
     """Power-law wind speed u(z) = u_ref (z / z_ref)^p [Irwin1979], [EPA1995] Eq. 1-6.
 
-    Below the anemometer height the reference speed is used unchanged (no extrapolation
-    downwards; common practice, no source), so a low fan outlet never gets a lower wind than
-    the one measured.
+    Parameters
+    ----------
+    speed_ref_m_s : float or ndarray
+        Wind speed measured at the reference (anemometer) height [m s-1], > 0.
+    reference_height_m : float
+        Anemometer height z_ref [m], > 0.
+    height_m : float or ndarray
+        Release height z [m], >= 0.
+    exponent : float
+        Power-law exponent p of the stability class [-].
+    below_reference : {"power_law", "unchanged"}
+        "power_law" (the default, cautious): the law is applied below the anemometer too, down
+        to ``min_height_m``, as [EPA1995] Eq. 1-6 does for any stack height; a 5 m outlet under a
+        10 m anemometer gets a lower wind and so a higher concentration. "unchanged": below the
+        anemometer the measured speed is used as it is (the speed is never lowered).
+    min_height_m : float
+        Lowest height the law is taken down to [m], > 0.
+    min_speed_m_s : float
+        Floor of the result [m s-1] (the run's minimum wind speed), >= 0.
+
+    Returns
+    -------
+    speed_m_s : ndarray
+        Wind speed at the release height [m s-1].
     """
-    height_m = np.maximum(height_m, reference_height_m)
-    return speed_ref_m_s * (height_m / reference_height_m) ** exponent
+    if below_reference not in WIND_BELOW_ANEMOMETER:
+        raise ValueError(f"below_reference must be one of {WIND_BELOW_ANEMOMETER}, "
+                         f"got {below_reference!r}")
+    floor_m = reference_height_m if below_reference == "unchanged" else min_height_m
+    height_m = np.maximum(height_m, floor_m)
+    speed = speed_ref_m_s * (height_m / reference_height_m) ** exponent
+    return np.maximum(speed, min_speed_m_s)
+
+
+def gep_stack_height_m(building_height_m: float, building_width_m: float | None = None) -> float:
+    """Good-engineering-practice stack height Hg = Hb + 1.5 L [m] ([EPA1985]; 40 CFR 51.100(ii)).
+
+    L is the lesser of the building height Hb and its greatest projected width W. With the
+    height alone, the width is taken no smaller than the height (L = Hb, Hg = 2.5 Hb): the
+    lowest width that can make L = Hb, so an outlet is never judged clear of the wake on a
+    guessed narrow building. An outlet at or above Hg stands clear of the building's wake.
+
+    Parameters
+    ----------
+    building_height_m : float
+        Height of the building the outlet stands on or beside [m], > 0.
+    building_width_m : float, optional
+        Its greatest projected width (crosswind) [m], > 0; None when not known.
+    """
+    if building_height_m <= 0:
+        raise ValueError(f"building_height_m must be > 0, got {building_height_m}")
+    width_m = building_height_m if building_width_m is None else max(building_width_m, 0.0)
+    return building_height_m + 1.5 * min(building_height_m, width_m)  # [EPA1985]
+
+
+def stack_tip_downwash_height_m(stack_height_m, diameter_m, exit_velocity_m_s, wind_speed_m_s):
+    """Release height after stack-tip downwash [m] ([Briggs1974]; [EPA1995] Eq. 1-7).
+
+    h' = hs + 2 D (vs / us - 1.5) where the exit velocity vs is below 1.5 times the wind speed
+    us at the outlet, else hs: a slow jet is pulled down into the outlet's own wake. Never
+    below 0 (the ground).
+    """
+    lowered = stack_height_m + 2.0 * diameter_m * (exit_velocity_m_s / wind_speed_m_s - 1.5)
+    return np.clip(lowered, 0.0, stack_height_m)
 
 
 def momentum_plume_rise_m(diameter_m, exit_velocity_m_s, wind_speed_m_s, stability_index: int):

@@ -60,7 +60,7 @@ from siting.grids import GridSpec, grid_around
 from siting.habitats import read_vector_layer
 from siting.longterm import DispersionSettings
 from siting.scenario import projected_crs
-from siting.tables import Tables, load_tables, suggest
+from siting.tables import Tables, default_reduction_percent, load_tables, suggest
 
 #: Release height of a farm whose layer gives none [m], by kind (common practice, no source):
 #: a roof or ridge outlet of a fan-ventilated house for points, about half the ridge height of
@@ -116,13 +116,17 @@ class RegionOptions:
     anemometer_height_m, min_wind_speed_m_s : float
         As in a scenario's [weather].
     plume_depletion : bool
-        Source depletion with the short-vegetation velocity.
+        Source depletion with the short-vegetation velocity (default off: cautious).
     placement : str
         "bilinear" or "nearest" (how farms go onto cell centres; convolution.place_on_cells).
     near_field_cells : int
         Half width of the window around each farm made exact (0: none).
     critical_load_end : str
         "lower", "middle" or "upper" end of each habitat's critical load range.
+    critical_load_review : str
+        "2022" (default) or "2011": which review's critical load ranges.
+    wind_below_anemometer : str
+        "power_law" (default) or "unchanged", as in a scenario's [weather].
     """
 
     spacing_m: float = 100.0
@@ -136,10 +140,12 @@ class RegionOptions:
     land_type: str = "rural"
     anemometer_height_m: float = 10.0
     min_wind_speed_m_s: float = 1.0
-    plume_depletion: bool = True
+    plume_depletion: bool = False
     placement: str = "bilinear"
     near_field_cells: int = NEAR_FIELD_CELLS
     critical_load_end: str = "lower"
+    critical_load_review: str = "2022"
+    wind_below_anemometer: str = "power_law"
 
     def check(self) -> None:
         """Raise InputError for a value out of range (names the CLI option)."""
@@ -314,7 +320,7 @@ def read_farms(path: Path, tables: Tables, fields: FarmFields = FarmFields(),
         reduction, technique = 0.0, None
         if "abatement" in columns and isinstance(row["abatement"], str) and row["abatement"]:
             technique = tables.technique(row["abatement"], where)
-            reduction = technique["reduction_percent_default"]
+            reduction = default_reduction_percent(technique)
         d = derive_emission(factor_nh3_kg_per_place_yr=factor["nh3_kg_per_place_yr"],
                             places=places, reduction_percent=reduction)
         emissions.append(d.nh3_kg_yr)
@@ -348,7 +354,8 @@ def _read_sites(habitats: Path, crs: str, tables: Tables, options: RegionOptions
         raise InputFileError(f"habitats layer {Path(habitats).name}: not found ({habitats})")
     section = HabitatsSection(file=Path(habitats), layer=layer, name_field=name_field,
                               habitat_field=habitat_field, designation_field=designation_field)
-    return read_habitats(section, crs, tables, options.critical_load_end)
+    return read_habitats(section, crs, tables, options.critical_load_end,
+                         options.critical_load_review)
 
 
 # --- planning -------------------------------------------------------------------------------
@@ -522,7 +529,9 @@ def prepare_region(farms_path: str | Path, weather_path: str | Path,
         scheme=sigma_scheme(tables.dispersion, options.land_type, "briggs"),
         wind_exponents=wind_exponents(tables.dispersion, options.land_type),
         depletion_velocity_m_s=vd if options.plume_depletion else None,
-        memory_budget_mb=engine_budget_mb(options.memory_mb, workers))
+        memory_budget_mb=engine_budget_mb(options.memory_mb, workers),
+        wind_below_anemometer=options.wind_below_anemometer,
+        min_wind_speed_m_s=options.min_wind_speed_m_s)
     return RegionInputs(farms, classes, crs, grid, weather, weather_summary, settings, sites,
                         tables, options, files, warnings)
 

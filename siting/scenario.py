@@ -52,6 +52,11 @@ class WeatherSection(_Section):
     min_wind_speed_m_s: float = Field(1.0, gt=0, le=5)
     station_latitude_deg: float | None = Field(None, ge=-90, le=90)
     station_longitude_deg: float | None = Field(None, ge=-180, le=180)
+    # below the anemometer: "power_law" (default, cautious) or "unchanged" (the measured speed)
+    wind_below_anemometer: Literal["power_law", "unchanged"] = "power_law"
+    wind_profile_min_height_m: float = Field(1.0, gt=0, le=10)
+    # hourly records: the step the directions were reported in [deg]; None = inferred
+    direction_step_deg: float | None = Field(None, ge=0, le=45)
 
     @model_validator(mode="after")
     def _one_record(self):
@@ -70,7 +75,9 @@ class SeasonalSection(_Section):
     them with the house's own figures where known.
     """
 
-    temperature_dependent_emission: StrictBool = False
+    # None (default): on for sources with a scrubber_design_share (their treated share is a
+    # share of the year's ammonia), off for the others; true / false: for every source
+    temperature_dependent_emission: StrictBool | None = None
     emission_coefficient_per_k: float = Field(0.05, ge=0, le=0.3)
     min_ventilation_fraction: float = Field(0.1, gt=0, le=1)
     ventilation_ramp_start_c: float = Field(10.0, ge=-30, le=40)
@@ -94,7 +101,7 @@ class GridSection(_Section):
 class DepositionSection(_Section):
     """[deposition]: dry deposition settings."""
 
-    plume_depletion: StrictBool = True
+    plume_depletion: StrictBool = False  # off by default: no depletion is the cautious choice
     depletion_land_cover: str = "short_vegetation"
 
 
@@ -102,6 +109,8 @@ class AssessmentSection(_Section):
     """[assessment]: how figures are judged (our own optional section)."""
 
     critical_load_end: Literal["lower", "middle", "upper"] = "lower"
+    # which review's empirical critical loads: "2022" (Bobbink et al. 2022, default) or "2011"
+    critical_load_review: Literal["2022", "2011"] = "2022"
     config_dir: FilePath | None = None
 
 
@@ -117,6 +126,10 @@ class HabitatsSection(_Section):
     critical_load_field: str | None = None
     background_deposition_field: str | None = None
     background_concentration_field: str | None = None
+    # lichens and bryophytes: every site gets the 1 ug/m3 critical level unless this field says
+    # they are absent (absent/no/false/0), or the site is named in lichens_bryophytes_absent
+    lichens_bryophytes_field: str | None = None
+    lichens_bryophytes_absent: list[str] = []
 
 
 class ReceptorsSection(_Section):
@@ -161,12 +174,14 @@ class SourceSpec(_Section):
     length_m: float | None = Field(None, gt=0, le=2000)
     angle_deg: float = Field(0.0, ge=-360, le=360)
     building_height_m: float | None = Field(None, gt=0, le=100)
+    building_width_m: float | None = Field(None, gt=0, le=500)
     nh3_kg_per_year: float | None = Field(None, ge=0)
     livestock: str | None = None
     housing: str | None = None
     places: float | None = Field(None, ge=0)
     abatement: str | None = None
     reduction_percent: float | None = Field(None, ge=0, le=100)
+    reduction_basis: str | None = Field(None, min_length=1, max_length=300)
     treated_air_fraction: float | None = Field(None, ge=0, le=1)
     scrubber_design_share: float | None = Field(None, ge=0, le=1)
 
@@ -189,9 +204,16 @@ class SourceSpec(_Section):
         if self.exit_velocity_m_s and not self.diameter_m:
             raise ValueError("exit_velocity_m_s needs diameter_m (plume rise uses both)")
         if (self.reduction_percent is not None or self.treated_air_fraction is not None
-                or self.scrubber_design_share is not None) and self.abatement is None:
-            raise ValueError("reduction_percent/treated_air_fraction/scrubber_design_share need "
-                             "an abatement technique")
+                or self.scrubber_design_share is not None
+                or self.reduction_basis is not None) and self.abatement is None:
+            raise ValueError("reduction_percent/reduction_basis/treated_air_fraction/"
+                             "scrubber_design_share need an abatement technique")
+        if self.reduction_basis is not None and self.reduction_percent is None:
+            raise ValueError("reduction_basis states the basis of a reduction_percent; "
+                             "give the reduction_percent it supports")
+        if self.building_width_m is not None and self.building_height_m is None:
+            raise ValueError("building_width_m needs building_height_m (the wake height "
+                             "depends on both)")
         if self.treated_air_fraction is not None and self.scrubber_design_share is not None:
             raise ValueError("give treated_air_fraction or scrubber_design_share (from which the "
                              "treated share is computed over the hourly record), not both")
@@ -375,12 +397,15 @@ def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Sce
         raise InputError(_format_error(exc, raw, path.name)) from None
     projected_crs(scenario.crs, path.name)
     hourly_needed = [s.id for s in scenario.sources if s.scrubber_design_share is not None]
-    if scenario.weather.hourly is None and (hourly_needed
-                                            or scenario.seasonal.temperature_dependent_emission):
-        what = (f'source "{hourly_needed[0]}": scrubber_design_share' if hourly_needed
-                else "seasonal.temperature_dependent_emission")
-        raise InputError(f"{path.name}: {what} needs an hourly weather record with "
-                         "temperature_c (weather.hourly)")
+    if scenario.weather.hourly is None:
+        if hourly_needed or scenario.seasonal.temperature_dependent_emission:
+            what = (f'source "{hourly_needed[0]}": scrubber_design_share' if hourly_needed
+                    else "seasonal.temperature_dependent_emission")
+            raise InputError(f"{path.name}: {what} needs an hourly weather record with "
+                             "temperature_c (weather.hourly)")
+        if scenario.weather.direction_step_deg is not None:
+            raise InputError(f"{path.name}: weather.direction_step_deg applies to an hourly "
+                             "record (weather.hourly); a frequency table's sectors set its own")
     folder = path.resolve().parent
     hourly = scenario.weather.hourly
     if hourly is not None:

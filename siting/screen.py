@@ -11,6 +11,7 @@ environmental total is background + PC where the habitat layer gives a backgroun
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 from dataclasses import dataclass, field
@@ -26,6 +27,7 @@ from siting.errors import InputError
 from siting.grids import GridSpec, grid_around
 from siting.habitats import read_habitats, site_boundary_points, site_sample_points
 from siting.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
+from siting.plume import gep_stack_height_m
 from siting.longterm import (
     DispersionSettings,
     ReleaseElement,
@@ -33,7 +35,7 @@ from siting.longterm import (
     source_concentration_g_m3_per_g_s,
 )
 from siting.scenario import ROLES, Scenario, SourceSpec, load_scenario
-from siting.tables import Tables, load_tables
+from siting.tables import Tables, default_reduction_percent, load_tables
 from siting.weather import read_frequency_table
 
 MAX_GRID_CELLS = 2_000_000
@@ -72,14 +74,43 @@ class ScreenResult:
         return list(CAUTIONS)
 
 
+def outlet_rise(src: SourceSpec) -> tuple[bool, str]:
+    """Whether a point source's outlet gets momentum plume rise, and why, in words.
+
+    Rise only for an outlet that stands clear of the building wake: at or above the good-
+    engineering-practice height of the building it is on or beside (plume.gep_stack_height_m,
+    from ``building_height_m`` and ``building_width_m``; with the height alone the width is
+    taken no smaller than the height). Without building dimensions an outlet is taken to be a
+    fan or scrubber outlet on or beside a house roof, in its wake: no rise (cautious).
+    """
+    if src.kind != "point":
+        return False, ""
+    if not src.exit_velocity_m_s or not src.diameter_m:
+        return False, "no exit velocity given: no rise"
+    if src.building_height_m is None:
+        return False, ("no building dimensions given (building_height_m): taken to be in the "
+                       "wake of the house it serves, no rise")
+    wake_m = gep_stack_height_m(src.building_height_m, src.building_width_m)
+    width = (f"{src.building_width_m:g} m wide" if src.building_width_m is not None
+             else "width taken as its height")
+    building = f"building {src.building_height_m:g} m high, {width}"
+    if src.height_m >= wake_m:
+        return True, (f"outlet {src.height_m:g} m is at or above the wake height {wake_m:g} m "
+                      f"({building}): momentum rise")
+    return False, (f"outlet {src.height_m:g} m is below the wake height {wake_m:g} m "
+                   f"({building}): in the building wake, no rise")
+
+
 def _source_elements(src: SourceSpec) -> tuple[list[ReleaseElement], object]:
     """Release elements of a source and its footprint geometry (shapely)."""
     import shapely
     from shapely import affinity
 
     if src.kind == "point":
+        rise, _ = outlet_rise(src)
         return ([ReleaseElement(src.x, src.y, src.height_m, diameter_m=src.diameter_m or 0.0,
-                                exit_velocity_m_s=src.exit_velocity_m_s or 0.0)],
+                                exit_velocity_m_s=src.exit_velocity_m_s or 0.0,
+                                plume_rise=rise, stack_tip_downwash=bool(src.diameter_m))],
                 shapely.Point(src.x, src.y))
     rect = shapely.box(src.x - src.width_m / 2, src.y - src.length_m / 2,
                        src.x + src.width_m / 2, src.y + src.length_m / 2)
@@ -101,6 +132,26 @@ def _source_elements(src: SourceSpec) -> tuple[list[ReleaseElement], object]:
              for t in offsets], footprint)
 
 
+def reduction_basis(src: SourceSpec, technique: dict) -> tuple[str, str]:
+    """Where a source's reduction comes from, in words, and a warning for an unsupported claim.
+
+    No reduction_percent: the lower end of the technique's published range. A figure above it
+    is the user's claim: accepted, with its stated ``reduction_basis`` (certificate,
+    measurement) shown; without one it is accepted with a warning. ``siting verify`` raises
+    either as a finding to check.
+    """
+    lo = default_reduction_percent(technique)
+    if src.reduction_percent is None:
+        return f"lower end of the published range ({lo:g} %)", ""
+    if src.reduction_percent <= lo:
+        return src.reduction_basis or f"stated in the scenario ({src.reduction_percent:g} %)", ""
+    if src.reduction_basis:
+        return f"claimed: {src.reduction_basis}", ""
+    return ("claimed, no basis stated", f"reduction {src.reduction_percent:g} % is above the "
+            f"lower end {lo:g} % of the published range with no reduction_basis "
+            "(certificate, measurement); it is used as claimed")
+
+
 def derive_sources(scenario: Scenario, tables: Tables,
                    treated_shares: dict[str, float] | None = None) -> tuple[pd.DataFrame, list[str]]:
     """One row per source: the emission derivation down to g/s, with range flags.
@@ -116,11 +167,14 @@ def derive_sources(scenario: Scenario, tables: Tables,
         if src.nh3_kg_per_year is None:
             factor_row = tables.factor(src.livestock, src.housing, where)
         reduction, treated = 0.0, 1.0
-        flag = ""
+        flag = basis = ""
         if src.abatement:
             technique = tables.technique(src.abatement, where)
             reduction = (src.reduction_percent if src.reduction_percent is not None
-                         else technique["reduction_percent_default"])
+                         else default_reduction_percent(technique))
+            basis, claim_warning = reduction_basis(src, technique)
+            if claim_warning:
+                warnings.append(f"{where}: {claim_warning}")
             treated = src.treated_air_fraction if src.treated_air_fraction is not None else 1.0
             if src.scrubber_design_share is not None:
                 if technique["kind"] != "scrubber":
@@ -133,6 +187,7 @@ def derive_sources(scenario: Scenario, tables: Tables,
                         f"{lo:g}-{hi:g} % for {technique['name']}")
                 warnings.append(f"{where}: {flag}")
         is_scrubber = bool(technique) and technique["kind"] == "scrubber"
+        rise, rise_basis = outlet_rise(src)
         d = derive_emission(
             nh3_unabated_kg_yr=src.nh3_kg_per_year,
             factor_nh3_kg_per_place_yr=factor_row["nh3_kg_per_place_yr"] if factor_row else None,
@@ -142,7 +197,9 @@ def derive_sources(scenario: Scenario, tables: Tables,
             captures_in_effluent=is_scrubber)
         rows.append({
             "source_id": src.id, "kind": src.kind, "role": src.role, "x_m": src.x, "y_m": src.y,
-            "height_m": src.height_m, "livestock": src.livestock or "",
+            "height_m": src.height_m,
+            "plume_rise": ("yes" if rise else "no") if src.kind == "point" else "",
+            "plume_rise_basis": rise_basis, "livestock": src.livestock or "",
             "housing": src.housing or "", "places": src.places,
             "factor_nh3_kg_per_place_yr": d.factor_nh3_kg_per_place_yr,
             "factor_source": factor_row["source"] if factor_row else "given in scenario",
@@ -153,6 +210,7 @@ def derive_sources(scenario: Scenario, tables: Tables,
                                         f"{technique['reduction_percent_max']:g}"
                                         if technique else ""),
             "reduction_source": technique["source"] if technique else "",
+            "reduction_basis": basis,
             "reduction_flag": flag,
             "scrubber_design_share": (src.scrubber_design_share
                                       if src.scrubber_design_share is not None else np.nan),
@@ -204,34 +262,49 @@ def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summar
 
     cfg = scenario.seasonal
     temperature_c = weather.temperature_c
-    needs_temperature = cfg.temperature_dependent_emission or any(
-        s.scrubber_design_share is not None for s in scenario.sources)
+    partial = [s for s in scenario.sources if s.scrubber_design_share is not None]
+    needs_temperature = bool(cfg.temperature_dependent_emission) or (
+        bool(partial) and cfg.temperature_dependent_emission is not False)
     if needs_temperature and not np.isfinite(temperature_c).all():
         missing = int((~np.isfinite(temperature_c)).sum())
         raise InputError(f"weather.hourly: {missing} hour(s) have no temperature_c, which "
                          "[seasonal] emission or scrubber_design_share need")
-    base = (temperature_emission_weights(temperature_c, cfg.emission_coefficient_per_k)
-            if cfg.temperature_dependent_emission else np.ones(weather.n_hours))
+    flat = np.ones(weather.n_hours)
+    varying = (temperature_emission_weights(temperature_c, cfg.emission_coefficient_per_k)
+               if needs_temperature else flat)
+    base = varying if cfg.temperature_dependent_emission else flat
     weights, treated = {}, {}
     for src in scenario.sources:
         if src.scrubber_design_share is None:
             weights[src.id] = base
             continue
+        # the treated share is a share of the year's AMMONIA: hours weighted by their emission
+        # (temperature dependent unless switched off), so warm, high-emission hours at full
+        # ventilation, when a part-sized scrubber treats the smallest share, count most
+        own = flat if cfg.temperature_dependent_emission is False else varying
         technique = tables.technique(src.abatement, f'source "{src.id}"')
         reduction = (src.reduction_percent if src.reduction_percent is not None
-                     else technique["reduction_percent_default"]) / 100.0
+                     else default_reduction_percent(technique)) / 100.0
         r = ventilation_fraction(temperature_c, cfg.min_ventilation_fraction,
                                  cfg.ventilation_ramp_start_c, cfg.ventilation_ramp_end_c)
-        treated[src.id] = treated_ammonia_share(r, src.scrubber_design_share, base)
+        treated[src.id] = treated_ammonia_share(r, src.scrubber_design_share, own)
         hourly_treated = np.minimum(r, src.scrubber_design_share) / r
-        after = base * (1.0 - reduction * hourly_treated)
-        weights[src.id] = after / after.mean() if after.mean() > 0 else base
+        after = own * (1.0 - reduction * hourly_treated)
+        weights[src.id] = after / after.mean() if after.mean() > 0 else own
         summary.setdefault("scrubber_treated_share", {})[src.id] = {
             "design_share": src.scrubber_design_share,   # of the maximum ventilation rate
-            "treated_share": treated[src.id]}            # of the year's ammonia
+            "treated_share": treated[src.id],            # of the year's ammonia
+            "treated_share_of_hours": treated_ammonia_share(r, src.scrubber_design_share),
+            "hours_weighted_by": ("emission, temperature dependent" if own is varying
+                                  else "nothing (flat emission: switched off)")}
+    profile = (f"temperature dependent, exp({cfg.emission_coefficient_per_k:g} x (T - mean T)),"
+               " normalised to the annual total")
     if cfg.temperature_dependent_emission:
-        summary["emission_profile"] = (f"temperature dependent, exp({cfg.emission_coefficient_per_k:g}"
-                                       " x (T - mean T)), normalised to the annual total")
+        summary["emission_profile"] = profile
+    elif needs_temperature:
+        summary["emission_profile"] = (
+            f"{profile}, for the partly scrubbed source(s) {', '.join(s.id for s in partial)} "
+            "(their treated share is a share of the year's ammonia); flat for the others")
     return weights, treated
 
 
@@ -300,16 +373,36 @@ class Prepared:
         return self.tables.deposition_velocities[land_cover]["deposition_velocity_m_s"]
 
     def unit_concentration_ug_m3(self, source_id: str, elements, receptor_x_m,
-                                 receptor_y_m) -> np.ndarray:
-        """Annual mean concentration [ug m-3] per 1 g s-1 (annual mean) of one source."""
+                                 receptor_y_m, settings: DispersionSettings | None = None
+                                 ) -> np.ndarray:
+        """Annual mean concentration [ug m-3] per 1 g s-1 (annual mean) of one source.
+
+        ``settings`` replaces the run's dispersion settings (the undepleted twin of a run with
+        depletion).
+        """
+        settings = settings or self.settings
         if isinstance(self.weather, HourlyWeather):
             unit = source_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, elements,
-                                                   self.weather, self.settings,
+                                                   self.weather, settings,
                                                    self.hour_weights.get(source_id))
         else:
             unit = source_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m, elements,
-                                                     self.weather, self.settings)
+                                                     self.weather, settings)
         return unit * UG_PER_G
+
+    def concentration_by_role_ug_m3(self, elements_of_sources, receptor_x_m, receptor_y_m,
+                                    settings: DispersionSettings | None = None,
+                                    advance=None) -> dict[str, np.ndarray]:
+        """Annual mean concentration [ug m-3] of each role's sources at the receptors."""
+        by_role = {role: np.zeros(np.size(receptor_x_m)) for role in ROLES}
+        for src, elements, emission_g_s in zip(self.scenario.sources, elements_of_sources,
+                                               self.sources["emission_g_s"]):
+            if emission_g_s > 0:
+                by_role[src.role] += emission_g_s * self.unit_concentration_ug_m3(
+                    src.id, elements, receptor_x_m, receptor_y_m, settings)
+            if advance:
+                advance()
+        return by_role
 
 
 def prepare(scenario: Scenario | str | Path, tables: Tables | None = None) -> Prepared:
@@ -336,7 +429,8 @@ def prepare(scenario: Scenario | str | Path, tables: Tables | None = None) -> Pr
     sources, source_warnings = derive_sources(scenario, tables, treated_shares)
     warnings += source_warnings
     sites, habitat_warnings = read_habitats(scenario.habitats, scenario.crs, tables,
-                                            scenario.assessment.critical_load_end)
+                                            scenario.assessment.critical_load_end,
+                                            scenario.assessment.critical_load_review)
     warnings += habitat_warnings
     default_vd = tables.deposition_velocities[scenario.deposition.depletion_land_cover][
         "deposition_velocity_m_s"]
@@ -345,9 +439,21 @@ def prepare(scenario: Scenario | str | Path, tables: Tables | None = None) -> Pr
         wind_exponents=tables.wind_exponents(scenario.weather.land_type),
         mixing_height_m=scenario.weather.mixing_height_m,
         depletion_velocity_m_s=default_vd if scenario.deposition.plume_depletion else None,
-        memory_budget_mb=scenario.grid.memory_mb)
+        memory_budget_mb=scenario.grid.memory_mb,
+        wind_below_anemometer=scenario.weather.wind_below_anemometer,
+        wind_profile_min_height_m=scenario.weather.wind_profile_min_height_m,
+        min_wind_speed_m_s=scenario.weather.min_wind_speed_m_s)
     return Prepared(scenario, tables, weather, weather_summary, hour_weights, sources, sites,
                     settings, warnings)
+
+
+def _site_stats(conc_ug_m3, vd_m_s, member_receptor, member_site, member_interior, n_sites):
+    """Per-site (max, mean) of concentration [ug m-3] and deposition [kg N ha-1 yr-1]."""
+    dep = deposition_kg_n_ha_yr(conc_ug_m3[member_receptor], vd_m_s[member_receptor])
+    c_max, c_mean = assess.site_max_and_mean(conc_ug_m3[member_receptor], member_site,
+                                             member_interior, n_sites)
+    d_max, d_mean = assess.site_max_and_mean(dep, member_site, member_interior, n_sites)
+    return c_max, c_mean, d_max, d_mean
 
 
 def screen(scenario: Scenario | str | Path, *, progress: bool = False,
@@ -415,19 +521,26 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
     member_interior = np.concatenate(member_interior).astype(bool)
     clock["inputs"] = time.perf_counter()
 
-    conc_by_role = {role: np.zeros(rx.size) for role in ROLES}
+    depleted = prep.settings.depletion_velocity_m_s is not None
     bar = _progress(progress)
-    task = bar.add_task("dispersion", total=len(scenario.sources)) if bar else None
+    task = bar.add_task("dispersion", total=len(scenario.sources) * (2 if depleted else 1)
+                        ) if bar else None
     if bar:
         bar.start()
+    element_lists = [elements for elements, _ in elements_and_shapes]
     try:
-        for src, (elements, _), emission_g_s in zip(scenario.sources, elements_and_shapes,
-                                                    sources["emission_g_s"]):
-            if emission_g_s > 0:
-                conc_by_role[src.role] += emission_g_s * prep.unit_concentration_ug_m3(
-                    src.id, elements, rx, ry)
-            if bar:
-                bar.advance(task)
+        advance = (lambda: bar.advance(task)) if bar else None
+        conc_by_role = prep.concentration_by_role_ug_m3(element_lists, rx, ry, advance=advance)
+        undepleted_pc = None
+        if depleted:
+            # what depletion took off: the same run without depletion, at the sites' points
+            # (and grid nodes inside sites) only
+            at = np.unique(member_receptor)
+            plain = dataclasses.replace(prep.settings, depletion_velocity_m_s=None)
+            twin = prep.concentration_by_role_ug_m3(element_lists, rx[at], ry[at], plain,
+                                                    advance=advance)
+            undepleted_pc = np.full(rx.size, np.nan)
+            undepleted_pc[at] = twin["proposed"] + twin["existing"]
     finally:
         if bar:
             bar.stop()
@@ -442,13 +555,8 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
 
     # per-site statistics
     n_sites = len(sites)
-    results = {}
-    for key in combos:
-        c_max, c_mean = assess.site_max_and_mean(combos[key][member_receptor], member_site,
-                                                 member_interior, n_sites)
-        d_max, d_mean = assess.site_max_and_mean(dep[key][member_receptor], member_site,
-                                                 member_interior, n_sites)
-        results[key] = (c_max, c_mean, d_max, d_mean)
+    results = {key: _site_stats(combos[key], vd, member_receptor, member_site,
+                                member_interior, n_sites) for key in combos}
     level = sites["critical_level_ug_m3"].to_numpy()
     load = sites["critical_load_used_kg_n_ha_yr"].to_numpy()
     out = sites.copy()
@@ -463,6 +571,13 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
             out["pc_dep_max_keq_ha_yr"] = d_max * KEQ_PER_KG_N
         out[f"{key}_pct_level"] = assess.percent_of(c_max, level)
         out[f"{key}_pct_load"] = assess.percent_of(d_max, load)
+    if undepleted_pc is not None:
+        c_max, _, d_max, _ = _site_stats(undepleted_pc, vd, member_receptor, member_site,
+                                         member_interior, n_sites)
+        out["pc_conc_max_undepleted_ug_m3"] = c_max
+        out["pc_dep_max_undepleted_kg_n_ha_yr"] = d_max
+        out["pc_pct_level_undepleted"] = assess.percent_of(c_max, level)
+        out["pc_pct_load_undepleted"] = assess.percent_of(d_max, load)
     out["pec_conc_ug_m3"] = out["background_conc_ug_m3"] + out["pc_conc_max_ug_m3"]
     out["pec_dep_kg_n_ha_yr"] = out["background_dep_kg_n_ha_yr"] + out["pc_dep_max_kg_n_ha_yr"]
     out["pec_pct_level"] = assess.percent_of(out["pec_conc_ug_m3"], level)

@@ -157,6 +157,15 @@ def _check_dispersion(path: Path, data: dict) -> None:
                              f"got {sorted(have)}")
 
 
+def default_reduction_percent(technique: dict) -> float:
+    """Reduction used when a scenario states none [%]: the lower end of the published range.
+
+    The cautious reading of a range: a higher figure is the user's claim, to be stated with its
+    basis (``reduction_percent`` with ``reduction_basis``) and checked by ``siting verify``.
+    """
+    return float(technique["reduction_percent_min"])
+
+
 def load_tables(folder: Path | None = None) -> Tables:
     """Read and check every lookup table from ``folder`` (default: the bundled config/)."""
     folder = Path(folder) if folder is not None else config_dir()
@@ -175,14 +184,21 @@ def load_tables(folder: Path | None = None) -> Tables:
     factors = rows("emission_factors", {"livestock": str, "housing": str,
                                         "nh3_kg_per_place_yr": float})
     abatement = rows("abatement", {"id": str, "name": str, "kind": str,
-                                   "reduction_percent_default": float,
                                    "reduction_percent_min": float,
                                    "reduction_percent_max": float})
     for row in abatement:
-        lo, mid, hi = (row["reduction_percent_min"], row["reduction_percent_default"],
-                       row["reduction_percent_max"])
+        # the typical reported figure is for information only (reports, appraisal); the
+        # figure used when a scenario states none is the range's lower end. Older tables
+        # named it reduction_percent_default.
+        if "reduction_percent_typical" not in row and "reduction_percent_default" in row:
+            row["reduction_percent_typical"] = row.pop("reduction_percent_default")
+        lo, hi = row["reduction_percent_min"], row["reduction_percent_max"]
+        mid = row.setdefault("reduction_percent_typical", lo)
+        if not isinstance(mid, (int, float)) or isinstance(mid, bool):
+            raise InputError(f'abatement.toml, technique "{row["id"]}": '
+                             f"reduction_percent_typical must be a number, got {mid!r}")
         if not lo <= mid <= hi <= 100:
-            raise InputError(f'abatement.toml, technique "{row["id"]}": need min <= default <= '
+            raise InputError(f'abatement.toml, technique "{row["id"]}": need min <= typical <= '
                              f"max <= 100, got {lo}, {mid}, {hi}")
     loads = rows("critical_loads", {"id": str, "name": str,
                                     "critical_load_min_kg_n_ha_yr": float,

@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from siting import assess
+from siting.tables import default_reduction_percent
 from siting.errors import InputError, InputFileError, SitingError
 from siting.outputs import sha256_of
 
@@ -292,7 +293,7 @@ def review(sub: Submission, result, this_tables, reference_habitats: Path | None
         if src.abatement:
             technique = this_tables.abatement.get(src.abatement)
             reduction = src.reduction_percent if src.reduction_percent is not None else (
-                technique["reduction_percent_default"] if technique else None)
+                default_reduction_percent(technique) if technique else None)
             if technique and reduction is not None and not (
                     technique["reduction_percent_min"] <= reduction
                     <= technique["reduction_percent_max"]):

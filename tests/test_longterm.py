@@ -34,9 +34,11 @@ def _weather(n_sectors=16, speeds=(5.0,), seed=None, single=None):
     return WeatherClasses(np.arange(n_sectors) * 360.0 / n_sectors, np.array(speeds, float), freq)
 
 
-def _settings(scheme, exponents, vd=None, lid=None):
+def _settings(scheme, exponents, vd=None, lid=None, wind="unchanged"):
+    # the analytic checks below use the class speed as the wind at release height ("unchanged"
+    # below the anemometer); test_power_law_wind_below_anemometer checks the default rule
     return DispersionSettings(scheme=scheme, wind_exponents=exponents, mixing_height_m=lid,
-                              depletion_velocity_m_s=vd)
+                              depletion_velocity_m_s=vd, wind_below_anemometer=wind)
 
 
 def test_centre_line_gets_exactly_its_sector(briggs_rural, rural_exponents):
@@ -145,8 +147,13 @@ def test_plume_rise_lowers_nearby_ground_concentration(briggs_rural, rural_expon
     x = np.array([0.0]); y = np.array([-150.0])
     flat = element_concentration_g_m3_per_g_s(x, y, ReleaseElement(0, 0, 8.0), weather, settings)
     jet = element_concentration_g_m3_per_g_s(
-        x, y, ReleaseElement(0, 0, 8.0, diameter_m=1.0, exit_velocity_m_s=10.0), weather, settings)
+        x, y, ReleaseElement(0, 0, 8.0, diameter_m=1.0, exit_velocity_m_s=10.0, plume_rise=True),
+        weather, settings)
     assert jet < flat
+    # without plume_rise (an outlet in the building wake) the exit velocity changes nothing
+    wake = element_concentration_g_m3_per_g_s(
+        x, y, ReleaseElement(0, 0, 8.0, diameter_m=1.0, exit_velocity_m_s=10.0), weather, settings)
+    assert wake == flat
 
 
 def test_area_source_integrates_and_matches_point_far_away(briggs_rural, rural_exponents):
@@ -190,3 +197,18 @@ def test_volume_source_ring_flux_equals_emission(briggs_rural, rural_exponents):
         sz = briggs_rural.sigma_z_m(x + xz, D)
         assert_allclose(np.trapezoid(c * x, theta),
                         ground_vertical_density_per_m(sz, 5.0) / 5.0, rtol=1e-4)
+
+
+def test_power_law_wind_below_anemometer(briggs_rural, rural_exponents):
+    """Default rule: a 5 m release under a 10 m anemometer sees u (5/10)^p, so without depletion
+    the annual mean is (10/5)^p higher: D 1/0.90125 = +11 %, F 1/0.68302 = +46 % (hand values
+    from the EPA1995 / Irwin1979 exponents 0.15 and 0.55, secondary copy)."""
+    x, y = np.array([0.0]), np.array([-400.0])
+    for s, ratio in ((3, 1 / 0.90125), (5, 1 / 0.68302)):
+        weather = _weather(speeds=(4.0,), single=(0, 0, s))
+        low = element_concentration_g_m3_per_g_s(
+            x, y, ReleaseElement(0, 0, 5.0), weather, _settings(briggs_rural, rural_exponents,
+                                                                wind="power_law"))
+        kept = element_concentration_g_m3_per_g_s(
+            x, y, ReleaseElement(0, 0, 5.0), weather, _settings(briggs_rural, rural_exponents))
+        assert_allclose(low / kept, ratio, rtol=1e-4)  # hand values to 5 s.f.

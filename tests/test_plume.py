@@ -10,7 +10,9 @@ import pytest
 from numpy.testing import assert_allclose
 
 from siting.plume import (
+    gep_stack_height_m,
     momentum_plume_rise_m,
+    stack_tip_downwash_height_m,
     plume_concentration_g_m3,
     sector_average_concentration_g_m3,
     vertical_term,
@@ -167,7 +169,8 @@ def test_wind_profile_exponents(rural_exponents):
     """Irwin1979 rural exponents 0.07/0.07/0.10/0.15/0.35/0.55 (secondary copy) and the power law."""
     assert_allclose(rural_exponents, [0.07, 0.07, 0.10, 0.15, 0.35, 0.55])
     assert_allclose(wind_speed_at_height_m_s(5.0, 10.0, 40.0, 0.15), 5.0 * 4**0.15, rtol=1e-12)
-    assert wind_speed_at_height_m_s(5.0, 10.0, 4.0, 0.55) == 5.0  # no extrapolation downwards
+    # "unchanged": below the anemometer the measured speed is kept (the old rule)
+    assert wind_speed_at_height_m_s(5.0, 10.0, 4.0, 0.55, "unchanged") == 5.0
 
 
 def test_virtual_distance_inverts_sigma(briggs_rural):
@@ -179,6 +182,50 @@ def test_virtual_distance_inverts_sigma(briggs_rural):
 
 
 def test_momentum_rise_neutral_and_stable():
-    """Neutral rise 3 d w / u (Briggs1969 via EPA1995, from memory); stable rise is not larger."""
+    """Neutral rise 3 d w / u; stable (F) 1.5 (F_m / (u sqrt(s)))^(1/3) by hand (Briggs1969 via
+    EPA1995 Sect. 1.1.4, from memory; dtheta/dz 0.035 K/m for F, T 293.15 K)."""
     assert_allclose(momentum_plume_rise_m(1.0, 10.0, 5.0, D), 6.0, rtol=1e-12)
-    assert momentum_plume_rise_m(1.0, 10.0, 2.0, F) <= momentum_plume_rise_m(1.0, 10.0, 2.0, D)
+    # by hand: s = 9.80665 / 293.15 x 0.035 = 1.1709e-3 s-2; F_m = 10^2 x 1^2 / 4 = 25 m4 s-2;
+    # 1.5 (25 / (2 x 0.034218))^(1/3) = 10.72 m, below the neutral 3 x 1 x 10 / 2 = 15 m
+    assert_allclose(momentum_plume_rise_m(1.0, 10.0, 2.0, F), 10.72, rtol=1e-3)
+
+
+def test_gep_height_of_a_house():
+    """Hg = Hb + 1.5 L, L = min(height, width) (EPA1985; 40 CFR 51.100(ii), from memory)."""
+    assert gep_stack_height_m(6.0, 20.0) == 15.0  # 6 + 1.5 x 6
+    assert gep_stack_height_m(6.0, 4.0) == 12.0  # narrow building: 6 + 1.5 x 4
+    assert gep_stack_height_m(6.0) == 15.0  # width unknown: taken no smaller than the height
+    with pytest.raises(ValueError):
+        gep_stack_height_m(0.0)
+
+
+def test_stack_tip_downwash_by_hand():
+    """h' = hs + 2 D (vs / us - 1.5) below vs = 1.5 us, else hs (Briggs1974 via EPA1995 Eq. 1-7)."""
+    # by hand: 7.5 + 2 x 1.2 x (6 / 5 - 1.5) = 7.5 - 0.72 = 6.78 m
+    assert_allclose(stack_tip_downwash_height_m(7.5, 1.2, 6.0, 5.0), 6.78, rtol=1e-12)
+    assert stack_tip_downwash_height_m(7.5, 1.2, 6.0, 3.0) == 7.5  # vs = 2 us: none
+    assert stack_tip_downwash_height_m(1.0, 1.0, 0.0, 5.0) == 0.0  # never below the ground
+
+
+def test_wind_at_5_m_below_a_10_m_anemometer_by_class(rural_exponents):
+    """Power law taken down to a 5 m outlet: u5/u10 = 0.5^p, by hand from the published exponents.
+
+    Exponents rural A-F 0.07/0.07/0.10/0.15/0.35/0.55 (EPA1995 Vol. II after Irwin1979;
+    secondary copy). Hand values 0.5^p: A, B 0.95264; C 0.93303; D 0.90125; E 0.78458;
+    F 0.68302; the concentration rises by their inverse (+5 % A/B ... +46 % F).
+    """
+    hand = {0: 0.95264, 1: 0.95264, 2: 0.93303, 3: 0.90125, 4: 0.78458, 5: 0.68302}
+    for s, ratio in hand.items():
+        u5 = wind_speed_at_height_m_s(4.0, 10.0, 5.0, rural_exponents[s])
+        assert_allclose(u5 / 4.0, ratio, rtol=1e-5)  # hand values to 5 s.f.
+    assert_allclose(1 / hand[5], 1.464, rtol=1e-3)  # F: +46 % in concentration
+
+
+def test_wind_profile_lowest_height_and_speed_floor():
+    """Below the lowest height the law stops there; the run's minimum wind speed is a floor."""
+    at_1m = wind_speed_at_height_m_s(5.0, 10.0, 1.0, 0.15)
+    assert_allclose(at_1m, 5.0 * 0.1**0.15, rtol=1e-12)  # analytic power law
+    assert wind_speed_at_height_m_s(5.0, 10.0, 0.0, 0.15) == at_1m  # ground source: 1 m
+    assert wind_speed_at_height_m_s(1.2, 10.0, 2.0, 0.55, min_speed_m_s=1.0) == 1.0
+    with pytest.raises(ValueError, match="below_reference"):
+        wind_speed_at_height_m_s(5.0, 10.0, 2.0, 0.15, "linear")

@@ -80,10 +80,36 @@ def test_partial_scrubber_reports_both_shares(tmp_path):
     row = result.sources.iloc[0]
     assert row["scrubber_design_share"] == 0.4
     assert 0.4 < row["treated_air_fraction"] < 1.0
-    assert_allclose(row["effective_reduction_percent"], 90.0 * row["treated_air_fraction"],
-                    rtol=1e-12)  # reduction x treated share (definition)
+    # reduction x treated share (definition); no reduction stated, so the acid scrubber's lower
+    # end, 70 % (BATc2017 section 4.11, from memory)
+    assert_allclose(row["effective_reduction_percent"], 70.0 * row["treated_air_fraction"],
+                    rtol=1e-12)
     shares = result.weather_summary["scrubber_treated_share"]["H1"]
     assert shares["design_share"] == 0.4 and shares["treated_share"] == row["treated_air_fraction"]
+
+
+def test_partial_scrubber_counts_the_years_ammonia_not_its_hours(tmp_path):
+    """With [seasonal] left unset, a part-sized scrubber's treated share weights each hour by its
+    (temperature-dependent) emission: warm hours run at full ventilation, when the scrubber takes
+    the smallest share, and emit most, so the share of the ammonia is below the share of the hours
+    (seasonal.py model; analytic direction, common practice, no source for the parameters)."""
+    path = _write_case(tmp_path, seasonal=False,
+                       source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4')
+    text = path.read_text().replace("temperature_dependent_emission = false\n", "")
+    path.write_text(text)
+    result = screen(path)
+    shares = result.weather_summary["scrubber_treated_share"]["H1"]
+    assert shares["treated_share"] < shares["treated_share_of_hours"] - 0.01
+    assert shares["hours_weighted_by"].startswith("emission")
+    # explicitly switched off: the hours count alike, as before
+    (tmp_path / "flat").mkdir()
+    flat = screen(_write_case(tmp_path / "flat", seasonal=False,
+                              source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4'))
+    flat_shares = flat.weather_summary["scrubber_treated_share"]["H1"]
+    assert_allclose(flat_shares["treated_share"], flat_shares["treated_share_of_hours"],
+                    rtol=1e-12)
+    # less treated ammonia: more emitted (the cautious side)
+    assert result.sources.iloc[0]["nh3_kg_yr"] > flat.sources.iloc[0]["nh3_kg_yr"]
 
 
 def test_scrubber_design_share_needs_an_hourly_record(tmp_path, capsys):

@@ -79,7 +79,8 @@ def test_row_without_source_is_rejected(tmp_path):
 
 
 def test_missing_key_and_bad_range_are_rejected(tmp_path):
-    """A missing key or a default outside its range is named with file, row and key."""
+    """A missing key or a typical figure outside its range is named with file, row and key; an
+    older table's reduction_percent_default is read as the typical figure."""
     folder = _copy_config(tmp_path)
     path = folder / "emission_factors.toml"
     path.write_text(path.read_text().replace("nh3_kg_per_place_yr = 2.813", "nh3_kg_place = 2.813", 1))
@@ -88,8 +89,8 @@ def test_missing_key_and_bad_range_are_rejected(tmp_path):
     folder2 = _copy_config(tmp_path / "b")
     path = folder2 / "abatement.toml"
     text = path.read_text()
-    i = text.index("reduction_percent_default", text.index('id = "acid_scrubber"'))
+    i = text.index("reduction_percent_typical", text.index('id = "acid_scrubber"'))
     j = text.index("\n", i)
     path.write_text(text[:i] + "reduction_percent_default = 120.0" + text[j:])
-    with pytest.raises(InputError, match=r"acid_scrubber.*min <= default <= max"):
+    with pytest.raises(InputError, match=r"acid_scrubber.*min <= typical <= max"):
         load_tables(folder2)
