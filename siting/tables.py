@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import difflib
 import hashlib
+import math
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
@@ -83,6 +84,8 @@ class Tables:
     thresholds: list[dict]
     dispersion: dict
     files_sha256: dict[str, str]
+    #: emission_factors.toml [uncertainty]: {"emission_factor_percent", "source"}, or None
+    emission_factor_uncertainty: dict | None = None
 
     def factor(self, livestock: str, housing: str, where: str) -> dict:
         """The emission-factor row for a livestock category and housing system."""
@@ -209,6 +212,30 @@ def load_tables(folder: Path | None = None) -> Tables:
                                                 "deposition_velocity_min_m_s": float,
                                                 "deposition_velocity_max_m_s": float})
     tiers = rows("thresholds", {"id": str, "threshold_percent": float, "designations": list})
+    for row in loads:
+        where = f'critical_loads.toml, habitat "{row["id"]}"'
+        for key in ("critical_load_min_kg_n_ha_yr", "critical_load_max_kg_n_ha_yr"):
+            if not 0 < row[key] < math.inf:
+                raise InputError(f"{where}: {key} must be a positive finite number, got {row[key]}")
+        if row["critical_load_min_kg_n_ha_yr"] > row["critical_load_max_kg_n_ha_yr"]:
+            raise InputError(f"{where}: critical_load_min_kg_n_ha_yr is above the max")
+        review = [k for k in ("critical_load_2022_min_kg_n_ha_yr",
+                              "critical_load_2022_max_kg_n_ha_yr", "source_2022") if k in row]
+        if review:  # the 2022 review's range: all three keys or none
+            if len(review) != 3:
+                missing = sorted({"critical_load_2022_min_kg_n_ha_yr",
+                                  "critical_load_2022_max_kg_n_ha_yr", "source_2022"} - set(review))
+                raise InputError(f"{where}: missing key {', '.join(missing)} (the 2022 range "
+                                 "needs its min, max and source_2022)")
+            lo, hi = row["critical_load_2022_min_kg_n_ha_yr"], row["critical_load_2022_max_kg_n_ha_yr"]
+            if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (lo, hi)):
+                raise InputError(f"{where}: the 2022 range must be numbers, got {lo!r}, {hi!r}")
+            if not 0 < lo <= hi < math.inf:
+                raise InputError(f"{where}: need 0 < critical_load_2022_min <= max, got {lo}, {hi}")
+            row["critical_load_2022_min_kg_n_ha_yr"], row["critical_load_2022_max_kg_n_ha_yr"] = (
+                float(lo), float(hi))
+            if not str(row["source_2022"]).strip():
+                raise InputError(f"{where}: source_2022 must not be empty")
     land_covers = {r["id"] for r in velocities}
     for row in loads:
         if row["land_cover"] not in land_covers:
@@ -217,6 +244,17 @@ def load_tables(folder: Path | None = None) -> Tables:
     for needed in ("lichens_bryophytes", "higher_plants"):
         if needed not in {r["id"] for r in levels}:
             raise InputError(f'critical_levels.toml: missing level "{needed}"')
+    uncertainty = data["emission_factors"][0].get("uncertainty")
+    if uncertainty is not None:
+        where = "emission_factors.toml, [uncertainty]"
+        value = uncertainty.get("emission_factor_percent") if isinstance(uncertainty, dict) else None
+        if (not isinstance(value, (int, float)) or isinstance(value, bool)
+                or not 0 < value < 100):
+            raise InputError(f"{where}: emission_factor_percent must be a number in (0, 100), "
+                             f"got {value!r}")
+        if not str(uncertainty.get("source", "")).strip():
+            raise InputError(f"{where}: needs a non-empty source")
+        uncertainty = {"emission_factor_percent": float(value), "source": uncertainty["source"]}
     dispersion, dispersion_path = data["dispersion"]
     _check_dispersion(dispersion_path, dispersion)
     return Tables(
@@ -229,4 +267,5 @@ def load_tables(folder: Path | None = None) -> Tables:
         thresholds=tiers,
         dispersion=dispersion,
         files_sha256=hashes,
+        emission_factor_uncertainty=uncertainty,
     )

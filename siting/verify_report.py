@@ -46,7 +46,8 @@ __all__ = ["SENSITIVITY_COLUMNS", "SENSITIVITY_SUMMARY_COLUMNS", "write_verify_r
 #: Columns of the long sensitivity table: one row per (site, variant).
 SENSITIVITY_COLUMNS = ("site", "variant", "pct_load", "pct_level", "verdict")
 
-#: Columns of the sensitivity summary: one row per site.
+#: Columns of the sensitivity summary: one row per site (min_pct_level / max_pct_level are
+#: shown too when present).
 SENSITIVITY_SUMMARY_COLUMNS = (
     "site",
     "central_pct_load",
@@ -640,6 +641,8 @@ def _summary_table(summary: pd.DataFrame) -> str:
             f'<td class="num">{html.escape(_percent_text(row.get("central_pct_load")))}</td>'
             f'<td class="num">'
             f"{html.escape(_range_text(row.get('min_pct_load'), row.get('max_pct_load')))}</td>"
+            f'<td class="num">'
+            f"{html.escape(_range_text(row.get('min_pct_level'), row.get('max_pct_level')))}</td>"
             f"<td>{flip_html}</td></tr>"
         )
     return (
@@ -647,6 +650,7 @@ def _summary_table(summary: pd.DataFrame) -> str:
         f"<th>{header_html('Site')}</th><th>{header_html('Central verdict')}</th>"
         f"<th>{header_html('PC, central', '% of critical load')}</th>"
         f"<th>{header_html('PC, lowest – highest', '% of critical load, all variants')}</th>"
+        f"<th>{header_html('PC, lowest – highest', '% of critical level, all variants')}</th>"
         f"<th>{header_html('Verdict flips?', 'variants that flip it')}</th></tr></thead>"
         f"<tbody>{''.join(rows)}</tbody></table></div>"
     )
@@ -691,10 +695,15 @@ def _sensitivity_section(sensitivity: pd.DataFrame, summary: pd.DataFrame) -> st
     parts = [
         (
             "<p>Each site's process contribution (PC) and verdict were re-computed with one "
-            "assumption changed at a time: the deposition velocity at the low and high end of its "
-            "range, the critical load at the lower and upper end of the habitat's range, and other "
-            "weather records where given. “Central” is the submission's own choice. A verdict that "
-            "flips within these ranges means the result rests on that assumption.</p>"
+            "assumption changed at a time, each in the direction that can raise the figure as "
+            "well as the one that can lower it: the deposition velocity at the low and high end "
+            "of its range (the high end above the screening value), the critical load at both "
+            "ends of the habitat's range, the critical level at 1 and 3 µg/m³, plume depletion "
+            "on and off, the other rule for the wind below the anemometer, every claimed "
+            "abatement at the lower end of its published range, the emission factors at their "
+            "stated uncertainty, and other weather records where given. “Central” is the "
+            "submission's own choice. A verdict that flips within these ranges means the result "
+            "rests on that assumption.</p>"
         )
     ]
     if summary is not None and len(summary):

@@ -106,16 +106,51 @@ def test_missing_habitat_site_is_flagged(tmp_path):
     assert result.exit_code == 1
 
 
-def test_sensitivity_brackets_the_central_result(clean):
-    """Each site's range over v_d and critical-load ends contains its central % of load."""
+def test_sensitivity_looks_both_ways(clean):
+    """Every site's variants reach above AND below the central % of load (two-sided): the v_d
+    table's high end lies above the screening value (from memory, deposition_velocities.toml),
+    the emission factors' +-30 % (IPCC2006 analogy) and depletion switched on lower it."""
     result = verify(clean)
-    variants = set(result.sensitivity["variant"])
+    long = result.sensitivity
+    variants = set(long["variant"])
     assert {"central", "deposition velocity low", "deposition velocity high",
-            "critical load lower end", "critical load upper end"} <= variants
+            "critical load lower end", "critical load upper end", "critical level 1 ug/m3",
+            "critical level 3 ug/m3", "plume depletion on",
+            "wind below the anemometer: unchanged", "emission factors low (-30 %)",
+            "emission factors high (+30 %)"} <= variants
     summary = result.sensitivity_summary
-    assert (summary["min_pct_load"] <= summary["central_pct_load"]).all()
-    assert (summary["central_pct_load"] <= summary["max_pct_load"]).all()
-    assert (summary["max_pct_load"] > summary["min_pct_load"]).all()  # the ranges have width
+    assessed = summary["central_pct_load"].notna()
+    assert assessed.sum() >= 3
+    s = summary[assessed]
+    assert (s["max_pct_load"] > s["central_pct_load"] * 1.05).all()  # some variant raises it
+    assert (s["min_pct_load"] < s["central_pct_load"] * 0.95).all()  # and some lowers it
+    assert (s["max_pct_level"] > s["central_pct_level"] * 1.05).all()
+    assert (s["min_pct_level"] < s["central_pct_level"] * 0.95).all()
+    # each raising variant by itself: v_d high raises deposition, factors high raise both
+    for variant in ("deposition velocity high", "emission factors high (+30 %)"):
+        rows = long[long["variant"] == variant].set_index("site")["pct_load"]
+        central = long[long["variant"] == "central"].set_index("site")["pct_load"]
+        assert (rows[assessed.values] > central[assessed.values]).all(), variant
+
+
+def test_claimed_reduction_is_a_finding_and_a_variant(tmp_path):
+    """A reduction above the range's lower end is the user's claim: accepted with its basis in
+    sources.csv, raised by verify, and undone in a sensitivity variant (acid scrubber 70-99 %,
+    BATc2017 4.11, from memory)."""
+    claim = ('abatement = "acid_scrubber"\nreduction_percent = 95.0\n'
+             'reduction_basis = "invented test certificate no. 1"')
+    out = _screen(tmp_path, edit=lambda t: t.replace('abatement = "acid_scrubber"', claim, 1))
+    sources = pd.read_csv(out / "sources.csv").set_index("source_id")
+    assert sources.loc["H1", "reduction_basis"] == "claimed: invented test certificate no. 1"
+    result = verify(out)
+    claimed = [f for f in result.findings if f.code == "REDUCTION_CLAIMED"]
+    assert [f.subject for f in claimed] == ['source "H1"']
+    assert "invented test certificate" in claimed[0].message
+    variants = set(result.sensitivity["variant"])
+    assert "abatement at the lower end of its range (H1)" in variants
+    lowered = result.sensitivity[result.sensitivity["variant"].str.startswith("abatement")]
+    central = result.sensitivity[result.sensitivity["variant"] == "central"]
+    assert (lowered["pct_load"].to_numpy() > central["pct_load"].to_numpy()).all()
 
 
 def test_other_weather_year_is_a_variant(clean, tmp_path):
