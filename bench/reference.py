@@ -12,7 +12,9 @@ a time, no grouping, no windows, no caches beyond the obvious:
   linear interpolation longterm.py documents).
 - :func:`reference_hourly` loops over every hour of the record and evaluates that hour's
   off-axis Gaussian plume (``plume.plume_concentration_g_m3``, [Turner1970] Eq. 3.1) on ALL
-  receptors, zero upwind; no lateral cut-off.
+  receptors, zero upwind; no lateral cut-off. With a direction step (directions reported in
+  steps), the lateral Gaussian is replaced by its average over the reporting interval, written
+  out here from its closed form (see :func:`reference_hourly`).
 
 Source depletion in both is Q(x)/Q0 = exp(-(v_d / u) int_0^x g dx'), g = V(z=0) / (sqrt(2 pi) sz)
 ([Chamberlain1953], [VanderHoven1968]), with the integral computed directly: 5-point Gauss-Legendre
@@ -32,6 +34,8 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import numpy as np
+
+from scipy.special import erf
 
 from siting.plume import (
     momentum_plume_rise_m,
@@ -259,11 +263,20 @@ def reference_hourly(receptor_x, receptor_y, sources: Sequence, weather, setting
     and x the along-wind distance of the receptor; receptors more than min_distance_m upwind get
     zero; x is raised to min_distance_m; sy, sz at x plus the element's virtual distances; the
     depletion fraction is taken at x.
+
+    With ``weather.direction_step_deg`` = Delta > 0 (read with getattr, default 0), the hour's
+    wind direction is taken as uniform within +-Delta/2 of the reported one; a turn by t moves
+    the receptor to y - x t (first order), so the lateral factor exp(-y^2 / 2 sy^2) /
+    (sqrt(2 pi) sy) becomes its mean over t:
+    (erf((y + x Delta/2) / (sqrt 2 sy)) - erf((y - x Delta/2) / (sqrt 2 sy))) / (2 x Delta),
+    applied here as the centre-line plume times sqrt(2 pi) sy times that mean. The centre-line
+    bound of ``return_centreline`` is unchanged (the mean never exceeds the peak).
     """
     rx = np.asarray(receptor_x, dtype=float).ravel()
     ry = np.asarray(receptor_y, dtype=float).ravel()
     emissions = _emissions(sources, emission_g_s)
     n_hours = int(np.size(weather.direction_deg))
+    step_rad = np.deg2rad(float(getattr(weather, "direction_step_deg", 0.0)))
     weights = np.ones(n_hours) if hour_weights is None else np.asarray(hour_weights, float)
     scheme = settings.scheme
     total = np.zeros(rx.size)
@@ -302,8 +315,17 @@ def reference_hourly(receptor_x, receptor_y, sources: Sequence, weather, setting
                 sy = np.maximum(scheme.sigma_y_m(x + xy, s), 1e-6)
                 sz = np.maximum(sigma_z_of(x), 1e-6)
                 scale = q * element.share_fraction * weights[h]
-                c = plume_concentration_g_m3(scale, u, cross_m, sy, sz, height_m, 0.0,
-                                             settings.mixing_height_m)
+                if step_rad > 0:  # the centre-line plume times the averaged lateral factor
+                    half_m = 0.5 * x * step_rad
+                    mean_lateral = (erf((cross_m + half_m) / (np.sqrt(2.0) * sy))
+                                    - erf((cross_m - half_m) / (np.sqrt(2.0) * sy))) / (
+                                        2.0 * x * step_rad)
+                    c = (plume_concentration_g_m3(scale, u, 0.0, sy, sz, height_m, 0.0,
+                                                  settings.mixing_height_m)
+                         * _SQRT_2PI * sy * mean_lateral)
+                else:
+                    c = plume_concentration_g_m3(scale, u, cross_m, sy, sz, height_m, 0.0,
+                                                 settings.mixing_height_m)
                 depletion = _depletion(integrals, (s, round(height_m, 9)), sigma_z_of, height_m,
                                        settings, max_distance_m)
                 airborne = (1.0 if depletion is None else

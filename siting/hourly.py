@@ -12,6 +12,11 @@ directions and speeds are reported in steps. For each group only the receptors i
 plume's angular window (where the lateral term is above exp(-18), |y| < 6 sigma_y) are
 evaluated; outside it the hour contributes less than 2e-8 of its centre-line value.
 
+Directions reported in steps (station records in 10 deg, say) stand for the interval they were
+reported in: with ``HourlyWeather.direction_step_deg`` > 0 each hour's plume is spread evenly
+over that interval (:func:`spread_lateral_density_per_m`), so a receptor between two reported
+directions is not missed and one on a reported direction is not hit by every hour of it.
+
 What is not here: reading records, stability from cloud and sun (``stability.py``), the
 emission weights (``seasonal.py``).
 """
@@ -21,6 +26,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+
+from scipy.special import ndtr
 
 from siting.deposition import source_depletion_fraction
 from siting.longterm import (
@@ -36,6 +43,11 @@ from siting.plume import vertical_term
 
 N_STABILITY = 6
 LATERAL_CUTOFF_SIGMAS = 6.0
+_SQRT_2PI = np.sqrt(2.0 * np.pi)
+#: below this half-width of the interval in sigma_y units, w = L Delta / (2 sy), the spread
+#: density equals the Gaussian to 1 + O(w^2) = 1 + 1e-8, and the difference of two normal
+#: CDFs would lose digits: the Gaussian itself is used (our choice)
+_SPREAD_MIN_HALF_WIDTH = 1e-4
 
 
 @dataclass(frozen=True)
@@ -55,6 +67,11 @@ class HourlyWeather:
     temperature_c : ndarray
         Air temperature [deg C]; NaN where not given.
     anemometer_height_m : float
+        Height of the wind measurement [m], > 0.
+    direction_step_deg : float
+        Interval the directions were reported in [deg], 0..45: each hour's plume is spread
+        evenly over +-step/2 of its direction (:func:`spread_lateral_density_per_m`). 0 means
+        exact directions (no spreading).
     """
 
     time_utc: np.ndarray
@@ -63,6 +80,7 @@ class HourlyWeather:
     stability_index: np.ndarray
     temperature_c: np.ndarray
     anemometer_height_m: float = 10.0
+    direction_step_deg: float = 0.0
 
     @property
     def n_hours(self) -> int:
@@ -81,6 +99,56 @@ def group_identical_hours(weather: HourlyWeather, hour_weights=None):
     unique, inverse = np.unique(key, axis=0, return_inverse=True)
     summed = np.bincount(inverse.ravel(), weights=weights, minlength=len(unique))
     return unique[:, 0], unique[:, 1], unique[:, 2].astype(int), summed
+
+
+def spread_lateral_density_per_m(cross_m, along_m, sigma_y_m, step_rad: float):
+    """Lateral Gaussian density averaged over wind directions uniform within +-step/2 [m-1].
+
+    Parameters
+    ----------
+    cross_m : ndarray
+        Crosswind distance of the receptor from the reported direction's axis [m].
+    along_m : ndarray
+        Along-wind distance of the receptor [m], > 0 (the lever arm of a turn of direction).
+    sigma_y_m : ndarray
+        Lateral spread at the along-wind distance [m], > 0.
+    step_rad : float
+        Width Delta of the reporting interval [rad], >= 0.
+
+    Returns
+    -------
+    density_per_m : ndarray
+        Broadcast shape of the inputs [m-1]; the Gaussian exp(-y^2 / 2 sy^2) / (sqrt(2 pi) sy)
+        itself where Delta = 0. Symmetric in cross_m, never negative.
+
+    Notes
+    -----
+    A wind turned by a small angle t from the reported direction moves the receptor's
+    crosswind coordinate from y to y - x t (x the along-wind distance: the first-order term of
+    r sin(psi - t)); sigma_y and sigma_z stay at x. Averaging the Gaussian over t uniform in
+    [-Delta/2, Delta/2] gives
+
+        [Phi((y + x Delta/2) / sy) - Phi((y - x Delta/2) / sy)] / (x Delta),
+
+    Phi the standard normal CDF: the angular form [Phi((psi + Delta/2) r / sy) -
+    Phi((psi - Delta/2) r / sy)] / (Delta r) in the small-angle limit (y = r psi, x = r). It
+    tends to the Gaussian as Delta -> 0 (Phi' = the normal density), and it conserves mass: in
+    the small-angle limit the integral over psi of r times the density is 1, as for the
+    Gaussian, so spreading moves the plume sideways but neither adds nor loses any. The
+    approximation is that of the Gaussian plume's own crosswind coordinate, second order in
+    Delta (x Delta^2 / 8 in y, < 1 m at 1.5 km and 10 deg near the axis). The tails are
+    computed on the far side, Phi(-a) - Phi(-b), so no digits are lost there.
+    """
+    cross = np.abs(np.asarray(cross_m, dtype=float))
+    sy = np.asarray(sigma_y_m, dtype=float)
+    gaussian = np.exp(-0.5 * (cross / sy) ** 2) / (_SQRT_2PI * sy)
+    if step_rad <= 0:
+        return gaussian
+    half_width = 0.5 * np.asarray(along_m, dtype=float) * step_rad / sy  # w = x Delta / 2 sy
+    centre = cross / sy
+    with np.errstate(divide="ignore", invalid="ignore"):
+        spread = (ndtr(half_width - centre) - ndtr(-centre - half_width)) / (2.0 * half_width * sy)
+    return np.where(half_width > _SPREAD_MIN_HALF_WIDTH, spread, gaussian)
 
 
 def _half_window_rad(scheme, s: int, xy_m: float, max_distance_m: float) -> float:
@@ -117,7 +185,10 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
     Notes
     -----
     C_h = Q / (2 pi u sy sz) exp(-y^2 / 2 sy^2) V, [Turner1970] Eq. 3.1, with the source
-    depletion factor of ``deposition.source_depletion_fraction`` when switched on.
+    depletion factor of ``deposition.source_depletion_fraction`` when switched on. With
+    ``weather.direction_step_deg`` > 0 the lateral factor exp(-y^2 / 2 sy^2) / (sqrt(2 pi) sy)
+    is replaced by its average over the hour's reporting interval,
+    :func:`spread_lateral_density_per_m`, and the angular window is widened by half the step.
     """
     rx = np.asarray(receptor_x_m, dtype=float).ravel()
     ry = np.asarray(receptor_y_m, dtype=float).ravel()
@@ -144,13 +215,17 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
     if rx.size == 0 or weather.n_hours == 0:
         return total
     scheme = settings.scheme
+    step_rad = np.deg2rad(float(weather.direction_step_deg))
     directions, speeds, classes, weights = group_identical_hours(weather, hour_weights)
     for s in range(N_STABILITY):
         in_class = classes == s
         if not in_class.any():
             continue
         xy_m, xz_m = virtual_distances_m(element, scheme, s)
-        half_window = _half_window_rad(scheme, s, xy_m, max_distance_m)
+        # spread over +-step/2: 6 sigma_y beyond the interval's edges (tan(a + b) >= tan a + b,
+        # so beyond it |y| - x step/2 > 6 sigma_y, and the density is below its 6-sigma value)
+        half_window = min(_half_window_rad(scheme, s, xy_m, max_distance_m) + 0.5 * step_rad,
+                          np.pi)
         # receptors near the element are reached by every plume whatever the angle: upwind
         # ones closer than min_distance count as downwind at it, with their crosswind offset
         near_m = element.min_distance_m + LATERAL_CUTOFF_SIGMAS * float(
@@ -188,7 +263,11 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
             # wind (and with plume rise, the height) and the depletion depend on the speed
             sy = np.maximum(scheme.sigma_y_m(along_m + xy_m, s), 1e-6)
             sz = np.maximum(sigma_z_of(along_m), 1e-6)
-            shape = np.exp(-0.5 * (cross_m / sy) ** 2) / (2.0 * np.pi * sy * sz)
+            if step_rad > 0:  # spread over the reporting interval
+                shape = (spread_lateral_density_per_m(cross_m, along_m, sy, step_rad)
+                         / (_SQRT_2PI * sz))
+            else:  # exact directions: the Gaussian, [Turner1970] Eq. 3.1
+                shape = np.exp(-0.5 * (cross_m / sy) ** 2) / (2.0 * np.pi * sy * sz)
             by_height: dict[float, list[tuple[float, float]]] = {}
             for speed_ref, weight in zip(class_speeds[same], class_weights[same]):
                 u, height_m = release_wind_and_height(

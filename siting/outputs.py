@@ -48,19 +48,30 @@ UNDEPLETED_COLUMNS = [
 
 METHOD_NOTES = [
     "Emission = factor [kg NH3/place/yr] x places, or a figure given directly; less abatement: "
-    "effective reduction = technique reduction x share of the house's ammonia treated.",
+    "effective reduction = technique reduction x share of the house's ammonia treated. With no "
+    "stated reduction the lower end of the technique's published range is used; a higher "
+    "figure is the user's claim, shown with its stated basis.",
     "Dispersion: ground-reflected Gaussian plume, sector-averaged over the weather frequency "
     "table (long-term annual mean), Briggs (1973) dispersion coefficients for the chosen land "
-    "type, power-law wind profile by stability class (Irwin 1979 exponents), optional "
-    "reflection at a mixing lid. Values are interpolated linearly in angle between sector "
-    "centre lines.",
-    "Point sources with an exit velocity get momentum plume rise (Briggs); without one, none. "
+    "type, power-law wind profile by stability class (Irwin 1979 exponents) taken from the "
+    "anemometer down to each release height (lowest 1 m by default, then the minimum wind "
+    "speed), optional reflection at a mixing lid. Values are interpolated linearly in angle "
+    "between sector centre lines; an hourly record's directions are spread over the interval "
+    "they were reported in.",
+    "Plume rise (Briggs momentum rise) only for an outlet at or above the good-engineering-"
+    "practice height of its building, Hb + 1.5 min(Hb, W) (US EPA 1985); an outlet below it, "
+    "or without building dimensions, is in the building wake and gets none. Stack-tip downwash "
+    "(Briggs 1974) lowers an outlet whose exit velocity is below 1.5 times the wind speed. "
     "Houses as volume sources use initial spreads side/4.3 and building height/2.15 with the "
     "virtual-distance method (US EPA 1992, 1995); area sources are integrated over a lattice of "
     "small elements.",
     "Dry deposition = deposition velocity x ground-level concentration, velocity by land cover "
     "(short vegetation or woodland); plume depletion by the source-depletion method "
-    "(Chamberlain) when switched on, using the short-vegetation velocity along the path.",
+    "(Chamberlain) only when switched on (off by default), using the short-vegetation velocity "
+    "along the path; the undepleted figures are then shown beside.",
+    "Critical level 1 ug/m3 at every site unless lichens and bryophytes are stated absent "
+    "(UNECE 2007); critical loads of the 2022 review (Bobbink et al. 2022; ranges from memory, "
+    "see config/critical_loads.toml) at the lower end by default.",
     "Site figures: maximum over receptor points on the site (boundary points nearest each "
     "source, an interior lattice, grid nodes inside) and mean over its interior points. "
     "PC = proposed + existing sources; net change = proposed - removed; in-combination = PC + "
@@ -269,6 +280,8 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         folder / "sites.gpkg", layer="sites", driver="GPKG")
     write_csv(result.receptors, folder / "receptors.csv")
     write_csv(result.sources, folder / "sources.csv")
+    if result.sensitivity is not None:
+        write_csv(result.sensitivity, folder / "sensitivity.csv")
     record = run_record(result, run_time)
     record["package"] = package_inputs(result, folder)
     (folder / "run.json").write_text(json.dumps(record, indent=2, default=str), encoding="utf-8")
@@ -304,7 +317,69 @@ def _write_all(result, folder: Path, run_time: str) -> None:
                  sites=table, sources=result.sources, weather_summary=result.weather_summary,
                  habitat_values=_habitat_values(sites), warnings=result.warnings,
                  cautions=result.cautions, method_notes=METHOD_NOTES, run_record=record,
-                 figures=figures, weather_figures=weather_figures)
+                 figures=figures, weather_figures=weather_figures,
+                 cautious_choices=cautious_choices(result),
+                 sensitivity_summary=result.sensitivity_summary)
+
+
+def cautious_choices(result) -> list[tuple[str, str, str]]:
+    """(choice, what this run used, the alternative) for each modelling choice that moves the
+    PC, in words; "(cautious default)" marks the defaults that err towards the higher PC."""
+    scenario = result.scenario
+    default = " (cautious default)"
+    choices = []
+    wind = scenario.weather.wind_below_anemometer
+    choices.append((
+        "Wind at a release height below the anemometer",
+        ("power law taken down to the release height (lowest "
+         f"{scenario.weather.wind_profile_min_height_m:g} m){default}") if wind == "power_law"
+        else "measured speed used unchanged",
+        'wind_below_anemometer = "unchanged": the measured speed (lower figures)'
+        if wind == "power_law" else 'wind_below_anemometer = "power_law" (higher figures)'))
+    depleted = scenario.deposition.plume_depletion
+    choices.append((
+        "Plume depletion by deposition on the way",
+        "on: figures without depletion are shown beside" if depleted else f"off{default}",
+        "off (higher figures)" if depleted else "plume_depletion = true (lower figures)"))
+    for row in result.sources.itertuples():
+        if getattr(row, "plume_rise", "") in ("yes", "no"):
+            choices.append((f'Plume rise, source "{row.source_id}"', str(row.plume_rise_basis),
+                            "rise only for an outlet at or above the good-engineering-practice "
+                            "height of its building (building_height_m, building_width_m)"))
+    levels = result.sites["critical_level_ug_m3"]
+    n1 = int((levels == 1.0).sum())
+    choices.append((
+        "Critical level of ammonia",
+        f"1 µg/m³ at {n1} of {len(levels)} site(s) (lichens and bryophytes not shown absent)"
+        + (default if n1 == len(levels) else "; 3 µg/m³ where stated absent"),
+        "3 µg/m³ where the habitat layer (lichens_bryophytes_field) or the scenario "
+        "(lichens_bryophytes_absent) states lichens and bryophytes absent"))
+    review = scenario.assessment.critical_load_review
+    end = scenario.assessment.critical_load_end
+    choices.append((
+        "Critical loads",
+        f"{review} review, {end} end of each range"
+        + (default if (review, end) == ("2022", "lower") else ""),
+        "critical_load_review = \"2011\"; critical_load_end = \"middle\" or \"upper\""))
+    for row in result.sources.itertuples():
+        if row.abatement:
+            choices.append((f'Abatement, source "{row.source_id}"',
+                            f"{row.reduction_percent:g} %: {row.reduction_basis}",
+                            "the lower end of the published range unless a higher figure is "
+                            "stated with its basis (reduction_percent, reduction_basis)"))
+    shares = result.weather_summary.get("scrubber_treated_share") or {}
+    for sid, share in shares.items():
+        choices.append((f'Partial scrubbing, source "{sid}"',
+                        f"treated share {100 * share['treated_share']:.1f} % of the year's "
+                        f"ammonia (hours weighted by {share['hours_weighted_by']}); "
+                        f"{100 * share['treated_share_of_hours']:.1f} % of its hours",
+                        "[seasonal] temperature_dependent_emission = false: hours count alike "
+                        "(a larger treated share, lower figures)"))
+    rule = result.weather_summary.get("direction_rule")
+    if rule:
+        choices.append(("Hourly wind directions", str(rule),
+                        "weather.direction_step_deg = 0: each hour on its exact direction"))
+    return choices
 
 
 def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:

@@ -19,7 +19,7 @@ never split across pages. In print (A4 portrait) table headers repeat on each pa
 with what follows them, figures, list items and the run record's small tables are kept whole,
 and figures are capped in height so that two fit on a page. The weather charts (wind rose,
 stability by wind speed) sit in section 2 right after the weather summary; the other figures
-in section 4.
+in section 5.
 """
 
 from __future__ import annotations
@@ -83,6 +83,8 @@ _DERIVATION_ROWS: tuple[tuple[str, tuple[tuple[str, str], ...]], ...] = (
             ("x_m", "Position x (easting) [m]"),
             ("y_m", "Position y (northing) [m]"),
             ("height_m", "Release height [m]"),
+            ("plume_rise", "Plume rise"),
+            ("plume_rise_basis", "Why (building wake)"),
         ),
     ),
     (
@@ -102,6 +104,7 @@ _DERIVATION_ROWS: tuple[tuple[str, tuple[tuple[str, str], ...]], ...] = (
             ("abatement", "Abatement technique"),
             ("reduction_percent", "Reduction by the technique [%]"),
             ("reduction_range_percent", "Published range of the reduction [%]"),
+            ("reduction_basis", "Basis of the reduction"),
             ("reduction_flag", "Check of the reduction"),
             ("reduction_source", "Where the reduction comes from"),
             ("scrubber_design_share", "Scrubber sized for [% of maximum ventilation]"),
@@ -186,6 +189,8 @@ _WEATHER_LABELS = {
     "mean_observed_speed_m_s": "Mean observed wind speed [m/s]",
     "prevailing_from_words": "Prevailing wind",
     "direction_step_deg": "Reported direction step [deg]",
+    "direction_spread_deg": "Each hour's plume spread over [deg]",
+    "direction_rule": "Rule for hourly directions",
     "stability_method": "Stability class from",
     "temperature_c": "Air temperature [deg C]",
     "calm_rule": "Rule for calms",
@@ -201,7 +206,7 @@ _ROLE_NOTE = (
 )
 
 _CAUTION_TOP_LINE = (
-    "Screening estimate from a simplified model, not a decision: read the cautions in section 6. "
+    "Screening estimate from a simplified model, not a decision: read the cautions in section 7. "
     "The competent authority and local regulations decide."
 )
 
@@ -552,6 +557,80 @@ def _thresholds_table(sites: pd.DataFrame) -> str:
     )
 
 
+def _cautious_section(choices, sites: pd.DataFrame, summary, end: str = "lower") -> str:
+    """The run's modelling choices (each with its cautious default and the alternative), and
+    per site the critical level's basis, what depletion took off and the sensitivity range."""
+    parts = [
+        "<p>A screening verdict is only worth something if every default errs towards the "
+        "higher process contribution. The table says, for each modelling choice, what this run "
+        "used, whether that is the cautious default, and the alternative.</p>"
+    ]
+    if choices:
+        rows = "".join(
+            f"<tr><th scope=\"row\">{esc(c)}</th><td>{esc(used)}</td><td>{esc(alt)}</td></tr>"
+            for c, used, alt in choices
+        )
+        parts.append(
+            '<div class="table-wrap"><table class="compact"><thead><tr>'
+            f"<th>{header_html('Choice')}</th><th>{header_html('This run')}</th>"
+            f"<th>{header_html('Alternative')}</th></tr></thead><tbody>{rows}</tbody></table></div>"
+        )
+    ranges = {}
+    if summary is not None and len(summary):
+        ranges = {str(r["site"]): r for _, r in summary.iterrows()}
+    undepleted = "pc_pct_load_undepleted" in sites.columns
+    head = (
+        f"<th>{header_html('Site')}</th>"
+        f"<th>{header_html('Critical level', 'µg NH3/m³, and why')}</th>"
+        f"<th>{header_html('Critical load', 'kg N/ha/yr, review and end of range')}</th>"
+        + (f"<th>{header_html('Without depletion', '% of critical load')}</th>" if undepleted else "")
+        + f"<th>{header_html('Sensitivity range', '% of critical load')}</th>"
+        f"<th>{header_html('Sensitivity range', '% of critical level')}</th>"
+        f"<th>{header_html('Verdict flips under')}</th>"
+    )
+    rows = []
+    for _, row in sites.iterrows():
+        name = str(row.get("name"))
+        r = ranges.get(name, {})
+
+        def span(lo, hi):
+            if is_missing(lo) or is_missing(hi):
+                return MISSING_TEXT
+            return f"{format_percent(lo)} – {format_percent(hi)}"
+
+        level = row.get("critical_level_ug_m3")
+        basis = row.get("critical_level_basis")
+        flips = r.get("flipping_variants") if len(r) else None
+        rows.append(
+            f'<tr><td class="site">{esc(name)}</td>'
+            f"<td>{esc(format_for_column(level, 'critical_level_ug_m3'))}"
+            + (f'<span class="sub">{esc(basis)}</span>' if not is_missing(basis) else "")
+            + "</td>"
+            f"<td>{esc(format_for_column(row.get('critical_load_used_kg_n_ha_yr'), 'critical_load_used_kg_n_ha_yr'))}"
+            f'<span class="sub">{esc(row.get("critical_load_review", MISSING_TEXT))} review, '
+            f"{esc(end)} end</span></td>"
+            + (f'<td class="num">{esc(format_percent(row.get("pc_pct_load_undepleted")) if not is_missing(row.get("pc_pct_load_undepleted")) else MISSING_TEXT)}</td>'
+               if undepleted else "")
+            + f'<td class="num">{esc(span(r.get("min_pct_load"), r.get("max_pct_load")) if len(r) else MISSING_TEXT)}</td>'
+            f'<td class="num">{esc(span(r.get("min_pct_level"), r.get("max_pct_level")) if len(r) else MISSING_TEXT)}</td>'
+            f"<td>{esc(flips) if not is_missing(flips) and flips else 'none'}</td></tr>"
+        )
+    parts.append("<h3>By site</h3>")
+    parts.append(
+        '<div class="table-wrap"><table class="compact"><thead><tr>'
+        f"{head}</tr></thead><tbody>{''.join(rows)}</tbody></table></div>"
+    )
+    parts.append(
+        '<p class="note">Sensitivity: one assumption changed at a time, each both ways — '
+        "deposition velocity over its whole range (the high end above the screening value), "
+        "the critical load at both ends of its range, the critical level 1 and 3 µg/m³, "
+        "plume depletion on and off, the other wind rule below the anemometer, claimed "
+        "abatement at the lower end of its range, the emission factors at their stated "
+        "uncertainty — re-run at the sites' own points (sensitivity.csv has every variant).</p>"
+    )
+    return "".join(parts)
+
+
 def _figures_html(
     figures: Mapping[str, bytes], empty_text: str = "No figures were made for this run."
 ) -> str:
@@ -588,6 +667,8 @@ def write_report(
     run_record: dict,
     figures: dict[str, bytes],
     weather_figures: Mapping[str, bytes] | None = None,
+    cautious_choices: list[tuple[str, str, str]] | None = None,
+    sensitivity_summary: pd.DataFrame | None = None,
 ) -> None:
     """Write report.html: a self-contained, offline-readable account of one screening run.
 
@@ -625,17 +706,22 @@ def write_report(
     warnings : list of str
         Warnings collected during the run.
     cautions : list of str
-        The cautions every output carries; shown prominently in section 6.
+        The cautions every output carries; shown prominently in section 7.
     method_notes : list of str
         Method and assumption statements for section 3.
     run_record : dict
         Version, time, inputs with SHA-256 and parameters; shown as tables, and in full as
         indented JSON in a collapsed block.
     figures : dict of str to bytes
-        Caption -> PNG bytes, inlined as data URLs in that order (section 4).
+        Caption -> PNG bytes, inlined as data URLs in that order (section 5).
     weather_figures : mapping of str to bytes, optional
         Caption -> PNG bytes of the weather charts (wind rose, stability by wind speed), shown
         in section 2 right after the weather summary table; none by default.
+    cautious_choices : list of (choice, this run, alternative), optional
+        The run's modelling choices, shown in section 4 with the per-site sensitivity.
+    sensitivity_summary : DataFrame, optional
+        One row per site (sensitivity.py): min/max % of critical load and level over the
+        variants and the variants that flip its verdict.
 
     Raises
     ------
@@ -704,8 +790,15 @@ def write_report(
             bullet_list(method_notes, "No method notes recorded."),
         ),
         (
+            "cautious",
+            "4. Cautious choices and sensitivity",
+            _cautious_section(cautious_choices, sites, sensitivity_summary,
+                              str((run_record.get("parameters") or {}).get("assessment", {})
+                                  .get("critical_load_end", "lower"))),
+        ),
+        (
             "figures",
-            "4. Figures",
+            "5. Figures",
             figures_html
             + (
                 '<p class="note">The weather charts are in section 2, under Weather.</p>'
@@ -713,13 +806,13 @@ def write_report(
                 else ""
             ),
         ),
-        ("warnings", "5. Warnings", bullet_list(warnings, "No warnings were raised.")),
+        ("warnings", "6. Warnings", bullet_list(warnings, "No warnings were raised.")),
         (
             "cautions",
-            "6. Cautions",
+            "7. Cautions",
             f'<div class="cautions">{bullet_list(cautions, "No cautions given.")}</div>',
         ),
-        ("run-record", "7. Run record", run_record_html(run_record)),
+        ("run-record", "8. Run record", run_record_html(run_record)),
     ]
     toc = "".join(f'<li><a href="#{anchor}">{html.escape(h)}</a></li>' for anchor, h, _ in sections)
     body = (

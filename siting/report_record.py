@@ -1,4 +1,4 @@
-"""The run record and model settings as report.html shows them (sections 2 and 7).
+"""The run record and model settings as report.html shows them (sections 2 and 8).
 
 Formatting only: the run record (run.json: inputs and tables with SHA-256, grid, versions,
 timings) becomes small tables plus the raw JSON in a collapsed block, and the scenario's
@@ -28,8 +28,8 @@ __all__ = ["run_record_html", "settings_table"]
 #: Keys of the run record shown elsewhere in the report (not repeated in section 7's tables).
 _RECORD_SHOWN_ELSEWHERE = {
     "weather_summary": "section 2",
-    "warnings": "section 5",
-    "cautions": "section 6",
+    "warnings": "section 6",
+    "cautions": "section 7",
 }
 
 #: Scenario parameters not repeated in the model settings table (shown elsewhere).
@@ -46,6 +46,13 @@ _SETTING_LABELS = {
     "plume_depletion": "Plume depletion by deposition",
     "depletion_land_cover": "Land cover used for depletion",
     "critical_load_end": "End of the critical load range used",
+    "critical_load_review": "Critical load review used",
+    "wind_below_anemometer": "Wind below the anemometer height",
+    "wind_profile_min_height_m": "Lowest height of the wind profile [m]",
+    "direction_step_deg": "Reporting step of hourly wind directions [deg]",
+    "temperature_dependent_emission": "Temperature-dependent hourly emission",
+    "lichens_bryophytes_field": "Field saying whether lichens and bryophytes are present",
+    "lichens_bryophytes_absent": "Sites stated free of lichens and bryophytes",
     "config_dir": "Own configuration tables folder",
 }
 

@@ -68,6 +68,8 @@ class ScreenResult:
     warnings: list[str] = field(default_factory=list)
     timings_s: dict[str, float] = field(default_factory=dict)
     weather: object = None  # WeatherClasses or HourlyWeather, for the weather figures
+    sensitivity: pd.DataFrame | None = None  # one row per (site, variant); see sensitivity.py
+    sensitivity_summary: pd.DataFrame | None = None  # one row per site
 
     @property
     def cautions(self) -> list[str]:
@@ -243,7 +245,8 @@ def _read_hourly(scenario: Scenario):
     return read_hourly_record(w.hourly, lat, lon, anemometer_height_m=w.anemometer_height_m,
                               utc_offset_h=w.utc_offset_h, calm_threshold_m_s=w.calm_threshold_m_s,
                               min_wind_speed_m_s=w.min_wind_speed_m_s,
-                              max_missing_percent=w.max_missing_percent)
+                              max_missing_percent=w.max_missing_percent,
+                              direction_step_deg=w.direction_step_deg)
 
 
 def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summary: dict):
@@ -457,12 +460,15 @@ def _site_stats(conc_ug_m3, vd_m_s, member_receptor, member_site, member_interio
 
 
 def screen(scenario: Scenario | str | Path, *, progress: bool = False,
-           tables: Tables | None = None, with_grid: bool = True) -> ScreenResult:
+           tables: Tables | None = None, with_grid: bool = True,
+           sensitivity: bool = True) -> ScreenResult:
     """Run a full screening assessment of a scenario (a file path or a loaded Scenario).
 
     ``tables`` replaces the scenario's lookup tables (used by sensitivity runs);
     ``with_grid=False`` computes the sites and named points only (the fields are then empty:
     site figures come from their own points, so only a site's grid nodes are missing).
+    ``sensitivity`` (with the grid) adds the two-sided sensitivity of every site
+    (sensitivity.py): the same assumptions varied both ways, re-run at the sites' points.
     """
     import geopandas as gpd
     import shapely
@@ -623,6 +629,12 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
                "assessment_s": clock["assessment"] - clock["dispersion"],
                "receptors": int(rx.size)}
     source_shapes = [shape for _, shape in elements_and_shapes]
-    return ScreenResult(scenario, tables, grid, weather_summary, sources, source_shapes,
-                        gpd.GeoDataFrame(out, geometry="geometry", crs=scenario.crs),
-                        receptors, fields, warnings, timings, weather)
+    result = ScreenResult(scenario, tables, grid, weather_summary, sources, source_shapes,
+                          gpd.GeoDataFrame(out, geometry="geometry", crs=scenario.crs),
+                          receptors, fields, warnings, timings, weather)
+    if sensitivity and with_grid:
+        from siting.sensitivity import sensitivity as two_sided
+
+        result.sensitivity, result.sensitivity_summary = two_sided(scenario, result)
+        timings["sensitivity_s"] = time.perf_counter() - clock["assessment"]
+    return result

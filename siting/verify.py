@@ -30,6 +30,7 @@ import numpy as np
 import pandas as pd
 
 from siting import assess
+from siting.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
 from siting.tables import default_reduction_percent
 from siting.errors import InputError, InputFileError, SitingError
 from siting.outputs import sha256_of
@@ -490,101 +491,6 @@ def _missing_sites(scenario, result, reference: Path, name_field: str | None) ->
     return findings
 
 
-def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """Each site's % of critical load and level under variants that can raise it as well as
-    lower it, and whether its verdict flips.
-
-    One assumption changed at a time: the critical load at both ends of the habitat's range;
-    the critical level 1 and 3 ug/m3; the deposition velocity at both ends of its table range
-    (the high end above the screening value); plume depletion on and off; the other rule for
-    the wind below the anemometer; every claimed abatement at its range's lower end; the
-    emission factors at their stated uncertainty (emission_factors.toml [uncertainty]),
-    down and up; other weather records where given. Variants are computed at the sites' own
-    points only (no grid), so a variant's site maximum can sit a little below the central
-    run's where a grid node inside a site held it.
-    """
-    from siting.screen import screen
-
-    sites = result.sites
-    rows = []
-
-    def add(variant, frame, load_col="critical_load_used_kg_n_ha_yr", level=None):
-        pct_load = 100.0 * frame["pc_dep_max_kg_n_ha_yr"].to_numpy() / frame[load_col].to_numpy()
-        pct_level = (frame["pc_pct_level"].to_numpy() if level is None
-                     else 100.0 * frame["pc_conc_max_ug_m3"].to_numpy() / level)
-        verdicts = assess.verdict(pct_level, pct_load, frame["threshold_percent"].to_numpy(),
-                                  frame["assessed"].to_numpy())
-        for name, load, lev, v in zip(frame["name"], pct_load, pct_level, verdicts):
-            rows.append({"site": name, "variant": variant, "pct_load": load,
-                         "pct_level": lev, "verdict": v})
-
-    def rerun(variant, scen=scenario, tables=None):
-        add(variant, screen(scen, tables=tables, with_grid=False).sites)
-
-    def section(name, **changes):
-        return scenario.model_copy(update={
-            name: getattr(scenario, name).model_copy(update=changes)})
-
-    add("central", sites)
-    add("critical load lower end", sites, "critical_load_min_kg_n_ha_yr")
-    add("critical load upper end", sites, "critical_load_max_kg_n_ha_yr")
-    add("critical level 1 ug/m3", sites, level=1.0)
-    add("critical level 3 ug/m3", sites, level=3.0)
-    tables = result.tables
-    for end, label in (("deposition_velocity_min_m_s", "deposition velocity low"),
-                       ("deposition_velocity_max_m_s", "deposition velocity high")):
-        velocities = {k: {**v, "deposition_velocity_m_s": v[end]}
-                      for k, v in tables.deposition_velocities.items()}
-        rerun(label, tables=dataclasses.replace(tables, deposition_velocities=velocities))
-    depleted = scenario.deposition.plume_depletion
-    rerun("plume depletion " + ("off" if depleted else "on"),
-          section("deposition", plume_depletion=not depleted))
-    other_wind = "unchanged" if scenario.weather.wind_below_anemometer == "power_law" else "power_law"
-    rerun(f"wind below the anemometer: {other_wind.replace('_', ' ')}",
-          section("weather", wind_below_anemometer=other_wind))
-    claimed = [src.id for src in scenario.sources
-               if src.abatement and src.reduction_percent is not None
-               and src.abatement in tables.abatement
-               and src.reduction_percent > default_reduction_percent(tables.abatement[src.abatement])]
-    if claimed:
-        lowered = [src.model_copy(update={"reduction_percent": None, "reduction_basis": None})
-                   if src.id in claimed else src for src in scenario.sources]
-        rerun("abatement at the lower end of its range (" + ", ".join(claimed) + ")",
-              scenario.model_copy(update={"sources": lowered}))
-    uncertainty = tables.emission_factor_uncertainty
-    if uncertainty and any(src.nh3_kg_per_year is None for src in scenario.sources):
-        u = uncertainty["emission_factor_percent"] / 100.0
-        for sign, word in ((-1, "low"), (1, "high")):
-            factors = [{**r, "nh3_kg_per_place_yr": r["nh3_kg_per_place_yr"] * (1 + sign * u)}
-                       for r in tables.emission_factors]
-            rerun(f"emission factors {word} ({'-' if sign < 0 else '+'}"
-                  f"{uncertainty['emission_factor_percent']:g} %)",
-                  tables=dataclasses.replace(tables, emission_factors=factors))
-    for path in weather_files:
-        path = Path(path)
-        first = path.read_text(encoding="utf-8", errors="replace").splitlines()[:1]
-        hourly = bool(first) and first[0].lower().startswith("time")
-        weather = scenario.weather.model_copy(update={
-            "frequency_table": None if hourly else path.resolve(),
-            "hourly": [path.resolve()] if hourly else None})
-        rerun(f"weather: {path.name}", scenario.model_copy(update={"weather": weather}))
-    long = pd.DataFrame(rows)
-    summary = []
-    for name, group in long.groupby("site", sort=False):
-        central = group[group["variant"] == "central"].iloc[0]
-        flips = group[group["verdict"] != central["verdict"]]
-        summary.append({"site": name, "central_pct_load": central["pct_load"],
-                        "min_pct_load": group["pct_load"].min(),
-                        "max_pct_load": group["pct_load"].max(),
-                        "central_pct_level": central["pct_level"],
-                        "min_pct_level": group["pct_level"].min(),
-                        "max_pct_level": group["pct_level"].max(),
-                        "central_verdict": central["verdict"],
-                        "verdict_flips": not flips.empty,
-                        "flipping_variants": ", ".join(flips["variant"])})
-    return long, pd.DataFrame(summary)
-
-
 def verify(submission: Path, *, results: Path | None = None,
            reference_habitats: Path | None = None, name_field: str | None = None,
            weather_files=()) -> VerifyResult:
@@ -602,7 +508,7 @@ def verify(submission: Path, *, results: Path | None = None,
         if sub.config_dir is not None and sub.config_dir.is_dir():
             scenario = scenario.model_copy(update={"assessment": scenario.assessment.model_copy(
                 update={"config_dir": sub.config_dir})})
-        result = screen(scenario)
+        result = screen(scenario, sensitivity=False)  # its own, with --weather, below
     except SitingError as exc:
         raise InputError(f"the submission cannot be re-run: {exc}") from exc
     explanation = _explanation(integrity, submitted_version, __version__)

@@ -41,6 +41,13 @@ overlap between files are an error.
   concentrations, raising calms to a floor rather than dropping them keeps the result
   cautious. Hours at or above the calm threshold but below the floor are raised too. Both
   shares are reported. Outside calms, 0 is read as north, like 360.
+* Direction step: directions reported in steps (10 deg at many stations) stand for the
+  interval they were reported in. The step is given (``direction_step_deg``, 0..45) or
+  inferred from the directions (:func:`direction_step_deg`: 22.5, 10 or 5 deg when every
+  direction is a multiple of it); each hour's plume is then spread evenly over that interval
+  (``hourly.spread_lateral_density_per_m``). An inferred step of 1 deg or finer is treated as
+  exact: no spreading (our choice: whole-degree records are what "exact" means at a station,
+  and a 1 deg spread changes little). A given step is always used as given.
 * Stability: the given class, or Turner's method (``stability.turner_stability_index``) from
   the observed (not raised) wind speed, cloud cover, ceiling and the solar elevation and night
   flag at the site for the hour's time stamp (``solar.py``).
@@ -98,6 +105,9 @@ _MAX_GAPS_LISTED = 20
 _FAST_SPEED_M_S = 50.0  # hourly means above this suggest knots or gusts (our choice)
 _TEMPERATURE_RANGE_C = (-80.0, 60.0)  # outside: surely not deg C (kelvin, deg F?)
 _DIRECTION_STEPS_DEG = (22.5, 10.0, 5.0, 1.0)  # reporting resolutions recognised
+#: an inferred step at or below this is taken as exact directions, not spread (our choice)
+_EXACT_STEP_DEG = 1.0
+_MAX_DIRECTION_STEP_DEG = 45.0  # a coarser step (8 points or fewer) is no direction at all
 _TIME_RE = (r"^(?P<date>\d{4}-\d{2}-\d{2})[T ](?P<hour>\d{2}):(?P<minute>\d{2})"
             r"(?::(?P<second>\d{2}(?:\.\d+)?))?"
             r"(?P<offset>Z|[+-]\d{2}(?::?\d{2})?)?$")
@@ -462,7 +472,8 @@ def _checked_edges(speed_edges_m_s) -> np.ndarray:
 def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
                        anemometer_height_m: float = 10.0, utc_offset_h: float | None = None,
                        calm_threshold_m_s: float = 0.5, min_wind_speed_m_s: float = 1.0,
-                       max_missing_percent: float = 10.0
+                       max_missing_percent: float = 10.0,
+                       direction_step_deg: float | None = None
                        ) -> tuple[HourlyWeather, dict, list[str]]:
     """Read, check and prepare an hourly weather record (one or several CSV files).
 
@@ -485,6 +496,10 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
         Floor speed: calms and light winds are raised to it [m s-1], > 0.
     max_missing_percent : float
         Largest share of missing hours accepted [%], 0..100.
+    direction_step_deg : float, optional
+        Interval the directions were reported in [deg], 0..45; each hour's plume is spread
+        evenly over it (0: exact directions). None infers it from the directions
+        (:func:`direction_step_deg`); an inferred step of 1 deg or finer is not spread.
 
     Returns
     -------
@@ -496,13 +511,16 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
         gaps (longest first, at most 20: start_utc, end_utc, hours), calm_threshold_m_s,
         min_wind_speed_m_s, calm_hours, calm_percent, calm_direction_filled_hours,
         raised_to_min_speed_percent, mean_speed_m_s, mean_observed_speed_m_s,
-        prevailing_from_deg, prevailing_from_words, direction_step_deg, stability_share
+        prevailing_from_deg, prevailing_from_words, direction_step_deg (the reporting step,
+        given or inferred), direction_spread_deg (the interval each hour's plume is spread
+        over, in HourlyWeather.direction_step_deg), direction_rule (in words), stability_share
         (A..F fractions of the hours used), stability_method, temperature_c (min, mean, max,
         hours_without, or None), years_covered (calendar years as written), record_years,
         anemometer_height_m, calm_rule, missing_rule.
     warnings : list of str
         Legal but doubtful content: calms above 10 %, a record shorter than a year, gaps
-        longer than 24 h, ignored columns, very high speeds.
+        longer than 24 h, ignored columns, very high speeds, directions that are not
+        multiples of a given direction step.
 
     Raises
     ------
@@ -510,13 +528,15 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
         A file does not exist.
     InputError
         Any malformed content, naming the file, the line (header = line 1) and the value; or
-        more than ``max_missing_percent`` missing hours (with the share and the longest gap).
+        more than ``max_missing_percent`` missing hours (with the share and the longest gap);
+        or a direction_step_deg outside 0..45 (named ``weather.direction_step_deg``).
     """
     from siting.solar import is_night, solar_elevation_deg
     from siting.stability import turner_stability_index
 
     _check_options(latitude_deg, longitude_deg, anemometer_height_m, utc_offset_h,
                    calm_threshold_m_s, min_wind_speed_m_s, max_missing_percent)
+    given_step = _checked_direction_step(direction_step_deg)
     paths = [Path(paths)] if isinstance(paths, (str, Path)) else [Path(p) for p in paths]
     if not paths:
         raise InputError("hourly weather: no file given")
@@ -595,13 +615,22 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
 
     observed = speed[v]
     used_speed = np.maximum(observed, min_wind_speed_m_s)
-    weather = HourlyWeather(times_s, direction[v].astype(float), used_speed, stability_index,
-                            temperature[v].astype(float), float(anemometer_height_m))
+    used_direction = direction[v].astype(float)
+    if given_step is None:
+        step = _infer_direction_step(used_direction)
+        spread = step if step > _EXACT_STEP_DEG else 0.0
+    else:
+        step = spread = given_step
+        if step > 0 and not _all_multiples(used_direction, step):
+            warnings.append(f"{names}: direction_step_deg = {step:g} is given, but not every "
+                            f"direction is a multiple of {step:g} deg; each hour is still "
+                            "spread over +-half the step around its direction")
+    weather = HourlyWeather(times_s, used_direction, used_speed, stability_index,
+                            temperature[v].astype(float), float(anemometer_height_m), spread)
 
     # summary
     n_calm = int(calm[v].sum())
     light = (~calm[v]) & (observed < min_wind_speed_m_s)
-    step = direction_step_deg(weather.direction_deg)
     by_point = hours_by_sector(weather.direction_deg, 16, step)
     prevailing = float(np.argmax(by_point) * 22.5)
     share = np.bincount(stability_index, minlength=len(STABILITY_CLASSES)) / n_used
@@ -636,6 +665,8 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
         "prevailing_from_deg": prevailing,
         "prevailing_from_words": compass_words(prevailing),
         "direction_step_deg": step,
+        "direction_spread_deg": spread,
+        "direction_rule": _direction_rule(step, spread, given_step is not None),
         "stability_share": {c: float(share[i]) for i, c in enumerate(STABILITY_CLASSES)},
         "stability_method": STABILITY_GIVEN if given_class else STABILITY_TURNER,
         "temperature_c": temperature_summary,
@@ -666,6 +697,47 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
                         f"{observed.max():g} is above {_FAST_SPEED_M_S:g} m/s; check the unit "
                         "(knots?)")
     return weather, summary, warnings
+
+
+def _checked_direction_step(direction_step_deg) -> float | None:
+    """The given direction step as a float [deg], or None to infer it; raise outside 0..45."""
+    if direction_step_deg is None:
+        return None
+    try:
+        step = float(direction_step_deg)
+    except (TypeError, ValueError):
+        step = float("nan")
+    if isinstance(direction_step_deg, bool) or not 0.0 <= step <= _MAX_DIRECTION_STEP_DEG:
+        raise InputError(f"hourly weather: weather.direction_step_deg must be within "
+                         f"0..{_MAX_DIRECTION_STEP_DEG:g} deg (the step the directions were "
+                         f"reported in; 0 = exact, leave it out to infer it), "
+                         f"got {direction_step_deg!r}")
+    return step
+
+
+def _all_multiples(direction_deg: np.ndarray, step_deg: float) -> bool:
+    ratio = np.asarray(direction_deg, dtype=float) / step_deg
+    return bool(np.allclose(ratio, np.round(ratio), atol=1e-6))
+
+
+def _infer_direction_step(direction_deg: np.ndarray) -> float:
+    """:func:`direction_step_deg` of the hours used, callable where a keyword of that name
+    hides the function (``read_hourly_record``)."""
+    return direction_step_deg(direction_deg)
+
+
+def _direction_rule(step_deg: float, spread_deg: float, given: bool) -> str:
+    """The direction-step rule of a record, in words, for the summary."""
+    origin = "given" if given else "inferred from the directions"
+    if spread_deg > 0:
+        return (f"each hour's plume is spread evenly over the {spread_deg:g}-degree interval "
+                f"its direction was reported in (step {origin})")
+    if step_deg > 0:
+        return (f"directions are reported in {step_deg:g}-degree steps ({origin}), fine enough "
+                "to be used as exact: each hour's plume follows its reported direction")
+    why = "a step of 0 is given" if given else "the directions show no reporting step"
+    return (f"directions are used as exact ({why}): each hour's plume follows its reported "
+            "direction")
 
 
 def _check_options(latitude_deg, longitude_deg, anemometer_height_m, utc_offset_h,

@@ -31,8 +31,8 @@ from siting.outputs import SITE_COLUMNS
 from siting.resources import config_dir, demo_dir
 
 OUTPUTS = ["concentration.tif", "deposition.tif", "deposition_in_combination.tif", "sites.csv",
-           "sites.gpkg", "receptors.csv", "sources.csv", "run.json", "report.html", "map.html",
-           "inputs"]  # inputs/: the copies that make the folder a complete package
+           "sites.gpkg", "receptors.csv", "sources.csv", "sensitivity.csv", "run.json", "report.html",
+           "map.html", "inputs"]  # inputs/: the copies that make the folder a complete package
 
 # CSV tables are written with float_format "%.6g" (siting/outputs.py): 6 significant figures,
 # so a value read back is within 5e-6 relative of the one computed.

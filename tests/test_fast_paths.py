@@ -7,6 +7,7 @@ sources (a plain point, a fan outlet with momentum rise, a volume source), 2,000
 50-3,000 m from the origin, a random 12-sector table and a random 200-hour record.
 """
 
+import dataclasses
 import importlib.util
 from pathlib import Path
 
@@ -136,6 +137,22 @@ def test_hourly_equals_reference_up_to_the_lateral_cutoff(briggs_rural, rural_ex
     ref, centreline = reference.reference_hourly(rx, ry, elements, weather, settings, emissions,
                                                  hour_weights, return_centreline=True)
     assert (ref > 0).mean() > 0.9  # most receptors are reached, so the check has teeth
+    _assert_within_cutoff(fast, ref, centreline)
+
+
+def test_hourly_spread_over_the_direction_step_equals_reference(briggs_rural, rural_exponents):
+    """The same record in 10 deg steps, each hour spread over its interval: engine = reference."""
+    rx, ry = _receptors(5)
+    record, settings = _record(6), _settings(briggs_rural, rural_exponents)
+    weather = dataclasses.replace(record, direction_step_deg=10.0)
+    elements, emissions = [POINT, FAN], EMISSION_G_S[:2]
+    fast = _fast_hourly(rx, ry, elements, emissions, weather, settings)
+    ref, centreline = reference.reference_hourly(rx, ry, elements, weather, settings, emissions,
+                                                 return_centreline=True)
+    unspread = reference.reference_hourly(rx, ry, elements, record, settings, emissions)
+    assert np.abs(ref / np.maximum(unspread, 1e-300) - 1.0).max() > 0.1  # the spread matters
+    # cross-check, same formula (normal CDF in the engine, erf here): the window widened by
+    # half the step keeps the cut-off below exp(-18) of the centre line, as without spreading
     _assert_within_cutoff(fast, ref, centreline)
 
 

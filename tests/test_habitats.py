@@ -108,3 +108,80 @@ def test_common_vector_formats_are_read(tmp_path, tables, suffix):
     again, _ = read_habitats(_section(path, **fields), "EPSG:32632", tables)
     assert list(again["name"]) == list(sites["name"])
     assert np.allclose(again["area_ha"], sites["area_ha"], rtol=1e-6)
+
+
+def _layer(tmp_path, names, habitats, **fields):
+    polys = [shapely.box(500000 + 200 * i, 5800000, 500100 + 200 * i, 5800100)
+             for i in range(len(names))]
+    gpd.GeoDataFrame({"name": names, "habitat": habitats, "designation": ["SSSI"] * len(names),
+                      **fields}, geometry=polys, crs="EPSG:32632").to_file(tmp_path / "h.gpkg")
+    return tmp_path / "h.gpkg"
+
+
+def test_woodland_gets_1_ug_m3_unless_lichens_are_shown_absent(tmp_path, tables):
+    """A broadleaved wood (habitat type not flagged for lichens) gets 1 ug/m3 by default; 3 ug/m3
+    only where the layer's field or the scenario says lichens and bryophytes are absent
+    (UNECE2007 critical levels 1 and 3 ug/m3, Cape2009, confirmed)."""
+    path = _layer(tmp_path, ["Wood A", "Wood B", "Wood C", "Wood D"],
+                  ["broadleaved_woodland"] * 4, lichens=["absent", "present", None, None])
+    sites, warnings = read_habitats(
+        _section(path, lichens_bryophytes_field="lichens",
+                 lichens_bryophytes_absent=["wood d", "Nowhere Fen"]), "EPSG:32632", tables)
+    by_name = sites.set_index("name")
+    assert list(by_name["critical_level_ug_m3"]) == [3.0, 1.0, 1.0, 3.0]
+    assert "absent" in by_name.loc["Wood A", "critical_level_basis"]
+    assert "not shown absent" in by_name.loc["Wood C", "critical_level_basis"]
+    assert "scenario" in by_name.loc["Wood D", "critical_level_basis"]
+    assert any("nowhere fen" in w for w in warnings)  # a name matching no site is said
+    default, _ = read_habitats(_section(path), "EPSG:32632", tables)
+    assert (default["critical_level_ug_m3"] == 1.0).all()
+
+
+def test_bad_lichens_value_is_an_input_error(tmp_path, tables):
+    """A value that says neither present nor absent is refused, naming the field."""
+    path = _layer(tmp_path, ["Wood A"], ["beech_woodland"], lichens=["maybe"])
+    with pytest.raises(InputError, match="lichens.*present"):
+        read_habitats(_section(path, lichens_bryophytes_field="lichens"), "EPSG:32632", tables)
+
+
+def test_critical_load_review_2022_by_default_and_2011_on_request(tmp_path, tables):
+    """Dry heath: 2022 review 5-15 (Bobbink2022, from memory) by default, 2011 review 10-20
+    (BobbinkHettelingh2011, confirmed range) when asked; lower end used."""
+    path = _layer(tmp_path, ["Heath"], ["dry_heath"])
+    now, _ = read_habitats(_section(path), "EPSG:32632", tables)
+    old, _ = read_habitats(_section(path), "EPSG:32632", tables, "lower", "2011")
+    assert now.iloc[0]["critical_load_used_kg_n_ha_yr"] == 5.0  # Bobbink2022, from memory
+    assert now.iloc[0]["critical_load_review"] == "2022"
+    assert old.iloc[0]["critical_load_used_kg_n_ha_yr"] == 10.0  # BobbinkHettelingh2011
+    assert old.iloc[0]["critical_load_review"] == "2011"
+    assert "Bobbink2022" in now.iloc[0]["critical_load_source"]
+
+
+def test_older_table_without_2022_values_falls_back_with_a_warning(tmp_path):
+    """A user table without the 2022 keys is read; the 2011 range is used and said so."""
+    import shutil
+
+    from siting.resources import config_dir
+
+    folder = tmp_path / "cfg"
+    shutil.copytree(config_dir(), folder)
+    path = folder / "critical_loads.toml"
+    text = "\n".join(line for line in path.read_text().splitlines()
+                     if not line.startswith(("critical_load_2022", "source_2022", "eunis_2022")))
+    path.write_text(text)
+    old_tables = load_tables(folder)
+    layer = _layer(tmp_path, ["Heath"], ["dry_heath"])
+    sites, warnings = read_habitats(_section(layer), "EPSG:32632", old_tables)
+    assert sites.iloc[0]["critical_load_used_kg_n_ha_yr"] == 10.0
+    assert sites.iloc[0]["critical_load_review"] == "2011"
+    assert any("no 2022 range" in w for w in warnings)
+    # half a 2022 range is refused, naming the row
+    text2 = path.read_text().replace('lichens_bryophytes = true\nsource = "BobbinkHettelingh2011 '
+                                     'table of empirical critical loads, F4.2',
+                                     'lichens_bryophytes = true\ncritical_load_2022_min_kg_n_ha_yr'
+                                     ' = 5.0\nsource = "BobbinkHettelingh2011 table of empirical '
+                                     'critical loads, F4.2', 1)
+    assert text2 != path.read_text()
+    path.write_text(text2)
+    with pytest.raises(InputError, match="dry_heath.*missing key"):
+        load_tables(folder)

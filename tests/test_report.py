@@ -237,10 +237,11 @@ def test_sections_cautions_and_print_css(report_html):
         "1. Summary",
         "2. Inputs",
         "3. Method and assumptions",
-        "4. Figures",
-        "5. Warnings",
-        "6. Cautions",
-        "7. Run record",
+        "4. Cautious choices and sensitivity",
+        "5. Figures",
+        "6. Warnings",
+        "7. Cautions",
+        "8. Run record",
     ):
         assert f">{heading}</h2>" in report_html
     assert report_html.index('class="caution-line"') < report_html.index("<h1>")

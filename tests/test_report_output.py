@@ -10,7 +10,8 @@ import pytest
 from siting.cli import main
 from siting.presentation import format_for_column, format_percent, is_missing
 
-SECTION_ORDER = ["summary", "inputs", "method", "figures", "warnings", "cautions", "run-record"]
+SECTION_ORDER = ["summary", "inputs", "method", "cautious", "figures", "warnings", "cautions",
+                 "run-record"]
 
 #: Cells of a summary row after Site | Verdict | Habitat, by the header of their column
 #: (label + unit as the page shows them) -> the sites.csv column they show.

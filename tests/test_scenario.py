@@ -138,6 +138,20 @@ TOML_CASES = [
     ("name_field not in the layer", 'name_field = "name"', 'name_field = "site_name"',
      InputError, ["habitats.name_field", '"site_name"', "habitats.gpkg",
                   'did you mean "name"?']),
+    ("a reduction basis without the reduction it supports", "treated_air_fraction = 1.0",
+     'treated_air_fraction = 1.0\nreduction_basis = "certificate"',
+     InputError, ['source "H1"', "reduction_basis", "reduction_percent"]),
+    ("building width without its height", "building_height_m = 6.0 ", "# ",
+     InputError, ['source "H1"', "building_width_m needs building_height_m"]),
+    ("unknown wind rule", 'land_type = "rural"',
+     'land_type = "rural"\nwind_below_anemometer = "linear"',
+     InputError, ["weather", "wind_below_anemometer", "power_law"]),
+    ("unknown critical load review", "[weather]\n",
+     '[assessment]\ncritical_load_review = "2019"\n\n[weather]\n',
+     InputError, ["assessment", "critical_load_review", "2022"]),
+    ("direction step with a frequency table", 'land_type = "rural"',
+     'land_type = "rural"\ndirection_step_deg = 10.0',
+     InputError, ["weather.direction_step_deg", "hourly"]),
 ]
 
 

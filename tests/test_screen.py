@@ -162,3 +162,68 @@ def test_small_site_between_grid_nodes_is_seen(tmp_path):
     result = screen(_write_case(tmp_path))
     site = result.sites.iloc[0]
     assert site["pc_conc_max_ug_m3"] > 0.4  # ~0.5 ug/m3 at 490-510 m (hand value above)
+
+
+def _stack(height_m, building=""):
+    return f"""
+[[source]]
+id = "S"
+kind = "point"
+x = {X0 - 300.0}
+y = {Y0}
+height_m = {height_m}
+diameter_m = 1.0
+exit_velocity_m_s = 12.0
+{building}
+nh3_kg_per_year = 500.0
+"""
+
+
+def test_roof_outlet_in_the_wake_gets_no_rise_a_clear_stack_does(tmp_path):
+    """Plume rise only at or above the GEP height Hb + 1.5 min(Hb, W) (EPA1985; 40 CFR
+    51.100(ii), confirmed in a secondary copy): a 9 m outlet beside a 6 m house (wake height
+    15 m) gets none and reads like a jet-less outlet; a 20 m stack clear of it gets rise."""
+    from siting.screen import outlet_rise
+    from siting.scenario import load_scenario
+
+    rows = {}
+    for name, height, building in (("roof", 9.0, "building_height_m = 6.0"),
+                                   ("none", 9.0, ""),
+                                   ("clear", 20.0, "building_height_m = 6.0\nbuilding_width_m = 30.0"),
+                                   ("clear_no_jet", 20.0, "building_height_m = 6.0\nbuilding_width_m = 30.0")):
+        folder = tmp_path / name
+        folder.mkdir()
+        extra = _stack(height, building)
+        if name == "clear_no_jet":
+            extra = extra.replace("exit_velocity_m_s = 12.0\n", "")
+        path = _write_case(folder, extra_source=extra)
+        scen = load_scenario(path)
+        rows[name] = (outlet_rise(scen.sources[1]), screen(path, sensitivity=False))
+    (roof_rise, roof_basis), roof = rows["roof"]
+    assert not roof_rise and "below the wake height 15 m" in roof_basis
+    (none_rise, none_basis), _ = rows["none"]
+    assert not none_rise and "no building dimensions" in none_basis
+    (clear_rise, clear_basis), clear = rows["clear"]
+    assert clear_rise and "momentum rise" in clear_basis
+    assert roof.sources.set_index("source_id").loc["S", "plume_rise"] == "no"
+    assert clear.sources.set_index("source_id").loc["S", "plume_rise"] == "yes"
+    # the clear stack with its jet reads lower nearby than the same stack without one
+    _, no_jet = rows["clear_no_jet"]
+    site = clear.sites.iloc[0]["pc_conc_max_ug_m3"]
+    assert site < no_jet.sites.iloc[0]["pc_conc_max_ug_m3"]
+
+
+def test_depletion_on_shows_the_undepleted_figures_beside(tmp_path):
+    """With depletion switched on the sites carry the undepleted PC too, and it is larger
+    (Chamberlain source depletion only removes mass; conservation)."""
+    path = _write_case(tmp_path)
+    path.write_text(path.read_text().replace("plume_depletion = false", "plume_depletion = true"))
+    result = screen(path, sensitivity=False)
+    site = result.sites.iloc[0]
+    assert site["pc_conc_max_undepleted_ug_m3"] > site["pc_conc_max_ug_m3"]
+    assert site["pc_pct_load_undepleted"] > site["pc_pct_load"]
+    (tmp_path / "off").mkdir()
+    off = screen(_write_case(tmp_path / "off"), sensitivity=False)
+    assert "pc_conc_max_undepleted_ug_m3" not in off.sites.columns
+    assert_allclose(site["pc_conc_max_undepleted_ug_m3"], off.sites.iloc[0]["pc_conc_max_ug_m3"],
+                    rtol=1e-9)  # the twin run is the run without depletion

@@ -293,3 +293,50 @@ def test_demo_hourly_record_reads_as_described():
     table = frequency_table_from_hourly(weather)
     assert table["hours"].sum() == weather.n_hours
     assert isinstance(table, pd.DataFrame)
+
+
+def test_direction_step_inferred_from_a_ten_degree_record(tmp_path):
+    """Directions all multiples of 10 (not of 22.5): step 10 inferred, the plume spread over it."""
+    rows = [f"{_stamp(h)},{(h * 70) % 360 or 10},4.0,D" for h in range(24)]
+    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    # by definition of direction_step_deg(): 70 h mod 360 are multiples of 10, 70 is not of 22.5
+    assert summary["direction_step_deg"] == 10.0
+    assert summary["direction_spread_deg"] == 10.0 and weather.direction_step_deg == 10.0
+    assert summary["direction_rule"].startswith(
+        "each hour's plume is spread evenly over the 10-degree interval its direction was "
+        "reported in")
+    json.dumps(summary)
+
+
+def test_fine_record_is_used_as_exact(tmp_path):
+    """Whole-degree directions: step 1 inferred, not spread (documented rule: <= 1 deg is exact)."""
+    rows = [f"{_stamp(h)},{200 + h},4.0,D" for h in range(24)]
+    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    assert summary["direction_step_deg"] == 1.0  # by definition of direction_step_deg()
+    assert summary["direction_spread_deg"] == 0.0 and weather.direction_step_deg == 0.0
+    rows = [f"{_stamp(h)},{200.3 + h},4.0,D" for h in range(24)]  # no step at all
+    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    assert summary["direction_step_deg"] == 0.0 and weather.direction_step_deg == 0.0
+
+
+def test_given_direction_step_is_honoured(tmp_path):
+    """A given step overrides the inferred one, 0 included; one the directions miss warns."""
+    rows = [f"{_stamp(h)},{(h * 70) % 360 or 10},4.0,D" for h in range(24)]
+    path = _hourly(tmp_path, rows)
+    weather, summary, warnings = read_hourly_record(path, LAT, LON, direction_step_deg=0)
+    assert weather.direction_step_deg == 0.0 and summary["direction_spread_deg"] == 0.0
+    assert "used as exact" in summary["direction_rule"]
+    assert not any("direction_step_deg" in w for w in warnings)
+    weather, summary, warnings = read_hourly_record(path, LAT, LON, direction_step_deg=5.0)
+    assert weather.direction_step_deg == 5.0 and summary["direction_step_deg"] == 5.0
+    assert "5-degree interval" in summary["direction_rule"]
+    assert not any("direction_step_deg" in w for w in warnings)  # 10 deg data are in 5 deg steps
+    _, _, warnings = read_hourly_record(path, LAT, LON, direction_step_deg=20.0)
+    assert any("not every direction is a multiple of 20" in w for w in warnings)
+
+
+@pytest.mark.parametrize("step", [-1.0, 45.5, float("nan"), "ten"])
+def test_bad_direction_step_is_refused(tmp_path, step):
+    """A step outside 0..45 deg (or not a number) is an InputError naming the scenario key."""
+    with pytest.raises(InputError, match=r"weather\.direction_step_deg must be within 0\.\.45"):
+        read_hourly_record(_hourly(tmp_path, _day(3)), LAT, LON, direction_step_deg=step)
