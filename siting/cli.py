@@ -44,6 +44,14 @@ def _print_summary(result, out_dir: Path, quiet: bool) -> None:
     console.print(table)
     for message in result.warnings:
         console.print(f"[yellow]warning:[/] {message}", markup=True)
+    summary = result.sensitivity_summary
+    if summary is not None and len(summary) and summary["verdict_flips"].any():
+        from rich.markup import escape
+
+        for row in summary[summary["verdict_flips"]].itertuples():
+            console.print(f"[yellow]sensitivity:[/] the verdict for {escape(str(row.site))} "
+                          f"flips under {escape(str(row.flipping_variants))} (report section 4, "
+                          "sensitivity.csv)", markup=True)
     console.print(f"Outputs in {out_dir} (report.html, map.html, sites.csv, GeoTIFFs).")
     console.print("Screening estimate only; local rules and the competent authority decide.",
                   style="dim")

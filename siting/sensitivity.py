@@ -56,8 +56,8 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
     add("central", sites)
     add("critical load lower end", sites, "critical_load_min_kg_n_ha_yr")
     add("critical load upper end", sites, "critical_load_max_kg_n_ha_yr")
-    add("critical level 1 ug/m3", sites, level=1.0)
-    add("critical level 3 ug/m3", sites, level=3.0)
+    add("critical level 1 µg/m³", sites, level=1.0)
+    add("critical level 3 µg/m³", sites, level=3.0)
     tables = result.tables
     for end, label in (("deposition_velocity_min_m_s", "deposition velocity low"),
                        ("deposition_velocity_max_m_s", "deposition velocity high")):

@@ -114,8 +114,8 @@ def test_sensitivity_looks_both_ways(clean):
     long = result.sensitivity
     variants = set(long["variant"])
     assert {"central", "deposition velocity low", "deposition velocity high",
-            "critical load lower end", "critical load upper end", "critical level 1 ug/m3",
-            "critical level 3 ug/m3", "plume depletion on",
+            "critical load lower end", "critical load upper end", "critical level 1 µg/m³",
+            "critical level 3 µg/m³", "plume depletion on",
             "wind below the anemometer: unchanged", "emission factors low (-30 %)",
             "emission factors high (+30 %)"} <= variants
     summary = result.sensitivity_summary
