@@ -16,6 +16,13 @@ from pathlib import Path
 
 from siting.errors import SitingError
 
+
+def _plain(text) -> str:
+    """User text (site names, messages) shown as itself in rich output, never as markup."""
+    from rich.markup import escape
+
+    return escape(str(text))
+
 EXIT_OK, EXIT_EXCEEDS, EXIT_BAD_INPUT = 0, 1, 2
 
 
@@ -37,20 +44,18 @@ def _print_summary(result, out_dir: Path, quiet: bool) -> None:
         def fmt(v, spec=".3g"):
             return "-" if v != v else format(v, spec)
         style = {"above threshold": "bold red", "below threshold": "green"}.get(row.verdict, "yellow")
-        table.add_row(str(row.name), str(row.tier),
+        table.add_row(_plain(row.name), str(row.tier),
                       fmt(row.pc_conc_max_ug_m3), fmt(row.pc_pct_level, ".1f"),
                       fmt(row.pc_dep_max_kg_n_ha_yr), fmt(row.pc_pct_load, ".1f"),
                       f"{row.threshold_percent:g}", f"[{style}]{row.verdict}[/]")
     console.print(table)
     for message in result.warnings:
-        console.print(f"[yellow]warning:[/] {message}", markup=True)
+        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True)
     summary = result.sensitivity_summary
     if summary is not None and len(summary) and summary["verdict_flips"].any():
-        from rich.markup import escape
-
         for row in summary[summary["verdict_flips"]].itertuples():
-            console.print(f"[yellow]sensitivity:[/] the verdict for {escape(str(row.site))} "
-                          f"flips under {escape(str(row.flipping_variants))} (report section 4, "
+            console.print(f"[yellow]sensitivity:[/] the verdict for {_plain(row.site)} "
+                          f"flips under {_plain(row.flipping_variants)} (report section 4, "
                           "sensitivity.csv)", markup=True)
     console.print(f"Outputs in {out_dir} (report.html, map.html, sites.csv, GeoTIFFs).")
     console.print("Screening estimate only; local rules and the competent authority decide.",
@@ -127,7 +132,7 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path,
                                      "(min / mean / max)")
     console.print(table)
     for message in warnings_:
-        console.print(f"[yellow]warning:[/] {message}", markup=True, soft_wrap=False)
+        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True, soft_wrap=False)
     console.print(f"Outputs in {out_dir} (frequency_table.csv, wind_rose.png, "
                   "stability_by_speed.png, summary.json).")
 
@@ -193,7 +198,8 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
                          no_wrap=col == "limiting site")
     for row in result.positions.head(top).itertuples():
         places = getattr(row, "max_places_unabated", float("nan"))
-        table.add_row(str(row.Index + 1), f"{row.x:.0f}", f"{row.y:.0f}", str(row.limiting_site),
+        table.add_row(str(row.Index + 1), f"{row.x:.0f}", f"{row.y:.0f}",
+                      _plain(row.limiting_site),
                       f"{row.worst_pct_load:.1f}", f"{row.worst_pct_level:.1f}",
                       f"{row.limiting_share_of_threshold:.2f}",
                       f"{row.required_reduction_percent:.0f}",
@@ -203,7 +209,7 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
     console.print(f"{passing:,} of {len(result.positions):,} positions pass every site's "
                   "threshold with the house as described.")
     for message in result.warnings:
-        console.print(f"[yellow]warning:[/] {message}", markup=True)
+        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True)
     console.print(f"Outputs in {out_dir} (map.html, positions.csv, suitability.tif).")
     console.print("Screening estimate only; local rules and the competent authority decide.",
                   style="dim")
@@ -243,13 +249,13 @@ def _print_verify_summary(result, out_dir: Path) -> None:
         for f in result.findings:
             colour = {"high": "red", "medium": "yellow"}.get(f.severity, "")
             table.add_row(f"[{colour}]{f.severity}[/]" if colour else f.severity, f.code,
-                          f.subject, f.message)
+                          _plain(f.subject), _plain(f.message))
         console.print(table)
     flips = result.sensitivity_summary
     flips = flips[flips["verdict_flips"]] if len(flips) else flips
     for row in flips.itertuples():
-        console.print(f"[yellow]verdict flips[/] at {row.site}: {row.flipping_variants}",
-                      markup=True)
+        console.print(f"[yellow]verdict flips[/] at {_plain(row.site)}: "
+                      f"{_plain(row.flipping_variants)}", markup=True)
     console.print(f"Outputs in {out_dir} (verify.html, findings.json).")
 
 
@@ -308,12 +314,12 @@ def _print_region_summary(result, out_dir: Path) -> None:
             top = (f"{first.loc[row.site_id, 'farm_id']} "
                    f"({first.loc[row.site_id, 'share_of_site_total_percent']:.0f} %)"
                    if row.site_id in first.index else "-")
-            table.add_row(str(row.name), str(row.tier), f"{row.pc_dep_max_kg_n_ha_yr:.3g}",
+            table.add_row(_plain(row.name), str(row.tier), f"{row.pc_dep_max_kg_n_ha_yr:.3g}",
                           f"{row.pc_pct_load:.1f}", f"{row.pc_pct_level:.1f}",
                           f"[{style}]{row.verdict}[/]", top)
         console.print(table)
     for message in result.warnings:
-        console.print(f"[yellow]warning:[/] {message}", markup=True)
+        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True)
     console.print(f"Outputs in {out_dir} (deposition.tif, concentration.tif, sites.csv, "
                   "contributors.csv, farms.csv, run.json).")
     console.print("Screening estimate only; local rules and the competent authority decide.",

@@ -355,3 +355,22 @@ def test_python_m_siting_version(tmp_path):
                           capture_output=True, text=True, timeout=120)
     assert done.returncode == 0, done.stderr
     assert done.stdout.strip() == f"siting {siting.__version__}"
+
+
+def test_user_text_in_the_terminal_is_shown_as_itself(tmp_path, capsys):
+    """A stated reduction basis with rich markup and HTML is printed literally by verify and
+    escaped in report.html (user text is never markup or code; common practice, no source)."""
+    folder = tmp_path / "demo"
+    shutil.copytree(demo_dir(), folder)
+    scenario = folder / "scenario.toml"
+    hostile = "<b>cert</b> [bold]x[/bold]"
+    scenario.write_text(scenario.read_text().replace(
+        "treated_air_fraction = 1.0",
+        f'treated_air_fraction = 1.0\nreduction_percent = 95\nreduction_basis = "{hostile}"', 1)
+        .replace("spacing_m = 25.0", "spacing_m = 100.0", 1))
+    assert main(["screen", str(scenario), "--out", str(tmp_path / "out"), "--quiet"]) == 0
+    assert "<b>cert</b>" not in (tmp_path / "out" / "report.html").read_text()
+    capsys.readouterr()
+    main(["verify", str(tmp_path / "out"), "--out", str(tmp_path / "v")])
+    printed = capsys.readouterr().out
+    assert "[bold]" in printed  # shown literally; as markup rich would have swallowed it
