@@ -34,13 +34,12 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import numpy as np
-
 from scipy.special import erf
 
 from siting.plume import (
     momentum_plume_rise_m,
-    stack_tip_downwash_height_m,
     plume_concentration_g_m3,
+    stack_tip_downwash_height_m,
     vertical_term,
     virtual_distance_m,
     wind_speed_at_height_m_s,

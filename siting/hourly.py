@@ -26,7 +26,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-
 from scipy.special import ndtr
 
 from siting.deposition import source_depletion_fraction

@@ -35,8 +35,8 @@ from siting.placement import (
     site_maxima,
 )
 from siting.scenario import Scenario, load_scenario
-from siting.tables import default_reduction_percent
 from siting.screen import BOUNDARY_SPACING_M, Prepared, _source_elements, prepare
+from siting.tables import default_reduction_percent
 
 MAX_CANDIDATES = 200_000
 

@@ -11,7 +11,6 @@ from datetime import datetime, timezone
 from pathlib import Path
 
 from siting.grids import write_geotiff
-from siting.tables import default_reduction_percent
 from siting.outputs import (
     check_output_dir,
     package_inputs,
@@ -19,6 +18,7 @@ from siting.outputs import (
     staged_folder,
     write_csv,
 )
+from siting.tables import default_reduction_percent
 
 #: How many of the best positions the map marks.
 TOP_POSITIONS = 10

@@ -27,13 +27,13 @@ from siting.errors import InputError
 from siting.grids import GridSpec, grid_around
 from siting.habitats import read_habitats, site_boundary_points, site_sample_points
 from siting.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
-from siting.plume import gep_stack_height_m
 from siting.longterm import (
     DispersionSettings,
     ReleaseElement,
     rectangle_elements,
     source_concentration_g_m3_per_g_s,
 )
+from siting.plume import gep_stack_height_m
 from siting.scenario import ROLES, Scenario, SourceSpec, load_scenario
 from siting.tables import Tables, default_reduction_percent, load_tables
 from siting.weather import read_frequency_table

@@ -29,11 +29,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from siting import assess
-from siting.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
-from siting.tables import default_reduction_percent
 from siting.errors import InputError, InputFileError, SitingError
 from siting.outputs import sha256_of
+from siting.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
+from siting.tables import default_reduction_percent
 
 #: Site figures compared between the submission and the re-run.
 SITE_FIGURES = [

@@ -12,9 +12,9 @@ from numpy.testing import assert_allclose
 from siting.plume import (
     gep_stack_height_m,
     momentum_plume_rise_m,
-    stack_tip_downwash_height_m,
     plume_concentration_g_m3,
     sector_average_concentration_g_m3,
+    stack_tip_downwash_height_m,
     vertical_term,
     virtual_distance_m,
     wind_speed_at_height_m_s,
