@@ -59,12 +59,21 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
     add("critical level 1 µg/m³", sites, level=1.0)
     add("critical level 3 µg/m³", sites, level=3.0)
     tables = result.tables
+    depleted = scenario.deposition.plume_depletion
     for end, label in (("deposition_velocity_min_m_s", "deposition velocity low"),
                        ("deposition_velocity_max_m_s", "deposition velocity high")):
         velocities = {k: {**v, "deposition_velocity_m_s": v[end]}
                       for k, v in tables.deposition_velocities.items()}
-        rerun(label, tables=dataclasses.replace(tables, deposition_velocities=velocities))
-    depleted = scenario.deposition.plume_depletion
+        if depleted:  # the velocity also depletes the plume: a run of its own
+            rerun(label, tables=dataclasses.replace(tables, deposition_velocities=velocities))
+            continue
+        # without depletion the flux is v_d x C at every point of a site, whose points all
+        # take the site's own velocity: its deposition scales by the ratio of the velocities
+        ratio = (sites["land_cover"].map(lambda c: velocities[c]["deposition_velocity_m_s"])
+                 .to_numpy(float) / sites["deposition_velocity_m_s"].to_numpy(float))
+        scaled = sites.copy()
+        scaled["pc_dep_max_kg_n_ha_yr"] = sites["pc_dep_max_kg_n_ha_yr"].to_numpy() * ratio
+        add(label, scaled)
     rerun("plume depletion " + ("off" if depleted else "on"),
           section("deposition", plume_depletion=not depleted))
     other_wind = "unchanged" if scenario.weather.wind_below_anemometer == "power_law" else "power_law"
