@@ -32,6 +32,7 @@ import pandas as pd
 from siting.errors import InputError, InputFileError, SitingError
 from siting.outputs import sha256_of
 from siting.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
+from siting.screen import outlet_rise
 from siting.tables import default_reduction_percent
 
 #: Site figures compared between the submission and the re-run.
@@ -335,6 +336,15 @@ def review(sub: Submission, result, this_tables, reference_habitats: Path | None
                 f"release height {src.height_m:g} m is unusual for a livestock house "
                 f"({lo:g}-{hi:g} m; common practice, no source)",
                 {"height_m": src.height_m, "usual_range_m": f"{lo:g}-{hi:g}"}))
+        rise, rise_basis = outlet_rise(src)
+        if rise:
+            findings.append(Finding(
+                "PLUME_RISE_CLAIMED", "medium", subject,
+                f"the outlet gets momentum plume rise as clear of its building's wake "
+                f"({rise_basis}); rise lowers nearby figures: check the building dimensions",
+                {"height_m": src.height_m, "building_height_m": src.building_height_m,
+                 "building_width_m": src.building_width_m,
+                 "source": "US EPA 1985 good-engineering-practice stack height, Hb + 1.5 L"}))
         if src.exit_velocity_m_s and src.exit_velocity_m_s > EXIT_VELOCITY_MAX_M_S:
             findings.append(Finding(
                 "EXIT_VELOCITY_UNUSUAL", "medium", subject,

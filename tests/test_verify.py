@@ -217,3 +217,15 @@ def test_package_stands_alone_with_inputs_from_elsewhere(tmp_path):
     result = verify(moved)
     assert result.consistent, [f.code for f in result.findings if f.severity == "high"]
     assert (moved / "inputs" / "_external" / "weather" / "weather_table.csv").is_file()
+
+
+def test_plume_rise_is_a_finding_to_check(tmp_path):
+    """An outlet given building dimensions that put it clear of the wake (GEP height, EPA1985)
+    gets rise, which lowers nearby figures: verify asks for the dimensions to be checked."""
+    out = _screen(tmp_path, edit=lambda t: t.replace(
+        "building_height_m = 6.0 ", "building_height_m = 2.0 ", 1).replace(
+        "building_width_m = 25.0 ", "building_width_m = 2.0 ", 1))
+    result = verify(out)
+    rise = [f for f in result.findings if f.code == "PLUME_RISE_CLAIMED"]
+    assert [f.subject for f in rise] == ['source "H1"']
+    assert "wake height 5 m" in rise[0].message  # 2 + 1.5 x min(2, 2)
