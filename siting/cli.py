@@ -64,13 +64,13 @@ def _print_summary(result, out_dir: Path, quiet: bool) -> None:
 
 def _run_screen(scenario_path: Path, out: Path | None, overwrite: bool, fail_on_exceed: bool,
                 quiet: bool) -> int:
-    from siting.outputs import check_output_dir, write_outputs
+    from siting.outputs import check_output_dir, input_paths, write_outputs
     from siting.scenario import load_scenario
     from siting.screen import screen
 
     scenario = load_scenario(scenario_path)
     out_dir = out if out is not None else Path("maps") / scenario.name
-    check_output_dir(out_dir.resolve(), overwrite)
+    check_output_dir(out_dir.resolve(), overwrite, input_paths(scenario))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         result = screen(scenario, progress=not quiet and sys.stderr.isatty())
@@ -149,8 +149,8 @@ def cmd_weather(args) -> int:
     if not 4 <= args.sectors <= 360:
         raise InputError(f"--sectors must be within 4..360, got {args.sectors}")
     out_dir = Path(args.out).resolve()
-    check_output_dir(out_dir, args.overwrite)
     paths = [Path(p) for p in args.hourly]
+    check_output_dir(out_dir, args.overwrite, paths)
     weather, summary, warnings_ = read_hourly_record(
         paths, args.lat, args.lon, anemometer_height_m=args.anemometer_height,
         utc_offset_h=args.utc_offset, calm_threshold_m_s=args.calm_threshold,
@@ -164,7 +164,7 @@ def cmd_weather(args) -> int:
 
 def cmd_place(args) -> int:
     from siting.errors import InputError
-    from siting.outputs import check_output_dir
+    from siting.outputs import check_output_dir, input_paths
     from siting.place import place
     from siting.place_outputs import write_place_outputs
     from siting.scenario import load_scenario
@@ -175,7 +175,7 @@ def cmd_place(args) -> int:
         raise InputError(f"--top must be >= 1, got {args.top}")
     scenario = load_scenario(args.scenario)
     out_dir = Path(args.out) if args.out else Path("maps") / f"{scenario.name}_place_{args.house}"
-    check_output_dir(out_dir.resolve(), args.overwrite)
+    check_output_dir(out_dir.resolve(), args.overwrite, input_paths(scenario, holding=True))
     result = place(scenario, args.house, spacing_m=args.spacing,
                    in_combination=args.in_combination)
     written = write_place_outputs(result, out_dir, overwrite=args.overwrite, top=args.top)
@@ -220,7 +220,10 @@ def cmd_verify(args) -> int:
     from siting.verify import verify, write_verify_outputs
 
     out_dir = Path(args.out)
-    check_output_dir(out_dir.resolve(), args.overwrite)
+    submission = Path(args.submission)
+    read = [submission] + ([p for p in submission.rglob("*")] if submission.is_dir() else [])
+    read += [Path(p) for p in (args.results, args.habitats, *args.weather) if p]
+    check_output_dir(out_dir.resolve(), args.overwrite, read)
     result = verify(Path(args.submission), results=Path(args.results) if args.results else None,
                     reference_habitats=Path(args.habitats) if args.habitats else None,
                     name_field=args.name_field, weather_files=[Path(p) for p in args.weather])
@@ -277,7 +280,8 @@ def cmd_region(args) -> int:
     options.check()
     farms = Path(args.farms)
     out_dir = Path(args.out) if args.out else Path("maps") / f"{farms.stem}_region"
-    check_output_dir(out_dir.resolve(), args.overwrite)
+    check_output_dir(out_dir.resolve(), args.overwrite,
+                     [farms, Path(args.weather), Path(args.habitats) if args.habitats else None])
     fields = FarmFields(id_field=args.id_field, emission_field=args.emission_field,
                         height_field=args.height_field, layer=args.layer)
     with warnings.catch_warnings():

@@ -90,12 +90,66 @@ def sha256_of(path: Path) -> str:
     return digest.hexdigest()
 
 
-def check_output_dir(out_dir: Path, overwrite: bool) -> None:
-    """Refuse early (before any work) when the output folder exists without ``overwrite``."""
-    if out_dir.exists() and not overwrite:
+#: Written into every output folder siting makes (by staged_folder): only a folder holding it
+#: (or the run record of an older version) may be replaced with --overwrite.
+OUTPUT_MARKER = ".siting-output"
+#: Run records by which folders of versions before the marker are recognised.
+_LEGACY_RECORDS = (("run.json", "inputs"), ("findings.json", "findings"),
+                   ("summary.json", "hours_used"))
+
+
+def is_siting_output(folder: Path) -> bool:
+    """Whether ``folder`` is an output folder written by siting (its marker or run record)."""
+    folder = Path(folder)
+    if (folder / OUTPUT_MARKER).is_file():
+        return True
+    for name, key in _LEGACY_RECORDS:
+        try:
+            record = json.loads((folder / name).read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            continue
+        if isinstance(record, dict) and key in record:
+            return True
+    return False
+
+
+def check_output_dir(out_dir: Path, overwrite: bool, inputs=()) -> None:
+    """Refuse early (before any work) an output folder that must not be written or replaced.
+
+    It must not exist, unless ``overwrite`` is given; and then only a folder siting wrote
+    (:func:`is_siting_output`) is replaced, never the current folder or one of its parents,
+    and never one that holds any of the run's ``inputs`` (paths). Each refusal names why.
+    """
+    out_dir = Path(out_dir).resolve()
+    if not out_dir.exists():
+        return
+    if not overwrite:
         raise OutputExistsError(f"{out_dir}: output folder exists; pass --overwrite to replace it")
-    if out_dir.exists() and not out_dir.is_dir():
+    if not out_dir.is_dir():
         raise OutputExistsError(f"{out_dir}: exists and is not a folder")
+    cwd = Path.cwd().resolve()
+    if out_dir == cwd or out_dir in cwd.parents:
+        raise OutputExistsError(f"{out_dir}: is the current folder or one of its parents; "
+                                "--overwrite never replaces it: choose a new --out folder")
+    for path in inputs:
+        if path is None:
+            continue
+        resolved = Path(path).resolve()
+        if resolved == out_dir or out_dir in resolved.parents:
+            raise OutputExistsError(f"{out_dir}: holds an input of this run ({resolved.name}); "
+                                    "--overwrite never replaces it: choose another --out folder")
+    if not is_siting_output(out_dir):
+        raise OutputExistsError(f"{out_dir}: is not a folder siting wrote (no {OUTPUT_MARKER} "
+                                "or run record in it); --overwrite replaces only siting's own "
+                                "output folders: choose another --out folder")
+
+
+def input_paths(scenario, holding: bool = False) -> list[Path]:
+    """Every file a scenario run reads (for :func:`check_output_dir`), config tables included."""
+    paths = list(_input_files(scenario, holding).values())
+    if scenario.assessment.config_dir is not None:
+        paths.append(scenario.assessment.config_dir)
+    return paths
 
 
 def _layer_files(key: str, path: Path) -> dict[str, Path]:
@@ -385,7 +439,7 @@ def cautious_choices(result) -> list[tuple[str, str, str]]:
 def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
     """Write every output of a screening run atomically into ``out_dir``; returns it."""
     out_dir = Path(out_dir).resolve()
-    check_output_dir(out_dir, overwrite)
+    check_output_dir(out_dir, overwrite, input_paths(result.scenario))
     run_time = datetime.now(timezone.utc).replace(microsecond=0).isoformat()
     with staged_folder(out_dir, overwrite) as staging:
         _write_all(result, staging, run_time)
@@ -430,6 +484,12 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
                                     dir=out_dir.parent))
     try:
         staging.chmod(0o755)
+        from siting import __version__
+
+        (staging / OUTPUT_MARKER).write_text(json.dumps({
+            "written_by": "siting", "version": __version__,
+            "note": "an output folder of siting: --overwrite may replace it"}) + "\n",
+            encoding="utf-8")
         yield staging
         check_output_dir(out_dir, overwrite)  # it may have appeared while the block ran
         if out_dir.exists():

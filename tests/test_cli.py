@@ -337,11 +337,12 @@ def test_overwrite_replaces_existing_folder(h1_runs, tmp_path):
     """--overwrite replaces an existing output folder whole; no staging or backup is left."""
     out = tmp_path / "out"
     out.mkdir()
+    (out / ".siting-output").write_text("{}", encoding="utf-8")  # an earlier output folder
     (out / "stale.txt").write_text("from an earlier run", encoding="utf-8")
     rc, _ = _run(["screen", str(h1_runs["unabated"]["scenario"]), "--out", str(out),
                   "--overwrite", "--quiet"])
     assert rc == 0
-    assert sorted(p.name for p in out.iterdir()) == sorted(OUTPUTS)
+    assert sorted(p.name for p in out.iterdir()) == sorted(OUTPUTS + [".siting-output"])
     assert [p.name for p in tmp_path.iterdir()] == ["out"]
 
 
@@ -374,3 +375,54 @@ def test_user_text_in_the_terminal_is_shown_as_itself(tmp_path, capsys):
     main(["verify", str(tmp_path / "out"), "--out", str(tmp_path / "v")])
     printed = capsys.readouterr().out
     assert "[bold]" in printed  # shown literally; as markup rich would have swallowed it
+
+
+def _snapshot(folder: Path) -> dict:
+    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*"))
+            if p.is_file()}
+
+
+@pytest.mark.parametrize("case", ["scenario folder", "current folder", "parent of current",
+                                  "submission", "weather record folder", "farms folder",
+                                  "notes folder"])
+def test_overwrite_never_deletes_inputs_or_unrelated_folders(tmp_path, monkeypatch, capsys, case):
+    """--overwrite naming a folder that holds inputs, the current folder, a parent of it or a
+    folder siting did not write: exit 2, one line saying why, every file kept (nothing lost)."""
+    demo = tmp_path / "demo"
+    shutil.copytree(demo_dir(), demo)
+    (demo / "notes.txt").write_text("the client's notes", encoding="utf-8")
+    scenario = demo / "scenario.toml"
+    work = tmp_path / "work"
+    work.mkdir()
+    monkeypatch.chdir(work)
+    if case == "submission":
+        sub = tmp_path / "sub"
+        text = scenario.read_text().replace("spacing_m = 25.0", "spacing_m = 100.0", 1)
+        scenario.write_text(text)
+        assert main(["screen", str(scenario), "--out", str(sub), "--quiet"]) == 0
+        target, argv = sub, ["verify", str(sub), "--out", str(sub), "--overwrite", "--quiet"]
+    elif case == "weather record folder":
+        target = demo
+        argv = ["weather", str(demo / "hourly_weather.csv"), "--lat", "52.3", "--lon", "9.7",
+                "--out", str(demo), "--overwrite", "--quiet"]
+    elif case == "farms folder":
+        target = demo
+        argv = ["region", str(demo / "region_farms.gpkg"), "--weather",
+                str(demo / "weather_table.csv"), "--out", str(demo), "--overwrite", "--quiet"]
+    elif case == "notes folder":
+        target = tmp_path / "notes"
+        target.mkdir()
+        (target / "letter.txt").write_text("keep me", encoding="utf-8")
+        argv = ["screen", str(scenario), "--out", str(target), "--overwrite", "--quiet"]
+    else:
+        target = {"scenario folder": demo, "current folder": work,
+                  "parent of current": tmp_path}[case]
+        argv = ["screen", str(scenario), "--out", str(target), "--overwrite", "--quiet"]
+    (work / "keep.txt").write_text("in the current folder", encoding="utf-8")
+    before = _snapshot(tmp_path)
+    capsys.readouterr()
+    assert main(argv) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1, err
+    assert "never replaces" in err or "replaces only siting's own" in err, err
+    assert _snapshot(tmp_path) == before

@@ -6,12 +6,13 @@ import stat
 import pytest
 
 from siting.errors import OutputExistsError
-from siting.outputs import staged_folder
+from siting.outputs import OUTPUT_MARKER, check_output_dir, staged_folder
 
 
 def _old_result(out_dir):
-    """An earlier output folder holding one file."""
+    """An earlier output folder of siting (its marker) holding one file."""
     out_dir.mkdir()
+    (out_dir / OUTPUT_MARKER).write_text("{}", encoding="utf-8")
     (out_dir / "old.txt").write_text("old result", encoding="utf-8")
     return out_dir
 
@@ -34,7 +35,7 @@ def test_success_moves_the_staging_folder_into_place(tmp_path):
         assert staging.parent == out_dir.parent and staging.name.endswith(".partial")
         (staging / "result.txt").write_text("done", encoding="utf-8")
     assert not staging.exists()
-    assert [p.name for p in out_dir.iterdir()] == ["result.txt"]
+    assert sorted(p.name for p in out_dir.iterdir()) == [OUTPUT_MARKER, "result.txt"]
     assert [p.name for p in out_dir.parent.iterdir()] == ["out"]
 
 
@@ -46,7 +47,7 @@ def test_existing_folder_without_overwrite_is_refused_and_kept(tmp_path):
         with staged_folder(out_dir, overwrite=False):
             ran = True
     assert not ran
-    assert [p.name for p in out_dir.iterdir()] == ["old.txt"]
+    assert sorted(p.name for p in out_dir.iterdir()) == [OUTPUT_MARKER, "old.txt"]
     assert (out_dir / "old.txt").read_text(encoding="utf-8") == "old result"
     assert [p.name for p in tmp_path.iterdir()] == ["out"]  # no staging folder left
 
@@ -57,7 +58,7 @@ def test_overwrite_replaces_the_old_folder_after_success(tmp_path):
     with staged_folder(out_dir, overwrite=True) as staging:
         (staging / "new.txt").write_text("new result", encoding="utf-8")
         assert (out_dir / "old.txt").read_text(encoding="utf-8") == "old result"
-    assert [p.name for p in out_dir.iterdir()] == ["new.txt"]
+    assert sorted(p.name for p in out_dir.iterdir()) == [OUTPUT_MARKER, "new.txt"]
     assert [p.name for p in tmp_path.iterdir()] == ["out"]  # the backup is deleted
 
 
@@ -68,7 +69,7 @@ def test_overwrite_keeps_the_old_folder_when_the_block_fails(tmp_path):
         with staged_folder(out_dir, overwrite=True) as staging:
             (staging / "new.txt").write_text("new result", encoding="utf-8")
             raise RuntimeError("failed")
-    assert [p.name for p in out_dir.iterdir()] == ["old.txt"]
+    assert sorted(p.name for p in out_dir.iterdir()) == [OUTPUT_MARKER, "old.txt"]
     assert (out_dir / "old.txt").read_text(encoding="utf-8") == "old result"
     assert [p.name for p in tmp_path.iterdir()] == ["out"]
 
@@ -80,3 +81,45 @@ def test_final_folder_has_ordinary_permissions(tmp_path):
     with staged_folder(out_dir, overwrite=False):
         pass
     assert stat.S_IMODE(out_dir.stat().st_mode) == 0o755
+
+
+def test_overwrite_refuses_a_folder_siting_did_not_write(tmp_path):
+    """--overwrite replaces only siting's own output folders: a folder of notes is refused and
+    kept whole (nothing lost; common practice, no source)."""
+    notes = tmp_path / "notes"
+    notes.mkdir()
+    (notes / "letter.docx").write_text("not an output", encoding="utf-8")
+    with pytest.raises(OutputExistsError, match="not a folder siting wrote"):
+        with staged_folder(notes, overwrite=True):
+            pass
+    assert [p.name for p in notes.iterdir()] == ["letter.docx"]
+
+
+def test_overwrite_refuses_the_current_folder_its_parents_and_input_folders(tmp_path,
+                                                                            monkeypatch):
+    """Never the current folder or a parent of it, never a folder holding an input, even one
+    siting wrote (an output folder whose inputs/ copy is being re-run)."""
+    work = _old_result(tmp_path / "work")
+    monkeypatch.chdir(work)
+    with pytest.raises(OutputExistsError, match="current folder"):
+        check_output_dir(work, overwrite=True)
+    with pytest.raises(OutputExistsError, match="current folder"):
+        check_output_dir(tmp_path, overwrite=True)
+    monkeypatch.chdir(tmp_path.parent)
+    (work / "inputs").mkdir()
+    scenario = work / "inputs" / "scenario.toml"
+    scenario.write_text("", encoding="utf-8")
+    with pytest.raises(OutputExistsError, match="holds an input.*scenario.toml"):
+        check_output_dir(work, overwrite=True, inputs=[scenario])
+    check_output_dir(work, overwrite=True, inputs=[tmp_path / "elsewhere.toml"])  # allowed
+
+
+def test_older_run_records_are_recognised(tmp_path):
+    """A folder of an earlier version (a run.json with its inputs, no marker) may be replaced."""
+    old = tmp_path / "old"
+    old.mkdir()
+    (old / "run.json").write_text('{"version": "0.0.9", "inputs": {}}', encoding="utf-8")
+    check_output_dir(old, overwrite=True)
+    (old / "run.json").write_text("not json", encoding="utf-8")
+    with pytest.raises(OutputExistsError, match="not a folder siting wrote"):
+        check_output_dir(old, overwrite=True)

@@ -61,7 +61,7 @@ def test_weather_writes_four_files_and_a_usable_table(tmp_path):
     rc, stdout, stderr = _run(["weather", str(_record(tmp_path)), "--lat", "52.4", "--lon",
                                "9.0", "--out", str(out), "--max-missing-percent", "5"])
     assert rc == 0, stderr
-    assert {p.name for p in out.iterdir()} == OUTPUTS
+    assert {p.name for p in out.iterdir()} == OUTPUTS | {".siting-output"}
     classes, table_summary, _ = read_frequency_table(out / "frequency_table.csv")
     assert_allclose(classes.frequency_fraction.sum(), 1.0, rtol=1e-12)
     assert table_summary["sectors"] == 12
@@ -93,16 +93,17 @@ def test_existing_out_dir_needs_overwrite(tmp_path):
     """An existing output folder is left alone without --overwrite (exit 2) and replaced with it."""
     out = tmp_path / "weather"
     out.mkdir()
+    (out / ".siting-output").write_text("{}")  # an earlier output folder of siting
     (out / "keep.txt").write_text("earlier result")
     record = _record(tmp_path)
     rc, _, stderr = _run(["weather", str(record), "--lat", "52", "--lon", "9", "--out", str(out),
                           "--quiet"])
     assert rc == 2 and "--overwrite" in stderr
-    assert [p.name for p in out.iterdir()] == ["keep.txt"]
+    assert sorted(p.name for p in out.iterdir()) == [".siting-output", "keep.txt"]
     rc, stdout, _ = _run(["weather", str(record), "--lat", "52", "--lon", "9", "--out", str(out),
                           "--quiet", "--overwrite"])
     assert rc == 0 and stdout == ""
-    assert {p.name for p in out.iterdir()} == OUTPUTS
+    assert {p.name for p in out.iterdir()} == OUTPUTS | {".siting-output"}
 
 
 @pytest.mark.parametrize("option,value,match", [
