@@ -76,6 +76,10 @@ def _run_screen(scenario_path: Path, out: Path | None, overwrite: bool, fail_on_
         result = screen(scenario, progress=not quiet and sys.stderr.isatty())
     written = write_outputs(result, out_dir, overwrite=overwrite)
     _print_summary(result, written, quiet)
+    if fail_on_exceed and not result.sites["assessed"].any():
+        print("siting: --fail-on-exceed: no habitat site could be assessed, so none is shown "
+              "below threshold", file=sys.stderr)
+        return EXIT_EXCEEDS
     if fail_on_exceed and (result.sites["verdict"] == "above threshold").any():
         return EXIT_EXCEEDS
     return EXIT_OK
@@ -501,9 +505,36 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _interrupt_on_termination() -> dict:
+    """SIGTERM and SIGHUP (what CI, `timeout` and service managers send) end a run like Ctrl-C:
+    the staging folder is removed and an existing output folder is left as it was. Returns the
+    handlers replaced, to be put back."""
+    import signal
+
+    def stop(signum, frame):
+        raise KeyboardInterrupt
+
+    previous = {}
+    for name in ("SIGTERM", "SIGHUP"):
+        if hasattr(signal, name):
+            try:
+                previous[name] = signal.signal(getattr(signal, name), stop)
+            except ValueError:  # not the main thread (an embedding program): leave it be
+                pass
+    return previous
+
+
+def _restore_signals(previous: dict) -> None:
+    import signal
+
+    for name, handler in previous.items():
+        signal.signal(getattr(signal, name), handler)
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
+    previous = _interrupt_on_termination()
     try:
         return args.func(args)
     except SitingError as exc:
@@ -512,3 +543,5 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("siting: interrupted; nothing was written", file=sys.stderr)
         return 130
+    finally:
+        _restore_signals(previous)

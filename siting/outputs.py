@@ -46,6 +46,14 @@ UNDEPLETED_COLUMNS = [
     "pc_pct_level_undepleted", "pc_pct_load_undepleted",
 ]
 
+#: A text cell starting with one of these is taken for a formula by spreadsheet programs.
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+#: Said once in the report (method notes) and the README.
+CSV_TEXT_NOTE = ("In the CSV tables a text cell that would begin with = + - @ (a site name, say) "
+                 "is written with a leading apostrophe, so a spreadsheet shows it as text and "
+                 "never evaluates it as a formula.")
+
+
 METHOD_NOTES = [
     "Emission = factor [kg NH3/place/yr] x places, or a figure given directly; less abatement: "
     "effective reduction = technique reduction x share of the house's ammonia treated. With no "
@@ -76,6 +84,7 @@ METHOD_NOTES = [
     "source, an interior lattice, grid nodes inside) and mean over its interior points. "
     "PC = proposed + existing sources; net change = proposed - removed; in-combination = PC + "
     "other; predicted environmental total = background + PC.",
+    CSV_TEXT_NOTE,
     "Verdict: 'below threshold' when the PC is at or under the screening threshold of the site's "
     "designation tier as a % of both the critical level and the critical load; otherwise "
     "'above threshold' (further assessment needed).",
@@ -268,9 +277,36 @@ def run_record(result, run_time: str) -> dict:
 COORDINATE_COLUMNS = ("x", "y", "x_m", "y_m")
 
 
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+def spreadsheet_safe(value):
+    """A text cell that a spreadsheet would evaluate, made literal with a leading apostrophe."""
+    if isinstance(value, str) and value.startswith(FORMULA_STARTS) and not _is_number(value):
+        return "'" + value
+    return value
+
+
+def spreadsheet_text(value):
+    """The inverse of :func:`spreadsheet_safe`, for reading our own CSV tables back."""
+    if (isinstance(value, str) and value.startswith("'")
+            and value[1:].startswith(FORMULA_STARTS) and not _is_number(value[1:])):
+        return value[1:]
+    return value
+
+
 def write_csv(frame: pd.DataFrame, path: Path) -> None:
-    """CSV with 6 significant figures, except coordinates, which keep centimetres."""
+    """CSV with 6 significant figures, except coordinates, which keep centimetres; text cells
+    are made spreadsheet-safe (:func:`spreadsheet_safe`)."""
     out = frame.copy()
+    for col in out.columns:
+        if pd.api.types.is_object_dtype(out[col]) or pd.api.types.is_string_dtype(out[col]):
+            out[col] = out[col].map(spreadsheet_safe)
     for col in COORDINATE_COLUMNS:
         if col in out.columns:
             out[col] = out[col].map(lambda v: f"{v:.2f}")
@@ -472,8 +508,8 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
     Notes
     -----
     When the block ends normally the staging folder is renamed to ``out_dir``. An existing
-    ``out_dir`` is first renamed aside to ``.<name>.old`` and deleted only once the new folder
-    is in place (it is put back if that rename fails). When the block raises anything (also
+    ``out_dir`` is first renamed aside to this run's own ``.<name>.<random>.old`` and deleted
+    only once the new folder is in place (it is put back if that rename fails). When the block raises anything (also
     KeyboardInterrupt), the staging folder is deleted, ``out_dir`` is left as it was and the
     exception propagates. Both renames stay within one folder, so each is atomic on POSIX.
     """
@@ -493,9 +529,9 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
         yield staging
         check_output_dir(out_dir, overwrite)  # it may have appeared while the block ran
         if out_dir.exists():
-            backup = out_dir.with_name(f".{out_dir.name}.old")
-            if backup.exists():
-                shutil.rmtree(backup)
+            # a name of this run's own (beside its staging folder), so concurrent runs never
+            # share one and an old backup of another run is never deleted
+            backup = staging.with_name(staging.name.removesuffix(".partial") + ".old")
             out_dir.rename(backup)
             try:
                 staging.rename(out_dir)

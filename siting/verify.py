@@ -30,7 +30,7 @@ import numpy as np
 import pandas as pd
 
 from siting.errors import InputError, InputFileError, SitingError
-from siting.outputs import sha256_of
+from siting.outputs import sha256_of, spreadsheet_text
 from siting.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
 from siting.screen import outlet_rise
 from siting.tables import default_reduction_percent
@@ -115,11 +115,15 @@ class VerifyResult:
 
 def _read_csv(path: Path, what: str) -> pd.DataFrame:
     try:
-        return pd.read_csv(path, dtype={"id": str, "site_id": str, "name": str})
+        table = pd.read_csv(path, dtype={"id": str, "site_id": str, "name": str})
     except FileNotFoundError as exc:
         raise InputFileError(f"{what}: {path} not found") from exc
     except Exception as exc:  # pandas raises many types
         raise InputError(f"{what}: {path.name} cannot be read as CSV: {exc}") from exc
+    for col in table.columns:  # text made spreadsheet-safe by outputs.write_csv, read back
+        if pd.api.types.is_object_dtype(table[col]) or pd.api.types.is_string_dtype(table[col]):
+            table[col] = table[col].map(spreadsheet_text)
+    return table
 
 
 def load_submission(path: Path, results: Path | None = None) -> Submission:

@@ -426,3 +426,55 @@ def test_overwrite_never_deletes_inputs_or_unrelated_folders(tmp_path, monkeypat
     assert len(err.splitlines()) == 1, err
     assert "never replaces" in err or "replaces only siting's own" in err, err
     assert _snapshot(tmp_path) == before
+
+
+def test_sigterm_while_writing_leaves_nothing_and_keeps_the_old_folder(tmp_path):
+    """SIGTERM (as `timeout` or CI sends) during writing is handled like Ctrl-C: exit 130, no
+    staging folder left, the earlier output kept whole. The signal is raised at a fixed point
+    (while the report is written), not by timing."""
+    import subprocess
+    import sys
+
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / ".siting-output").write_text("{}", encoding="utf-8")
+    (out / "old.txt").write_text("earlier result", encoding="utf-8")
+    scenario = tmp_path / "demo" / "scenario.toml"
+    shutil.copytree(demo_dir(), scenario.parent)
+    scenario.write_text(scenario.read_text().replace("spacing_m = 25.0", "spacing_m = 100.0", 1))
+    code = (
+        "import os, signal, sys\n"
+        "import siting.report as report\n"
+        "real = report.write_report\n"
+        "def dying(*a, **k):\n"
+        "    os.kill(os.getpid(), signal.SIGTERM)\n"
+        "    return real(*a, **k)\n"
+        "report.write_report = dying\n"
+        "from siting.cli import main\n"
+        f"sys.exit(main(['screen', {str(scenario)!r}, '--out', {str(out)!r}, '--overwrite',"
+        " '--quiet']))\n")
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         timeout=300)
+    assert run.returncode == 130, run.stderr
+    assert "interrupted" in run.stderr and "Traceback" not in run.stderr
+    assert sorted(p.name for p in out.iterdir()) == [".siting-output", "old.txt"]
+    assert [p.name for p in tmp_path.iterdir() if p.name.startswith(".")] == []
+
+
+def test_fail_on_exceed_with_no_site_assessed_does_not_pass(tmp_path, capsys):
+    """--fail-on-exceed: a run that could assess no site (all outside the grid) exits 1 and
+    says why, instead of passing."""
+    import geopandas as gpd
+    from shapely import affinity
+
+    scenario = tmp_path / "demo" / "scenario.toml"
+    shutil.copytree(demo_dir(), scenario.parent)
+    scenario.write_text(scenario.read_text().replace("spacing_m = 25.0", "spacing_m = 100.0", 1))
+    layer = scenario.parent / "habitats.gpkg"
+    sites = gpd.read_file(layer)
+    sites["geometry"] = [affinity.translate(g, 100_000.0, 0.0) for g in sites.geometry]
+    sites.to_file(layer)  # 100 km east: outside the grid
+    rc = main(["screen", str(scenario), "--out", str(tmp_path / "out"), "--quiet",
+               "--fail-on-exceed"])
+    assert rc == 1
+    assert "no habitat site could be assessed" in capsys.readouterr().err

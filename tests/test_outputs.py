@@ -123,3 +123,22 @@ def test_older_run_records_are_recognised(tmp_path):
     (old / "run.json").write_text("not json", encoding="utf-8")
     with pytest.raises(OutputExistsError, match="not a folder siting wrote"):
         check_output_dir(old, overwrite=True)
+
+
+def test_csv_text_that_a_spreadsheet_would_evaluate_is_made_literal(tmp_path):
+    """A designation "=HYPERLINK(...)" is written with a leading apostrophe (OWASP CSV-injection
+    advice, common practice); numbers, negative ones included, are left as numbers; read back
+    by verify's reader it is the original text."""
+    import pandas as pd
+
+    from siting.outputs import write_csv
+    from siting.verify import _read_csv
+
+    frame = pd.DataFrame({"name": ['=HYPERLINK("http://x","y")', "+cmd", "Moss", "-3.5"],
+                          "x_m": [-12.5, 1.0, 2.0, 3.0], "value": [-1.0, 2.0, 3.0, 4.0]})
+    write_csv(frame, tmp_path / "t.csv")
+    text = (tmp_path / "t.csv").read_text(encoding="utf-8")
+    assert "'=HYPERLINK" in text and "'+cmd" in text and ",-12.50," in text
+    assert "'-3.5" not in text  # a number written as text stays a number
+    back = _read_csv(tmp_path / "t.csv", "test")
+    assert list(back["name"]) == ['=HYPERLINK("http://x","y")', "+cmd", "Moss", "-3.5"]
