@@ -49,9 +49,21 @@ def _positive_field(feature, field: str | None, where: str):
     value = getattr(feature, field)
     if value is None or pd.isna(value):
         return None
-    if float(value) <= 0:
+    number = _number(value, field, where)
+    if not number > 0:
         raise InputError(f"{where}: {field} must be > 0, got {value}")
-    return float(value), f"habitat layer field {field}"
+    return number, f"habitat layer field {field}"
+
+
+def _number(value, field: str, where: str) -> float:
+    """A habitat-layer value as a finite float, or an InputError naming field and feature."""
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"{where}: {field} must be a number, got {value!r}") from None
+    if not np.isfinite(number):
+        raise InputError(f"{where}: {field} must be a finite number, got {value!r}")
+    return number
 
 
 #: Values of a habitat layer's lichens_bryophytes_field, case-insensitive (empty = not known).
@@ -211,7 +223,12 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
             if not field:
                 return np.nan
             value = getattr(feature, field)
-            return float(value) if value is not None and not pd.isna(value) else np.nan
+            if value is None or pd.isna(value):
+                return np.nan
+            number = _number(value, field, where)
+            if number < 0:
+                raise InputError(f"{where}: {field} must be >= 0 (a background), got {value!r}")
+            return number
 
         rows.append({
             "site_id": f"S{i:02d}",

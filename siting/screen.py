@@ -326,9 +326,11 @@ def _read_named_receptors(scenario: Scenario, tables: Tables) -> pd.DataFrame:
                          "need id,x,y[,land_cover]")
     for col in ("x", "y"):
         values = pd.to_numeric(table[col], errors="coerce")
-        if values.isna().any():
-            row = int(np.flatnonzero(values.isna().to_numpy())[0]) + 2
-            raise InputError(f"receptors.file {path.name}, line {row}: {col} must be a number")
+        bad = values.isna() | ~np.isfinite(values.to_numpy(float, na_value=np.nan))
+        if bad.any():
+            row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
+            raise InputError(f"receptors.file {path.name}, line {row}: {col} must be a finite "
+                             "number")
         table[col] = values
     if "land_cover" not in table.columns:
         table["land_cover"] = scenario.deposition.depletion_land_cover

@@ -64,6 +64,8 @@ def _rows(path: Path, data: dict, key: str, required: dict[str, type]) -> list[d
                 value = row[name] = float(value)
             if not isinstance(value, kind):
                 raise InputError(f"{where}: {name} must be {kind.__name__}, got {value!r}")
+            if kind is float and not math.isfinite(value):
+                raise InputError(f"{where}: {name} must be a finite number, got {value}")
             if kind is float and value < 0:
                 raise InputError(f"{where}: {name} must be >= 0, got {value}")
         if not str(row.get("source", "")).strip():

@@ -29,6 +29,10 @@ from siting.plume import STABILITY_CLASSES
 COLUMNS = ("direction_deg", "speed_m_s", "stability", "frequency")
 
 
+#: How far fractions may sum from 1 (rounding in a table printed to 3-4 decimals; our choice).
+FRACTION_SUM_TOLERANCE = 0.01
+
+
 def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
                          min_wind_speed_m_s: float = 1.0) -> tuple[WeatherClasses, dict, list[str]]:
     """Read and check a frequency table.
@@ -55,7 +59,7 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
         raise InputError(f"{name}: the table has no rows")
     for col in ("direction_deg", "speed_m_s", "frequency"):
         values = pd.to_numeric(table[col], errors="coerce")
-        bad = values.isna()
+        bad = values.isna() | ~np.isfinite(values.to_numpy(float, na_value=np.nan))
         if bad.any():
             row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
             raise InputError(f"{name}, line {row}: {col} must be a number, got "
@@ -79,9 +83,18 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
     freq = table["frequency"].to_numpy()
     if (freq < 0).any():
         raise InputError(f"{name}: frequency must be >= 0, got {freq.min()}")
-    total = freq.sum()
+    with np.errstate(over="ignore"):
+        total = freq.sum()
+    if not np.isfinite(total):
+        raise InputError(f"{name}: the frequencies overflow when summed (largest "
+                         f"{freq.max():g}); give fractions or counts of a sensible size")
     if total <= 0:
         raise InputError(f"{name}: frequencies sum to zero")
+    counts = bool(np.all(freq == np.round(freq))) and total > 1.0 + FRACTION_SUM_TOLERANCE
+    if not counts and abs(total - 1.0) > FRACTION_SUM_TOLERANCE:
+        raise InputError(f"{name}: the frequencies sum to {total:.6g}; fractions must sum to 1 "
+                         f"(within {FRACTION_SUM_TOLERANCE:g}), or give whole-number counts "
+                         "(hours), which are normalised")
 
     sectors = np.unique(direction)
     n = len(sectors)
@@ -119,7 +132,7 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
         "share_raised_to_min_speed": raised_share,
         "anemometer_height_m": anemometer_height_m,
         "rows": int(len(table)),
-        "frequencies_given_as": "fractions" if abs(total - 1.0) < 1e-3 else "counts (normalised)",
+        "frequencies_given_as": "counts (normalised)" if counts else "fractions",
     }
     return weather, summary, warnings
 

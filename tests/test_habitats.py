@@ -185,3 +185,23 @@ def test_older_table_without_2022_values_falls_back_with_a_warning(tmp_path):
     path.write_text(text2)
     with pytest.raises(InputError, match="dry_heath.*missing key"):
         load_tables(folder)
+
+
+@pytest.mark.parametrize("field, value, match", [
+    ("clo", float("inf"), "clo must be a finite number"),
+    ("clo", "lots", "clo must be a number"),
+    ("bg", -2.0, "bg must be >= 0"),
+    ("bg", float("inf"), "bg must be a finite number"),
+], ids=["infinite critical load", "text in a number field", "negative background",
+        "infinite background"])
+def test_bad_numbers_in_the_layer_are_named(tmp_path, tables, field, value, match):
+    """A per-site number that would give 0 %, a crash or a negative total is refused, naming the
+    field and the feature (nothing silently wrong)."""
+    path = _layer(tmp_path, ["Bog"], ["raised_bog"], clo=[7.5], bg=[3.0])
+    gdf = gpd.read_file(path)
+    gdf[field] = gdf[field].astype(object)
+    gdf.loc[0, field] = value
+    gdf.to_file(path)
+    section = _section(path, critical_load_field="clo", background_deposition_field="bg")
+    with pytest.raises(InputError, match=rf'feature 1 \("Bog"\).*{match}'):
+        read_habitats(section, "EPSG:32632", tables)

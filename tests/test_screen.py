@@ -227,3 +227,15 @@ def test_depletion_on_shows_the_undepleted_figures_beside(tmp_path):
     assert "pc_conc_max_undepleted_ug_m3" not in off.sites.columns
     assert_allclose(site["pc_conc_max_undepleted_ug_m3"], off.sites.iloc[0]["pc_conc_max_ug_m3"],
                     rtol=1e-9)  # the twin run is the run without depletion
+
+
+def test_infinite_receptor_coordinate_is_named(tmp_path):
+    """A named point at x = inf stops the run naming the file and line (no traceback)."""
+    import pytest
+
+    from siting.errors import InputError
+
+    path = _write_case(tmp_path)
+    (tmp_path / "points.csv").write_text("id,x,y\nR1,inf,5800000\n", encoding="utf-8")
+    with pytest.raises(InputError, match=r"points.csv, line 2: x must be a finite number"):
+        screen(path, sensitivity=False)

@@ -94,3 +94,20 @@ def test_missing_key_and_bad_range_are_rejected(tmp_path):
     path.write_text(text[:i] + "reduction_percent_default = 120.0" + text[j:])
     with pytest.raises(InputError, match=r"acid_scrubber.*min <= typical <= max"):
         load_tables(folder2)
+
+
+def test_nan_or_inf_in_a_user_table_is_refused(tmp_path):
+    """A NaN emission factor or an infinite deposition velocity in a user's own tables stops
+    the run naming file, row and key (it would otherwise drop a source or zero a site)."""
+    folder = _copy_config(tmp_path)
+    path = folder / "emission_factors.toml"
+    path.write_text(path.read_text().replace("nh3_kg_per_place_yr = 2.813",
+                                             "nh3_kg_per_place_yr = nan", 1))
+    with pytest.raises(InputError, match=r"emission_factors.toml.*nh3_kg_per_place_yr.*finite"):
+        load_tables(folder)
+    folder2 = _copy_config(tmp_path / "b")
+    path = folder2 / "deposition_velocities.toml"
+    path.write_text(path.read_text().replace("deposition_velocity_m_s = 0.02",
+                                             "deposition_velocity_m_s = inf", 1))
+    with pytest.raises(InputError, match=r"deposition_velocities.toml.*finite"):
+        load_tables(folder2)

@@ -57,6 +57,7 @@ def test_tampered_input_is_flagged_and_explains_the_difference(clean, tmp_path):
     table = sub / "inputs" / "weather_table.csv"
     frame = pd.read_csv(table)
     frame.loc[frame["frequency"].idxmax(), "frequency"] *= 3  # more of the prevailing wind
+    frame["frequency"] /= frame["frequency"].sum()  # still fractions summing to 1
     frame.to_csv(table, index=False)
     result = verify(sub)
     assert {"INPUT_CHANGED", "RESULTS_DIFFER"} <= _codes(result)

@@ -54,3 +54,30 @@ def test_bad_tables_are_refused(tmp_path, rows, header, match):
     path = _write(tmp_path, rows, header or "direction_deg,speed_m_s,stability,frequency")
     with pytest.raises(InputError, match=match):
         read_frequency_table(path)
+
+
+def _table(tmp_path, rows):
+    path = tmp_path / "t.csv"
+    path.write_text("direction_deg,speed_m_s,stability,frequency\n" + rows, encoding="utf-8")
+    return path
+
+
+@pytest.mark.parametrize("rows, match", [
+    ("".join(f"{90 * k},5,D,0.125\n" for k in range(4)), "sum to 0.5"),
+    ("".join(f"{90 * k},5,D,1e308\n" for k in range(4)), "overflow"),
+    ("".join(f"{90 * k},inf,D,0.25\n" for k in range(4)), "speed_m_s must be a number"),
+    ("".join(f"{90 * k},5,D,nan\n" for k in range(4)), "frequency must be a number"),
+], ids=["fractions summing to 0.5", "1e308 frequencies", "infinite speed", "NaN frequency"])
+def test_frequencies_that_would_mislead_are_refused(tmp_path, rows, match):
+    """Fractions must sum to 1 within 0.01 (or be whole counts); every number finite: a table
+    that would silently give a wrong PC stops with the file and the value named."""
+    with pytest.raises(InputError, match=match):
+        read_frequency_table(_table(tmp_path, rows))
+
+
+def test_counts_are_normalised_and_said(tmp_path):
+    """Whole-number counts (hours) are normalised to fractions; the summary says so."""
+    weather, summary, _ = read_frequency_table(
+        _table(tmp_path, "".join(f"{90 * k},5,D,{100 * (k + 1)}\n" for k in range(4))))
+    assert summary["frequencies_given_as"] == "counts (normalised)"
+    assert abs(weather.frequency_fraction.sum() - 1.0) < 1e-12  # normalised (definition)
