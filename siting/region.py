@@ -164,6 +164,12 @@ class RegionOptions:
             raise InputError(f"--reach-m must be at least the spacing, got {self.reach_m:g}")
         if self.top < 1:
             raise InputError(f"--top must be >= 1, got {self.top}")
+        if not 0 < self.anemometer_height_m <= 300:  # NaN and inf fail too
+            raise InputError(f"--anemometer-height must be in (0, 300] m, got "
+                             f"{self.anemometer_height_m:g}")
+        if not 0 < self.min_wind_speed_m_s <= 5:
+            raise InputError(f"minimum wind speed must be in (0, 5] m/s, got "
+                             f"{self.min_wind_speed_m_s:g}")
         if self.land_type not in ("rural", "urban"):
             raise InputError(f"--land-type must be rural or urban, got {self.land_type!r}")
         if self.placement not in ("bilinear", "nearest"):

@@ -271,6 +271,11 @@ def _parse_times(name: str, texts: np.ndarray, lines: np.ndarray,
     offsets = parts["offset"].to_numpy(dtype=object)
     distinct = {text: _offset_minutes(text) for text in set(offsets.tolist())}
     for text, minutes in distinct.items():
+        digits = text[1:].replace(":", "") if text != "Z" else "00"
+        if len(digits) > 2 and int(digits[2:]) >= 60:
+            i = int(np.flatnonzero(offsets == text)[0])
+            raise InputError(f"{_where(name, lines[i])}: UTC offset {text} has minutes "
+                             f"{digits[2:]}; minutes must be 00-59")
         if abs(minutes) > 14 * 60:
             i = int(np.flatnonzero(offsets == text)[0])
             raise InputError(f"{_where(name, lines[i])}: UTC offset {text} is beyond +-14 h")
@@ -745,11 +750,13 @@ def _check_options(latitude_deg, longitude_deg, anemometer_height_m, utc_offset_
     checks = [
         ("latitude_deg", latitude_deg, -90.0 <= latitude_deg <= 90.0, "within -90..90"),
         ("longitude_deg", longitude_deg, -180.0 <= longitude_deg <= 180.0, "within -180..180"),
-        ("anemometer_height_m", anemometer_height_m, anemometer_height_m > 0, "> 0"),
+        ("anemometer_height_m", anemometer_height_m, 0 < anemometer_height_m <= 300,
+         "within (0, 300]"),
         ("utc_offset_h", utc_offset_h, utc_offset_h is None or -14 <= utc_offset_h <= 14,
          "within -14..14"),
-        ("calm_threshold_m_s", calm_threshold_m_s, calm_threshold_m_s >= 0, ">= 0"),
-        ("min_wind_speed_m_s", min_wind_speed_m_s, min_wind_speed_m_s > 0, "> 0"),
+        ("calm_threshold_m_s", calm_threshold_m_s, 0 <= calm_threshold_m_s <= 3, "within 0..3"),
+        ("min_wind_speed_m_s", min_wind_speed_m_s, 0 < min_wind_speed_m_s <= 5,
+         "within (0, 5]"),
         ("max_missing_percent", max_missing_percent, 0 <= max_missing_percent <= 100,
          "within 0..100"),
     ]

@@ -137,3 +137,13 @@ def test_demo_hourly_flag_is_parsed():
     """`siting demo --hourly` selects the hourly demo (the run itself is timed by hand)."""
     args = build_parser().parse_args(["demo", "--hourly"])
     assert args.hourly is True and args.out is None
+
+
+@pytest.mark.parametrize("option,value", [("--anemometer-height", "inf"),
+                                          ("--min-speed", "inf"), ("--min-speed", "nan")])
+def test_infinite_options_exit_2(tmp_path, option, value):
+    """An infinite anemometer height or minimum speed (PC = 0 everywhere) is refused, named."""
+    rc, _, stderr = _run(["weather", str(_record(tmp_path)), "--lat", "52", "--lon", "9",
+                          "--out", str(tmp_path / "w"), option, value])
+    key = {"--anemometer-height": "anemometer_height_m", "--min-speed": "min_wind_speed_m_s"}
+    assert rc == 2 and key[option] in stderr and not (tmp_path / "w").exists()

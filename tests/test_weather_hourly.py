@@ -140,6 +140,13 @@ def test_iso_offset_and_naive_plus_offset_give_the_same_utc(tmp_path):
     assert sa["first_time_utc"] == "2025-02-28T23:00Z"
 
 
+def test_offset_with_impossible_minutes_is_refused(tmp_path):
+    """A UTC offset "+01:99" is refused naming the line, not read as 2 h 39 min."""
+    path = _hourly(tmp_path, [f"{_stamp(h, '+01:99')},200,4.0,D" for h in range(3)])
+    with pytest.raises(InputError, match=r"record\.csv, line 2: UTC offset \+01:99 has minutes"):
+        read_hourly_record(path, LAT, LON)
+
+
 def test_naive_times_without_offset_are_refused(tmp_path):
     """Naive times need utc_offset_h: the error names the option, the file and the line."""
     path = _hourly(tmp_path, [f"{_stamp(h, '')},200,4.0,D" for h in range(3)])
