@@ -23,7 +23,7 @@ def _plain(text) -> str:
 
     return escape(str(text))
 
-EXIT_OK, EXIT_EXCEEDS, EXIT_BAD_INPUT = 0, 1, 2
+EXIT_OK, EXIT_EXCEEDS, EXIT_BAD_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 
 
 def _print_summary(result, out_dir: Path, quiet: bool) -> None:
@@ -543,5 +543,28 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("siting: interrupted; nothing was written", file=sys.stderr)
         return 130
+    except OSError as exc:  # the machine, not the input: a full disk, a read-only folder
+        where = f" {exc.filename}" if getattr(exc, "filename", None) else ""
+        print(f"siting: error: cannot read or write{where}: {exc.strerror or exc}; nothing was "
+              "written", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except Exception as exc:  # a bug: one line, and the traceback kept for the report
+        print(f"siting: internal error (a bug, please report it): {type(exc).__name__}: {exc}; "
+              f"the traceback is in {_write_traceback()}", file=sys.stderr)
+        return EXIT_INTERNAL
     finally:
         _restore_signals(previous)
+
+
+def _write_traceback() -> str:
+    """Write the current exception's traceback to a new file in the temp folder; its path."""
+    import tempfile
+    import traceback
+
+    try:
+        handle, path = tempfile.mkstemp(prefix="siting-traceback-", suffix=".txt")
+        with open(handle, "w", encoding="utf-8") as out:
+            out.write(traceback.format_exc())
+        return path
+    except OSError:
+        return "(could not be written)"

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
 import platform
 import shutil
 import tempfile
@@ -130,8 +131,22 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=()) -> None:
     and never one that holds any of the run's ``inputs`` (paths). Each refusal names why.
     """
     out_dir = Path(out_dir).resolve()
+    if len(out_dir.name.encode("utf-8")) > 255:
+        raise OutputExistsError(f"{out_dir.name[:40]}...: output folder name is longer than "
+                                "255 bytes; choose a shorter --out")
     if not out_dir.exists():
+        parent = out_dir.parent
+        while not parent.exists():
+            parent = parent.parent
+        if not parent.is_dir():
+            raise OutputExistsError(f"{out_dir}: {parent} is a file, not a folder")
+        if not os.access(parent, os.W_OK | os.X_OK):
+            raise OutputExistsError(f"{out_dir}: cannot write in {parent} (no permission); "
+                                    "choose another --out")
         return
+    if not os.access(out_dir.parent, os.W_OK | os.X_OK):
+        raise OutputExistsError(f"{out_dir}: cannot write in {out_dir.parent} (no permission); "
+                                "choose another --out")
     if not overwrite:
         raise OutputExistsError(f"{out_dir}: output folder exists; pass --overwrite to replace it")
     if not out_dir.is_dir():

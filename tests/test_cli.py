@@ -478,3 +478,37 @@ def test_fail_on_exceed_with_no_site_assessed_does_not_pass(tmp_path, capsys):
                "--fail-on-exceed"])
     assert rc == 1
     assert "no habitat site could be assessed" in capsys.readouterr().err
+
+
+def test_output_location_problems_are_found_before_any_work(tmp_path, capsys):
+    """A parent path that is a file, or a name longer than 255 bytes: exit 2 with one line,
+    before the computation (nothing written)."""
+    scenario = tmp_path / "demo" / "scenario.toml"
+    shutil.copytree(demo_dir(), scenario.parent)
+    (tmp_path / "afile").write_text("x", encoding="utf-8")
+    for out, match in ((tmp_path / "afile" / "out", "is a file, not a folder"),
+                       (tmp_path / ("n" * 300), "longer than 255 bytes")):
+        capsys.readouterr()
+        assert main(["screen", str(scenario), "--out", str(out), "--quiet"]) == 2
+        err = capsys.readouterr().err.strip()
+        assert len(err.splitlines()) == 1 and match in err, err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["afile", "demo"]
+
+
+def test_an_internal_error_is_one_line_with_the_traceback_kept(tmp_path, capsys, monkeypatch):
+    """A bug (here a forced one) is not a bare traceback: one line saying it is a bug and where
+    the traceback was written, exit 3 (README's exit codes)."""
+    import importlib
+
+    def broken(*args, **kwargs):
+        raise ZeroDivisionError("forced for the test")
+
+    monkeypatch.setattr(importlib.import_module("siting.screen"), "screen", broken)
+    rc = main(["screen", str(demo_dir() / "scenario.toml"), "--out", str(tmp_path / "o"),
+               "--quiet"])
+    err = capsys.readouterr().err.strip()
+    assert rc == 3 and len(err.splitlines()) == 1 and "internal error" in err
+    path = Path(err.rsplit("the traceback is in ", 1)[1])
+    assert "ZeroDivisionError: forced for the test" in path.read_text(encoding="utf-8")
+    path.unlink()
+    assert not (tmp_path / "o").exists()
