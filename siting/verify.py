@@ -145,11 +145,14 @@ def load_submission(path: Path, results: Path | None = None) -> Submission:
                              "screen`?") from exc
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise InputError(f"{record_path}: not readable JSON: {exc}") from exc
+    if not isinstance(record, dict):
+        raise InputError(f"{record_path}: not a run record (a JSON object expected)")
     package = record.get("package")
     if not isinstance(package, dict) or "files" not in package:
         raise InputError(f"{record_path}: no package map; the folder was written by a version "
                          "that did not pack its inputs (re-run `siting screen`)")
     inputs = path / "inputs"
+    _check_record(record, record_path, inputs)
     files = package["files"]
     if "scenario" not in files:
         raise InputError(f"{record_path}: the package map names no scenario")
@@ -178,6 +181,40 @@ def load_submission(path: Path, results: Path | None = None) -> Submission:
         if (path / "receptors.csv").exists() else None
     return Submission(path, record, sites, receptors, (inputs / files["scenario"]).resolve(),
                       moved, config_dir)
+
+
+def _inside(folder: Path, relative, what: str, record_path: Path) -> None:
+    """A path named by a submitted record must stay inside the package's inputs/ folder."""
+    if not isinstance(relative, str) or not relative.strip():
+        raise InputError(f"{record_path}: {what} must be a file name, got {relative!r}")
+    target = (folder / relative).resolve()
+    if Path(relative).is_absolute() or not (target == folder.resolve()
+                                            or folder.resolve() in target.parents):
+        raise InputError(f"{record_path}: {what} {relative!r} points outside the package's "
+                         "inputs/ folder; a submission is read only inside itself")
+
+
+def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
+    """A submitted run.json is untrusted: every entry the verification uses is of the expected
+    kind, and every path it names stays inside the package (one InputError line if not)."""
+    package = record["package"]
+    files = package["files"]
+    if not isinstance(files, dict):
+        raise InputError(f"{record_path}: package.files must be a map of input key to file")
+    for key, relative in files.items():
+        _inside(inputs, relative, f"package.files.{key}", record_path)
+    _inside(inputs, package.get("config", "_config"), "package.config", record_path)
+    for section in ("inputs", "config_tables"):
+        entries = record.get(section, {})
+        if not isinstance(entries, dict):
+            raise InputError(f"{record_path}: {section} must be a map, got {type(entries).__name__}")
+        for key, entry in entries.items():
+            if not isinstance(entry, dict) or not isinstance(entry.get("sha256"), str):
+                raise InputError(f"{record_path}: {section}.{key} needs a sha256 text")
+            if "path" in entry and not isinstance(entry["path"], str):
+                raise InputError(f"{record_path}: {section}.{key}.path must be text")
+            if section == "config_tables":
+                _inside(inputs / "_config", key, f"config_tables.{key}", record_path)
 
 
 def check_integrity(sub: Submission) -> list[dict]:

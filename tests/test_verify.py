@@ -230,3 +230,36 @@ def test_plume_rise_is_a_finding_to_check(tmp_path):
     rise = [f for f in result.findings if f.code == "PLUME_RISE_CLAIMED"]
     assert [f.subject for f in rise] == ['source "H1"']
     assert "wake height 5 m" in rise[0].message  # 2 + 1.5 x min(2, 2)
+
+
+@pytest.mark.parametrize("change, match", [
+    (lambda r: r["package"]["files"].update(scenario="../../../../etc/hostname"),
+     "points outside the package"),
+    (lambda r: r["package"]["files"].update(weather="/etc/hostname"), "points outside"),
+    (lambda r: r["config_tables"].update({"../../x.toml": {"sha256": "0"}}), "points outside"),
+    (lambda r: r.update(inputs=["not", "a", "map"]), "inputs must be a map"),
+    (lambda r: r["inputs"]["scenario"].update(sha256=5), "needs a sha256 text"),
+    (lambda r: r["package"].update(files="scenario.toml"), "package.files must be a map"),
+], ids=["scenario path escapes", "absolute weather path", "config table escapes",
+        "inputs not a map", "hash not text", "files not a map"])
+def test_a_hostile_run_record_is_refused_in_one_line(clean, tmp_path, capsys, change, match):
+    """verify treats a package as untrusted: paths stay inside it, malformed entries are exit 2
+    with one line naming run.json; nothing outside the package is read, nothing written."""
+    sub = tmp_path / "sub"
+    shutil.copytree(clean, sub)
+    record = json.loads((sub / "run.json").read_text())
+    change(record)
+    (sub / "run.json").write_text(json.dumps(record))
+    rc = main(["verify", str(sub), "--out", str(tmp_path / "v"), "--quiet"])
+    err = capsys.readouterr().err.strip()
+    assert rc == 2 and len(err.splitlines()) == 1 and "run.json" in err and match in err, err
+    assert not (tmp_path / "v").exists()
+
+
+def test_a_run_record_that_is_not_an_object_is_refused(clean, tmp_path, capsys):
+    """run.json holding a list: exit 2, one line."""
+    sub = tmp_path / "sub"
+    shutil.copytree(clean, sub)
+    (sub / "run.json").write_text("[1, 2, 3]")
+    rc = main(["verify", str(sub), "--out", str(tmp_path / "v"), "--quiet"])
+    assert rc == 2 and "not a run record" in capsys.readouterr().err
