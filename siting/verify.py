@@ -31,8 +31,8 @@ import pandas as pd
 
 from siting.errors import InputError, InputFileError, SitingError
 from siting.outputs import sha256_of, spreadsheet_text
-from siting.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
 from siting.screen import outlet_rise
+from siting.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
 from siting.tables import default_reduction_percent
 
 #: Site figures compared between the submission and the re-run.
