@@ -131,6 +131,7 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=()) -> None:
     and never one that holds any of the run's ``inputs`` (paths). Each refusal names why.
     """
     out_dir = Path(out_dir).resolve()
+    recover_interrupted(out_dir)
     if len(out_dir.name.encode("utf-8")) > 255:
         raise OutputExistsError(f"{out_dir.name[:40]}...: output folder name is longer than "
                                 "255 bytes; choose a shorter --out")
@@ -166,6 +167,68 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=()) -> None:
         raise OutputExistsError(f"{out_dir}: is not a folder siting wrote (no {OUTPUT_MARKER} "
                                 "or run record in it); --overwrite replaces only siting's own "
                                 "output folders: choose another --out folder")
+
+
+def _alive(pid) -> bool:
+    """Whether a process of this machine with that id still runs (unknown counts as alive)."""
+    if not isinstance(pid, int) or pid <= 0:
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # exists, but not ours
+        return True
+    return True
+
+
+def _staging_pid(staging: Path):
+    try:
+        return json.loads((staging / OUTPUT_MARKER).read_text(encoding="utf-8")).get("pid")
+    except (OSError, ValueError, AttributeError):
+        return None
+
+
+def recover_interrupted(out_dir: Path) -> list[str]:
+    """Tidy what a run killed while writing ``out_dir`` left beside it; what was done, in words.
+
+    A staging folder (``.<name>.<random>.partial``) whose run is gone is deleted. A backup of
+    the previous result (``.<name>.<random>.old``) whose run is gone is put back as ``out_dir``
+    when the swap never finished (``out_dir`` missing), else deleted (the new result is in
+    place). Folders of runs still going are left alone.
+    """
+    out_dir = Path(out_dir)
+    parent = out_dir.parent
+    done: list[str] = []
+    if not parent.is_dir():
+        return done
+    prefix = f".{out_dir.name}."
+    for partial in sorted(parent.glob(f"{glob_escape(prefix)}*.partial")):
+        if partial.is_dir() and not _alive(_staging_pid(partial)):
+            backup = partial.with_name(partial.name.removesuffix(".partial") + ".old")
+            if backup.is_dir() and not out_dir.exists():
+                backup.rename(out_dir)
+                done.append(f"{out_dir}: put back the previous result from an interrupted run")
+            shutil.rmtree(partial, ignore_errors=True)
+            done.append(f"{partial}: removed the staging folder of an interrupted run")
+    for backup in sorted(parent.glob(f"{glob_escape(prefix)}*.old")):
+        partial = backup.with_name(backup.name.removesuffix(".old") + ".partial")
+        if not backup.is_dir() or partial.exists():
+            continue  # its run is still writing (or was handled above)
+        if not out_dir.exists():
+            backup.rename(out_dir)
+            done.append(f"{out_dir}: put back the previous result from an interrupted run")
+        elif not _alive(_staging_pid(out_dir)):
+            shutil.rmtree(backup, ignore_errors=True)
+            done.append(f"{backup}: removed the backup left by an interrupted run")
+    return done
+
+
+def glob_escape(text: str) -> str:
+    """``text`` with glob wildcards taken literally (a folder name may hold [ or *)."""
+    import glob
+
+    return glob.escape(text)
 
 
 def input_paths(scenario, holding: bool = False) -> list[Path]:
@@ -538,7 +601,7 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
         from siting import __version__
 
         (staging / OUTPUT_MARKER).write_text(json.dumps({
-            "written_by": "siting", "version": __version__,
+            "written_by": "siting", "version": __version__, "pid": os.getpid(),
             "note": "an output folder of siting: --overwrite may replace it"}) + "\n",
             encoding="utf-8")
         yield staging

@@ -142,3 +142,41 @@ def test_csv_text_that_a_spreadsheet_would_evaluate_is_made_literal(tmp_path):
     assert "'-3.5" not in text  # a number written as text stays a number
     back = _read_csv(tmp_path / "t.csv", "test")
     assert list(back["name"]) == ['=HYPERLINK("http://x","y")', "+cmd", "Moss", "-3.5"]
+
+
+def _dead_pid() -> int:
+    import subprocess
+    import sys
+
+    proc = subprocess.Popen([sys.executable, "-c", "pass"])
+    proc.wait()
+    return proc.pid
+
+
+def test_a_run_killed_mid_swap_loses_nothing(tmp_path):
+    """Killed between the two renames (the old result moved aside, the new one not yet in
+    place): the next run puts the old result back and removes the dead run's staging folder."""
+    import json
+
+    out_dir = tmp_path / "out"
+    backup = _old_result(tmp_path / ".out.abc123.old")
+    partial = tmp_path / ".out.abc123.partial"
+    partial.mkdir()
+    (partial / OUTPUT_MARKER).write_text(json.dumps({"pid": _dead_pid()}), encoding="utf-8")
+    check_output_dir(out_dir, overwrite=True)
+    assert (out_dir / "old.txt").read_text(encoding="utf-8") == "old result"
+    assert not backup.exists() and not partial.exists()
+
+
+def test_stale_staging_of_a_dead_run_is_removed_and_a_live_one_kept(tmp_path):
+    """A staging folder whose run is gone is removed; one whose run still goes is left alone."""
+    import json
+    import os
+
+    dead = tmp_path / ".out.dead.partial"
+    live = tmp_path / ".out.live.partial"
+    for folder, pid in ((dead, _dead_pid()), (live, os.getpid())):
+        folder.mkdir()
+        (folder / OUTPUT_MARKER).write_text(json.dumps({"pid": pid}), encoding="utf-8")
+    check_output_dir(tmp_path / "out", overwrite=False)
+    assert not dead.exists() and live.exists()
