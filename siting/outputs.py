@@ -488,6 +488,23 @@ def _write_all(result, folder: Path, run_time: str) -> None:
                  figures=figures, weather_figures=weather_figures,
                  cautious_choices=cautious_choices(result),
                  sensitivity_summary=result.sensitivity_summary)
+    # last: every output the run wrote, hashed, so `siting verify` can tell an edited,
+    # truncated or deleted one (run.json itself, the marker and the packed inputs aside)
+    record["outputs"] = output_hashes(folder)
+    (folder / "run.json").write_text(json.dumps(record, indent=2, default=str), encoding="utf-8")
+
+
+def output_hashes(folder: Path) -> dict[str, dict]:
+    """{relative path: {"sha256", "bytes"}} of every output file in ``folder`` except run.json,
+    the marker and the packed inputs/."""
+    hashes = {}
+    for path in sorted(Path(folder).rglob("*")):
+        relative = path.relative_to(folder).as_posix()
+        if (not path.is_file() or relative in ("run.json", OUTPUT_MARKER)
+                or relative.startswith("inputs/")):
+            continue
+        hashes[relative] = {"sha256": sha256_of(path), "bytes": path.stat().st_size}
+    return hashes
 
 
 def cautious_choices(result) -> list[tuple[str, str, str]]:

@@ -190,8 +190,8 @@ def _inside(folder: Path, relative, what: str, record_path: Path) -> None:
     target = (folder / relative).resolve()
     if Path(relative).is_absolute() or not (target == folder.resolve()
                                             or folder.resolve() in target.parents):
-        raise InputError(f"{record_path}: {what} {relative!r} points outside the package's "
-                         "inputs/ folder; a submission is read only inside itself")
+        raise InputError(f"{record_path}: {what} {relative!r} points outside the package "
+                         f"({folder.name}/); a submission is read only inside itself")
 
 
 def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
@@ -204,6 +204,13 @@ def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
     for key, relative in files.items():
         _inside(inputs, relative, f"package.files.{key}", record_path)
     _inside(inputs, package.get("config", "_config"), "package.config", record_path)
+    outputs = record.get("outputs", {})
+    if not isinstance(outputs, dict):
+        raise InputError(f"{record_path}: outputs must be a map, got {type(outputs).__name__}")
+    for relative, entry in outputs.items():
+        _inside(record_path.parent, relative, f"outputs.{relative}", record_path)
+        if not isinstance(entry, dict) or not isinstance(entry.get("sha256"), str):
+            raise InputError(f"{record_path}: outputs.{relative} needs a sha256 text")
     for section in ("inputs", "config_tables"):
         entries = record.get(section, {})
         if not isinstance(entries, dict):
@@ -240,6 +247,29 @@ def check_integrity(sub: Submission) -> list[dict]:
                      "status": "missing" if actual is None else
                      ("ok" if actual == entry["sha256"] else "changed")})
     return rows
+
+
+def check_outputs(sub: Submission) -> list[Finding]:
+    """Each output the run recorded (run.json "outputs") against the file in the folder: an
+    edited, truncated or deleted output is a finding (records of older versions have none)."""
+    if sub.record is None or "outputs" not in sub.record:
+        return []
+    findings = []
+    for relative, entry in sub.record["outputs"].items():
+        path = sub.folder / relative
+        if not path.is_file():
+            findings.append(Finding("OUTPUT_MISSING", "high", f"output {relative}",
+                                    f"{relative} is missing; the run wrote it", {}))
+            continue
+        actual = sha256_of(path)
+        if actual != entry["sha256"]:
+            findings.append(Finding(
+                "OUTPUT_CHANGED", "high", f"output {relative}",
+                f"{relative} differs from the file the run wrote (SHA-256"
+                + (f"; {path.stat().st_size} bytes, written {entry['bytes']}"
+                   if isinstance(entry.get("bytes"), int) else "") + "): edited or truncated",
+                {"expected_sha256": entry["sha256"], "actual_sha256": actual}))
+    return findings
 
 
 def _differs(a, b) -> tuple[bool, float | None]:
@@ -564,6 +594,7 @@ def verify(submission: Path, *, results: Path | None = None,
     explanation = _explanation(integrity, submitted_version, __version__)
     differences = compare_figures(sub, result, explanation)
     findings = review(sub, result, load_tables(), reference_habitats, name_field)
+    findings = check_outputs(sub) + findings
     for row in integrity:
         if row["status"] != "ok":
             findings.insert(0, Finding(

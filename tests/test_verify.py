@@ -263,3 +263,22 @@ def test_a_run_record_that_is_not_an_object_is_refused(clean, tmp_path, capsys):
     (sub / "run.json").write_text("[1, 2, 3]")
     rc = main(["verify", str(sub), "--out", str(tmp_path / "v"), "--quiet"])
     assert rc == 2 and "not a run record" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("damage, code", [
+    (lambda sub: (sub / "report.html").write_text(
+        (sub / "report.html").read_text().replace("above threshold", "below threshold")),
+     "OUTPUT_CHANGED"),
+    (lambda sub: (sub / "deposition.tif").write_bytes((sub / "deposition.tif").read_bytes()[:500]),
+     "OUTPUT_CHANGED"),
+    (lambda sub: (sub / "receptors.csv").unlink(), "OUTPUT_MISSING"),
+], ids=["edited verdict in report.html", "truncated GeoTIFF", "deleted receptors.csv"])
+def test_edited_truncated_or_deleted_outputs_are_findings(clean, tmp_path, damage, code):
+    """Every output is hashed in run.json: an edited report, a truncated GeoTIFF or a deleted
+    table no longer verifies as consistent (exit 1)."""
+    sub = tmp_path / "sub"
+    shutil.copytree(clean, sub)
+    damage(sub)
+    result = verify(sub)
+    assert code in _codes(result)
+    assert result.exit_code == 1
