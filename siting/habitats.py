@@ -162,6 +162,14 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
     tiers = sorted(tables.thresholds, key=lambda t: t["threshold_percent"])
     tier_by_designation = {d.strip().lower(): t for t in tiers for d in t["designations"]}
     levels = tables.critical_levels
+    names = gdf[section.name_field].astype(str).str.strip()
+    repeated = names[names.duplicated()]
+    if len(repeated):
+        first = repeated.iloc[0]
+        features = ", ".join(str(i + 1) for i in np.flatnonzero((names == first).to_numpy()))
+        raise InputError(f'habitats.file {name}: features {features} share the site name '
+                         f'"{first}"; sites are reported and checked by name: give each a '
+                         "name of its own, or merge the parts of one site into one feature")
     absent_names = {n.strip().lower() for n in section.lichens_bryophytes_absent}
     site_names = {str(v).strip().lower() for v in gdf[section.name_field]}
     for missing in sorted(absent_names - site_names):

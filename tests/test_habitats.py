@@ -205,3 +205,11 @@ def test_bad_numbers_in_the_layer_are_named(tmp_path, tables, field, value, matc
     section = _section(path, critical_load_field="clo", background_deposition_field="bg")
     with pytest.raises(InputError, match=rf'feature 1 \("Bog"\).*{match}'):
         read_habitats(section, "EPSG:32632", tables)
+
+
+def test_two_sites_with_one_name_are_refused(tmp_path, tables):
+    """Sites are reported and verified by name: a repeated name stops the run naming the
+    features (it used to pass screen and crash verify)."""
+    path = _layer(tmp_path, ["Moss", "Heath", "Moss"], ["raised_bog", "dry_heath", "raised_bog"])
+    with pytest.raises(InputError, match=r'features 1, 3 share the site name "Moss"'):
+        read_habitats(_section(path), "EPSG:32632", tables)
