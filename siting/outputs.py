@@ -9,6 +9,7 @@ too.
 
 from __future__ import annotations
 
+import glob
 import hashlib
 import json
 import os
@@ -203,7 +204,7 @@ def recover_interrupted(out_dir: Path) -> list[str]:
     if not parent.is_dir():
         return done
     prefix = f".{out_dir.name}."
-    for partial in sorted(parent.glob(f"{glob_escape(prefix)}*.partial")):
+    for partial in sorted(parent.glob(f"{glob.escape(prefix)}*.partial")):
         if partial.is_dir() and not _alive(_staging_pid(partial)):
             backup = partial.with_name(partial.name.removesuffix(".partial") + ".old")
             if backup.is_dir() and not out_dir.exists():
@@ -211,7 +212,7 @@ def recover_interrupted(out_dir: Path) -> list[str]:
                 done.append(f"{out_dir}: put back the previous result from an interrupted run")
             shutil.rmtree(partial, ignore_errors=True)
             done.append(f"{partial}: removed the staging folder of an interrupted run")
-    for backup in sorted(parent.glob(f"{glob_escape(prefix)}*.old")):
+    for backup in sorted(parent.glob(f"{glob.escape(prefix)}*.old")):
         partial = backup.with_name(backup.name.removesuffix(".old") + ".partial")
         if not backup.is_dir() or partial.exists():
             continue  # its run is still writing (or was handled above)
@@ -222,13 +223,6 @@ def recover_interrupted(out_dir: Path) -> list[str]:
             shutil.rmtree(backup, ignore_errors=True)
             done.append(f"{backup}: removed the backup left by an interrupted run")
     return done
-
-
-def glob_escape(text: str) -> str:
-    """``text`` with glob wildcards taken literally (a folder name may hold [ or *)."""
-    import glob
-
-    return glob.escape(text)
 
 
 def input_paths(scenario, holding: bool = False) -> list[Path]:

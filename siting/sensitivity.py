@@ -37,9 +37,10 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
     rows = []
 
     def add(variant, frame, load_col="critical_load_used_kg_n_ha_yr", level=None):
-        pct_load = 100.0 * frame["pc_dep_max_kg_n_ha_yr"].to_numpy() / frame[load_col].to_numpy()
+        pct_load = assess.percent_of(frame["pc_dep_max_kg_n_ha_yr"].to_numpy(),
+                                     frame[load_col].to_numpy())
         pct_level = (frame["pc_pct_level"].to_numpy() if level is None
-                     else 100.0 * frame["pc_conc_max_ug_m3"].to_numpy() / level)
+                     else assess.percent_of(frame["pc_conc_max_ug_m3"].to_numpy(), level))
         verdicts = assess.verdict(pct_level, pct_load, frame["threshold_percent"].to_numpy(),
                                   frame["assessed"].to_numpy())
         for name, load, lev, v in zip(frame["name"], pct_load, pct_level, verdicts):
