@@ -23,6 +23,12 @@ def _plain(text) -> str:
 
     return escape(str(text))
 
+
+def _print_warnings(console, messages, **options) -> None:
+    """One "warning:" line per message, the message shown as itself."""
+    for message in messages:
+        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True, **options)
+
 EXIT_OK, EXIT_EXCEEDS, EXIT_BAD_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 
 
@@ -49,8 +55,7 @@ def _print_summary(result, out_dir: Path, quiet: bool) -> None:
                       fmt(row.pc_dep_max_kg_n_ha_yr), fmt(row.pc_pct_load, ".1f"),
                       f"{row.threshold_percent:g}", f"[{style}]{row.verdict}[/]")
     console.print(table)
-    for message in result.warnings:
-        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True)
+    _print_warnings(console, result.warnings)
     summary = result.sensitivity_summary
     if summary is not None and len(summary) and summary["verdict_flips"].any():
         for row in summary[summary["verdict_flips"]].itertuples():
@@ -135,8 +140,7 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path,
         table.add_row("temperature", f"{t['min']:.1f} / {t['mean']:.1f} / {t['max']:.1f} deg C "
                                      "(min / mean / max)")
     console.print(table)
-    for message in warnings_:
-        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True, soft_wrap=False)
+    _print_warnings(console, warnings_, soft_wrap=False)
     console.print(f"Outputs in {out_dir} (frequency_table.csv, wind_rose.png, "
                   "stability_by_speed.png, summary.json).")
 
@@ -212,8 +216,7 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
     passing = int(result.positions["passes_as_described"].sum())
     console.print(f"{passing:,} of {len(result.positions):,} positions pass every site's "
                   "threshold with the house as described.")
-    for message in result.warnings:
-        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True)
+    _print_warnings(console, result.warnings)
     console.print(f"Outputs in {out_dir} (map.html, positions.csv, suitability.tif).")
     console.print("Screening estimate only; local rules and the competent authority decide.",
                   style="dim")
@@ -326,8 +329,7 @@ def _print_region_summary(result, out_dir: Path) -> None:
                           f"{row.pc_pct_load:.1f}", f"{row.pc_pct_level:.1f}",
                           f"[{style}]{row.verdict}[/]", top)
         console.print(table)
-    for message in result.warnings:
-        console.print(f"[yellow]warning:[/] {_plain(message)}", markup=True)
+    _print_warnings(console, result.warnings)
     console.print(f"Outputs in {out_dir} (deposition.tif, concentration.tif, sites.csv, "
                   "contributors.csv, farms.csv, run.json).")
     console.print("Screening estimate only; local rules and the competent authority decide.",

@@ -171,8 +171,7 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
                          f'"{first}"; sites are reported and checked by name: give each a '
                          "name of its own, or merge the parts of one site into one feature")
     absent_names = {n.strip().lower() for n in section.lichens_bryophytes_absent}
-    site_names = {str(v).strip().lower() for v in gdf[section.name_field]}
-    for missing in sorted(absent_names - site_names):
+    for missing in sorted(absent_names - set(names.str.lower())):
         warnings.append(f'habitats.lichens_bryophytes_absent: "{missing}" is not a site name in '
                         f"{name}; it is ignored")
     fallback: set[str] = set()

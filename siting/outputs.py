@@ -446,7 +446,6 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         write_csv(result.sensitivity, folder / "sensitivity.csv")
     record = run_record(result, run_time)
     record["package"] = package_inputs(result, folder)
-    (folder / "run.json").write_text(json.dumps(record, indent=2, default=str), encoding="utf-8")
 
     sources_gdf = gpd.GeoDataFrame(result.sources.copy(), geometry=result.source_geometries,
                                    crs=result.scenario.crs)

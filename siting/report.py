@@ -557,6 +557,21 @@ def _thresholds_table(sites: pd.DataFrame) -> str:
     )
 
 
+_LOAD = "critical_load_used_kg_n_ha_yr"
+_UNDEPLETED = "pc_pct_load_undepleted"
+
+
+def _percent_or_missing(value: Any) -> str:
+    return MISSING_TEXT if is_missing(value) else format_percent(value)
+
+
+def _span(low: Any, high: Any) -> str:
+    """A sensitivity range of percentages, ``"5.6 – 24.1"``, or the missing mark."""
+    if is_missing(low) or is_missing(high):
+        return MISSING_TEXT
+    return f"{format_percent(low)} – {format_percent(high)}"
+
+
 def _cautious_section(choices, sites: pd.DataFrame, summary, end: str = "lower") -> str:
     """The run's modelling choices (each with its cautious default and the alternative), and
     per site the critical level's basis, what depletion took off and the sensitivity range."""
@@ -578,7 +593,7 @@ def _cautious_section(choices, sites: pd.DataFrame, summary, end: str = "lower")
     ranges = {}
     if summary is not None and len(summary):
         ranges = {str(r["site"]): r for _, r in summary.iterrows()}
-    undepleted = "pc_pct_load_undepleted" in sites.columns
+    undepleted = _UNDEPLETED in sites.columns
     head = (
         f"<th>{header_html('Site')}</th>"
         f"<th>{header_html('Critical level', 'µg NH3/m³, and why')}</th>"
@@ -592,29 +607,24 @@ def _cautious_section(choices, sites: pd.DataFrame, summary, end: str = "lower")
     for _, row in sites.iterrows():
         name = str(row.get("name"))
         r = ranges.get(name, {})
-
-        def span(lo, hi):
-            if is_missing(lo) or is_missing(hi):
-                return MISSING_TEXT
-            return f"{format_percent(lo)} – {format_percent(hi)}"
-
-        level = row.get("critical_level_ug_m3")
         basis = row.get("critical_level_basis")
-        flips = r.get("flipping_variants") if len(r) else None
-        rows.append(
-            f'<tr><td class="site">{esc(name)}</td>'
-            f"<td>{esc(format_for_column(level, 'critical_level_ug_m3'))}"
-            + (f'<span class="sub">{esc(basis)}</span>' if not is_missing(basis) else "")
-            + "</td>"
-            f"<td>{esc(format_for_column(row.get('critical_load_used_kg_n_ha_yr'), 'critical_load_used_kg_n_ha_yr'))}"
+        flips = r.get("flipping_variants")
+        cells = [
+            f'<td class="site">{esc(name)}</td>',
+            f"<td>{esc(format_for_column(row.get('critical_level_ug_m3'), 'critical_level_ug_m3'))}"
+            + ("" if is_missing(basis) else f'<span class="sub">{esc(basis)}</span>') + "</td>",
+            f"<td>{esc(format_for_column(row.get('critical_load_used_kg_n_ha_yr'), _LOAD))}"
             f'<span class="sub">{esc(row.get("critical_load_review", MISSING_TEXT))} review, '
-            f"{esc(end)} end</span></td>"
-            + (f'<td class="num">{esc(format_percent(row.get("pc_pct_load_undepleted")) if not is_missing(row.get("pc_pct_load_undepleted")) else MISSING_TEXT)}</td>'
-               if undepleted else "")
-            + f'<td class="num">{esc(span(r.get("min_pct_load"), r.get("max_pct_load")) if len(r) else MISSING_TEXT)}</td>'
-            f'<td class="num">{esc(span(r.get("min_pct_level"), r.get("max_pct_level")) if len(r) else MISSING_TEXT)}</td>'
-            f"<td>{esc(flips) if not is_missing(flips) and flips else 'none'}</td></tr>"
-        )
+            f"{esc(end)} end</span></td>",
+        ]
+        if undepleted:
+            cells.append(f'<td class="num">{esc(_percent_or_missing(row.get(_UNDEPLETED)))}</td>')
+        cells += [
+            f'<td class="num">{esc(_span(r.get("min_pct_load"), r.get("max_pct_load")))}</td>',
+            f'<td class="num">{esc(_span(r.get("min_pct_level"), r.get("max_pct_level")))}</td>',
+            f"<td>{esc(flips) if not is_missing(flips) and flips else 'none'}</td>",
+        ]
+        rows.append(f"<tr>{''.join(cells)}</tr>")
     parts.append("<h3>By site</h3>")
     parts.append(
         '<div class="table-wrap"><table class="compact"><thead><tr>'

@@ -35,7 +35,7 @@ from siting.longterm import (
 )
 from siting.plume import gep_stack_height_m
 from siting.scenario import ROLES, Scenario, SourceSpec, load_scenario
-from siting.tables import Tables, default_reduction_percent, load_tables
+from siting.tables import Tables, default_reduction_percent, is_claimed_reduction, load_tables
 from siting.weather import read_frequency_table
 
 MAX_GRID_CELLS = 2_000_000
@@ -145,7 +145,7 @@ def reduction_basis(src: SourceSpec, technique: dict) -> tuple[str, str]:
     lo = default_reduction_percent(technique)
     if src.reduction_percent is None:
         return f"lower end of the published range ({lo:g} %)", ""
-    if src.reduction_percent <= lo:
+    if not is_claimed_reduction(src.reduction_percent, technique):
         return src.reduction_basis or f"stated in the scenario ({src.reduction_percent:g} %)", ""
     if src.reduction_basis:
         return f"claimed: {src.reduction_basis}", ""

@@ -15,7 +15,7 @@ from pathlib import Path
 import pandas as pd
 
 from siting import assess
-from siting.tables import default_reduction_percent
+from siting.tables import is_claimed_reduction
 
 
 def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.DataFrame]:
@@ -81,9 +81,8 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
     rerun(f"wind below the anemometer: {other_wind.replace('_', ' ')}",
           section("weather", wind_below_anemometer=other_wind))
     claimed = [src.id for src in scenario.sources
-               if src.abatement and src.reduction_percent is not None
-               and src.abatement in tables.abatement
-               and src.reduction_percent > default_reduction_percent(tables.abatement[src.abatement])]
+               if src.abatement in tables.abatement
+               and is_claimed_reduction(src.reduction_percent, tables.abatement[src.abatement])]
     if claimed:
         lowered = [src.model_copy(update={"reduction_percent": None, "reduction_basis": None})
                    if src.id in claimed else src for src in scenario.sources]

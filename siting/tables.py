@@ -171,6 +171,12 @@ def default_reduction_percent(technique: dict) -> float:
     return float(technique["reduction_percent_min"])
 
 
+def is_claimed_reduction(reduction_percent: float | None, technique: dict) -> bool:
+    """Whether a stated reduction lies above the range's lower end: the user's claim, shown with
+    its basis and raised by ``siting verify`` (None, no stated figure, is no claim)."""
+    return reduction_percent is not None and reduction_percent > default_reduction_percent(technique)
+
+
 def load_tables(folder: Path | None = None) -> Tables:
     """Read and check every lookup table from ``folder`` (default: the bundled config/)."""
     folder = Path(folder) if folder is not None else config_dir()

@@ -33,7 +33,7 @@ from siting.errors import InputError, InputFileError, SitingError
 from siting.outputs import sha256_of, spreadsheet_text
 from siting.screen import outlet_rise
 from siting.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
-from siting.tables import default_reduction_percent
+from siting.tables import default_reduction_percent, is_claimed_reduction
 
 #: Site figures compared between the submission and the re-run.
 SITE_FIGURES = [
@@ -204,14 +204,10 @@ def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
     for key, relative in files.items():
         _inside(inputs, relative, f"package.files.{key}", record_path)
     _inside(inputs, package.get("config", "_config"), "package.config", record_path)
-    outputs = record.get("outputs", {})
-    if not isinstance(outputs, dict):
-        raise InputError(f"{record_path}: outputs must be a map, got {type(outputs).__name__}")
-    for relative, entry in outputs.items():
-        _inside(record_path.parent, relative, f"outputs.{relative}", record_path)
-        if not isinstance(entry, dict) or not isinstance(entry.get("sha256"), str):
-            raise InputError(f"{record_path}: outputs.{relative} needs a sha256 text")
-    for section in ("inputs", "config_tables"):
+    # hashed files: inputs (anywhere, by key), config tables (in inputs/_config), outputs (in
+    # the submission folder, by their relative path)
+    within = {"inputs": None, "config_tables": inputs / "_config", "outputs": record_path.parent}
+    for section, folder in within.items():
         entries = record.get(section, {})
         if not isinstance(entries, dict):
             raise InputError(f"{record_path}: {section} must be a map, got {type(entries).__name__}")
@@ -220,8 +216,8 @@ def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
                 raise InputError(f"{record_path}: {section}.{key} needs a sha256 text")
             if "path" in entry and not isinstance(entry["path"], str):
                 raise InputError(f"{record_path}: {section}.{key}.path must be text")
-            if section == "config_tables":
-                _inside(inputs / "_config", key, f"config_tables.{key}", record_path)
+            if folder is not None:
+                _inside(folder, key, f"{section}.{key}", record_path)
 
 
 def check_integrity(sub: Submission) -> list[dict]:
@@ -380,8 +376,7 @@ def review(sub: Submission, result, this_tables, reference_habitats: Path | None
                      "published_range_percent": f"{technique['reduction_percent_min']:g}-"
                                                 f"{technique['reduction_percent_max']:g}",
                      "source": technique["source"]}))
-            elif (technique and src.reduction_percent is not None
-                  and src.reduction_percent > default_reduction_percent(technique)):
+            elif technique and is_claimed_reduction(src.reduction_percent, technique):
                 lo = default_reduction_percent(technique)
                 findings.append(Finding(
                     "REDUCTION_CLAIMED", "medium" if src.reduction_basis else "high", subject,

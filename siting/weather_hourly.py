@@ -404,8 +404,7 @@ def direction_step_deg(direction_deg) -> float:
     """Reporting resolution of directions [deg]: 22.5, 10, 5 or 1 if all are multiples, else 0."""
     d = np.asarray(direction_deg, dtype=float)
     for step in _DIRECTION_STEPS_DEG:
-        ratio = d / step
-        if np.allclose(ratio, np.round(ratio), atol=1e-6):
+        if _all_multiples(d, step):
             return step
     return 0.0
 
