@@ -12,7 +12,9 @@ environmental total is background + PC where the habitat layer gives a backgroun
 from __future__ import annotations
 
 import dataclasses
+import hashlib
 import math
+import pickle
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -25,7 +27,8 @@ from siting.constants import KEQ_PER_KG_N, UG_PER_G, deposition_kg_n_ha_yr, kg_n
 from siting.emissions import derive_emission
 from siting.errors import InputError
 from siting.grids import GridSpec, grid_around
-from siting.habitats import read_habitats, site_boundary_points, site_sample_points
+from siting.habitats import (coarsened_sites, grid_nodes_in_sites, read_habitats,
+                             site_boundary_points, site_sample_points)
 from siting.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
 from siting.longterm import (
     DispersionSettings,
@@ -354,6 +357,33 @@ def _progress(enabled: bool):
                     TimeElapsedColumn(), transient=True)
 
 
+class RunCache:
+    """What the re-runs of one scenario (a sensitivity) share: the habitat layer as read and
+    each source's unit concentration at a set of points. An entry is keyed by a digest of
+    everything it depends on (inputs, tables, settings, weather, points), so a re-run that
+    changes any of them computes afresh; one that changes only emissions (the emission-factor
+    and abatement variants: the concentration is linear in the emission) reuses the
+    dispersion."""
+
+    def __init__(self) -> None:
+        self._store: dict[bytes, object] = {}
+
+    def get(self, key_parts: tuple, compute):
+        key = hashlib.blake2b(pickle.dumps(key_parts, protocol=5), digest_size=20).digest()
+        if key not in self._store:
+            self._store[key] = compute()
+        return self._store[key]
+
+
+def _habitats_key(scenario: Scenario, tables: Tables) -> tuple:
+    """Everything read_habitats depends on (the layer file by size and modification time)."""
+    stat = scenario.habitats.file.stat()
+    return ("habitats", scenario.habitats.model_dump_json(), scenario.crs, stat.st_size,
+            stat.st_mtime_ns, tables.critical_loads, tables.critical_levels, tables.thresholds,
+            tables.deposition_velocities, scenario.assessment.critical_load_end,
+            scenario.assessment.critical_load_review)
+
+
 @dataclass
 class Prepared:
     """What every run of a scenario needs before any dispersion: inputs read and checked."""
@@ -367,6 +397,7 @@ class Prepared:
     sites: object  # GeoDataFrame
     settings: DispersionSettings
     warnings: list[str]
+    cache: RunCache | None = None
 
     @property
     def cautions(self) -> list[str]:
@@ -386,6 +417,13 @@ class Prepared:
         depletion).
         """
         settings = settings or self.settings
+        if self.cache is not None:
+            key = ("unit", source_id, elements, settings, self.weather,
+                   self.hour_weights.get(source_id), np.asarray(receptor_x_m),
+                   np.asarray(receptor_y_m))
+            return self.cache.get(key, lambda: Prepared.unit_concentration_ug_m3(
+                dataclasses.replace(self, cache=None), source_id, elements, receptor_x_m,
+                receptor_y_m, settings))
         if isinstance(self.weather, HourlyWeather):
             unit = source_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, elements,
                                                    self.weather, settings,
@@ -410,10 +448,12 @@ class Prepared:
         return by_role
 
 
-def prepare(scenario: Scenario | str | Path, tables: Tables | None = None) -> Prepared:
+def prepare(scenario: Scenario | str | Path, tables: Tables | None = None,
+            cache: RunCache | None = None) -> Prepared:
     """Read and check a scenario's tables, weather, sources and habitats (no dispersion).
 
-    ``tables`` replaces the lookup tables the scenario names (a sensitivity run).
+    ``tables`` replaces the lookup tables the scenario names (a sensitivity run); ``cache``
+    is shared by the re-runs of one scenario (see RunCache).
     """
     if not isinstance(scenario, Scenario):
         scenario = load_scenario(scenario)
@@ -433,9 +473,13 @@ def prepare(scenario: Scenario | str | Path, tables: Tables | None = None) -> Pr
                                                                 weather_summary)
     sources, source_warnings = derive_sources(scenario, tables, treated_shares)
     warnings += source_warnings
-    sites, habitat_warnings = read_habitats(scenario.habitats, scenario.crs, tables,
-                                            scenario.assessment.critical_load_end,
-                                            scenario.assessment.critical_load_review)
+    def habitats():
+        return read_habitats(scenario.habitats, scenario.crs, tables,
+                             scenario.assessment.critical_load_end,
+                             scenario.assessment.critical_load_review)
+
+    sites, habitat_warnings = (cache.get(_habitats_key(scenario, tables), habitats)
+                               if cache is not None else habitats())
     warnings += habitat_warnings
     default_vd = tables.deposition_velocities[scenario.deposition.depletion_land_cover][
         "deposition_velocity_m_s"]
@@ -449,7 +493,7 @@ def prepare(scenario: Scenario | str | Path, tables: Tables | None = None) -> Pr
         wind_profile_min_height_m=scenario.weather.wind_profile_min_height_m,
         min_wind_speed_m_s=scenario.weather.min_wind_speed_m_s)
     return Prepared(scenario, tables, weather, weather_summary, hour_weights, sources, sites,
-                    settings, warnings)
+                    settings, warnings, cache)
 
 
 def _site_stats(conc_ug_m3, vd_m_s, member_receptor, member_site, member_interior, n_sites):
@@ -463,7 +507,7 @@ def _site_stats(conc_ug_m3, vd_m_s, member_receptor, member_site, member_interio
 
 def screen(scenario: Scenario | str | Path, *, progress: bool = False,
            tables: Tables | None = None, with_grid: bool = True,
-           sensitivity: bool = True) -> ScreenResult:
+           sensitivity: bool = True, cache: RunCache | None = None) -> ScreenResult:
     """Run a full screening assessment of a scenario (a file path or a loaded Scenario).
 
     ``tables`` replaces the scenario's lookup tables (used by sensitivity runs);
@@ -471,12 +515,13 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
     site figures come from their own points, so only a site's grid nodes are missing).
     ``sensitivity`` (with the grid) adds the two-sided sensitivity of every site
     (sensitivity.py): the same assumptions varied both ways, re-run at the sites' points.
+    ``cache`` is shared by the re-runs of one scenario (a sensitivity; see RunCache).
     """
     import geopandas as gpd
     import shapely
 
     clock = {"start": time.perf_counter()}
-    prep = prepare(scenario, tables)
+    prep = prepare(scenario, tables, cache)
     scenario, tables, weather = prep.scenario, prep.tables, prep.weather
     weather_summary, sources, sites = prep.weather_summary, prep.sources, prep.sites
     warnings = list(prep.warnings)
@@ -489,7 +534,7 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
                          f"{MAX_GRID_CELLS:,}; increase grid.spacing_m or reduce grid.margin_m")
     gx, gy = grid.centres() if with_grid else (np.empty((0, 0)), np.empty((0, 0)))
     extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
-    assessed = np.array([g.intersects(extent) for g in sites.geometry])
+    assessed = np.asarray(shapely.intersects(sites.geometry.values, extent), dtype=bool)
     for name in sites.loc[~assessed, "name"]:
         warnings.append(f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)')
 
@@ -500,6 +545,9 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
         [s.y for s in scenario.sources], scenario.grid.spacing_m)
     b_index, b_x, b_y = site_boundary_points(sites.geometry.iloc[assessed_idx],
                                              min(scenario.grid.spacing_m, BOUNDARY_SPACING_M))
+    warnings += coarsened_sites(sites.geometry.iloc[assessed_idx], sites["name"].iloc[assessed_idx],
+                                scenario.grid.spacing_m,
+                                min(scenario.grid.spacing_m, BOUNDARY_SPACING_M))
     s_index = np.concatenate([s_index, b_index])
     s_x, s_y = np.concatenate([s_x, b_x]), np.concatenate([s_y, b_y])
     s_interior = np.concatenate([s_interior, np.zeros(b_index.size, bool)])
@@ -514,12 +562,18 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
     default_vd = prep.default_deposition_velocity_m_s
     vd = np.full(rx.size, default_vd, dtype=float)
     member_site, member_receptor, member_interior = [s_index], [n_grid + n_named + np.arange(len(s_x))], [s_interior]
-    for i in assessed_idx:
-        geom = sites.geometry.iloc[i]
-        inside = np.flatnonzero(shapely.contains_xy(geom, rx[:n_grid], ry[:n_grid]))
-        vd[inside] = sites["deposition_velocity_m_s"].iloc[i]
-        member_site.append(np.full(inside.size, i)); member_receptor.append(inside)
-        member_interior.append(np.ones(inside.size, bool))
+    # grid nodes inside each site (one spatial-index query for all sites); a node inside two
+    # overlapping sites takes the higher of their deposition velocities (the cautious one)
+    if with_grid:
+        inside, site_of = grid_nodes_in_sites(sites.geometry.values[assessed_idx], grid)
+    else:
+        inside, site_of = np.zeros(0, int), np.zeros(0, int)
+    site_of = assessed_idx[site_of]
+    site_vd = sites["deposition_velocity_m_s"].to_numpy(float)
+    vd[inside] = -np.inf
+    np.maximum.at(vd, inside, site_vd[site_of])
+    member_site.append(site_of); member_receptor.append(inside)
+    member_interior.append(np.ones(inside.size, bool))
     named_vd = named["land_cover"].map(
         {k: v["deposition_velocity_m_s"] for k, v in tables.deposition_velocities.items()})
     vd[n_grid:n_grid + n_named] = named_vd.to_numpy(float)
@@ -543,7 +597,9 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
         if depleted:
             # what depletion took off: the same run without depletion, at the sites' points
             # (and grid nodes inside sites) only
-            at = np.unique(member_receptor)
+            # (every point without the grid: the same points as a run without depletion, so
+            # a sensitivity's re-runs share this dispersion through the cache)
+            at = np.unique(member_receptor) if with_grid else np.arange(rx.size)
             plain = dataclasses.replace(prep.settings, depletion_velocity_m_s=None)
             twin = prep.concentration_by_role_ug_m3(element_lists, rx[at], ry[at], plain,
                                                     advance=advance)
@@ -595,7 +651,7 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
                            if s.role in ("proposed", "existing")]
     if installation_shapes:
         union = shapely.union_all(installation_shapes)
-        out["distance_m"] = [g.distance(union) for g in sites.geometry]
+        out["distance_m"] = shapely.distance(sites.geometry.values, union)
     else:
         out["distance_m"] = np.nan
     out["assessed"] = assessed

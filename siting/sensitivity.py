@@ -31,10 +31,11 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
     points only (no grid), so a variant's site maximum can sit a little below the central
     run's where a grid node inside a site held it.
     """
-    from siting.screen import screen
+    from siting.screen import RunCache, screen
 
     sites = result.sites
-    rows = []
+    frames = []
+    cache = RunCache()  # the re-runs share the habitat layer and unchanged dispersion
 
     def add(variant, frame, load_col="critical_load_used_kg_n_ha_yr", level=None):
         pct_load = assess.percent_of(frame["pc_dep_max_kg_n_ha_yr"].to_numpy(),
@@ -43,12 +44,13 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
                      else assess.percent_of(frame["pc_conc_max_ug_m3"].to_numpy(), level))
         verdicts = assess.verdict(pct_level, pct_load, frame["threshold_percent"].to_numpy(),
                                   frame["assessed"].to_numpy())
-        for name, load, lev, v in zip(frame["name"], pct_load, pct_level, verdicts):
-            rows.append({"site": name, "variant": variant, "pct_load": load,
-                         "pct_level": lev, "verdict": v})
+        frames.append(pd.DataFrame({"site": frame["name"].to_numpy(), "variant": variant,
+                                    "pct_load": pct_load, "pct_level": pct_level,
+                                    "verdict": verdicts}))
 
     def rerun(variant, scen=scenario, tables=None):
-        add(variant, screen(scen, tables=tables, with_grid=False, sensitivity=False).sites)
+        add(variant, screen(scen, tables=tables, with_grid=False, sensitivity=False,
+                            cache=cache).sites)
 
     def section(name, **changes):
         return scenario.model_copy(update={
@@ -105,18 +107,27 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
             "frequency_table": None if hourly else path.resolve(),
             "hourly": [path.resolve()] if hourly else None})
         rerun(f"weather: {path.name}", scenario.model_copy(update={"weather": weather}))
-    long = pd.DataFrame(rows)
-    summary = []
-    for name, group in long.groupby("site", sort=False):
-        central = group[group["variant"] == "central"].iloc[0]
-        flips = group[group["verdict"] != central["verdict"]]
-        summary.append({"site": name, "central_pct_load": central["pct_load"],
-                        "min_pct_load": group["pct_load"].min(),
-                        "max_pct_load": group["pct_load"].max(),
-                        "central_pct_level": central["pct_level"],
-                        "min_pct_level": group["pct_level"].min(),
-                        "max_pct_level": group["pct_level"].max(),
-                        "central_verdict": central["verdict"],
-                        "verdict_flips": not flips.empty,
-                        "flipping_variants": ", ".join(flips["variant"])})
-    return long, pd.DataFrame(summary)
+    long = pd.concat(frames, ignore_index=True)
+    return long, _summary(long)
+
+
+def _summary(long: pd.DataFrame) -> pd.DataFrame:
+    """One row per site: its central, lowest and highest % of load and level over the
+    variants, and the variants (in run order) under which its verdict differs from central."""
+    central = long[long["variant"] == "central"].set_index("site")
+    by_site = long.groupby("site", sort=False)
+    flipped = long["verdict"].to_numpy() != long["site"].map(central["verdict"]).to_numpy()
+    flipping = (long[flipped].groupby("site", sort=False)["variant"].agg(", ".join)
+                .reindex(central.index, fill_value=""))
+    return pd.DataFrame({
+        "site": central.index.to_numpy(),
+        "central_pct_load": central["pct_load"].to_numpy(),
+        "min_pct_load": by_site["pct_load"].min().reindex(central.index).to_numpy(),
+        "max_pct_load": by_site["pct_load"].max().reindex(central.index).to_numpy(),
+        "central_pct_level": central["pct_level"].to_numpy(),
+        "min_pct_level": by_site["pct_level"].min().reindex(central.index).to_numpy(),
+        "max_pct_level": by_site["pct_level"].max().reindex(central.index).to_numpy(),
+        "central_verdict": central["verdict"].to_numpy(),
+        "verdict_flips": (flipping != "").to_numpy(),
+        "flipping_variants": flipping.to_numpy(),
+    })

@@ -213,3 +213,91 @@ def test_two_sites_with_one_name_are_refused(tmp_path, tables):
     path = _layer(tmp_path, ["Moss", "Heath", "Moss"], ["raised_bog", "dry_heath", "raised_bog"])
     with pytest.raises(InputError, match=r'features 1, 3 share the site name "Moss"'):
         read_habitats(_section(path), "EPSG:32632", tables)
+
+
+def _mixed_sites():
+    """Squares, a polygon with a hole, a two-part site and a thin diagonal strip (invented)."""
+    ring = shapely.Polygon([(0, 0), (200, 0), (200, 200), (0, 200)],
+                           holes=[[(50, 50), (150, 50), (150, 150), (50, 150)]])
+    return [shapely.box(300, 20, 360, 70), ring,
+            shapely.MultiPolygon([shapely.box(-400, -400, -340, -330), shapely.box(-300, -400, -260, -380)]),
+            shapely.Polygon([(500, 0), (900, 400), (905, 395), (505, -5)]),
+            shapely.box(-100, 500, -97, 503)]
+
+
+def test_sample_points_equal_a_per_site_reference():
+    """The vectorised sampler gives, site by site, what shapely's per-geometry functions give
+    (independent reference: nearest_points, representative_point and a lattice tested with
+    Polygon.contains on each point, one site at a time)."""
+    from shapely.ops import nearest_points
+
+    from siting.habitats import lattice_step_m
+
+    sites = _mixed_sites()
+    sources = [(250.0, 100.0), (-500.0, 600.0)]
+    index, x, y, interior = site_sample_points(sites, [s[0] for s in sources],
+                                               [s[1] for s in sources], 10.0)
+    steps = lattice_step_m(np.asarray(sites, dtype=object), 10.0)
+    for i, geom in enumerate(sites):
+        mine = index == i
+        expected = [nearest_points(geom.boundary, shapely.Point(sx, sy))[0] for sx, sy in sources]
+        rep = geom.representative_point()
+        minx, miny, maxx, maxy = geom.bounds
+        step = steps[i]
+        lattice = [(gx, gy) for gy in np.arange(miny + step / 2, maxy, step)
+                   for gx in np.arange(minx + step / 2, maxx, step)
+                   if geom.contains(shapely.Point(gx, gy))]
+        got = np.column_stack([x[mine], y[mine]])
+        assert np.allclose(got[:2], [(p.x, p.y) for p in expected])
+        assert not interior[mine][:2].any()
+        assert np.allclose(got[2], (rep.x, rep.y)) and interior[mine][2]
+        assert np.allclose(got[3:], np.reshape(lattice, (-1, 2)))
+
+
+def test_boundary_points_equal_a_per_ring_reference():
+    """Boundary samples: every ring split into max(8, ceil(length / spacing)) equal steps, as
+    shapely's line_interpolate_point gives ring by ring (independent reference)."""
+    from siting.habitats import site_boundary_points
+
+    sites = _mixed_sites()
+    index, x, y = site_boundary_points(sites, 10.0)
+    for i, geom in enumerate(sites):
+        expected = []
+        for part in shapely.get_parts(geom):
+            for ring in [part.exterior, *part.interiors]:
+                n = max(8, int(np.ceil(ring.length / 10.0)))
+                expected += [(p.x, p.y) for p in (ring.interpolate(d) for d in
+                                                 np.linspace(0, ring.length, n, endpoint=False))]
+        assert np.allclose(np.column_stack([x[index == i], y[index == i]]), expected)
+
+
+def test_grid_nodes_in_sites_equal_contains_on_every_node():
+    """Nodes inside each site (bounding-box candidates) equal shapely.contains_xy over the
+    whole grid for that site (independent reference, brute force)."""
+    from siting.grids import GridSpec
+    from siting.habitats import grid_nodes_in_sites
+
+    grid = GridSpec(-520.0, 620.0, 10.0, 150, 110, "EPSG:32632")
+    sites = _mixed_sites()
+    nodes, site_of = grid_nodes_in_sites(sites, grid)
+    gx, gy = grid.centres()
+    for i, geom in enumerate(sites):
+        brute = np.flatnonzero(shapely.contains_xy(geom, gx.ravel(), gy.ravel()))
+        assert sorted(nodes[site_of == i]) == list(brute)
+
+
+def test_very_long_polygon_gets_bounded_points_and_a_warning():
+    """A 2,000 km strip 1 m wide (absurd, issue 12 item 9) gets a bounded number of sample
+    points, quickly, and a warning naming it; a small site gets none (bounds: the module's
+    constants, common practice, no source)."""
+    from siting.habitats import (MAX_BOUNDARY_POINTS_PER_SITE, MAX_POINTS_PER_SITE,
+                                 coarsened_sites, site_boundary_points)
+
+    strip = shapely.box(0, 0, 2_000_000, 1)
+    small = shapely.box(0, 10, 30, 40)
+    index, *_ = site_sample_points([strip, small], [0.0], [-50.0], 25.0)
+    assert (index == 0).sum() <= MAX_POINTS_PER_SITE + 2
+    b_index, *_ = site_boundary_points([strip, small], 10.0)
+    assert (b_index == 0).sum() <= MAX_BOUNDARY_POINTS_PER_SITE + 8
+    warnings = coarsened_sites([strip, small], ["Long Strip", "Small"], 25.0, 10.0)
+    assert len(warnings) == 1 and '"Long Strip"' in warnings[0] and "Small" not in warnings[0]
