@@ -23,7 +23,7 @@ from pydantic import (
     model_validator,
 )
 
-from siting.errors import InputError, InputFileError
+from siting.errors import InputError, InputFileError, validation_wording
 from siting.tables import suggest
 
 FilePath = Annotated[Path, Field(strict=False)]
@@ -303,33 +303,24 @@ def _format_error(exc: ValidationError, raw: dict, filename: str) -> str:
     loc = tuple(k for k in err["loc"] if not (isinstance(k, str) and "[" in k))
     section, key = _where(loc, raw)
     prefix = f"{filename}, {section}" if section else filename
-    kind, ctx = err["type"], err.get("ctx") or {}
-    got = err.get("input")
+    kind, got = err["type"], err.get("input")
     if kind == "extra_forbidden":
         hint = suggest(loc[-1], _known_keys(loc)) if loc else ""
         return f"{prefix}: unknown key {key}{hint or ' (check the spelling; see the demo scenario)'}"
     if kind == "missing":
         return f"{prefix}: missing key {key}"
-    wording = {
-        "greater_than_equal": lambda: f"must be >= {ctx.get('ge')}",
-        "greater_than": lambda: f"must be > {ctx.get('gt')}",
-        "less_than_equal": lambda: f"must be <= {ctx.get('le')}",
-        "less_than": lambda: f"must be < {ctx.get('lt')}",
-        "float_parsing": lambda: "must be a number",
-        "float_type": lambda: "must be a number",
-        "int_parsing": lambda: "must be a whole number",
-        "bool_type": lambda: "must be true or false",
-        "bool_parsing": lambda: "must be true or false",
-        "string_type": lambda: "must be text in quotes",
-        "literal_error": lambda: f"must be one of {ctx.get('expected')}",
-        "too_short": lambda: "must not be empty",
-    }.get(kind)
-    if wording is None:
+    if kind not in _PLAIN_TYPES:
         msg = err["msg"].removeprefix("Value error, ")
         if isinstance(got, (dict, list)):
             return f"{prefix}: {key + ': ' if key else ''}{msg}"
         return f"{prefix}: {key + ': ' if key else ''}{msg}, got {got!r}"
-    return f"{prefix}: {key} {wording()}, got {got!r}"
+    return f"{prefix}: {key} {validation_wording(err)}"
+
+
+#: pydantic error types worded by errors.validation_wording (others keep pydantic's message)
+_PLAIN_TYPES = ("greater_than_equal", "greater_than", "less_than_equal", "less_than",
+                "float_parsing", "float_type", "int_parsing", "bool_type", "bool_parsing",
+                "string_type", "literal_error", "too_short", "finite_number")
 
 
 _CRS_FIX = "give a projected CRS in metres, e.g. the UTM zone of the site (EPSG:326xx north)"

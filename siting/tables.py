@@ -1,7 +1,8 @@
 """Loaders of the config/ lookup tables.
 
-Each table is a TOML file whose rows all carry a non-empty ``source``. A loader checks the keys,
-types and ranges it relies on and names the file, the row and the key in any error. Tables are
+Each table is a TOML file whose rows all carry a non-empty ``source``. Its shape (sections,
+keys, types, ranges, finite numbers) is checked by the pydantic models of table_schema.py, which
+name the file, the row and the key in any error; here only the checks across tables. Tables are
 read from the bundled config/ folder unless the caller passes another folder (a user may keep a
 copy edited for their jurisdiction). No physics here: rows become plain dicts and small arrays.
 """
@@ -10,7 +11,6 @@ from __future__ import annotations
 
 import difflib
 import hashlib
-import math
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
@@ -20,6 +20,7 @@ import numpy as np
 from siting.errors import InputError, InputFileError
 from siting.plume import STABILITY_CLASSES, SigmaScheme
 from siting.resources import config_dir
+from siting.table_schema import validate_table
 
 TABLE_FILES = {
     "emission_factors": ("emission_factors.toml", "factor"),
@@ -46,31 +47,6 @@ def _read_toml(path: Path) -> dict:
         raise InputFileError(f"{path}: table not found") from exc
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"{path}: not valid TOML: {exc}") from exc
-
-
-def _rows(path: Path, data: dict, key: str, required: dict[str, type]) -> list[dict]:
-    rows = data.get(key)
-    if not isinstance(rows, list) or not rows:
-        raise InputError(f"{path.name}: expected one or more [[{key}]] rows")
-    for i, row in enumerate(rows, start=1):
-        where = f"{path.name}, [[{key}]] row {i}"
-        if "id" in row or "livestock" in row:
-            where += f' ("{row.get("id", row.get("livestock"))}")'
-        for name, kind in required.items():
-            if name not in row:
-                raise InputError(f"{where}: missing key {name}")
-            value = row[name]
-            if kind is float and isinstance(value, int) and not isinstance(value, bool):
-                value = row[name] = float(value)
-            if not isinstance(value, kind):
-                raise InputError(f"{where}: {name} must be {kind.__name__}, got {value!r}")
-            if kind is float and not math.isfinite(value):
-                raise InputError(f"{where}: {name} must be a finite number, got {value}")
-            if kind is float and value < 0:
-                raise InputError(f"{where}: {name} must be >= 0, got {value}")
-        if not str(row.get("source", "")).strip():
-            raise InputError(f"{where}: every row needs a non-empty source")
-    return rows
 
 
 @dataclass(frozen=True)
@@ -144,22 +120,7 @@ def wind_exponents(dispersion: dict, land_type: str) -> np.ndarray:
 def load_dispersion(folder: Path | None = None) -> dict:
     """The dispersion table alone (checked), for users of the physics without a scenario."""
     path = (Path(folder) if folder is not None else config_dir()) / TABLE_FILES["dispersion"][0]
-    data = _read_toml(path)
-    _check_dispersion(path, data)
-    return data
-
-
-def _check_dispersion(path: Path, data: dict) -> None:
-    for key in ("briggs", "pasquill_gifford", "wind_exponent"):
-        rows = data.get(key, [])
-        for row in rows:
-            if not str(row.get("source", "")).strip():
-                raise InputError(f"{path.name}: a [[{key}]] row has no source")
-    for land_type in ("rural", "urban"):
-        have = {r["stability"] for r in data.get("briggs", []) if r.get("land_type") == land_type}
-        if have != set(STABILITY_CLASSES):
-            raise InputError(f"{path.name}: Briggs {land_type} rows must cover classes A-F, "
-                             f"got {sorted(have)}")
+    return validate_table("dispersion", _read_toml(path), path.name)
 
 
 def default_reduction_percent(technique: dict) -> float:
@@ -188,92 +149,30 @@ def load_tables(folder: Path | None = None) -> Tables:
         hashes[filename] = hashlib.sha256(path.read_bytes()).hexdigest()
         data[name] = (_read_toml(path), path)
 
-    def rows(name, required):
-        raw, path = data[name]
-        return _rows(path, raw, TABLE_FILES[name][1], required)
-
-    factors = rows("emission_factors", {"livestock": str, "housing": str,
-                                        "nh3_kg_per_place_yr": float})
-    abatement = rows("abatement", {"id": str, "name": str, "kind": str,
-                                   "reduction_percent_min": float,
-                                   "reduction_percent_max": float})
-    for row in abatement:
-        # the typical reported figure is for information only (reports, appraisal); the
-        # figure used when a scenario states none is the range's lower end. Older tables
-        # named it reduction_percent_default.
-        if "reduction_percent_typical" not in row and "reduction_percent_default" in row:
-            row["reduction_percent_typical"] = row.pop("reduction_percent_default")
-        lo, hi = row["reduction_percent_min"], row["reduction_percent_max"]
-        mid = row.setdefault("reduction_percent_typical", lo)
-        if not isinstance(mid, (int, float)) or isinstance(mid, bool):
-            raise InputError(f'abatement.toml, technique "{row["id"]}": '
-                             f"reduction_percent_typical must be a number, got {mid!r}")
-        if not lo <= mid <= hi <= 100:
-            raise InputError(f'abatement.toml, technique "{row["id"]}": need min <= typical <= '
-                             f"max <= 100, got {lo}, {mid}, {hi}")
-    loads = rows("critical_loads", {"id": str, "name": str,
-                                    "critical_load_min_kg_n_ha_yr": float,
-                                    "critical_load_max_kg_n_ha_yr": float,
-                                    "land_cover": str, "lichens_bryophytes": bool})
-    levels = rows("critical_levels", {"id": str, "critical_level_ug_m3": float})
-    velocities = rows("deposition_velocities", {"id": str, "deposition_velocity_m_s": float,
-                                                "deposition_velocity_min_m_s": float,
-                                                "deposition_velocity_max_m_s": float})
-    tiers = rows("thresholds", {"id": str, "threshold_percent": float, "designations": list})
-    for row in loads:
-        where = f'critical_loads.toml, habitat "{row["id"]}"'
-        for key in ("critical_load_min_kg_n_ha_yr", "critical_load_max_kg_n_ha_yr"):
-            if not 0 < row[key] < math.inf:
-                raise InputError(f"{where}: {key} must be a positive finite number, got {row[key]}")
-        if row["critical_load_min_kg_n_ha_yr"] > row["critical_load_max_kg_n_ha_yr"]:
-            raise InputError(f"{where}: critical_load_min_kg_n_ha_yr is above the max")
-        review = [k for k in ("critical_load_2022_min_kg_n_ha_yr",
-                              "critical_load_2022_max_kg_n_ha_yr", "source_2022") if k in row]
-        if review:  # the 2022 review's range: all three keys or none
-            if len(review) != 3:
-                missing = sorted({"critical_load_2022_min_kg_n_ha_yr",
-                                  "critical_load_2022_max_kg_n_ha_yr", "source_2022"} - set(review))
-                raise InputError(f"{where}: missing key {', '.join(missing)} (the 2022 range "
-                                 "needs its min, max and source_2022)")
-            lo, hi = row["critical_load_2022_min_kg_n_ha_yr"], row["critical_load_2022_max_kg_n_ha_yr"]
-            if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (lo, hi)):
-                raise InputError(f"{where}: the 2022 range must be numbers, got {lo!r}, {hi!r}")
-            if not 0 < lo <= hi < math.inf:
-                raise InputError(f"{where}: need 0 < critical_load_2022_min <= max, got {lo}, {hi}")
-            row["critical_load_2022_min_kg_n_ha_yr"], row["critical_load_2022_max_kg_n_ha_yr"] = (
-                float(lo), float(hi))
-            if not str(row["source_2022"]).strip():
-                raise InputError(f"{where}: source_2022 must not be empty")
+    checked = {name: validate_table(name, raw, path.name) for name, (raw, path) in data.items()}
+    factors = checked["emission_factors"]["factor"]
+    loads = checked["critical_loads"]["habitat"]
+    levels = checked["critical_levels"]["level"]
+    velocities = checked["deposition_velocities"]["land_cover"]
     land_covers = {r["id"] for r in velocities}
-    for row in loads:
+    for i, row in enumerate(loads, start=1):
         if row["land_cover"] not in land_covers:
-            raise InputError(f'critical_loads.toml, habitat "{row["id"]}": land_cover '
-                             f'"{row["land_cover"]}" is not in deposition_velocities.toml')
+            raise InputError(f'critical_loads.toml, [[habitat]] row {i} ("{row["id"]}"): '
+                             f'land_cover "{row["land_cover"]}" is not in '
+                             f"deposition_velocities.toml{suggest(row['land_cover'], land_covers)}")
     for needed in ("lichens_bryophytes", "higher_plants"):
         if needed not in {r["id"] for r in levels}:
-            raise InputError(f'critical_levels.toml: missing level "{needed}"')
-    uncertainty = data["emission_factors"][0].get("uncertainty")
-    if uncertainty is not None:
-        where = "emission_factors.toml, [uncertainty]"
-        value = uncertainty.get("emission_factor_percent") if isinstance(uncertainty, dict) else None
-        if (not isinstance(value, (int, float)) or isinstance(value, bool)
-                or not 0 < value < 100):
-            raise InputError(f"{where}: emission_factor_percent must be a number in (0, 100), "
-                             f"got {value!r}")
-        if not str(uncertainty.get("source", "")).strip():
-            raise InputError(f"{where}: needs a non-empty source")
-        uncertainty = {"emission_factor_percent": float(value), "source": uncertainty["source"]}
-    dispersion, dispersion_path = data["dispersion"]
-    _check_dispersion(dispersion_path, dispersion)
+            raise InputError(f'critical_levels.toml: missing level "{needed}" (a [[level]] row '
+                             f'with id = "{needed}")')
     return Tables(
         folder=folder,
         emission_factors=factors,
-        abatement={r["id"]: r for r in abatement},
+        abatement={r["id"]: r for r in checked["abatement"]["technique"]},
         critical_loads={r["id"]: r for r in loads},
         critical_levels={r["id"]: r for r in levels},
         deposition_velocities={r["id"]: r for r in velocities},
-        thresholds=tiers,
-        dispersion=dispersion,
+        thresholds=checked["thresholds"]["tier"],
+        dispersion=checked["dispersion"],
         files_sha256=hashes,
-        emission_factor_uncertainty=uncertainty,
+        emission_factor_uncertainty=checked["emission_factors"].get("uncertainty"),
     )
