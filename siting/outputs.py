@@ -124,18 +124,86 @@ def is_siting_output(folder: Path) -> bool:
     return False
 
 
-def check_output_dir(out_dir: Path, overwrite: bool, inputs=()) -> None:
+#: Free space asked for any output folder beyond its own estimate [bytes]: the page assets,
+#: report and tables of a small run (common practice, no source).
+MIN_FREE_BYTES = 20_000_000
+
+
+def _lock_path(out_dir: Path) -> Path:
+    return out_dir.parent / f".{out_dir.name}.lock"
+
+
+def _lock_owner(out_dir: Path):
+    """The process id of a run of this machine writing ``out_dir`` now, else None (a lock
+    left by a dead run does not count)."""
+    try:
+        pid = json.loads(_lock_path(out_dir).read_text(encoding="utf-8")).get("pid")
+    except (OSError, ValueError, AttributeError):
+        return None
+    return pid if pid != os.getpid() and _alive(pid) else None
+
+
+def _busy_message(out_dir: Path, pid) -> str:
+    return (f"{out_dir}: another siting run (process {pid}) is writing this folder now; wait "
+            "for it to finish or choose another --out")
+
+
+@contextmanager
+def _writing_lock(out_dir: Path) -> Iterator[None]:
+    """Hold ``.<name>.lock`` beside ``out_dir`` while writing it: a second run into the same
+    folder stops with OutputExistsError instead of racing the first (created atomically with
+    O_EXCL; a lock whose run is gone is taken over)."""
+    lock = _lock_path(out_dir)
+    body = json.dumps({"written_by": "siting", "pid": os.getpid()}).encode("utf-8")
+    for _ in range(2):
+        try:
+            fd = os.open(lock, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o644)
+        except FileExistsError:
+            pid = _lock_owner(out_dir)
+            if pid is not None:
+                raise OutputExistsError(_busy_message(out_dir, pid)) from None
+            lock.unlink(missing_ok=True)  # a dead run's lock
+            continue
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(body)
+        break
+    else:
+        raise OutputExistsError(_busy_message(out_dir, "unknown"))
+    try:
+        yield
+    finally:
+        lock.unlink(missing_ok=True)
+
+
+def _check_space(folder: Path, need_bytes: int, out_dir: Path) -> None:
+    try:
+        free = shutil.disk_usage(folder).free
+    except OSError:
+        return  # unknown: the write itself will tell
+    need = int(need_bytes) + MIN_FREE_BYTES
+    if free < need:
+        raise OutputExistsError(f"{out_dir}: not enough free space in {folder} (about "
+                                f"{need / 1e6:,.0f} MB needed, {free / 1e6:,.0f} MB free); "
+                                "free some space or choose another --out")
+
+
+def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int = 0) -> None:
     """Refuse early (before any work) an output folder that must not be written or replaced.
 
     It must not exist, unless ``overwrite`` is given; and then only a folder siting wrote
     (:func:`is_siting_output`) is replaced, never the current folder or one of its parents,
-    and never one that holds any of the run's ``inputs`` (paths). Each refusal names why.
+    and never one that holds any of the run's ``inputs`` (paths). Its parent must be a folder
+    we may write in, with room for ``need_bytes`` (the run's estimate) plus MIN_FREE_BYTES,
+    and no other run may be writing it now. Each refusal names why.
     """
     out_dir = Path(out_dir).resolve()
     recover_interrupted(out_dir)
     if len(out_dir.name.encode("utf-8")) > 255:
         raise OutputExistsError(f"{out_dir.name[:40]}...: output folder name is longer than "
                                 "255 bytes; choose a shorter --out")
+    pid = _lock_owner(out_dir)
+    if pid is not None:
+        raise OutputExistsError(_busy_message(out_dir, pid))
     if not out_dir.exists():
         parent = out_dir.parent
         while not parent.exists():
@@ -145,6 +213,7 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=()) -> None:
         if not os.access(parent, os.W_OK | os.X_OK):
             raise OutputExistsError(f"{out_dir}: cannot write in {parent} (no permission); "
                                     "choose another --out")
+        _check_space(parent, need_bytes, out_dir)
         return
     if not os.access(out_dir.parent, os.W_OK | os.X_OK):
         raise OutputExistsError(f"{out_dir}: cannot write in {out_dir.parent} (no permission); "
@@ -168,6 +237,7 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=()) -> None:
         raise OutputExistsError(f"{out_dir}: is not a folder siting wrote (no {OUTPUT_MARKER} "
                                 "or run record in it); --overwrite replaces only siting's own "
                                 "output folders: choose another --out folder")
+    _check_space(out_dir.parent, need_bytes, out_dir)  # the old result stays until the swap
 
 
 def _alive(pid) -> bool:
@@ -190,6 +260,13 @@ def _staging_pid(staging: Path):
         return None
 
 
+def _own_lock(lock: Path) -> bool:
+    try:
+        return json.loads(lock.read_text(encoding="utf-8")).get("pid") == os.getpid()
+    except (OSError, ValueError, AttributeError):
+        return False
+
+
 def recover_interrupted(out_dir: Path) -> list[str]:
     """Tidy what a run killed while writing ``out_dir`` left beside it; what was done, in words.
 
@@ -203,6 +280,10 @@ def recover_interrupted(out_dir: Path) -> list[str]:
     done: list[str] = []
     if not parent.is_dir():
         return done
+    lock = _lock_path(out_dir)
+    if lock.is_file() and _lock_owner(out_dir) is None and not _own_lock(lock):
+        lock.unlink(missing_ok=True)
+        done.append(f"{lock}: removed the lock of an interrupted run")
     prefix = f".{out_dir.name}."
     for partial in sorted(parent.glob(f"{glob.escape(prefix)}*.partial")):
         if partial.is_dir() and not _alive(_staging_pid(partial)):
@@ -395,13 +476,16 @@ def _habitat_values(sites) -> pd.DataFrame:
 
 def _contour_levels(sites) -> list[tuple[float, str]]:
     """Deposition contours at each assessed site's threshold share of its critical load."""
+    assessed = sites["assessed"].to_numpy(dtype=bool)
+    threshold = sites["threshold_percent"].to_numpy(dtype=float)[assessed]
+    load = sites["critical_load_used_kg_n_ha_yr"].to_numpy(dtype=float)[assessed]
     levels = {}
-    for row in sites.itertuples():
-        if not row.assessed:
-            continue
-        value = row.threshold_percent / 100.0 * row.critical_load_used_kg_n_ha_yr
-        label = f"{row.threshold_percent:g} % of {row.critical_load_used_kg_n_ha_yr:g} kg N/ha/yr"
-        levels.setdefault(round(value, 6), label)
+    if threshold.size:
+        # each distinct (threshold, load) pair once, in layer order: thousands of sites share few
+        _, first = np.unique(np.column_stack([threshold, load]), axis=0, return_index=True)
+        for i in sorted(first):
+            value = float(threshold[i]) / 100.0 * float(load[i])
+            levels.setdefault(round(value, 6), f"{threshold[i]:g} % of {load[i]:g} kg N/ha/yr")
     return sorted(levels.items())
 
 
@@ -560,10 +644,29 @@ def cautious_choices(result) -> list[tuple[str, str, str]]:
     return choices
 
 
+def estimate_screen_bytes(scenario) -> int:
+    """A generous estimate of a screening run's output folder [bytes], known before any work:
+    three float32 GeoTIFFs and the map's image of the grid (uncompressed, 4 bytes a cell),
+    and four times the inputs (their packaged copy, and the habitat sites again in
+    sites.gpkg, the map and the report)."""
+    from siting.grids import grid_around
+
+    grid = grid_around([s.x for s in scenario.sources], [s.y for s in scenario.sources],
+                       scenario.grid.margin_m, scenario.grid.spacing_m, scenario.crs)
+    inputs = 0
+    for path in input_paths(scenario):
+        try:
+            inputs += Path(path).stat().st_size
+        except (OSError, TypeError):
+            continue
+    return 4 * 4 * grid.size + 4 * inputs
+
+
 def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
     """Write every output of a screening run atomically into ``out_dir``; returns it."""
     out_dir = Path(out_dir).resolve()
-    check_output_dir(out_dir, overwrite, input_paths(result.scenario))
+    check_output_dir(out_dir, overwrite, input_paths(result.scenario),
+                     need_bytes=estimate_screen_bytes(result.scenario))
     run_time = datetime.now(timezone.utc).replace(microsecond=0).isoformat()
     with staged_folder(out_dir, overwrite) as staging:
         _write_all(result, staging, run_time)
@@ -604,6 +707,12 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
     out_dir = Path(out_dir).resolve()
     check_output_dir(out_dir, overwrite)
     out_dir.parent.mkdir(parents=True, exist_ok=True)
+    with _writing_lock(out_dir):
+        yield from _staged(out_dir, overwrite)
+
+
+def _staged(out_dir: Path, overwrite: bool) -> Iterator[Path]:
+    """The body of staged_folder, run while this run holds the folder's lock."""
     staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", suffix=".partial",
                                     dir=out_dir.parent))
     try:
@@ -628,7 +737,13 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
                 raise
             shutil.rmtree(backup)
         else:
-            staging.rename(out_dir)
+            try:
+                staging.rename(out_dir)
+            except OSError:
+                if out_dir.exists():  # made by someone else between the check and the rename
+                    raise OutputExistsError(f"{out_dir}: appeared while this run was writing; "
+                                            "nothing of this run was kept") from None
+                raise
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise

@@ -180,3 +180,71 @@ def test_stale_staging_of_a_dead_run_is_removed_and_a_live_one_kept(tmp_path):
         (folder / OUTPUT_MARKER).write_text(json.dumps({"pid": pid}), encoding="utf-8")
     check_output_dir(tmp_path / "out", overwrite=False)
     assert not dead.exists() and live.exists()
+
+
+_HOLDER = """
+import sys
+from siting.outputs import staged_folder
+with staged_folder(sys.argv[1], overwrite=True) as staging:
+    (staging / "first.txt").write_text("first run", encoding="utf-8")
+    print("writing", flush=True)
+    sys.stdin.readline()  # hold the folder until the test says go
+"""
+
+
+def test_a_second_run_into_a_folder_being_written_stops_with_a_line(tmp_path):
+    """While one process writes a folder (it holds the lock), another run into the same folder
+    is refused before any work and at its own writing, naming the writer; the first run then
+    finishes and leaves no lock (issue 12 item 2: one wins, the others exit 2)."""
+    import subprocess
+    import sys
+
+    out_dir = tmp_path / "out"
+    holder = subprocess.Popen([sys.executable, "-c", _HOLDER, str(out_dir)],
+                              stdin=subprocess.PIPE, stdout=subprocess.PIPE, text=True)
+    try:
+        assert holder.stdout.readline().strip() == "writing"  # synchronised, not timed
+        message = rf"another siting run \(process {holder.pid}\) is writing this folder now"
+        with pytest.raises(OutputExistsError, match=message):
+            check_output_dir(out_dir, overwrite=True)
+        with pytest.raises(OutputExistsError, match=message):
+            with staged_folder(out_dir, overwrite=True) as staging:
+                pass
+        holder.communicate("go\n", timeout=60)
+    finally:
+        holder.kill()
+    assert holder.returncode == 0
+    assert (out_dir / "first.txt").read_text(encoding="utf-8") == "first run"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]  # no lock, no staging left
+
+
+def test_a_lock_left_by_a_dead_run_is_taken_over(tmp_path):
+    """A lock whose process is gone (a killed run) does not block the next run."""
+    import json
+    import subprocess
+    import sys
+
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True, check=True)
+    out_dir = tmp_path / "out"
+    (tmp_path / ".out.lock").write_text(json.dumps({"pid": int(dead.stdout)}), encoding="utf-8")
+    with staged_folder(out_dir, overwrite=False) as staging:
+        (staging / "new.txt").write_text("new", encoding="utf-8")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+
+
+def test_too_little_free_space_is_refused_before_any_work(tmp_path, monkeypatch):
+    """A folder whose disk lacks room for the run's estimate is refused early, with the sizes
+    (issue 12 item 3); the old result stays."""
+    import shutil
+    from collections import namedtuple
+
+    usage = namedtuple("usage", "total used free")
+    monkeypatch.setattr(shutil, "disk_usage", lambda path: usage(10**9, 10**9 - 5_000_000,
+                                                                 5_000_000))
+    with pytest.raises(OutputExistsError, match=r"not enough free space .*MB needed, 5 MB free"):
+        check_output_dir(tmp_path / "out", overwrite=False, need_bytes=1_000_000)
+    old = _old_result(tmp_path / "old")
+    with pytest.raises(OutputExistsError, match="not enough free space"):
+        check_output_dir(old, overwrite=True)
+    assert (old / "old.txt").read_text(encoding="utf-8") == "old result"
