@@ -14,8 +14,9 @@ import hashlib
 import json
 import os
 import platform
+import secrets
 import shutil
-import tempfile
+import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from datetime import datetime, timezone
@@ -129,6 +130,11 @@ def is_siting_output(folder: Path) -> bool:
 MIN_FREE_BYTES = 20_000_000
 
 
+#: Longest output folder name [bytes]: a file name may have 255, and the staging folder beside
+#: it is named ".<name>.<8 hex>.partial" (18 more).
+MAX_NAME_BYTES = 255 - 18
+
+
 def _lock_path(out_dir: Path) -> Path:
     return out_dir.parent / f".{out_dir.name}.lock"
 
@@ -197,10 +203,12 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int 
     and no other run may be writing it now. Each refusal names why.
     """
     out_dir = Path(out_dir).resolve()
+    size = len(out_dir.name.encode("utf-8"))
+    if size > MAX_NAME_BYTES:
+        raise OutputExistsError(f"{out_dir.name[:40]}...: output folder name is too long "
+                                f"({size} bytes; at most {MAX_NAME_BYTES}, which leaves room for "
+                                "the staging folder's name beside it); choose a shorter --out")
     recover_interrupted(out_dir)
-    if len(out_dir.name.encode("utf-8")) > 255:
-        raise OutputExistsError(f"{out_dir.name[:40]}...: output folder name is longer than "
-                                "255 bytes; choose a shorter --out")
     pid = _lock_owner(out_dir)
     if pid is not None:
         raise OutputExistsError(_busy_message(out_dir, pid))
@@ -260,6 +268,21 @@ def _staging_pid(staging: Path):
         return None
 
 
+#: A staging folder without its marker (a run killed within moments of making it) counts as
+#: dead once it is this old [s] (common practice, no source).
+UNMARKED_STAGING_STALE_S = 600
+
+
+def _dead_staging(partial: Path) -> bool:
+    pid = _staging_pid(partial)
+    if pid is None and not (partial / OUTPUT_MARKER).exists():
+        try:
+            return time.time() - partial.stat().st_mtime > UNMARKED_STAGING_STALE_S
+        except OSError:
+            return False
+    return not _alive(pid)
+
+
 def _own_lock(lock: Path) -> bool:
     try:
         return json.loads(lock.read_text(encoding="utf-8")).get("pid") == os.getpid()
@@ -286,7 +309,7 @@ def recover_interrupted(out_dir: Path) -> list[str]:
         done.append(f"{lock}: removed the lock of an interrupted run")
     prefix = f".{out_dir.name}."
     for partial in sorted(parent.glob(f"{glob.escape(prefix)}*.partial")):
-        if partial.is_dir() and not _alive(_staging_pid(partial)):
+        if partial.is_dir() and _dead_staging(partial):
             backup = partial.with_name(partial.name.removesuffix(".partial") + ".old")
             if backup.is_dir() and not out_dir.exists():
                 backup.rename(out_dir)
@@ -688,7 +711,7 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
     ------
     staging : Path
         A new, empty folder ``.<name>.<random>.partial`` in the parent of ``out_dir``, mode
-        0o755 (``tempfile.mkdtemp`` makes it 0o700; the result is an ordinary folder).
+        0o755 (the result is an ordinary folder).
 
     Raises
     ------
@@ -711,12 +734,33 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
         yield from _staged(out_dir, overwrite)
 
 
+class InterruptedAfterWriting(KeyboardInterrupt):
+    """An interrupt (Ctrl-C, SIGTERM, SIGHUP) that came once the new output folder was in
+    place: the run's result is complete, only tidying was cut short (``out_dir``)."""
+
+    def __init__(self, out_dir: Path) -> None:
+        super().__init__(str(out_dir))
+        self.out_dir = out_dir
+
+
 def _staged(out_dir: Path, overwrite: bool) -> Iterator[Path]:
-    """The body of staged_folder, run while this run holds the folder's lock."""
-    staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.", suffix=".partial",
-                                    dir=out_dir.parent))
+    """The body of staged_folder, run while this run holds the folder's lock.
+
+    The result is committed at the rename of the staging folder to ``out_dir``: an exception
+    before it leaves ``out_dir`` as it was (the previous result renamed back if it had been
+    moved aside) and removes the staging folder; an interrupt after it removes the backup of
+    the previous result and is raised as InterruptedAfterWriting (the new result is whole).
+    """
+    staging = backup = None
     try:
-        staging.chmod(0o755)
+        while staging is None:  # a name of its own; named before it is made, so an
+            # interrupt just after mkdir still finds and removes it
+            staging = out_dir.parent / f".{out_dir.name}.{secrets.token_hex(4)}.partial"
+            try:
+                staging.mkdir(mode=0o755)
+            except FileExistsError:
+                staging = None
+        staging.chmod(0o755)  # whatever the umask: the result is an ordinary folder
         from siting import __version__
 
         (staging / OUTPUT_MARKER).write_text(json.dumps({
@@ -733,17 +777,29 @@ def _staged(out_dir: Path, overwrite: bool) -> Iterator[Path]:
             try:
                 staging.rename(out_dir)
             except BaseException:
-                backup.rename(out_dir)
+                if staging.exists() and not out_dir.exists():
+                    backup.rename(out_dir)  # the new folder never went in: the old one back
                 raise
             shutil.rmtree(backup)
         else:
             try:
                 staging.rename(out_dir)
             except OSError:
-                if out_dir.exists():  # made by someone else between the check and the rename
+                if out_dir.exists() and staging.exists():  # made by someone else meanwhile
                     raise OutputExistsError(f"{out_dir}: appeared while this run was writing; "
                                             "nothing of this run was kept") from None
                 raise
-    except BaseException:
-        shutil.rmtree(staging, ignore_errors=True)
+    except BaseException as exc:
+        committed = staging is not None and not staging.exists() and out_dir.is_dir()
+        if not committed:
+            if staging is not None:
+                shutil.rmtree(staging, ignore_errors=True)
+            raise
+        if backup is not None and backup.exists():
+            try:
+                shutil.rmtree(backup, ignore_errors=True)
+            except BaseException:  # a second interrupt: the next run removes it
+                pass
+        if isinstance(exc, KeyboardInterrupt) and not isinstance(exc, InterruptedAfterWriting):
+            raise InterruptedAfterWriting(out_dir) from exc
         raise

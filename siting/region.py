@@ -156,12 +156,17 @@ class RegionOptions:
                              f"at most 100000 m, got {self.margin_m:g}")
         if self.tile_size is not None and self.tile_size < 16:
             raise InputError(f"--tile-size must be >= 16 cells, got {self.tile_size}")
-        if not self.memory_mb > 0:
-            raise InputError(f"--memory-mb must be > 0, got {self.memory_mb:g}")
+        if not 0 < self.memory_mb < math.inf:
+            raise InputError(f"--memory-mb must be a finite number > 0, got {self.memory_mb:g}")
+        physical = _physical_memory_mb()
+        if physical and self.memory_mb > physical:
+            raise InputError(f"--memory-mb {self.memory_mb:g} is more than this machine has "
+                             f"({physical:,.0f} MB); give at most that")
         if self.workers is not None and self.workers < 1:
             raise InputError(f"--workers must be >= 1, got {self.workers}")
-        if self.reach_m is not None and not self.reach_m >= self.spacing_m:
-            raise InputError(f"--reach-m must be at least the spacing, got {self.reach_m:g}")
+        if self.reach_m is not None and not self.spacing_m <= self.reach_m < math.inf:
+            raise InputError(f"--reach-m must be a finite distance at least the spacing, got "
+                             f"{self.reach_m:g}")
         if self.top < 1:
             raise InputError(f"--top must be >= 1, got {self.top}")
         if not 0 < self.anemometer_height_m <= 300:  # NaN and inf fail too
@@ -176,6 +181,14 @@ class RegionOptions:
             raise InputError(f"placement must be bilinear or nearest, got {self.placement!r}")
         if not 0 <= self.near_field_cells <= 100:
             raise InputError(f"--near-field must be in 0..100 cells, got {self.near_field_cells}")
+
+
+def _physical_memory_mb() -> float | None:
+    """This machine's memory [MB], or None where the system does not say."""
+    try:
+        return os.sysconf("SC_PHYS_PAGES") * os.sysconf("SC_PAGE_SIZE") / 1e6
+    except (AttributeError, OSError, ValueError):
+        return None
 
 
 @dataclass(frozen=True)

@@ -271,6 +271,9 @@ def _where(loc: tuple, raw: dict) -> tuple[str, str]:
             continue
         if isinstance(key, str):
             (keys if section or keys or key not in _SECTIONS else section).append(key)
+        elif isinstance(key, int) and (keys or section):  # a row of a list: #1, #2, ...
+            target = keys if keys else section
+            target[-1] += f" #{key + 1}"
         i += 1
     return ".".join(section), ".".join(keys)
 

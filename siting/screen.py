@@ -27,8 +27,13 @@ from siting.constants import KEQ_PER_KG_N, UG_PER_G, deposition_kg_n_ha_yr, kg_n
 from siting.emissions import derive_emission
 from siting.errors import InputError
 from siting.grids import GridSpec, grid_around
-from siting.habitats import (coarsened_sites, grid_nodes_in_sites, read_habitats,
-                             site_boundary_points, site_sample_points)
+from siting.habitats import (
+    coarsened_sites,
+    grid_nodes_in_sites,
+    read_habitats,
+    site_boundary_points,
+    site_sample_points,
+)
 from siting.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
 from siting.longterm import (
     DispersionSettings,
@@ -272,9 +277,12 @@ def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summar
     needs_temperature = bool(cfg.temperature_dependent_emission) or (
         bool(partial) and cfg.temperature_dependent_emission is not False)
     if needs_temperature and not np.isfinite(temperature_c).all():
-        missing = int((~np.isfinite(temperature_c)).sum())
-        raise InputError(f"weather.hourly: {missing} hour(s) have no temperature_c, which "
-                         "[seasonal] emission or scrubber_design_share need")
+        missing = ~np.isfinite(temperature_c)
+        first = str(np.asarray(weather.time_utc)[np.flatnonzero(missing)[0]]).replace("T", " ")
+        files = ", ".join(Path(p).name for p in scenario.weather.hourly or [])
+        raise InputError(f"weather.hourly {files}: {int(missing.sum())} hour(s) have no "
+                         f"temperature_c (the first at {first} UTC), which [seasonal] emission "
+                         "or scrubber_design_share need")
     flat = np.ones(weather.n_hours)
     varying = (temperature_emission_weights(temperature_c, cfg.emission_coefficient_per_k)
                if needs_temperature else flat)

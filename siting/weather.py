@@ -57,13 +57,18 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
                          f"{','.join(COLUMNS)} (got {','.join(table.columns)})")
     if table.empty:
         raise InputError(f"{name}: the table has no rows")
+    as_written = pd.read_csv(path, skipinitialspace=True, comment="#", dtype=str,
+                             keep_default_na=False)  # for messages: each cell as the user wrote it
+    as_written.columns = [str(c).strip() for c in as_written.columns]
     for col in ("direction_deg", "speed_m_s", "frequency"):
         values = pd.to_numeric(table[col], errors="coerce")
         bad = values.isna() | ~np.isfinite(values.to_numpy(float, na_value=np.nan))
         if bad.any():
             row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
-            raise InputError(f"{name}, line {row}: {col} must be a number, got "
-                             f"{table[col].iloc[row - 2]!r}")
+            text = str(as_written[col].iloc[row - 2]).strip()
+            what = ("a finite number" if text.lower().lstrip("+-") in ("nan", "inf", "infinity")
+                    else "a number")
+            raise InputError(f"{name}, line {row}: {col} must be {what}, got {text!r}")
         table[col] = values.astype(float)
     stability = table["stability"].astype(str).str.strip().str.upper()
     bad = ~stability.isin(STABILITY_CLASSES)
@@ -79,10 +84,12 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
     direction = np.round(direction % 360.0, 6)
     speed = table["speed_m_s"].to_numpy()
     if (speed < 0).any():
-        raise InputError(f"{name}: speed_m_s must be >= 0, got {speed.min()}")
+        row = int(np.flatnonzero(speed < 0)[0]) + 2
+        raise InputError(f"{name}, line {row}: speed_m_s must be >= 0, got {speed[row - 2]:g}")
     freq = table["frequency"].to_numpy()
     if (freq < 0).any():
-        raise InputError(f"{name}: frequency must be >= 0, got {freq.min()}")
+        row = int(np.flatnonzero(freq < 0)[0]) + 2
+        raise InputError(f"{name}, line {row}: frequency must be >= 0, got {freq[row - 2]:g}")
     with np.errstate(over="ignore"):
         total = freq.sum()
     if not np.isfinite(total):
