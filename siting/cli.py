@@ -32,36 +32,98 @@ def _print_warnings(console, messages, **options) -> None:
 EXIT_OK, EXIT_EXCEEDS, EXIT_BAD_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 
 
-def _print_summary(result, out_dir: Path, quiet: bool) -> None:
-    from rich.console import Console
+#: Most site rows, verdict-flip lines and warnings the screen summary prints; the rest are
+#: counted in one line that names the file holding them all. A terminal shows a screenful;
+#: common practice, no source.
+SUMMARY_MAX_SITES = 25
+SUMMARY_MAX_FLIPS = 10
+SUMMARY_MAX_WARNINGS = 10
+
+
+def _summary_rows(sites):
+    """The sites to print and how many are left out: all in layer order when they fit, else
+    the :data:`SUMMARY_MAX_SITES` most affected (highest PC as a share of the threshold) first."""
+    from siting.presentation import most_affected_order
+
+    if len(sites) <= SUMMARY_MAX_SITES:
+        return sites, 0
+    shown = sites.iloc[most_affected_order(sites)[:SUMMARY_MAX_SITES]]
+    return shown, len(sites) - SUMMARY_MAX_SITES
+
+
+def _site_table(result, shown, n_more: int):
+    """The rich table of the shown sites."""
     from rich.table import Table
 
-    if quiet:
-        return
-    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
-    table = Table(title=f"{result.scenario.title}\nprocess contribution (PC) by site",
-                  title_justify="left")
+    title = f"{result.scenario.title}\nprocess contribution (PC) by site"
+    if n_more:
+        title += (f": the {len(shown)} of {len(result.sites)} with the highest PC as a share "
+                  "of their threshold")
+    table = Table(title=title, title_justify="left")
     for col, justify in (("site", "left"), ("tier", "left"),
                          ("PC ug NH3/m3", "right"), ("% level", "right"),
                          ("PC kg N/ha/yr", "right"), ("% load", "right"),
                          ("threshold %", "right"), ("verdict", "left")):
         table.add_column(col, justify=justify, no_wrap=col in ("site", "tier", "verdict"))
-    for row in result.sites.itertuples():
-        def fmt(v, spec=".3g"):
-            return "-" if v != v else format(v, spec)
-        style = {"above threshold": "bold red", "below threshold": "green"}.get(row.verdict, "yellow")
+
+    def fmt(v, spec=".3g"):
+        return "-" if v != v else format(v, spec)
+
+    for row in shown.itertuples():
+        style = {"above threshold": "bold red",
+                 "below threshold": "green"}.get(row.verdict, "yellow")
         table.add_row(_plain(row.name), str(row.tier),
                       fmt(row.pc_conc_max_ug_m3), fmt(row.pc_pct_level, ".1f"),
                       fmt(row.pc_dep_max_kg_n_ha_yr), fmt(row.pc_pct_load, ".1f"),
                       f"{row.threshold_percent:g}", f"[{style}]{row.verdict}[/]")
-    console.print(table)
-    _print_warnings(console, result.warnings)
+    return table
+
+
+def _print_flips(console, result) -> None:
+    """One line per site whose verdict a sensitivity variant flips, at most
+    :data:`SUMMARY_MAX_FLIPS` (the most affected sites first when there are more)."""
     summary = result.sensitivity_summary
-    if summary is not None and len(summary) and summary["verdict_flips"].any():
-        for row in summary[summary["verdict_flips"]].itertuples():
-            console.print(f"[yellow]sensitivity:[/] the verdict for {_plain(row.site)} "
-                          f"flips under {_plain(row.flipping_variants)} (report section 4, "
-                          "sensitivity.csv)", markup=True)
+    if summary is None or not len(summary) or not summary["verdict_flips"].any():
+        return
+    flips = summary[summary["verdict_flips"]]
+    if len(flips) > SUMMARY_MAX_FLIPS:
+        from siting.presentation import most_affected_order
+
+        rank = {}
+        for position in most_affected_order(result.sites):
+            rank.setdefault(str(result.sites["name"].iloc[position]), len(rank))
+        order = sorted(range(len(flips)),
+                       key=lambda i: rank.get(str(flips["site"].iloc[i]), len(rank)))
+        flips = flips.iloc[order[:SUMMARY_MAX_FLIPS]]
+    for row in flips.itertuples():
+        console.print(f"[yellow]sensitivity:[/] the verdict for {_plain(row.site)} "
+                      f"flips under {_plain(row.flipping_variants)} (report section 4, "
+                      "sensitivity.csv)", markup=True)
+    n_more = int(summary["verdict_flips"].sum()) - len(flips)
+    if n_more:
+        console.print(f"[yellow]sensitivity:[/] and {n_more} more sites "
+                      "(sensitivity.csv)", markup=True)
+
+
+def _print_summary(result, out_dir: Path, quiet: bool) -> None:
+    """The screen summary: a table of at most :data:`SUMMARY_MAX_SITES` sites, the counts by
+    verdict when some are left out, the first warnings and verdict flips, where the outputs are."""
+    from rich.console import Console
+
+    if quiet:
+        return
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    shown, n_more = _summary_rows(result.sites)
+    console.print(_site_table(result, shown, n_more))
+    if n_more:
+        counts = result.sites["verdict"].value_counts()
+        console.print(f"{n_more} more sites in sites.csv; all {len(result.sites)}: "
+                      + ", ".join(f"{n} {_plain(v)}" for v, n in counts.items()) + ".")
+    _print_warnings(console, result.warnings[:SUMMARY_MAX_WARNINGS])
+    if len(result.warnings) > SUMMARY_MAX_WARNINGS:
+        console.print(f"[yellow]warning:[/] and {len(result.warnings) - SUMMARY_MAX_WARNINGS} "
+                      "more warnings (report.html section 6, run.json)", markup=True)
+    _print_flips(console, result)
     console.print(f"Outputs in {out_dir} (report.html, map.html, sites.csv, GeoTIFFs).")
     console.print("Screening estimate only; local rules and the competent authority decide.",
                   style="dim")

@@ -7,8 +7,10 @@ hourly record (:func:`wind_rose_png`, also used by ``siting weather``) or of a f
 (:func:`wind_rose_from_table_png`), drawn alike, and the stability classes of an hourly record
 by wind speed (:func:`stability_by_speed_png`). All are drawn with the Agg canvas
 (:func:`figure_png`), never through pyplot's global state, and text from user files (site names,
-contour labels) is drawn as plain text, never as mathtext. No physics lives here: every number
-plotted was computed elsewhere. The deposition classes, the verdict colours and the number
+contour labels) is drawn as plain text, never as mathtext. A habitat layer may hold thousands of
+sites: every site is drawn (outlines as one line collection, points as one scatter), but only the
+:data:`MAX_LABELLED_SITES` most affected are named (:func:`siting.presentation.most_affected_order`), and the figure
+then says so. No physics lives here: every number plotted was computed elsewhere. The deposition classes, the verdict colours and the number
 formats come from :mod:`siting.presentation`; inlining the PNGs in report.html is the job of
 :mod:`siting.report`.
 """
@@ -28,6 +30,7 @@ from siting.presentation import (
     deposition_class_edges,
     format_number,
     is_missing,
+    most_affected_order,
 )
 
 if TYPE_CHECKING:  # imported for annotations only; the module does not need them at run time
@@ -37,8 +40,22 @@ if TYPE_CHECKING:  # imported for annotations only; the module does not need the
 
     from siting.longterm import WeatherClasses
 
-__all__ = ["deposition_figure", "figure_png", "pc_vs_distance_figure", "stability_by_speed_png",
-           "wind_rose_from_table_png", "wind_rose_png"]
+__all__ = ["MAX_LABELLED_SITES", "deposition_figure", "figure_png",
+           "pc_vs_distance_figure", "stability_by_speed_png", "wind_rose_from_table_png",
+           "wind_rose_png"]
+
+#: Most site names drawn in one figure; more overlap into an unreadable smear and cost seconds
+#: each (text extents are measured one by one). Common practice, no source.
+MAX_LABELLED_SITES = 15
+
+#: Above this many sites the deposition figure draws their outlines thin and half transparent,
+#: or they would hide the grid they lie on. Our own choice.
+_THIN_OUTLINES_ABOVE = 200
+
+#: Above this many plotted sites the PC-distance legend goes beside the axes: matplotlib's
+#: "best" placement tests every point against every candidate spot, slow for thousands, and
+#: with that many points no spot inside is free anyway. Our own choice.
+_LEGEND_INSIDE_MAX_POINTS = 50
 
 #: Marker and fill of each source role in the deposition figure; our own choice.
 _SOURCE_MARKERS = {
@@ -73,19 +90,97 @@ def figure_png(fig: Figure, dpi: int = 110) -> bytes:
     return buffer.getvalue()
 
 
-def _polygon_rings(geometry: Any) -> list[np.ndarray]:
-    """Exterior and interior rings of a (multi)polygon as (n, 2) coordinate arrays."""
-    rings: list[np.ndarray] = []
-    if geometry is None or getattr(geometry, "is_empty", True):
-        return rings
-    parts = getattr(geometry, "geoms", [geometry])
-    for part in parts:
-        if part.geom_type == "Polygon":
-            rings.append(np.asarray(part.exterior.coords))
-            rings.extend(np.asarray(ring.coords) for ring in part.interiors)
-        elif part.geom_type in ("LineString", "LinearRing"):
-            rings.append(np.asarray(part.coords))
-    return rings
+def _site_outlines(geometries: Any) -> list[np.ndarray]:
+    """Boundary lines (exterior and interior rings) of every (multi)polygon, as (n, 2) arrays.
+
+    Vectorised over the geometries with shapely 2, so thousands of sites cost milliseconds;
+    None and empty geometries give nothing.
+    """
+    import shapely
+
+    geoms = np.asarray(list(geometries), dtype=object)
+    if geoms.size == 0:
+        return []
+    geoms = geoms[~shapely.is_missing(geoms)]
+    geoms = geoms[~shapely.is_empty(geoms)]
+    if geoms.size == 0:
+        return []
+    lines = shapely.get_parts(shapely.boundary(geoms))  # a hole or a part is a line of its own
+    lines = lines[~shapely.is_empty(lines)]
+    coords, index = shapely.get_coordinates(lines, return_index=True)
+    if not len(coords):
+        return []
+    starts = np.flatnonzero(np.diff(index)) + 1
+    return [part for part in np.split(coords, starts) if len(part) > 1]
+
+
+def _numeric(values: Any) -> Any:
+    """Numbers of a column; text that is not a number becomes NaN (pandas imported lazily)."""
+    import pandas as pd
+
+    return pd.to_numeric(values, errors="coerce")
+
+
+def _label_sites(ax: Any, xy: np.ndarray, names: Sequence[str], **text_options: Any) -> bool:
+    """Name sites at their points, most affected first; True when some names were left out.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+        With its limits, scales and aspect already set (label boxes are measured in pixels).
+    xy : ndarray, shape (n, 2)
+        Anchor of each name in data coordinates, in the order to name them (most affected
+        first, :func:`siting.presentation.most_affected_order`).
+    names : sequence of str
+        The names, drawn as plain text (never mathtext).
+    **text_options
+        Passed to ``Axes.annotate`` (font size, alignment, offset).
+
+    Notes
+    -----
+    Up to :data:`MAX_LABELLED_SITES` sites every one is named, as drawn before there were
+    many. With more, names are placed in order while fewer than the cap are shown, skipping
+    one whose box would overlap a name already placed (the most affected are often
+    neighbours), and looking at no more than ten times the cap.
+    """
+    from matplotlib.patheffects import withStroke
+
+    # a light halo keeps a name readable over outlines, points and the coloured grid
+    text_options = {"path_effects": [withStroke(linewidth=2.0, foreground="#ffffff", alpha=0.8)],
+                    **text_options}
+    if len(names) <= MAX_LABELLED_SITES:
+        for (x, y), name in zip(xy, names):
+            ax.annotate(str(name), (x, y), parse_math=False, **text_options)
+        return False
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    fig = ax.get_figure()
+    if not isinstance(fig.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(fig)
+    renderer = fig.canvas.get_renderer()
+    ax.apply_aspect()  # final axes box, so the data -> pixel transform is the drawn one
+    placed: list[Any] = []
+    for (x, y), name in list(zip(xy, names))[: 10 * MAX_LABELLED_SITES]:
+        text = ax.annotate(str(name), (x, y), parse_math=False, **text_options)
+        box = text.get_window_extent(renderer)
+        if any(box.overlaps(other) for other in placed):
+            text.remove()
+            continue
+        placed.append(box)
+        if len(placed) == MAX_LABELLED_SITES:
+            break
+    return True
+
+
+def _labels_note(ax: Any, n_drawn: int) -> None:
+    """Say under the x-axis label that only the most affected of the ``n_drawn`` sites drawn
+    are named."""
+    note = (f"Only the most affected sites are named: up to {MAX_LABELLED_SITES}, by PC as a share "
+            f"of the screening threshold,\noverlapping names skipped. {n_drawn} sites drawn; "
+            "every site is listed in sites.csv.")
+    ax.annotate(note, xy=(0.5, 0.0), xycoords=ax.xaxis.label, xytext=(0, -3),
+                textcoords="offset points", ha="center", va="top", fontsize=7,
+                color="#505050", annotation_clip=False, parse_math=False)
 
 
 def deposition_figure(
@@ -130,6 +225,7 @@ def deposition_figure(
     InputError
         If the grid is not 2-D or cell_m <= 0.
     """
+    from matplotlib.collections import LineCollection
     from matplotlib.colors import BoundaryNorm, ListedColormap
     from matplotlib.figure import Figure
 
@@ -182,21 +278,12 @@ def deposition_figure(
                 text.set_parse_math(False)  # user labels may contain "$"
 
     if sites is not None and len(sites):
-        for _, row in sites.iterrows():
-            for ring in _polygon_rings(row.geometry):
-                ax.plot(ring[:, 0], ring[:, 1], color="#8a1c0a", linewidth=1.0)
-            name = row.get("name")
-            if not is_missing(name) and row.geometry is not None and not row.geometry.is_empty:
-                point = row.geometry.representative_point()
-                ax.annotate(
-                    str(name),
-                    (point.x, point.y),
-                    fontsize=7,
-                    ha="center",
-                    color="#3a0d05",
-                    parse_math=False,
-                )
-    if sites is not None and len(sites):
+        outlines = _site_outlines(sites.geometry)
+        # many sites: thin, half-transparent outlines, so the deposition shows between them
+        width, alpha = (1.0, 1.0) if len(sites) <= _THIN_OUTLINES_ABOVE else (0.4, 0.6)
+        if outlines:
+            ax.add_collection(LineCollection(outlines, colors="#8a1c0a", linewidths=width,
+                                             alpha=alpha))
         ax.plot([], [], color="#8a1c0a", linewidth=1.0, label="habitat site")
     if sources is not None and len(sources):
         roles = (
@@ -233,7 +320,28 @@ def deposition_figure(
     ax.set_title("Process contribution: nitrogen deposition", fontsize=10)
     ax.ticklabel_format(useOffset=False, style="plain")
     ax.tick_params(labelsize=7)
+    if sites is not None and len(sites) and "name" in sites:
+        _name_sites_on_map(ax, sites)
     return figure_png(fig)
+
+
+def _name_sites_on_map(ax: Any, sites: gpd.GeoDataFrame) -> None:
+    """Name the most affected sites at a point inside each (:func:`_label_sites`), with the
+    note when some names are left out."""
+    import shapely
+
+    geoms = np.asarray(list(sites.geometry), dtype=object)
+    drawable = ~shapely.is_missing(geoms)
+    drawable[drawable] = ~shapely.is_empty(geoms[drawable])
+    named = drawable & np.array([not is_missing(n) for n in sites["name"]], dtype=bool)
+    order = np.array([i for i in most_affected_order(sites) if named[i]], dtype=int)
+    if not order.size:
+        return
+    inside = shapely.point_on_surface(geoms[order[: 10 * MAX_LABELLED_SITES]])
+    xy = shapely.get_coordinates(inside)
+    names = sites["name"].to_numpy(dtype=object)[order[: len(xy)]]
+    if _label_sites(ax, xy, names, fontsize=7, ha="center", color="#3a0d05"):
+        _labels_note(ax, len(sites))
 
 
 def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
@@ -281,28 +389,19 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
         )
         ax.set_axis_off()
         return figure_png(fig)
-    names = [str(n) if not is_missing(n) else "" for n in sites["name"]]
     verdicts = list(sites["verdict"]) if "verdict" in sites else [None] * len(sites)
     colours = [VERDICT_COLOURS.get(str(v), VERDICT_COLOURS["not assessed"]) for v in verdicts]
     idx = np.flatnonzero(keep)
+    many = idx.size > _LEGEND_INSIDE_MAX_POINTS
     ax.scatter(
         distance_m[idx],
         dep_kg_n_ha_yr[idx],
         c=[colours[i] for i in idx],
-        s=36,
+        s=16 if many else 36,  # smaller points where there are many: fewer hide each other
         zorder=3,
         edgecolors="#000000",
-        linewidths=0.5,
+        linewidths=0.3 if many else 0.5,
     )
-    for i in idx:
-        ax.annotate(
-            names[i],
-            (distance_m[i], dep_kg_n_ha_yr[i]),
-            textcoords="offset points",
-            xytext=(5, 4),
-            fontsize=7,
-            parse_math=False,
-        )
     if {"threshold_percent", "critical_load_used_kg_n_ha_yr"} <= set(sites.columns):
         threshold_kg_n_ha_yr = (
             np.asarray(sites["threshold_percent"], dtype=float)
@@ -325,7 +424,10 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
         ax.scatter([], [], c=VERDICT_COLOURS[verdict], s=36, edgecolors="#000000",
                    linewidths=0.5, label=verdict)  # fmt: skip
     if ax.get_legend_handles_labels()[0]:
-        ax.legend(fontsize=8, loc="best")
+        if many:
+            ax.legend(fontsize=8, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+        else:
+            ax.legend(fontsize=8, loc="best")
     ax.set_yscale("log")
     plain = FuncFormatter(lambda value, _: format_number(value))
     ax.yaxis.set_major_formatter(plain)
@@ -336,6 +438,14 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     ax.set_ylabel("PC max deposition [kg N/ha/yr]")
     ax.set_title("Process contribution at each site by distance", fontsize=10)
     ax.grid(True, which="both", linewidth=0.4, alpha=0.5)
+    names = sites["name"].to_numpy(dtype=object)
+    nameable = keep & np.array([not is_missing(n) for n in names], dtype=bool)
+    order = np.array([i for i in most_affected_order(sites) if nameable[i]], dtype=int)
+    ax.autoscale_view()  # final limits before the name boxes are measured
+    if order.size and _label_sites(ax, np.column_stack([distance_m[order], dep_kg_n_ha_yr[order]]),
+                                   names[order], textcoords="offset points", xytext=(5, 4),
+                                   fontsize=7):
+        _labels_note(ax, idx.size)
     return figure_png(fig)
 
 

@@ -264,3 +264,40 @@ def deposition_class_colours(n_classes: int) -> list[str]:
     cmap = colormaps[DEPOSITION_COLORMAP]
     positions = np.linspace(0.0, 1.0, n_classes) if n_classes > 1 else np.array([0.5])
     return [to_hex(cmap(float(p))) for p in positions]
+
+
+def most_affected_order(sites: pd.DataFrame) -> np.ndarray:
+    """Row positions of the sites, the highest PC as a share of the screening threshold first.
+
+    Parameters
+    ----------
+    sites : DataFrame
+        One row per site. The share is the larger of ``pc_pct_level`` and ``pc_pct_load`` [%]
+        (the one the verdict compares, :func:`siting.assess.verdict`) over
+        ``threshold_percent`` [%]; a missing share half is ignored. Without a threshold column
+        the larger % itself ranks, and without any of the columns ``pc_dep_max_kg_n_ha_yr``.
+
+    Returns
+    -------
+    order : ndarray of int, shape (n_sites,)
+        Positions (for ``iloc``), most affected first; sites with no figure (not assessed)
+        last; ties keep the layer's order.
+    """
+    n = len(sites)
+
+    def column(name: str) -> np.ndarray:
+        if name not in sites:
+            return np.full(n, np.nan)
+        return np.asarray(pd.to_numeric(sites[name], errors="coerce"), dtype=float)
+
+    with np.errstate(invalid="ignore", divide="ignore"):
+        worst_percent = np.fmax(column("pc_pct_level"), column("pc_pct_load"))
+        if "threshold_percent" in sites:
+            threshold = column("threshold_percent")
+            score = np.where(threshold > 0, worst_percent / threshold, worst_percent)
+        else:
+            score = worst_percent
+        if np.isnan(score).all():
+            score = column("pc_dep_max_kg_n_ha_yr")
+    score = np.where(np.isnan(score), -np.inf, score)
+    return np.argsort(-score, kind="stable")

@@ -11,8 +11,11 @@ vendored Leaflet and jQuery in place of folium's CDN links. No physics lives her
 Every text that comes from a user file goes through :func:`escape_text` before it reaches the
 page. folium writes popup and tooltip content into JavaScript template literals without
 escaping, so HTML escaping alone is not enough: backticks, ``$``, braces and backslashes are
-turned into HTML character references too. Features are added one by one, with only their
-geometry in the GeoJSON, so no raw user property is ever embedded in the page.
+turned into HTML character references too. The sources are added one by one, with only their
+geometry in the GeoJSON. The habitat sites, which may number thousands, are one GeoJSON layer
+(:func:`_add_sites`): each feature carries its verdict and its popup and tooltip texts, every
+user value among them already escaped by :func:`escape_text`, so no raw user property is ever
+embedded in the page; a short script of ours binds them to each feature when the page loads.
 """
 
 from __future__ import annotations
@@ -20,6 +23,7 @@ from __future__ import annotations
 import base64
 import html
 import io
+import json
 import re
 import warnings
 from collections.abc import Sequence
@@ -173,25 +177,70 @@ def _popup_table(head: str, rows: Sequence[tuple[str, str]]) -> str:
     return f'<div class="siting-popup"><div class="head">{head}</div><table>{body}</table></div>'
 
 
-def _site_popup(row: Any) -> str:
-    """Popup HTML of one habitat site; every user value escaped."""
-    rows = [
-        ("Site id", escape_text(row.get("site_id"))),
-        ("Designation", escape_text(row.get("designation"))),
-        ("Habitat", escape_text(row.get("habitat"))),
-        ("Verdict", f"<strong>{escape_text(row.get('verdict')) or 'not assessed'}</strong>"),
-        ("PC max concentration", _num(row.get("pc_conc_max_ug_m3"), "µg NH3/m³")),
-        ("Critical level", _num(row.get("critical_level_ug_m3"), "µg NH3/m³")),
-        ("PC as % of level", _num(row.get("pc_pct_level"), "%")),
-        ("PC max deposition", _num(row.get("pc_dep_max_kg_n_ha_yr"), "kg N/ha/yr")),
-        ("Critical load used", _num(row.get("critical_load_used_kg_n_ha_yr"), "kg N/ha/yr")),
-        ("PC as % of load", _num(row.get("pc_pct_load"), "%")),
-        ("Screening threshold", _num(row.get("threshold_percent"), "%")),
-    ]
-    if not is_missing(row.get("incomb_pct_load")):
-        rows.append(("In-combination, % of load", _num(row.get("incomb_pct_load"), "%")))
-    rows = [(label, value) for label, value in rows if value]
-    return _popup_table(escape_text(row.get("name")) or "Unnamed site", rows)
+#: Rows of a site's popup: (label, column, unit); unit None for text. A row whose value is empty
+#: text is left out; numbers show "n/a" when missing. The in-combination row (last) is shown
+#: only where the site has that figure.
+_SITE_POPUP_ROWS: tuple[tuple[str, str, str | None], ...] = (
+    ("Site id", "site_id", None),
+    ("Designation", "designation", None),
+    ("Habitat", "habitat", None),
+    ("Verdict", "verdict", None),
+    ("PC max concentration", "pc_conc_max_ug_m3", "µg NH3/m³"),
+    ("Critical level", "critical_level_ug_m3", "µg NH3/m³"),
+    ("PC as % of level", "pc_pct_level", "%"),
+    ("PC max deposition", "pc_dep_max_kg_n_ha_yr", "kg N/ha/yr"),
+    ("Critical load used", "critical_load_used_kg_n_ha_yr", "kg N/ha/yr"),
+    ("PC as % of load", "pc_pct_load", "%"),
+    ("Screening threshold", "threshold_percent", "%"),
+    ("In-combination, % of load", "incomb_pct_load", "%"),
+)
+
+
+def _column(frame: Any, column: str) -> list:
+    """A column's values as a list (all None when the frame lacks it)."""
+    return frame[column].tolist() if column in frame else [None] * len(frame)
+
+
+def _site_verdicts(frame: Any) -> list[str]:
+    """Each site's verdict in lower case, 'not assessed' when missing."""
+    return [str(v).strip().lower() if not is_missing(v) else "not assessed"
+            for v in _column(frame, "verdict")]
+
+
+def _number_texts(values: list, unit: str, blank: bool = False) -> list[str]:
+    """:func:`_num` (or :func:`_num_or_blank` with ``blank``) of many values, faster: a value
+    that is a number gives digits and our own unit, which need no escaping; anything else
+    goes through :func:`_num` as one value would."""
+    missing = "" if blank else escape_text(format_number(None))
+    unit_text = escape_text(unit)
+    texts = []
+    for value in values:
+        if isinstance(value, (float, int, np.floating, np.integer)) and not isinstance(
+                value, (bool, np.bool_)):
+            number = float(value)
+            texts.append(missing if np.isnan(number)
+                         else f"{format_number(number)} {unit_text}")
+        else:
+            texts.append(_num_or_blank(value, unit) if blank else _num(value, unit))
+    return texts
+
+
+def _site_popup_values(frame: Any) -> list[list[str]]:
+    """Per site, the escaped value of each row of :data:`_SITE_POPUP_ROWS` ('' = row left out).
+
+    Built column by column, so thousands of sites cost a fraction of a second.
+    """
+    columns = []
+    for _label, column, unit in _SITE_POPUP_ROWS:
+        values = _column(frame, column)
+        if column == "verdict":
+            texts = [f"<strong>{escape_text(v) or 'not assessed'}</strong>" for v in values]
+        elif unit is None:
+            texts = [escape_text(v) for v in values]
+        else:
+            texts = _number_texts(values, unit, blank=column == "incomb_pct_load")
+        columns.append(texts)
+    return [list(row) for row in zip(*columns)]
 
 
 def _source_popup(row: Any) -> str:
@@ -423,38 +472,92 @@ def _title_html(title: str, run_time: str, version: str, cautions: Sequence[str]
     )
 
 
-def _add_sites(group: folium.FeatureGroup, sites_wgs84: gpd.GeoDataFrame) -> None:
-    """One GeoJson per site (geometry only), styled by verdict, with escaped popup/tooltip."""
-    import folium
+#: Decimal places kept of the site outlines' longitude and latitude: 1e-6 deg is ~0.1 m, well
+#: below a grid cell, and halves the page against full double precision. Our own choice.
+_LONLAT_DECIMALS = 6
 
-    for _, row in sites_wgs84.iterrows():
-        geometry = row.geometry
-        if geometry is None or geometry.is_empty:
-            continue
-        verdict = (
-            str(row.get("verdict")).strip().lower()
-            if not is_missing(row.get("verdict"))
-            else "not assessed"
-        )
-        colour = VERDICT_COLOURS.get(verdict, VERDICT_COLOURS["not assessed"])
-        style = {
-            "color": colour,
-            "weight": 2.5,
-            "fillColor": colour,
-            "fillOpacity": 0.2,
-            "dashArray": "6 4" if verdict not in ("below threshold", "above threshold") else None,
-            "className": SITE_CLASS,
-        }
-        layer = folium.GeoJson(
-            data={"type": "Feature", "properties": {}, "geometry": geometry.__geo_interface__},
-            style_function=lambda _feature, style=style: style,
-            highlight_function=lambda _feature: {"weight": 4, "fillOpacity": 0.35},
-            zoom_on_click=False,
-            control=False,
-        )
-        folium.Popup(_site_popup(row), **_POPUP_OPTIONS).add_to(layer)
-        folium.Tooltip(escape_text(row.get("name")) or "Unnamed site").add_to(layer)
-        layer.add_to(group)
+#: Binds each site feature's popup and tooltip when the page loads (see _add_sites); the popup
+#: is assembled only when opened. Labels and options are filled in by _site_script.
+_SITE_SCRIPT = """function (feature, layer) {
+    const labels = %(labels)s;
+    const p = feature.properties;
+    layer.bindTooltip("<div>" + p.name + "</div>", {"sticky": true});
+    layer.bindPopup(function () {
+        const rows = labels.map(function (label, i) {
+            return p.popup[i] ? "<tr><th>" + label + "</th><td>" + p.popup[i] + "</td></tr>" : "";
+        }).join("");
+        return '<div class="siting-popup"><div class="head">' + p.name + "</div><table>"
+            + rows + "</table></div>";
+    }, %(options)s);
+}"""
+
+
+def _site_script() -> str:
+    """The feature script: our own labels (escaped) and popup options as JavaScript literals."""
+    labels = [escape_text(label) for label, _column, _unit in _SITE_POPUP_ROWS]
+    options = {"maxWidth": _POPUP_OPTIONS["max_width"],
+               "autoPanPaddingTopLeft": _POPUP_OPTIONS["auto_pan_padding_top_left"]}
+    return _SITE_SCRIPT % {"labels": json.dumps(labels), "options": json.dumps(options)}
+
+
+def _site_style(verdict: str) -> dict[str, Any]:
+    """Leaflet path style of a site outline by verdict (dashed when not assessed)."""
+    colour = VERDICT_COLOURS.get(verdict, VERDICT_COLOURS["not assessed"])
+    return {
+        "color": colour,
+        "weight": 2.5,
+        "fillColor": colour,
+        "fillOpacity": 0.2,
+        "dashArray": "6 4" if verdict not in ("below threshold", "above threshold") else None,
+        "className": SITE_CLASS,
+    }
+
+
+def _site_features(sites_wgs84: gpd.GeoDataFrame) -> list[dict[str, Any]]:
+    """One GeoJSON feature per drawable site: rounded outline, verdict, escaped texts.
+
+    Properties: ``verdict`` (lower case; the style key), ``name`` (escaped, 'Unnamed site'
+    when blank) and ``popup`` (the escaped values of :data:`_SITE_POPUP_ROWS`). Sites without
+    a geometry are left out; ``id`` is the site's row position.
+    """
+    import shapely
+    from shapely.geometry import mapping
+
+    geoms = np.asarray(list(sites_wgs84.geometry), dtype=object)
+    drawable = ~shapely.is_missing(geoms)
+    drawable[drawable] = ~shapely.is_empty(geoms[drawable])
+    rounded = shapely.transform(geoms[drawable], lambda xy: np.round(xy, _LONLAT_DECIMALS))
+    verdicts = _site_verdicts(sites_wgs84)
+    names = [escape_text(n) or "Unnamed site" for n in _column(sites_wgs84, "name")]
+    popups = _site_popup_values(sites_wgs84)
+    return [
+        {"type": "Feature", "id": int(i), "geometry": mapping(geometry),
+         "properties": {"verdict": verdicts[i], "name": names[i], "popup": popups[i]}}
+        for i, geometry in zip(np.flatnonzero(drawable), rounded)
+    ]
+
+
+def _add_sites(group: folium.FeatureGroup, sites_wgs84: gpd.GeoDataFrame) -> None:
+    """All sites as one GeoJson layer, styled by verdict, with a popup and tooltip per feature.
+
+    One layer instead of one per site keeps map.html small and quick to write for thousands
+    of sites; the style is keyed on the ``verdict`` property, and the popup and tooltip of
+    each feature are bound by :data:`_SITE_SCRIPT` from its already escaped properties.
+    """
+    import folium
+    from folium.utilities import JsCode
+
+    features = _site_features(sites_wgs84)
+    if not features:
+        return
+    folium.GeoJson(
+        data={"type": "FeatureCollection", "features": features},
+        style_function=lambda feature: _site_style(feature["properties"]["verdict"]),
+        highlight_function=lambda _feature: {"weight": 4, "fillOpacity": 0.35},
+        on_each_feature=JsCode(_site_script()),
+        zoom_on_click=False,
+        control=False,
+    ).add_to(group)
 
 
 def _add_sources(group: folium.FeatureGroup, sources_wgs84: gpd.GeoDataFrame) -> None:

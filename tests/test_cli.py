@@ -487,7 +487,7 @@ def test_output_location_problems_are_found_before_any_work(tmp_path, capsys):
     shutil.copytree(demo_dir(), scenario.parent)
     (tmp_path / "afile").write_text("x", encoding="utf-8")
     for out, match in ((tmp_path / "afile" / "out", "is a file, not a folder"),
-                       (tmp_path / ("n" * 300), "longer than 255 bytes")):
+                       (tmp_path / ("n" * 300), "too long")):
         capsys.readouterr()
         assert main(["screen", str(scenario), "--out", str(out), "--quiet"]) == 2
         err = capsys.readouterr().err.strip()
@@ -512,3 +512,71 @@ def test_an_internal_error_is_one_line_with_the_traceback_kept(tmp_path, capsys,
     assert "ZeroDivisionError: forced for the test" in path.read_text(encoding="utf-8")
     path.unlink()
     assert not (tmp_path / "o").exists()
+
+
+# --------------------------------------------------------------------------------------------
+# the terminal summary of a large habitat layer
+# --------------------------------------------------------------------------------------------
+
+def _many_site_result(n: int = 200, n_warnings: int = 30):
+    """A screening result of n synthetic sites (invented values): % of load rises with the
+    index against a 1 % threshold, every third verdict flips under a variant."""
+    from types import SimpleNamespace
+
+    i = np.arange(n)
+    sites = pd.DataFrame({
+        "name": [f"Site {k}" for k in i], "tier": "national",
+        "pc_conc_max_ug_m3": i / 100.0, "pc_pct_level": i / 20.0,
+        "pc_dep_max_kg_n_ha_yr": i / 50.0, "pc_pct_load": i / 10.0,
+        "threshold_percent": 1.0,
+        "verdict": np.where(i / 10.0 > 1.0, "above threshold", "below threshold"),
+    })
+    summary = pd.DataFrame({"site": sites["name"], "verdict_flips": i % 3 == 0,
+                            "flipping_variants": "plume depletion on"})
+    return SimpleNamespace(scenario=SimpleNamespace(title="Many sites (synthetic)"),
+                           sites=sites, sensitivity_summary=summary,
+                           warnings=[f"warning number {k}" for k in range(n_warnings)])
+
+
+def test_summary_of_many_sites_prints_the_most_affected_and_a_count(tmp_path):
+    """200 sites: at most 25 site rows, the most affected first, then "175 more sites in
+    sites.csv"; at most 10 flip lines and "and 57 more sites (sensitivity.csv)"; at most 10
+    warnings (caps: common practice, no source)."""
+    from siting.cli import (
+        SUMMARY_MAX_FLIPS,
+        SUMMARY_MAX_SITES,
+        SUMMARY_MAX_WARNINGS,
+        _print_summary,
+    )
+
+    result = _many_site_result()
+    stdout = io.StringIO()
+    with contextlib.redirect_stdout(stdout):
+        _print_summary(result, tmp_path, quiet=False)
+    lines = stdout.getvalue().splitlines()
+    rows = [line for line in lines if line.startswith("│ Site ")]
+    assert SUMMARY_MAX_SITES == 25 and len(rows) == SUMMARY_MAX_SITES
+    assert rows[0].startswith("│ Site 199 ")  # analytic: the highest % of load over 1 %
+    assert rows[-1].startswith("│ Site 175 ")
+    assert "175 more sites in sites.csv" in stdout.getvalue()  # 200 - 25
+    flips = [line for line in lines if line.startswith("sensitivity: the verdict for")]
+    assert SUMMARY_MAX_FLIPS == 10 and len(flips) == SUMMARY_MAX_FLIPS
+    assert flips[0].startswith("sensitivity: the verdict for Site 198 ")  # most affected of i%3==0
+    assert "and 57 more sites (sensitivity.csv)" in stdout.getvalue()  # 67 flip (0, 3, .., 198)
+    warned = [line for line in lines if line.startswith("warning: warning number")]
+    assert SUMMARY_MAX_WARNINGS == 10 and len(warned) == SUMMARY_MAX_WARNINGS
+    assert "and 20 more warnings" in stdout.getvalue()
+
+
+def test_summary_of_few_sites_prints_every_site_in_layer_order(tmp_path):
+    """Up to 25 sites every one is printed, in layer order, with no "more sites" line."""
+    from siting.cli import _print_summary
+
+    result = _many_site_result(n=5, n_warnings=1)
+    stdout = io.StringIO()
+    with contextlib.redirect_stdout(stdout):
+        _print_summary(result, tmp_path, quiet=False)
+    rows = [line.split()[2] for line in stdout.getvalue().splitlines()
+            if line.startswith("│ Site ")]
+    assert rows == ["0", "1", "2", "3", "4"]
+    assert "more sites" not in stdout.getvalue()

@@ -4,13 +4,19 @@ from __future__ import annotations
 
 import geopandas as gpd
 import numpy as np
+import pandas as pd
 import pytest
+from matplotlib.collections import LineCollection
 from matplotlib.figure import Figure
 from numpy.testing import assert_allclose
-from shapely.geometry import Point, box
+from shapely.geometry import MultiPolygon, Point, Polygon, box
+from synthetic import hostile_sites
 
+from siting import figures
 from siting.errors import InputError
 from siting.figures import (
+    MAX_LABELLED_SITES,
+    _site_outlines,
     _table_rose_percent,
     deposition_figure,
     figure_png,
@@ -18,11 +24,12 @@ from siting.figures import (
     wind_rose_from_table_png,
 )
 from siting.longterm import WeatherClasses
-from synthetic import hostile_sites
+from siting.presentation import most_affected_order
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 
-
+#: Words of the note a figure carries when it names only some sites (figures._labels_note).
+NOTE_WORDS = "Only the most affected sites are named"
 
 
 
@@ -103,3 +110,116 @@ def test_table_wind_rose_rejects_a_misshapen_table():
                          table.frequency_fraction)
     with pytest.raises(InputError, match="frequency_fraction"):
         wind_rose_from_table_png(bad)
+
+
+# --------------------------------------------------------------------------------------------
+# many sites: every one drawn, at most MAX_LABELLED_SITES named, and the figure says so
+# --------------------------------------------------------------------------------------------
+
+N_MANY = 200
+
+
+def _many_sites() -> gpd.GeoDataFrame:
+    """N_MANY small squares on a lattice; the share of the threshold rises with the index, so
+    "Site 199" is the most affected (synthetic: % of load = index / 10, threshold 1 %)."""
+    i = np.arange(N_MANY)
+    return gpd.GeoDataFrame(
+        {
+            "name": [f"Site {k}" for k in i],
+            "pc_pct_level": i / 20.0,
+            "pc_pct_load": i / 10.0,
+            "threshold_percent": 1.0,
+            "critical_load_used_kg_n_ha_yr": 10.0,
+            "pc_dep_max_kg_n_ha_yr": 0.01 + i / 100.0,
+            "distance_m": 2000.0 - 9.0 * i,
+            "verdict": np.where(i / 10.0 > 1.0, "above threshold", "below threshold"),
+        },
+        geometry=[box(60.0 * (k % 15), -60.0 * (k // 15) - 40, 60.0 * (k % 15) + 40,
+                      -60.0 * (k // 15)) for k in i],
+    )
+
+
+@pytest.fixture
+def drawn(monkeypatch):
+    """The Figure objects the figure functions render, kept for inspection."""
+    kept = []
+    render = figures.figure_png
+
+    def keep(fig, dpi=110):
+        kept.append(fig)
+        return render(fig, dpi)
+
+    monkeypatch.setattr(figures, "figure_png", keep)
+    return kept
+
+
+def _texts(fig) -> list[str]:
+    """Every text drawn in the figure's axes (names, notes, contour labels)."""
+    return [t.get_text() for ax in fig.axes for t in ax.texts]
+
+
+def _deposition_of(sites) -> bytes:
+    rows, cols = np.mgrid[0:40, 0:40]
+    grid = 20.0 * np.exp(-np.hypot(rows - 20, cols - 20) / 8.0)  # synthetic, spans ~0.01-20
+    return deposition_figure(grid, west_m=-100.0, north_m=100.0, cell_m=25.0, sites=sites)
+
+
+def test_deposition_figure_names_at_most_the_cap_of_many_sites(drawn):
+    """200 sites: all 200 outlined in one LineCollection, at most 15 named, the most affected
+    among them, and a note says only the most affected are named (cap: common practice, no
+    source)."""
+    _deposition_of(_many_sites())
+    fig = drawn[-1]
+    names = [t for t in _texts(fig) if t.startswith("Site ")]
+    assert 1 <= len(names) <= MAX_LABELLED_SITES == 15
+    assert "Site 199" in names  # analytic: the highest % of load over its threshold
+    assert len(set(names)) == len(names)
+    assert any(NOTE_WORDS in t and "200 sites drawn" in t for t in _texts(fig))
+    collections = [c for c in fig.axes[0].collections if isinstance(c, LineCollection)]
+    assert len(collections) == 1 and len(collections[0].get_segments()) == N_MANY  # one ring each
+
+
+def test_pc_vs_distance_figure_names_at_most_the_cap_of_many_sites(drawn):
+    """200 sites: every point drawn, at most 15 named (the most affected first), a note, and
+    the legend beside the axes rather than placed 'best' among the points."""
+    sites = pd.DataFrame(_many_sites().drop(columns="geometry"))
+    assert pc_vs_distance_figure(sites).startswith(PNG_MAGIC)
+    fig = drawn[-1]
+    names = [t for t in _texts(fig) if t.startswith("Site ")]
+    assert 1 <= len(names) <= MAX_LABELLED_SITES
+    assert "Site 199" in names
+    assert any(NOTE_WORDS in t for t in _texts(fig))
+    points = fig.axes[0].collections[0]
+    assert len(points.get_offsets()) == N_MANY  # every site with a positive deposition
+    legend = fig.axes[0].get_legend()
+    assert legend is not None and legend._loc != 0  # 0 is matplotlib's code for "best"
+
+
+def test_few_sites_are_all_named_without_a_note(drawn):
+    """The four synthetic sites are named as before, and no note is added."""
+    pc_vs_distance_figure(hostile_sites())
+    texts = _texts(drawn[-1])
+    plotted = hostile_sites().dropna(subset=["pc_dep_max_kg_n_ha_yr"])["name"]
+    assert sorted(t for t in texts if t in set(plotted)) == sorted(plotted)
+    assert not any(NOTE_WORDS in t for t in texts)
+
+
+def test_most_affected_order_ranks_by_share_of_threshold():
+    """Order by max(% level, % load) / threshold %; a missing half ignored, no figure last,
+    ties in layer order (analytic, from the values below)."""
+    sites = pd.DataFrame({
+        "pc_pct_level": [2.0, np.nan, 30.0, np.nan, 5.0],
+        "pc_pct_load": [4.0, 10.0, 10.0, np.nan, 5.0],
+        "threshold_percent": [1.0, 1.0, 20.0, 1.0, 1.0],
+    })
+    # shares: 4, 10, 1.5, none, 5
+    assert most_affected_order(sites).tolist() == [1, 4, 0, 2, 3]
+
+
+def test_site_outlines_give_every_ring():
+    """A polygon with a hole gives two rings, a two-part multipolygon two, None nothing."""
+    holed = Polygon([(0, 0), (10, 0), (10, 10), (0, 10)], [[(2, 2), (4, 2), (4, 4), (2, 4)]])
+    parts = MultiPolygon([box(20, 0, 25, 5), box(30, 0, 35, 5)])
+    rings = _site_outlines([holed, parts, None])
+    assert len(rings) == 4
+    assert all(ring.shape[1] == 2 and (ring[0] == ring[-1]).all() for ring in rings)  # closed

@@ -406,3 +406,29 @@ def test_print_css_sets_a4_and_keeps_blocks_whole(report_html):
     assert "h1, h2, h3, h4 { page-break-after: avoid; break-after: avoid; }" in print_css
     assert "tr.step-group { page-break-after: avoid; break-after: avoid; }" in print_css
     assert "figure img { max-height:" in print_css
+
+
+def test_many_sites_all_in_the_summary_in_layer_order(tmp_path):
+    """400 sites (the four synthetic ones 100 times): every one has its summary row, in
+    layer order, and each row reads as the same site's row in the four-site report
+    (cross-check of the column-wise, remembered cell formatting against the small report)."""
+    many = pd.concat([hostile_sites()] * 100, ignore_index=True)
+    many["name"] = [f"{name} #{i}" for i, name in enumerate(many["name"])]
+    body = _summary_body(_write(tmp_path / "many.html", sites=many, figures={}))
+    rows = re.findall(r'<tr class="site-row">(.*?)</tr>', body, re.S)
+    assert len(rows) == len(many)
+    small = re.findall(r'<tr class="site-row">(.*?)</tr>',
+                       _summary_body(_write(tmp_path / "few.html", figures={})), re.S)
+    for i in (0, 1, 2, 3, 397, 398, 399):
+        suffix = html.escape(f" #{i}")
+        assert rows[i].replace(suffix, "", 1) == small[i % 4], i
+
+
+def test_remembered_cells_keep_types_apart():
+    """The cell memory tells True, 1 and 1.0 apart (they hash alike but may format apart)."""
+    from siting.report import _cached
+
+    calls = []
+    cell = _cached(lambda value: calls.append(value) or type(value).__name__)
+    assert [cell(True), cell(1), cell(1.0), cell(1.0)] == ["bool", "int", "float", "float"]
+    assert len(calls) == 3  # the second 1.0 was remembered

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import html
+import json
 import re
 
 import geopandas as gpd
@@ -12,7 +13,7 @@ import pytest
 from shapely.geometry import Point, box
 
 from siting.errors import InputError
-from siting.webmap import escape_text, write_screen_map
+from siting.webmap import SITE_CLASS, escape_text, write_screen_map
 
 CRS = "EPSG:32632"
 WEST_M, NORTH_M, CELL_M = 500_000.0, 5_700_000.0, 25.0
@@ -119,6 +120,25 @@ def _write(path, contours=((1.0, "1 kg N/ha/yr"),), **overrides) -> str:
     return path.read_text(encoding="utf-8")
 
 
+def _geojson_layers(text: str) -> list[dict]:
+    """The data of every folium GeoJson layer in the page (``geo_json_<id>_add({...})``)."""
+    decoder = json.JSONDecoder()
+    return [decoder.raw_decode(text, match.end())[0]
+            for match in re.finditer(r"geo_json_[0-9a-f]+_add\(", text)]
+
+
+def _site_layers(text: str) -> list[dict]:
+    """The GeoJson layers of habitat sites: those whose features carry a verdict."""
+    return [layer for layer in _geojson_layers(text)
+            if layer.get("type") == "FeatureCollection" and layer["features"]
+            and all("verdict" in f["properties"] for f in layer["features"])]
+
+
+def _site_properties(text: str) -> list[dict]:
+    """Properties of every site feature in the page, in layer order."""
+    return [f["properties"] for layer in _site_layers(text) for f in layer["features"]]
+
+
 @pytest.fixture(scope="module")
 def map_html(tmp_path_factory) -> str:
     """The map written once for the read-only checks."""
@@ -153,20 +173,25 @@ def test_hostile_site_names_never_appear_raw(map_html):
     """Site names with script tags, template-literal syntax or event handlers are escaped."""
     for raw in (NASTY_SCRIPT, NASTY_TEMPLATE, NASTY_IMG, "${alert(1)}", "onerror=alert(1)>"):
         assert raw not in map_html
-    assert escape_text(NASTY_SCRIPT) in map_html
-    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in map_html
-    assert escape_text(NASTY_TEMPLATE) in map_html
-    assert "a&#96;b&#36;&#123;alert(1)&#125;&#92;c" in map_html
-    assert escape_text(NASTY_IMG) in map_html
-    assert "&lt;img src=x onerror=alert(1)&gt;" in map_html
+    # the site layer's data, decoded from the page: names arrive escaped, for the popup
+    # head and the tooltip alike
+    names = [p["name"] for p in _site_properties(map_html)]
+    assert names == [escape_text(NASTY_SCRIPT), escape_text(NASTY_TEMPLATE), escape_text(NASTY_IMG)]
+    assert names == [
+        "&lt;script&gt;alert(1)&lt;/script&gt;",
+        "a&#96;b&#36;&#123;alert(1)&#125;&#92;c",
+        "&lt;img src=x onerror=alert(1)&gt;",
+    ]  # analytic: html.escape, then the numeric references of escape_text
 
 
 def test_other_user_text_is_escaped(map_html):
     """Designation, habitat, source id and title reach the page only in escaped form."""
     assert "<b>SSSI</b>" not in map_html
-    assert "&lt;b&gt;SSSI&lt;/b&gt;" in map_html
+    popups = [value for p in _site_properties(map_html) for value in p["popup"]]
+    assert "&lt;b&gt;SSSI&lt;/b&gt;" in popups
+    assert "heath &#92; dry" in popups
+    assert "S2&#96;x" in popups and "S3&#36;&#123;1&#125;" in popups  # site ids
     assert "H1<i>" not in map_html and "H1&lt;i&gt;" in map_html
-    assert "heath &#92; dry" in map_html
     assert "Farm <Nord>" not in map_html
     assert "Farm &lt;Nord&gt; &amp; &#96;test&#96;" in map_html
 
@@ -242,8 +267,9 @@ def test_bad_crs_and_grid_raise_input_error(tmp_path):
 
 def test_popups_hold_formatted_figures(map_html):
     """Site popups show formatted figures with units; source popups the derivation."""
-    assert "12.5 kg N/ha/yr" in map_html
-    assert "1.2 µg NH3/m³" in map_html
+    popups = [value for p in _site_properties(map_html) for value in p["popup"]]
+    assert "12.5 kg N/ha/yr" in popups  # _sites(): pc_dep_max_kg_n_ha_yr 12.5
+    assert "1.2 µg NH3/m³" in popups  # _sites(): pc_conc_max_ug_m3 1.2
     assert "2000 places" in map_html
     assert "emission given directly in the scenario" in map_html
     assert html.escape("1500 kg NH3/yr") in map_html
@@ -274,3 +300,63 @@ def test_pandas_na_shows_as_blank(tmp_path):
     sites.loc[0, "designation"] = pd.NA
     text = _write(tmp_path / "map.html", sites=sites)
     assert "&lt;NA&gt;" not in text and "<NA>" not in text
+
+
+def test_popup_rows_follow_the_site_figures(map_html):
+    """Each site's popup values: verdict in bold, n/a for missing figures, in-combination only
+    where given (values from _sites())."""
+    first, second, third = (p["popup"] for p in _site_properties(map_html))
+    assert first[3] == "<strong>above threshold</strong>"
+    # pc_pct_load 250 and incomb_pct_load 260, three significant figures (format_number)
+    assert "250 %" in first and first[-1] == "260 %"
+    assert second[-1] == "" and third[-1] == ""  # no in-combination figure: row left out
+    assert third.count("n/a") == 4  # concentration, % level, deposition, % load all NaN
+
+
+def _many_sites(n: int) -> gpd.GeoDataFrame:
+    """n small square sites on a lattice around the grid centre; verdicts cycle (synthetic)."""
+    centre_x = WEST_M + N_COLS * CELL_M / 2
+    centre_y = NORTH_M - N_ROWS * CELL_M / 2
+    side = int(np.ceil(np.sqrt(n)))
+    verdicts = ["above threshold", "below threshold", "not assessed"]
+    return gpd.GeoDataFrame(
+        {
+            "site_id": [f"S{i}" for i in range(n)],
+            "name": [f"Site {i} <{i}>" for i in range(n)],
+            "verdict": [verdicts[i % 3] for i in range(n)],
+            "pc_pct_load": np.linspace(0.1, 50.0, n),
+        },
+        geometry=[box(centre_x - 600 + 40 * (i % side), centre_y - 500 + 40 * (i // side),
+                      centre_x - 580 + 40 * (i % side), centre_y - 480 + 40 * (i // side))
+                  for i in range(n)],
+        crs=CRS,
+    )
+
+
+def test_many_sites_are_one_layer_with_a_feature_each(tmp_path):
+    """200 sites make one GeoJson layer of 200 features, not 200 layers (one layer keeps the
+    page small and quick to write; common practice, no source)."""
+    n = 200
+    text = _write(tmp_path / "map.html", sites=_many_sites(n))
+    layers = _site_layers(text)
+    assert len(layers) == 1
+    assert len(layers[0]["features"]) == n
+    assert [f["properties"]["name"] for f in layers[0]["features"]] == [
+        escape_text(f"Site {i} <{i}>") for i in range(n)]
+    assert "Site 0 <0>" not in text
+    # one bound popup script, not one popup element per site
+    assert text.count(".bindPopup(function ()") == 1
+    assert text.count("L.popup(") == len(_sources())  # the sources' own popups only
+
+
+def test_site_style_is_keyed_on_the_verdict(map_html):
+    """The one site layer styles each feature by its verdict: the verdict colours and the
+    stable CSS class appear in its style map (siting.presentation.VERDICT_COLOURS)."""
+    from siting.presentation import VERDICT_COLOURS
+
+    styler = re.search(r"function geo_json_[0-9a-f]+_styler\(feature\) \{(.*?)\n        \}",
+                       map_html, re.S)
+    assert styler is not None
+    for colour in VERDICT_COLOURS.values():
+        assert colour in styler.group(1)
+    assert SITE_CLASS in styler.group(1)
