@@ -131,13 +131,14 @@ def _print_summary(result, out_dir: Path, quiet: bool) -> None:
 
 def _run_screen(scenario_path: Path, out: Path | None, overwrite: bool, fail_on_exceed: bool,
                 quiet: bool) -> int:
-    from siting.outputs import check_output_dir, input_paths, write_outputs
+    from siting.outputs import check_output_dir, estimate_screen_bytes, input_paths, write_outputs
     from siting.scenario import load_scenario
     from siting.screen import screen
 
     scenario = load_scenario(scenario_path)
     out_dir = out if out is not None else Path("maps") / scenario.name
-    check_output_dir(out_dir.resolve(), overwrite, input_paths(scenario))
+    check_output_dir(out_dir.resolve(), overwrite, input_paths(scenario),
+                     need_bytes=estimate_screen_bytes(scenario))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         result = screen(scenario, progress=not quiet and sys.stderr.isatty())
@@ -398,15 +399,24 @@ def _print_region_summary(result, out_dir: Path) -> None:
                   style="dim")
 
 
+class _OneLineParser(argparse.ArgumentParser):
+    """argparse with the tool's error rule: a bad command line is one line on stderr (no usage
+    block) naming the option, and exit 2."""
+
+    def error(self, message: str):
+        self.exit(EXIT_BAD_INPUT, f"{self.prog}: error: {message} (see {self.prog} --help)\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
     from siting import __version__
 
-    parser = argparse.ArgumentParser(
+    parser = _OneLineParser(
         prog="siting",
         description="Screen livestock-housing ammonia against protected habitats: process "
                     "contribution vs critical levels and loads (screening estimate).")
     parser.add_argument("--version", action="version", version=f"siting {__version__}")
-    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND",
+                                parser_class=_OneLineParser)
 
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--overwrite", action="store_true",
@@ -596,6 +606,8 @@ def _restore_signals(previous: dict) -> None:
 
 
 def main(argv: list[str] | None = None) -> int:
+    from siting.outputs import InterruptedAfterWriting
+
     parser = build_parser()
     args = parser.parse_args(argv)
     previous = _interrupt_on_termination()
@@ -604,6 +616,10 @@ def main(argv: list[str] | None = None) -> int:
     except SitingError as exc:
         print(f"siting: error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except InterruptedAfterWriting as exc:
+        print(f"siting: interrupted after {exc.out_dir} was complete: it holds this run's whole "
+              "result (only tidying up was cut short)", file=sys.stderr)
+        return 130
     except KeyboardInterrupt:
         print("siting: interrupted; nothing was written", file=sys.stderr)
         return 130
