@@ -65,8 +65,8 @@ def _table(tmp_path, rows):
 @pytest.mark.parametrize("rows, match", [
     ("".join(f"{90 * k},5,D,0.125\n" for k in range(4)), "sum to 0.5"),
     ("".join(f"{90 * k},5,D,1e308\n" for k in range(4)), "overflow"),
-    ("".join(f"{90 * k},inf,D,0.25\n" for k in range(4)), "speed_m_s must be a number"),
-    ("".join(f"{90 * k},5,D,nan\n" for k in range(4)), "frequency must be a number"),
+    ("".join(f"{90 * k},inf,D,0.25\n" for k in range(4)), "line 2: speed_m_s must be a finite number, got .inf."),
+    ("".join(f"{90 * k},5,D,nan\n" for k in range(4)), "line 2: frequency must be a finite number, got .nan."),
 ], ids=["fractions summing to 0.5", "1e308 frequencies", "infinite speed", "NaN frequency"])
 def test_frequencies_that_would_mislead_are_refused(tmp_path, rows, match):
     """Fractions must sum to 1 within 0.01 (or be whole counts); every number finite: a table
