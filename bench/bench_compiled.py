@@ -51,12 +51,14 @@ def main() -> None:
         print("numba not installed: only the numpy path was timed")
         numba = None
     if numba is not None:
+
         def loop(y, sy, integral, f, u, vd, out):
             for i in numba.prange(y.size):
                 acc = 0.0
                 for j in range(f.size):
                     acc += f[j] / u[j] * math.exp(-(vd / u[j]) * integral[i])
                 out[i] = math.exp(-0.5 * (y[i] / sy[i]) ** 2) * acc
+
         for label, parallel in (("numba loop", False), ("numba parallel loop", True)):
             compiled = numba.njit(parallel=parallel, fastmath=True)(loop)
             out = np.empty_like(y)
@@ -66,12 +68,13 @@ def main() -> None:
             rows.append((label, time.perf_counter() - start))
             assert np.allclose(out, reference, rtol=1e-12)
     base = rows[0][1]
-    print(f"hourly engine, inner term: {n:,} receptors x {len(u)} speeds "
-          f"({exps / 1e6:.0f} million exp)")
+    print(
+        f"hourly engine, inner term: {n:,} receptors x {len(u)} speeds "
+        f"({exps / 1e6:.0f} million exp)"
+    )
     print(f"{'path':24}{'seconds':>10}{'Mexp/s':>10}{'vs numpy':>10}")
     for label, seconds in rows:
         print(f"{label:24}{seconds:>10.3f}{exps / seconds / 1e6:>10.0f}{base / seconds:>9.2f}x")
-
 
 
 def lookup_rows() -> tuple[list, str]:
@@ -117,8 +120,7 @@ def lookup_rows() -> tuple[list, str]:
                 i0, w = n_nodes - 2, 1.0
             a, b = log_table[k0, i0], log_table[k0, i0 + 1]
             c, d = log_table[k0 + 1, i0], log_table[k0 + 1, i0 + 1]
-            out[i] = ((1.0 - w1) * math.exp(a + (b - a) * w)
-                      + w1 * math.exp(c + (d - c) * w))
+            out[i] = (1.0 - w1) * math.exp(a + (b - a) * w) + w1 * math.exp(c + (d - c) * w)
 
     n_sec = len(weather.sector_centres_deg)
     c0 = weather.sector_centres_deg[0] / weather.sector_width_deg
@@ -126,14 +128,36 @@ def lookup_rows() -> tuple[list, str]:
         compiled = numba.njit(parallel=parallel, fastmath=False)(loop)
         out = np.empty_like(rx)
         e, p = work[0]
-        compiled(rx[:10], ry[:10], e.x_m, e.y_m, e.min_distance_m, n_sec, c0, p.log_value,
-                 p.first_node, p.log_step, out[:10])  # compile
+        compiled(
+            rx[:10],
+            ry[:10],
+            e.x_m,
+            e.y_m,
+            e.min_distance_m,
+            n_sec,
+            c0,
+            p.log_value,
+            p.first_node,
+            p.log_step,
+            out[:10],
+        )  # compile
         start = time.perf_counter()
         results = []
         for e, p in work:
             out = np.empty_like(rx)
-            compiled(rx, ry, e.x_m, e.y_m, e.min_distance_m, n_sec, c0, p.log_value,
-                     p.first_node, p.log_step, out)
+            compiled(
+                rx,
+                ry,
+                e.x_m,
+                e.y_m,
+                e.min_distance_m,
+                n_sec,
+                c0,
+                p.log_value,
+                p.first_node,
+                p.log_step,
+                out,
+            )
             results.append(out)
         rows.append((label, time.perf_counter() - start))
         for got, want in zip(results, reference):

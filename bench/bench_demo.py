@@ -42,13 +42,17 @@ def main() -> None:
         rows.append((t["inputs_s"], t["dispersion_s"], t["assessment_s"], write_s, t["receptors"]))
     best = min(rows, key=lambda r: r[1])
     evaluations = best[4] * n_elements * n_classes
-    print(f"demo: {best[4]:,} receptors, {n_elements} release elements, "
-          f"{n_classes} speed x stability classes")
+    print(
+        f"demo: {best[4]:,} receptors, {n_elements} release elements, "
+        f"{n_classes} speed x stability classes"
+    )
     print(f"{'phase':<14}{'seconds':>10}")
     for name, value in zip(("inputs", "dispersion", "assessment", "write"), best[:4]):
         print(f"{name:<14}{value:>10.3f}")
-    print(f"dispersion rate: {evaluations / best[1] / 1e6:,.1f} million "
-          "receptor-element-class evaluations per second")
+    print(
+        f"dispersion rate: {evaluations / best[1] / 1e6:,.1f} million "
+        "receptor-element-class evaluations per second"
+    )
 
 
 if __name__ == "__main__":

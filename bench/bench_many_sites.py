@@ -43,8 +43,20 @@ def _layer(demo: Path, n: int, path: Path) -> None:
 
 def _screen_seconds(scenario: Path, out: Path) -> float:
     start = time.perf_counter()
-    subprocess.run([sys.executable, "-m", "siting", "screen", str(scenario), "--out", str(out),
-                    "--overwrite", "--quiet"], check=True)
+    subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "siting",
+            "screen",
+            str(scenario),
+            "--out",
+            str(out),
+            "--overwrite",
+            "--quiet",
+        ],
+        check=True,
+    )
     return time.perf_counter() - start
 
 
@@ -59,8 +71,10 @@ def _per_site_baseline(geoms, sources, spacing_m: float, grid) -> None:
             nearest_points(geom.boundary, shapely.Point(sx, sy))
         geom.representative_point()
         minx, miny, maxx, maxy = geom.bounds
-        lx, ly = np.meshgrid(np.arange(minx + spacing_m / 2, maxx, spacing_m),
-                             np.arange(miny + spacing_m / 2, maxy, spacing_m))
+        lx, ly = np.meshgrid(
+            np.arange(minx + spacing_m / 2, maxx, spacing_m),
+            np.arange(miny + spacing_m / 2, maxy, spacing_m),
+        )
         shapely.contains_xy(geom, lx.ravel(), ly.ravel())
         for ring in [geom.exterior, *geom.interiors]:
             n = max(8, int(np.ceil(ring.length / 10.0)))
@@ -90,28 +104,40 @@ def main() -> None:
         for n in args.sites:
             _layer(demo, n, work / f"habitats_{n}.gpkg")
             scenario = work / f"scenario_{n}.toml"
-            scenario.write_text(text.replace('file = "habitats.gpkg"',
-                                             f'file = "habitats_{n}.gpkg"'), encoding="utf-8")
+            scenario.write_text(
+                text.replace('file = "habitats.gpkg"', f'file = "habitats_{n}.gpkg"'),
+                encoding="utf-8",
+            )
             seconds = _screen_seconds(scenario, Path(tmp) / f"out_{n}")
-            print(f"{n:6d} sites        {seconds:7.1f} s   ratio {seconds / base:5.1f}   "
-                  f"{1000 * seconds / n:5.2f} ms per site")
+            print(
+                f"{n:6d} sites        {seconds:7.1f} s   ratio {seconds / base:5.1f}   "
+                f"{1000 * seconds / n:5.2f} ms per site"
+            )
         n = max(args.sites)
         loaded = load_scenario(work / f"scenario_{n}.toml")
         geoms = gpd.read_file(work / f"habitats_{n}.gpkg").geometry.to_numpy()
         sources = [(s.x, s.y) for s in loaded.sources]
-        grid = grid_around([s[0] for s in sources], [s[1] for s in sources],
-                           loaded.grid.margin_m, loaded.grid.spacing_m, loaded.crs)
+        grid = grid_around(
+            [s[0] for s in sources],
+            [s[1] for s in sources],
+            loaded.grid.margin_m,
+            loaded.grid.spacing_m,
+            loaded.crs,
+        )
         start = time.perf_counter()
-        site_sample_points(geoms, [s[0] for s in sources], [s[1] for s in sources],
-                           loaded.grid.spacing_m)
+        site_sample_points(
+            geoms, [s[0] for s in sources], [s[1] for s in sources], loaded.grid.spacing_m
+        )
         site_boundary_points(geoms, 10.0)
         grid_nodes_in_sites(geoms, grid)
         fast = time.perf_counter() - start
         start = time.perf_counter()
         _per_site_baseline(geoms, sources, loaded.grid.spacing_m, grid)
         slow = time.perf_counter() - start
-        print(f"site sampling, {n} sites: vectorised {fast:6.2f} s, per-site loop {slow:6.2f} s,"
-              f" ratio {slow / fast:5.1f}x")
+        print(
+            f"site sampling, {n} sites: vectorised {fast:6.2f} s, per-site loop {slow:6.2f} s,"
+            f" ratio {slow / fast:5.1f}x"
+        )
 
 
 if __name__ == "__main__":

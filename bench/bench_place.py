@@ -34,8 +34,9 @@ def naive_seconds_per_position(prep, house_id: str, positions, samples: int) -> 
     return (time.perf_counter() - start) / samples
 
 
-def full_screen_seconds_per_position(scenario_path, house_id: str, positions,
-                                     samples: int) -> float:
+def full_screen_seconds_per_position(
+    scenario_path, house_id: str, positions, samples: int
+) -> float:
     """Seconds per position of a full `screen` run with the house moved there."""
     from siting.scenario import load_scenario
     from siting.screen import screen
@@ -44,8 +45,10 @@ def full_screen_seconds_per_position(scenario_path, house_id: str, positions,
     pick = positions.iloc[np.linspace(0, len(positions) - 1, samples).astype(int)]
     start = time.perf_counter()
     for x, y in zip(pick["x"], pick["y"]):
-        moved = [s.model_copy(update={"x": x, "y": y}) if s.id == house_id else s
-                 for s in scenario.sources]
+        moved = [
+            s.model_copy(update={"x": x, "y": y}) if s.id == house_id else s
+            for s in scenario.sources
+        ]
         screen(scenario.model_copy(update={"sources": moved}))
     return (time.perf_counter() - start) / samples
 
@@ -63,20 +66,29 @@ def main() -> None:
     prep = prepare(scenario)
     naive_each_s = naive_seconds_per_position(prep, "H2", result.positions, args.naive_samples)
     t = result.timings_s
-    print(f"demo holding: {result.holding.area / 1e4:.1f} ha, allowed {result.allowed_area.area / 1e4:.1f} ha, "
-          f"{n:,} positions at {args.spacing:g} m, {t['site_points']:,} site points, "
-          f"{len(prep.sites)} sites")
+    print(
+        f"demo holding: {result.holding.area / 1e4:.1f} ha, allowed {result.allowed_area.area / 1e4:.1f} ha, "
+        f"{n:,} positions at {args.spacing:g} m, {t['site_points']:,} site points, "
+        f"{len(prep.sites)} sites"
+    )
     print(f"{'':28}{'seconds':>10}{'positions/s':>14}")
     print(f"{'placement search (kernel)':28}{total_s:>10.2f}{n / total_s:>14,.0f}")
     print(f"{'  of which kernel':28}{t['kernel_s']:>10.2f}")
-    full_each_s = full_screen_seconds_per_position(scenario, "H2", result.positions,
-                                                   args.naive_samples)
-    for label, each_s in (("naive: full screen each", full_each_s),
-                          ("direct at site points each", naive_each_s)):
-        print(f"{label:28}{each_s * n:>10.1f}{1 / each_s:>14,.1f}"
-              f"   (extrapolated from {args.naive_samples} positions)")
-    print(f"ratio naive full screen / kernel: {full_each_s * n / total_s:,.0f}x; "
-          f"direct at site points / kernel: {naive_each_s * n / total_s:,.0f}x")
+    full_each_s = full_screen_seconds_per_position(
+        scenario, "H2", result.positions, args.naive_samples
+    )
+    for label, each_s in (
+        ("naive: full screen each", full_each_s),
+        ("direct at site points each", naive_each_s),
+    ):
+        print(
+            f"{label:28}{each_s * n:>10.1f}{1 / each_s:>14,.1f}"
+            f"   (extrapolated from {args.naive_samples} positions)"
+        )
+    print(
+        f"ratio naive full screen / kernel: {full_each_s * n / total_s:,.0f}x; "
+        f"direct at site points / kernel: {naive_each_s * n / total_s:,.0f}x"
+    )
 
 
 if __name__ == "__main__":

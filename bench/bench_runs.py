@@ -98,6 +98,7 @@ class Row:
 
 # --- building the cases --------------------------------------------------------------------------
 
+
 def grid_receptors(n: int, cell_m: float) -> tuple[np.ndarray, np.ndarray]:
     """Cell centres of an n x n grid with its south-west corner at (0, 0) [m], row 0 north."""
     centres = (np.arange(n) + 0.5) * cell_m
@@ -105,8 +106,9 @@ def grid_receptors(n: int, cell_m: float) -> tuple[np.ndarray, np.ndarray]:
     return x, y
 
 
-def make_sources(rng: np.random.Generator, n: int, extent_m: float, margin_m: float = 0.0,
-                 fans: bool = True):
+def make_sources(
+    rng: np.random.Generator, n: int, extent_m: float, margin_m: float = 0.0, fans: bool = True
+):
     """n sources spread over a square [margin, extent - margin]^2: points, fans, volume sources.
 
     Heights 3-10 m in 0.5 m steps. Volume sources: a house footprint of side 14-40 m (on a
@@ -125,12 +127,26 @@ def make_sources(rng: np.random.Generator, n: int, extent_m: float, margin_m: fl
     for i in range(n):
         if kind[i] == 2:
             side = float(rng.choice(sides_m))
-            elements.append(ReleaseElement(x[i], y[i], height[i], sigma_y0_m=side / 4.3,
-                                           sigma_z0_m=height[i] / 2.15, min_distance_m=side / 2))
+            elements.append(
+                ReleaseElement(
+                    x[i],
+                    y[i],
+                    height[i],
+                    sigma_y0_m=side / 4.3,
+                    sigma_z0_m=height[i] / 2.15,
+                    min_distance_m=side / 2,
+                )
+            )
         elif kind[i] == 1:
-            elements.append(ReleaseElement(x[i], y[i], height[i],
-                                           diameter_m=rng.uniform(0.6, 1.0),
-                                           exit_velocity_m_s=rng.uniform(5.0, 10.0)))
+            elements.append(
+                ReleaseElement(
+                    x[i],
+                    y[i],
+                    height[i],
+                    diameter_m=rng.uniform(0.6, 1.0),
+                    exit_velocity_m_s=rng.uniform(5.0, 10.0),
+                )
+            )
         else:
             elements.append(ReleaseElement(x[i], y[i], height[i]))
     emission_g_s = np.exp(rng.uniform(np.log(0.02), np.log(0.5), n))
@@ -144,8 +160,12 @@ def make_table(rng: np.random.Generator) -> WeatherClasses:
     sector_share = 1.0 + 0.8 * np.cos(np.deg2rad(sectors - 225.0))
     speed_share = np.array([0.10, 0.20, 0.25, 0.22, 0.15, 0.08])
     stability_share = np.array([0.03, 0.08, 0.15, 0.50, 0.14, 0.10])
-    freq = (sector_share[:, None, None] * speed_share[None, :, None]
-            * stability_share[None, None, :] * rng.uniform(0.5, 1.5, (12, 6, 6)))
+    freq = (
+        sector_share[:, None, None]
+        * speed_share[None, :, None]
+        * stability_share[None, None, :]
+        * rng.uniform(0.5, 1.5, (12, 6, 6))
+    )
     return WeatherClasses(sectors, speeds_m_s, freq / freq.sum())
 
 
@@ -156,29 +176,38 @@ def make_record(rng: np.random.Generator, n_hours: int = HOURS_PER_YEAR) -> Hour
     stability from speed and day or night in the spirit of Turner's scheme (low wind by day
     unstable, by night stable, strong wind neutral), with some scatter. Invented.
     """
-    time_utc = (np.datetime64("2023-01-01T00:00:00")
-                + np.arange(n_hours).astype("timedelta64[h]")).astype("datetime64[s]")
-    direction = np.where(rng.random(n_hours) < 0.6, rng.normal(225.0, 45.0, n_hours),
-                         rng.uniform(0.0, 360.0, n_hours))
+    time_utc = (
+        np.datetime64("2023-01-01T00:00:00") + np.arange(n_hours).astype("timedelta64[h]")
+    ).astype("datetime64[s]")
+    direction = np.where(
+        rng.random(n_hours) < 0.6,
+        rng.normal(225.0, 45.0, n_hours),
+        rng.uniform(0.0, 360.0, n_hours),
+    )
     direction_deg = (np.round(direction / 10.0) * 10.0) % 360.0
     speed_m_s = np.maximum(np.round(5.0 * rng.weibull(2.0, n_hours) * 2.0) / 2.0, 0.5)
     hour = np.arange(n_hours) % 24
     day = (hour >= 7) & (hour < 19)
-    by_day = np.select([speed_m_s < 2, speed_m_s < 3, speed_m_s < 5, speed_m_s < 6],
-                       [0, 1, 2, 2], default=3)
+    by_day = np.select(
+        [speed_m_s < 2, speed_m_s < 3, speed_m_s < 5, speed_m_s < 6], [0, 1, 2, 2], default=3
+    )
     by_night = np.select([speed_m_s < 2, speed_m_s < 3, speed_m_s < 5], [5, 4, 4], default=3)
     stability = np.where(day, by_day, by_night) + rng.integers(-1, 2, n_hours) * (
-        rng.random(n_hours) < 0.2)
-    return HourlyWeather(time_utc, direction_deg, speed_m_s, np.clip(stability, 0, 5),
-                         np.full(n_hours, np.nan))
+        rng.random(n_hours) < 0.2
+    )
+    return HourlyWeather(
+        time_utc, direction_deg, speed_m_s, np.clip(stability, 0, 5), np.full(n_hours, np.nan)
+    )
 
 
 def settings_for_runs() -> DispersionSettings:
     """Briggs open-country sigmas, rural wind exponents, depletion at 0.02 m/s, no lid."""
     dispersion = load_dispersion()
-    return DispersionSettings(scheme=sigma_scheme(dispersion, "rural", "briggs"),
-                              wind_exponents=wind_exponents(dispersion, "rural"),
-                              depletion_velocity_m_s=0.02)
+    return DispersionSettings(
+        scheme=sigma_scheme(dispersion, "rural", "briggs"),
+        wind_exponents=wind_exponents(dispersion, "rural"),
+        depletion_velocity_m_s=0.02,
+    )
 
 
 def build_case(name: str, quick: bool) -> Case:
@@ -193,9 +222,9 @@ def build_case(name: str, quick: bool) -> Case:
     # regional: no fan outlets (an inventory holds heights and footprints, and the
     # convolution's release classes have no rise), one cell clear of the edge (bilinear placing)
     regional = name == "regional"
-    elements, emission_g_s = make_sources(rng, n_sources, n_grid * cell_m,
-                                          margin_m=cell_m if regional else 0.0,
-                                          fans=not regional)
+    elements, emission_g_s = make_sources(
+        rng, n_sources, n_grid * cell_m, margin_m=cell_m if regional else 0.0, fans=not regional
+    )
     if name == "hourly":
         weather = make_record(rng, 1000 if quick else HOURS_PER_YEAR)
     else:
@@ -205,14 +234,16 @@ def build_case(name: str, quick: bool) -> Case:
 
 # --- the fast paths ------------------------------------------------------------------------------
 
+
 def fast_site(case: Case, elements=None, emission_g_s=None) -> np.ndarray:
     """Sum over sources of Q times the sector-averaged engine's per-unit concentration."""
     elements = case.elements if elements is None else elements
     emission_g_s = case.emission_g_s if emission_g_s is None else emission_g_s
     total = np.zeros(case.receptor_x_m.shape)
     for element, q in zip(elements, emission_g_s):
-        total += q * source_concentration_g_m3_per_g_s(case.receptor_x_m, case.receptor_y_m,
-                                                       [element], case.weather, case.settings)
+        total += q * source_concentration_g_m3_per_g_s(
+            case.receptor_x_m, case.receptor_y_m, [element], case.weather, case.settings
+        )
     return total
 
 
@@ -221,8 +252,9 @@ def fast_hourly(case: Case, weather=None) -> np.ndarray:
     weather = case.weather if weather is None else weather
     total = np.zeros(case.receptor_x_m.shape)
     for element, q in zip(case.elements, case.emission_g_s):
-        total += q * source_hourly_mean_g_m3_per_g_s(case.receptor_x_m, case.receptor_y_m,
-                                                     [element], weather, case.settings)
+        total += q * source_hourly_mean_g_m3_per_g_s(
+            case.receptor_x_m, case.receptor_y_m, [element], weather, case.settings
+        )
     return total
 
 
@@ -244,18 +276,23 @@ def regional_fast_path():
             return functools.partial(call_regional, function), f"convolution.{name}", ""
     try:
         from siting import region
+
         if callable(getattr(region, "compute_region", None)):
-            why = ("siting.convolution has no regional_deposition: timed siting.region."
-                   "compute_region (kernel per release class, FFT tiles, near-field "
-                   "correction, dask threads) on inputs built from the case's arrays")
+            why = (
+                "siting.convolution has no regional_deposition: timed siting.region."
+                "compute_region (kernel per release class, FFT tiles, near-field "
+                "correction, dask threads) on inputs built from the case's arrays"
+            )
             return functools.partial(region_pipeline, region), "region.compute_region", why
     except ImportError:
         pass
     blocks = ("unit_kernel", "place_on_cells", "convolve_emissions", "near_field_correction")
     if all(hasattr(convolution, b) for b in blocks):
-        why = ("siting.convolution has no regional_deposition yet: its unit_kernel, "
-               "place_on_cells, convolve_emissions and near_field_correction composed here "
-               "(kernel per release class, bilinear placing, 10-cell near-field correction)")
+        why = (
+            "siting.convolution has no regional_deposition yet: its unit_kernel, "
+            "place_on_cells, convolve_emissions and near_field_correction composed here "
+            "(kernel per release class, bilinear placing, 10-cell near-field correction)"
+        )
         return functools.partial(convolution_from_blocks, convolution), "convolution blocks", why
     return None, "direct", "siting.convolution has neither regional_deposition nor its blocks"
 
@@ -283,16 +320,33 @@ def region_pipeline(region, case: Case, elements, emission_g_s) -> np.ndarray:
             classes.append(release_class("volume", element.release_height_m, side * side))
         else:
             classes.append(release_class("point", element.release_height_m))
-    farms = pd.DataFrame({"farm_id": [f"F{i}" for i in range(len(elements))],
-                          "x_m": [e.x_m for e in elements], "y_m": [e.y_m for e in elements],
-                          "emission_g_s": np.asarray(emission_g_s, dtype=float),
-                          "release_class": classes})
+    farms = pd.DataFrame(
+        {
+            "farm_id": [f"F{i}" for i in range(len(elements))],
+            "x_m": [e.x_m for e in elements],
+            "y_m": [e.y_m for e in elements],
+            "emission_g_s": np.asarray(emission_g_s, dtype=float),
+            "release_class": classes,
+        }
+    )
     n_rows, n_cols = case.receptor_x_m.shape
     grid = GridSpec(0.0, n_rows * case.cell_m, case.cell_m, n_cols, n_rows, "EPSG:32632")
     options = region.RegionOptions(spacing_m=case.cell_m, margin_m=case.cell_m)
     unique = sorted(set(classes), key=lambda c: (c.kind, c.release_height_m, c.footprint_side_m))
-    inputs = region.RegionInputs(farms, unique, grid.crs, grid, case.weather, {}, case.settings,
-                                 None, load_tables(), options, {}, [])
+    inputs = region.RegionInputs(
+        farms,
+        unique,
+        grid.crs,
+        grid,
+        case.weather,
+        {},
+        case.settings,
+        None,
+        load_tables(),
+        options,
+        {},
+        [],
+    )
     return region.compute_region(inputs).concentration_ug_m3 / UG_PER_G
 
 
@@ -302,9 +356,14 @@ def call_regional(function, case: Case, elements, emission_g_s) -> np.ndarray:
     Raises TypeError when its signature is not one this script knows; the caller then falls back
     to the direct sum and says so.
     """
-    return function(receptor_x_m=case.receptor_x_m, receptor_y_m=case.receptor_y_m,
-                    elements=list(elements), emission_g_s=np.asarray(emission_g_s),
-                    weather=case.weather, settings=case.settings)
+    return function(
+        receptor_x_m=case.receptor_x_m,
+        receptor_y_m=case.receptor_y_m,
+        elements=list(elements),
+        emission_g_s=np.asarray(emission_g_s),
+        weather=case.weather,
+        settings=case.settings,
+    )
 
 
 #: half width of the near-field window corrected to the direct sum [cells] (region.py default)
@@ -326,13 +385,24 @@ def convolution_from_blocks(convolution, case: Case, elements, emission_g_s) -> 
         x = np.array([elements[i].x_m for i in members])
         y = np.array([elements[i].y_m for i in members])
         q = q_all[members]
-        kernel = convolution.unit_kernel([at_origin], case.weather, case.settings, cell_m,
-                                         half_rows, half_cols)
+        kernel = convolution.unit_kernel(
+            [at_origin], case.weather, case.settings, cell_m, half_rows, half_cols
+        )
         placed = convolution.place_on_cells(x, y, q, west_m, north_m, cell_m, n_rows, n_cols)
         total += convolution.convolve_emissions(placed.raster(), kernel)
         correction = convolution.near_field_correction(
-            x, y, q, placed, kernel, [at_origin], case.weather, case.settings, west_m, north_m,
-            NEAR_FIELD_CELLS)
+            x,
+            y,
+            q,
+            placed,
+            kernel,
+            [at_origin],
+            case.weather,
+            case.settings,
+            west_m,
+            north_m,
+            NEAR_FIELD_CELLS,
+        )
         np.add.at(total, (correction.rows, correction.cols), correction.values)
     return np.maximum(total, 0.0)
 
@@ -342,6 +412,7 @@ def release_class_count(elements) -> int:
 
 
 # --- measuring -----------------------------------------------------------------------------------
+
 
 def timed(function, *args, repeat: int = 1, **kwargs):
     """(result, seconds): the shortest wall-clock time of ``repeat`` calls."""
@@ -379,17 +450,39 @@ def run_site(case: Case, args) -> Row:
     # a run this short is timed as the best of --repeat runs, the reference likewise
     fast, seconds = timed(fast_site, case, repeat=args.repeat)
     peak = None if args.no_memory else traced_peak_mb(fast_site, case)
-    ref, ref_s = timed(reference.reference_sector_average, case.receptor_x_m, case.receptor_y_m,
-                       case.elements, case.weather, case.settings, case.emission_g_s,
-                       repeat=args.repeat)
-    return Row(case.name, seconds, "", case.evaluations, peak, ref_s, "", deviation(fast, ref),
-               args.quick, [])
+    ref, ref_s = timed(
+        reference.reference_sector_average,
+        case.receptor_x_m,
+        case.receptor_y_m,
+        case.elements,
+        case.weather,
+        case.settings,
+        case.emission_g_s,
+        repeat=args.repeat,
+    )
+    return Row(
+        case.name,
+        seconds,
+        "",
+        case.evaluations,
+        peak,
+        ref_s,
+        "",
+        deviation(fast, ref),
+        args.quick,
+        [],
+    )
 
 
 def sub_record(weather: HourlyWeather, idx: np.ndarray) -> HourlyWeather:
-    return replace(weather, time_utc=weather.time_utc[idx], direction_deg=weather.direction_deg[idx],
-                   speed_m_s=weather.speed_m_s[idx], stability_index=weather.stability_index[idx],
-                   temperature_c=weather.temperature_c[idx])
+    return replace(
+        weather,
+        time_utc=weather.time_utc[idx],
+        direction_deg=weather.direction_deg[idx],
+        speed_m_s=weather.speed_m_s[idx],
+        stability_index=weather.stability_index[idx],
+        temperature_c=weather.temperature_c[idx],
+    )
 
 
 def run_hourly(case: Case, args) -> Row:
@@ -398,23 +491,46 @@ def run_hourly(case: Case, args) -> Row:
     n = case.weather.n_hours
     idx = subset_indices(n, args.reference_hours)
     sub = sub_record(case.weather, idx)
-    ref, ref_sub_s = timed(reference.reference_hourly, case.receptor_x_m, case.receptor_y_m,
-                           case.elements, sub, case.settings, case.emission_g_s)
+    ref, ref_sub_s = timed(
+        reference.reference_hourly,
+        case.receptor_x_m,
+        case.receptor_y_m,
+        case.elements,
+        sub,
+        case.settings,
+        case.emission_g_s,
+    )
     notes = []
     if idx.size < n:
-        notes.append(f"hourly reference: {idx.size} of {n:,} hours (evenly spread) timed, "
-                     f"extrapolated x{n / idx.size:.1f}; max dev on those hours")
+        notes.append(
+            f"hourly reference: {idx.size} of {n:,} hours (evenly spread) timed, "
+            f"extrapolated x{n / idx.size:.1f}; max dev on those hours"
+        )
     fast_sub = fast_hourly(case, sub)
     far = np.ones(ref.shape, dtype=bool)  # receptors clear of every source's near field
     for element in case.elements:
-        far &= np.hypot(case.receptor_x_m - element.x_m,
-                        case.receptor_y_m - element.y_m) > element.min_distance_m + 50.0
+        far &= (
+            np.hypot(case.receptor_x_m - element.x_m, case.receptor_y_m - element.y_m)
+            > element.min_distance_m + 50.0
+        )
     far &= ref > 0
     rel = np.abs(fast_sub - ref)[far] / ref[far]
-    notes.append(f"hourly: receptors more than min_distance_m + 50 m from every source "
-                 f"({far.sum():,}) deviate by at most {rel.max():.1e} of their own value")
-    return Row(case.name, seconds, "", case.evaluations, peak, ref_sub_s * n / idx.size,
-               "~" if idx.size < n else "", deviation(fast_sub, ref), args.quick, notes)
+    notes.append(
+        f"hourly: receptors more than min_distance_m + 50 m from every source "
+        f"({far.sum():,}) deviate by at most {rel.max():.1e} of their own value"
+    )
+    return Row(
+        case.name,
+        seconds,
+        "",
+        case.evaluations,
+        peak,
+        ref_sub_s * n / idx.size,
+        "~" if idx.size < n else "",
+        deviation(fast_sub, ref),
+        args.quick,
+        notes,
+    )
 
 
 def run_regional(case: Case, args) -> Row:
@@ -423,12 +539,20 @@ def run_regional(case: Case, args) -> Row:
     function, label, why = regional_fast_path()
     ref_idx = subset_indices(n, args.reference_sources)
     ref_elements = [case.elements[i] for i in ref_idx]
-    ref, ref_sub_s = timed(reference.reference_sector_average, case.receptor_x_m,
-                           case.receptor_y_m, ref_elements, case.weather, case.settings,
-                           case.emission_g_s[ref_idx])
+    ref, ref_sub_s = timed(
+        reference.reference_sector_average,
+        case.receptor_x_m,
+        case.receptor_y_m,
+        ref_elements,
+        case.weather,
+        case.settings,
+        case.emission_g_s[ref_idx],
+    )
     reference_s = ref_sub_s * n / ref_idx.size
-    notes.append(f"regional reference: {ref_idx.size} of {n:,} sources timed, extrapolated "
-                 f"x{n / ref_idx.size:.0f}")
+    notes.append(
+        f"regional reference: {ref_idx.size} of {n:,} sources timed, extrapolated "
+        f"x{n / ref_idx.size:.0f}"
+    )
     if why:
         notes.append(why)
     seconds_note, peak, dev = "", None, None
@@ -436,10 +560,15 @@ def run_regional(case: Case, args) -> Row:
         try:
             _, seconds = timed(function, case, case.elements, case.emission_g_s)
             dev = deviation(function(case, ref_elements, case.emission_g_s[ref_idx]), ref)
-            peak = None if args.no_memory else traced_peak_mb(function, case, case.elements,
-                                                              case.emission_g_s)
-            notes.append(f"regional fast path: {label}, {release_class_count(case.elements)} "
-                         "release classes; max dev on the reference's sources alone")
+            peak = (
+                None
+                if args.no_memory
+                else traced_peak_mb(function, case, case.elements, case.emission_g_s)
+            )
+            notes.append(
+                f"regional fast path: {label}, {release_class_count(case.elements)} "
+                "release classes; max dev on the reference's sources alone"
+            )
         except (TypeError, AttributeError, ValueError, KeyError) as exc:
             function = None  # an API in flux, or a case it cannot hold: say so, go direct
             notes.append(f"{label} failed here ({type(exc).__name__}: {exc})")
@@ -448,22 +577,42 @@ def run_regional(case: Case, args) -> Row:
         elements = [case.elements[i] for i in direct_idx]
         _, direct_s = timed(fast_site, case, elements, case.emission_g_s[direct_idx])
         seconds, seconds_note = direct_s * n / direct_idx.size, "~"
-        peak = None if args.no_memory else traced_peak_mb(
-            fast_site, case, elements[:1], case.emission_g_s[direct_idx[:1]])
+        peak = (
+            None
+            if args.no_memory
+            else traced_peak_mb(fast_site, case, elements[:1], case.emission_g_s[direct_idx[:1]])
+        )
         dev = deviation(fast_site(case, ref_elements, case.emission_g_s[ref_idx]), ref)
-        notes.append(f"regional fast path: direct sum per source with the sector-averaged "
-                     f"engine (fallback), {direct_idx.size} of {n:,} sources timed, "
-                     f"extrapolated x{n / direct_idx.size:.0f}; peak memory of one source")
-    return Row(case.name, seconds, seconds_note, case.evaluations, peak, reference_s, "~", dev,
-               args.quick, notes)
+        notes.append(
+            f"regional fast path: direct sum per source with the sector-averaged "
+            f"engine (fallback), {direct_idx.size} of {n:,} sources timed, "
+            f"extrapolated x{n / direct_idx.size:.0f}; peak memory of one source"
+        )
+    return Row(
+        case.name,
+        seconds,
+        seconds_note,
+        case.evaluations,
+        peak,
+        reference_s,
+        "~",
+        dev,
+        args.quick,
+        notes,
+    )
 
 
 # --- reporting -----------------------------------------------------------------------------------
 
+
 def environment_lines() -> list[str]:
     """numpy version, BLAS and thread settings as found (nothing is set or unset)."""
-    lines = [(f"python {platform.python_version()}, numpy {np.__version__}, "
-              f"{os.cpu_count()} CPUs ({len(os.sched_getaffinity(0))} usable)")]
+    lines = [
+        (
+            f"python {platform.python_version()}, numpy {np.__version__}, "
+            f"{os.cpu_count()} CPUs ({len(os.sched_getaffinity(0))} usable)"
+        )
+    ]
     try:
         blas = np.show_config(mode="dicts")["Build Dependencies"]["blas"]
         lines.append(f"numpy BLAS: {blas.get('name')} {blas.get('version', '')}".rstrip())
@@ -471,14 +620,19 @@ def environment_lines() -> list[str]:
         lines.append("numpy BLAS: not reported by this numpy")
     try:
         from threadpoolctl import threadpool_info
+
         for pool in threadpool_info():
-            lines.append(f"threadpool: {pool.get('internal_api')} {pool.get('version')}, "
-                         f"{pool.get('num_threads')} threads")
+            lines.append(
+                f"threadpool: {pool.get('internal_api')} {pool.get('version')}, "
+                f"{pool.get('num_threads')} threads"
+            )
     except ImportError:
         lines.append("threadpoolctl not installed: thread pools not listed")
-    threads = {k: os.environ[k] for k in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS",
-                                          "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
-               if k in os.environ}
+    threads = {
+        k: os.environ[k]
+        for k in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
+        if k in os.environ
+    }
     lines.append(f"thread variables: {threads or 'none set'}")
     return lines
 
@@ -497,8 +651,10 @@ def verdict(row: Row) -> tuple[str, str]:
 
 
 def print_table(rows: list[Row]) -> None:
-    header = (f"{'case':<9}{'seconds':>10}{'evaluations':>13}{'eval/s':>11}{'peak MB':>9}"
-              f"{'ref s':>10}{'ratio':>8}{'max dev':>10}  {'target':<17}{'result'}")
+    header = (
+        f"{'case':<9}{'seconds':>10}{'evaluations':>13}{'eval/s':>11}{'peak MB':>9}"
+        f"{'ref s':>10}{'ratio':>8}{'max dev':>10}  {'target':<17}{'result'}"
+    )
     print(header)
     print("-" * len(header))
     for row in rows:
@@ -506,10 +662,12 @@ def print_table(rows: list[Row]) -> None:
         peak = "-" if row.peak_mb is None else f"{row.peak_mb:,.0f}"
         dev = "-" if row.deviation is None else f"{row.deviation:.1e}"
         ratio = row.reference_s / row.seconds
-        print(f"{row.case:<9}{row.seconds_note + f'{row.seconds:.2f}':>10}"
-              f"{row.evaluations:>13.3g}{row.evaluations / row.seconds:>11.3g}{peak:>9}"
-              f"{row.reference_note + f'{row.reference_s:.1f}':>10}"
-              f"{row.reference_note + f'{ratio:.0f}x':>8}{dev:>10}  {target:<17}{result}")
+        print(
+            f"{row.case:<9}{row.seconds_note + f'{row.seconds:.2f}':>10}"
+            f"{row.evaluations:>13.3g}{row.evaluations / row.seconds:>11.3g}{peak:>9}"
+            f"{row.reference_note + f'{row.reference_s:.1f}':>10}"
+            f"{row.reference_note + f'{ratio:.0f}x':>8}{dev:>10}  {target:<17}{result}"
+        )
     print("seconds: compute only (cases built beforehand, nothing written); ~ extrapolated;")
     print("         site: best of --repeat runs, fast path and reference alike; others: one run.")
     print("evaluations: receptors x sources x weather classes (non-zero table entries) or hours.")
@@ -525,14 +683,30 @@ def main() -> None:
     parser.add_argument("--case", choices=("site", "hourly", "regional", "all"), default="all")
     parser.add_argument("--quick", action="store_true", help="small cases, a smoke run")
     parser.add_argument("--no-memory", action="store_true", help="skip the tracemalloc run")
-    parser.add_argument("--repeat", type=int, default=3,
-                        help="site case: time the best of this many runs (default 3)")
-    parser.add_argument("--reference-hours", type=int, default=200,
-                        help="hours the hourly reference is timed on (then extrapolated)")
-    parser.add_argument("--reference-sources", type=int, default=2,
-                        help="sources the regional reference is timed on (then extrapolated)")
-    parser.add_argument("--direct-sources", type=int, default=20,
-                        help="sources the regional direct fallback is timed on")
+    parser.add_argument(
+        "--repeat",
+        type=int,
+        default=3,
+        help="site case: time the best of this many runs (default 3)",
+    )
+    parser.add_argument(
+        "--reference-hours",
+        type=int,
+        default=200,
+        help="hours the hourly reference is timed on (then extrapolated)",
+    )
+    parser.add_argument(
+        "--reference-sources",
+        type=int,
+        default=2,
+        help="sources the regional reference is timed on (then extrapolated)",
+    )
+    parser.add_argument(
+        "--direct-sources",
+        type=int,
+        default=20,
+        help="sources the regional direct fallback is timed on",
+    )
     args = parser.parse_args()
     for line in environment_lines():
         print(line)
@@ -541,9 +715,11 @@ def main() -> None:
     rows = []
     for name in names:
         case = build_case(name, args.quick)
-        print(f"{name}: {case.receptor_x_m.size:,} receptors, {len(case.elements):,} sources, "
-              f"{case.n_weather:,} {'hours' if name == 'hourly' else 'weather classes'}",
-              flush=True)
+        print(
+            f"{name}: {case.receptor_x_m.size:,} receptors, {len(case.elements):,} sources, "
+            f"{case.n_weather:,} {'hours' if name == 'hourly' else 'weather classes'}",
+            flush=True,
+        )
         rows.append(runners[name](case, args))
     print()
     print_table(rows)

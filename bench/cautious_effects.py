@@ -30,14 +30,19 @@ def _section(scenario, name, **changes):
 
 
 def _sources(scenario, **changes_by_id):
-    return scenario.model_copy(update={"sources": [
-        s.model_copy(update=changes_by_id.get(s.id, {})) for s in scenario.sources]})
+    return scenario.model_copy(
+        update={
+            "sources": [s.model_copy(update=changes_by_id.get(s.id, {})) for s in scenario.sources]
+        }
+    )
 
 
 def _typical_abatement(tables):
     """Abatement at the table's typical figure (the old default) instead of the lower end."""
-    rows = {k: {**v, "reduction_percent_min": v["reduction_percent_typical"]}
-            for k, v in tables.abatement.items()}
+    rows = {
+        k: {**v, "reduction_percent_min": v["reduction_percent_typical"]}
+        for k, v in tables.abatement.items()
+    }
     return dataclasses.replace(tables, abatement=rows)
 
 
@@ -53,24 +58,39 @@ def main() -> None:
     tables = ref_result.tables
     clear = {"H1": {"building_height_m": 2.0, "building_width_m": 2.0}}  # outlet clear of wake
     cases = {
-        "wind below the anemometer unchanged": _run(_section(base, "weather",
-                                                             wind_below_anemometer="unchanged")),
+        "wind below the anemometer unchanged": _run(
+            _section(base, "weather", wind_below_anemometer="unchanged")
+        ),
         "plume depletion on": _run(_section(base, "deposition", plume_depletion=True)),
         "plume rise for H1 (outlet taken clear of the wake)": _run(_sources(base, **clear)),
-        "critical loads of the 2011 review": _run(_section(base, "assessment",
-                                                           critical_load_review="2011")),
+        "critical loads of the 2011 review": _run(
+            _section(base, "assessment", critical_load_review="2011")
+        ),
         "abatement at its typical figure": _run(base, _typical_abatement(tables)),
     }
-    old = _sources(_section(_section(_section(base, "weather", wind_below_anemometer="unchanged"),
-                                     "deposition", plume_depletion=True),
-                            "assessment", critical_load_review="2011"), **clear)
+    old = _sources(
+        _section(
+            _section(
+                _section(base, "weather", wind_below_anemometer="unchanged"),
+                "deposition",
+                plume_depletion=True,
+            ),
+            "assessment",
+            critical_load_review="2011",
+        ),
+        **clear,
+    )
     cases["all the old choices together"] = _run(old, _typical_abatement(tables))
 
     names = list(ref.index)
     print("Demo: ratio of each site's max PC to the default (cautious) run")
     print(f"{'variant':52s} " + " ".join(f"{n[:17]:>17s}" for n in names))
-    print(f"{'  default: % of critical level / load':52s} " + " ".join(
-        f"{ref.loc[n, 'pc_pct_level']:7.1f}/{ref.loc[n, 'pc_pct_load']:7.1f}  " for n in names))
+    print(
+        f"{'  default: % of critical level / load':52s} "
+        + " ".join(
+            f"{ref.loc[n, 'pc_pct_level']:7.1f}/{ref.loc[n, 'pc_pct_load']:7.1f}  " for n in names
+        )
+    )
     level_old = _level_by_type(ref, tables)
     for label, (sites, _) in cases.items():
         cells = []
@@ -90,22 +110,28 @@ def main() -> None:
     flat, flat_result = _run(_section(hourly, "seasonal", temperature_dependent_emission=False))
     share = h_result.weather_summary["scrubber_treated_share"]["H1"]
     print("\nHourly demo, partial scrubbing (H1 sized for 60 % of the maximum air flow):")
-    print(f"  treated share of the year's ammonia {100 * share['treated_share']:.1f} %, "
-          f"of its hours {100 * share['treated_share_of_hours']:.1f} %; H1 emits "
-          f"{h_result.sources.set_index('source_id').loc['H1', 'nh3_kg_yr']:.0f} kg/yr vs "
-          f"{flat_result.sources.set_index('source_id').loc['H1', 'nh3_kg_yr']:.0f} kg/yr "
-          "with hours counted alike")
+    print(
+        f"  treated share of the year's ammonia {100 * share['treated_share']:.1f} %, "
+        f"of its hours {100 * share['treated_share_of_hours']:.1f} %; H1 emits "
+        f"{h_result.sources.set_index('source_id').loc['H1', 'nh3_kg_yr']:.0f} kg/yr vs "
+        f"{flat_result.sources.set_index('source_id').loc['H1', 'nh3_kg_yr']:.0f} kg/yr "
+        "with hours counted alike"
+    )
     for n in h_ref.index:
-        print(f"  {n:20s} PC % of load {h_ref.loc[n, 'pc_pct_load']:7.2f} vs "
-              f"{flat.loc[n, 'pc_pct_load']:7.2f} (ratio "
-              f"{h_ref.loc[n, 'pc_pct_load'] / flat.loc[n, 'pc_pct_load']:.3f})")
+        print(
+            f"  {n:20s} PC % of load {h_ref.loc[n, 'pc_pct_load']:7.2f} vs "
+            f"{flat.loc[n, 'pc_pct_load']:7.2f} (ratio "
+            f"{h_ref.loc[n, 'pc_pct_load'] / flat.loc[n, 'pc_pct_load']:.3f})"
+        )
     step = h_result.weather_summary.get("direction_step_deg")
     exact, _ = _run(_section(hourly, "weather", direction_step_deg=0.0))
     print(f"\nHourly demo, directions reported in {step:g}-degree steps, spread vs exact spokes:")
     for n in h_ref.index:
-        print(f"  {n:20s} PC % of load {h_ref.loc[n, 'pc_pct_load']:7.2f} vs "
-              f"{exact.loc[n, 'pc_pct_load']:7.2f} on exact spokes (ratio "
-              f"{h_ref.loc[n, 'pc_pct_load'] / exact.loc[n, 'pc_pct_load']:.3f})")
+        print(
+            f"  {n:20s} PC % of load {h_ref.loc[n, 'pc_pct_load']:7.2f} vs "
+            f"{exact.loc[n, 'pc_pct_load']:7.2f} on exact spokes (ratio "
+            f"{h_ref.loc[n, 'pc_pct_load'] / exact.loc[n, 'pc_pct_load']:.3f})"
+        )
 
 
 if __name__ == "__main__":

@@ -66,27 +66,38 @@ def _emissions(sources: Sequence, emission_g_s) -> np.ndarray:
         return np.ones(len(sources))
     emission_g_s = np.asarray(emission_g_s, dtype=float)
     if emission_g_s.shape != (len(sources),):
-        raise ValueError(f"emission_g_s must have one value per source ({len(sources)}), "
-                         f"got shape {emission_g_s.shape}")
+        raise ValueError(
+            f"emission_g_s must have one value per source ({len(sources)}), "
+            f"got shape {emission_g_s.shape}"
+        )
     return emission_g_s
 
 
-def _wind_and_height(element, speed_ref_m_s: float, anemometer_height_m: float,
-                     exponent: float, s: int, settings) -> tuple[float, float]:
+def _wind_and_height(
+    element, speed_ref_m_s: float, anemometer_height_m: float, exponent: float, s: int, settings
+) -> tuple[float, float]:
     """Wind at release height [m s-1] (power law, the settings' rule below the anemometer)
     and release height after stack-tip downwash, plus momentum rise where allowed [m]."""
-    u = float(wind_speed_at_height_m_s(speed_ref_m_s, anemometer_height_m,
-                                       element.release_height_m, exponent,
-                                       settings.wind_below_anemometer,
-                                       settings.wind_profile_min_height_m,
-                                       settings.min_wind_speed_m_s))
+    u = float(
+        wind_speed_at_height_m_s(
+            speed_ref_m_s,
+            anemometer_height_m,
+            element.release_height_m,
+            exponent,
+            settings.wind_below_anemometer,
+            settings.wind_profile_min_height_m,
+            settings.min_wind_speed_m_s,
+        )
+    )
     height_m = float(element.release_height_m)
     if element.diameter_m > 0 and element.stack_tip_downwash:
-        height_m = float(stack_tip_downwash_height_m(height_m, element.diameter_m,
-                                                     element.exit_velocity_m_s, u))
+        height_m = float(
+            stack_tip_downwash_height_m(height_m, element.diameter_m, element.exit_velocity_m_s, u)
+        )
     if element.plume_rise and element.exit_velocity_m_s > 0 and element.diameter_m > 0:
-        height_m += float(momentum_plume_rise_m(element.diameter_m, element.exit_velocity_m_s,
-                                                u, s))
+        height_m += float(
+            momentum_plume_rise_m(element.diameter_m, element.exit_velocity_m_s, u, s)
+        )
     return u, height_m
 
 
@@ -99,20 +110,26 @@ class DirectDepletionIntegral:
     receptor then adds one midpoint-rule panel from the node below it to its own distance.
     """
 
-    def __init__(self, sigma_z_of, height_m: float, mixing_height_m, max_distance_m: float,
-                 n_nodes: int = 4000):
+    def __init__(
+        self,
+        sigma_z_of,
+        height_m: float,
+        mixing_height_m,
+        max_distance_m: float,
+        n_nodes: int = 4000,
+    ):
         self._sigma_z_of = sigma_z_of
         self._height_m = height_m
         self._mixing_height_m = mixing_height_m
         self.nodes_m = np.concatenate(
-            ([0.0], np.geomspace(1e-3, max(float(max_distance_m), 1.0) * 1.001, n_nodes)))
+            ([0.0], np.geomspace(1e-3, max(float(max_distance_m), 1.0) * 1.001, n_nodes))
+        )
         panels = self._panel_integral(self.nodes_m[:-1], self.nodes_m[1:], _GL5)
         self.cumulative = np.concatenate(([0.0], np.cumsum(panels)))
 
     def density_per_m(self, distance_m):
         sz = np.maximum(self._sigma_z_of(distance_m), 1e-6)
-        return (vertical_term(sz, self._height_m, 0.0, self._mixing_height_m)
-                / (_SQRT_2PI * sz))
+        return vertical_term(sz, self._height_m, 0.0, self._mixing_height_m) / (_SQRT_2PI * sz)
 
     def _panel_integral(self, a, b, rule):
         nodes, weights = rule
@@ -132,8 +149,9 @@ def _depletion(cache: dict, key, sigma_z_of, height_m, settings, max_distance_m)
     if not settings.depletion_velocity_m_s:
         return None
     if key not in cache:
-        cache[key] = DirectDepletionIntegral(sigma_z_of, height_m, settings.mixing_height_m,
-                                             max_distance_m)
+        cache[key] = DirectDepletionIntegral(
+            sigma_z_of, height_m, settings.mixing_height_m, max_distance_m
+        )
     return cache[key]
 
 
@@ -152,8 +170,9 @@ def _sector_weights(dx_m, dy_m, sector_centres_deg) -> np.ndarray:
     return np.maximum(1.0 - apart, 0.0)
 
 
-def reference_sector_average(receptor_x, receptor_y, sources: Sequence, weather, settings,
-                             emission_g_s=None) -> np.ndarray:
+def reference_sector_average(
+    receptor_x, receptor_y, sources: Sequence, weather, settings, emission_g_s=None
+) -> np.ndarray:
     """Annual mean sector-averaged concentration of several sources, the plain way [g m-3].
 
     Parameters
@@ -207,12 +226,19 @@ def reference_sector_average(receptor_x, receptor_y, sources: Sequence, weather,
                 sz = np.maximum(sigma_z_of(x), 1e-6)
                 integral_at_x: dict = {}  # I(x) at the receptors, by effective height
                 for j, speed_ref in enumerate(weather.speeds_m_s):
-                    u, height_m = _wind_and_height(element, speed_ref, weather.anemometer_height_m,
-                                                   settings.wind_exponents[s], s, settings)
+                    u, height_m = _wind_and_height(
+                        element,
+                        speed_ref,
+                        weather.anemometer_height_m,
+                        settings.wind_exponents[s],
+                        s,
+                        settings,
+                    )
                     key = round(height_m, 9)
                     if settings.depletion_velocity_m_s and key not in integral_at_x:
                         integral_at_x[key] = DirectDepletionIntegral(
-                            sigma_z_of, height_m, settings.mixing_height_m, x.max())(x)
+                            sigma_z_of, height_m, settings.mixing_height_m, x.max()
+                        )(x)
                     for k in range(len(centres)):
                         f = freq[k, j, s]
                         if f == 0:
@@ -221,14 +247,23 @@ def reference_sector_average(receptor_x, receptor_y, sources: Sequence, weather,
                         v = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
                         c = f * sector_weight[k] * v / (_SQRT_2PI * u * sz * width_rad * x)
                         if settings.depletion_velocity_m_s:
-                            c = c * np.exp(-(settings.depletion_velocity_m_s / u)
-                                           * integral_at_x[key])
+                            c = c * np.exp(
+                                -(settings.depletion_velocity_m_s / u) * integral_at_x[key]
+                            )
                         total += scale * c
     return total.reshape(np.shape(receptor_x))
 
 
-def reference_hourly(receptor_x, receptor_y, sources: Sequence, weather, settings,
-                     emission_g_s=None, hour_weights=None, return_centreline: bool = False):
+def reference_hourly(
+    receptor_x,
+    receptor_y,
+    sources: Sequence,
+    weather,
+    settings,
+    emission_g_s=None,
+    hour_weights=None,
+    return_centreline: bool = False,
+):
     """Mean over an hourly record of each hour's off-axis Gaussian plume, the plain way [g m-3].
 
     Parameters
@@ -293,18 +328,27 @@ def reference_hourly(receptor_x, receptor_y, sources: Sequence, weather, setting
             for h in range(n_hours):
                 s = int(weather.stability_index[h])
                 if s not in virtual:
-                    virtual[s] = (virtual_distance_m(element.sigma_y0_m,
-                                                     lambda d, s=s: scheme.sigma_y_m(d, s)),
-                                  virtual_distance_m(element.sigma_z0_m,
-                                                     lambda d, s=s: scheme.sigma_z_m(d, s)))
+                    virtual[s] = (
+                        virtual_distance_m(
+                            element.sigma_y0_m, lambda d, s=s: scheme.sigma_y_m(d, s)
+                        ),
+                        virtual_distance_m(
+                            element.sigma_z0_m, lambda d, s=s: scheme.sigma_z_m(d, s)
+                        ),
+                    )
                 xy, xz = virtual[s]
 
                 def sigma_z_of(d, s=s, xz=xz):
                     return scheme.sigma_z_m(d + xz, s)
 
-                u, height_m = _wind_and_height(element, float(weather.speed_m_s[h]),
-                                               weather.anemometer_height_m,
-                                               settings.wind_exponents[s], s, settings)
+                u, height_m = _wind_and_height(
+                    element,
+                    float(weather.speed_m_s[h]),
+                    weather.anemometer_height_m,
+                    settings.wind_exponents[s],
+                    s,
+                    settings,
+                )
                 travel_rad = np.deg2rad(float(weather.direction_deg[h]) + 180.0)
                 off_axis = bearing_rad - travel_rad
                 along_m = distance_m * np.cos(off_axis)
@@ -316,23 +360,40 @@ def reference_hourly(receptor_x, receptor_y, sources: Sequence, weather, setting
                 scale = q * element.share_fraction * weights[h]
                 if step_rad > 0:  # the centre-line plume times the averaged lateral factor
                     half_m = 0.5 * x * step_rad
-                    mean_lateral = (erf((cross_m + half_m) / (np.sqrt(2.0) * sy))
-                                    - erf((cross_m - half_m) / (np.sqrt(2.0) * sy))) / (
-                                        2.0 * x * step_rad)
-                    c = (plume_concentration_g_m3(scale, u, 0.0, sy, sz, height_m, 0.0,
-                                                  settings.mixing_height_m)
-                         * _SQRT_2PI * sy * mean_lateral)
+                    mean_lateral = (
+                        erf((cross_m + half_m) / (np.sqrt(2.0) * sy))
+                        - erf((cross_m - half_m) / (np.sqrt(2.0) * sy))
+                    ) / (2.0 * x * step_rad)
+                    c = (
+                        plume_concentration_g_m3(
+                            scale, u, 0.0, sy, sz, height_m, 0.0, settings.mixing_height_m
+                        )
+                        * _SQRT_2PI
+                        * sy
+                        * mean_lateral
+                    )
                 else:
-                    c = plume_concentration_g_m3(scale, u, cross_m, sy, sz, height_m, 0.0,
-                                                 settings.mixing_height_m)
-                depletion = _depletion(integrals, (s, round(height_m, 9)), sigma_z_of, height_m,
-                                       settings, max_distance_m)
-                airborne = (1.0 if depletion is None else
-                            np.exp(-(settings.depletion_velocity_m_s / u) * depletion(x)))
+                    c = plume_concentration_g_m3(
+                        scale, u, cross_m, sy, sz, height_m, 0.0, settings.mixing_height_m
+                    )
+                depletion = _depletion(
+                    integrals,
+                    (s, round(height_m, 9)),
+                    sigma_z_of,
+                    height_m,
+                    settings,
+                    max_distance_m,
+                )
+                airborne = (
+                    1.0
+                    if depletion is None
+                    else np.exp(-(settings.depletion_velocity_m_s / u) * depletion(x))
+                )
                 total += np.where(downwind, c * airborne, 0.0)
                 if return_centreline:
-                    cl = plume_concentration_g_m3(scale, u, 0.0, sy, sz, height_m, 0.0,
-                                                  settings.mixing_height_m)
+                    cl = plume_concentration_g_m3(
+                        scale, u, 0.0, sy, sz, height_m, 0.0, settings.mixing_height_m
+                    )
                     centreline += np.where(downwind, cl * airborne, 0.0)
     shape = np.shape(receptor_x)
     total = (total / n_hours).reshape(shape)

@@ -90,8 +90,16 @@ class ReleaseClass:
         if self.kind == "point":
             return [ReleaseElement(0.0, 0.0, self.release_height_m)]
         side = self.footprint_side_m
-        return [ReleaseElement(0.0, 0.0, self.release_height_m, sigma_y0_m=side / 4.3,
-                               sigma_z0_m=self.release_height_m / 2.15, min_distance_m=side / 2)]
+        return [
+            ReleaseElement(
+                0.0,
+                0.0,
+                self.release_height_m,
+                sigma_y0_m=side / 4.3,
+                sigma_z0_m=self.release_height_m / 2.15,
+                min_distance_m=side / 2,
+            )
+        ]
 
     @property
     def label(self) -> str:
@@ -100,7 +108,9 @@ class ReleaseClass:
         return f"volume {self.footprint_side_m:.3g} m square, {self.release_height_m:g} m"
 
 
-def release_class(kind: str, release_height_m: float, footprint_area_m2: float = 0.0) -> ReleaseClass:
+def release_class(
+    kind: str, release_height_m: float, footprint_area_m2: float = 0.0
+) -> ReleaseClass:
     """The release class of a source: height to HEIGHT_STEP_M, footprint side to the ladder.
 
     Parameters
@@ -126,9 +136,11 @@ def release_class(kind: str, release_height_m: float, footprint_area_m2: float =
         return ReleaseClass("point", float(height))
     if not footprint_area_m2 > 0:
         raise ValueError(f"a volume source needs a footprint area > 0, got {footprint_area_m2}")
-    steps = round(math.log(math.sqrt(footprint_area_m2) / FOOTPRINT_LADDER_BASE_M)
-                  / math.log(FOOTPRINT_LADDER_RATIO))
-    side = FOOTPRINT_LADDER_BASE_M * FOOTPRINT_LADDER_RATIO ** steps
+    steps = round(
+        math.log(math.sqrt(footprint_area_m2) / FOOTPRINT_LADDER_BASE_M)
+        / math.log(FOOTPRINT_LADDER_RATIO)
+    )
+    side = FOOTPRINT_LADDER_BASE_M * FOOTPRINT_LADDER_RATIO**steps
     return ReleaseClass("volume", float(height), float(round(side, 6)))
 
 
@@ -159,8 +171,9 @@ class UnitKernel:
         return int(self.values.nbytes)
 
 
-def kernel_half_size(n_rows: int, n_cols: int, cell_m: float,
-                     reach_m: float | None = None) -> tuple[int, int]:
+def kernel_half_size(
+    n_rows: int, n_cols: int, cell_m: float, reach_m: float | None = None
+) -> tuple[int, int]:
     """Half sizes (rows, cols) of the kernel a grid needs: every offset it holds, or the reach."""
     half_rows, half_cols = n_rows - 1, n_cols - 1
     if reach_m is not None:
@@ -169,9 +182,13 @@ def kernel_half_size(n_rows: int, n_cols: int, cell_m: float,
     return max(half_rows, 0), max(half_cols, 0)
 
 
-def offset_concentration_g_m3_per_g_s(dx_m, dy_m, elements: list[ReleaseElement],
-                                      weather: WeatherClasses,
-                                      settings: DispersionSettings) -> np.ndarray:
+def offset_concentration_g_m3_per_g_s(
+    dx_m,
+    dy_m,
+    elements: list[ReleaseElement],
+    weather: WeatherClasses,
+    settings: DispersionSettings,
+) -> np.ndarray:
     """The long-term engine at receptor offsets from the elements [g m-3 per g s-1].
 
     Parameters
@@ -228,8 +245,13 @@ class OffsetLattice:
         return int(self.radius_m.nbytes + self.flat0.nbytes + self.flat1.nbytes + self.w1.nbytes)
 
 
-def offset_lattice(half_rows: int, half_cols: int, cell_m: float, weather: WeatherClasses,
-                   strip_offsets: int = 262_144) -> OffsetLattice:
+def offset_lattice(
+    half_rows: int,
+    half_cols: int,
+    cell_m: float,
+    weather: WeatherClasses,
+    strip_offsets: int = 262_144,
+) -> OffsetLattice:
     """Distances and sector weights of a kernel's offsets (built once per grid and weather).
 
     ``strip_offsets`` bounds the offsets handled at once (temporaries of about 80 bytes each).
@@ -256,16 +278,26 @@ def offset_lattice(half_rows: int, half_cols: int, cell_m: float, weather: Weath
         k0, w = sector_position(dx, dy, weather)
         k1 = (k0 + 1) % n_sectors
         ridx = index[np.abs(d_row)[:, None], np.abs(d_col)[None, :]]
-        flat0[start:start + d_row.size] = k0 * n_radii + ridx
-        flat1[start:start + d_row.size] = k1 * n_radii + ridx
-        w1[start:start + d_row.size] = w
-    return OffsetLattice(half_rows, half_cols, float(cell_m),
-                         np.sqrt(distinct.astype(float)) * cell_m,
-                         flat0.ravel(), flat1.ravel(), w1.ravel())
+        flat0[start : start + d_row.size] = k0 * n_radii + ridx
+        flat1[start : start + d_row.size] = k1 * n_radii + ridx
+        w1[start : start + d_row.size] = w
+    return OffsetLattice(
+        half_rows,
+        half_cols,
+        float(cell_m),
+        np.sqrt(distinct.astype(float)) * cell_m,
+        flat0.ravel(),
+        flat1.ravel(),
+        w1.ravel(),
+    )
 
 
-def centre_line_profiles(element: ReleaseElement, weather: WeatherClasses,
-                         settings: DispersionSettings, radius_m: np.ndarray) -> np.ndarray:
+def centre_line_profiles(
+    element: ReleaseElement,
+    weather: WeatherClasses,
+    settings: DispersionSettings,
+    radius_m: np.ndarray,
+) -> np.ndarray:
     """A_k(r): each sector's centre-line field of one element at the given distances.
 
     Returns an array (n_sectors, n_radii) [g m-3 per g s-1]: A_k(r) = sum_js f[k, j, s] g_js(r),
@@ -275,13 +307,18 @@ def centre_line_profiles(element: ReleaseElement, weather: WeatherClasses,
     radius_m = np.maximum(np.asarray(radius_m, dtype=float), element.min_distance_m)
     if radius_m.size == 0:
         return np.zeros((len(weather.sector_centres_deg), 0))
-    profiles = radial_profiles(element, weather, settings, float(radius_m.min()),
-                               float(radius_m.max()))
+    profiles = radial_profiles(
+        element, weather, settings, float(radius_m.min()), float(radius_m.max())
+    )
     return profiles.values_at(radius_m)
 
 
-def _radial_kernel(element: ReleaseElement, weather: WeatherClasses,
-                   settings: DispersionSettings, lattice: OffsetLattice) -> np.ndarray:
+def _radial_kernel(
+    element: ReleaseElement,
+    weather: WeatherClasses,
+    settings: DispersionSettings,
+    lattice: OffsetLattice,
+) -> np.ndarray:
     """Kernel of one element at the origin from its centre-line profiles (module docstring)."""
     profiles = centre_line_profiles(element, weather, settings, lattice.radius_m).ravel()
     out = np.empty(lattice.flat0.size)
@@ -290,14 +327,23 @@ def _radial_kernel(element: ReleaseElement, weather: WeatherClasses,
         sl = slice(start, start + step)
         w1 = lattice.w1[sl]
         out[sl] = (1.0 - w1) * profiles.take(lattice.flat0[sl]) + w1 * profiles.take(
-            lattice.flat1[sl])
+            lattice.flat1[sl]
+        )
     return out.reshape(lattice.shape)
 
 
-def unit_kernel(elements: list[ReleaseElement], weather: WeatherClasses,
-                settings: DispersionSettings, cell_m: float, half_rows: int, half_cols: int,
-                *, reach_m: float | None = None,
-                method: str = "auto", lattice: OffsetLattice | None = None) -> UnitKernel:
+def unit_kernel(
+    elements: list[ReleaseElement],
+    weather: WeatherClasses,
+    settings: DispersionSettings,
+    cell_m: float,
+    half_rows: int,
+    half_cols: int,
+    *,
+    reach_m: float | None = None,
+    method: str = "auto",
+    lattice: OffsetLattice | None = None,
+) -> UnitKernel:
     """The unit-source kernel of a source on the cell-centre offsets of a grid.
 
     Parameters
@@ -328,8 +374,12 @@ def unit_kernel(elements: list[ReleaseElement], weather: WeatherClasses,
     """
     if cell_m <= 0:
         raise ValueError(f"cell_m must be > 0, got {cell_m}")
-    single_at_origin = (len(elements) == 1 and elements[0].x_m == 0.0
-                        and elements[0].y_m == 0.0 and elements[0].share_fraction == 1.0)
+    single_at_origin = (
+        len(elements) == 1
+        and elements[0].x_m == 0.0
+        and elements[0].y_m == 0.0
+        and elements[0].share_fraction == 1.0
+    )
     if method == "auto":
         method = "radial" if single_at_origin else "direct"
     if method == "radial":
@@ -337,8 +387,11 @@ def unit_kernel(elements: list[ReleaseElement], weather: WeatherClasses,
             raise ValueError("the radial kernel needs one element at the origin with share 1")
         if lattice is None:
             lattice = offset_lattice(half_rows, half_cols, cell_m, weather)
-        elif (lattice.half_rows, lattice.half_cols, lattice.cell_m) != (half_rows, half_cols,
-                                                                        cell_m):
+        elif (lattice.half_rows, lattice.half_cols, lattice.cell_m) != (
+            half_rows,
+            half_cols,
+            cell_m,
+        ):
             raise ValueError("the lattice was made for another kernel size or cell size")
         values = _radial_kernel(elements[0], weather, settings, lattice)
     elif method == "direct":
@@ -384,16 +437,26 @@ class CellValues:
     def occupied_blocks(self, block_rows: int, block_cols: int) -> set[tuple[int, int]]:
         """(row block, col block) indices that hold at least one non-zero entry."""
         keep = self.values != 0
-        return set(zip((self.rows[keep] // block_rows).tolist(),
-                       (self.cols[keep] // block_cols).tolist()))
+        return set(
+            zip((self.rows[keep] // block_rows).tolist(), (self.cols[keep] // block_cols).tolist())
+        )
 
     @property
     def nbytes(self) -> int:
         return int(self.rows.nbytes + self.cols.nbytes + self.values.nbytes + self.source.nbytes)
 
 
-def place_on_cells(x_m, y_m, emission_g_s, west_m: float, north_m: float, cell_m: float,
-                   n_rows: int, n_cols: int, method: str = "bilinear") -> CellValues:
+def place_on_cells(
+    x_m,
+    y_m,
+    emission_g_s,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    n_rows: int,
+    n_cols: int,
+    method: str = "bilinear",
+) -> CellValues:
     """Put point sources on the cell centres of a north-up grid.
 
     Parameters
@@ -440,14 +503,19 @@ def place_on_cells(x_m, y_m, emission_g_s, west_m: float, north_m: float, cell_m
     for dr, wr in ((0, 1.0 - tr), (1, tr)):
         for dc, wc in ((0, 1.0 - tc), (1, tc)):
             w = wr * wc
-            rows.append(r0 + dr); cols.append(c0 + dc); weights.append(w); source.append(index)
+            rows.append(r0 + dr)
+            cols.append(c0 + dc)
+            weights.append(w)
+            source.append(index)
     rows, cols = np.stack(rows, axis=1).ravel(), np.stack(cols, axis=1).ravel()
     weights, source = np.stack(weights, axis=1).ravel(), np.stack(source, axis=1).ravel()
     keep = weights > 0
     rows, cols, weights, source = rows[keep], cols[keep], weights[keep], source[keep]
     if ((rows < 0) | (rows >= n_rows) | (cols < 0) | (cols >= n_cols)).any():
-        raise ValueError("a source lies outside the grid's cell centres; keep a margin of at "
-                         "least one cell around the sources")
+        raise ValueError(
+            "a source lies outside the grid's cell centres; keep a margin of at "
+            "least one cell around the sources"
+        )
     return CellValues(rows, cols, q[source] * weights, source, n_rows, n_cols)
 
 
@@ -460,11 +528,20 @@ def _kernel_lookup(kernel: UnitKernel, d_row: np.ndarray, d_col: np.ndarray) -> 
     return out
 
 
-def near_field_correction(x_m, y_m, emission_g_s, placed: CellValues, kernel: UnitKernel,
-                          elements: list[ReleaseElement], weather: WeatherClasses,
-                          settings: DispersionSettings, west_m: float, north_m: float,
-                          window_cells: int,
-                          sources_per_batch: int = 512) -> CellValues:
+def near_field_correction(
+    x_m,
+    y_m,
+    emission_g_s,
+    placed: CellValues,
+    kernel: UnitKernel,
+    elements: list[ReleaseElement],
+    weather: WeatherClasses,
+    settings: DispersionSettings,
+    west_m: float,
+    north_m: float,
+    window_cells: int,
+    sources_per_batch: int = 512,
+) -> CellValues:
     """What to add near each source so the field there is the direct sum at its true position.
 
     For every cell within ``window_cells`` of a source (the 2 w x 2 w cells around it), the
@@ -508,8 +585,9 @@ def near_field_correction(x_m, y_m, emission_g_s, placed: CellValues, kernel: Un
             continue
         r0 = np.floor((north_m - y[batch]) / cell - 0.5).astype(np.intp)
         c0 = np.floor((x[batch] - west_m) / cell - 0.5).astype(np.intp)
-        rows = np.broadcast_to(r0[:, None, None] + offsets[None, :, None],
-                               (batch.size, offsets.size, offsets.size))
+        rows = np.broadcast_to(
+            r0[:, None, None] + offsets[None, :, None], (batch.size, offsets.size, offsets.size)
+        )
         cols = np.broadcast_to(c0[:, None, None] + offsets[None, None, :], rows.shape)
         inside = (rows >= 0) & (rows < n_rows) & (cols >= 0) & (cols < n_cols)
         src = np.broadcast_to(batch[:, None, None], rows.shape)[inside]
@@ -525,7 +603,8 @@ def near_field_correction(x_m, y_m, emission_g_s, placed: CellValues, kernel: Un
             has = lo + k < hi
             e = order[lo[has] + k]
             through_kernel[has] += placed.values[e] * _kernel_lookup(
-                kernel, rows[has] - placed.rows[e], cols[has] - placed.cols[e])
+                kernel, rows[has] - placed.rows[e], cols[has] - placed.cols[e]
+            )
         parts.append((rows, cols, exact - through_kernel, src))
     if not parts:
         empty = np.zeros(0, dtype=np.intp)
@@ -541,13 +620,15 @@ def _kernel_slice(kernel: UnitKernel, rows: tuple[int, int], cols: tuple[int, in
     r_lo, r_hi = max(rows[0], -hr), min(rows[1], hr + 1)
     c_lo, c_hi = max(cols[0], -hc), min(cols[1], hc + 1)
     if r_lo < r_hi and c_lo < c_hi:
-        out[r_lo - rows[0]:r_hi - rows[0], c_lo - cols[0]:c_hi - cols[0]] = \
-            kernel.values[r_lo + hr:r_hi + hr, c_lo + hc:c_hi + hc]
+        out[r_lo - rows[0] : r_hi - rows[0], c_lo - cols[0] : c_hi - cols[0]] = kernel.values[
+            r_lo + hr : r_hi + hr, c_lo + hc : c_hi + hc
+        ]
     return out
 
 
-def _valid_convolution(emission: np.ndarray, kernel_part: np.ndarray,
-                       out_shape: tuple[int, int]) -> np.ndarray:
+def _valid_convolution(
+    emission: np.ndarray, kernel_part: np.ndarray, out_shape: tuple[int, int]
+) -> np.ndarray:
     """out[t] = sum_m emission[m] kernel_part[t + len(emission) - 1 - m], per axis (overlap-save).
 
     kernel_part holds out + emission - 1 offsets per axis; a circular FFT convolution of that
@@ -558,13 +639,18 @@ def _valid_convolution(emission: np.ndarray, kernel_part: np.ndarray,
     spectrum *= sp_fft.rfft2(kernel_part, s=shape)
     full = sp_fft.irfft2(spectrum, s=shape)
     r, c = emission.shape[0] - 1, emission.shape[1] - 1
-    return full[r:r + out_shape[0], c:c + out_shape[1]]
+    return full[r : r + out_shape[0], c : c + out_shape[1]]
 
 
-def tile_concentration(cells: CellValues, kernel: UnitKernel, row_range: tuple[int, int],
-                       col_range: tuple[int, int], block_rows: int | None = None,
-                       block_cols: int | None = None,
-                       correction: CellValues | None = None) -> np.ndarray:
+def tile_concentration(
+    cells: CellValues,
+    kernel: UnitKernel,
+    row_range: tuple[int, int],
+    col_range: tuple[int, int],
+    block_rows: int | None = None,
+    block_cols: int | None = None,
+    correction: CellValues | None = None,
+) -> np.ndarray:
     """Concentration [g m-3] on one tile of the grid from all placed sources (overlap-add).
 
     Parameters

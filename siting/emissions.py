@@ -42,12 +42,16 @@ class EmissionDerivation:
         return asdict(self)
 
 
-def derive_emission(*, nh3_unabated_kg_yr: float | None = None,
-                    factor_nh3_kg_per_place_yr: float | None = None,
-                    places: float | None = None, reduction_percent: float = 0.0,
-                    treated_air_fraction: float = 1.0,
-                    effluent_kg_n_per_m3: float | None = None,
-                    captures_in_effluent: bool = False) -> EmissionDerivation:
+def derive_emission(
+    *,
+    nh3_unabated_kg_yr: float | None = None,
+    factor_nh3_kg_per_place_yr: float | None = None,
+    places: float | None = None,
+    reduction_percent: float = 0.0,
+    treated_air_fraction: float = 1.0,
+    effluent_kg_n_per_m3: float | None = None,
+    captures_in_effluent: bool = False,
+) -> EmissionDerivation:
     """Derive a source's annual emission and mean strength.
 
     Parameters
@@ -97,8 +101,11 @@ def derive_emission(*, nh3_unabated_kg_yr: float | None = None,
     nh3_kg_yr = nh3_unabated_kg_yr * (1.0 - effective_percent / 100.0)
     removed_kg_yr = nh3_unabated_kg_yr - nh3_kg_yr
     n_captured = removed_kg_yr * N_PER_NH3_MASS_RATIO if captures_in_effluent else None
-    effluent_m3 = (n_captured / effluent_kg_n_per_m3
-                   if n_captured is not None and effluent_kg_n_per_m3 else None)
+    effluent_m3 = (
+        n_captured / effluent_kg_n_per_m3
+        if n_captured is not None and effluent_kg_n_per_m3
+        else None
+    )
     return EmissionDerivation(
         factor_nh3_kg_per_place_yr=factor_nh3_kg_per_place_yr,
         places=places,

@@ -47,8 +47,11 @@ _WORDING = {
     "bool_parsing": lambda ctx: "must be true or false",
     "string_type": lambda ctx: "must be text in quotes",
     "literal_error": lambda ctx: f"must be one of {ctx.get('expected')}",
-    "too_short": lambda ctx: ("must not be empty" if ctx.get("min_length", 1) <= 1
-                              else f"must have at least {ctx['min_length']} items"),
+    "too_short": lambda ctx: (
+        "must not be empty"
+        if ctx.get("min_length", 1) <= 1
+        else f"must have at least {ctx['min_length']} items"
+    ),
     "string_too_short": lambda ctx: "must not be empty",
     "list_type": lambda ctx: "must be a list [...]",
     "tuple_type": lambda ctx: "must be a list [...]",

@@ -9,9 +9,10 @@ by wind speed (:func:`stability_by_speed_png`). All are drawn with the Agg canva
 (:func:`figure_png`), never through pyplot's global state, and text from user files (site names,
 contour labels) is drawn as plain text, never as mathtext. A habitat layer may hold thousands of
 sites: every site is drawn (outlines as one line collection, points as one scatter), but only the
-:data:`MAX_LABELLED_SITES` most affected are named (:func:`siting.presentation.most_affected_order`), and the figure
-then says so. No physics lives here: every number plotted was computed elsewhere. The deposition classes, the verdict colours and the number
-formats come from :mod:`siting.presentation`; inlining the PNGs in report.html is the job of
+:data:`MAX_LABELLED_SITES` most affected are named
+(:func:`siting.presentation.most_affected_order`), and the figure then says so. No physics lives
+here: every number plotted was computed elsewhere. The deposition classes, the verdict colours
+and the number formats come from :mod:`siting.presentation`; inlining the PNGs in report.html is the job of
 :mod:`siting.report`.
 """
 
@@ -40,9 +41,15 @@ if TYPE_CHECKING:  # imported for annotations only; the module does not need the
 
     from siting.longterm import WeatherClasses
 
-__all__ = ["MAX_LABELLED_SITES", "deposition_figure", "figure_png",
-           "pc_vs_distance_figure", "stability_by_speed_png", "wind_rose_from_table_png",
-           "wind_rose_png"]
+__all__ = [
+    "MAX_LABELLED_SITES",
+    "deposition_figure",
+    "figure_png",
+    "pc_vs_distance_figure",
+    "stability_by_speed_png",
+    "wind_rose_from_table_png",
+    "wind_rose_png",
+]
 
 #: Most site names drawn in one figure; more overlap into an unreadable smear and cost seconds
 #: each (text extents are measured one by one). Common practice, no source.
@@ -146,8 +153,10 @@ def _label_sites(ax: Any, xy: np.ndarray, names: Sequence[str], **text_options: 
     from matplotlib.patheffects import withStroke
 
     # a light halo keeps a name readable over outlines, points and the coloured grid
-    text_options = {"path_effects": [withStroke(linewidth=2.0, foreground="#ffffff", alpha=0.8)],
-                    **text_options}
+    text_options = {
+        "path_effects": [withStroke(linewidth=2.0, foreground="#ffffff", alpha=0.8)],
+        **text_options,
+    }
     if len(names) <= MAX_LABELLED_SITES:
         for (x, y), name in zip(xy, names):
             ax.annotate(str(name), (x, y), parse_math=False, **text_options)
@@ -175,12 +184,24 @@ def _label_sites(ax: Any, xy: np.ndarray, names: Sequence[str], **text_options: 
 def _labels_note(ax: Any, n_drawn: int) -> None:
     """Say under the x-axis label that only the most affected of the ``n_drawn`` sites drawn
     are named."""
-    note = (f"Only the most affected sites are named: up to {MAX_LABELLED_SITES}, by PC as a share "
-            f"of the screening threshold,\noverlapping names skipped. {n_drawn} sites drawn; "
-            "every site is listed in sites.csv.")
-    ax.annotate(note, xy=(0.5, 0.0), xycoords=ax.xaxis.label, xytext=(0, -3),
-                textcoords="offset points", ha="center", va="top", fontsize=7,
-                color="#505050", annotation_clip=False, parse_math=False)
+    note = (
+        f"Only the most affected sites are named: up to {MAX_LABELLED_SITES}, by PC as a share "
+        f"of the screening threshold,\noverlapping names skipped. {n_drawn} sites drawn; "
+        "every site is listed in sites.csv."
+    )
+    ax.annotate(
+        note,
+        xy=(0.5, 0.0),
+        xycoords=ax.xaxis.label,
+        xytext=(0, -3),
+        textcoords="offset points",
+        ha="center",
+        va="top",
+        fontsize=7,
+        color="#505050",
+        annotation_clip=False,
+        parse_math=False,
+    )
 
 
 def deposition_figure(
@@ -282,8 +303,9 @@ def deposition_figure(
         # many sites: thin, half-transparent outlines, so the deposition shows between them
         width, alpha = (1.0, 1.0) if len(sites) <= _THIN_OUTLINES_ABOVE else (0.4, 0.6)
         if outlines:
-            ax.add_collection(LineCollection(outlines, colors="#8a1c0a", linewidths=width,
-                                             alpha=alpha))
+            ax.add_collection(
+                LineCollection(outlines, colors="#8a1c0a", linewidths=width, alpha=alpha)
+            )
         ax.plot([], [], color="#8a1c0a", linewidth=1.0, label="habitat site")
     if sources is not None and len(sources):
         roles = (
@@ -442,9 +464,14 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     nameable = keep & np.array([not is_missing(n) for n in names], dtype=bool)
     order = np.array([i for i in most_affected_order(sites) if nameable[i]], dtype=int)
     ax.autoscale_view()  # final limits before the name boxes are measured
-    if order.size and _label_sites(ax, np.column_stack([distance_m[order], dep_kg_n_ha_yr[order]]),
-                                   names[order], textcoords="offset points", xytext=(5, 4),
-                                   fontsize=7):
+    if order.size and _label_sites(
+        ax,
+        np.column_stack([distance_m[order], dep_kg_n_ha_yr[order]]),
+        names[order],
+        textcoords="offset points",
+        xytext=(5, 4),
+        fontsize=7,
+    ):
         _labels_note(ax, idx.size)
     return figure_png(fig)
 
@@ -470,8 +497,14 @@ def _colours(palette: Sequence[str], n: int) -> list[str]:
     return [palette[min(i, len(palette) - 1)] for i in range(n)]
 
 
-def _rose_png(percent: np.ndarray, sector_centres_deg: np.ndarray, labels: Sequence[str],
-              title: str, note: str, legend_title: str = "wind speed") -> bytes:
+def _rose_png(
+    percent: np.ndarray,
+    sector_centres_deg: np.ndarray,
+    labels: Sequence[str],
+    title: str,
+    note: str,
+    legend_title: str = "wind speed",
+) -> bytes:
     """PNG of a wind rose drawn from shares already binned by speed class and direction sector.
 
     Parameters
@@ -506,23 +539,39 @@ def _rose_png(percent: np.ndarray, sector_centres_deg: np.ndarray, labels: Seque
     theta = np.deg2rad(np.asarray(sector_centres_deg, dtype=float))
     bottom = np.zeros(n_sectors)
     for row, label, colour in zip(percent, labels, _colours(_SPEED_COLOURS, len(labels))):
-        ax.bar(theta, row, width=width_rad * 0.92, bottom=bottom, color=colour,
-               edgecolor="#404040", linewidth=0.4, label=f"{label} m/s", align="center")
+        ax.bar(
+            theta,
+            row,
+            width=width_rad * 0.92,
+            bottom=bottom,
+            color=colour,
+            edgecolor="#404040",
+            linewidth=0.4,
+            label=f"{label} m/s",
+            align="center",
+        )
         bottom += row
     ax.set_xticks(np.deg2rad(np.arange(0, 360, 45)))
     ax.set_xticklabels(["N", "NE", "E", "SE", "S", "SW", "W", "NW"])
     ax.yaxis.set_major_formatter(lambda value, _: f"{value:g} %")
     ax.tick_params(axis="y", labelsize=7)
     ax.set_rlabel_position(112.5)
-    ax.legend(title=legend_title, fontsize=7, title_fontsize=8, loc="upper left",
-              bbox_to_anchor=(1.05, 1.0), framealpha=0.9)
+    ax.legend(
+        title=legend_title,
+        fontsize=7,
+        title_fontsize=8,
+        loc="upper left",
+        bbox_to_anchor=(1.05, 1.0),
+        framealpha=0.9,
+    )
     ax.set_title(title, fontsize=10)
     fig.text(0.5, 0.01, note, ha="center", fontsize=7, color="#505050")
     return figure_png(fig)
 
 
-def wind_rose_png(weather, n_sectors: int = 16, *,
-                  speed_edges_m_s: Sequence[float] | None = None) -> bytes:
+def wind_rose_png(
+    weather, n_sectors: int = 16, *, speed_edges_m_s: Sequence[float] | None = None
+) -> bytes:
     """PNG wind rose of an hourly record: % of hours by direction sector, stacked by speed.
 
     Parameters
@@ -570,10 +619,12 @@ def wind_rose_png(weather, n_sectors: int = 16, *,
         return figure_png(fig)
     step = direction_step_deg(weather.direction_deg)
     classes = speed_class_index(weather.speed_m_s, edges)
-    percent = np.array([
-        100.0 * hours_by_sector(weather.direction_deg[classes == c], n_sectors, step) / n
-        for c in range(len(labels))
-    ])
+    percent = np.array(
+        [
+            100.0 * hours_by_sector(weather.direction_deg[classes == c], n_sectors, step) / n
+            for c in range(len(labels))
+        ]
+    )
     note = f"{n_sectors} sectors; % of hours used"
     if step > 0:
         note += f"; directions reported in {step:g} deg steps, spread over each step"
@@ -606,10 +657,14 @@ def wind_rose_from_table_png(weather: WeatherClasses) -> bytes:
     percent = _table_rose_percent(weather)
     centres_deg = np.asarray(weather.sector_centres_deg, dtype=float)
     labels = [format_number(u) for u in np.asarray(weather.speeds_m_s, dtype=float)]
-    title = (f"Wind rose: direction the wind blows from\nfrequency table, {centres_deg.size} "
-             f"sectors of {360.0 / centres_deg.size:g} deg")
-    note = (f"% of the time; stacked by the table's class speeds at the anemometer "
-            f"({format_number(weather.anemometer_height_m)} m)")
+    title = (
+        f"Wind rose: direction the wind blows from\nfrequency table, {centres_deg.size} "
+        f"sectors of {360.0 / centres_deg.size:g} deg"
+    )
+    note = (
+        f"% of the time; stacked by the table's class speeds at the anemometer "
+        f"({format_number(weather.anemometer_height_m)} m)"
+    )
     return _rose_png(percent, centres_deg, labels, title, note, legend_title="class speed")
 
 
@@ -625,7 +680,8 @@ def _table_rose_percent(weather: WeatherClasses) -> np.ndarray:
     if frequency.ndim != 3 or frequency.shape[:2] != (centres_deg.size, speeds_m_s.size):
         raise InputError(
             f"wind rose: frequency_fraction must have shape (sectors {centres_deg.size}, "
-            f"speeds {speeds_m_s.size}, stability classes), got {frequency.shape}")
+            f"speeds {speeds_m_s.size}, stability classes), got {frequency.shape}"
+        )
     if centres_deg.size < 4:
         raise InputError(f"wind rose: need at least 4 sectors, got {centres_deg.size}")
     by_sector_speed = frequency.sum(axis=2)
@@ -670,20 +726,40 @@ def stability_by_speed_png(weather, *, speed_edges_m_s: Sequence[float] | None =
     x = np.arange(n_classes)
     bottom = np.zeros(n_classes)
     for s, (name, colour) in enumerate(zip(STABILITY_CLASSES, _STABILITY_COLOURS)):
-        ax.bar(x, share[:, s], bottom=bottom, color=colour, edgecolor="#404040", linewidth=0.4,
-               label=name, width=0.7)
+        ax.bar(
+            x,
+            share[:, s],
+            bottom=bottom,
+            color=colour,
+            edgecolor="#404040",
+            linewidth=0.4,
+            label=name,
+            width=0.7,
+        )
         bottom += share[:, s]
     for i, hours in enumerate(per_class):
-        ax.annotate(f"{int(hours)} h", (x[i], 100.0), textcoords="offset points", xytext=(0, 3),
-                    ha="center", fontsize=7)
+        ax.annotate(
+            f"{int(hours)} h",
+            (x[i], 100.0),
+            textcoords="offset points",
+            xytext=(0, 3),
+            ha="center",
+            fontsize=7,
+        )
     ax.set_xticks(x)
     ax.set_xticklabels(labels)
     ax.set_xlabel("Wind speed at the anemometer [m/s]")
     ax.set_ylabel("Share of the hours in the speed class [%]")
     ax.set_ylim(0, 108)
-    ax.legend(title="Pasquill class", fontsize=7, title_fontsize=8, loc="upper left",
-              bbox_to_anchor=(1.01, 1.0))
-    ax.set_title(f"Stability by wind speed: {weather.n_hours} hours, {_record_span(weather)}",
-                 fontsize=10)
+    ax.legend(
+        title="Pasquill class",
+        fontsize=7,
+        title_fontsize=8,
+        loc="upper left",
+        bbox_to_anchor=(1.01, 1.0),
+    )
+    ax.set_title(
+        f"Stability by wind speed: {weather.n_hours} hours, {_record_span(weather)}", fontsize=10
+    )
     ax.grid(True, axis="y", linewidth=0.4, alpha=0.5)
     return figure_png(fig)

@@ -63,16 +63,24 @@ def grid_around(x_m, y_m, margin_m: float, cell_m: float, crs: str) -> GridSpec:
     return GridSpec(west, north, cell_m, n_cols, n_rows, crs)
 
 
-def write_geotiff(path: Path, grid: GridSpec, values: np.ndarray, description: str,
-                  units: str) -> None:
+def write_geotiff(
+    path: Path, grid: GridSpec, values: np.ndarray, description: str, units: str
+) -> None:
     """Write one float32 band with CRS, transform, nodata, description and units."""
     import rasterio
 
     data = np.where(np.isfinite(values), values, NODATA).astype("float32")
     profile = {
-        "driver": "GTiff", "width": grid.n_cols, "height": grid.n_rows, "count": 1,
-        "dtype": "float32", "crs": grid.crs, "transform": grid.transform(), "nodata": NODATA,
-        "compress": "deflate", "tiled": grid.n_cols >= 256 and grid.n_rows >= 256,
+        "driver": "GTiff",
+        "width": grid.n_cols,
+        "height": grid.n_rows,
+        "count": 1,
+        "dtype": "float32",
+        "crs": grid.crs,
+        "transform": grid.transform(),
+        "nodata": NODATA,
+        "compress": "deflate",
+        "tiled": grid.n_cols >= 256 and grid.n_rows >= 256,
     }
     if profile["tiled"]:
         profile.update(blockxsize=256, blockysize=256)

@@ -84,13 +84,16 @@ def _lichens_absent(feature, field: str | None, where: str) -> bool | None:
         return float(value) == 0.0
     if not text:
         return None
-    raise InputError(f"{where}: {field} must say whether lichens and bryophytes are present "
-                     f"(present/absent, yes/no, true/false, 1/0; empty = not known), "
-                     f"got {value!r}")
+    raise InputError(
+        f"{where}: {field} must say whether lichens and bryophytes are present "
+        f"(present/absent, yes/no, true/false, 1/0; empty = not known), "
+        f"got {value!r}"
+    )
 
 
-def critical_level_for(habitat: dict, levels: dict, absent: bool | None,
-                       absent_by_scenario: bool, field: str | None) -> tuple[float, str, str]:
+def critical_level_for(
+    habitat: dict, levels: dict, absent: bool | None, absent_by_scenario: bool, field: str | None
+) -> tuple[float, str, str]:
     """(critical level [ug m-3], basis in words, source) of one site.
 
     1 ug/m3 (lichens and bryophytes) unless the habitat layer's field or the scenario states
@@ -98,20 +101,30 @@ def critical_level_for(habitat: dict, levels: dict, absent: bool | None,
     the default whatever the habitat type ([UNECE2007]; critical_levels.toml).
     """
     if absent is True:
-        row, basis = levels["higher_plants"], (f"habitat layer field {field}: lichens and "
-                                               "bryophytes absent")
+        row, basis = (
+            levels["higher_plants"],
+            (f"habitat layer field {field}: lichens and bryophytes absent"),
+        )
     elif absent is False:
-        row, basis = levels["lichens_bryophytes"], (f"habitat layer field {field}: lichens "
-                                                    "and bryophytes present")
+        row, basis = (
+            levels["lichens_bryophytes"],
+            (f"habitat layer field {field}: lichens and bryophytes present"),
+        )
     elif absent_by_scenario:
-        row, basis = levels["higher_plants"], ("scenario habitats.lichens_bryophytes_absent: "
-                                               "lichens and bryophytes absent")
+        row, basis = (
+            levels["higher_plants"],
+            ("scenario habitats.lichens_bryophytes_absent: lichens and bryophytes absent"),
+        )
     elif habitat.get("lichens_bryophytes"):
-        row, basis = levels["lichens_bryophytes"], ("habitat type where lichens and bryophytes "
-                                                    "are important")
+        row, basis = (
+            levels["lichens_bryophytes"],
+            ("habitat type where lichens and bryophytes are important"),
+        )
     else:
-        row, basis = levels["lichens_bryophytes"], ("lichens and bryophytes not shown absent "
-                                                    "(default)")
+        row, basis = (
+            levels["lichens_bryophytes"],
+            ("lichens and bryophytes not shown absent (default)"),
+        )
     return float(row["critical_level_ug_m3"]), basis, row["source"]
 
 
@@ -123,14 +136,27 @@ def critical_load_range(habitat: dict, review: str) -> tuple[float, float, str, 
     review says which was used.
     """
     if review == "2022" and "critical_load_2022_min_kg_n_ha_yr" in habitat:
-        return (habitat["critical_load_2022_min_kg_n_ha_yr"],
-                habitat["critical_load_2022_max_kg_n_ha_yr"], "2022", habitat["source_2022"])
-    return (habitat["critical_load_min_kg_n_ha_yr"], habitat["critical_load_max_kg_n_ha_yr"],
-            "2011", habitat["source"])
+        return (
+            habitat["critical_load_2022_min_kg_n_ha_yr"],
+            habitat["critical_load_2022_max_kg_n_ha_yr"],
+            "2022",
+            habitat["source_2022"],
+        )
+    return (
+        habitat["critical_load_min_kg_n_ha_yr"],
+        habitat["critical_load_max_kg_n_ha_yr"],
+        "2011",
+        habitat["source"],
+    )
 
 
-def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
-                  critical_load_end: str = "lower", critical_load_review: str = "2022"):
+def read_habitats(
+    section: HabitatsSection,
+    crs: str,
+    tables: Tables,
+    critical_load_end: str = "lower",
+    critical_load_review: str = "2022",
+):
     """Read the habitat layer and attach each site's critical values and threshold.
 
     Returns
@@ -142,17 +168,27 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
     """
     gdf = read_vector_layer(section.file, section.layer, "habitats.file")
     name = section.file.name
-    fields = {"name_field": section.name_field, "habitat_field": section.habitat_field,
-              "designation_field": section.designation_field}
-    for key in ("critical_level_field", "critical_load_field", "background_deposition_field",
-                "background_concentration_field", "lichens_bryophytes_field"):
+    fields = {
+        "name_field": section.name_field,
+        "habitat_field": section.habitat_field,
+        "designation_field": section.designation_field,
+    }
+    for key in (
+        "critical_level_field",
+        "critical_load_field",
+        "background_deposition_field",
+        "background_concentration_field",
+        "lichens_bryophytes_field",
+    ):
         if getattr(section, key):
             fields[key] = getattr(section, key)
     for key, field in fields.items():
         if field not in gdf.columns:
             cols = [c for c in gdf.columns if c != "geometry"]
-            raise InputError(f'habitats.{key} = "{field}": no such field in {name}'
-                             f"{suggest(field, cols)} (fields: {', '.join(cols)})")
+            raise InputError(
+                f'habitats.{key} = "{field}": no such field in {name}'
+                f"{suggest(field, cols)} (fields: {', '.join(cols)})"
+            )
     gdf = gdf.to_crs(crs)
     warnings: list[str] = []
     rows = []
@@ -166,13 +202,17 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
     if len(repeated):
         first = repeated.iloc[0]
         features = ", ".join(str(i + 1) for i in np.flatnonzero((names == first).to_numpy()))
-        raise InputError(f'habitats.file {name}: features {features} share the site name '
-                         f'"{first}"; sites are reported and checked by name: give each a '
-                         "name of its own, or merge the parts of one site into one feature")
+        raise InputError(
+            f"habitats.file {name}: features {features} share the site name "
+            f'"{first}"; sites are reported and checked by name: give each a '
+            "name of its own, or merge the parts of one site into one feature"
+        )
     absent_names = {n.strip().lower() for n in section.lichens_bryophytes_absent}
     for missing in sorted(absent_names - set(names.str.lower())):
-        warnings.append(f'habitats.lichens_bryophytes_absent: "{missing}" is not a site name in '
-                        f"{name}; it is ignored")
+        warnings.append(
+            f'habitats.lichens_bryophytes_absent: "{missing}" is not a site name in '
+            f"{name}; it is ignored"
+        )
     fallback: set[str] = set()
     for i, feature in enumerate(gdf.itertuples(index=False), start=1):
         site_name = str(getattr(feature, section.name_field))
@@ -181,32 +221,41 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
         if geom is None or geom.is_empty:
             raise InputError(f"{where}: empty geometry")
         if geom.geom_type not in ("Polygon", "MultiPolygon"):
-            raise InputError(f"{where}: geometry is a {geom.geom_type}; habitat sites must be "
-                             "polygons")
+            raise InputError(
+                f"{where}: geometry is a {geom.geom_type}; habitat sites must be polygons"
+            )
         if not geom.is_valid:
             repaired = shapely.make_valid(geom)
             polys = shapely.get_parts(repaired)
             polys = [p for p in polys if p.geom_type in ("Polygon", "MultiPolygon")]
             if not polys or shapely.union_all(polys).area <= 0:
-                raise InputError(f"{where}: invalid polygon that cannot be repaired "
-                                 f"({shapely.is_valid_reason(geom)})")
+                raise InputError(
+                    f"{where}: invalid polygon that cannot be repaired "
+                    f"({shapely.is_valid_reason(geom)})"
+                )
             geom = shapely.union_all(polys)
-            warnings.append(f"{where}: invalid polygon repaired ({shapely.is_valid_reason(feature.geometry)})")
+            warnings.append(
+                f"{where}: invalid polygon repaired ({shapely.is_valid_reason(feature.geometry)})"
+            )
         habitat_raw = getattr(feature, section.habitat_field)
         habitat_key = str(habitat_raw).strip().lower()
         habitat_key = habitat_key if habitat_key in loads else by_name.get(habitat_key)
         if habitat_key is None:
-            raise InputError(f'{where}: habitat "{habitat_raw}" is not in critical_loads.toml'
-                             f"{suggest(str(habitat_raw).lower(), loads)} "
-                             f"(known: {', '.join(sorted(loads))})")
+            raise InputError(
+                f'{where}: habitat "{habitat_raw}" is not in critical_loads.toml'
+                f"{suggest(str(habitat_raw).lower(), loads)} "
+                f"(known: {', '.join(sorted(loads))})"
+            )
         habitat = loads[habitat_key]
         designation = str(getattr(feature, section.designation_field)).strip()
         tier = tier_by_designation.get(designation.lower())
         if tier is None:
             tier = tiers[0]
-            warnings.append(f'{where}: designation "{designation}" matches no tier in '
-                            f'thresholds.toml; the strictest tier "{tier["id"]}" '
-                            f"({tier['threshold_percent']:g} %) is used")
+            warnings.append(
+                f'{where}: designation "{designation}" matches no tier in '
+                f'thresholds.toml; the strictest tier "{tier["id"]}" '
+                f"({tier['threshold_percent']:g} %) is used"
+            )
         lo, hi, review, range_source = critical_load_range(habitat, critical_load_review)
         if review != critical_load_review:
             fallback.add(habitat_key)
@@ -216,15 +265,19 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
         if override is not None:
             used, load_source = override
         level, level_basis, level_source = critical_level_for(
-            habitat, levels, _lichens_absent(feature, section.lichens_bryophytes_field, where),
-            site_name.strip().lower() in absent_names, section.lichens_bryophytes_field)
+            habitat,
+            levels,
+            _lichens_absent(feature, section.lichens_bryophytes_field, where),
+            site_name.strip().lower() in absent_names,
+            section.lichens_bryophytes_field,
+        )
         override = _positive_field(feature, section.critical_level_field, where)
         if override is not None:
             level, level_source = override
             level_basis = "given per site in the habitat layer"
         land_cover = tables.deposition_velocities[habitat["land_cover"]]
 
-        def optional(key, feature=feature):
+        def optional(key, feature=feature, where=where):
             field = getattr(section, key)
             if not field:
                 return np.nan
@@ -236,34 +289,38 @@ def read_habitats(section: HabitatsSection, crs: str, tables: Tables,
                 raise InputError(f"{where}: {field} must be >= 0 (a background), got {value!r}")
             return number
 
-        rows.append({
-            "site_id": f"S{i:02d}",
-            "name": site_name,
-            "designation": designation,
-            "tier": tier["id"],
-            "threshold_percent": float(tier["threshold_percent"]),
-            "threshold_source": tier["source"],
-            "habitat": habitat_key,
-            "habitat_name": habitat["name"],
-            "land_cover": habitat["land_cover"],
-            "deposition_velocity_m_s": float(land_cover["deposition_velocity_m_s"]),
-            "deposition_velocity_source": land_cover["source"],
-            "critical_level_ug_m3": float(level),
-            "critical_level_basis": level_basis,
-            "critical_level_source": level_source,
-            "critical_load_review": review,
-            "critical_load_min_kg_n_ha_yr": float(lo),
-            "critical_load_max_kg_n_ha_yr": float(hi),
-            "critical_load_used_kg_n_ha_yr": float(used),
-            "critical_load_source": load_source,
-            "background_dep_kg_n_ha_yr": optional("background_deposition_field"),
-            "background_conc_ug_m3": optional("background_concentration_field"),
-            "area_ha": geom.area / 1e4,
-            "geometry": geom,
-        })
+        rows.append(
+            {
+                "site_id": f"S{i:02d}",
+                "name": site_name,
+                "designation": designation,
+                "tier": tier["id"],
+                "threshold_percent": float(tier["threshold_percent"]),
+                "threshold_source": tier["source"],
+                "habitat": habitat_key,
+                "habitat_name": habitat["name"],
+                "land_cover": habitat["land_cover"],
+                "deposition_velocity_m_s": float(land_cover["deposition_velocity_m_s"]),
+                "deposition_velocity_source": land_cover["source"],
+                "critical_level_ug_m3": float(level),
+                "critical_level_basis": level_basis,
+                "critical_level_source": level_source,
+                "critical_load_review": review,
+                "critical_load_min_kg_n_ha_yr": float(lo),
+                "critical_load_max_kg_n_ha_yr": float(hi),
+                "critical_load_used_kg_n_ha_yr": float(used),
+                "critical_load_source": load_source,
+                "background_dep_kg_n_ha_yr": optional("background_deposition_field"),
+                "background_conc_ug_m3": optional("background_concentration_field"),
+                "area_ha": geom.area / 1e4,
+                "geometry": geom,
+            }
+        )
     for key in sorted(fallback):
-        warnings.append(f'critical_loads.toml, habitat "{key}": no 2022 range in the table; '
-                        "the 2011 range is used")
+        warnings.append(
+            f'critical_loads.toml, habitat "{key}": no 2022 range in the table; '
+            "the 2011 range is used"
+        )
     import geopandas as gpd
 
     return gpd.GeoDataFrame(rows, geometry="geometry", crs=crs), warnings
@@ -309,9 +366,13 @@ def lattice_step_m(geoms, spacing_m: float) -> np.ndarray:
     MAX_POINTS_PER_SITE points and its bounding box at most MAX_LATTICE_CANDIDATES."""
     bounds = shapely.bounds(geoms).reshape(-1, 4)
     box_area = (bounds[:, 2] - bounds[:, 0]) * (bounds[:, 3] - bounds[:, 1])
-    return np.maximum.reduce([np.full(len(bounds), float(spacing_m)),
-                              np.sqrt(shapely.area(geoms) / MAX_POINTS_PER_SITE),
-                              np.sqrt(box_area / MAX_LATTICE_CANDIDATES)])
+    return np.maximum.reduce(
+        [
+            np.full(len(bounds), float(spacing_m)),
+            np.sqrt(shapely.area(geoms) / MAX_POINTS_PER_SITE),
+            np.sqrt(box_area / MAX_LATTICE_CANDIDATES),
+        ]
+    )
 
 
 def _batched_cells(counts: np.ndarray):
@@ -326,8 +387,10 @@ def _batched_cells(counts: np.ndarray):
             last += 1
         sel = np.arange(first, last)
         site = np.repeat(sel, counts[sel])
-        yield site, np.arange(site.size) - np.repeat(np.cumsum(counts[sel]) - counts[sel],
-                                                     counts[sel])
+        yield (
+            site,
+            np.arange(site.size) - np.repeat(np.cumsum(counts[sel]) - counts[sel], counts[sel]),
+        )
         first = last
 
 
@@ -344,7 +407,9 @@ def _lattice_points(geoms, spacing_m: float):
         x = bounds[site, 0] + step[site] * (col + 0.5)
         y = bounds[site, 1] + step[site] * (row + 0.5)
         inside = shapely.contains_xy(geoms[site], x, y)
-        out_index.append(site[inside]); out_x.append(x[inside]); out_y.append(y[inside])
+        out_index.append(site[inside])
+        out_x.append(x[inside])
+        out_y.append(y[inside])
     return np.concatenate(out_index), np.concatenate(out_x), np.concatenate(out_y)
 
 
@@ -408,7 +473,8 @@ def grid_nodes_in_sites(geometries, grid) -> tuple[np.ndarray, np.ndarray]:
         x = grid.west_m + (col + 0.5) * cell
         y = grid.north_m - (row + 0.5) * cell
         inside = shapely.contains_xy(geoms[site], x, y)
-        nodes.append((row * grid.n_cols + col)[inside]); sites.append(site[inside])
+        nodes.append((row * grid.n_cols + col)[inside])
+        sites.append(site[inside])
     return np.concatenate(nodes).astype(int), np.concatenate(sites).astype(int)
 
 
@@ -428,10 +494,12 @@ def coarsened_sites(geometries, names, spacing_m: float, boundary_spacing_m: flo
         return []
     listed = ", ".join(f'"{name}"' for name in names[wide][:5])
     more = f" and {int(wide.sum()) - 5} more" if wide.sum() > 5 else ""
-    return [f"{int(wide.sum())} very large or long site(s) ({listed}{more}): their sample "
-            f"points are spaced wider than asked (at most {MAX_POINTS_PER_SITE} inside and "
-            f"{MAX_BOUNDARY_POINTS_PER_SITE} on the boundary per site); the point nearest each "
-            "source and the grid nodes inside them still count"]
+    return [
+        f"{int(wide.sum())} very large or long site(s) ({listed}{more}): their sample "
+        f"points are spaced wider than asked (at most {MAX_POINTS_PER_SITE} inside and "
+        f"{MAX_BOUNDARY_POINTS_PER_SITE} on the boundary per site); the point nearest each "
+        "source and the grid nodes inside them still count"
+    ]
 
 
 def site_outline_points(geometries, spacing_m: float):
@@ -440,5 +508,8 @@ def site_outline_points(geometries, spacing_m: float):
     Returns (site_index, x_m, y_m)."""
     b_index, bx, by = site_boundary_points(geometries, spacing_m)
     lattice_index, lx, ly, interior = site_sample_points(geometries, [], [], spacing_m)
-    return (np.concatenate([b_index, lattice_index[interior]]),
-            np.concatenate([bx, lx[interior]]), np.concatenate([by, ly[interior]]))
+    return (
+        np.concatenate([b_index, lattice_index[interior]]),
+        np.concatenate([bx, lx[interior]]),
+        np.concatenate([by, ly[interior]]),
+    )

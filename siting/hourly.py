@@ -93,8 +93,14 @@ def group_identical_hours(weather: HourlyWeather, hour_weights=None):
     (direction_deg, speed_m_s, stability_index, weight) arrays, one entry per group.
     """
     weights = np.ones(weather.n_hours) if hour_weights is None else np.asarray(hour_weights, float)
-    key = np.stack([np.round(weather.direction_deg, 2), np.round(weather.speed_m_s, 3),
-                    weather.stability_index.astype(float)], axis=1)
+    key = np.stack(
+        [
+            np.round(weather.direction_deg, 2),
+            np.round(weather.speed_m_s, 3),
+            weather.stability_index.astype(float),
+        ],
+        axis=1,
+    )
     unique, inverse = np.unique(key, axis=0, return_inverse=True)
     summed = np.bincount(inverse.ravel(), weights=weights, minlength=len(unique))
     return unique[:, 0], unique[:, 1], unique[:, 2].astype(int), summed
@@ -157,9 +163,14 @@ def _half_window_rad(scheme, s: int, xy_m: float, max_distance_m: float) -> floa
     return float(np.arctan(ratio.max())) if ratio.max() < 1e6 else np.pi
 
 
-def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: ReleaseElement,
-                                     weather: HourlyWeather, settings: DispersionSettings,
-                                     hour_weights=None) -> np.ndarray:
+def element_hourly_mean_g_m3_per_g_s(
+    receptor_x_m,
+    receptor_y_m,
+    element: ReleaseElement,
+    weather: HourlyWeather,
+    settings: DispersionSettings,
+    hour_weights=None,
+) -> np.ndarray:
     """Mean over the record's hours of one element's ground-level concentration [g m-3 per g s-1].
 
     Parameters
@@ -194,17 +205,34 @@ def element_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: Releas
     chunk = settings.chunk_receptors
     reach_m = receptor_reach_m(rx, ry, element)
     if rx.size > chunk:  # bounded memory: receptors in chunks (each sorted by bearing)
-        out = np.concatenate([
-            _element_hourly_chunk(rx[a:a + chunk], ry[a:a + chunk], element, weather, settings,
-                                  hour_weights, reach_m) for a in range(0, rx.size, chunk)])
+        out = np.concatenate(
+            [
+                _element_hourly_chunk(
+                    rx[a : a + chunk],
+                    ry[a : a + chunk],
+                    element,
+                    weather,
+                    settings,
+                    hour_weights,
+                    reach_m,
+                )
+                for a in range(0, rx.size, chunk)
+            ]
+        )
     else:
         out = _element_hourly_chunk(rx, ry, element, weather, settings, hour_weights, reach_m)
     return out.reshape(np.shape(receptor_x_m))
 
 
-def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeather,
-                          settings: DispersionSettings, hour_weights,
-                          max_distance_m: float) -> np.ndarray:
+def _element_hourly_chunk(
+    rx,
+    ry,
+    element: ReleaseElement,
+    weather: HourlyWeather,
+    settings: DispersionSettings,
+    hour_weights,
+    max_distance_m: float,
+) -> np.ndarray:
     dx, dy = rx - element.x_m, ry - element.y_m
     distance_m = np.hypot(dx, dy)
     bearing_rad = np.arctan2(dx, dy)  # source -> receptor, clockwise from north
@@ -223,12 +251,12 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
         xy_m, xz_m = virtual_distances_m(element, scheme, s)
         # spread over +-step/2: 6 sigma_y beyond the interval's edges (tan(a + b) >= tan a + b,
         # so beyond it |y| - x step/2 > 6 sigma_y, and the density is below its 6-sigma value)
-        half_window = min(_half_window_rad(scheme, s, xy_m, max_distance_m) + 0.5 * step_rad,
-                          np.pi)
+        half_window = min(_half_window_rad(scheme, s, xy_m, max_distance_m) + 0.5 * step_rad, np.pi)
         # receptors near the element are reached by every plume whatever the angle: upwind
         # ones closer than min_distance count as downwind at it, with their crosswind offset
         near_m = element.min_distance_m + LATERAL_CUTOFF_SIGMAS * float(
-            scheme.sigma_y_m(element.min_distance_m + xy_m, s))
+            scheme.sigma_y_m(element.min_distance_m + xy_m, s)
+        )
         near = np.flatnonzero(distance_m < near_m)
 
         def sigma_z_of(x, s=s, xz_m=xz_m):
@@ -263,19 +291,28 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
             sy = np.maximum(scheme.sigma_y_m(along_m + xy_m, s), 1e-6)
             sz = np.maximum(sigma_z_of(along_m), 1e-6)
             if step_rad > 0:  # spread over the reporting interval
-                shape = (spread_lateral_density_per_m(cross_m, along_m, sy, step_rad)
-                         / (_SQRT_2PI * sz))
+                shape = spread_lateral_density_per_m(cross_m, along_m, sy, step_rad) / (
+                    _SQRT_2PI * sz
+                )
             else:  # exact directions: the Gaussian, [Turner1970] Eq. 3.1
                 shape = np.exp(-0.5 * (cross_m / sy) ** 2) / (2.0 * np.pi * sy * sz)
             by_height: dict[float, list[tuple[float, float]]] = {}
             for speed_ref, weight in zip(class_speeds[same], class_weights[same]):
                 u, height_m = release_wind_and_height(
-                    element, speed_ref, weather.anemometer_height_m,
-                    settings.wind_exponents[s], s, settings)
+                    element,
+                    speed_ref,
+                    weather.anemometer_height_m,
+                    settings.wind_exponents[s],
+                    s,
+                    settings,
+                )
                 by_height.setdefault(height_m, []).append((u, weight))
             c = np.zeros(along_m.size)
-            position = (table_position(along_m, max_distance_m, settings.depletion_table_points)
-                        if settings.depletion_velocity_m_s else None)  # shared by the heights
+            position = (
+                table_position(along_m, max_distance_m, settings.depletion_table_points)
+                if settings.depletion_velocity_m_s
+                else None
+            )  # shared by the heights
             for height_m, winds in by_height.items():
                 vertical = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
                 integral = depletion.integral(height_m, along_m, position)
@@ -284,8 +321,13 @@ def _element_hourly_chunk(rx, ry, element: ReleaseElement, weather: HourlyWeathe
                     if integral is None:
                         speed_sum += weight / u
                     else:
-                        speed_sum += weight / u * source_depletion_fraction(
-                            settings.depletion_velocity_m_s, u, integral)
+                        speed_sum += (
+                            weight
+                            / u
+                            * source_depletion_fraction(
+                                settings.depletion_velocity_m_s, u, integral
+                            )
+                        )
                 c += vertical * speed_sum
             total[sel] += shape * c
     return total / weather.n_hours
@@ -304,12 +346,18 @@ def _window_indices(sorted_bearing: np.ndarray, centre_rad: float, half_rad: flo
     return np.concatenate(parts) if parts else np.empty(0, dtype=np.intp)
 
 
-def source_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, elements: list[ReleaseElement],
-                                    weather: HourlyWeather, settings: DispersionSettings,
-                                    hour_weights=None) -> np.ndarray:
+def source_hourly_mean_g_m3_per_g_s(
+    receptor_x_m,
+    receptor_y_m,
+    elements: list[ReleaseElement],
+    weather: HourlyWeather,
+    settings: DispersionSettings,
+    hour_weights=None,
+) -> np.ndarray:
     """Hour-by-hour mean per unit (mean) emission of a source made of elements."""
     total = np.zeros(np.shape(receptor_x_m), dtype=float)
     for element in elements:
         total += element.share_fraction * element_hourly_mean_g_m3_per_g_s(
-            receptor_x_m, receptor_y_m, element, weather, settings, hour_weights)
+            receptor_x_m, receptor_y_m, element, weather, settings, hour_weights
+        )
     return total

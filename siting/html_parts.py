@@ -208,7 +208,7 @@ def plain_label(key: str) -> str:
 def is_share(key: str) -> bool:
     """True when a key names a dimensionless share 0..1 (shown as a percentage)."""
     name = str(key).lower()
-    return name.endswith("_fraction") or name.startswith("share") or name.endswith("_share")
+    return name.endswith(("_fraction", "_share")) or name.startswith("share")
 
 
 def _compass(direction_deg: float) -> str:

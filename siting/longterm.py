@@ -21,8 +21,8 @@ deposition velocities by land cover (the caller multiplies by v_d).
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
 import numpy as np
 
@@ -132,9 +132,16 @@ class DispersionSettings:
         return max(1_000, int(self.memory_budget_mb * 1e6 / BYTES_PER_RECEPTOR))
 
 
-def rectangle_elements(x_m: float, y_m: float, width_m: float, length_m: float, angle_deg: float,
-                       release_height_m: float, element_size_m: float = 5.0,
-                       sigma_z0_m: float = 0.0) -> list[ReleaseElement]:
+def rectangle_elements(
+    x_m: float,
+    y_m: float,
+    width_m: float,
+    length_m: float,
+    angle_deg: float,
+    release_height_m: float,
+    element_size_m: float = 5.0,
+    sigma_z0_m: float = 0.0,
+) -> list[ReleaseElement]:
     """Split a rectangular area source into a lattice of small volume elements.
 
     The rectangle is centred on (x, y); its length axis points ``angle_deg`` clockwise from
@@ -154,10 +161,19 @@ def rectangle_elements(x_m: float, y_m: float, width_m: float, length_m: float, 
     vx, vy = np.cos(a), -np.sin(a)  # width axis, 90 deg clockwise
     side_m = np.sqrt(d_len * d_wid)
     share = 1.0 / (n_len * n_wid)
-    return [ReleaseElement(x_m + s * ux + t * vx, y_m + s * uy + t * vy, release_height_m,
-                           sigma_y0_m=side_m / 2.15, sigma_z0_m=sigma_z0_m,
-                           share_fraction=share, min_distance_m=side_m / 2)
-            for s in along for t in across]
+    return [
+        ReleaseElement(
+            x_m + s * ux + t * vx,
+            y_m + s * uy + t * vy,
+            release_height_m,
+            sigma_y0_m=side_m / 2.15,
+            sigma_z0_m=sigma_z0_m,
+            share_fraction=share,
+            min_distance_m=side_m / 2,
+        )
+        for s in along
+        for t in across
+    ]
 
 
 _TABLE_START_M = 0.01
@@ -165,8 +181,9 @@ _TABLE_START_M = 0.01
 
 def depletion_table_m(max_distance_m: float, n_points: int) -> np.ndarray:
     """Distances of a depletion table [m]: 0, then log-spaced from 1 cm to just past max."""
-    return np.concatenate(([0.0], np.geomspace(_TABLE_START_M, max(max_distance_m, 1.0) * 1.01,
-                                                n_points)))
+    return np.concatenate(
+        ([0.0], np.geomspace(_TABLE_START_M, max(max_distance_m, 1.0) * 1.01, n_points))
+    )
 
 
 def table_position(distance_m, max_distance_m: float, n_points: int):
@@ -190,25 +207,38 @@ def table_position(distance_m, max_distance_m: float, n_points: int):
     return i0, weight
 
 
-def depletion_integral_table(sigma_z_of: Callable, release_height_m: float, mixing_height_m,
-                        max_distance_m: float, n_points: int):
+def depletion_integral_table(
+    sigma_z_of: Callable,
+    release_height_m: float,
+    mixing_height_m,
+    max_distance_m: float,
+    n_points: int,
+):
     """Distance table [m] and I(x) for one stability class and effective height."""
     table_m = depletion_table_m(max_distance_m, n_points)
-    density = ground_vertical_density_per_m(np.maximum(sigma_z_of(table_m), 1e-6),
-                                            release_height_m, mixing_height_m)
+    density = ground_vertical_density_per_m(
+        np.maximum(sigma_z_of(table_m), 1e-6), release_height_m, mixing_height_m
+    )
     return table_m, cumulative_depletion_integral_m0(table_m, density)
 
 
-def virtual_distances_m(element: ReleaseElement, scheme: SigmaScheme, s: int) -> tuple[float, float]:
+def virtual_distances_m(
+    element: ReleaseElement, scheme: SigmaScheme, s: int
+) -> tuple[float, float]:
     """Lateral and vertical virtual distances [m] of an element for stability class s."""
     xy_m = virtual_distance_m(element.sigma_y0_m, lambda x: scheme.sigma_y_m(x, s))
     xz_m = virtual_distance_m(element.sigma_z0_m, lambda x: scheme.sigma_z_m(x, s))
     return xy_m, xz_m
 
 
-def release_wind_and_height(element: ReleaseElement, speed_ref_m_s: float,
-                            anemometer_height_m: float, exponent: float, s: int,
-                            settings: DispersionSettings) -> tuple[float, float]:
+def release_wind_and_height(
+    element: ReleaseElement,
+    speed_ref_m_s: float,
+    anemometer_height_m: float,
+    exponent: float,
+    s: int,
+    settings: DispersionSettings,
+) -> tuple[float, float]:
     """Wind speed at release height [m s-1] and effective release height [m].
 
     The wind is taken at the outlet's own height (plume.wind_speed_at_height_m_s, with the
@@ -216,18 +246,26 @@ def release_wind_and_height(element: ReleaseElement, speed_ref_m_s: float,
     element has it, and momentum rise is added where the element is allowed rise
     ([EPA1995] Sect. 1.1.2-1.1.4: rise from the downwash-corrected height).
     """
-    u = float(wind_speed_at_height_m_s(speed_ref_m_s, anemometer_height_m,
-                                       element.release_height_m, exponent,
-                                       settings.wind_below_anemometer,
-                                       settings.wind_profile_min_height_m,
-                                       settings.min_wind_speed_m_s))
+    u = float(
+        wind_speed_at_height_m_s(
+            speed_ref_m_s,
+            anemometer_height_m,
+            element.release_height_m,
+            exponent,
+            settings.wind_below_anemometer,
+            settings.wind_profile_min_height_m,
+            settings.min_wind_speed_m_s,
+        )
+    )
     height_m = element.release_height_m
     if element.diameter_m > 0 and element.stack_tip_downwash:
-        height_m = float(stack_tip_downwash_height_m(height_m, element.diameter_m,
-                                                     element.exit_velocity_m_s, u))
+        height_m = float(
+            stack_tip_downwash_height_m(height_m, element.diameter_m, element.exit_velocity_m_s, u)
+        )
     if element.plume_rise and element.exit_velocity_m_s > 0 and element.diameter_m > 0:
-        height_m += float(momentum_plume_rise_m(element.diameter_m, element.exit_velocity_m_s,
-                                                u, s))
+        height_m += float(
+            momentum_plume_rise_m(element.diameter_m, element.exit_velocity_m_s, u, s)
+        )
     return u, height_m
 
 
@@ -250,11 +288,20 @@ class DepletionTables:
         key = round(height_m, 6)
         if key not in self._tables:
             self._tables[key] = depletion_integral_table(
-                self._sigma_z_of, height_m, self._settings.mixing_height_m,
-                self._max_distance_m, self._settings.depletion_table_points)
+                self._sigma_z_of,
+                height_m,
+                self._settings.mixing_height_m,
+                self._max_distance_m,
+                self._settings.depletion_table_points,
+            )
         _, integral = self._tables[key]
-        i0, weight = position if position is not None else table_position(
-            distance_m, self._max_distance_m, self._settings.depletion_table_points)
+        i0, weight = (
+            position
+            if position is not None
+            else table_position(
+                distance_m, self._max_distance_m, self._settings.depletion_table_points
+            )
+        )
         return integral[i0] + weight * (integral[i0 + 1] - integral[i0])
 
     def fraction(self, height_m: float, wind_speed_m_s: float, distance_m) -> np.ndarray:
@@ -262,8 +309,9 @@ class DepletionTables:
         integral = self.integral(height_m, distance_m)
         if integral is None:
             return np.ones_like(np.asarray(distance_m, dtype=float))
-        return source_depletion_fraction(self._settings.depletion_velocity_m_s, wind_speed_m_s,
-                                         integral)
+        return source_depletion_fraction(
+            self._settings.depletion_velocity_m_s, wind_speed_m_s, integral
+        )
 
 
 @dataclass(frozen=True)
@@ -330,9 +378,13 @@ def _exp_of_log_lerp(log_below, log_above, weight) -> np.ndarray:
 _LOG_ZERO = -1e300
 
 
-def radial_profiles(element: ReleaseElement, weather: WeatherClasses,
-                    settings: DispersionSettings, min_distance_m: float,
-                    max_distance_m: float) -> RadialProfiles:
+def radial_profiles(
+    element: ReleaseElement,
+    weather: WeatherClasses,
+    settings: DispersionSettings,
+    min_distance_m: float,
+    max_distance_m: float,
+) -> RadialProfiles:
     """Centre-line annual means of one element between two distances (per unit emission).
 
     A_k(x) = sum over speed j and stability s of f[k, j, s] x the sector-averaged plume of class
@@ -371,8 +423,13 @@ def radial_profiles(element: ReleaseElement, weather: WeatherClasses,
         for j, speed_ref in enumerate(weather.speeds_m_s):
             if freq[:, j, s].any():
                 u, height_m = release_wind_and_height(
-                    element, speed_ref, weather.anemometer_height_m,
-                    settings.wind_exponents[s], s, settings)
+                    element,
+                    speed_ref,
+                    weather.anemometer_height_m,
+                    settings.wind_exponents[s],
+                    s,
+                    settings,
+                )
                 by_height.setdefault(height_m, []).append((j, u))
         for height_m, winds in by_height.items():
             density_per_m = ground_vertical_density_per_m(sz, height_m, settings.mixing_height_m)
@@ -413,9 +470,13 @@ def sector_position(dx_m, dy_m, weather: WeatherClasses):
     return k0, pos
 
 
-def element_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m, element: ReleaseElement,
-                                       weather: WeatherClasses,
-                                       settings: DispersionSettings) -> np.ndarray:
+def element_concentration_g_m3_per_g_s(
+    receptor_x_m,
+    receptor_y_m,
+    element: ReleaseElement,
+    weather: WeatherClasses,
+    settings: DispersionSettings,
+) -> np.ndarray:
     """Annual mean ground-level concentration per unit emission of one element [g m-3 per g s-1].
 
     The element's centre-line profiles (:func:`radial_profiles`) are interpolated to each
@@ -468,8 +529,9 @@ def receptor_range_m(rx, ry, element: ReleaseElement) -> tuple[float, float]:
     return nearest, float(np.sqrt(squared.max())) + element.min_distance_m
 
 
-def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
-                   profiles: RadialProfiles) -> np.ndarray:
+def _element_chunk(
+    rx, ry, element: ReleaseElement, weather: WeatherClasses, profiles: RadialProfiles
+) -> np.ndarray:
     dx, dy = rx - element.x_m, ry - element.y_m
     k0, w1 = sector_position(dx, dy, weather)
     distance_m = np.hypot(dx, dy)
@@ -486,9 +548,13 @@ def _element_chunk(rx, ry, element: ReleaseElement, weather: WeatherClasses,
     return out
 
 
-def source_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m,
-                                      elements: list[ReleaseElement], weather: WeatherClasses,
-                                      settings: DispersionSettings) -> np.ndarray:
+def source_concentration_g_m3_per_g_s(
+    receptor_x_m,
+    receptor_y_m,
+    elements: list[ReleaseElement],
+    weather: WeatherClasses,
+    settings: DispersionSettings,
+) -> np.ndarray:
     """Annual mean concentration per unit emission of a source made of elements [g m-3 per g s-1].
 
     The elements' shares are applied, so the result is for 1 g s-1 emitted by the whole source.
@@ -496,5 +562,6 @@ def source_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m,
     total = np.zeros(np.shape(receptor_x_m), dtype=float)
     for element in elements:
         total += element.share_fraction * element_concentration_g_m3_per_g_s(
-            receptor_x_m, receptor_y_m, element, weather, settings)
+            receptor_x_m, receptor_y_m, element, weather, settings
+        )
     return total

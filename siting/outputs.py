@@ -19,7 +19,7 @@ import shutil
 import time
 from collections.abc import Iterator
 from contextlib import contextmanager
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import numpy as np
@@ -29,32 +29,68 @@ from siting.errors import OutputExistsError
 from siting.grids import write_geotiff
 
 SITE_COLUMNS = [
-    "site_id", "name", "designation", "tier", "habitat", "habitat_name", "area_ha",
-    "land_cover", "deposition_velocity_m_s", "distance_m",
-    "critical_level_ug_m3", "critical_level_basis", "critical_level_source",
-    "critical_load_review", "critical_load_min_kg_n_ha_yr", "critical_load_max_kg_n_ha_yr",
-    "critical_load_used_kg_n_ha_yr", "critical_load_source",
-    "threshold_percent", "threshold_source", "assessed",
-    "pc_conc_max_ug_m3", "pc_conc_mean_ug_m3", "pc_dep_max_kg_n_ha_yr", "pc_dep_mean_kg_n_ha_yr",
-    "pc_dep_max_mol_n_ha_yr", "pc_dep_max_keq_ha_yr", "pc_pct_level", "pc_pct_load",
-    "net_conc_max_ug_m3", "net_dep_max_kg_n_ha_yr", "net_pct_level", "net_pct_load",
-    "incomb_conc_max_ug_m3", "incomb_dep_max_kg_n_ha_yr", "incomb_pct_level", "incomb_pct_load",
-    "background_conc_ug_m3", "background_dep_kg_n_ha_yr", "pec_conc_ug_m3",
-    "pec_dep_kg_n_ha_yr", "pec_pct_level", "pec_pct_load", "verdict",
+    "site_id",
+    "name",
+    "designation",
+    "tier",
+    "habitat",
+    "habitat_name",
+    "area_ha",
+    "land_cover",
+    "deposition_velocity_m_s",
+    "distance_m",
+    "critical_level_ug_m3",
+    "critical_level_basis",
+    "critical_level_source",
+    "critical_load_review",
+    "critical_load_min_kg_n_ha_yr",
+    "critical_load_max_kg_n_ha_yr",
+    "critical_load_used_kg_n_ha_yr",
+    "critical_load_source",
+    "threshold_percent",
+    "threshold_source",
+    "assessed",
+    "pc_conc_max_ug_m3",
+    "pc_conc_mean_ug_m3",
+    "pc_dep_max_kg_n_ha_yr",
+    "pc_dep_mean_kg_n_ha_yr",
+    "pc_dep_max_mol_n_ha_yr",
+    "pc_dep_max_keq_ha_yr",
+    "pc_pct_level",
+    "pc_pct_load",
+    "net_conc_max_ug_m3",
+    "net_dep_max_kg_n_ha_yr",
+    "net_pct_level",
+    "net_pct_load",
+    "incomb_conc_max_ug_m3",
+    "incomb_dep_max_kg_n_ha_yr",
+    "incomb_pct_level",
+    "incomb_pct_load",
+    "background_conc_ug_m3",
+    "background_dep_kg_n_ha_yr",
+    "pec_conc_ug_m3",
+    "pec_dep_kg_n_ha_yr",
+    "pec_pct_level",
+    "pec_pct_load",
+    "verdict",
 ]
 
 #: Written beside the depleted figures when plume depletion is switched on: what depletion took off.
 UNDEPLETED_COLUMNS = [
-    "pc_conc_max_undepleted_ug_m3", "pc_dep_max_undepleted_kg_n_ha_yr",
-    "pc_pct_level_undepleted", "pc_pct_load_undepleted",
+    "pc_conc_max_undepleted_ug_m3",
+    "pc_dep_max_undepleted_kg_n_ha_yr",
+    "pc_pct_level_undepleted",
+    "pc_pct_load_undepleted",
 ]
 
 #: A text cell starting with one of these is taken for a formula by spreadsheet programs.
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 #: Said once in the report (method notes) and the README.
-CSV_TEXT_NOTE = ("In the CSV tables a text cell that would begin with = + - @ (a site name, say) "
-                 "is written with a leading apostrophe, so a spreadsheet shows it as text and "
-                 "never evaluates it as a formula.")
+CSV_TEXT_NOTE = (
+    "In the CSV tables a text cell that would begin with = + - @ (a site name, say) "
+    "is written with a leading apostrophe, so a spreadsheet shows it as text and "
+    "never evaluates it as a formula."
+)
 
 
 METHOD_NOTES = [
@@ -106,8 +142,11 @@ def sha256_of(path: Path) -> str:
 #: (or the run record of an older version) may be replaced with --overwrite.
 OUTPUT_MARKER = ".siting-output"
 #: Run records by which folders of versions before the marker are recognised.
-_LEGACY_RECORDS = (("run.json", "inputs"), ("findings.json", "findings"),
-                   ("summary.json", "hours_used"))
+_LEGACY_RECORDS = (
+    ("run.json", "inputs"),
+    ("findings.json", "findings"),
+    ("summary.json", "hours_used"),
+)
 
 
 def is_siting_output(folder: Path) -> bool:
@@ -150,8 +189,10 @@ def _lock_owner(out_dir: Path):
 
 
 def _busy_message(out_dir: Path, pid) -> str:
-    return (f"{out_dir}: another siting run (process {pid}) is writing this folder now; wait "
-            "for it to finish or choose another --out")
+    return (
+        f"{out_dir}: another siting run (process {pid}) is writing this folder now; wait "
+        "for it to finish or choose another --out"
+    )
 
 
 @contextmanager
@@ -188,9 +229,11 @@ def _check_space(folder: Path, need_bytes: int, out_dir: Path) -> None:
         return  # unknown: the write itself will tell
     need = int(need_bytes) + MIN_FREE_BYTES
     if free < need:
-        raise OutputExistsError(f"{out_dir}: not enough free space in {folder} (about "
-                                f"{need / 1e6:,.0f} MB needed, {free / 1e6:,.0f} MB free); "
-                                "free some space or choose another --out")
+        raise OutputExistsError(
+            f"{out_dir}: not enough free space in {folder} (about "
+            f"{need / 1e6:,.0f} MB needed, {free / 1e6:,.0f} MB free); "
+            "free some space or choose another --out"
+        )
 
 
 def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int = 0) -> None:
@@ -205,9 +248,11 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int 
     out_dir = Path(out_dir).resolve()
     size = len(out_dir.name.encode("utf-8"))
     if size > MAX_NAME_BYTES:
-        raise OutputExistsError(f"{out_dir.name[:40]}...: output folder name is too long "
-                                f"({size} bytes; at most {MAX_NAME_BYTES}, which leaves room for "
-                                "the staging folder's name beside it); choose a shorter --out")
+        raise OutputExistsError(
+            f"{out_dir.name[:40]}...: output folder name is too long "
+            f"({size} bytes; at most {MAX_NAME_BYTES}, which leaves room for "
+            "the staging folder's name beside it); choose a shorter --out"
+        )
     recover_interrupted(out_dir)
     pid = _lock_owner(out_dir)
     if pid is not None:
@@ -219,32 +264,40 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int 
         if not parent.is_dir():
             raise OutputExistsError(f"{out_dir}: {parent} is a file, not a folder")
         if not os.access(parent, os.W_OK | os.X_OK):
-            raise OutputExistsError(f"{out_dir}: cannot write in {parent} (no permission); "
-                                    "choose another --out")
+            raise OutputExistsError(
+                f"{out_dir}: cannot write in {parent} (no permission); choose another --out"
+            )
         _check_space(parent, need_bytes, out_dir)
         return
     if not os.access(out_dir.parent, os.W_OK | os.X_OK):
-        raise OutputExistsError(f"{out_dir}: cannot write in {out_dir.parent} (no permission); "
-                                "choose another --out")
+        raise OutputExistsError(
+            f"{out_dir}: cannot write in {out_dir.parent} (no permission); choose another --out"
+        )
     if not overwrite:
         raise OutputExistsError(f"{out_dir}: output folder exists; pass --overwrite to replace it")
     if not out_dir.is_dir():
         raise OutputExistsError(f"{out_dir}: exists and is not a folder")
     cwd = Path.cwd().resolve()
     if out_dir == cwd or out_dir in cwd.parents:
-        raise OutputExistsError(f"{out_dir}: is the current folder or one of its parents; "
-                                "--overwrite never replaces it: choose a new --out folder")
+        raise OutputExistsError(
+            f"{out_dir}: is the current folder or one of its parents; "
+            "--overwrite never replaces it: choose a new --out folder"
+        )
     for path in inputs:
         if path is None:
             continue
         resolved = Path(path).resolve()
         if resolved == out_dir or out_dir in resolved.parents:
-            raise OutputExistsError(f"{out_dir}: holds an input of this run ({resolved.name}); "
-                                    "--overwrite never replaces it: choose another --out folder")
+            raise OutputExistsError(
+                f"{out_dir}: holds an input of this run ({resolved.name}); "
+                "--overwrite never replaces it: choose another --out folder"
+            )
     if not is_siting_output(out_dir):
-        raise OutputExistsError(f"{out_dir}: is not a folder siting wrote (no {OUTPUT_MARKER} "
-                                "or run record in it); --overwrite replaces only siting's own "
-                                "output folders: choose another --out folder")
+        raise OutputExistsError(
+            f"{out_dir}: is not a folder siting wrote (no {OUTPUT_MARKER} "
+            "or run record in it); --overwrite replaces only siting's own "
+            "output folders: choose another --out folder"
+        )
     _check_space(out_dir.parent, need_bytes, out_dir)  # the old result stays until the swap
 
 
@@ -340,8 +393,10 @@ def input_paths(scenario, holding: bool = False) -> list[Path]:
 def _layer_files(key: str, path: Path) -> dict[str, Path]:
     """A vector layer's files: a shapefile is several (same stem), anything else one."""
     if path.suffix.lower() == ".shp":
-        return {f"{key}{sidecar.suffix}": sidecar
-                for sidecar in sorted(path.parent.glob(path.stem + ".*"))}
+        return {
+            f"{key}{sidecar.suffix}": sidecar
+            for sidecar in sorted(path.parent.glob(path.stem + ".*"))
+        }
     return {key: path}
 
 
@@ -376,10 +431,15 @@ def run_record_base(run, run_time: str, holding: bool = False) -> dict:
 
     from siting import __version__
 
-    inputs = {key: {"path": str(path), "sha256": sha256_of(path)}
-              for key, path in _input_files(run.scenario, holding).items() if path is not None}
-    tables = {name: {"path": str(run.tables.folder / name), "sha256": digest}
-              for name, digest in run.tables.files_sha256.items()}
+    inputs = {
+        key: {"path": str(path), "sha256": sha256_of(path)}
+        for key, path in _input_files(run.scenario, holding).items()
+        if path is not None
+    }
+    tables = {
+        name: {"path": str(run.tables.folder / name), "sha256": digest}
+        for name, digest in run.tables.files_sha256.items()
+    }
     return {
         "tool": "siting",
         "version": __version__,
@@ -390,10 +450,15 @@ def run_record_base(run, run_time: str, holding: bool = False) -> dict:
         "parameters": json.loads(run.scenario.model_dump_json(by_alias=True)),
         "weather_summary": run.weather_summary,
         "cautions": list(run.cautions),
-        "versions": {"python": platform.python_version(), "numpy": np.__version__,
-                     "pandas": pd.__version__, "geopandas": geopandas.__version__,
-                     "shapely": shapely.__version__, "rasterio": rasterio.__version__,
-                     "folium": folium.__version__},
+        "versions": {
+            "python": platform.python_version(),
+            "numpy": np.__version__,
+            "pandas": pd.__version__,
+            "geopandas": geopandas.__version__,
+            "shapely": shapely.__version__,
+            "rasterio": rasterio.__version__,
+            "folium": folium.__version__,
+        },
     }
 
 
@@ -440,13 +505,20 @@ def package_inputs(run, folder: Path) -> dict:
 def run_record(result, run_time: str) -> dict:
     """What a screening run's run.json holds: the shared part plus grid, timings, warnings."""
     record = run_record_base(result, run_time)
-    record.update({
-        "grid": {"west_m": result.grid.west_m, "north_m": result.grid.north_m,
-                 "cell_m": result.grid.cell_m, "n_cols": result.grid.n_cols,
-                 "n_rows": result.grid.n_rows, "crs": result.grid.crs},
-        "timings_s": result.timings_s,
-        "warnings": result.warnings,
-    })
+    record.update(
+        {
+            "grid": {
+                "west_m": result.grid.west_m,
+                "north_m": result.grid.north_m,
+                "cell_m": result.grid.cell_m,
+                "n_cols": result.grid.n_cols,
+                "n_rows": result.grid.n_rows,
+                "crs": result.grid.crs,
+            },
+            "timings_s": result.timings_s,
+            "warnings": result.warnings,
+        }
+    )
     return record
 
 
@@ -470,8 +542,12 @@ def spreadsheet_safe(value):
 
 def spreadsheet_text(value):
     """The inverse of :func:`spreadsheet_safe`, for reading our own CSV tables back."""
-    if (isinstance(value, str) and value.startswith("'")
-            and value[1:].startswith(FORMULA_STARTS) and not _is_number(value[1:])):
+    if (
+        isinstance(value, str)
+        and value.startswith("'")
+        and value[1:].startswith(FORMULA_STARTS)
+        and not _is_number(value[1:])
+    ):
         return value[1:]
     return value
 
@@ -490,10 +566,19 @@ def write_csv(frame: pd.DataFrame, path: Path) -> None:
 
 
 def _habitat_values(sites) -> pd.DataFrame:
-    cols = ["habitat", "habitat_name", "land_cover", "deposition_velocity_m_s",
-            "deposition_velocity_source", "critical_load_min_kg_n_ha_yr",
-            "critical_load_max_kg_n_ha_yr", "critical_load_used_kg_n_ha_yr",
-            "critical_load_source", "critical_level_ug_m3", "critical_level_source"]
+    cols = [
+        "habitat",
+        "habitat_name",
+        "land_cover",
+        "deposition_velocity_m_s",
+        "deposition_velocity_source",
+        "critical_load_min_kg_n_ha_yr",
+        "critical_load_max_kg_n_ha_yr",
+        "critical_load_used_kg_n_ha_yr",
+        "critical_load_source",
+        "critical_level_ug_m3",
+        "critical_level_source",
+    ]
     return pd.DataFrame(sites[cols]).drop_duplicates().reset_index(drop=True)
 
 
@@ -529,16 +614,27 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     from siting.webmap import write_screen_map
 
     grid = result.grid
-    write_geotiff(folder / "concentration.tif", grid, result.fields["pc_conc_ug_m3"],
-                  "annual mean NH3 concentration, process contribution (screening estimate)",
-                  "ug/m3")
-    write_geotiff(folder / "deposition.tif", grid, result.fields["pc_dep_kg_n_ha_yr"],
-                  "dry deposition of N from NH3, process contribution (screening estimate)",
-                  "kg N/ha/yr")
-    write_geotiff(folder / "deposition_in_combination.tif", grid,
-                  result.fields["incomb_dep_kg_n_ha_yr"],
-                  "dry deposition of N from NH3, process contribution + other sources",
-                  "kg N/ha/yr")
+    write_geotiff(
+        folder / "concentration.tif",
+        grid,
+        result.fields["pc_conc_ug_m3"],
+        "annual mean NH3 concentration, process contribution (screening estimate)",
+        "ug/m3",
+    )
+    write_geotiff(
+        folder / "deposition.tif",
+        grid,
+        result.fields["pc_dep_kg_n_ha_yr"],
+        "dry deposition of N from NH3, process contribution (screening estimate)",
+        "kg N/ha/yr",
+    )
+    write_geotiff(
+        folder / "deposition_in_combination.tif",
+        grid,
+        result.fields["incomb_dep_kg_n_ha_yr"],
+        "dry deposition of N from NH3, process contribution + other sources",
+        "kg N/ha/yr",
+    )
     sites = result.sites
     columns = list(SITE_COLUMNS)
     at = columns.index("pc_pct_load") + 1  # beside the depleted figures
@@ -546,7 +642,8 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     table = pd.DataFrame(sites[columns])
     write_csv(table, folder / "sites.csv")
     gpd.GeoDataFrame(table, geometry=sites.geometry, crs=sites.crs).to_file(
-        folder / "sites.gpkg", layer="sites", driver="GPKG")
+        folder / "sites.gpkg", layer="sites", driver="GPKG"
+    )
     write_csv(result.receptors, folder / "receptors.csv")
     write_csv(result.sources, folder / "sources.csv")
     if result.sensitivity is not None:
@@ -554,40 +651,71 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     record = run_record(result, run_time)
     record["package"] = package_inputs(result, folder)
 
-    sources_gdf = gpd.GeoDataFrame(result.sources.copy(), geometry=result.source_geometries,
-                                   crs=result.scenario.crs)
+    sources_gdf = gpd.GeoDataFrame(
+        result.sources.copy(), geometry=result.source_geometries, crs=result.scenario.crs
+    )
     contours = _contour_levels(sites)
-    write_screen_map(folder / "map.html", title=result.scenario.title, crs=result.scenario.crs,
-                     west_m=grid.west_m, north_m=grid.north_m, cell_m=grid.cell_m,
-                     deposition_kg_n_ha_yr=result.fields["pc_dep_kg_n_ha_yr"], sites=sites,
-                     sources=sources_gdf, contours=contours, cautions=result.cautions,
-                     version=__version__, run_time=run_time)
+    write_screen_map(
+        folder / "map.html",
+        title=result.scenario.title,
+        crs=result.scenario.crs,
+        west_m=grid.west_m,
+        north_m=grid.north_m,
+        cell_m=grid.cell_m,
+        deposition_kg_n_ha_yr=result.fields["pc_dep_kg_n_ha_yr"],
+        sites=sites,
+        sources=sources_gdf,
+        contours=contours,
+        cautions=result.cautions,
+        version=__version__,
+        run_time=run_time,
+    )
     figures = {
-        "Deposition (process contribution) with habitat sites and sources":
-            deposition_figure(result.fields["pc_dep_kg_n_ha_yr"], west_m=grid.west_m,
-                              north_m=grid.north_m, cell_m=grid.cell_m, sites=sites,
-                              sources=sources_gdf, contours=contours,
-                              crs_label=result.scenario.crs),
-        "Process contribution at each site against distance from the installation":
-            pc_vs_distance_figure(pd.DataFrame(sites.drop(columns="geometry"))),
+        "Deposition (process contribution) with habitat sites and sources": deposition_figure(
+            result.fields["pc_dep_kg_n_ha_yr"],
+            west_m=grid.west_m,
+            north_m=grid.north_m,
+            cell_m=grid.cell_m,
+            sites=sites,
+            sources=sources_gdf,
+            contours=contours,
+            crs_label=result.scenario.crs,
+        ),
+        "Process contribution at each site against distance from the installation": pc_vs_distance_figure(
+            pd.DataFrame(sites.drop(columns="geometry"))
+        ),
     }
     weather_figures = {}  # shown in the report's weather part, after the summary table
     if isinstance(result.weather, HourlyWeather):
-        weather_figures["Wind rose of the hourly record (direction the wind blows from)"] = \
+        weather_figures["Wind rose of the hourly record (direction the wind blows from)"] = (
             wind_rose_png(result.weather)
-        weather_figures["Stability class by wind speed (Turner's method or as given)"] = \
+        )
+        weather_figures["Stability class by wind speed (Turner's method or as given)"] = (
             stability_by_speed_png(result.weather)
+        )
     elif isinstance(result.weather, WeatherClasses):
-        weather_figures["Wind rose of the frequency table (direction the wind blows from)"] = \
+        weather_figures["Wind rose of the frequency table (direction the wind blows from)"] = (
             wind_rose_from_table_png(result.weather)
-    write_report(folder / "report.html", title=result.scenario.title, version=__version__,
-                 run_time=run_time, scenario_file=str(result.scenario.path),
-                 sites=table, sources=result.sources, weather_summary=result.weather_summary,
-                 habitat_values=_habitat_values(sites), warnings=result.warnings,
-                 cautions=result.cautions, method_notes=METHOD_NOTES, run_record=record,
-                 figures=figures, weather_figures=weather_figures,
-                 cautious_choices=cautious_choices(result),
-                 sensitivity_summary=result.sensitivity_summary)
+        )
+    write_report(
+        folder / "report.html",
+        title=result.scenario.title,
+        version=__version__,
+        run_time=run_time,
+        scenario_file=str(result.scenario.path),
+        sites=table,
+        sources=result.sources,
+        weather_summary=result.weather_summary,
+        habitat_values=_habitat_values(sites),
+        warnings=result.warnings,
+        cautions=result.cautions,
+        method_notes=METHOD_NOTES,
+        run_record=record,
+        figures=figures,
+        weather_figures=weather_figures,
+        cautious_choices=cautious_choices(result),
+        sensitivity_summary=result.sensitivity_summary,
+    )
     # last: every output the run wrote, hashed, so `siting verify` can tell an edited,
     # truncated or deleted one (run.json itself, the marker and the packed inputs aside)
     record["outputs"] = output_hashes(folder)
@@ -600,8 +728,11 @@ def output_hashes(folder: Path) -> dict[str, dict]:
     hashes = {}
     for path in sorted(Path(folder).rglob("*")):
         relative = path.relative_to(folder).as_posix()
-        if (not path.is_file() or relative in ("run.json", OUTPUT_MARKER)
-                or relative.startswith("inputs/")):
+        if (
+            not path.is_file()
+            or relative in ("run.json", OUTPUT_MARKER)
+            or relative.startswith("inputs/")
+        ):
             continue
         hashes[relative] = {"sha256": sha256_of(path), "bytes": path.stat().st_size}
     return hashes
@@ -614,56 +745,90 @@ def cautious_choices(result) -> list[tuple[str, str, str]]:
     default = " (cautious default)"
     choices = []
     wind = scenario.weather.wind_below_anemometer
-    choices.append((
-        "Wind at a release height below the anemometer",
-        ("power law taken down to the release height (lowest "
-         f"{scenario.weather.wind_profile_min_height_m:g} m){default}") if wind == "power_law"
-        else "measured speed used unchanged",
-        'wind_below_anemometer = "unchanged": the measured speed (lower figures)'
-        if wind == "power_law" else 'wind_below_anemometer = "power_law" (higher figures)'))
+    choices.append(
+        (
+            "Wind at a release height below the anemometer",
+            (
+                "power law taken down to the release height (lowest "
+                f"{scenario.weather.wind_profile_min_height_m:g} m){default}"
+            )
+            if wind == "power_law"
+            else "measured speed used unchanged",
+            'wind_below_anemometer = "unchanged": the measured speed (lower figures)'
+            if wind == "power_law"
+            else 'wind_below_anemometer = "power_law" (higher figures)',
+        )
+    )
     depleted = scenario.deposition.plume_depletion
-    choices.append((
-        "Plume depletion by deposition on the way",
-        "on: figures without depletion are shown beside" if depleted else f"off{default}",
-        "off (higher figures)" if depleted else "plume_depletion = true (lower figures)"))
+    choices.append(
+        (
+            "Plume depletion by deposition on the way",
+            "on: figures without depletion are shown beside" if depleted else f"off{default}",
+            "off (higher figures)" if depleted else "plume_depletion = true (lower figures)",
+        )
+    )
     for row in result.sources.itertuples():
         if getattr(row, "plume_rise", "") in ("yes", "no"):
-            choices.append((f'Plume rise, source "{row.source_id}"', str(row.plume_rise_basis),
-                            "rise only for an outlet at or above the good-engineering-practice "
-                            "height of its building (building_height_m, building_width_m)"))
+            choices.append(
+                (
+                    f'Plume rise, source "{row.source_id}"',
+                    str(row.plume_rise_basis),
+                    "rise only for an outlet at or above the good-engineering-practice "
+                    "height of its building (building_height_m, building_width_m)",
+                )
+            )
     levels = result.sites["critical_level_ug_m3"]
     n1 = int((levels == 1.0).sum())
-    choices.append((
-        "Critical level of ammonia",
-        f"1 µg/m³ at {n1} of {len(levels)} site(s) (lichens and bryophytes not shown absent)"
-        + (default if n1 == len(levels) else "; 3 µg/m³ where stated absent"),
-        "3 µg/m³ where the habitat layer (lichens_bryophytes_field) or the scenario "
-        "(lichens_bryophytes_absent) states lichens and bryophytes absent"))
+    choices.append(
+        (
+            "Critical level of ammonia",
+            f"1 µg/m³ at {n1} of {len(levels)} site(s) (lichens and bryophytes not shown absent)"
+            + (default if n1 == len(levels) else "; 3 µg/m³ where stated absent"),
+            "3 µg/m³ where the habitat layer (lichens_bryophytes_field) or the scenario "
+            "(lichens_bryophytes_absent) states lichens and bryophytes absent",
+        )
+    )
     review = scenario.assessment.critical_load_review
     end = scenario.assessment.critical_load_end
-    choices.append((
-        "Critical loads",
-        f"{review} review, {end} end of each range"
-        + (default if (review, end) == ("2022", "lower") else ""),
-        "critical_load_review = \"2011\"; critical_load_end = \"middle\" or \"upper\""))
+    choices.append(
+        (
+            "Critical loads",
+            f"{review} review, {end} end of each range"
+            + (default if (review, end) == ("2022", "lower") else ""),
+            'critical_load_review = "2011"; critical_load_end = "middle" or "upper"',
+        )
+    )
     for row in result.sources.itertuples():
         if row.abatement:
-            choices.append((f'Abatement, source "{row.source_id}"',
-                            f"{row.reduction_percent:g} %: {row.reduction_basis}",
-                            "the lower end of the published range unless a higher figure is "
-                            "stated with its basis (reduction_percent, reduction_basis)"))
+            choices.append(
+                (
+                    f'Abatement, source "{row.source_id}"',
+                    f"{row.reduction_percent:g} %: {row.reduction_basis}",
+                    "the lower end of the published range unless a higher figure is "
+                    "stated with its basis (reduction_percent, reduction_basis)",
+                )
+            )
     shares = result.weather_summary.get("scrubber_treated_share") or {}
     for sid, share in shares.items():
-        choices.append((f'Partial scrubbing, source "{sid}"',
-                        f"treated share {100 * share['treated_share']:.1f} % of the year's "
-                        f"ammonia (hours weighted by {share['hours_weighted_by']}); "
-                        f"{100 * share['treated_share_of_hours']:.1f} % of its hours",
-                        "[seasonal] temperature_dependent_emission = false: hours count alike "
-                        "(a larger treated share, lower figures)"))
+        choices.append(
+            (
+                f'Partial scrubbing, source "{sid}"',
+                f"treated share {100 * share['treated_share']:.1f} % of the year's "
+                f"ammonia (hours weighted by {share['hours_weighted_by']}); "
+                f"{100 * share['treated_share_of_hours']:.1f} % of its hours",
+                "[seasonal] temperature_dependent_emission = false: hours count alike "
+                "(a larger treated share, lower figures)",
+            )
+        )
     rule = result.weather_summary.get("direction_rule")
     if rule:
-        choices.append(("Hourly wind directions", str(rule),
-                        "weather.direction_step_deg = 0: each hour on its exact direction"))
+        choices.append(
+            (
+                "Hourly wind directions",
+                str(rule),
+                "weather.direction_step_deg = 0: each hour on its exact direction",
+            )
+        )
     return choices
 
 
@@ -674,8 +839,13 @@ def estimate_screen_bytes(scenario) -> int:
     sites.gpkg, the map and the report)."""
     from siting.grids import grid_around
 
-    grid = grid_around([s.x for s in scenario.sources], [s.y for s in scenario.sources],
-                       scenario.grid.margin_m, scenario.grid.spacing_m, scenario.crs)
+    grid = grid_around(
+        [s.x for s in scenario.sources],
+        [s.y for s in scenario.sources],
+        scenario.grid.margin_m,
+        scenario.grid.spacing_m,
+        scenario.crs,
+    )
     inputs = 0
     for path in input_paths(scenario):
         try:
@@ -688,9 +858,13 @@ def estimate_screen_bytes(scenario) -> int:
 def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
     """Write every output of a screening run atomically into ``out_dir``; returns it."""
     out_dir = Path(out_dir).resolve()
-    check_output_dir(out_dir, overwrite, input_paths(result.scenario),
-                     need_bytes=estimate_screen_bytes(result.scenario))
-    run_time = datetime.now(timezone.utc).replace(microsecond=0).isoformat()
+    check_output_dir(
+        out_dir,
+        overwrite,
+        input_paths(result.scenario),
+        need_bytes=estimate_screen_bytes(result.scenario),
+    )
+    run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
     with staged_folder(out_dir, overwrite) as staging:
         _write_all(result, staging, run_time)
     return out_dir
@@ -723,9 +897,11 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
     -----
     When the block ends normally the staging folder is renamed to ``out_dir``. An existing
     ``out_dir`` is first renamed aside to this run's own ``.<name>.<random>.old`` and deleted
-    only once the new folder is in place (it is put back if that rename fails). When the block raises anything (also
-    KeyboardInterrupt), the staging folder is deleted, ``out_dir`` is left as it was and the
-    exception propagates. Both renames stay within one folder, so each is atomic on POSIX.
+    only once the new folder is in place (it is put back if that rename fails). When the block
+    raises anything (also KeyboardInterrupt), the staging folder is deleted, ``out_dir`` is left
+    as it was and the exception propagates; an interrupt after the new folder is in place is
+    raised as InterruptedAfterWriting (the result is whole). Both renames stay within one
+    folder, so each is atomic on POSIX. The whole swap runs under the folder's lock.
     """
     out_dir = Path(out_dir).resolve()
     check_output_dir(out_dir, overwrite)
@@ -763,10 +939,18 @@ def _staged(out_dir: Path, overwrite: bool) -> Iterator[Path]:
         staging.chmod(0o755)  # whatever the umask: the result is an ordinary folder
         from siting import __version__
 
-        (staging / OUTPUT_MARKER).write_text(json.dumps({
-            "written_by": "siting", "version": __version__, "pid": os.getpid(),
-            "note": "an output folder of siting: --overwrite may replace it"}) + "\n",
-            encoding="utf-8")
+        (staging / OUTPUT_MARKER).write_text(
+            json.dumps(
+                {
+                    "written_by": "siting",
+                    "version": __version__,
+                    "pid": os.getpid(),
+                    "note": "an output folder of siting: --overwrite may replace it",
+                }
+            )
+            + "\n",
+            encoding="utf-8",
+        )
         yield staging
         check_output_dir(out_dir, overwrite)  # it may have appeared while the block ran
         if out_dir.exists():
@@ -786,8 +970,10 @@ def _staged(out_dir: Path, overwrite: bool) -> Iterator[Path]:
                 staging.rename(out_dir)
             except OSError:
                 if out_dir.exists() and staging.exists():  # made by someone else meanwhile
-                    raise OutputExistsError(f"{out_dir}: appeared while this run was writing; "
-                                            "nothing of this run was kept") from None
+                    raise OutputExistsError(
+                        f"{out_dir}: appeared while this run was writing; "
+                        "nothing of this run was kept"
+                    ) from None
                 raise
     except BaseException as exc:
         committed = staging is not None and not staging.exists() and out_dir.is_dir()

@@ -74,8 +74,10 @@ def _allowed_area(scenario: Scenario, house_id: str, prep: Prepared, warnings: l
     cfg = scenario.holding
     holding, gdf = _read_polygons(cfg.file, cfg.layer, scenario.crs, "holding.file")
     if not set(gdf.geometry.geom_type) <= {"Polygon", "MultiPolygon"}:
-        raise InputError(f"holding.file {cfg.file.name}: the holding boundary must be polygons, "
-                         f"got {', '.join(sorted(set(gdf.geometry.geom_type)))}")
+        raise InputError(
+            f"holding.file {cfg.file.name}: the holding boundary must be polygons, "
+            f"got {', '.join(sorted(set(gdf.geometry.geom_type)))}"
+        )
     if holding.area <= 0:
         raise InputError(f"holding.file {cfg.file.name}: the boundary encloses no area")
     allowed = holding.buffer(-cfg.boundary_buffer_m) if cfg.boundary_buffer_m else holding
@@ -83,15 +85,22 @@ def _allowed_area(scenario: Scenario, house_id: str, prep: Prepared, warnings: l
         zone, _ = _read_polygons(ex.file, ex.layer, scenario.crs, f"holding.exclusion #{i}")
         allowed = allowed.difference(zone.buffer(ex.buffer_m) if ex.buffer_m else zone)
     if cfg.min_distance_to_existing_m > 0:
-        keep_off = [shape for src, (_, shape) in
-                    zip(scenario.sources, (_source_elements(s) for s in scenario.sources))
-                    if src.role == "existing" and src.id != house_id]
+        keep_off = [
+            shape
+            for src, (_, shape) in zip(
+                scenario.sources, (_source_elements(s) for s in scenario.sources)
+            )
+            if src.role == "existing" and src.id != house_id
+        ]
         if keep_off:
             allowed = allowed.difference(
-                shapely.union_all(keep_off).buffer(cfg.min_distance_to_existing_m))
+                shapely.union_all(keep_off).buffer(cfg.min_distance_to_existing_m)
+            )
     if allowed.is_empty or allowed.area <= 0:
-        raise InputError("holding: no allowed area left after the boundary buffer, exclusion "
-                         "zones and distance to existing houses; relax one of them")
+        raise InputError(
+            "holding: no allowed area left after the boundary buffer, exclusion "
+            "zones and distance to existing houses; relax one of them"
+        )
     return holding, allowed
 
 
@@ -106,8 +115,10 @@ def _candidates(allowed, house_shape, spacing_m: float, house_id: str):
     n_cols = max(1, int(math.ceil((maxx - west) / spacing_m)))
     n_rows = max(1, int(math.ceil((north - miny) / spacing_m)))
     if n_cols * n_rows > MAX_CANDIDATES:
-        raise InputError(f"holding.spacing_m = {spacing_m:g} gives {n_cols * n_rows:,} candidate "
-                         f"positions (limit {MAX_CANDIDATES:,}); use a coarser spacing")
+        raise InputError(
+            f"holding.spacing_m = {spacing_m:g} gives {n_cols * n_rows:,} candidate "
+            f"positions (limit {MAX_CANDIDATES:,}); use a coarser spacing"
+        )
     xs = west + (np.arange(n_cols) + 0.5) * spacing_m
     ys = north - (np.arange(n_rows) + 0.5) * spacing_m
     gx, gy = np.meshgrid(xs, ys)
@@ -116,30 +127,40 @@ def _candidates(allowed, house_shape, spacing_m: float, house_id: str):
     cx, cy = cx[inside], cy[inside]
     if house_shape.geom_type != "Point" and cx.size:
         centre = house_shape.centroid
-        shapes = [affinity.translate(house_shape, x - centre.x, y - centre.y)
-                  for x, y in zip(cx, cy)]
+        shapes = [
+            affinity.translate(house_shape, x - centre.x, y - centre.y) for x, y in zip(cx, cy)
+        ]
         fits = shapely.contains(allowed, np.array(shapes, dtype=object))
         cx, cy = cx[fits], cy[fits]
     if cx.size == 0:
-        raise InputError(f'source "{house_id}": the house does not fit anywhere in the allowed '
-                         "area at this spacing (check its width_m/length_m, the buffers and "
-                         "exclusion zones)")
+        raise InputError(
+            f'source "{house_id}": the house does not fit anywhere in the allowed '
+            "area at this spacing (check its width_m/length_m, the buffers and "
+            "exclusion zones)"
+        )
     grid = GridSpec(west, north, spacing_m, n_cols, n_rows, "")
     col = np.round((cx - west) / spacing_m - 0.5).astype(int)
     row = np.round((north - cy) / spacing_m - 0.5).astype(int)
     return cx, cy, grid, row, col
 
 
-def place(scenario: Scenario | str | Path, house_id: str, *, spacing_m: float | None = None,
-          in_combination: bool | None = None) -> PlaceResult:
+def place(
+    scenario: Scenario | str | Path,
+    house_id: str,
+    *,
+    spacing_m: float | None = None,
+    in_combination: bool | None = None,
+) -> PlaceResult:
     """Search the holding for positions of source ``house_id`` (its x/y are ignored)."""
 
     clock = {"start": time.perf_counter()}
     if not isinstance(scenario, Scenario):
         scenario = load_scenario(scenario)
     if scenario.holding is None:
-        raise InputError(f"{scenario.path.name if scenario.path else 'scenario'}: "
-                         "`siting place` needs a [holding] table with the boundary file")
+        raise InputError(
+            f"{scenario.path.name if scenario.path else 'scenario'}: "
+            "`siting place` needs a [holding] table with the boundary file"
+        )
     ids = [s.id for s in scenario.sources]
     if house_id not in ids:
         raise InputError(f'--house "{house_id}": no such source (sources: {", ".join(ids)})')
@@ -153,8 +174,7 @@ def place(scenario: Scenario | str | Path, house_id: str, *, spacing_m: float | 
     origin_house = house.model_copy(update={"x": 0.0, "y": 0.0})
     elements0, shape0 = _source_elements(origin_house)
     cx, cy, grid, row, col = _candidates(allowed, shape0, spacing_m, house_id)
-    grid = GridSpec(grid.west_m, grid.north_m, grid.cell_m, grid.n_cols, grid.n_rows,
-                    scenario.crs)
+    grid = GridSpec(grid.west_m, grid.north_m, grid.cell_m, grid.n_cols, grid.n_rows, scenario.crs)
 
     sites = prep.sites
     n_sites = len(sites)
@@ -162,13 +182,15 @@ def place(scenario: Scenario | str | Path, house_id: str, *, spacing_m: float | 
     clock["inputs"] = time.perf_counter()
 
     # the house's unit field as a kernel of offsets, wide enough for every candidate-site pair
-    corners = np.array([[cx.min(), cy.min()], [cx.min(), cy.max()], [cx.max(), cy.min()],
-                        [cx.max(), cy.max()]])
+    corners = np.array(
+        [[cx.min(), cy.min()], [cx.min(), cy.max()], [cx.max(), cy.min()], [cx.max(), cy.max()]]
+    )
     reach = np.hypot(px[:, None] - corners[None, :, 0], py[:, None] - corners[None, :, 1]).max()
     min_radius = min(e.min_distance_m for e in elements0)
     radius, bearing, ox, oy = PolarKernel.offsets(min_radius, reach * 1.02 + 10.0)
-    kernel = PolarKernel(radius, bearing,
-                         prep.unit_concentration_ug_m3(house_id, elements0, ox, oy))
+    kernel = PolarKernel(
+        radius, bearing, prep.unit_concentration_ug_m3(house_id, elements0, ox, oy)
+    )
     unit_conc = site_maxima(kernel, cx, cy, px, py, p_site, n_sites)  # ug/m3 per g/s
     clock["kernel"] = time.perf_counter()
 
@@ -201,28 +223,35 @@ def place(scenario: Scenario | str | Path, house_id: str, *, spacing_m: float | 
     rows = np.arange(cx.size)
     worst_load_site = pct_load.argmax(axis=1)
     limiting = share.argmax(axis=1)
-    table = pd.DataFrame({
-        "x": cx, "y": cy,
-        "worst_site": names[worst_load_site],
-        "worst_pct_load": pct_load[rows, worst_load_site],
-        "worst_pct_level": pct_level.max(axis=1),
-        "required_reduction_percent": required_reduction_percent(unabated_share, other_share),
-    })
+    table = pd.DataFrame(
+        {
+            "x": cx,
+            "y": cy,
+            "worst_site": names[worst_load_site],
+            "worst_pct_load": pct_load[rows, worst_load_site],
+            "worst_pct_level": pct_level.max(axis=1),
+            "required_reduction_percent": required_reduction_percent(unabated_share, other_share),
+        }
+    )
     places = house.places
     options = list(prep.tables.abatement.values())
     if places is not None:
         table["max_places_unabated"] = max_places(places, unabated_share, other_share)
         for option in options:
             table[f"max_places_{option['id']}"] = max_places(
-                places, unabated_share, other_share, default_reduction_percent(option))
+                places, unabated_share, other_share, default_reduction_percent(option)
+            )
     else:
-        warnings.append(f'source "{house_id}" gives nh3_kg_per_year, not places: the '
-                        "max-places columns are left out")
+        warnings.append(
+            f'source "{house_id}" gives nh3_kg_per_year, not places: the '
+            "max-places columns are left out"
+        )
     table["limiting_site"] = names[limiting]
     table["limiting_share_of_threshold"] = share[rows, limiting]
     table["passes_as_described"] = share[rows, limiting] <= 1.0
-    order = np.lexsort((table["worst_pct_load"].to_numpy(),
-                        table["limiting_share_of_threshold"].to_numpy()))
+    order = np.lexsort(
+        (table["worst_pct_load"].to_numpy(), table["limiting_share_of_threshold"].to_numpy())
+    )
     table = table.iloc[order].reset_index(drop=True)
     by_site = {"pct_level": pct_level[order], "pct_load": pct_load[order]}
     surface = np.full((grid.n_rows, grid.n_cols), np.nan)
@@ -230,10 +259,25 @@ def place(scenario: Scenario | str | Path, house_id: str, *, spacing_m: float | 
     share_surface = np.full((grid.n_rows, grid.n_cols), np.nan)
     share_surface[row, col] = share.max(axis=1)
     clock["assessment"] = time.perf_counter()
-    timings = {"inputs_s": clock["inputs"] - clock["start"],
-               "kernel_s": clock["kernel"] - clock["inputs"],
-               "assessment_s": clock["assessment"] - clock["kernel"],
-               "positions": int(cx.size), "site_points": int(px.size),
-               "kernel_points": int(ox.size)}
-    return PlaceResult(prep, house_id, table, grid, surface, share_surface, allowed, holding,
-                       options, by_site, warnings, timings)
+    timings = {
+        "inputs_s": clock["inputs"] - clock["start"],
+        "kernel_s": clock["kernel"] - clock["inputs"],
+        "assessment_s": clock["assessment"] - clock["kernel"],
+        "positions": int(cx.size),
+        "site_points": int(px.size),
+        "kernel_points": int(ox.size),
+    }
+    return PlaceResult(
+        prep,
+        house_id,
+        table,
+        grid,
+        surface,
+        share_surface,
+        allowed,
+        holding,
+        options,
+        by_site,
+        warnings,
+        timings,
+    )

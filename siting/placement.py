@@ -32,8 +32,9 @@ class PolarKernel:
     values: np.ndarray
 
     @staticmethod
-    def offsets(min_radius_m: float, max_radius_m: float, n_radius: int = 240,
-                n_bearing: int = 1440) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    def offsets(
+        min_radius_m: float, max_radius_m: float, n_radius: int = 240, n_bearing: int = 1440
+    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """Radii, bearings and the x/y offsets [m] (n_radius, n_bearing) to evaluate a kernel on."""
         radius_m = np.geomspace(min_radius_m, max_radius_m, n_radius)
         bearing_rad = np.arange(n_bearing) * (2 * np.pi / n_bearing)
@@ -57,13 +58,22 @@ class PolarKernel:
         tj = fb - np.floor(fb)
         j1 = (j0 + 1) % n_b
         v = self.values
-        out = ((1 - ti) * ((1 - tj) * v[i0, j0] + tj * v[i0, j1])
-               + ti * ((1 - tj) * v[i0 + 1, j0] + tj * v[i0 + 1, j1]))
+        out = (1 - ti) * ((1 - tj) * v[i0, j0] + tj * v[i0, j1]) + ti * (
+            (1 - tj) * v[i0 + 1, j0] + tj * v[i0 + 1, j1]
+        )
         return np.where(r > self.radius_m[-1], 0.0, out)
 
 
-def site_maxima(kernel: PolarKernel, candidate_x_m, candidate_y_m, point_x_m, point_y_m,
-                point_site, n_sites: int, chunk: int = 256) -> np.ndarray:
+def site_maxima(
+    kernel: PolarKernel,
+    candidate_x_m,
+    candidate_y_m,
+    point_x_m,
+    point_y_m,
+    point_site,
+    n_sites: int,
+    chunk: int = 256,
+) -> np.ndarray:
     """Per candidate and site, the maximum of the kernel over that site's points.
 
     Returns an array (n_candidates, n_sites) in the kernel's units.
@@ -83,7 +93,7 @@ def site_maxima(kernel: PolarKernel, candidate_x_m, candidate_y_m, point_x_m, po
         values = kernel(px[None, :] - cx[a:b, None], py[None, :] - cy[a:b, None])
         for s in range(n_sites):
             if ends[s] > starts[s]:
-                out[a:b, s] = values[:, starts[s]:ends[s]].max(axis=1)
+                out[a:b, s] = values[:, starts[s] : ends[s]].max(axis=1)
     return out
 
 

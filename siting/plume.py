@@ -110,10 +110,15 @@ WIND_BELOW_ANEMOMETER = ("power_law", "unchanged")
 WIND_PROFILE_MIN_HEIGHT_M = 1.0
 
 
-def wind_speed_at_height_m_s(speed_ref_m_s, reference_height_m, height_m, exponent,
-                             below_reference: str = "power_law",
-                             min_height_m: float = WIND_PROFILE_MIN_HEIGHT_M,
-                             min_speed_m_s: float = 0.0):
+def wind_speed_at_height_m_s(
+    speed_ref_m_s,
+    reference_height_m,
+    height_m,
+    exponent,
+    below_reference: str = "power_law",
+    min_height_m: float = WIND_PROFILE_MIN_HEIGHT_M,
+    min_speed_m_s: float = 0.0,
+):
     """Power-law wind speed u(z) = u_ref (z / z_ref)^p [Irwin1979], [EPA1995] Eq. 1-6.
 
     Parameters
@@ -142,8 +147,9 @@ def wind_speed_at_height_m_s(speed_ref_m_s, reference_height_m, height_m, expone
         Wind speed at the release height [m s-1].
     """
     if below_reference not in WIND_BELOW_ANEMOMETER:
-        raise ValueError(f"below_reference must be one of {WIND_BELOW_ANEMOMETER}, "
-                         f"got {below_reference!r}")
+        raise ValueError(
+            f"below_reference must be one of {WIND_BELOW_ANEMOMETER}, got {below_reference!r}"
+        )
     floor_m = reference_height_m if below_reference == "unchanged" else min_height_m
     height_m = np.maximum(height_m, floor_m)
     speed = speed_ref_m_s * (height_m / reference_height_m) ** exponent
@@ -196,12 +202,15 @@ def momentum_plume_rise_m(diameter_m, exit_velocity_m_s, wind_speed_m_s, stabili
         return rise_neutral_m
     stability_s2 = GRAVITY_M_S2 / _AMBIENT_TEMPERATURE_K * dtheta_dz
     momentum_flux_m4_s2 = exit_velocity_m_s**2 * diameter_m**2 / 4.0
-    rise_stable_m = 1.5 * (momentum_flux_m4_s2 / (wind_speed_m_s * np.sqrt(stability_s2))) ** (1 / 3)
+    rise_stable_m = 1.5 * (momentum_flux_m4_s2 / (wind_speed_m_s * np.sqrt(stability_s2))) ** (
+        1 / 3
+    )
     return np.minimum(rise_neutral_m, rise_stable_m)
 
 
-def vertical_term(sigma_z_m, release_height_m, receptor_height_m=0.0, mixing_height_m=None,
-                  n_images: int = 4):
+def vertical_term(
+    sigma_z_m, release_height_m, receptor_height_m=0.0, mixing_height_m=None, n_images: int = 4
+):
     """Dimensionless vertical term V of the Gaussian plume with ground reflection.
 
     V = exp(-(z - H)^2 / 2 sz^2) + exp(-(z + H)^2 / 2 sz^2), plus image terms for reflection at a
@@ -225,8 +234,16 @@ def vertical_term(sigma_z_m, release_height_m, receptor_height_m=0.0, mixing_hei
     return np.where(sz > 1.6 * lid, well_mixed, v)
 
 
-def plume_concentration_g_m3(emission_g_s, wind_speed_m_s, crosswind_m, sigma_y_m, sigma_z_m,
-                             release_height_m, receptor_height_m=0.0, mixing_height_m=None):
+def plume_concentration_g_m3(
+    emission_g_s,
+    wind_speed_m_s,
+    crosswind_m,
+    sigma_y_m,
+    sigma_z_m,
+    release_height_m,
+    receptor_height_m=0.0,
+    mixing_height_m=None,
+):
     """Concentration downwind of a continuous point source, with ground reflection.
 
     Parameters
@@ -271,9 +288,15 @@ def plume_concentration_g_m3(emission_g_s, wind_speed_m_s, crosswind_m, sigma_y_
     return emission_g_s / (2.0 * np.pi * wind_speed_m_s * sy * sigma_z_m) * lateral * v
 
 
-def sector_average_concentration_g_m3(emission_g_s, frequency_fraction, wind_speed_m_s,
-                                      arc_distance_m, sector_width_rad, sigma_z_m,
-                                      vertical):
+def sector_average_concentration_g_m3(
+    emission_g_s,
+    frequency_fraction,
+    wind_speed_m_s,
+    arc_distance_m,
+    sector_width_rad,
+    sigma_z_m,
+    vertical,
+):
     """Long-term sector-averaged concentration of one weather class [g m-3].
 
     C = f Q V / (sqrt(2 pi) u sz dtheta x): the plume is spread evenly across a sector of width
@@ -298,5 +321,9 @@ def sector_average_concentration_g_m3(emission_g_s, frequency_fraction, wind_spe
     vertical : ndarray
         Vertical term V from :func:`vertical_term` [-].
     """
-    return (emission_g_s * frequency_fraction * vertical
-            / (_SQRT_2PI * wind_speed_m_s * sigma_z_m * sector_width_rad * arc_distance_m))
+    return (
+        emission_g_s
+        * frequency_fraction
+        * vertical
+        / (_SQRT_2PI * wind_speed_m_s * sigma_z_m * sector_width_rad * arc_distance_m)
+    )

@@ -152,29 +152,36 @@ class RegionOptions:
         if not 0 < self.spacing_m <= 5000:
             raise InputError(f"--spacing must be in (0, 5000] m, got {self.spacing_m:g}")
         if not self.spacing_m <= self.margin_m <= 100_000:
-            raise InputError(f"--margin must be at least the spacing ({self.spacing_m:g} m) and "
-                             f"at most 100000 m, got {self.margin_m:g}")
+            raise InputError(
+                f"--margin must be at least the spacing ({self.spacing_m:g} m) and "
+                f"at most 100000 m, got {self.margin_m:g}"
+            )
         if self.tile_size is not None and self.tile_size < 16:
             raise InputError(f"--tile-size must be >= 16 cells, got {self.tile_size}")
         if not 0 < self.memory_mb < math.inf:
             raise InputError(f"--memory-mb must be a finite number > 0, got {self.memory_mb:g}")
         physical = _physical_memory_mb()
         if physical and self.memory_mb > physical:
-            raise InputError(f"--memory-mb {self.memory_mb:g} is more than this machine has "
-                             f"({physical:,.0f} MB); give at most that")
+            raise InputError(
+                f"--memory-mb {self.memory_mb:g} is more than this machine has "
+                f"({physical:,.0f} MB); give at most that"
+            )
         if self.workers is not None and self.workers < 1:
             raise InputError(f"--workers must be >= 1, got {self.workers}")
         if self.reach_m is not None and not self.spacing_m <= self.reach_m < math.inf:
-            raise InputError(f"--reach-m must be a finite distance at least the spacing, got "
-                             f"{self.reach_m:g}")
+            raise InputError(
+                f"--reach-m must be a finite distance at least the spacing, got {self.reach_m:g}"
+            )
         if self.top < 1:
             raise InputError(f"--top must be >= 1, got {self.top}")
         if not 0 < self.anemometer_height_m <= 300:  # NaN and inf fail too
-            raise InputError(f"--anemometer-height must be in (0, 300] m, got "
-                             f"{self.anemometer_height_m:g}")
+            raise InputError(
+                f"--anemometer-height must be in (0, 300] m, got {self.anemometer_height_m:g}"
+            )
         if not 0 < self.min_wind_speed_m_s <= 5:
-            raise InputError(f"minimum wind speed must be in (0, 5] m/s, got "
-                             f"{self.min_wind_speed_m_s:g}")
+            raise InputError(
+                f"minimum wind speed must be in (0, 5] m/s, got {self.min_wind_speed_m_s:g}"
+            )
         if self.land_type not in ("rural", "urban"):
             raise InputError(f"--land-type must be rural or urban, got {self.land_type!r}")
         if self.placement not in ("bilinear", "nearest"):
@@ -204,30 +211,38 @@ class FarmFields:
 # --- reading --------------------------------------------------------------------------------
 
 
-_CRS_FIX = ("give --crs with a projected CRS in metres, e.g. the UTM zone of the region "
-            "(EPSG:326xx north)")
+_CRS_FIX = (
+    "give --crs with a projected CRS in metres, e.g. the UTM zone of the region (EPSG:326xx north)"
+)
 
 
-def _numbers(frame, column: str, name: str, ids, low: float, high: float | None,
-             allow_missing: bool) -> np.ndarray:
+def _numbers(
+    frame, column: str, name: str, ids, low: float, high: float | None, allow_missing: bool
+) -> np.ndarray:
     """A numeric attribute, checked per farm; missing values are NaN where allowed."""
     missing = pd.isna(frame[column]).to_numpy()
     values = pd.to_numeric(frame[column], errors="coerce").to_numpy(dtype=float)
     with np.errstate(invalid="ignore"):
-        bad = ~np.isfinite(values) | (values < low) | (values > (high if high is not None
-                                                                else np.inf))
+        bad = (
+            ~np.isfinite(values)
+            | (values < low)
+            | (values > (high if high is not None else np.inf))
+        )
     if allow_missing:
         bad &= ~missing
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
         limit = f">= {low:g}" + (f" and <= {high:g}" if high is not None else "")
-        raise InputError(f'{name}, farm "{ids[i]}": {column} must be a number {limit}, got '
-                         f"{frame[column].iloc[i]!r}")
+        raise InputError(
+            f'{name}, farm "{ids[i]}": {column} must be a number {limit}, got '
+            f"{frame[column].iloc[i]!r}"
+        )
     return values
 
 
-def read_farms(path: Path, tables: Tables, fields: FarmFields = FarmFields(),
-               crs: str | None = None) -> tuple[pd.DataFrame, str, list[str]]:
+def read_farms(
+    path: Path, tables: Tables, fields: FarmFields = FarmFields(), crs: str | None = None
+) -> tuple[pd.DataFrame, str, list[str]]:
     """Read the farms layer: one source per feature, with its emission and release class.
 
     Parameters
@@ -278,8 +293,10 @@ def read_farms(path: Path, tables: Tables, fields: FarmFields = FarmFields(),
 
     def column(option: str, given: str | None, default: str) -> str | None:
         if given is not None and given not in columns:
-            raise InputError(f'{name}: {option} "{given}": no such field{suggest(given, columns)} '
-                             f"(fields: {', '.join(columns) or 'none'})")
+            raise InputError(
+                f'{name}: {option} "{given}": no such field{suggest(given, columns)} '
+                f"(fields: {', '.join(columns) or 'none'})"
+            )
         return given if given is not None else (default if default in columns else None)
 
     id_col = column("--id-field", fields.id_field, "id")
@@ -300,52 +317,74 @@ def read_farms(path: Path, tables: Tables, fields: FarmFields = FarmFields(),
         if geom is None or geom.is_empty:
             raise InputError(f'{name}, farm "{farm_id}": empty geometry')
         if geom.geom_type == "Point":
-            kinds.append("point"); xs.append(geom.x); ys.append(geom.y); areas.append(0.0)
+            kinds.append("point")
+            xs.append(geom.x)
+            ys.append(geom.y)
+            areas.append(0.0)
         elif geom.geom_type in ("Polygon", "MultiPolygon"):
             if not geom.is_valid:
                 geom = shapely.make_valid(geom)
             if geom.area <= 0:
                 raise InputError(f'{name}, farm "{farm_id}": the polygon encloses no area')
             c = geom.centroid
-            kinds.append("volume"); xs.append(c.x); ys.append(c.y); areas.append(geom.area)
+            kinds.append("volume")
+            xs.append(c.x)
+            ys.append(c.y)
+            areas.append(geom.area)
         else:
-            raise InputError(f'{name}, farm "{farm_id}": geometry is a {geom.geom_type}; farms '
-                             "must be points (point sources) or polygons (house footprints)")
-    frame = pd.DataFrame({"farm_id": ids, "kind": kinds, "x_m": xs, "y_m": ys,
-                          "footprint_area_m2": areas})
+            raise InputError(
+                f'{name}, farm "{farm_id}": geometry is a {geom.geom_type}; farms '
+                "must be points (point sources) or polygons (house footprints)"
+            )
+    frame = pd.DataFrame(
+        {"farm_id": ids, "kind": kinds, "x_m": xs, "y_m": ys, "footprint_area_m2": areas}
+    )
 
     # emission: the emission field, else (per farm, where it is empty) livestock x places
     emission_col = column("--emission-field", fields.emission_field, "nh3_kg_per_year")
     can_derive = all(f in columns for f in DERIVATION_FIELDS)
     if emission_col is None and not can_derive:
-        raise InputError(f'{name}: no emission field "{fields.emission_field or "nh3_kg_per_year"}"'
-                         " and no livestock, housing and places fields to derive one; give "
-                         "--emission-field (kg NH3 per year) "
-                         f"(fields: {', '.join(columns) or 'none'})")
-    given = (_numbers(gdf, emission_col, name, ids, 0.0, None, True) if emission_col is not None
-             else np.full(len(gdf), np.nan))
+        raise InputError(
+            f'{name}: no emission field "{fields.emission_field or "nh3_kg_per_year"}"'
+            " and no livestock, housing and places fields to derive one; give "
+            "--emission-field (kg NH3 per year) "
+            f"(fields: {', '.join(columns) or 'none'})"
+        )
+    given = (
+        _numbers(gdf, emission_col, name, ids, 0.0, None, True)
+        if emission_col is not None
+        else np.full(len(gdf), np.nan)
+    )
     emissions, emission_from = [], []
     for i, farm_id in enumerate(ids):
         if not np.isnan(given[i]):
-            emissions.append(given[i]); emission_from.append(f"field {emission_col}")
+            emissions.append(given[i])
+            emission_from.append(f"field {emission_col}")
             continue
         where = f'{name}, farm "{farm_id}"'
         row = gdf.iloc[i]
         if not can_derive or any(pd.isna(row[f]) for f in DERIVATION_FIELDS):
-            raise InputError(f"{where}: no emission: give {emission_col or 'nh3_kg_per_year'} "
-                             "(kg NH3 per year) or livestock, housing and places")
+            raise InputError(
+                f"{where}: no emission: give {emission_col or 'nh3_kg_per_year'} "
+                "(kg NH3 per year) or livestock, housing and places"
+            )
         factor = tables.factor(str(row["livestock"]), str(row["housing"]), where)
         places = _numbers(gdf.iloc[[i]], "places", name, [farm_id], 0.0, None, False)[0]
         reduction, technique = 0.0, None
         if "abatement" in columns and isinstance(row["abatement"], str) and row["abatement"]:
             technique = tables.technique(row["abatement"], where)
             reduction = default_reduction_percent(technique)
-        d = derive_emission(factor_nh3_kg_per_place_yr=factor["nh3_kg_per_place_yr"],
-                            places=places, reduction_percent=reduction)
+        d = derive_emission(
+            factor_nh3_kg_per_place_yr=factor["nh3_kg_per_place_yr"],
+            places=places,
+            reduction_percent=reduction,
+        )
         emissions.append(d.nh3_kg_yr)
-        emission_from.append(f"{places:g} {row['livestock']} places x "
-                             f"{factor['nh3_kg_per_place_yr']:g} kg/place/yr ({factor['source']})"
-                             + (f" less {technique['id']} {reduction:g} %" if technique else ""))
+        emission_from.append(
+            f"{places:g} {row['livestock']} places x "
+            f"{factor['nh3_kg_per_place_yr']:g} kg/place/yr ({factor['source']})"
+            + (f" less {technique['id']} {reduction:g} %" if technique else "")
+        )
     frame["nh3_kg_yr"] = np.asarray(emissions, dtype=float)
     frame["emission_from"] = emission_from
     frame["emission_g_s"] = kg_per_year_to_g_s(frame["nh3_kg_yr"].to_numpy(float))
@@ -359,22 +398,38 @@ def read_farms(path: Path, tables: Tables, fields: FarmFields = FarmFields(),
         given = _numbers(gdf, height_col, name, ids, 0.0, 100.0, True)
         heights = np.where(np.isnan(given), default_h, given)
     frame["release_height_m"] = heights
-    frame["release_class"] = [release_class(k, h, a) for k, h, a in
-                              zip(frame["kind"], heights, frame["footprint_area_m2"])]
+    frame["release_class"] = [
+        release_class(k, h, a)
+        for k, h, a in zip(frame["kind"], heights, frame["footprint_area_m2"])
+    ]
     return frame, crs, warnings
 
 
-def _read_sites(habitats: Path, crs: str, tables: Tables, options: RegionOptions,
-                layer: str | None, name_field: str, habitat_field: str, designation_field: str):
+def _read_sites(
+    habitats: Path,
+    crs: str,
+    tables: Tables,
+    options: RegionOptions,
+    layer: str | None,
+    name_field: str,
+    habitat_field: str,
+    designation_field: str,
+):
     from siting.habitats import read_habitats
     from siting.scenario import HabitatsSection
 
     if not Path(habitats).exists():
         raise InputFileError(f"habitats layer {Path(habitats).name}: not found ({habitats})")
-    section = HabitatsSection(file=Path(habitats), layer=layer, name_field=name_field,
-                              habitat_field=habitat_field, designation_field=designation_field)
-    return read_habitats(section, crs, tables, options.critical_load_end,
-                         options.critical_load_review)
+    section = HabitatsSection(
+        file=Path(habitats),
+        layer=layer,
+        name_field=name_field,
+        habitat_field=habitat_field,
+        designation_field=designation_field,
+    )
+    return read_habitats(
+        section, crs, tables, options.critical_load_end, options.critical_load_review
+    )
 
 
 # --- planning -------------------------------------------------------------------------------
@@ -397,8 +452,11 @@ class TilePlan:
     def peak_bytes(self) -> int:
         """Upper estimate of the run's peak: what is held, the grid twice, and per task at once
         the larger of a tile's FFT working set and a kernel or site-point task."""
-        return (self.held_bytes + 2 * self.grid_bytes
-                + self.concurrent * max(self.tile_bytes, self.task_bytes))
+        return (
+            self.held_bytes
+            + 2 * self.grid_bytes
+            + self.concurrent * max(self.tile_bytes, self.task_bytes)
+        )
 
 
 def engine_budget_mb(memory_mb: float, concurrent: int) -> float:
@@ -407,14 +465,24 @@ def engine_budget_mb(memory_mb: float, concurrent: int) -> float:
     return float(min(256.0, max(1.0, memory_mb / (10 * max(1, concurrent)))))
 
 
-def plan_tiles(n_rows: int, n_cols: int, n_kernels: int, half_rows: int, half_cols: int,
-               budget_bytes: float, concurrent: int, engine_bytes: float,
-               tile_size: int | None = None, n_farms: int = 0,
-               window_cells: int = 0) -> TilePlan:
+def plan_tiles(
+    n_rows: int,
+    n_cols: int,
+    n_kernels: int,
+    half_rows: int,
+    half_cols: int,
+    budget_bytes: float,
+    concurrent: int,
+    engine_bytes: float,
+    tile_size: int | None = None,
+    n_farms: int = 0,
+    window_cells: int = 0,
+) -> TilePlan:
     """Pick the tile size that fits the memory budget (pure arithmetic).
 
     Held through the run: every class's kernel ((2 half_rows + 1) x (2 half_cols + 1) float64),
-    the offset lattice (16 bytes per offset) and the near-field corrections (n_farms x (2 window)^2 entries of 32 bytes). Per task
+    the offset lattice (16 bytes per offset) and the near-field corrections
+    (n_farms x (2 window)^2 entries of 32 bytes). Per task
     running at once, the larger of a tile's FFT working set (``convolution.tile_working_bytes``,
     blocks of farms the size of a tile) and a kernel or site-point task (the kernel's quadrant
     tables and profiles, about one float64 per offset, plus twice ``engine_bytes``, the engine
@@ -428,20 +496,32 @@ def plan_tiles(n_rows: int, n_cols: int, n_kernels: int, half_rows: int, half_co
         When no tile size fits; the message gives the figures and what to change.
     """
     n_offsets = (2 * half_rows + 1) * (2 * half_cols + 1)
-    held = (n_kernels * 8 * n_offsets + 16 * n_offsets  # kernels, offset lattice
-            + n_farms * (2 * window_cells) ** 2 * 32)  # near-field corrections
+    held = (
+        n_kernels * 8 * n_offsets
+        + 16 * n_offsets  # kernels, offset lattice
+        + n_farms * (2 * window_cells) ** 2 * 32
+    )  # near-field corrections
     grid = 8 * n_rows * n_cols
     task = int(8 * n_offsets + 2 * engine_bytes)
     if tile_size is not None:
         sizes = [(min(tile_size, n_rows), min(tile_size, n_cols))]
     else:
-        sizes = [(n_rows, n_cols)] + [(min(t, n_rows), min(t, n_cols)) for t in TILE_SIZES
-                                      if t < max(n_rows, n_cols)]
+        sizes = [(n_rows, n_cols)] + [
+            (min(t, n_rows), min(t, n_cols)) for t in TILE_SIZES if t < max(n_rows, n_cols)
+        ]
     plan = None
     for rows, cols in sizes:
         n_tiles = math.ceil(n_rows / rows) * math.ceil(n_cols / cols)
-        plan = TilePlan(rows, cols, n_tiles, max(1, concurrent), held, grid,
-                        tile_working_bytes(rows, cols, rows, cols), task)
+        plan = TilePlan(
+            rows,
+            cols,
+            n_tiles,
+            max(1, concurrent),
+            held,
+            grid,
+            tile_working_bytes(rows, cols, rows, cols),
+            task,
+        )
         if plan.peak_bytes <= budget_bytes:
             return plan
     mb = 1e6
@@ -452,7 +532,8 @@ def plan_tiles(n_rows: int, n_cols: int, n_kernels: int, half_rows: int, half_co
         f"{max(plan.tile_bytes, plan.task_bytes) / mb:.0f} MB each (tiles of "
         f"{plan.tile_rows} x {plan.tile_cols} cells); need about {plan.peak_bytes / mb:.0f} "
         "MB. Raise --memory-mb, use a coarser --spacing, fewer --workers, or --reach-m to "
-        "shorten the kernels")
+        "shorten the kernels"
+    )
 
 
 # --- the run --------------------------------------------------------------------------------
@@ -498,17 +579,24 @@ class RegionResult:
 
     @property
     def deposition_kg_n_ha_yr(self) -> np.ndarray:
-        return deposition_kg_n_ha_yr(self.concentration_ug_m3,
-                                     self.inputs.grid_deposition_velocity_m_s)
+        return deposition_kg_n_ha_yr(
+            self.concentration_ug_m3, self.inputs.grid_deposition_velocity_m_s
+        )
 
 
-def prepare_region(farms_path: str | Path, weather_path: str | Path,
-                   habitats_path: str | Path | None = None,
-                   options: RegionOptions = RegionOptions(), fields: FarmFields = FarmFields(),
-                   crs: str | None = None, tables: Tables | None = None,
-                   habitats_layer: str | None = None, name_field: str = "name",
-                   habitat_field: str = "habitat",
-                   designation_field: str = "designation") -> RegionInputs:
+def prepare_region(
+    farms_path: str | Path,
+    weather_path: str | Path,
+    habitats_path: str | Path | None = None,
+    options: RegionOptions = RegionOptions(),
+    fields: FarmFields = FarmFields(),
+    crs: str | None = None,
+    tables: Tables | None = None,
+    habitats_layer: str | None = None,
+    name_field: str = "name",
+    habitat_field: str = "habitat",
+    designation_field: str = "designation",
+) -> RegionInputs:
     """Read and check the farms, weather and habitats of a regional run (no dispersion)."""
     from siting.outputs import _layer_files
     from siting.tables import sigma_scheme, wind_exponents
@@ -521,18 +609,27 @@ def prepare_region(farms_path: str | Path, weather_path: str | Path,
     if not weather_path.exists():
         raise InputFileError(f"--weather {weather_path.name}: not found ({weather_path})")
     weather, weather_summary, weather_warnings = read_frequency_table(
-        weather_path, options.anemometer_height_m, options.min_wind_speed_m_s)
+        weather_path, options.anemometer_height_m, options.min_wind_speed_m_s
+    )
     warnings += weather_warnings
-    classes = sorted(set(farms["release_class"]), key=lambda c: (c.kind, c.release_height_m,
-                                                                 c.footprint_side_m))
+    classes = sorted(
+        set(farms["release_class"]), key=lambda c: (c.kind, c.release_height_m, c.footprint_side_m)
+    )
     grid = grid_around(farms["x_m"], farms["y_m"], options.margin_m, options.spacing_m, crs)
     sites = None
     files = dict(_layer_files("farms", Path(farms_path).resolve()))
     files["weather"] = weather_path.resolve()
     if habitats_path is not None:
-        sites, site_warnings = _read_sites(Path(habitats_path), crs, tables, options,
-                                           habitats_layer, name_field, habitat_field,
-                                           designation_field)
+        sites, site_warnings = _read_sites(
+            Path(habitats_path),
+            crs,
+            tables,
+            options,
+            habitats_layer,
+            name_field,
+            habitat_field,
+            designation_field,
+        )
         warnings += site_warnings
         files.update(_layer_files("habitats", Path(habitats_path).resolve()))
         import shapely
@@ -540,8 +637,10 @@ def prepare_region(farms_path: str | Path, weather_path: str | Path,
         extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
         for name, geom in zip(sites["name"], sites.geometry):
             if not geom.intersects(extent):
-                warnings.append(f'site "{name}" lies outside the grid: not on the maps, but '
-                                "assessed at its own points")
+                warnings.append(
+                    f'site "{name}" lies outside the grid: not on the maps, but '
+                    "assessed at its own points"
+                )
     vd = float(tables.deposition_velocities[LAND_COVER_GRID]["deposition_velocity_m_s"])
     workers = options.workers or os.cpu_count() or 1
     settings = DispersionSettings(
@@ -550,31 +649,66 @@ def prepare_region(farms_path: str | Path, weather_path: str | Path,
         depletion_velocity_m_s=vd if options.plume_depletion else None,
         memory_budget_mb=engine_budget_mb(options.memory_mb, workers),
         wind_below_anemometer=options.wind_below_anemometer,
-        min_wind_speed_m_s=options.min_wind_speed_m_s)
-    return RegionInputs(farms, classes, crs, grid, weather, weather_summary, settings, sites,
-                        tables, options, files, warnings)
+        min_wind_speed_m_s=options.min_wind_speed_m_s,
+    )
+    return RegionInputs(
+        farms,
+        classes,
+        crs,
+        grid,
+        weather,
+        weather_summary,
+        settings,
+        sites,
+        tables,
+        options,
+        files,
+        warnings,
+    )
 
 
 # tasks: plain functions of arrays, so dask (or a loop) can run them anywhere
 
 
 def _task_kernel(cls: ReleaseClass, weather, settings, lattice, reach_m):
-    return unit_kernel(cls.elements(), weather, settings, lattice.cell_m, lattice.half_rows,
-                       lattice.half_cols, reach_m=reach_m, lattice=lattice)
+    return unit_kernel(
+        cls.elements(),
+        weather,
+        settings,
+        lattice.cell_m,
+        lattice.half_rows,
+        lattice.half_cols,
+        reach_m=reach_m,
+        lattice=lattice,
+    )
 
 
-def _task_correction(kernel, cls: ReleaseClass, x, y, q, placed, weather, settings, west_m,
-                     north_m, window):
+def _task_correction(
+    kernel, cls: ReleaseClass, x, y, q, placed, weather, settings, west_m, north_m, window
+):
     per_batch = max(1, settings.chunk_receptors // (2 * window) ** 2)
-    return near_field_correction(x, y, q, placed, kernel, cls.elements(), weather, settings,
-                                 west_m, north_m, window, per_batch)
+    return near_field_correction(
+        x,
+        y,
+        q,
+        placed,
+        kernel,
+        cls.elements(),
+        weather,
+        settings,
+        west_m,
+        north_m,
+        window,
+        per_batch,
+    )
 
 
 def _task_tile(kernels, placed, corrections, row_range, col_range, block):
     out = np.zeros((row_range[1] - row_range[0], col_range[1] - col_range[0]))
     for kernel, cells, correction in zip(kernels, placed, corrections):
-        out += tile_concentration(cells, kernel, row_range, col_range, block[0], block[1],
-                                  correction)
+        out += tile_concentration(
+            cells, kernel, row_range, col_range, block[0], block[1], correction
+        )
     return out * UG_PER_G
 
 
@@ -603,14 +737,18 @@ class _Runner:
             try:
                 from distributed import Client
             except ImportError as exc:
-                raise SitingError("--scheduler with an address needs dask.distributed: "
-                                  "pip install 'siting[region]'") from exc
+                raise SitingError(
+                    "--scheduler with an address needs dask.distributed: "
+                    "pip install 'siting[region]'"
+                ) from exc
             try:
-                self.client = Client(scheduler, set_as_default=False,
-                                     timeout=f"{SCHEDULER_CONNECT_TIMEOUT_S}s")
+                self.client = Client(
+                    scheduler, set_as_default=False, timeout=f"{SCHEDULER_CONNECT_TIMEOUT_S}s"
+                )
             except Exception as exc:  # OSError, TimeoutError...
-                raise InputError(f"--scheduler {scheduler}: cannot reach a dask scheduler "
-                                 f"there ({exc})") from exc
+                raise InputError(
+                    f"--scheduler {scheduler}: cannot reach a dask scheduler there ({exc})"
+                ) from exc
 
     @property
     def lazy(self) -> bool:
@@ -648,8 +786,12 @@ def _site_points(sites, spacing_m: float):
 
     b_index, bx, by = site_boundary_points(sites.geometry, min(spacing_m, BOUNDARY_SPACING_M))
     s_index, sx, sy, interior = site_sample_points(sites.geometry, [], [], spacing_m)
-    return (np.concatenate([s_index, b_index]), np.concatenate([sx, bx]),
-            np.concatenate([sy, by]), np.concatenate([interior, np.zeros(b_index.size, bool)]))
+    return (
+        np.concatenate([s_index, b_index]),
+        np.concatenate([sx, bx]),
+        np.concatenate([sy, by]),
+        np.concatenate([interior, np.zeros(b_index.size, bool)]),
+    )
 
 
 def compute_region(inputs: RegionInputs) -> RegionResult:
@@ -661,75 +803,131 @@ def compute_region(inputs: RegionInputs) -> RegionResult:
     try:
         if runner.client is not None and opt.workers is None:
             workers = max(1, sum(runner.client.nthreads().values()))
-        half_rows, half_cols = kernel_half_size(grid.n_rows, grid.n_cols, grid.cell_m,
-                                                opt.reach_m)
+        half_rows, half_cols = kernel_half_size(grid.n_rows, grid.n_cols, grid.cell_m, opt.reach_m)
         concurrent = _concurrent(opt, workers)
-        settings = replace(inputs.settings,
-                           memory_budget_mb=engine_budget_mb(opt.memory_mb, concurrent))
-        plan = plan_tiles(grid.n_rows, grid.n_cols, len(inputs.classes), half_rows, half_cols,
-                          opt.memory_mb * 1e6, concurrent, settings.memory_budget_mb * 1e6,
-                          opt.tile_size, len(farms), opt.near_field_cells)
+        settings = replace(
+            inputs.settings, memory_budget_mb=engine_budget_mb(opt.memory_mb, concurrent)
+        )
+        plan = plan_tiles(
+            grid.n_rows,
+            grid.n_cols,
+            len(inputs.classes),
+            half_rows,
+            half_cols,
+            opt.memory_mb * 1e6,
+            concurrent,
+            settings.memory_budget_mb * 1e6,
+            opt.tile_size,
+            len(farms),
+            opt.near_field_cells,
+        )
         chunk = settings.chunk_receptors
-        site_index, px, py, interior = (_site_points(inputs.sites, grid.cell_m)
-                                        if inputs.sites is not None else
-                                        (np.zeros(0, int), np.zeros(0), np.zeros(0),
-                                         np.zeros(0, bool)))
+        site_index, px, py, interior = (
+            _site_points(inputs.sites, grid.cell_m)
+            if inputs.sites is not None
+            else (np.zeros(0, int), np.zeros(0), np.zeros(0), np.zeros(0, bool))
+        )
         fx_all, fy_all = farms["x_m"].to_numpy(float), farms["y_m"].to_numpy(float)
         q_all = farms["emission_g_s"].to_numpy(float)
         class_of = {c: i for i, c in enumerate(inputs.classes)}
         farm_class = np.array([class_of[c] for c in farms["release_class"]])
         members = [np.flatnonzero(farm_class == i) for i in range(len(inputs.classes))]
 
-        lattice = runner.call(offset_lattice, half_rows, half_cols, grid.cell_m,
-                              inputs.weather, chunk)
+        lattice = runner.call(
+            offset_lattice, half_rows, half_cols, grid.cell_m, inputs.weather, chunk
+        )
         kernels, placed, corrections, site_parts = [], [], [], []
         for cls, idx in zip(inputs.classes, members):
-            kernel = runner.call(_task_kernel, cls, inputs.weather, settings, lattice,
-                                 opt.reach_m)
-            cells = place_on_cells(fx_all[idx], fy_all[idx], q_all[idx], grid.west_m,
-                                   grid.north_m, grid.cell_m, grid.n_rows, grid.n_cols,
-                                   opt.placement)
+            kernel = runner.call(_task_kernel, cls, inputs.weather, settings, lattice, opt.reach_m)
+            cells = place_on_cells(
+                fx_all[idx],
+                fy_all[idx],
+                q_all[idx],
+                grid.west_m,
+                grid.north_m,
+                grid.cell_m,
+                grid.n_rows,
+                grid.n_cols,
+                opt.placement,
+            )
             kernels.append(kernel)
             placed.append(cells)
             corrections.append(
-                runner.call(_task_correction, kernel, cls, fx_all[idx], fy_all[idx], q_all[idx],
-                            cells, inputs.weather, settings, grid.west_m, grid.north_m,
-                            opt.near_field_cells)
-                if opt.near_field_cells > 0 else None)
+                runner.call(
+                    _task_correction,
+                    kernel,
+                    cls,
+                    fx_all[idx],
+                    fy_all[idx],
+                    q_all[idx],
+                    cells,
+                    inputs.weather,
+                    settings,
+                    grid.west_m,
+                    grid.north_m,
+                    opt.near_field_cells,
+                )
+                if opt.near_field_cells > 0
+                else None
+            )
             per_task = max(1, min(PAIRS_PER_TASK, chunk) // max(1, px.size))
             for start in range(0, idx.size, per_task) if px.size else ():
-                part = idx[start:start + per_task]
-                site_parts.append(runner.call(_task_site_sum, cls, fx_all[part], fy_all[part],
-                                              q_all[part], px, py, inputs.weather,
-                                              settings, opt.reach_m))
+                part = idx[start : start + per_task]
+                site_parts.append(
+                    runner.call(
+                        _task_site_sum,
+                        cls,
+                        fx_all[part],
+                        fy_all[part],
+                        q_all[part],
+                        px,
+                        py,
+                        inputs.weather,
+                        settings,
+                        opt.reach_m,
+                    )
+                )
         tiles, ranges = [], []
         tr, tc = plan.tile_rows, plan.tile_cols
         for r0 in range(0, grid.n_rows, tr):
             for c0 in range(0, grid.n_cols, tc):
                 rr, cc = (r0, min(r0 + tr, grid.n_rows)), (c0, min(c0 + tc, grid.n_cols))
                 ranges.append((rr, cc))
-                tiles.append(runner.call(_task_tile, kernels, placed, corrections, rr, cc,
-                                         (tr, tc)))
+                tiles.append(
+                    runner.call(_task_tile, kernels, placed, corrections, rr, cc, (tr, tc))
+                )
         clock["graph"] = time.perf_counter()
         done = runner.compute(tiles + site_parts)
         clock["grid_and_sites"] = time.perf_counter()
         concentration = np.empty((grid.n_rows, grid.n_cols))
-        for (rr, cc), tile in zip(ranges, done[:len(tiles)]):
-            concentration[rr[0]:rr[1], cc[0]:cc[1]] = tile
-        del done[:len(tiles)]
+        for (rr, cc), tile in zip(ranges, done[: len(tiles)]):
+            concentration[rr[0] : rr[1], cc[0] : cc[1]] = tile
+        del done[: len(tiles)]
         point_conc = np.zeros(px.size)
         for part in done:
             point_conc += part
 
         sites, contributors = None, pd.DataFrame(columns=CONTRIBUTOR_COLUMNS)
         if inputs.sites is not None:
-            sites, max_points = _site_figures(inputs.sites, site_index, px, py, interior,
-                                              point_conc)
+            sites, max_points = _site_figures(
+                inputs.sites, site_index, px, py, interior, point_conc
+            )
             nodes = []
             for cls, idx in zip(inputs.classes, members):
-                nodes.append(runner.call(_pair_values, cls, fx_all[idx], fy_all[idx], q_all[idx],
-                                         max_points[:, 0], max_points[:, 1], inputs.weather,
-                                         settings, opt.reach_m))
+                nodes.append(
+                    runner.call(
+                        _pair_values,
+                        cls,
+                        fx_all[idx],
+                        fy_all[idx],
+                        q_all[idx],
+                        max_points[:, 0],
+                        max_points[:, 1],
+                        inputs.weather,
+                        settings,
+                        opt.reach_m,
+                    )
+                )
             by_class = runner.compute(nodes)
             conc_at_max = np.zeros((len(farms), len(sites)))
             for idx, values in zip(members, by_class):
@@ -738,19 +936,32 @@ def compute_region(inputs: RegionInputs) -> RegionResult:
         clock["contributors"] = time.perf_counter()
     finally:
         runner.close()
-    timings = {"setup_s": clock["graph"] - clock["start"],
-               "grid_and_site_points_s": clock["grid_and_sites"] - clock["graph"],
-               "contributors_s": clock["contributors"] - clock["grid_and_sites"],
-               "total_s": clock["contributors"] - clock["start"],
-               "site_points": int(px.size), "farms": len(farms),
-               "release_classes": len(inputs.classes), "tiles": plan.n_tiles,
-               "workers": int(workers)}
-    return RegionResult(inputs, concentration, sites, contributors, plan, timings,
-                        list(inputs.warnings))
+    timings = {
+        "setup_s": clock["graph"] - clock["start"],
+        "grid_and_site_points_s": clock["grid_and_sites"] - clock["graph"],
+        "contributors_s": clock["contributors"] - clock["grid_and_sites"],
+        "total_s": clock["contributors"] - clock["start"],
+        "site_points": int(px.size),
+        "farms": len(farms),
+        "release_classes": len(inputs.classes),
+        "tiles": plan.n_tiles,
+        "workers": int(workers),
+    }
+    return RegionResult(
+        inputs, concentration, sites, contributors, plan, timings, list(inputs.warnings)
+    )
 
 
-CONTRIBUTOR_COLUMNS = ["site_id", "site", "rank", "farm_id", "conc_ug_m3", "dep_kg_n_ha_yr",
-                       "share_of_site_total_percent", "distance_m"]
+CONTRIBUTOR_COLUMNS = [
+    "site_id",
+    "site",
+    "rank",
+    "farm_id",
+    "conc_ug_m3",
+    "dep_kg_n_ha_yr",
+    "share_of_site_total_percent",
+    "distance_m",
+]
 
 
 def _site_figures(sites, site_index, px, py, interior, point_conc):
@@ -773,9 +984,11 @@ def _site_figures(sites, site_index, px, py, interior, point_conc):
     out["pc_pct_level"] = assess.percent_of(c_max, out["critical_level_ug_m3"].to_numpy())
     out["pc_pct_load"] = assess.percent_of(d_max, out["critical_load_used_kg_n_ha_yr"].to_numpy())
     out["max_x_m"], out["max_y_m"] = max_points[:, 0], max_points[:, 1]
-    out["verdict"] = assess.verdict(out["pc_pct_level"].to_numpy(),
-                                    out["pc_pct_load"].to_numpy(),
-                                    out["threshold_percent"].to_numpy())
+    out["verdict"] = assess.verdict(
+        out["pc_pct_level"].to_numpy(),
+        out["pc_pct_load"].to_numpy(),
+        out["threshold_percent"].to_numpy(),
+    )
     return out, max_points
 
 
@@ -789,19 +1002,35 @@ def _contributors(sites, farms, conc_at_max, top: int) -> pd.DataFrame:
         total = dep.sum()
         order = np.argsort(-dep, kind="stable")[:top]
         for rank, i in enumerate(order, start=1):
-            rows.append({
-                "site_id": site.site_id, "site": site.name, "rank": rank,
-                "farm_id": farms["farm_id"].iloc[i], "conc_ug_m3": conc[i],
-                "dep_kg_n_ha_yr": dep[i],
-                "share_of_site_total_percent": 100.0 * dep[i] / total if total > 0 else np.nan,
-                "distance_m": math.hypot(site.max_x_m - farms["x_m"].iloc[i],
-                                         site.max_y_m - farms["y_m"].iloc[i]),
-            })
+            rows.append(
+                {
+                    "site_id": site.site_id,
+                    "site": site.name,
+                    "rank": rank,
+                    "farm_id": farms["farm_id"].iloc[i],
+                    "conc_ug_m3": conc[i],
+                    "dep_kg_n_ha_yr": dep[i],
+                    "share_of_site_total_percent": 100.0 * dep[i] / total if total > 0 else np.nan,
+                    "distance_m": math.hypot(
+                        site.max_x_m - farms["x_m"].iloc[i], site.max_y_m - farms["y_m"].iloc[i]
+                    ),
+                }
+            )
     return pd.DataFrame(rows, columns=CONTRIBUTOR_COLUMNS)
 
 
-def region(farms_path, weather_path, habitats_path=None, options: RegionOptions = RegionOptions(),
-           fields: FarmFields = FarmFields(), crs: str | None = None, **habitat_fields) -> RegionResult:
+def region(
+    farms_path,
+    weather_path,
+    habitats_path=None,
+    options: RegionOptions = RegionOptions(),
+    fields: FarmFields = FarmFields(),
+    crs: str | None = None,
+    **habitat_fields,
+) -> RegionResult:
     """A regional run from files: :func:`prepare_region`, then :func:`compute_region`."""
-    return compute_region(prepare_region(farms_path, weather_path, habitats_path, options, fields,
-                                         crs, **habitat_fields))
+    return compute_region(
+        prepare_region(
+            farms_path, weather_path, habitats_path, options, fields, crs, **habitat_fields
+        )
+    )

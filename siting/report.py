@@ -324,9 +324,7 @@ def _summary_table(sites: pd.DataFrame) -> str:
     ]
     if show_incomb:
         head_sub.append(header_html("In-comb.", "% of load"))
-    head = (
-        f"<tr>{head_top}</tr><tr>" + "".join(f"<th>{h}</th>" for h in head_sub) + "</tr>"
-    )
+    head = f"<tr>{head_top}</tr><tr>" + "".join(f"<th>{h}</th>" for h in head_sub) + "</tr>"
     rows = []
     number_cell, verdict_cell = _cached(_number_cell), _cached(_verdict_cell)
     sub_html = _cached(lambda v: "" if is_missing(v) else f'<span class="sub">{esc(v)}</span>')
@@ -390,8 +388,9 @@ def _change_table(sites: pd.DataFrame) -> str:
     Columns that are empty for every site (e.g. no background in the habitat layer) are left
     out; returns "" when none is present.
     """
-    columns = [c for c in _CHANGE_COLUMNS
-               if c[0] in sites and any(not is_missing(v) for v in sites[c[0]])]
+    columns = [
+        c for c in _CHANGE_COLUMNS if c[0] in sites and any(not is_missing(v) for v in sites[c[0]])
+    ]
     if not columns:
         return ""
     head = "<th>Site</th>" + "".join(
@@ -421,8 +420,7 @@ def _source_ids(sources: pd.DataFrame) -> list[str]:
     for column in ("source_id", "id"):
         if column in sources:
             return [
-                str(v) if not is_missing(v) else f"#{i + 1}"
-                for i, v in enumerate(sources[column])
+                str(v) if not is_missing(v) else f"#{i + 1}" for i, v in enumerate(sources[column])
             ]
     return [f"#{i + 1}" for i in range(len(sources))]
 
@@ -549,8 +547,7 @@ def _habitat_table(values: pd.DataFrame) -> str:
         rows.append(f"<tr>{''.join(cells)}</tr>")
     return (
         f'<div class="table-wrap"><table class="fit"><thead><tr>{"".join(head)}</tr></thead>'
-        f"<tbody>{''.join(rows)}</tbody></table></div>"
-        + notes.html("Where the values come from")
+        f"<tbody>{''.join(rows)}</tbody></table></div>" + notes.html("Where the values come from")
     )
 
 
@@ -611,7 +608,7 @@ def _cautious_section(choices, sites: pd.DataFrame, summary, end: str = "lower")
     ]
     if choices:
         rows = "".join(
-            f"<tr><th scope=\"row\">{esc(c)}</th><td>{esc(used)}</td><td>{esc(alt)}</td></tr>"
+            f'<tr><th scope="row">{esc(c)}</th><td>{esc(used)}</td><td>{esc(alt)}</td></tr>'
             for c, used, alt in choices
         )
         parts.append(
@@ -627,18 +624,29 @@ def _cautious_section(choices, sites: pd.DataFrame, summary, end: str = "lower")
         f"<th>{header_html('Site')}</th>"
         f"<th>{header_html('Critical level', 'µg NH3/m³, and why')}</th>"
         f"<th>{header_html('Critical load', 'kg N/ha/yr, review and end of range')}</th>"
-        + (f"<th>{header_html('Without depletion', '% of critical load')}</th>" if undepleted else "")
+        + (
+            f"<th>{header_html('Without depletion', '% of critical load')}</th>"
+            if undepleted
+            else ""
+        )
         + f"<th>{header_html('Sensitivity range', '% of critical load')}</th>"
         f"<th>{header_html('Sensitivity range', '% of critical level')}</th>"
         f"<th>{header_html('Verdict flips under')}</th>"
     )
     rows = []
-    level_cell = _cached(lambda level, basis: (
-        f"<td>{esc(format_for_column(level, 'critical_level_ug_m3'))}"
-        + ("" if is_missing(basis) else f'<span class="sub">{esc(basis)}</span>') + "</td>"))
-    load_cell = _cached(lambda load, review: (
-        f"<td>{esc(format_for_column(load, _LOAD))}"
-        f'<span class="sub">{esc(review)} review, {esc(end)} end</span></td>'))
+    level_cell = _cached(
+        lambda level, basis: (
+            f"<td>{esc(format_for_column(level, 'critical_level_ug_m3'))}"
+            + ("" if is_missing(basis) else f'<span class="sub">{esc(basis)}</span>')
+            + "</td>"
+        )
+    )
+    load_cell = _cached(
+        lambda load, review: (
+            f"<td>{esc(format_for_column(load, _LOAD))}"
+            f'<span class="sub">{esc(review)} review, {esc(end)} end</span></td>'
+        )
+    )
     columns = ["name", "critical_level_basis", "critical_level_ug_m3", _LOAD,
                "critical_load_review", _UNDEPLETED]  # fmt: skip
     for row in _records(sites, columns):
@@ -785,9 +793,7 @@ def write_report(
         key = "not assessed" if is_missing(verdict) else str(verdict)
         counts[key] = counts.get(key, 0) + 1
     count_text = "; ".join(f"{n} {k}" for k, n in counts.items()) or "no sites"
-    n_flags = sum(
-        1 for c in _FLAG_ROWS if c in sources for v in sources[c] if not is_missing(v)
-    )
+    n_flags = sum(1 for c in _FLAG_ROWS if c in sources for v in sources[c] if not is_missing(v))
     flag_line = (
         f'<p class="caution-line">{n_flags} source{"s use" if n_flags > 1 else " uses"} an '
         "abatement reduction outside its published range: see the ⚠ in section 2.</p>"
@@ -835,9 +841,16 @@ def write_report(
         (
             "cautious",
             "4. Cautious choices and sensitivity",
-            _cautious_section(cautious_choices, sites, sensitivity_summary,
-                              str((run_record.get("parameters") or {}).get("assessment", {})
-                                  .get("critical_load_end", "lower"))),
+            _cautious_section(
+                cautious_choices,
+                sites,
+                sensitivity_summary,
+                str(
+                    (run_record.get("parameters") or {})
+                    .get("assessment", {})
+                    .get("critical_load_end", "lower")
+                ),
+            ),
         ),
         (
             "figures",
@@ -863,8 +876,6 @@ def write_report(
         f"<h1>{esc(title)}</h1>"
         f'<p class="meta">Ammonia screening report · siting {esc(version)} · '
         f"run {esc(run_time)} · scenario {esc(scenario_file)}</p>"
-        f'<nav class="toc"><strong>Contents</strong><ol>{toc}</ol></nav>'
-        + sections_html(sections)
+        f'<nav class="toc"><strong>Contents</strong><ol>{toc}</ol></nav>' + sections_html(sections)
     )
-    Path(path).write_text(page_html(f"{title} · siting report", SHARED_CSS, body),
-                          encoding="utf-8")
+    Path(path).write_text(page_html(f"{title} · siting report", SHARED_CSS, body), encoding="utf-8")

@@ -116,8 +116,7 @@ def _file_hash_table(files: Mapping[str, Any], first_header: str) -> str:
             file_html = f"<td>{esc(pure.name)}{folder_html}</td>"
         key_html = f"<td>{code_html(key)}</td>" if show_key else ""
         rows.append(
-            f"<tr>{key_html}{file_html}"
-            f'<td class="mono">{esc(entry.get("sha256"))}</td></tr>'
+            f'<tr>{key_html}{file_html}<td class="mono">{esc(entry.get("sha256"))}</td></tr>'
         )
     key_head = f"<th>{html.escape(first_header)}</th>" if show_key else ""
     return (
@@ -130,9 +129,7 @@ def run_record_html(record: Mapping[str, Any]) -> str:
     """Section 7: the run record as tables (files and hashes, grid, versions) plus raw JSON."""
     parts = []
     done = set()
-    overview = {
-        k: v for k, v in record.items() if not isinstance(v, (Mapping, list, tuple))
-    }
+    overview = {k: v for k, v in record.items() if not isinstance(v, (Mapping, list, tuple))}
     labels = {"tool": "Tool", "version": "Version", "run_time_utc": "Run time (UTC)",
               "title": "Title"}  # fmt: skip
     if overview:
@@ -149,8 +146,10 @@ def run_record_html(record: Mapping[str, Any]) -> str:
         grid_labels = {"west_m": "West edge [m]", "north_m": "North edge [m]",
                        "cell_m": "Cell size [m]", "n_cols": "Columns", "n_rows": "Rows",
                        "crs": "Coordinate reference system"}  # fmt: skip
-        parts.append("<h4>Receptor grid</h4>" + key_value_table(record["grid"], grid_labels, "",
-                                                                  css="compact"))
+        parts.append(
+            "<h4>Receptor grid</h4>"
+            + key_value_table(record["grid"], grid_labels, "", css="compact")
+        )
         done.add("grid")
     if isinstance(record.get("versions"), Mapping) and record["versions"]:
         versions = record["versions"]
@@ -165,8 +164,10 @@ def run_record_html(record: Mapping[str, Any]) -> str:
     if isinstance(record.get("timings_s"), Mapping) and record["timings_s"]:
         timing_labels = {k: plain_label(k) for k in record["timings_s"]}
         timing_labels["receptors"] = "Receptor points computed"
-        parts.append("<h4>Timings</h4>" + key_value_table(record["timings_s"], timing_labels, "",
-                                                          css="compact"))
+        parts.append(
+            "<h4>Timings</h4>"
+            + key_value_table(record["timings_s"], timing_labels, "", css="compact")
+        )
         done.add("timings_s")
     elsewhere = [(k, where) for k, where in _RECORD_SHOWN_ELSEWHERE.items() if k in record]
     done |= {k for k, _ in elsewhere} | {"parameters"}

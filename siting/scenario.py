@@ -63,8 +63,10 @@ class WeatherSection(_Section):
         if (self.frequency_table is None) == (self.hourly is None):
             raise ValueError("give exactly one of frequency_table or hourly")
         if self.sigma_scheme == "pasquill_gifford" and self.land_type == "urban":
-            raise ValueError("the Pasquill-Gifford curve fits are rural only; use "
-                             'sigma_scheme = "briggs" with land_type = "urban"')
+            raise ValueError(
+                "the Pasquill-Gifford curve fits are rural only; use "
+                'sigma_scheme = "briggs" with land_type = "urban"'
+            )
         return self
 
 
@@ -192,31 +194,44 @@ class SourceSpec(_Section):
             raise ValueError("give either nh3_kg_per_year or livestock/housing/places, not both")
         if self.nh3_kg_per_year is None and len(derived) != 3:
             missing = [k for k in ("livestock", "housing", "places") if k not in derived]
-            raise ValueError("needs nh3_kg_per_year, or livestock, housing and places "
-                             f"(missing: {', '.join(missing)})")
+            raise ValueError(
+                "needs nh3_kg_per_year, or livestock, housing and places "
+                f"(missing: {', '.join(missing)})"
+            )
         if self.kind in ("volume", "area") and (self.width_m is None or self.length_m is None):
             raise ValueError(f"a {self.kind} source needs width_m and length_m")
         if self.kind == "point" and (self.width_m is not None or self.length_m is not None):
-            raise ValueError("width_m/length_m apply to volume and area sources; "
-                             'set kind = "volume" or "area"')
+            raise ValueError(
+                'width_m/length_m apply to volume and area sources; set kind = "volume" or "area"'
+            )
         if self.kind != "point" and (self.diameter_m or self.exit_velocity_m_s):
             raise ValueError("diameter_m/exit_velocity_m_s apply to point sources only")
         if self.exit_velocity_m_s and not self.diameter_m:
             raise ValueError("exit_velocity_m_s needs diameter_m (plume rise uses both)")
-        if (self.reduction_percent is not None or self.treated_air_fraction is not None
-                or self.scrubber_design_share is not None
-                or self.reduction_basis is not None) and self.abatement is None:
-            raise ValueError("reduction_percent/reduction_basis/treated_air_fraction/"
-                             "scrubber_design_share need an abatement technique")
+        if (
+            self.reduction_percent is not None
+            or self.treated_air_fraction is not None
+            or self.scrubber_design_share is not None
+            or self.reduction_basis is not None
+        ) and self.abatement is None:
+            raise ValueError(
+                "reduction_percent/reduction_basis/treated_air_fraction/"
+                "scrubber_design_share need an abatement technique"
+            )
         if self.reduction_basis is not None and self.reduction_percent is None:
-            raise ValueError("reduction_basis states the basis of a reduction_percent; "
-                             "give the reduction_percent it supports")
+            raise ValueError(
+                "reduction_basis states the basis of a reduction_percent; "
+                "give the reduction_percent it supports"
+            )
         if self.building_width_m is not None and self.building_height_m is None:
-            raise ValueError("building_width_m needs building_height_m (the wake height "
-                             "depends on both)")
+            raise ValueError(
+                "building_width_m needs building_height_m (the wake height depends on both)"
+            )
         if self.treated_air_fraction is not None and self.scrubber_design_share is not None:
-            raise ValueError("give treated_air_fraction or scrubber_design_share (from which the "
-                             "treated share is computed over the hourly record), not both")
+            raise ValueError(
+                "give treated_air_fraction or scrubber_design_share (from which the "
+                "treated share is computed over the hourly record), not both"
+            )
         return self
 
 
@@ -265,7 +280,11 @@ def _where(loc: tuple, raw: dict) -> tuple[str, str]:
         if key == "source" and i + 1 < len(loc) and isinstance(loc[i + 1], int):
             idx = loc[i + 1]
             sources = raw.get("source") or []
-            sid = sources[idx].get("id") if idx < len(sources) and isinstance(sources[idx], dict) else None
+            sid = (
+                sources[idx].get("id")
+                if idx < len(sources) and isinstance(sources[idx], dict)
+                else None
+            )
             section.append(f'source "{sid}"' if sid else f"[[source]] #{idx + 1}")
             i += 2
             continue
@@ -309,7 +328,9 @@ def _format_error(exc: ValidationError, raw: dict, filename: str) -> str:
     kind, got = err["type"], err.get("input")
     if kind == "extra_forbidden":
         hint = suggest(loc[-1], _known_keys(loc)) if loc else ""
-        return f"{prefix}: unknown key {key}{hint or ' (check the spelling; see the demo scenario)'}"
+        return (
+            f"{prefix}: unknown key {key}{hint or ' (check the spelling; see the demo scenario)'}"
+        )
     if kind == "missing":
         return f"{prefix}: missing key {key}"
     if kind not in _PLAIN_TYPES:
@@ -321,9 +342,21 @@ def _format_error(exc: ValidationError, raw: dict, filename: str) -> str:
 
 
 #: pydantic error types worded by errors.validation_wording (others keep pydantic's message)
-_PLAIN_TYPES = ("greater_than_equal", "greater_than", "less_than_equal", "less_than",
-                "float_parsing", "float_type", "int_parsing", "bool_type", "bool_parsing",
-                "string_type", "literal_error", "too_short", "finite_number")
+_PLAIN_TYPES = (
+    "greater_than_equal",
+    "greater_than",
+    "less_than_equal",
+    "less_than",
+    "float_parsing",
+    "float_type",
+    "int_parsing",
+    "bool_type",
+    "bool_parsing",
+    "string_type",
+    "literal_error",
+    "too_short",
+    "finite_number",
+)
 
 
 _CRS_FIX = "give a projected CRS in metres, e.g. the UTM zone of the site (EPSG:326xx north)"
@@ -350,15 +383,16 @@ def projected_crs(crs, where: str, fix: str = _CRS_FIX) -> str:
     return label
 
 
-def _resolve(path: Path | None, folder: Path, key: str, filename: str,
-             moved: dict[str, Path] | None = None) -> Path | None:
+def _resolve(
+    path: Path | None, folder: Path, key: str, filename: str, moved: dict[str, Path] | None = None
+) -> Path | None:
     if path is None:
         return None
     full = (folder / path).resolve() if not path.is_absolute() else path
     if moved and str(full) in moved:
         full = Path(moved[str(full)])
     if not full.exists():
-        raise InputFileError(f"{filename}: {key} = \"{path}\": file not found ({full})")
+        raise InputFileError(f'{filename}: {key} = "{path}": file not found ({full})')
     return full
 
 
@@ -393,13 +427,20 @@ def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Sce
     hourly_needed = [s.id for s in scenario.sources if s.scrubber_design_share is not None]
     if scenario.weather.hourly is None:
         if hourly_needed or scenario.seasonal.temperature_dependent_emission:
-            what = (f'source "{hourly_needed[0]}": scrubber_design_share' if hourly_needed
-                    else "seasonal.temperature_dependent_emission")
-            raise InputError(f"{path.name}: {what} needs an hourly weather record with "
-                             "temperature_c (weather.hourly)")
+            what = (
+                f'source "{hourly_needed[0]}": scrubber_design_share'
+                if hourly_needed
+                else "seasonal.temperature_dependent_emission"
+            )
+            raise InputError(
+                f"{path.name}: {what} needs an hourly weather record with "
+                "temperature_c (weather.hourly)"
+            )
         if scenario.weather.direction_step_deg is not None:
-            raise InputError(f"{path.name}: weather.direction_step_deg applies to an hourly "
-                             "record (weather.hourly); a frequency table's sectors set its own")
+            raise InputError(
+                f"{path.name}: weather.direction_step_deg applies to an hourly "
+                "record (weather.hourly); a frequency table's sectors set its own"
+            )
     folder = path.resolve().parent
     hourly = scenario.weather.hourly
     if hourly is not None:
@@ -407,30 +448,60 @@ def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Sce
         if not files:
             raise InputError(f"{path.name}: weather.hourly: give at least one file")
         hourly = [_resolve(f, folder, "weather.hourly", path.name, moved) for f in files]
-    weather = scenario.weather.model_copy(update={
-        "frequency_table": _resolve(scenario.weather.frequency_table, folder,
-                                    "weather.frequency_table", path.name, moved),
-        "hourly": hourly})
-    habitats = scenario.habitats.model_copy(update={
-        "file": _resolve(scenario.habitats.file, folder, "habitats.file", path.name, moved)})
+    weather = scenario.weather.model_copy(
+        update={
+            "frequency_table": _resolve(
+                scenario.weather.frequency_table,
+                folder,
+                "weather.frequency_table",
+                path.name,
+                moved,
+            ),
+            "hourly": hourly,
+        }
+    )
+    habitats = scenario.habitats.model_copy(
+        update={"file": _resolve(scenario.habitats.file, folder, "habitats.file", path.name, moved)}
+    )
     receptors = scenario.receptors
     if receptors is not None:
-        receptors = receptors.model_copy(update={
-            "file": _resolve(receptors.file, folder, "receptors.file", path.name, moved)})
+        receptors = receptors.model_copy(
+            update={"file": _resolve(receptors.file, folder, "receptors.file", path.name, moved)}
+        )
     assessment = scenario.assessment
     if assessment.config_dir is not None:
-        assessment = assessment.model_copy(update={
-            "config_dir": _resolve(assessment.config_dir, folder, "assessment.config_dir",
-                                   path.name, moved)})
+        assessment = assessment.model_copy(
+            update={
+                "config_dir": _resolve(
+                    assessment.config_dir, folder, "assessment.config_dir", path.name, moved
+                )
+            }
+        )
     holding = scenario.holding
     if holding is not None:
-        exclusions = [e.model_copy(update={"file": _resolve(e.file, folder,
-                                                            f"holding.exclusion #{i} file",
-                                                            path.name, moved)})
-                      for i, e in enumerate(holding.exclusion, start=1)]
-        holding = holding.model_copy(update={
-            "file": _resolve(holding.file, folder, "holding.file", path.name, moved),
-            "exclusion": exclusions})
-    return scenario.model_copy(update={"weather": weather, "habitats": habitats,
-                                       "receptors": receptors, "assessment": assessment,
-                                       "holding": holding, "path": path.resolve()})
+        exclusions = [
+            e.model_copy(
+                update={
+                    "file": _resolve(
+                        e.file, folder, f"holding.exclusion #{i} file", path.name, moved
+                    )
+                }
+            )
+            for i, e in enumerate(holding.exclusion, start=1)
+        ]
+        holding = holding.model_copy(
+            update={
+                "file": _resolve(holding.file, folder, "holding.file", path.name, moved),
+                "exclusion": exclusions,
+            }
+        )
+    return scenario.model_copy(
+        update={
+            "weather": weather,
+            "habitats": habitats,
+            "receptors": receptors,
+            "assessment": assessment,
+            "holding": holding,
+            "path": path.resolve(),
+        }
+    )

@@ -70,7 +70,7 @@ class ScreenResult:
     weather_summary: dict
     sources: pd.DataFrame
     source_geometries: list
-    sites: "object"  # GeoDataFrame
+    sites: object  # GeoDataFrame
     receptors: pd.DataFrame
     fields: dict[str, np.ndarray]
     warnings: list[str] = field(default_factory=list)
@@ -98,17 +98,26 @@ def outlet_rise(src: SourceSpec) -> tuple[bool, str]:
     if not src.exit_velocity_m_s or not src.diameter_m:
         return False, "no exit velocity given: no rise"
     if src.building_height_m is None:
-        return False, ("no building dimensions given (building_height_m): taken to be in the "
-                       "wake of the house it serves, no rise")
+        return False, (
+            "no building dimensions given (building_height_m): taken to be in the "
+            "wake of the house it serves, no rise"
+        )
     wake_m = gep_stack_height_m(src.building_height_m, src.building_width_m)
-    width = (f"{src.building_width_m:g} m wide" if src.building_width_m is not None
-             else "width taken as its height")
+    width = (
+        f"{src.building_width_m:g} m wide"
+        if src.building_width_m is not None
+        else "width taken as its height"
+    )
     building = f"building {src.building_height_m:g} m high, {width}"
     if src.height_m >= wake_m:
-        return True, (f"outlet {src.height_m:g} m is at or above the wake height {wake_m:g} m "
-                      f"({building}): momentum rise")
-    return False, (f"outlet {src.height_m:g} m is below the wake height {wake_m:g} m "
-                   f"({building}): in the building wake, no rise")
+        return True, (
+            f"outlet {src.height_m:g} m is at or above the wake height {wake_m:g} m "
+            f"({building}): momentum rise"
+        )
+    return False, (
+        f"outlet {src.height_m:g} m is below the wake height {wake_m:g} m "
+        f"({building}): in the building wake, no rise"
+    )
 
 
 def _source_elements(src: SourceSpec) -> tuple[list[ReleaseElement], object]:
@@ -118,17 +127,41 @@ def _source_elements(src: SourceSpec) -> tuple[list[ReleaseElement], object]:
 
     if src.kind == "point":
         rise, _ = outlet_rise(src)
-        return ([ReleaseElement(src.x, src.y, src.height_m, diameter_m=src.diameter_m or 0.0,
-                                exit_velocity_m_s=src.exit_velocity_m_s or 0.0,
-                                plume_rise=rise, stack_tip_downwash=bool(src.diameter_m))],
-                shapely.Point(src.x, src.y))
-    rect = shapely.box(src.x - src.width_m / 2, src.y - src.length_m / 2,
-                       src.x + src.width_m / 2, src.y + src.length_m / 2)
+        return (
+            [
+                ReleaseElement(
+                    src.x,
+                    src.y,
+                    src.height_m,
+                    diameter_m=src.diameter_m or 0.0,
+                    exit_velocity_m_s=src.exit_velocity_m_s or 0.0,
+                    plume_rise=rise,
+                    stack_tip_downwash=bool(src.diameter_m),
+                )
+            ],
+            shapely.Point(src.x, src.y),
+        )
+    rect = shapely.box(
+        src.x - src.width_m / 2,
+        src.y - src.length_m / 2,
+        src.x + src.width_m / 2,
+        src.y + src.length_m / 2,
+    )
     footprint = affinity.rotate(rect, -src.angle_deg, origin=(src.x, src.y))
     if src.kind == "area":
         size = max(5.0, math.sqrt(src.width_m * src.length_m / AREA_MAX_ELEMENTS))
-        return (rectangle_elements(src.x, src.y, src.width_m, src.length_m, src.angle_deg,
-                                   src.height_m, element_size_m=size), footprint)
+        return (
+            rectangle_elements(
+                src.x,
+                src.y,
+                src.width_m,
+                src.length_m,
+                src.angle_deg,
+                src.height_m,
+                element_size_m=size,
+            ),
+            footprint,
+        )
     # volume: a line of adjacent volumes along the length axis, each roughly square;
     # sigma_y0 = side / 4.3, sigma_z0 = building height / 2.15 (EPA1992 initial dimensions)
     n = max(1, int(round(src.length_m / src.width_m)))
@@ -136,10 +169,21 @@ def _source_elements(src: SourceSpec) -> tuple[list[ReleaseElement], object]:
     building_m = src.building_height_m or src.height_m
     a = math.radians(src.angle_deg)
     offsets = (np.arange(n) + 0.5) * src.length_m / n - src.length_m / 2
-    return ([ReleaseElement(src.x + t * math.sin(a), src.y + t * math.cos(a), src.height_m,
-                            sigma_y0_m=side / 4.3, sigma_z0_m=building_m / 2.15,
-                            share_fraction=1.0 / n, min_distance_m=side / 2)
-             for t in offsets], footprint)
+    return (
+        [
+            ReleaseElement(
+                src.x + t * math.sin(a),
+                src.y + t * math.cos(a),
+                src.height_m,
+                sigma_y0_m=side / 4.3,
+                sigma_z0_m=building_m / 2.15,
+                share_fraction=1.0 / n,
+                min_distance_m=side / 2,
+            )
+            for t in offsets
+        ],
+        footprint,
+    )
 
 
 def reduction_basis(src: SourceSpec, technique: dict) -> tuple[str, str]:
@@ -157,13 +201,17 @@ def reduction_basis(src: SourceSpec, technique: dict) -> tuple[str, str]:
         return src.reduction_basis or f"stated in the scenario ({src.reduction_percent:g} %)", ""
     if src.reduction_basis:
         return f"claimed: {src.reduction_basis}", ""
-    return ("claimed, no basis stated", f"reduction {src.reduction_percent:g} % is above the "
-            f"lower end {lo:g} % of the published range with no reduction_basis "
-            "(certificate, measurement); it is used as claimed")
+    return (
+        "claimed, no basis stated",
+        f"reduction {src.reduction_percent:g} % is above the "
+        f"lower end {lo:g} % of the published range with no reduction_basis "
+        "(certificate, measurement); it is used as claimed",
+    )
 
 
-def derive_sources(scenario: Scenario, tables: Tables,
-                   treated_shares: dict[str, float] | None = None) -> tuple[pd.DataFrame, list[str]]:
+def derive_sources(
+    scenario: Scenario, tables: Tables, treated_shares: dict[str, float] | None = None
+) -> tuple[pd.DataFrame, list[str]]:
     """One row per source: the emission derivation down to g/s, with range flags.
 
     ``treated_shares`` holds, for sources with a scrubber_design_share, the share of the year's
@@ -180,21 +228,28 @@ def derive_sources(scenario: Scenario, tables: Tables,
         flag = basis = ""
         if src.abatement:
             technique = tables.technique(src.abatement, where)
-            reduction = (src.reduction_percent if src.reduction_percent is not None
-                         else default_reduction_percent(technique))
+            reduction = (
+                src.reduction_percent
+                if src.reduction_percent is not None
+                else default_reduction_percent(technique)
+            )
             basis, claim_warning = reduction_basis(src, technique)
             if claim_warning:
                 warnings.append(f"{where}: {claim_warning}")
             treated = src.treated_air_fraction if src.treated_air_fraction is not None else 1.0
             if src.scrubber_design_share is not None:
                 if technique["kind"] != "scrubber":
-                    raise InputError(f"{where}: scrubber_design_share applies to scrubbers; "
-                                     f'"{src.abatement}" is a {technique["kind"]}')
+                    raise InputError(
+                        f"{where}: scrubber_design_share applies to scrubbers; "
+                        f'"{src.abatement}" is a {technique["kind"]}'
+                    )
                 treated = treated_shares[src.id]
             lo, hi = technique["reduction_percent_min"], technique["reduction_percent_max"]
             if not lo <= reduction <= hi:
-                flag = (f"reduction {reduction:g} % is outside the published range "
-                        f"{lo:g}-{hi:g} % for {technique['name']}")
+                flag = (
+                    f"reduction {reduction:g} % is outside the published range "
+                    f"{lo:g}-{hi:g} % for {technique['name']}"
+                )
                 warnings.append(f"{where}: {flag}")
         is_scrubber = bool(technique) and technique["kind"] == "scrubber"
         rise, rise_basis = outlet_rise(src)
@@ -202,36 +257,51 @@ def derive_sources(scenario: Scenario, tables: Tables,
             nh3_unabated_kg_yr=src.nh3_kg_per_year,
             factor_nh3_kg_per_place_yr=factor_row["nh3_kg_per_place_yr"] if factor_row else None,
             places=src.places if factor_row else None,
-            reduction_percent=reduction, treated_air_fraction=treated,
+            reduction_percent=reduction,
+            treated_air_fraction=treated,
             effluent_kg_n_per_m3=technique.get("effluent_kg_n_per_m3") if technique else None,
-            captures_in_effluent=is_scrubber)
-        rows.append({
-            "source_id": src.id, "kind": src.kind, "role": src.role, "x_m": src.x, "y_m": src.y,
-            "height_m": src.height_m,
-            "plume_rise": ("yes" if rise else "no") if src.kind == "point" else "",
-            "plume_rise_basis": rise_basis, "livestock": src.livestock or "",
-            "housing": src.housing or "", "places": src.places,
-            "factor_nh3_kg_per_place_yr": d.factor_nh3_kg_per_place_yr,
-            "factor_source": factor_row["source"] if factor_row else "given in scenario",
-            "nh3_unabated_kg_yr": d.nh3_unabated_kg_yr,
-            "abatement": src.abatement or "",
-            "reduction_percent": d.reduction_percent if src.abatement else np.nan,
-            "reduction_range_percent": (f"{technique['reduction_percent_min']:g}-"
-                                        f"{technique['reduction_percent_max']:g}"
-                                        if technique else ""),
-            "reduction_source": technique["source"] if technique else "",
-            "reduction_basis": basis,
-            "reduction_flag": flag,
-            "scrubber_design_share": (src.scrubber_design_share
-                                      if src.scrubber_design_share is not None else np.nan),
-            "treated_air_fraction": d.treated_air_fraction if src.abatement else np.nan,
-            "effective_reduction_percent": d.effective_reduction_percent,
-            "nh3_kg_yr": d.nh3_kg_yr,
-            "emission_g_s": d.emission_g_s,
-            "nh3_removed_kg_yr": d.nh3_removed_kg_yr,
-            "n_captured_kg_yr": d.n_captured_kg_yr if d.n_captured_kg_yr is not None else np.nan,
-            "effluent_m3_yr": d.effluent_m3_yr if d.effluent_m3_yr is not None else np.nan,
-        })
+            captures_in_effluent=is_scrubber,
+        )
+        rows.append(
+            {
+                "source_id": src.id,
+                "kind": src.kind,
+                "role": src.role,
+                "x_m": src.x,
+                "y_m": src.y,
+                "height_m": src.height_m,
+                "plume_rise": ("yes" if rise else "no") if src.kind == "point" else "",
+                "plume_rise_basis": rise_basis,
+                "livestock": src.livestock or "",
+                "housing": src.housing or "",
+                "places": src.places,
+                "factor_nh3_kg_per_place_yr": d.factor_nh3_kg_per_place_yr,
+                "factor_source": factor_row["source"] if factor_row else "given in scenario",
+                "nh3_unabated_kg_yr": d.nh3_unabated_kg_yr,
+                "abatement": src.abatement or "",
+                "reduction_percent": d.reduction_percent if src.abatement else np.nan,
+                "reduction_range_percent": (
+                    f"{technique['reduction_percent_min']:g}-{technique['reduction_percent_max']:g}"
+                    if technique
+                    else ""
+                ),
+                "reduction_source": technique["source"] if technique else "",
+                "reduction_basis": basis,
+                "reduction_flag": flag,
+                "scrubber_design_share": (
+                    src.scrubber_design_share if src.scrubber_design_share is not None else np.nan
+                ),
+                "treated_air_fraction": d.treated_air_fraction if src.abatement else np.nan,
+                "effective_reduction_percent": d.effective_reduction_percent,
+                "nh3_kg_yr": d.nh3_kg_yr,
+                "emission_g_s": d.emission_g_s,
+                "nh3_removed_kg_yr": d.nh3_removed_kg_yr,
+                "n_captured_kg_yr": d.n_captured_kg_yr
+                if d.n_captured_kg_yr is not None
+                else np.nan,
+                "effluent_m3_yr": d.effluent_m3_yr if d.effluent_m3_yr is not None else np.nan,
+            }
+        )
     return pd.DataFrame(rows), warnings
 
 
@@ -250,11 +320,17 @@ def _read_hourly(scenario: Scenario):
 
     lat, lon = site_lat_lon(scenario)
     w = scenario.weather
-    return read_hourly_record(w.hourly, lat, lon, anemometer_height_m=w.anemometer_height_m,
-                              utc_offset_h=w.utc_offset_h, calm_threshold_m_s=w.calm_threshold_m_s,
-                              min_wind_speed_m_s=w.min_wind_speed_m_s,
-                              max_missing_percent=w.max_missing_percent,
-                              direction_step_deg=w.direction_step_deg)
+    return read_hourly_record(
+        w.hourly,
+        lat,
+        lon,
+        anemometer_height_m=w.anemometer_height_m,
+        utc_offset_h=w.utc_offset_h,
+        calm_threshold_m_s=w.calm_threshold_m_s,
+        min_wind_speed_m_s=w.min_wind_speed_m_s,
+        max_missing_percent=w.max_missing_percent,
+        direction_step_deg=w.direction_step_deg,
+    )
 
 
 def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summary: dict):
@@ -275,17 +351,23 @@ def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summar
     temperature_c = weather.temperature_c
     partial = [s for s in scenario.sources if s.scrubber_design_share is not None]
     needs_temperature = bool(cfg.temperature_dependent_emission) or (
-        bool(partial) and cfg.temperature_dependent_emission is not False)
+        bool(partial) and cfg.temperature_dependent_emission is not False
+    )
     if needs_temperature and not np.isfinite(temperature_c).all():
         missing = ~np.isfinite(temperature_c)
         first = str(np.asarray(weather.time_utc)[np.flatnonzero(missing)[0]]).replace("T", " ")
         files = ", ".join(Path(p).name for p in scenario.weather.hourly or [])
-        raise InputError(f"weather.hourly {files}: {int(missing.sum())} hour(s) have no "
-                         f"temperature_c (the first at {first} UTC), which [seasonal] emission "
-                         "or scrubber_design_share need")
+        raise InputError(
+            f"weather.hourly {files}: {int(missing.sum())} hour(s) have no "
+            f"temperature_c (the first at {first} UTC), which [seasonal] emission "
+            "or scrubber_design_share need"
+        )
     flat = np.ones(weather.n_hours)
-    varying = (temperature_emission_weights(temperature_c, cfg.emission_coefficient_per_k)
-               if needs_temperature else flat)
+    varying = (
+        temperature_emission_weights(temperature_c, cfg.emission_coefficient_per_k)
+        if needs_temperature
+        else flat
+    )
     base = varying if cfg.temperature_dependent_emission else flat
     weights, treated = {}, {}
     for src in scenario.sources:
@@ -297,28 +379,42 @@ def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summar
         # ventilation, when a part-sized scrubber treats the smallest share, count most
         own = flat if cfg.temperature_dependent_emission is False else varying
         technique = tables.technique(src.abatement, f'source "{src.id}"')
-        reduction = (src.reduction_percent if src.reduction_percent is not None
-                     else default_reduction_percent(technique)) / 100.0
-        r = ventilation_fraction(temperature_c, cfg.min_ventilation_fraction,
-                                 cfg.ventilation_ramp_start_c, cfg.ventilation_ramp_end_c)
+        reduction = (
+            src.reduction_percent
+            if src.reduction_percent is not None
+            else default_reduction_percent(technique)
+        ) / 100.0
+        r = ventilation_fraction(
+            temperature_c,
+            cfg.min_ventilation_fraction,
+            cfg.ventilation_ramp_start_c,
+            cfg.ventilation_ramp_end_c,
+        )
         treated[src.id] = treated_ammonia_share(r, src.scrubber_design_share, own)
         hourly_treated = np.minimum(r, src.scrubber_design_share) / r
         after = own * (1.0 - reduction * hourly_treated)
         weights[src.id] = after / after.mean() if after.mean() > 0 else own
         summary.setdefault("scrubber_treated_share", {})[src.id] = {
-            "design_share": src.scrubber_design_share,   # of the maximum ventilation rate
-            "treated_share": treated[src.id],            # of the year's ammonia
+            "design_share": src.scrubber_design_share,  # of the maximum ventilation rate
+            "treated_share": treated[src.id],  # of the year's ammonia
             "treated_share_of_hours": treated_ammonia_share(r, src.scrubber_design_share),
-            "hours_weighted_by": ("emission, temperature dependent" if own is varying
-                                  else "nothing (flat emission: switched off)")}
-    profile = (f"temperature dependent, exp({cfg.emission_coefficient_per_k:g} x (T - mean T)),"
-               " normalised to the annual total")
+            "hours_weighted_by": (
+                "emission, temperature dependent"
+                if own is varying
+                else "nothing (flat emission: switched off)"
+            ),
+        }
+    profile = (
+        f"temperature dependent, exp({cfg.emission_coefficient_per_k:g} x (T - mean T)),"
+        " normalised to the annual total"
+    )
     if cfg.temperature_dependent_emission:
         summary["emission_profile"] = profile
     elif needs_temperature:
         summary["emission_profile"] = (
             f"{profile}, for the partly scrubbed source(s) {', '.join(s.id for s in partial)} "
-            "(their treated share is a share of the year's ammonia); flat for the others")
+            "(their treated share is a share of the year's ammonia); flat for the others"
+        )
     return weights, treated
 
 
@@ -333,26 +429,33 @@ def _read_named_receptors(scenario: Scenario, tables: Tables) -> pd.DataFrame:
         raise InputError(f"receptors.file {path.name}: cannot read as CSV: {exc}") from exc
     missing = [c for c in ("id", "x", "y") if c not in table.columns]
     if missing:
-        raise InputError(f"receptors.file {path.name}: missing column(s) {', '.join(missing)}; "
-                         "need id,x,y[,land_cover]")
+        raise InputError(
+            f"receptors.file {path.name}: missing column(s) {', '.join(missing)}; "
+            "need id,x,y[,land_cover]"
+        )
     for col in ("x", "y"):
         values = pd.to_numeric(table[col], errors="coerce")
         bad = values.isna() | ~np.isfinite(values.to_numpy(float, na_value=np.nan))
         if bad.any():
             row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
-            raise InputError(f"receptors.file {path.name}, line {row}: {col} must be a finite "
-                             "number")
+            raise InputError(
+                f"receptors.file {path.name}, line {row}: {col} must be a finite number"
+            )
         table[col] = values
     if "land_cover" not in table.columns:
         table["land_cover"] = scenario.deposition.depletion_land_cover
     table["land_cover"] = table["land_cover"].fillna(scenario.deposition.depletion_land_cover)
     unknown = set(table["land_cover"]) - set(tables.deposition_velocities)
     if unknown:
-        raise InputError(f"receptors.file {path.name}: unknown land_cover {sorted(unknown)}; "
-                         f"known: {', '.join(sorted(tables.deposition_velocities))}")
+        raise InputError(
+            f"receptors.file {path.name}: unknown land_cover {sorted(unknown)}; "
+            f"known: {', '.join(sorted(tables.deposition_velocities))}"
+        )
     if table["id"].duplicated().any():
-        raise InputError(f"receptors.file {path.name}: duplicate id "
-                         f"{table['id'][table['id'].duplicated()].iloc[0]!r}")
+        raise InputError(
+            f"receptors.file {path.name}: duplicate id "
+            f"{table['id'][table['id'].duplicated()].iloc[0]!r}"
+        )
     return table[["id", "x", "y", "land_cover"]]
 
 
@@ -361,8 +464,13 @@ def _progress(enabled: bool):
         return None
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 
-    return Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.completed}/{task.total}"),
-                    TimeElapsedColumn(), transient=True)
+    return Progress(
+        TextColumn("{task.description}"),
+        BarColumn(),
+        TextColumn("{task.completed}/{task.total}"),
+        TimeElapsedColumn(),
+        transient=True,
+    )
 
 
 class RunCache:
@@ -386,10 +494,19 @@ class RunCache:
 def _habitats_key(scenario: Scenario, tables: Tables) -> tuple:
     """Everything read_habitats depends on (the layer file by size and modification time)."""
     stat = scenario.habitats.file.stat()
-    return ("habitats", scenario.habitats.model_dump_json(), scenario.crs, stat.st_size,
-            stat.st_mtime_ns, tables.critical_loads, tables.critical_levels, tables.thresholds,
-            tables.deposition_velocities, scenario.assessment.critical_load_end,
-            scenario.assessment.critical_load_review)
+    return (
+        "habitats",
+        scenario.habitats.model_dump_json(),
+        scenario.crs,
+        stat.st_size,
+        stat.st_mtime_ns,
+        tables.critical_loads,
+        tables.critical_levels,
+        tables.thresholds,
+        tables.deposition_velocities,
+        scenario.assessment.critical_load_end,
+        scenario.assessment.critical_load_review,
+    )
 
 
 @dataclass
@@ -416,9 +533,14 @@ class Prepared:
         land_cover = self.scenario.deposition.depletion_land_cover
         return self.tables.deposition_velocities[land_cover]["deposition_velocity_m_s"]
 
-    def unit_concentration_ug_m3(self, source_id: str, elements, receptor_x_m,
-                                 receptor_y_m, settings: DispersionSettings | None = None
-                                 ) -> np.ndarray:
+    def unit_concentration_ug_m3(
+        self,
+        source_id: str,
+        elements,
+        receptor_x_m,
+        receptor_y_m,
+        settings: DispersionSettings | None = None,
+    ) -> np.ndarray:
         """Annual mean concentration [ug m-3] per 1 g s-1 (annual mean) of one source.
 
         ``settings`` replaces the run's dispersion settings (the undepleted twin of a run with
@@ -426,38 +548,67 @@ class Prepared:
         """
         settings = settings or self.settings
         if self.cache is not None:
-            key = ("unit", source_id, elements, settings, self.weather,
-                   self.hour_weights.get(source_id), np.asarray(receptor_x_m),
-                   np.asarray(receptor_y_m))
-            return self.cache.get(key, lambda: Prepared.unit_concentration_ug_m3(
-                dataclasses.replace(self, cache=None), source_id, elements, receptor_x_m,
-                receptor_y_m, settings))
+            key = (
+                "unit",
+                source_id,
+                elements,
+                settings,
+                self.weather,
+                self.hour_weights.get(source_id),
+                np.asarray(receptor_x_m),
+                np.asarray(receptor_y_m),
+            )
+            return self.cache.get(
+                key,
+                lambda: Prepared.unit_concentration_ug_m3(
+                    dataclasses.replace(self, cache=None),
+                    source_id,
+                    elements,
+                    receptor_x_m,
+                    receptor_y_m,
+                    settings,
+                ),
+            )
         if isinstance(self.weather, HourlyWeather):
-            unit = source_hourly_mean_g_m3_per_g_s(receptor_x_m, receptor_y_m, elements,
-                                                   self.weather, settings,
-                                                   self.hour_weights.get(source_id))
+            unit = source_hourly_mean_g_m3_per_g_s(
+                receptor_x_m,
+                receptor_y_m,
+                elements,
+                self.weather,
+                settings,
+                self.hour_weights.get(source_id),
+            )
         else:
-            unit = source_concentration_g_m3_per_g_s(receptor_x_m, receptor_y_m, elements,
-                                                     self.weather, settings)
+            unit = source_concentration_g_m3_per_g_s(
+                receptor_x_m, receptor_y_m, elements, self.weather, settings
+            )
         return unit * UG_PER_G
 
-    def concentration_by_role_ug_m3(self, elements_of_sources, receptor_x_m, receptor_y_m,
-                                    settings: DispersionSettings | None = None,
-                                    advance=None) -> dict[str, np.ndarray]:
+    def concentration_by_role_ug_m3(
+        self,
+        elements_of_sources,
+        receptor_x_m,
+        receptor_y_m,
+        settings: DispersionSettings | None = None,
+        advance=None,
+    ) -> dict[str, np.ndarray]:
         """Annual mean concentration [ug m-3] of each role's sources at the receptors."""
         by_role = {role: np.zeros(np.size(receptor_x_m)) for role in ROLES}
-        for src, elements, emission_g_s in zip(self.scenario.sources, elements_of_sources,
-                                               self.sources["emission_g_s"]):
+        for src, elements, emission_g_s in zip(
+            self.scenario.sources, elements_of_sources, self.sources["emission_g_s"]
+        ):
             if emission_g_s > 0:
                 by_role[src.role] += emission_g_s * self.unit_concentration_ug_m3(
-                    src.id, elements, receptor_x_m, receptor_y_m, settings)
+                    src.id, elements, receptor_x_m, receptor_y_m, settings
+                )
             if advance:
                 advance()
         return by_role
 
 
-def prepare(scenario: Scenario | str | Path, tables: Tables | None = None,
-            cache: RunCache | None = None) -> Prepared:
+def prepare(
+    scenario: Scenario | str | Path, tables: Tables | None = None, cache: RunCache | None = None
+) -> Prepared:
     """Read and check a scenario's tables, weather, sources and habitats (no dispersion).
 
     ``tables`` replaces the lookup tables the scenario names (a sensitivity run); ``cache``
@@ -468,29 +619,41 @@ def prepare(scenario: Scenario | str | Path, tables: Tables | None = None,
     if tables is None:
         tables = load_tables(scenario.assessment.config_dir)
     if scenario.deposition.depletion_land_cover not in tables.deposition_velocities:
-        raise InputError(f'deposition.depletion_land_cover "{scenario.deposition.depletion_land_cover}"'
-                         f" is not in deposition_velocities.toml")
+        raise InputError(
+            f'deposition.depletion_land_cover "{scenario.deposition.depletion_land_cover}"'
+            f" is not in deposition_velocities.toml"
+        )
     if scenario.weather.hourly is None:
         weather, weather_summary, warnings = read_frequency_table(
-            scenario.weather.frequency_table, scenario.weather.anemometer_height_m,
-            scenario.weather.min_wind_speed_m_s)
+            scenario.weather.frequency_table,
+            scenario.weather.anemometer_height_m,
+            scenario.weather.min_wind_speed_m_s,
+        )
         hour_weights = treated_shares = {}
     else:
         weather, weather_summary, warnings = _read_hourly(scenario)
-        hour_weights, treated_shares = _hourly_emission_weights(scenario, tables, weather,
-                                                                weather_summary)
+        hour_weights, treated_shares = _hourly_emission_weights(
+            scenario, tables, weather, weather_summary
+        )
     sources, source_warnings = derive_sources(scenario, tables, treated_shares)
     warnings += source_warnings
-    def habitats():
-        return read_habitats(scenario.habitats, scenario.crs, tables,
-                             scenario.assessment.critical_load_end,
-                             scenario.assessment.critical_load_review)
 
-    sites, habitat_warnings = (cache.get(_habitats_key(scenario, tables), habitats)
-                               if cache is not None else habitats())
+    def habitats():
+        return read_habitats(
+            scenario.habitats,
+            scenario.crs,
+            tables,
+            scenario.assessment.critical_load_end,
+            scenario.assessment.critical_load_review,
+        )
+
+    sites, habitat_warnings = (
+        cache.get(_habitats_key(scenario, tables), habitats) if cache is not None else habitats()
+    )
     warnings += habitat_warnings
     default_vd = tables.deposition_velocities[scenario.deposition.depletion_land_cover][
-        "deposition_velocity_m_s"]
+        "deposition_velocity_m_s"
+    ]
     settings = DispersionSettings(
         scheme=tables.sigma_scheme(scenario.weather.land_type, scenario.weather.sigma_scheme),
         wind_exponents=tables.wind_exponents(scenario.weather.land_type),
@@ -499,23 +662,41 @@ def prepare(scenario: Scenario | str | Path, tables: Tables | None = None,
         memory_budget_mb=scenario.grid.memory_mb,
         wind_below_anemometer=scenario.weather.wind_below_anemometer,
         wind_profile_min_height_m=scenario.weather.wind_profile_min_height_m,
-        min_wind_speed_m_s=scenario.weather.min_wind_speed_m_s)
-    return Prepared(scenario, tables, weather, weather_summary, hour_weights, sources, sites,
-                    settings, warnings, cache)
+        min_wind_speed_m_s=scenario.weather.min_wind_speed_m_s,
+    )
+    return Prepared(
+        scenario,
+        tables,
+        weather,
+        weather_summary,
+        hour_weights,
+        sources,
+        sites,
+        settings,
+        warnings,
+        cache,
+    )
 
 
 def _site_stats(conc_ug_m3, vd_m_s, member_receptor, member_site, member_interior, n_sites):
     """Per-site (max, mean) of concentration [ug m-3] and deposition [kg N ha-1 yr-1]."""
     dep = deposition_kg_n_ha_yr(conc_ug_m3[member_receptor], vd_m_s[member_receptor])
-    c_max, c_mean = assess.site_max_and_mean(conc_ug_m3[member_receptor], member_site,
-                                             member_interior, n_sites)
+    c_max, c_mean = assess.site_max_and_mean(
+        conc_ug_m3[member_receptor], member_site, member_interior, n_sites
+    )
     d_max, d_mean = assess.site_max_and_mean(dep, member_site, member_interior, n_sites)
     return c_max, c_mean, d_max, d_mean
 
 
-def screen(scenario: Scenario | str | Path, *, progress: bool = False,
-           tables: Tables | None = None, with_grid: bool = True,
-           sensitivity: bool = True, cache: RunCache | None = None) -> ScreenResult:
+def screen(
+    scenario: Scenario | str | Path,
+    *,
+    progress: bool = False,
+    tables: Tables | None = None,
+    with_grid: bool = True,
+    sensitivity: bool = True,
+    cache: RunCache | None = None,
+) -> ScreenResult:
     """Run a full screening assessment of a scenario (a file path or a loaded Scenario).
 
     ``tables`` replaces the scenario's lookup tables (used by sensitivity runs);
@@ -535,27 +716,43 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
     warnings = list(prep.warnings)
     named = _read_named_receptors(scenario, tables)
 
-    grid = grid_around([s.x for s in scenario.sources], [s.y for s in scenario.sources],
-                       scenario.grid.margin_m, scenario.grid.spacing_m, scenario.crs)
+    grid = grid_around(
+        [s.x for s in scenario.sources],
+        [s.y for s in scenario.sources],
+        scenario.grid.margin_m,
+        scenario.grid.spacing_m,
+        scenario.crs,
+    )
     if grid.size > MAX_GRID_CELLS:
-        raise InputError(f"grid: {grid.n_cols} x {grid.n_rows} = {grid.size:,} cells exceeds "
-                         f"{MAX_GRID_CELLS:,}; increase grid.spacing_m or reduce grid.margin_m")
+        raise InputError(
+            f"grid: {grid.n_cols} x {grid.n_rows} = {grid.size:,} cells exceeds "
+            f"{MAX_GRID_CELLS:,}; increase grid.spacing_m or reduce grid.margin_m"
+        )
     gx, gy = grid.centres() if with_grid else (np.empty((0, 0)), np.empty((0, 0)))
     extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
     assessed = np.asarray(shapely.intersects(sites.geometry.values, extent), dtype=bool)
     for name in sites.loc[~assessed, "name"]:
-        warnings.append(f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)')
+        warnings.append(
+            f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)'
+        )
 
     elements_and_shapes = [_source_elements(s) for s in scenario.sources]
     assessed_idx = np.flatnonzero(assessed)
     s_index, s_x, s_y, s_interior = site_sample_points(
-        sites.geometry.iloc[assessed_idx], [s.x for s in scenario.sources],
-        [s.y for s in scenario.sources], scenario.grid.spacing_m)
-    b_index, b_x, b_y = site_boundary_points(sites.geometry.iloc[assessed_idx],
-                                             min(scenario.grid.spacing_m, BOUNDARY_SPACING_M))
-    warnings += coarsened_sites(sites.geometry.iloc[assessed_idx], sites["name"].iloc[assessed_idx],
-                                scenario.grid.spacing_m,
-                                min(scenario.grid.spacing_m, BOUNDARY_SPACING_M))
+        sites.geometry.iloc[assessed_idx],
+        [s.x for s in scenario.sources],
+        [s.y for s in scenario.sources],
+        scenario.grid.spacing_m,
+    )
+    b_index, b_x, b_y = site_boundary_points(
+        sites.geometry.iloc[assessed_idx], min(scenario.grid.spacing_m, BOUNDARY_SPACING_M)
+    )
+    warnings += coarsened_sites(
+        sites.geometry.iloc[assessed_idx],
+        sites["name"].iloc[assessed_idx],
+        scenario.grid.spacing_m,
+        min(scenario.grid.spacing_m, BOUNDARY_SPACING_M),
+    )
     s_index = np.concatenate([s_index, b_index])
     s_x, s_y = np.concatenate([s_x, b_x]), np.concatenate([s_y, b_y])
     s_interior = np.concatenate([s_interior, np.zeros(b_index.size, bool)])
@@ -569,7 +766,11 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
     # deposition velocity of each receptor by land cover
     default_vd = prep.default_deposition_velocity_m_s
     vd = np.full(rx.size, default_vd, dtype=float)
-    member_site, member_receptor, member_interior = [s_index], [n_grid + n_named + np.arange(len(s_x))], [s_interior]
+    member_site, member_receptor, member_interior = (
+        [s_index],
+        [n_grid + n_named + np.arange(len(s_x))],
+        [s_interior],
+    )
     # grid nodes inside each site (one spatial-index query for all sites); a node inside two
     # overlapping sites takes the higher of their deposition velocities (the cautious one)
     if with_grid:
@@ -580,12 +781,16 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
     site_vd = sites["deposition_velocity_m_s"].to_numpy(float)
     vd[inside] = -np.inf
     np.maximum.at(vd, inside, site_vd[site_of])
-    member_site.append(site_of); member_receptor.append(inside)
+    member_site.append(site_of)
+    member_receptor.append(inside)
     member_interior.append(np.ones(inside.size, bool))
     named_vd = named["land_cover"].map(
-        {k: v["deposition_velocity_m_s"] for k, v in tables.deposition_velocities.items()})
-    vd[n_grid:n_grid + n_named] = named_vd.to_numpy(float)
-    vd[n_grid + n_named:] = sites["deposition_velocity_m_s"].to_numpy()[s_index] if len(s_index) else []
+        {k: v["deposition_velocity_m_s"] for k, v in tables.deposition_velocities.items()}
+    )
+    vd[n_grid : n_grid + n_named] = named_vd.to_numpy(float)
+    vd[n_grid + n_named :] = (
+        sites["deposition_velocity_m_s"].to_numpy()[s_index] if len(s_index) else []
+    )
     member_site = np.concatenate(member_site).astype(int)
     member_receptor = np.concatenate(member_receptor).astype(int)
     member_interior = np.concatenate(member_interior).astype(bool)
@@ -593,8 +798,11 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
 
     depleted = prep.settings.depletion_velocity_m_s is not None
     bar = _progress(progress)
-    task = bar.add_task("dispersion", total=len(scenario.sources) * (2 if depleted else 1)
-                        ) if bar else None
+    task = (
+        bar.add_task("dispersion", total=len(scenario.sources) * (2 if depleted else 1))
+        if bar
+        else None
+    )
     if bar:
         bar.start()
     element_lists = [elements for elements, _ in elements_and_shapes]
@@ -609,8 +817,9 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
             # a sensitivity's re-runs share this dispersion through the cache)
             at = np.unique(member_receptor) if with_grid else np.arange(rx.size)
             plain = dataclasses.replace(prep.settings, depletion_velocity_m_s=None)
-            twin = prep.concentration_by_role_ug_m3(element_lists, rx[at], ry[at], plain,
-                                                    advance=advance)
+            twin = prep.concentration_by_role_ug_m3(
+                element_lists, rx[at], ry[at], plain, advance=advance
+            )
             undepleted_pc = np.full(rx.size, np.nan)
             undepleted_pc[at] = twin["proposed"] + twin["existing"]
     finally:
@@ -627,8 +836,10 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
 
     # per-site statistics
     n_sites = len(sites)
-    results = {key: _site_stats(combos[key], vd, member_receptor, member_site,
-                                member_interior, n_sites) for key in combos}
+    results = {
+        key: _site_stats(combos[key], vd, member_receptor, member_site, member_interior, n_sites)
+        for key in combos
+    }
     level = sites["critical_level_ug_m3"].to_numpy()
     load = sites["critical_load_used_kg_n_ha_yr"].to_numpy()
     out = sites.copy()
@@ -644,8 +855,9 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
         out[f"{key}_pct_level"] = assess.percent_of(c_max, level)
         out[f"{key}_pct_load"] = assess.percent_of(d_max, load)
     if undepleted_pc is not None:
-        c_max, _, d_max, _ = _site_stats(undepleted_pc, vd, member_receptor, member_site,
-                                         member_interior, n_sites)
+        c_max, _, d_max, _ = _site_stats(
+            undepleted_pc, vd, member_receptor, member_site, member_interior, n_sites
+        )
         out["pc_conc_max_undepleted_ug_m3"] = c_max
         out["pc_dep_max_undepleted_kg_n_ha_yr"] = d_max
         out["pc_pct_level_undepleted"] = assess.percent_of(c_max, level)
@@ -655,16 +867,23 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
     out["pec_pct_level"] = assess.percent_of(out["pec_conc_ug_m3"], level)
     out["pec_pct_load"] = assess.percent_of(out["pec_dep_kg_n_ha_yr"], load)
     installation = [(s.x, s.y) for s in scenario.sources if s.role in ("proposed", "existing")]
-    installation_shapes = [shape for s, (_, shape) in zip(scenario.sources, elements_and_shapes)
-                           if s.role in ("proposed", "existing")]
+    installation_shapes = [
+        shape
+        for s, (_, shape) in zip(scenario.sources, elements_and_shapes)
+        if s.role in ("proposed", "existing")
+    ]
     if installation_shapes:
         union = shapely.union_all(installation_shapes)
         out["distance_m"] = shapely.distance(sites.geometry.values, union)
     else:
         out["distance_m"] = np.nan
     out["assessed"] = assessed
-    out["verdict"] = assess.verdict(out["pc_pct_level"].to_numpy(), out["pc_pct_load"].to_numpy(),
-                                    out["threshold_percent"].to_numpy(), assessed)
+    out["verdict"] = assess.verdict(
+        out["pc_pct_level"].to_numpy(),
+        out["pc_pct_load"].to_numpy(),
+        out["threshold_percent"].to_numpy(),
+        assessed,
+    )
     for col in [c for c in out.columns if c.startswith(("pc_", "net_", "incomb_", "pec_"))]:
         out.loc[~assessed, col] = np.nan
     if not installation:
@@ -690,14 +909,27 @@ def screen(scenario: Scenario | str | Path, *, progress: bool = False,
         "net_dep_kg_n_ha_yr": dep["net"][:n_grid].reshape(shape),
     }
     clock["assessment"] = time.perf_counter()
-    timings = {"inputs_s": clock["inputs"] - clock["start"],
-               "dispersion_s": clock["dispersion"] - clock["inputs"],
-               "assessment_s": clock["assessment"] - clock["dispersion"],
-               "receptors": int(rx.size)}
+    timings = {
+        "inputs_s": clock["inputs"] - clock["start"],
+        "dispersion_s": clock["dispersion"] - clock["inputs"],
+        "assessment_s": clock["assessment"] - clock["dispersion"],
+        "receptors": int(rx.size),
+    }
     source_shapes = [shape for _, shape in elements_and_shapes]
-    result = ScreenResult(scenario, tables, grid, weather_summary, sources, source_shapes,
-                          gpd.GeoDataFrame(out, geometry="geometry", crs=scenario.crs),
-                          receptors, fields, warnings, timings, weather)
+    result = ScreenResult(
+        scenario,
+        tables,
+        grid,
+        weather_summary,
+        sources,
+        source_shapes,
+        gpd.GeoDataFrame(out, geometry="geometry", crs=scenario.crs),
+        receptors,
+        fields,
+        warnings,
+        timings,
+        weather,
+    )
     if sensitivity and with_grid:
         from siting.sensitivity import sensitivity as two_sided
 

@@ -27,8 +27,9 @@ DEFAULT_RAMP_START_C = 10.0  # below: minimum ventilation; common practice, no s
 DEFAULT_RAMP_END_C = 25.0  # above: maximum ventilation; common practice, no source
 
 
-def temperature_emission_weights(temperature_c, coefficient_per_k: float =
-                                 DEFAULT_EMISSION_COEFFICIENT_PER_K) -> np.ndarray:
+def temperature_emission_weights(
+    temperature_c, coefficient_per_k: float = DEFAULT_EMISSION_COEFFICIENT_PER_K
+) -> np.ndarray:
     """Hourly emission weights exp(k (T - mean T)), normalised to a mean of exactly 1 [-].
 
     Parameters
@@ -52,9 +53,12 @@ def temperature_emission_weights(temperature_c, coefficient_per_k: float =
     return w / w.mean()
 
 
-def ventilation_fraction(temperature_c, min_fraction: float = DEFAULT_MIN_VENTILATION_FRACTION,
-                         ramp_start_c: float = DEFAULT_RAMP_START_C,
-                         ramp_end_c: float = DEFAULT_RAMP_END_C) -> np.ndarray:
+def ventilation_fraction(
+    temperature_c,
+    min_fraction: float = DEFAULT_MIN_VENTILATION_FRACTION,
+    ramp_start_c: float = DEFAULT_RAMP_START_C,
+    ramp_end_c: float = DEFAULT_RAMP_END_C,
+) -> np.ndarray:
     """Ventilation rate as a share of the maximum rate, by outside temperature [-].
 
     r = min_fraction for T <= ramp_start_c, 1 for T >= ramp_end_c, linear between.
@@ -68,8 +72,9 @@ def ventilation_fraction(temperature_c, min_fraction: float = DEFAULT_MIN_VENTIL
     return min_fraction + (1.0 - min_fraction) * ramp
 
 
-def treated_ammonia_share(ventilation_fraction_of_max, design_share: float,
-                          emission_weights=None) -> float:
+def treated_ammonia_share(
+    ventilation_fraction_of_max, design_share: float, emission_weights=None
+) -> float:
     """Share of the year's ammonia passing a scrubber sized for ``design_share`` of max flow [-].
 
     Parameters

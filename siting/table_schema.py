@@ -76,8 +76,11 @@ class TechniqueRow(_Row):
     def _ordered(self):
         if self.reduction_percent_typical is None:
             self.reduction_percent_typical = self.reduction_percent_min
-        lo, mid, hi = (self.reduction_percent_min, self.reduction_percent_typical,
-                       self.reduction_percent_max)
+        lo, mid, hi = (
+            self.reduction_percent_min,
+            self.reduction_percent_typical,
+            self.reduction_percent_max,
+        )
         if not lo <= mid <= hi:
             raise ValueError(f"need min <= typical <= max <= 100, got {lo:g}, {mid:g}, {hi:g}")
         return self
@@ -98,18 +101,25 @@ class HabitatRow(_Row):
     def _ranges(self):
         if self.critical_load_min_kg_n_ha_yr > self.critical_load_max_kg_n_ha_yr:
             raise ValueError("critical_load_min_kg_n_ha_yr is above the max")
-        review = {"critical_load_2022_min_kg_n_ha_yr": self.critical_load_2022_min_kg_n_ha_yr,
-                  "critical_load_2022_max_kg_n_ha_yr": self.critical_load_2022_max_kg_n_ha_yr,
-                  "source_2022": self.source_2022}
+        review = {
+            "critical_load_2022_min_kg_n_ha_yr": self.critical_load_2022_min_kg_n_ha_yr,
+            "critical_load_2022_max_kg_n_ha_yr": self.critical_load_2022_max_kg_n_ha_yr,
+            "source_2022": self.source_2022,
+        }
         missing = sorted(k for k, v in review.items() if v is None)
         if missing and len(missing) < 3:  # the 2022 review's range: all three keys or none
-            raise ValueError(f"missing key {', '.join(missing)} (the 2022 range needs its min, "
-                             "max and source_2022)")
-        if not missing and (self.critical_load_2022_min_kg_n_ha_yr
-                            > self.critical_load_2022_max_kg_n_ha_yr):
-            raise ValueError("need critical_load_2022_min <= critical_load_2022_max, got "
-                             f"{self.critical_load_2022_min_kg_n_ha_yr:g}, "
-                             f"{self.critical_load_2022_max_kg_n_ha_yr:g}")
+            raise ValueError(
+                f"missing key {', '.join(missing)} (the 2022 range needs its min, "
+                "max and source_2022)"
+            )
+        if not missing and (
+            self.critical_load_2022_min_kg_n_ha_yr > self.critical_load_2022_max_kg_n_ha_yr
+        ):
+            raise ValueError(
+                "need critical_load_2022_min <= critical_load_2022_max, got "
+                f"{self.critical_load_2022_min_kg_n_ha_yr:g}, "
+                f"{self.critical_load_2022_max_kg_n_ha_yr:g}"
+            )
         return self
 
 
@@ -126,11 +136,16 @@ class LandCoverRow(_Row):
 
     @model_validator(mode="after")
     def _ordered(self):
-        lo, mid, hi = (self.deposition_velocity_min_m_s, self.deposition_velocity_m_s,
-                       self.deposition_velocity_max_m_s)
+        lo, mid, hi = (
+            self.deposition_velocity_min_m_s,
+            self.deposition_velocity_m_s,
+            self.deposition_velocity_max_m_s,
+        )
         if not lo <= mid <= hi:
-            raise ValueError(f"need deposition_velocity_min_m_s <= deposition_velocity_m_s <= "
-                             f"deposition_velocity_max_m_s, got {lo:g}, {mid:g}, {hi:g}")
+            raise ValueError(
+                f"need deposition_velocity_min_m_s <= deposition_velocity_m_s <= "
+                f"deposition_velocity_max_m_s, got {lo:g}, {mid:g}, {hi:g}"
+            )
         return self
 
 
@@ -163,8 +178,9 @@ class PasquillGiffordRow(_Row):
     stability: STABILITY
     sigma_y: PasquillSigmaY
     # each band: [upper end of the band's distance range in km, a, b] of sigma_z = a x^b
-    sigma_z_bands: Annotated[list[Annotated[list[Positive], Field(min_length=3, max_length=3)]],
-                             Field(min_length=1)]
+    sigma_z_bands: Annotated[
+        list[Annotated[list[Positive], Field(min_length=3, max_length=3)]], Field(min_length=1)
+    ]
 
 
 class WindExponentRow(_Row):
@@ -209,14 +225,19 @@ class DispersionFile(_Strict):
         for land_type in ("rural", "urban"):
             have = {r.stability for r in self.briggs if r.land_type == land_type}
             if have != wanted:
-                raise ValueError(f"Briggs {land_type} rows must cover classes A-F, got "
-                                 f"{''.join(sorted(have)) or 'none'}")
-        for name, rows in (("pasquill_gifford", self.pasquill_gifford),
-                           ("wind_exponent", self.wind_exponent)):
+                raise ValueError(
+                    f"Briggs {land_type} rows must cover classes A-F, got "
+                    f"{''.join(sorted(have)) or 'none'}"
+                )
+        for name, rows in (
+            ("pasquill_gifford", self.pasquill_gifford),
+            ("wind_exponent", self.wind_exponent),
+        ):
             have = {r.stability for r in rows}
             if have != wanted:
-                raise ValueError(f"[[{name}]] rows must cover classes A-F, got "
-                                 f"{''.join(sorted(have)) or 'none'}")
+                raise ValueError(
+                    f"[[{name}]] rows must cover classes A-F, got {''.join(sorted(have)) or 'none'}"
+                )
         return self
 
 
@@ -242,7 +263,8 @@ def _row_label(raw: dict, section: str, index: int) -> str:
             label += f' ("{name}"' + (f', "{row["housing"]}")' if "housing" in row else ")")
         elif "stability" in row:
             label += f" (class {row['stability']}" + (
-                f", {row['land_type']})" if "land_type" in row else ")")
+                f", {row['land_type']})" if "land_type" in row else ")"
+            )
     return label
 
 
@@ -258,8 +280,11 @@ def _message(exc: ValidationError, raw: dict, filename: str, model: type[BaseMod
     """One line naming file, section, row and key of the first error."""
     errors = sorted(exc.errors(), key=lambda e: e["type"] != "missing")
     err = errors[0]
-    loc = [k for k in err["loc"] if not (isinstance(k, str) and ("[" in k or k.startswith(
-        "function-")))]
+    loc = [
+        k
+        for k in err["loc"]
+        if not (isinstance(k, str) and ("[" in k or k.startswith("function-")))
+    ]
     kind = err["type"]
     if not loc:
         return f"{filename}: {err['msg'].removeprefix('Value error, ')}"
@@ -274,8 +299,11 @@ def _message(exc: ValidationError, raw: dict, filename: str, model: type[BaseMod
         if kind in ("list_type", "too_short"):
             return f"{filename}: expected one or more [[{section}]] rows"
         return f"{filename}, [{section}]: {validation_wording(err)}"
-    where = (f"{filename}, {_row_label(raw, section, loc[1])}" if isinstance(loc[1], int)
-             else f"{filename}, [{section}]")
+    where = (
+        f"{filename}, {_row_label(raw, section, loc[1])}"
+        if isinstance(loc[1], int)
+        else f"{filename}, [{section}]"
+    )
     key = _key(loc[2:] if isinstance(loc[1], int) else loc[1:])
     if kind == "missing":
         return f"{where}: missing key {key}"
@@ -304,15 +332,19 @@ def validate_table(name: str, raw: dict, filename: str) -> dict:
             seen: set[str] = set()
             for i, row in enumerate(rows):
                 if row[id_key] in seen:
-                    raise InputError(f'{filename}, {_row_label(raw, section, i)}: id '
-                                     f'"{row[id_key]}" appears twice; each row needs its own')
+                    raise InputError(
+                        f"{filename}, {_row_label(raw, section, i)}: id "
+                        f'"{row[id_key]}" appears twice; each row needs its own'
+                    )
                 seen.add(row[id_key])
     if name == "emission_factors":
         seen_pairs: set[tuple[str, str]] = set()
         for i, row in enumerate(data["factor"]):
             pair = (row["livestock"], row["housing"])
             if pair in seen_pairs:
-                raise InputError(f"{filename}, {_row_label(raw, 'factor', i)}: this livestock "
-                                 "and housing appear twice; each pair needs one row")
+                raise InputError(
+                    f"{filename}, {_row_label(raw, 'factor', i)}: this livestock "
+                    "and housing appear twice; each pair needs one row"
+                )
             seen_pairs.add(pair)
     return data

@@ -69,20 +69,26 @@ class Tables:
         """The emission-factor row for a livestock category and housing system."""
         categories = sorted({r["livestock"] for r in self.emission_factors})
         if livestock not in categories:
-            raise InputError(f'{where}: unknown livestock "{livestock}"{suggest(livestock, categories)}'
-                             f" (known: {', '.join(categories)})")
+            raise InputError(
+                f'{where}: unknown livestock "{livestock}"{suggest(livestock, categories)}'
+                f" (known: {', '.join(categories)})"
+            )
         systems = sorted(r["housing"] for r in self.emission_factors if r["livestock"] == livestock)
         for row in self.emission_factors:
             if row["livestock"] == livestock and row["housing"] == housing:
                 return row
-        raise InputError(f'{where}: unknown housing "{housing}" for {livestock}'
-                         f"{suggest(housing, systems)} (known: {', '.join(systems)})")
+        raise InputError(
+            f'{where}: unknown housing "{housing}" for {livestock}'
+            f"{suggest(housing, systems)} (known: {', '.join(systems)})"
+        )
 
     def technique(self, technique_id: str, where: str) -> dict:
         if technique_id not in self.abatement:
-            raise InputError(f'{where}: unknown abatement "{technique_id}"'
-                             f"{suggest(technique_id, self.abatement)}"
-                             f" (known: {', '.join(sorted(self.abatement))})")
+            raise InputError(
+                f'{where}: unknown abatement "{technique_id}"'
+                f"{suggest(technique_id, self.abatement)}"
+                f" (known: {', '.join(sorted(self.abatement))})"
+            )
         return self.abatement[technique_id]
 
     def sigma_scheme(self, land_type: str, kind: str = "briggs") -> SigmaScheme:
@@ -135,7 +141,9 @@ def default_reduction_percent(technique: dict) -> float:
 def is_claimed_reduction(reduction_percent: float | None, technique: dict) -> bool:
     """Whether a stated reduction lies above the range's lower end: the user's claim, shown with
     its basis and raised by ``siting verify`` (None, no stated figure, is no claim)."""
-    return reduction_percent is not None and reduction_percent > default_reduction_percent(technique)
+    return reduction_percent is not None and reduction_percent > default_reduction_percent(
+        technique
+    )
 
 
 def load_tables(folder: Path | None = None) -> Tables:
@@ -157,13 +165,17 @@ def load_tables(folder: Path | None = None) -> Tables:
     land_covers = {r["id"] for r in velocities}
     for i, row in enumerate(loads, start=1):
         if row["land_cover"] not in land_covers:
-            raise InputError(f'critical_loads.toml, [[habitat]] row {i} ("{row["id"]}"): '
-                             f'land_cover "{row["land_cover"]}" is not in '
-                             f"deposition_velocities.toml{suggest(row['land_cover'], land_covers)}")
+            raise InputError(
+                f'critical_loads.toml, [[habitat]] row {i} ("{row["id"]}"): '
+                f'land_cover "{row["land_cover"]}" is not in '
+                f"deposition_velocities.toml{suggest(row['land_cover'], land_covers)}"
+            )
     for needed in ("lichens_bryophytes", "higher_plants"):
         if needed not in {r["id"] for r in levels}:
-            raise InputError(f'critical_levels.toml: missing level "{needed}" (a [[level]] row '
-                             f'with id = "{needed}")')
+            raise InputError(
+                f'critical_levels.toml: missing level "{needed}" (a [[level]] row '
+                f'with id = "{needed}")'
+            )
     return Tables(
         folder=folder,
         emission_factors=factors,

@@ -24,6 +24,7 @@ import json
 import math
 import os
 from dataclasses import dataclass, field
+from datetime import UTC
 from pathlib import Path
 
 import numpy as np
@@ -37,10 +38,18 @@ from siting.tables import default_reduction_percent, is_claimed_reduction
 
 #: Site figures compared between the submission and the re-run.
 SITE_FIGURES = [
-    "critical_level_ug_m3", "critical_load_used_kg_n_ha_yr", "threshold_percent",
-    "pc_conc_max_ug_m3", "pc_dep_max_kg_n_ha_yr", "pc_pct_level", "pc_pct_load",
-    "net_conc_max_ug_m3", "net_dep_max_kg_n_ha_yr", "incomb_conc_max_ug_m3",
-    "incomb_dep_max_kg_n_ha_yr", "pec_dep_kg_n_ha_yr",
+    "critical_level_ug_m3",
+    "critical_load_used_kg_n_ha_yr",
+    "threshold_percent",
+    "pc_conc_max_ug_m3",
+    "pc_dep_max_kg_n_ha_yr",
+    "pc_pct_level",
+    "pc_pct_load",
+    "net_conc_max_ug_m3",
+    "net_dep_max_kg_n_ha_yr",
+    "incomb_conc_max_ug_m3",
+    "incomb_dep_max_kg_n_ha_yr",
+    "pec_dep_kg_n_ha_yr",
 ]
 RECEPTOR_FIGURES = ["conc_ug_m3", "dep_kg_n_ha_yr"]
 RELATIVE_TOLERANCE = 1e-3
@@ -105,8 +114,11 @@ class VerifyResult:
 
     @property
     def consistent(self) -> bool:
-        return not self.differences and not any(f.severity == "high" for f in self.findings) \
+        return (
+            not self.differences
+            and not any(f.severity == "high" for f in self.findings)
             and all(row["status"] == "ok" for row in self.integrity)
+        )
 
     @property
     def exit_code(self) -> int:
@@ -131,26 +143,32 @@ def load_submission(path: Path, results: Path | None = None) -> Submission:
     path = Path(path)
     if path.is_file():
         if results is None:
-            raise InputError(f"{path.name}: a scenario file needs the applicant's sites table "
-                             "(--results sites.csv)")
-        return Submission(path.parent, None, _read_csv(results, "--results"), None,
-                          path.resolve(), {}, None)
+            raise InputError(
+                f"{path.name}: a scenario file needs the applicant's sites table "
+                "(--results sites.csv)"
+            )
+        return Submission(
+            path.parent, None, _read_csv(results, "--results"), None, path.resolve(), {}, None
+        )
     if not path.is_dir():
         raise InputFileError(f"{path}: no such submission folder or scenario file")
     record_path = path / "run.json"
     try:
         record = json.loads(record_path.read_text(encoding="utf-8"))
     except FileNotFoundError as exc:
-        raise InputFileError(f"{path}: no run.json; is this an output folder of `siting "
-                             "screen`?") from exc
+        raise InputFileError(
+            f"{path}: no run.json; is this an output folder of `siting screen`?"
+        ) from exc
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise InputError(f"{record_path}: not readable JSON: {exc}") from exc
     if not isinstance(record, dict):
         raise InputError(f"{record_path}: not a run record (a JSON object expected)")
     package = record.get("package")
     if not isinstance(package, dict) or "files" not in package:
-        raise InputError(f"{record_path}: no package map; the folder was written by a version "
-                         "that did not pack its inputs (re-run `siting screen`)")
+        raise InputError(
+            f"{record_path}: no package map; the folder was written by a version "
+            "that did not pack its inputs (re-run `siting screen`)"
+        )
     inputs = path / "inputs"
     _check_record(record, record_path, inputs)
     files = package["files"]
@@ -177,10 +195,14 @@ def load_submission(path: Path, results: Path | None = None) -> Submission:
         move(str(Path(entry["path"]).parent), config_dir)
         break
     sites = _read_csv(results if results else path / "sites.csv", "sites table")
-    receptors = _read_csv(path / "receptors.csv", "receptors table") \
-        if (path / "receptors.csv").exists() else None
-    return Submission(path, record, sites, receptors, (inputs / files["scenario"]).resolve(),
-                      moved, config_dir)
+    receptors = (
+        _read_csv(path / "receptors.csv", "receptors table")
+        if (path / "receptors.csv").exists()
+        else None
+    )
+    return Submission(
+        path, record, sites, receptors, (inputs / files["scenario"]).resolve(), moved, config_dir
+    )
 
 
 def _inside(folder: Path, relative, what: str, record_path: Path) -> None:
@@ -188,10 +210,13 @@ def _inside(folder: Path, relative, what: str, record_path: Path) -> None:
     if not isinstance(relative, str) or not relative.strip():
         raise InputError(f"{record_path}: {what} must be a file name, got {relative!r}")
     target = (folder / relative).resolve()
-    if Path(relative).is_absolute() or not (target == folder.resolve()
-                                            or folder.resolve() in target.parents):
-        raise InputError(f"{record_path}: {what} {relative!r} points outside the package "
-                         f"({folder.name}/); a submission is read only inside itself")
+    if Path(relative).is_absolute() or not (
+        target == folder.resolve() or folder.resolve() in target.parents
+    ):
+        raise InputError(
+            f"{record_path}: {what} {relative!r} points outside the package "
+            f"({folder.name}/); a submission is read only inside itself"
+        )
 
 
 def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
@@ -210,7 +235,9 @@ def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
     for section, folder in within.items():
         entries = record.get(section, {})
         if not isinstance(entries, dict):
-            raise InputError(f"{record_path}: {section} must be a map, got {type(entries).__name__}")
+            raise InputError(
+                f"{record_path}: {section} must be a map, got {type(entries).__name__}"
+            )
         for key, entry in entries.items():
             if not isinstance(entry, dict) or not isinstance(entry.get("sha256"), str):
                 raise InputError(f"{record_path}: {section}.{key} needs a sha256 text")
@@ -232,16 +259,29 @@ def check_integrity(sub: Submission) -> list[dict]:
         if key in files and packed.is_file():
             actual = sha256_of(packed)
             status = "ok" if actual == entry["sha256"] else "changed"
-        rows.append({"key": key, "file": f"inputs/{files.get(key, '?')}",
-                     "expected_sha256": entry["sha256"], "actual_sha256": actual,
-                     "status": status})
+        rows.append(
+            {
+                "key": key,
+                "file": f"inputs/{files.get(key, '?')}",
+                "expected_sha256": entry["sha256"],
+                "actual_sha256": actual,
+                "status": status,
+            }
+        )
     for name, entry in sub.record.get("config_tables", {}).items():
         packed = sub.config_dir / name
         actual = sha256_of(packed) if packed.is_file() else None
-        rows.append({"key": f"table {name}", "file": f"inputs/_config/{name}",
-                     "expected_sha256": entry["sha256"], "actual_sha256": actual,
-                     "status": "missing" if actual is None else
-                     ("ok" if actual == entry["sha256"] else "changed")})
+        rows.append(
+            {
+                "key": f"table {name}",
+                "file": f"inputs/_config/{name}",
+                "expected_sha256": entry["sha256"],
+                "actual_sha256": actual,
+                "status": "missing"
+                if actual is None
+                else ("ok" if actual == entry["sha256"] else "changed"),
+            }
+        )
     return rows
 
 
@@ -254,17 +294,33 @@ def check_outputs(sub: Submission) -> list[Finding]:
     for relative, entry in sub.record["outputs"].items():
         path = sub.folder / relative
         if not path.is_file():
-            findings.append(Finding("OUTPUT_MISSING", "high", f"output {relative}",
-                                    f"{relative} is missing; the run wrote it", {}))
+            findings.append(
+                Finding(
+                    "OUTPUT_MISSING",
+                    "high",
+                    f"output {relative}",
+                    f"{relative} is missing; the run wrote it",
+                    {},
+                )
+            )
             continue
         actual = sha256_of(path)
         if actual != entry["sha256"]:
-            findings.append(Finding(
-                "OUTPUT_CHANGED", "high", f"output {relative}",
-                f"{relative} differs from the file the run wrote (SHA-256"
-                + (f"; {path.stat().st_size} bytes, written {entry['bytes']}"
-                   if isinstance(entry.get("bytes"), int) else "") + "): edited or truncated",
-                {"expected_sha256": entry["sha256"], "actual_sha256": actual}))
+            findings.append(
+                Finding(
+                    "OUTPUT_CHANGED",
+                    "high",
+                    f"output {relative}",
+                    f"{relative} differs from the file the run wrote (SHA-256"
+                    + (
+                        f"; {path.stat().st_size} bytes, written {entry['bytes']}"
+                        if isinstance(entry.get("bytes"), int)
+                        else ""
+                    )
+                    + "): edited or truncated",
+                    {"expected_sha256": entry["sha256"], "actual_sha256": actual},
+                )
+            )
     return findings
 
 
@@ -288,9 +344,17 @@ def compare_figures(sub: Submission, result, explanation: str) -> list[dict]:
     submitted = sub.sites.set_index("name") if "name" in sub.sites else sub.sites
     for name in submitted.index:
         if name not in recomputed.index:
-            rows.append({"table": "sites", "id": str(name), "column": "(site)",
-                         "submitted": "present", "recomputed": "absent",
-                         "relative_difference": None, "explained_by": explanation})
+            rows.append(
+                {
+                    "table": "sites",
+                    "id": str(name),
+                    "column": "(site)",
+                    "submitted": "present",
+                    "recomputed": "absent",
+                    "relative_difference": None,
+                    "explained_by": explanation,
+                }
+            )
             continue
         for column in [*SITE_FIGURES, "verdict"]:
             if column not in submitted.columns or column not in recomputed.columns:
@@ -298,13 +362,29 @@ def compare_figures(sub: Submission, result, explanation: str) -> list[dict]:
             a, b = submitted.at[name, column], recomputed.at[name, column]
             differs, rel = _differs(a, b)
             if differs:
-                rows.append({"table": "sites", "id": str(name), "column": column,
-                             "submitted": a, "recomputed": b, "relative_difference": rel,
-                             "explained_by": explanation})
+                rows.append(
+                    {
+                        "table": "sites",
+                        "id": str(name),
+                        "column": column,
+                        "submitted": a,
+                        "recomputed": b,
+                        "relative_difference": rel,
+                        "explained_by": explanation,
+                    }
+                )
     for name in recomputed.index.difference(submitted.index):
-        rows.append({"table": "sites", "id": str(name), "column": "(site)",
-                     "submitted": "absent", "recomputed": "present",
-                     "relative_difference": None, "explained_by": explanation})
+        rows.append(
+            {
+                "table": "sites",
+                "id": str(name),
+                "column": "(site)",
+                "submitted": "absent",
+                "recomputed": "present",
+                "relative_difference": None,
+                "explained_by": explanation,
+            }
+        )
     if sub.receptors is not None and len(sub.receptors):
         mine = result.receptors.set_index("id")
         for rid, row in sub.receptors.set_index("id").iterrows():
@@ -313,24 +393,38 @@ def compare_figures(sub: Submission, result, explanation: str) -> list[dict]:
             for column in RECEPTOR_FIGURES:
                 differs, rel = _differs(row[column], mine.at[rid, column])
                 if differs:
-                    rows.append({"table": "receptors", "id": str(rid), "column": column,
-                                 "submitted": row[column], "recomputed": mine.at[rid, column],
-                                 "relative_difference": rel, "explained_by": explanation})
+                    rows.append(
+                        {
+                            "table": "receptors",
+                            "id": str(rid),
+                            "column": column,
+                            "submitted": row[column],
+                            "recomputed": mine.at[rid, column],
+                            "relative_difference": rel,
+                            "explained_by": explanation,
+                        }
+                    )
     return rows
 
 
 def _explanation(integrity: list[dict], submitted_version: str, this_version: str) -> str:
     changed = [row["key"] for row in integrity if row["status"] != "ok"]
     if changed:
-        return ("input(s) changed since the run (SHA-256 differs from run.json): "
-                + ", ".join(changed))
+        return "input(s) changed since the run (SHA-256 differs from run.json): " + ", ".join(
+            changed
+        )
     if submitted_version and submitted_version != this_version:
         return f"the run used siting {submitted_version}; this is siting {this_version}"
     return ""
 
 
-def review(sub: Submission, result, this_tables, reference_habitats: Path | None = None,
-           name_field: str | None = None) -> list[Finding]:
+def review(
+    sub: Submission,
+    result,
+    this_tables,
+    reference_habitats: Path | None = None,
+    name_field: str | None = None,
+) -> list[Finding]:
     """Plausibility findings, each judged against this version's tables or a stated range."""
     findings: list[Finding] = []
     scenario = result.scenario
@@ -338,86 +432,162 @@ def review(sub: Submission, result, this_tables, reference_habitats: Path | None
     for src in scenario.sources:
         subject = f'source "{src.id}"'
         if src.livestock and src.housing:
-            mine = [r for r in this_tables.emission_factors
-                    if r["livestock"] == src.livestock and r["housing"] == src.housing]
-            theirs = [r for r in used.emission_factors
-                      if r["livestock"] == src.livestock and r["housing"] == src.housing]
+            mine = [
+                r
+                for r in this_tables.emission_factors
+                if r["livestock"] == src.livestock and r["housing"] == src.housing
+            ]
+            theirs = [
+                r
+                for r in used.emission_factors
+                if r["livestock"] == src.livestock and r["housing"] == src.housing
+            ]
             if not mine:
-                findings.append(Finding("FACTOR_NOT_IN_TABLE", "medium", subject,
-                                        f"{src.livestock}/{src.housing} has no row in this "
-                                        "version's emission-factor table", {}))
+                findings.append(
+                    Finding(
+                        "FACTOR_NOT_IN_TABLE",
+                        "medium",
+                        subject,
+                        f"{src.livestock}/{src.housing} has no row in this "
+                        "version's emission-factor table",
+                        {},
+                    )
+                )
             elif theirs and theirs[0]["nh3_kg_per_place_yr"] < mine[0]["nh3_kg_per_place_yr"]:
-                findings.append(Finding(
-                    "FACTOR_BELOW_TABLE", "high", subject,
-                    f"emission factor {theirs[0]['nh3_kg_per_place_yr']:g} kg NH3/place/yr is "
-                    f"below the table value {mine[0]['nh3_kg_per_place_yr']:g} for "
-                    f"{src.livestock}, {src.housing}",
-                    {"submitted_kg_per_place_yr": theirs[0]["nh3_kg_per_place_yr"],
-                     "table_kg_per_place_yr": mine[0]["nh3_kg_per_place_yr"],
-                     "source": mine[0]["source"]}))
+                findings.append(
+                    Finding(
+                        "FACTOR_BELOW_TABLE",
+                        "high",
+                        subject,
+                        f"emission factor {theirs[0]['nh3_kg_per_place_yr']:g} kg NH3/place/yr is "
+                        f"below the table value {mine[0]['nh3_kg_per_place_yr']:g} for "
+                        f"{src.livestock}, {src.housing}",
+                        {
+                            "submitted_kg_per_place_yr": theirs[0]["nh3_kg_per_place_yr"],
+                            "table_kg_per_place_yr": mine[0]["nh3_kg_per_place_yr"],
+                            "source": mine[0]["source"],
+                        },
+                    )
+                )
         elif src.nh3_kg_per_year is not None:
-            findings.append(Finding("EMISSION_GIVEN_DIRECTLY", "low", subject,
-                                    f"emission given directly ({src.nh3_kg_per_year:g} kg NH3/yr),"
-                                    " not derived from a factor and places: ask for its basis",
-                                    {"nh3_kg_per_year": src.nh3_kg_per_year}))
+            findings.append(
+                Finding(
+                    "EMISSION_GIVEN_DIRECTLY",
+                    "low",
+                    subject,
+                    f"emission given directly ({src.nh3_kg_per_year:g} kg NH3/yr),"
+                    " not derived from a factor and places: ask for its basis",
+                    {"nh3_kg_per_year": src.nh3_kg_per_year},
+                )
+            )
         if src.abatement:
             technique = this_tables.abatement.get(src.abatement)
-            reduction = src.reduction_percent if src.reduction_percent is not None else (
-                default_reduction_percent(technique) if technique else None)
-            if technique and reduction is not None and not (
-                    technique["reduction_percent_min"] <= reduction
-                    <= technique["reduction_percent_max"]):
-                findings.append(Finding(
-                    "REDUCTION_OUT_OF_RANGE", "high", subject,
-                    f"{technique['name']}: {reduction:g} % reduction is outside the published "
-                    f"range {technique['reduction_percent_min']:g}-"
-                    f"{technique['reduction_percent_max']:g} %",
-                    {"reduction_percent": reduction,
-                     "published_range_percent": f"{technique['reduction_percent_min']:g}-"
-                                                f"{technique['reduction_percent_max']:g}",
-                     "source": technique["source"]}))
+            reduction = (
+                src.reduction_percent
+                if src.reduction_percent is not None
+                else (default_reduction_percent(technique) if technique else None)
+            )
+            if (
+                technique
+                and reduction is not None
+                and not (
+                    technique["reduction_percent_min"]
+                    <= reduction
+                    <= technique["reduction_percent_max"]
+                )
+            ):
+                findings.append(
+                    Finding(
+                        "REDUCTION_OUT_OF_RANGE",
+                        "high",
+                        subject,
+                        f"{technique['name']}: {reduction:g} % reduction is outside the published "
+                        f"range {technique['reduction_percent_min']:g}-"
+                        f"{technique['reduction_percent_max']:g} %",
+                        {
+                            "reduction_percent": reduction,
+                            "published_range_percent": f"{technique['reduction_percent_min']:g}-"
+                            f"{technique['reduction_percent_max']:g}",
+                            "source": technique["source"],
+                        },
+                    )
+                )
             elif technique and is_claimed_reduction(src.reduction_percent, technique):
                 lo = default_reduction_percent(technique)
-                findings.append(Finding(
-                    "REDUCTION_CLAIMED", "medium" if src.reduction_basis else "high", subject,
-                    f"{technique['name']}: {src.reduction_percent:g} % claimed, above the "
-                    f"published lower end {lo:g} % used by default; "
-                    + (f"stated basis: {src.reduction_basis}; check it"
-                       if src.reduction_basis else "no basis stated (reduction_basis): ask for "
-                       "the certificate or measurement"),
-                    {"reduction_percent": src.reduction_percent,
-                     "lower_end_percent": lo,
-                     "basis": src.reduction_basis or "",
-                     "source": technique["source"]}))
+                findings.append(
+                    Finding(
+                        "REDUCTION_CLAIMED",
+                        "medium" if src.reduction_basis else "high",
+                        subject,
+                        f"{technique['name']}: {src.reduction_percent:g} % claimed, above the "
+                        f"published lower end {lo:g} % used by default; "
+                        + (
+                            f"stated basis: {src.reduction_basis}; check it"
+                            if src.reduction_basis
+                            else "no basis stated (reduction_basis): ask for "
+                            "the certificate or measurement"
+                        ),
+                        {
+                            "reduction_percent": src.reduction_percent,
+                            "lower_end_percent": lo,
+                            "basis": src.reduction_basis or "",
+                            "source": technique["source"],
+                        },
+                    )
+                )
             if src.treated_air_fraction is not None and src.treated_air_fraction < 1.0:
-                findings.append(Finding(
-                    "TREATED_SHARE_UNDERIVED", "medium", subject,
-                    f"treated share {src.treated_air_fraction:g} given without its derivation "
-                    "(give scrubber_design_share with an hourly record, or the ventilation "
-                    "calculation behind it)", {"treated_air_fraction": src.treated_air_fraction}))
+                findings.append(
+                    Finding(
+                        "TREATED_SHARE_UNDERIVED",
+                        "medium",
+                        subject,
+                        f"treated share {src.treated_air_fraction:g} given without its derivation "
+                        "(give scrubber_design_share with an hourly record, or the ventilation "
+                        "calculation behind it)",
+                        {"treated_air_fraction": src.treated_air_fraction},
+                    )
+                )
         lo, hi = HOUSE_HEIGHT_RANGE_M
         if src.kind in ("point", "volume") and not lo <= src.height_m <= hi:
-            findings.append(Finding(
-                "RELEASE_HEIGHT_UNUSUAL", "medium", subject,
-                f"release height {src.height_m:g} m is unusual for a livestock house "
-                f"({lo:g}-{hi:g} m; common practice, no source)",
-                {"height_m": src.height_m, "usual_range_m": f"{lo:g}-{hi:g}"}))
+            findings.append(
+                Finding(
+                    "RELEASE_HEIGHT_UNUSUAL",
+                    "medium",
+                    subject,
+                    f"release height {src.height_m:g} m is unusual for a livestock house "
+                    f"({lo:g}-{hi:g} m; common practice, no source)",
+                    {"height_m": src.height_m, "usual_range_m": f"{lo:g}-{hi:g}"},
+                )
+            )
         rise, rise_basis = outlet_rise(src)
         if rise:
-            findings.append(Finding(
-                "PLUME_RISE_CLAIMED", "medium", subject,
-                f"the outlet gets momentum plume rise as clear of its building's wake "
-                f"({rise_basis}); rise lowers nearby figures: check the building dimensions",
-                {"height_m": src.height_m, "building_height_m": src.building_height_m,
-                 "building_width_m": src.building_width_m,
-                 "source": "US EPA 1985 good-engineering-practice stack height, Hb + 1.5 L"}))
+            findings.append(
+                Finding(
+                    "PLUME_RISE_CLAIMED",
+                    "medium",
+                    subject,
+                    f"the outlet gets momentum plume rise as clear of its building's wake "
+                    f"({rise_basis}); rise lowers nearby figures: check the building dimensions",
+                    {
+                        "height_m": src.height_m,
+                        "building_height_m": src.building_height_m,
+                        "building_width_m": src.building_width_m,
+                        "source": "US EPA 1985 good-engineering-practice stack height, Hb + 1.5 L",
+                    },
+                )
+            )
         if src.exit_velocity_m_s and src.exit_velocity_m_s > EXIT_VELOCITY_MAX_M_S:
-            findings.append(Finding(
-                "EXIT_VELOCITY_UNUSUAL", "medium", subject,
-                f"exit velocity {src.exit_velocity_m_s:g} m/s is above what house fans or "
-                f"scrubber outlets usually give (<= {EXIT_VELOCITY_MAX_M_S:g} m/s; common "
-                "practice, no source); plume rise lowers nearby figures",
-                {"exit_velocity_m_s": src.exit_velocity_m_s}))
+            findings.append(
+                Finding(
+                    "EXIT_VELOCITY_UNUSUAL",
+                    "medium",
+                    subject,
+                    f"exit velocity {src.exit_velocity_m_s:g} m/s is above what house fans or "
+                    f"scrubber outlets usually give (<= {EXIT_VELOCITY_MAX_M_S:g} m/s; common "
+                    "practice, no source); plume rise lowers nearby figures",
+                    {"exit_velocity_m_s": src.exit_velocity_m_s},
+                )
+            )
     findings += _table_findings(used, this_tables)
     findings += _weather_findings(scenario, result)
     findings += _grid_findings(scenario, result)
@@ -431,30 +601,48 @@ def _table_findings(used, mine) -> list[Finding]:
     for key, row in used.critical_loads.items():
         ref = mine.critical_loads.get(key)
         if ref and row["critical_load_min_kg_n_ha_yr"] > ref["critical_load_min_kg_n_ha_yr"]:
-            findings.append(Finding(
-                "CRITICAL_LOAD_ABOVE_TABLE", "high", f'habitat "{key}"',
-                f"critical load range starts at {row['critical_load_min_kg_n_ha_yr']:g}, above "
-                f"the table's {ref['critical_load_min_kg_n_ha_yr']:g} kg N/ha/yr",
-                {"published_range_kg_n_ha_yr": f"{ref['critical_load_min_kg_n_ha_yr']:g}-"
-                                               f"{ref['critical_load_max_kg_n_ha_yr']:g}",
-                 "source": ref["source"]}))
+            findings.append(
+                Finding(
+                    "CRITICAL_LOAD_ABOVE_TABLE",
+                    "high",
+                    f'habitat "{key}"',
+                    f"critical load range starts at {row['critical_load_min_kg_n_ha_yr']:g}, above "
+                    f"the table's {ref['critical_load_min_kg_n_ha_yr']:g} kg N/ha/yr",
+                    {
+                        "published_range_kg_n_ha_yr": f"{ref['critical_load_min_kg_n_ha_yr']:g}-"
+                        f"{ref['critical_load_max_kg_n_ha_yr']:g}",
+                        "source": ref["source"],
+                    },
+                )
+            )
     for key, row in used.deposition_velocities.items():
         ref = mine.deposition_velocities.get(key)
         if ref and row["deposition_velocity_m_s"] < ref["deposition_velocity_m_s"]:
-            findings.append(Finding(
-                "DEPOSITION_VELOCITY_BELOW_TABLE", "high", f'land cover "{key}"',
-                f"deposition velocity {row['deposition_velocity_m_s']:g} m/s is below the "
-                f"table's {ref['deposition_velocity_m_s']:g} m/s",
-                {"table_m_s": ref["deposition_velocity_m_s"], "source": ref["source"]}))
+            findings.append(
+                Finding(
+                    "DEPOSITION_VELOCITY_BELOW_TABLE",
+                    "high",
+                    f'land cover "{key}"',
+                    f"deposition velocity {row['deposition_velocity_m_s']:g} m/s is below the "
+                    f"table's {ref['deposition_velocity_m_s']:g} m/s",
+                    {"table_m_s": ref["deposition_velocity_m_s"], "source": ref["source"]},
+                )
+            )
     theirs = {t["id"]: t for t in used.thresholds}
     for tier in mine.thresholds:
         other = theirs.get(tier["id"])
         if other and other["threshold_percent"] > tier["threshold_percent"]:
-            findings.append(Finding(
-                "THRESHOLD_ABOVE_DEFAULT", "medium", f'tier "{tier["id"]}"',
-                f"screening threshold {other['threshold_percent']:g} % is above this version's "
-                f"default {tier['threshold_percent']:g} % (defaults are to be replaced by the "
-                "jurisdiction's; check which applies)", {"source": tier["source"]}))
+            findings.append(
+                Finding(
+                    "THRESHOLD_ABOVE_DEFAULT",
+                    "medium",
+                    f'tier "{tier["id"]}"',
+                    f"screening threshold {other['threshold_percent']:g} % is above this version's "
+                    f"default {tier['threshold_percent']:g} % (defaults are to be replaced by the "
+                    "jurisdiction's; check which applies)",
+                    {"source": tier["source"]},
+                )
+            )
     return findings
 
 
@@ -463,49 +651,97 @@ def _weather_findings(scenario, result) -> list[Finding]:
     summary = result.weather_summary
     w = scenario.weather
     if w.hourly is None:
-        findings.append(Finding("WEATHER_TABLE_UNVERIFIABLE", "info", "weather",
-                                "a frequency table: its record length, station and calms cannot "
-                                "be checked; ask for the hourly record behind it", {}))
+        findings.append(
+            Finding(
+                "WEATHER_TABLE_UNVERIFIABLE",
+                "info",
+                "weather",
+                "a frequency table: its record length, station and calms cannot "
+                "be checked; ask for the hourly record behind it",
+                {},
+            )
+        )
     else:
         years = float(summary.get("record_years", 0))
         if years < 1.0:
-            findings.append(Finding("WEATHER_SHORT", "high", "weather",
-                                    f"the hourly record covers {years:.2f} years; a long-term "
-                                    "mean needs at least one full year", {"record_years": years}))
+            findings.append(
+                Finding(
+                    "WEATHER_SHORT",
+                    "high",
+                    "weather",
+                    f"the hourly record covers {years:.2f} years; a long-term "
+                    "mean needs at least one full year",
+                    {"record_years": years},
+                )
+            )
         elif years < 3.0:
-            findings.append(Finding("WEATHER_FEW_YEARS", "low", "weather",
-                                    f"{years:.1f} year(s) of weather; several years (3-5) reduce "
-                                    "the year-to-year spread (common practice, no source)",
-                                    {"record_years": years}))
+            findings.append(
+                Finding(
+                    "WEATHER_FEW_YEARS",
+                    "low",
+                    "weather",
+                    f"{years:.1f} year(s) of weather; several years (3-5) reduce "
+                    "the year-to-year spread (common practice, no source)",
+                    {"record_years": years},
+                )
+            )
         calms = float(summary.get("calm_percent", 0.0))
         if calms > 10.0:
-            findings.append(Finding("WEATHER_MANY_CALMS", "medium", "weather",
-                                    f"{calms:.1f} % calms (over 10 %; common practice, no "
-                                    "source): results rest on the calm rule", {"calm_percent": calms}))
+            findings.append(
+                Finding(
+                    "WEATHER_MANY_CALMS",
+                    "medium",
+                    "weather",
+                    f"{calms:.1f} % calms (over 10 %; common practice, no "
+                    "source): results rest on the calm rule",
+                    {"calm_percent": calms},
+                )
+            )
         missing = float(summary.get("missing_percent", 0.0))
         if missing > 5.0:
-            findings.append(Finding("WEATHER_GAPS", "medium", "weather",
-                                    f"{missing:.1f} % of hours missing (over 5 %; common "
-                                    "practice, no source)", {"missing_percent": missing}))
+            findings.append(
+                Finding(
+                    "WEATHER_GAPS",
+                    "medium",
+                    "weather",
+                    f"{missing:.1f} % of hours missing (over 5 %; common practice, no source)",
+                    {"missing_percent": missing},
+                )
+            )
     if w.station_latitude_deg is None or w.station_longitude_deg is None:
-        findings.append(Finding("WEATHER_STATION_UNKNOWN", "info", "weather",
-                                "the weather station's position is not given "
-                                "(weather.station_latitude_deg/longitude_deg): distance to the "
-                                "site not checked", {}))
+        findings.append(
+            Finding(
+                "WEATHER_STATION_UNKNOWN",
+                "info",
+                "weather",
+                "the weather station's position is not given "
+                "(weather.station_latitude_deg/longitude_deg): distance to the "
+                "site not checked",
+                {},
+            )
+        )
     else:
         from pyproj import Geod
 
         from siting.screen import site_lat_lon
 
         lat, lon = site_lat_lon(scenario)
-        _, _, distance = Geod(ellps="WGS84").inv(lon, lat, w.station_longitude_deg,
-                                                 w.station_latitude_deg)
+        _, _, distance = Geod(ellps="WGS84").inv(
+            lon, lat, w.station_longitude_deg, w.station_latitude_deg
+        )
         medium, high = STATION_DISTANCE_M
         if distance > medium:
-            findings.append(Finding("WEATHER_FAR", "high" if distance > high else "medium",
-                                    "weather", f"the station is {distance / 1000:.0f} km from the "
-                                    f"site (over {medium / 1000:.0f} km; common practice, no "
-                                    "source)", {"distance_km": round(distance / 1000, 1)}))
+            findings.append(
+                Finding(
+                    "WEATHER_FAR",
+                    "high" if distance > high else "medium",
+                    "weather",
+                    f"the station is {distance / 1000:.0f} km from the "
+                    f"site (over {medium / 1000:.0f} km; common practice, no "
+                    "source)",
+                    {"distance_km": round(distance / 1000, 1)},
+                )
+            )
     return findings
 
 
@@ -518,11 +754,17 @@ def _grid_findings(scenario, result) -> list[Finding]:
     spacing = scenario.grid.spacing_m
     if spacing > nearest / 10.0:
         name = assessed.loc[assessed["distance_m"].idxmin(), "name"]
-        return [Finding("GRID_COARSE", "medium", "grid",
-                        f"grid spacing {spacing:g} m is coarse for the nearest site ({name}, "
-                        f"{nearest:.0f} m away): at most a tenth of the distance resolves the "
-                        "gradient (common practice, no source); site points soften this",
-                        {"spacing_m": spacing, "nearest_site_m": round(nearest, 1)})]
+        return [
+            Finding(
+                "GRID_COARSE",
+                "medium",
+                "grid",
+                f"grid spacing {spacing:g} m is coarse for the nearest site ({name}, "
+                f"{nearest:.0f} m away): at most a tenth of the distance resolves the "
+                "gradient (common practice, no source); site points soften this",
+                {"spacing_m": spacing, "nearest_site_m": round(nearest, 1)},
+            )
+        ]
     return []
 
 
@@ -536,8 +778,9 @@ def _missing_sites(scenario, result, reference: Path, name_field: str | None) ->
         raise InputError(f"--habitats {reference}: cannot read as a vector layer: {exc}") from exc
     field_name = name_field or scenario.habitats.name_field
     designation_field = scenario.habitats.designation_field
-    tier_of = {d.strip().lower(): t["id"] for t in result.tables.thresholds
-               for d in t["designations"]}
+    tier_of = {
+        d.strip().lower(): t["id"] for t in result.tables.thresholds for d in t["designations"]
+    }
     installation = [s for s in scenario.sources if s.role in ("proposed", "existing")]
     if not installation:
         return []
@@ -556,19 +799,32 @@ def _missing_sites(scenario, result, reference: Path, name_field: str | None) ->
         overlap = geom.intersection(submitted).area / geom.area if geom.area > 0 else 0.0
         if overlap < 0.5:
             name = str(getattr(row, field_name, "?"))
-            findings.append(Finding(
-                "SITE_LEFT_OUT", "high", f'site "{name}"',
-                f"{name} ({tier}) lies {distance:.0f} m from the installation, within the "
-                f"{limit / 1000:g} km search distance, but is not in the submitted habitat layer",
-                {"distance_m": round(distance, 1), "search_distance_m": limit,
-                 "source": "EA farm-permit decisions (e.g. EPR/WP3034VF): 10 km European sites, "
-                           "5 km national, 2 km local; confirmed"}))
+            findings.append(
+                Finding(
+                    "SITE_LEFT_OUT",
+                    "high",
+                    f'site "{name}"',
+                    f"{name} ({tier}) lies {distance:.0f} m from the installation, within the "
+                    f"{limit / 1000:g} km search distance, but is not in the submitted habitat layer",
+                    {
+                        "distance_m": round(distance, 1),
+                        "search_distance_m": limit,
+                        "source": "EA farm-permit decisions (e.g. EPR/WP3034VF): 10 km European sites, "
+                        "5 km national, 2 km local; confirmed",
+                    },
+                )
+            )
     return findings
 
 
-def verify(submission: Path, *, results: Path | None = None,
-           reference_habitats: Path | None = None, name_field: str | None = None,
-           weather_files=()) -> VerifyResult:
+def verify(
+    submission: Path,
+    *,
+    results: Path | None = None,
+    reference_habitats: Path | None = None,
+    name_field: str | None = None,
+    weather_files=(),
+) -> VerifyResult:
     """Verify a submission (see module docstring). Raises SitingError if it cannot be read."""
     from siting import __version__
     from siting.scenario import load_scenario
@@ -581,8 +837,13 @@ def verify(submission: Path, *, results: Path | None = None,
     try:
         scenario = load_scenario(sub.scenario_path, moved=sub.moved)
         if sub.config_dir is not None and sub.config_dir.is_dir():
-            scenario = scenario.model_copy(update={"assessment": scenario.assessment.model_copy(
-                update={"config_dir": sub.config_dir})})
+            scenario = scenario.model_copy(
+                update={
+                    "assessment": scenario.assessment.model_copy(
+                        update={"config_dir": sub.config_dir}
+                    )
+                }
+            )
         result = screen(scenario, sensitivity=False)  # its own, with --weather, below
     except SitingError as exc:
         raise InputError(f"the submission cannot be re-run: {exc}") from exc
@@ -592,31 +853,56 @@ def verify(submission: Path, *, results: Path | None = None,
     findings = check_outputs(sub) + findings
     for row in integrity:
         if row["status"] != "ok":
-            findings.insert(0, Finding(
-                "INPUT_CHANGED" if row["status"] == "changed" else "INPUT_MISSING", "high",
-                f"input {row['key']}",
-                f"{row['file']} {'differs from' if row['status'] == 'changed' else 'is missing; it was'}"
-                " the file the run recorded (SHA-256)",
-                {"expected_sha256": row["expected_sha256"],
-                 "actual_sha256": row["actual_sha256"]}))
+            findings.insert(
+                0,
+                Finding(
+                    "INPUT_CHANGED" if row["status"] == "changed" else "INPUT_MISSING",
+                    "high",
+                    f"input {row['key']}",
+                    f"{row['file']} {'differs from' if row['status'] == 'changed' else 'is missing; it was'}"
+                    " the file the run recorded (SHA-256)",
+                    {
+                        "expected_sha256": row["expected_sha256"],
+                        "actual_sha256": row["actual_sha256"],
+                    },
+                ),
+            )
     if sub.record is None:
-        findings.append(Finding("NO_RUN_RECORD", "info", "submission",
-                                "no run.json: inputs could not be checked against hashes", {}))
+        findings.append(
+            Finding(
+                "NO_RUN_RECORD",
+                "info",
+                "submission",
+                "no run.json: inputs could not be checked against hashes",
+                {},
+            )
+        )
     if differences:
-        findings.insert(0, Finding(
-            "RESULTS_DIFFER", "high", "results",
-            f"{len(differences)} figure(s) differ from this version's re-run beyond the "
-            "tolerance" + (f"; {explanation}" if explanation else "; no changed input explains "
-                                                                   "it (edited results?)"),
-            {"figures": len(differences)}))
+        findings.insert(
+            0,
+            Finding(
+                "RESULTS_DIFFER",
+                "high",
+                "results",
+                f"{len(differences)} figure(s) differ from this version's re-run beyond the "
+                "tolerance"
+                + (
+                    f"; {explanation}"
+                    if explanation
+                    else "; no changed input explains it (edited results?)"
+                ),
+                {"figures": len(differences)},
+            ),
+        )
     long, summary = sensitivity(scenario, result, weather_files)
-    return VerifyResult(sub, integrity, differences, findings, long, summary,
-                        submitted_version, __version__)
+    return VerifyResult(
+        sub, integrity, differences, findings, long, summary, submitted_version, __version__
+    )
 
 
 def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = False) -> Path:
     """findings.json and verify.html, written atomically into ``out_dir``."""
-    from datetime import datetime, timezone
+    from datetime import datetime
 
     from siting.outputs import check_output_dir, staged_folder
     from siting.screen import CAUTIONS
@@ -624,11 +910,13 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
 
     out_dir = Path(out_dir).resolve()
     check_output_dir(out_dir, overwrite)
-    run_time = datetime.now(timezone.utc).replace(microsecond=0).isoformat()
-    verdict = ("Consistent: inputs intact, the same figures with this version, no high-severity "
-               "finding." if result.consistent else
-               "Not consistent: see the findings (differences, changed inputs or high-severity "
-               "findings).")
+    run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
+    verdict = (
+        "Consistent: inputs intact, the same figures with this version, no high-severity finding."
+        if result.consistent
+        else "Not consistent: see the findings (differences, changed inputs or high-severity "
+        "findings)."
+    )
     payload = {
         "submission": str(result.submission.folder),
         "submitted_version": result.submitted_version,
@@ -644,15 +932,24 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
     }
     with staged_folder(out_dir, overwrite) as staging:
         (staging / "findings.json").write_text(
-            json.dumps(payload, indent=2, default=_json_default), encoding="utf-8")
+            json.dumps(payload, indent=2, default=_json_default), encoding="utf-8"
+        )
         write_verify_report(
-            staging / "verify.html", submission=str(result.submission.folder),
-            submitted_version=result.submitted_version, this_version=result.this_version,
-            run_time=run_time, verdict=verdict, exit_code=result.exit_code,
-            integrity=result.integrity, differences=result.differences,
-            tolerance_text=TOLERANCE_TEXT, findings=[f.as_dict() for f in result.findings],
-            sensitivity=result.sensitivity, sensitivity_summary=result.sensitivity_summary,
-            cautions=list(CAUTIONS))
+            staging / "verify.html",
+            submission=str(result.submission.folder),
+            submitted_version=result.submitted_version,
+            this_version=result.this_version,
+            run_time=run_time,
+            verdict=verdict,
+            exit_code=result.exit_code,
+            integrity=result.integrity,
+            differences=result.differences,
+            tolerance_text=TOLERANCE_TEXT,
+            findings=[f.as_dict() for f in result.findings],
+            sensitivity=result.sensitivity,
+            sensitivity_summary=result.sensitivity_summary,
+            cautions=list(CAUTIONS),
+        )
     return out_dir
 
 

@@ -467,7 +467,8 @@ def _integrity_section(integrity: Sequence[Mapping[str, Any]]) -> str:
         "the submission."
         if not bad
         else f"{len(bad)} of {len(integrity)} input files not intact "
-        f"({_integrity_problem_text(bad)}): a changed file no longer matches the hash recorded when the submission was made; a "
+        f"({_integrity_problem_text(bad)}): a changed file no longer matches the hash "
+        "recorded when the submission was made; a "
         "missing file is not in the submission folder. Figures re-computed from changed inputs "
         "cannot confirm the submitted ones."
     )

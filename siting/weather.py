@@ -33,8 +33,9 @@ COLUMNS = ("direction_deg", "speed_m_s", "stability", "frequency")
 FRACTION_SUM_TOLERANCE = 0.01
 
 
-def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
-                         min_wind_speed_m_s: float = 1.0) -> tuple[WeatherClasses, dict, list[str]]:
+def read_frequency_table(
+    path: Path, anemometer_height_m: float = 10.0, min_wind_speed_m_s: float = 1.0
+) -> tuple[WeatherClasses, dict, list[str]]:
     """Read and check a frequency table.
 
     Returns
@@ -53,12 +54,15 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
     table.columns = [str(c).strip() for c in table.columns]
     missing = [c for c in COLUMNS if c not in table.columns]
     if missing:
-        raise InputError(f"{name}: missing column(s) {', '.join(missing)}; need "
-                         f"{','.join(COLUMNS)} (got {','.join(table.columns)})")
+        raise InputError(
+            f"{name}: missing column(s) {', '.join(missing)}; need "
+            f"{','.join(COLUMNS)} (got {','.join(table.columns)})"
+        )
     if table.empty:
         raise InputError(f"{name}: the table has no rows")
-    as_written = pd.read_csv(path, skipinitialspace=True, comment="#", dtype=str,
-                             keep_default_na=False)  # for messages: each cell as the user wrote it
+    as_written = pd.read_csv(
+        path, skipinitialspace=True, comment="#", dtype=str, keep_default_na=False
+    )  # for messages: each cell as the user wrote it
     as_written.columns = [str(c).strip() for c in as_written.columns]
     for col in ("direction_deg", "speed_m_s", "frequency"):
         values = pd.to_numeric(table[col], errors="coerce")
@@ -66,21 +70,27 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
         if bad.any():
             row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
             text = str(as_written[col].iloc[row - 2]).strip()
-            what = ("a finite number" if text.lower().lstrip("+-") in ("nan", "inf", "infinity")
-                    else "a number")
+            what = (
+                "a finite number"
+                if text.lower().lstrip("+-") in ("nan", "inf", "infinity")
+                else "a number"
+            )
             raise InputError(f"{name}, line {row}: {col} must be {what}, got {text!r}")
         table[col] = values.astype(float)
     stability = table["stability"].astype(str).str.strip().str.upper()
     bad = ~stability.isin(STABILITY_CLASSES)
     if bad.any():
         row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
-        raise InputError(f"{name}, line {row}: stability must be one of A-F (Pasquill class), "
-                         f"got {table['stability'].iloc[row - 2]!r}")
+        raise InputError(
+            f"{name}, line {row}: stability must be one of A-F (Pasquill class), "
+            f"got {table['stability'].iloc[row - 2]!r}"
+        )
     direction = table["direction_deg"].to_numpy()
     if ((direction < 0) | (direction > 360)).any():
         row = int(np.flatnonzero((direction < 0) | (direction > 360))[0]) + 2
-        raise InputError(f"{name}, line {row}: direction_deg must be within 0..360, got "
-                         f"{direction[row - 2]}")
+        raise InputError(
+            f"{name}, line {row}: direction_deg must be within 0..360, got {direction[row - 2]}"
+        )
     direction = np.round(direction % 360.0, 6)
     speed = table["speed_m_s"].to_numpy()
     if (speed < 0).any():
@@ -93,15 +103,19 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
     with np.errstate(over="ignore"):
         total = freq.sum()
     if not np.isfinite(total):
-        raise InputError(f"{name}: the frequencies overflow when summed (largest "
-                         f"{freq.max():g}); give fractions or counts of a sensible size")
+        raise InputError(
+            f"{name}: the frequencies overflow when summed (largest "
+            f"{freq.max():g}); give fractions or counts of a sensible size"
+        )
     if total <= 0:
         raise InputError(f"{name}: frequencies sum to zero")
     counts = bool(np.all(freq == np.round(freq))) and total > 1.0 + FRACTION_SUM_TOLERANCE
     if not counts and abs(total - 1.0) > FRACTION_SUM_TOLERANCE:
-        raise InputError(f"{name}: the frequencies sum to {total:.6g}; fractions must sum to 1 "
-                         f"(within {FRACTION_SUM_TOLERANCE:g}), or give whole-number counts "
-                         "(hours), which are normalised")
+        raise InputError(
+            f"{name}: the frequencies sum to {total:.6g}; fractions must sum to 1 "
+            f"(within {FRACTION_SUM_TOLERANCE:g}), or give whole-number counts "
+            "(hours), which are normalised"
+        )
 
     sectors = np.unique(direction)
     n = len(sectors)
@@ -109,15 +123,19 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
         raise InputError(f"{name}: need at least 4 direction sectors, got {n}")
     gaps = np.diff(np.concatenate((sectors, [sectors[0] + 360.0])))
     if not np.allclose(gaps, 360.0 / n, atol=1e-3):
-        raise InputError(f"{name}: the {n} distinct directions must be evenly spaced "
-                         f"({360.0 / n:g} deg apart); got {', '.join(f'{d:g}' for d in sectors)}")
+        raise InputError(
+            f"{name}: the {n} distinct directions must be evenly spaced "
+            f"({360.0 / n:g} deg apart); got {', '.join(f'{d:g}' for d in sectors)}"
+        )
 
     warnings = []
     raised = speed < min_wind_speed_m_s
     raised_share = float(freq[raised].sum() / total)
     if raised.any():
-        warnings.append(f"{name}: {raised_share:.1%} of the time has class speeds below "
-                        f"{min_wind_speed_m_s} m/s; raised to that floor (plume formula needs u > 0)")
+        warnings.append(
+            f"{name}: {raised_share:.1%} of the time has class speeds below "
+            f"{min_wind_speed_m_s} m/s; raised to that floor (plume formula needs u > 0)"
+        )
     speed = np.maximum(speed, min_wind_speed_m_s)
     speeds = np.unique(speed)
     frequency = np.zeros((n, len(speeds), len(STABILITY_CLASSES)))
@@ -142,4 +160,3 @@ def read_frequency_table(path: Path, anemometer_height_m: float = 10.0,
         "frequencies_given_as": "counts (normalised)" if counts else "fractions",
     }
     return weather, summary, warnings
-

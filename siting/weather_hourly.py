@@ -74,8 +74,7 @@ HOURLY_OPTIONAL = ("stability", "cloud_oktas", "ceiling_ft", "temperature_c")
 #: Cell texts read as "no value" in an hourly record (compared case-insensitively).
 MISSING_MARKERS = frozenset({"", "na", "nan", "n/a"})
 STABILITY_GIVEN = "given"
-STABILITY_TURNER = ("Turner's method from cloud cover and solar elevation "
-                    "(NOAA solar position)")
+STABILITY_TURNER = "Turner's method from cloud cover and solar elevation (NOAA solar position)"
 CALM_RULE = (
     "A calm hour (speed below calm_threshold_m_s) keeps the direction recorded for it; where it "
     "has no usable direction (empty, or 0 = the station code for calm) it takes the direction "
@@ -93,10 +92,24 @@ MISSING_RULE = (
 #: open (>= 11 m/s). Our own choice, common practice, no source.
 DEFAULT_SPEED_EDGES_M_S = (0.0, 1.5, 3.0, 5.0, 8.0, 11.0)
 #: 16-point compass, from north clockwise, in words.
-COMPASS_POINTS = ("north", "north-north-east", "north-east", "east-north-east", "east",
-                  "east-south-east", "south-east", "south-south-east", "south",
-                  "south-south-west", "south-west", "west-south-west", "west",
-                  "west-north-west", "north-west", "north-north-west")
+COMPASS_POINTS = (
+    "north",
+    "north-north-east",
+    "north-east",
+    "east-north-east",
+    "east",
+    "east-south-east",
+    "south-east",
+    "south-south-east",
+    "south",
+    "south-south-west",
+    "south-west",
+    "west-south-west",
+    "west",
+    "west-north-west",
+    "north-west",
+    "north-north-west",
+)
 HOURS_PER_YEAR = 8760  # 365 d x 24 h: a common (non-leap) year
 _HOURS_PER_MEAN_YEAR = 8766.0  # 365.25 d x 24 h, for the record length in years
 _CALM_WARN_PERCENT = 10.0  # our choice: more calms than this deserve a look at the station
@@ -108,9 +121,11 @@ _DIRECTION_STEPS_DEG = (22.5, 10.0, 5.0, 1.0)  # reporting resolutions recognise
 #: an inferred step at or below this is taken as exact directions, not spread (our choice)
 _EXACT_STEP_DEG = 1.0
 _MAX_DIRECTION_STEP_DEG = 45.0  # a coarser step (8 points or fewer) is no direction at all
-_TIME_RE = (r"^(?P<date>\d{4}-\d{2}-\d{2})[T ](?P<hour>\d{2}):(?P<minute>\d{2})"
-            r"(?::(?P<second>\d{2}(?:\.\d+)?))?"
-            r"(?P<offset>Z|[+-]\d{2}(?::?\d{2})?)?$")
+_TIME_RE = (
+    r"^(?P<date>\d{4}-\d{2}-\d{2})[T ](?P<hour>\d{2}):(?P<minute>\d{2})"
+    r"(?::(?P<second>\d{2}(?:\.\d+)?))?"
+    r"(?P<offset>Z|[+-]\d{2}(?::?\d{2})?)?$"
+)
 
 
 # --- reading a record ----------------------------------------------------------------------------
@@ -119,8 +134,14 @@ _TIME_RE = (r"^(?P<date>\d{4}-\d{2}-\d{2})[T ](?P<hour>\d{2}):(?P<minute>\d{2})"
 class _RawFile:
     """One hourly CSV as read: stripped cell texts by column, line numbers, UTC times."""
 
-    def __init__(self, name: str, columns: dict[str, np.ndarray], lines: np.ndarray,
-                 time_utc: np.ndarray, offsets: set[str]):
+    def __init__(
+        self,
+        name: str,
+        columns: dict[str, np.ndarray],
+        lines: np.ndarray,
+        time_utc: np.ndarray,
+        offsets: set[str],
+    ):
         self.name = name
         self.columns = columns
         self.lines = lines
@@ -143,25 +164,30 @@ def _numbers(raw: _RawFile, column: str) -> np.ndarray:
     """A column as floats, NaN where empty; anything else that is not a finite number fails."""
     texts = raw.columns[column]
     missing = _is_missing(texts)
-    values = pd.to_numeric(pd.Series(np.where(missing, "nan", texts), dtype=object),
-                           errors="coerce").to_numpy(dtype=float)
+    values = pd.to_numeric(
+        pd.Series(np.where(missing, "nan", texts), dtype=object), errors="coerce"
+    ).to_numpy(dtype=float)
     bad = ~missing & ~np.isfinite(values)
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
-        raise InputError(f"{_where(raw.name, raw.lines[i])}: {column} must be a number, "
-                         f"got {texts[i]!r}")
+        raise InputError(
+            f"{_where(raw.name, raw.lines[i])}: {column} must be a number, got {texts[i]!r}"
+        )
     return values
 
 
-def _check_range(raw: _RawFile, column: str, values: np.ndarray, bad: np.ndarray,
-                 expected: str) -> None:
+def _check_range(
+    raw: _RawFile, column: str, values: np.ndarray, bad: np.ndarray, expected: str
+) -> None:
     """Raise naming the first row where ``bad`` holds (empty cells, NaN, are never bad)."""
     if values.dtype.kind == "f":
         bad = bad & np.isfinite(values)
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
-        raise InputError(f"{_where(raw.name, raw.lines[i])}: {column} must be {expected}, "
-                         f"got {raw.columns[column][i]!r}")
+        raise InputError(
+            f"{_where(raw.name, raw.lines[i])}: {column} must be {expected}, "
+            f"got {raw.columns[column][i]!r}"
+        )
 
 
 def _read_rows(path: Path) -> tuple[list[str], list[list[str]], list[int], int, list[str]]:
@@ -183,9 +209,11 @@ def _read_rows(path: Path) -> tuple[list[str], list[list[str]], list[int], int, 
                     ignored = _check_header(name, header, header_line)
                     continue
                 if len(cells) != len(header):
-                    raise InputError(f"{_where(name, reader.line_num)}: {len(cells)} values, "
-                                     f"but the header line {header_line} has {len(header)} "
-                                     f"columns ({','.join(header)})")
+                    raise InputError(
+                        f"{_where(name, reader.line_num)}: {len(cells)} values, "
+                        f"but the header line {header_line} has {len(header)} "
+                        f"columns ({','.join(header)})"
+                    )
                 rows.append(cells)
                 lines.append(reader.line_num)
     except UnicodeDecodeError as exc:
@@ -193,8 +221,10 @@ def _read_rows(path: Path) -> tuple[list[str], list[list[str]], list[int], int, 
     except csv.Error as exc:
         raise InputError(f"{name}: cannot read as CSV: {exc}") from exc
     if header is None:
-        raise InputError(f"{name}: the file is empty; need a header "
-                         f"{','.join(HOURLY_REQUIRED)},stability|cloud_oktas and hourly rows")
+        raise InputError(
+            f"{name}: the file is empty; need a header "
+            f"{','.join(HOURLY_REQUIRED)},stability|cloud_oktas and hourly rows"
+        )
     return header, rows, lines, header_line, ignored
 
 
@@ -202,19 +232,24 @@ def _check_header(name: str, header: list[str], header_line: int) -> list[str]:
     """Columns to ignore; raise on duplicated, missing or ambiguous ones."""
     duplicated = sorted({c for c in header if header.count(c) > 1})
     if duplicated:
-        raise InputError(f"{_where(name, header_line)}: column(s) {', '.join(duplicated)} "
-                         "appear more than once")
+        raise InputError(
+            f"{_where(name, header_line)}: column(s) {', '.join(duplicated)} appear more than once"
+        )
     missing = [c for c in HOURLY_REQUIRED if c not in header]
     has_class, has_cloud = "stability" in header, "cloud_oktas" in header
     if missing or not (has_class or has_cloud):
         need = missing + ([] if has_class or has_cloud else ["stability or cloud_oktas"])
-        raise InputError(f"{_where(name, header_line)}: missing column(s) {', '.join(need)}; "
-                         f"need {','.join(HOURLY_REQUIRED)} plus stability (A-F) or "
-                         f"cloud_oktas (0-8), optional ceiling_ft, temperature_c "
-                         f"(got {','.join(header)})")
+        raise InputError(
+            f"{_where(name, header_line)}: missing column(s) {', '.join(need)}; "
+            f"need {','.join(HOURLY_REQUIRED)} plus stability (A-F) or "
+            f"cloud_oktas (0-8), optional ceiling_ft, temperature_c "
+            f"(got {','.join(header)})"
+        )
     if has_class and has_cloud:
-        raise InputError(f"{_where(name, header_line)}: give either a stability column or a "
-                         "cloud_oktas column, not both (which one should set the class?)")
+        raise InputError(
+            f"{_where(name, header_line)}: give either a stability column or a "
+            "cloud_oktas column, not both (which one should set the class?)"
+        )
     return [c for c in header if c not in HOURLY_REQUIRED + HOURLY_OPTIONAL]
 
 
@@ -227,29 +262,36 @@ def _offset_minutes(text: str) -> int:
     return sign * (int(digits[:2]) * 60 + (int(digits[2:]) if len(digits) > 2 else 0))
 
 
-def _parse_times(name: str, texts: np.ndarray, lines: np.ndarray,
-                 utc_offset_h: float | None) -> tuple[np.ndarray, set[str]]:
+def _parse_times(
+    name: str, texts: np.ndarray, lines: np.ndarray, utc_offset_h: float | None
+) -> tuple[np.ndarray, set[str]]:
     """Time texts -> UTC datetime64[m]; the offsets written in the file (empty if naive)."""
     parts = pd.Series(texts, dtype=object).str.extract(_TIME_RE)
     bad = parts["date"].isna().to_numpy()
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
-        raise InputError(f"{_where(name, lines[i])}: time must be ISO 8601 like "
-                         f"2025-01-01T00:00+01:00 (or naive local time with utc_offset_h), "
-                         f"got {texts[i]!r}")
+        raise InputError(
+            f"{_where(name, lines[i])}: time must be ISO 8601 like "
+            f"2025-01-01T00:00+01:00 (or naive local time with utc_offset_h), "
+            f"got {texts[i]!r}"
+        )
     second = parts["second"].fillna("00").astype(float).to_numpy()
     off_hour = (parts["minute"].to_numpy() != "00") | (second != 0)
     if off_hour.any():
         i = int(np.flatnonzero(off_hour)[0])
-        raise InputError(f"{_where(name, lines[i])}: time {texts[i]!r} is not on a whole hour; "
-                         "hourly records must have minutes :00 (times are not rounded: shift "
-                         "the time stamps if your station reports at another minute)")
+        raise InputError(
+            f"{_where(name, lines[i])}: time {texts[i]!r} is not on a whole hour; "
+            "hourly records must have minutes :00 (times are not rounded: shift "
+            "the time stamps if your station reports at another minute)"
+        )
     has_offset = parts["offset"].notna().to_numpy()
     if has_offset.any() and not has_offset.all():
         i, j = int(np.flatnonzero(has_offset)[0]), int(np.flatnonzero(~has_offset)[0])
-        raise InputError(f"{name}: times mix UTC offsets and naive times: line {lines[i]} "
-                         f"{texts[i]!r} has an offset, line {lines[j]} {texts[j]!r} has none; "
-                         "write every time with its offset, or none and give utc_offset_h")
+        raise InputError(
+            f"{name}: times mix UTC offsets and naive times: line {lines[i]} "
+            f"{texts[i]!r} has an offset, line {lines[j]} {texts[j]!r} has none; "
+            "write every time with its offset, or none and give utc_offset_h"
+        )
     local_text = (parts["date"] + "T" + parts["hour"] + ":00").to_numpy(dtype=str)
     try:
         local = np.array(local_text, dtype="datetime64[m]")
@@ -258,15 +300,18 @@ def _parse_times(name: str, texts: np.ndarray, lines: np.ndarray,
             try:
                 np.datetime64(text, "m")
             except ValueError:
-                raise InputError(f"{_where(name, lines[i])}: time {texts[i]!r} is not a valid "
-                                 "date and hour") from None
+                raise InputError(
+                    f"{_where(name, lines[i])}: time {texts[i]!r} is not a valid date and hour"
+                ) from None
         raise
     if not has_offset.all():
         if utc_offset_h is None:
-            raise InputError(f"{_where(name, lines[0])}: time {texts[0]!r} has no UTC offset; "
-                             "write times as 2025-01-01T00:00+01:00, or give utc_offset_h "
-                             "(scenario [weather] utc_offset_h, or --utc-offset on the command "
-                             "line), the offset of the file's clock from UTC in hours")
+            raise InputError(
+                f"{_where(name, lines[0])}: time {texts[0]!r} has no UTC offset; "
+                "write times as 2025-01-01T00:00+01:00, or give utc_offset_h "
+                "(scenario [weather] utc_offset_h, or --utc-offset on the command "
+                "line), the offset of the file's clock from UTC in hours"
+            )
         return local - np.timedelta64(round(utc_offset_h * 60), "m"), set()
     offsets = parts["offset"].to_numpy(dtype=object)
     distinct = {text: _offset_minutes(text) for text in set(offsets.tolist())}
@@ -274,8 +319,10 @@ def _parse_times(name: str, texts: np.ndarray, lines: np.ndarray,
         digits = text[1:].replace(":", "") if text != "Z" else "00"
         if len(digits) > 2 and int(digits[2:]) >= 60:
             i = int(np.flatnonzero(offsets == text)[0])
-            raise InputError(f"{_where(name, lines[i])}: UTC offset {text} has minutes "
-                             f"{digits[2:]}; minutes must be 00-59")
+            raise InputError(
+                f"{_where(name, lines[i])}: UTC offset {text} has minutes "
+                f"{digits[2:]}; minutes must be 00-59"
+            )
         if abs(minutes) > 14 * 60:
             i = int(np.flatnonzero(offsets == text)[0])
             raise InputError(f"{_where(name, lines[i])}: UTC offset {text} is beyond +-14 h")
@@ -290,35 +337,48 @@ def _read_hourly_file(path: Path, utc_offset_h: float | None) -> tuple[_RawFile,
     if not rows:
         raise InputError(f"{name}: no data rows after the header (line {header_line})")
     table = np.array(rows, dtype=object).reshape(len(rows), len(header))
-    columns = {c: table[:, k] for k, c in enumerate(header)  # object arrays of str
-               if c in HOURLY_REQUIRED + HOURLY_OPTIONAL}
+    columns = {
+        c: table[:, k]
+        for k, c in enumerate(header)  # object arrays of str
+        if c in HOURLY_REQUIRED + HOURLY_OPTIONAL
+    }
     line_numbers = np.asarray(lines, dtype=int)
     empty_time = columns["time"] == ""
     if empty_time.any():
         i = int(np.flatnonzero(empty_time)[0])
-        raise InputError(f"{_where(name, line_numbers[i])}: time is empty; every row needs its "
-                         "time (leave out the row of a missing hour instead)")
+        raise InputError(
+            f"{_where(name, line_numbers[i])}: time is empty; every row needs its "
+            "time (leave out the row of a missing hour instead)"
+        )
     time_utc, offsets = _parse_times(name, columns["time"], line_numbers, utc_offset_h)
     step = np.diff(time_utc).astype(np.int64)
     if (step <= 0).any():
         i = int(np.flatnonzero(step <= 0)[0]) + 1
         what = "repeats the time of" if step[i - 1] == 0 else "is earlier than"
-        raise InputError(f"{_where(name, line_numbers[i])}: time {columns['time'][i]!r} {what} "
-                         f"line {line_numbers[i - 1]} ({columns['time'][i - 1]!r}); rows must be "
-                         "in increasing time order without duplicates")
+        raise InputError(
+            f"{_where(name, line_numbers[i])}: time {columns['time'][i]!r} {what} "
+            f"line {line_numbers[i - 1]} ({columns['time'][i - 1]!r}); rows must be "
+            "in increasing time order without duplicates"
+        )
     warnings = []
     if ignored:
-        warnings.append(f"{name}: column(s) {', '.join(ignored)} ignored (known columns: "
-                        f"{', '.join(HOURLY_REQUIRED + HOURLY_OPTIONAL)})")
+        warnings.append(
+            f"{name}: column(s) {', '.join(ignored)} ignored (known columns: "
+            f"{', '.join(HOURLY_REQUIRED + HOURLY_OPTIONAL)})"
+        )
     if offsets and utc_offset_h is not None:
         given = {_offset_minutes(o) for o in offsets}
         if given != {round(utc_offset_h * 60)}:
-            warnings.append(f"{name}: the times carry their own UTC offsets "
-                            f"({', '.join(sorted(offsets))}); utc_offset_h = {utc_offset_h:g} "
-                            "is not used for this file")
+            warnings.append(
+                f"{name}: the times carry their own UTC offsets "
+                f"({', '.join(sorted(offsets))}); utc_offset_h = {utc_offset_h:g} "
+                "is not used for this file"
+            )
     if "ceiling_ft" in columns and "stability" in columns:
-        warnings.append(f"{name}: ceiling_ft is used only with cloud_oktas; ignored because "
-                        "the stability class is given")
+        warnings.append(
+            f"{name}: ceiling_ft is used only with cloud_oktas; ignored because "
+            "the stability class is given"
+        )
     return _RawFile(name, columns, line_numbers, time_utc, offsets), warnings
 
 
@@ -328,15 +388,19 @@ def _join_files(files: list[_RawFile]) -> list[_RawFile]:
     if len(kinds) > 1:
         given = [f.name for f in files if "stability" in f.columns]
         cloud = [f.name for f in files if "stability" not in f.columns]
-        raise InputError(f"hourly records mix stability sources: {', '.join(given)} give "
-                         f"stability, {', '.join(cloud)} give cloud_oktas; use one kind")
+        raise InputError(
+            f"hourly records mix stability sources: {', '.join(given)} give "
+            f"stability, {', '.join(cloud)} give cloud_oktas; use one kind"
+        )
     files = sorted(files, key=lambda f: f.time_utc[0])
     for before, after in pairwise(files):
         if after.time_utc[0] <= before.time_utc[-1]:
-            raise InputError(f"{after.name}, line {after.lines[0]}: time "
-                             f"{after.columns['time'][0]!r} overlaps {before.name}, which runs "
-                             f"to {before.columns['time'][-1]!r} (line {before.lines[-1]}); "
-                             "hourly files must not overlap")
+            raise InputError(
+                f"{after.name}, line {after.lines[0]}: time "
+                f"{after.columns['time'][0]!r} overlaps {before.name}, which runs "
+                f"to {before.columns['time'][-1]!r} (line {before.lines[-1]}); "
+                "hourly files must not overlap"
+            )
     return files
 
 
@@ -348,23 +412,41 @@ def _file_values(raw: _RawFile) -> dict[str, np.ndarray]:
     """
     n = raw.lines.size
     d = _numbers(raw, "direction_deg")
-    _check_range(raw, "direction_deg", d, (d < 0) | (d > 360),
-                 "within 0..360 (degrees the wind blows from, clockwise from north)")
+    _check_range(
+        raw,
+        "direction_deg",
+        d,
+        (d < 0) | (d > 360),
+        "within 0..360 (degrees the wind blows from, clockwise from north)",
+    )
     u = _numbers(raw, "speed_m_s")
     _check_range(raw, "speed_m_s", u, u < 0, ">= 0")
-    out = {"direction_deg": d, "speed_m_s": u, "temperature_c": np.full(n, np.nan),
-           "ceiling_ft": np.full(n, np.nan)}
+    out = {
+        "direction_deg": d,
+        "speed_m_s": u,
+        "temperature_c": np.full(n, np.nan),
+        "ceiling_ft": np.full(n, np.nan),
+    }
     if "stability" in raw.columns:
-        index = (pd.Series(raw.columns["stability"], dtype=object).str.upper()
-                 .map({c: i for i, c in enumerate(STABILITY_CLASSES)})
-                 .fillna(-1).to_numpy(dtype=int))  # -1: empty or unknown
+        index = (
+            pd.Series(raw.columns["stability"], dtype=object)
+            .str.upper()
+            .map({c: i for i, c in enumerate(STABILITY_CLASSES)})
+            .fillna(-1)
+            .to_numpy(dtype=int)
+        )  # -1: empty or unknown
         empty = _is_missing(raw.columns["stability"])
         _check_range(raw, "stability", index, (index < 0) & ~empty, "a Pasquill class A-F")
         out["stability"] = index
     else:
         c = _numbers(raw, "cloud_oktas")
-        _check_range(raw, "cloud_oktas", c, (c < 0) | (c > 8) | (c != np.round(c)),
-                     "whole oktas 0..8 (9, sky obscured, is not accepted)")
+        _check_range(
+            raw,
+            "cloud_oktas",
+            c,
+            (c < 0) | (c > 8) | (c != np.round(c)),
+            "whole oktas 0..8 (9, sky obscured, is not accepted)",
+        )
         out["cloud_oktas"] = c
         if "ceiling_ft" in raw.columns:
             h = _numbers(raw, "ceiling_ft")
@@ -389,9 +471,14 @@ def _gaps(valid_index: np.ndarray, n_expected: int, t0) -> list[dict]:
     where = np.flatnonzero(length > 0)
     order = sorted(where, key=lambda k: (-length[k], edges[k]))
     hour = np.timedelta64(60, "m")
-    return [{"start_utc": _utc_text(t0 + (edges[k] + 1) * hour),
-             "end_utc": _utc_text(t0 + (edges[k] + length[k]) * hour),
-             "hours": int(length[k])} for k in order]
+    return [
+        {
+            "start_utc": _utc_text(t0 + (edges[k] + 1) * hour),
+            "end_utc": _utc_text(t0 + (edges[k] + length[k]) * hour),
+            "hours": int(length[k]),
+        }
+        for k in order
+    ]
 
 
 def compass_words(direction_deg: float) -> str:
@@ -409,8 +496,9 @@ def direction_step_deg(direction_deg) -> float:
     return 0.0
 
 
-def hours_by_sector(direction_deg, n_sectors: int, step_deg: float | None = None,
-                    weights=None) -> np.ndarray:
+def hours_by_sector(
+    direction_deg, n_sectors: int, step_deg: float | None = None, weights=None
+) -> np.ndarray:
     """Hours (or summed weights) per direction sector, each reported direction spread evenly
     over its reporting step.
 
@@ -446,16 +534,18 @@ def hours_by_sector(direction_deg, n_sectors: int, step_deg: float | None = None
         return np.bincount(k, weights=w, minlength=n_sectors).astype(float)
     centres = np.arange(n_sectors) * width
     r = (d[:, None] - centres[None, :] + 180.0) % 360.0 - 180.0  # offset from each centre
-    overlap = (np.minimum(r + step / 2, width / 2) - np.maximum(r - step / 2, -width / 2))
+    overlap = np.minimum(r + step / 2, width / 2) - np.maximum(r - step / 2, -width / 2)
     return (np.clip(overlap, 0.0, None) / step * w[:, None]).sum(axis=0)
 
 
-def speed_class_index(speed_m_s, speed_edges_m_s: Sequence[float] = DEFAULT_SPEED_EDGES_M_S
-                      ) -> np.ndarray:
+def speed_class_index(
+    speed_m_s, speed_edges_m_s: Sequence[float] = DEFAULT_SPEED_EDGES_M_S
+) -> np.ndarray:
     """Speed class of each hour: i where edge[i] <= u < edge[i+1]; the last class is open."""
     edges = _checked_edges(speed_edges_m_s)
-    return np.clip(np.searchsorted(edges, np.asarray(speed_m_s, float), side="right") - 1,
-                   0, edges.size - 1)
+    return np.clip(
+        np.searchsorted(edges, np.asarray(speed_m_s, float), side="right") - 1, 0, edges.size - 1
+    )
 
 
 def speed_class_labels(speed_edges_m_s: Sequence[float] = DEFAULT_SPEED_EDGES_M_S) -> list[str]:
@@ -473,12 +563,18 @@ def _checked_edges(speed_edges_m_s) -> np.ndarray:
     return edges
 
 
-def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
-                       anemometer_height_m: float = 10.0, utc_offset_h: float | None = None,
-                       calm_threshold_m_s: float = 0.5, min_wind_speed_m_s: float = 1.0,
-                       max_missing_percent: float = 10.0,
-                       direction_step_deg: float | None = None
-                       ) -> tuple[HourlyWeather, dict, list[str]]:
+def read_hourly_record(
+    paths,
+    latitude_deg: float,
+    longitude_deg: float,
+    *,
+    anemometer_height_m: float = 10.0,
+    utc_offset_h: float | None = None,
+    calm_threshold_m_s: float = 0.5,
+    min_wind_speed_m_s: float = 1.0,
+    max_missing_percent: float = 10.0,
+    direction_step_deg: float | None = None,
+) -> tuple[HourlyWeather, dict, list[str]]:
     """Read, check and prepare an hourly weather record (one or several CSV files).
 
     Parameters
@@ -538,8 +634,15 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
     from siting.solar import is_night, solar_elevation_deg
     from siting.stability import turner_stability_index
 
-    _check_options(latitude_deg, longitude_deg, anemometer_height_m, utc_offset_h,
-                   calm_threshold_m_s, min_wind_speed_m_s, max_missing_percent)
+    _check_options(
+        latitude_deg,
+        longitude_deg,
+        anemometer_height_m,
+        utc_offset_h,
+        calm_threshold_m_s,
+        min_wind_speed_m_s,
+        max_missing_percent,
+    )
     given_step = _checked_direction_step(direction_step_deg)
     paths = [Path(paths)] if isinstance(paths, (str, Path)) else [Path(p) for p in paths]
     if not paths:
@@ -556,10 +659,12 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
     values = [_file_values(raw) for raw in files]
     direction, speed, temperature, ceiling = (
         np.concatenate([v[key] for v in values])
-        for key in ("direction_deg", "speed_m_s", "temperature_c", "ceiling_ft"))
+        for key in ("direction_deg", "speed_m_s", "temperature_c", "ceiling_ft")
+    )
     given_class = "stability" in files[0].columns  # one kind for all files (_join_files)
-    method_value = np.concatenate([v["stability" if given_class else "cloud_oktas"]
-                                   for v in values])
+    method_value = np.concatenate(
+        [v["stability" if given_class else "cloud_oktas"] for v in values]
+    )
     time_utc = np.concatenate([f.time_utc for f in files])
     line = np.concatenate([f.lines for f in files])
     file_of = np.concatenate([np.full(f.lines.size, k) for k, f in enumerate(files)])
@@ -571,9 +676,11 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
     off_grid = since_minutes % 60 != 0
     if off_grid.any():
         i = int(np.flatnonzero(off_grid)[0])
-        raise InputError(f"{_where(files[file_of[i]].name, line[i])}: time {written[i]!r} is not "
-                         f"a whole number of hours after the record's first time "
-                         f"({_utc_text(t0)}); check the UTC offsets")
+        raise InputError(
+            f"{_where(files[file_of[i]].name, line[i])}: time {written[i]!r} is not "
+            f"a whole number of hours after the record's first time "
+            f"({_utc_text(t0)}); check the UTC offsets"
+        )
     hour_index = since_minutes // 60
     n_expected = int(hour_index[-1]) + 1
 
@@ -589,13 +696,17 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
         raise InputError(f"{names}: no usable hour (every row lacks a required value)")
     if missing_percent > max_missing_percent:
         longest = gaps[0]
-        raise InputError(f"{names}: {missing_percent:.1f} % of the {n_expected} expected hours "
-                         f"are missing ({n_missing} h), more than max_missing_percent = "
-                         f"{max_missing_percent:g} %; the longest gap is {longest['hours']} h "
-                         f"from {longest['start_utc']} to {longest['end_utc']}")
+        raise InputError(
+            f"{names}: {missing_percent:.1f} % of the {n_expected} expected hours "
+            f"are missing ({n_missing} h), more than max_missing_percent = "
+            f"{max_missing_percent:g} %; the longest gap is {longest['hours']} h "
+            f"from {longest['start_utc']} to {longest['end_utc']}"
+        )
     if not (valid & ~calm).any():
-        raise InputError(f"{names}: every usable hour is calm (speed < {calm_threshold_m_s:g} "
-                         "m/s), so no wind direction can be given to the calms")
+        raise InputError(
+            f"{names}: every usable hour is calm (speed < {calm_threshold_m_s:g} "
+            "m/s), so no wind direction can be given to the calms"
+        )
 
     # calm rule: keep a usable direction, else the last non-calm hour's direction
     no_direction = calm & ~(np.isfinite(direction) & (direction != 0))  # 0 = station's calm
@@ -614,8 +725,8 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
         elevation = solar_elevation_deg(times_s, latitude_deg, longitude_deg)
         night = is_night(times_s, latitude_deg, longitude_deg)
         stability_index = turner_stability_index(
-            speed[v], method_value[v], elevation, night,
-            ceiling_ft=ceiling[v]).astype(int)
+            speed[v], method_value[v], elevation, night, ceiling_ft=ceiling[v]
+        ).astype(int)
 
     observed = speed[v]
     used_speed = np.maximum(observed, min_wind_speed_m_s)
@@ -626,11 +737,20 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
     else:
         step = spread = given_step
         if step > 0 and not _all_multiples(used_direction, step):
-            warnings.append(f"{names}: direction_step_deg = {step:g} is given, but not every "
-                            f"direction is a multiple of {step:g} deg; each hour is still "
-                            "spread over +-half the step around its direction")
-    weather = HourlyWeather(times_s, used_direction, used_speed, stability_index,
-                            temperature[v].astype(float), float(anemometer_height_m), spread)
+            warnings.append(
+                f"{names}: direction_step_deg = {step:g} is given, but not every "
+                f"direction is a multiple of {step:g} deg; each hour is still "
+                "spread over +-half the step around its direction"
+            )
+    weather = HourlyWeather(
+        times_s,
+        used_direction,
+        used_speed,
+        stability_index,
+        temperature[v].astype(float),
+        float(anemometer_height_m),
+        spread,
+    )
 
     # summary
     n_calm = int(calm[v].sum())
@@ -639,9 +759,16 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
     prevailing = float(np.argmax(by_point) * 22.5)
     share = np.bincount(stability_index, minlength=len(STABILITY_CLASSES)) / n_used
     t_used = weather.temperature_c[np.isfinite(weather.temperature_c)]
-    temperature_summary = None if t_used.size == 0 else {
-        "min": float(t_used.min()), "mean": float(t_used.mean()), "max": float(t_used.max()),
-        "hours_without": int(n_used - t_used.size)}
+    temperature_summary = (
+        None
+        if t_used.size == 0
+        else {
+            "min": float(t_used.min()),
+            "mean": float(t_used.mean()),
+            "max": float(t_used.max()),
+            "hours_without": int(n_used - t_used.size),
+        }
+    )
     offsets = sorted(set().union(*(f.offsets for f in files)))
     years = sorted({int(text[:4]) for text in written[v]})
     summary = {
@@ -650,8 +777,11 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
         "longitude_deg": float(longitude_deg),
         "first_time_utc": _utc_text(time_utc[0]),
         "last_time_utc": _utc_text(time_utc[-1]),
-        "time_offsets": (f"given in the file(s): {', '.join(offsets)}" if offsets
-                         else f"utc_offset_h = {utc_offset_h:g}"),
+        "time_offsets": (
+            f"given in the file(s): {', '.join(offsets)}"
+            if offsets
+            else f"utc_offset_h = {utc_offset_h:g}"
+        ),
         "hours_expected": n_expected,
         "hours_used": n_used,
         "hours_missing": n_missing,
@@ -682,24 +812,32 @@ def read_hourly_record(paths, latitude_deg: float, longitude_deg: float, *,
     }
 
     if summary["calm_percent"] > _CALM_WARN_PERCENT:
-        warnings.append(f"{names}: {summary['calm_percent']:.1f} % of the hours used are calm "
-                        f"(< {calm_threshold_m_s:g} m/s), more than {_CALM_WARN_PERCENT:g} %; "
-                        f"they were raised to {min_wind_speed_m_s:g} m/s with the direction of "
-                        "the last non-calm hour where they had none; check the station and "
-                        "its anemometer threshold")
+        warnings.append(
+            f"{names}: {summary['calm_percent']:.1f} % of the hours used are calm "
+            f"(< {calm_threshold_m_s:g} m/s), more than {_CALM_WARN_PERCENT:g} %; "
+            f"they were raised to {min_wind_speed_m_s:g} m/s with the direction of "
+            "the last non-calm hour where they had none; check the station and "
+            "its anemometer threshold"
+        )
     if n_expected < HOURS_PER_YEAR:
-        warnings.append(f"{names}: the record covers {n_expected} h, less than a year "
-                        f"({HOURS_PER_YEAR} h); seasons are not equally represented")
+        warnings.append(
+            f"{names}: the record covers {n_expected} h, less than a year "
+            f"({HOURS_PER_YEAR} h); seasons are not equally represented"
+        )
     long_gaps = [g for g in gaps if g["hours"] > _LONG_GAP_H]
     if long_gaps:
-        warnings.append(f"{names}: {len(long_gaps)} gap(s) longer than {_LONG_GAP_H} h, the "
-                        f"longest {long_gaps[0]['hours']} h from {long_gaps[0]['start_utc']}; "
-                        "missing hours are not filled, so that part of the year counts less")
+        warnings.append(
+            f"{names}: {len(long_gaps)} gap(s) longer than {_LONG_GAP_H} h, the "
+            f"longest {long_gaps[0]['hours']} h from {long_gaps[0]['start_utc']}; "
+            "missing hours are not filled, so that part of the year counts less"
+        )
     if observed.max() > _FAST_SPEED_M_S:
         i = v[int(np.argmax(observed))]
-        warnings.append(f"{_where(files[file_of[i]].name, line[i])}: speed_m_s "
-                        f"{observed.max():g} is above {_FAST_SPEED_M_S:g} m/s; check the unit "
-                        "(knots?)")
+        warnings.append(
+            f"{_where(files[file_of[i]].name, line[i])}: speed_m_s "
+            f"{observed.max():g} is above {_FAST_SPEED_M_S:g} m/s; check the unit "
+            "(knots?)"
+        )
     return weather, summary, warnings
 
 
@@ -712,10 +850,12 @@ def _checked_direction_step(direction_step_deg) -> float | None:
     except (TypeError, ValueError):
         step = float("nan")
     if isinstance(direction_step_deg, bool) or not 0.0 <= step <= _MAX_DIRECTION_STEP_DEG:
-        raise InputError(f"hourly weather: weather.direction_step_deg must be within "
-                         f"0..{_MAX_DIRECTION_STEP_DEG:g} deg (the step the directions were "
-                         f"reported in; 0 = exact, leave it out to infer it), "
-                         f"got {direction_step_deg!r}")
+        raise InputError(
+            f"hourly weather: weather.direction_step_deg must be within "
+            f"0..{_MAX_DIRECTION_STEP_DEG:g} deg (the step the directions were "
+            f"reported in; 0 = exact, leave it out to infer it), "
+            f"got {direction_step_deg!r}"
+        )
     return step
 
 
@@ -734,30 +874,51 @@ def _direction_rule(step_deg: float, spread_deg: float, given: bool) -> str:
     """The direction-step rule of a record, in words, for the summary."""
     origin = "given" if given else "inferred from the directions"
     if spread_deg > 0:
-        return (f"each hour's plume is spread evenly over the {spread_deg:g}-degree interval "
-                f"its direction was reported in (step {origin})")
+        return (
+            f"each hour's plume is spread evenly over the {spread_deg:g}-degree interval "
+            f"its direction was reported in (step {origin})"
+        )
     if step_deg > 0:
-        return (f"directions are reported in {step_deg:g}-degree steps ({origin}), fine enough "
-                "to be used as exact: each hour's plume follows its reported direction")
+        return (
+            f"directions are reported in {step_deg:g}-degree steps ({origin}), fine enough "
+            "to be used as exact: each hour's plume follows its reported direction"
+        )
     why = "a step of 0 is given" if given else "the directions show no reporting step"
-    return (f"directions are used as exact ({why}): each hour's plume follows its reported "
-            "direction")
+    return f"directions are used as exact ({why}): each hour's plume follows its reported direction"
 
 
-def _check_options(latitude_deg, longitude_deg, anemometer_height_m, utc_offset_h,
-                   calm_threshold_m_s, min_wind_speed_m_s, max_missing_percent) -> None:
+def _check_options(
+    latitude_deg,
+    longitude_deg,
+    anemometer_height_m,
+    utc_offset_h,
+    calm_threshold_m_s,
+    min_wind_speed_m_s,
+    max_missing_percent,
+) -> None:
     checks = [
         ("latitude_deg", latitude_deg, -90.0 <= latitude_deg <= 90.0, "within -90..90"),
         ("longitude_deg", longitude_deg, -180.0 <= longitude_deg <= 180.0, "within -180..180"),
-        ("anemometer_height_m", anemometer_height_m, 0 < anemometer_height_m <= 300,
-         "within (0, 300]"),
-        ("utc_offset_h", utc_offset_h, utc_offset_h is None or -14 <= utc_offset_h <= 14,
-         "within -14..14"),
+        (
+            "anemometer_height_m",
+            anemometer_height_m,
+            0 < anemometer_height_m <= 300,
+            "within (0, 300]",
+        ),
+        (
+            "utc_offset_h",
+            utc_offset_h,
+            utc_offset_h is None or -14 <= utc_offset_h <= 14,
+            "within -14..14",
+        ),
         ("calm_threshold_m_s", calm_threshold_m_s, 0 <= calm_threshold_m_s <= 3, "within 0..3"),
-        ("min_wind_speed_m_s", min_wind_speed_m_s, 0 < min_wind_speed_m_s <= 5,
-         "within (0, 5]"),
-        ("max_missing_percent", max_missing_percent, 0 <= max_missing_percent <= 100,
-         "within 0..100"),
+        ("min_wind_speed_m_s", min_wind_speed_m_s, 0 < min_wind_speed_m_s <= 5, "within (0, 5]"),
+        (
+            "max_missing_percent",
+            max_missing_percent,
+            0 <= max_missing_percent <= 100,
+            "within 0..100",
+        ),
     ]
     for key, value, ok, expected in checks:
         if not ok:  # NaN fails every comparison
@@ -767,9 +928,11 @@ def _check_options(latitude_deg, longitude_deg, anemometer_height_m, utc_offset_
 # --- products of an hourly record ----------------------------------------------------------------
 
 
-def frequency_table_from_hourly(weather: HourlyWeather, n_sectors: int = 12,
-                                speed_edges_m_s: Sequence[float] = DEFAULT_SPEED_EDGES_M_S
-                                ) -> pd.DataFrame:
+def frequency_table_from_hourly(
+    weather: HourlyWeather,
+    n_sectors: int = 12,
+    speed_edges_m_s: Sequence[float] = DEFAULT_SPEED_EDGES_M_S,
+) -> pd.DataFrame:
     """Joint frequency table (sector x speed class x Pasquill class) of an hourly record.
 
     Parameters
@@ -817,15 +980,18 @@ def frequency_table_from_hourly(weather: HourlyWeather, n_sectors: int = 12,
     upper = np.append(edges[1:], edges[-1] + (edges[-1] - edges[-2] if edges.size > 1 else 2.0))
     fallback = (edges + upper) / 2.0
     class_speed = np.where(class_hours > 0, class_sum / np.maximum(class_hours, 1), fallback)
-    k, j, s = np.meshgrid(np.arange(n_sectors), np.arange(n_classes), np.arange(n_stab),
-                          indexing="ij")
-    return pd.DataFrame({
-        "direction_deg": (k.ravel() * width).round(6),
-        "speed_m_s": class_speed[j.ravel()],
-        "stability": np.array(STABILITY_CLASSES)[s.ravel()],
-        "frequency": hours / weather.n_hours,
-        "hours": hours.astype(int),
-    })
+    k, j, s = np.meshgrid(
+        np.arange(n_sectors), np.arange(n_classes), np.arange(n_stab), indexing="ij"
+    )
+    return pd.DataFrame(
+        {
+            "direction_deg": (k.ravel() * width).round(6),
+            "speed_m_s": class_speed[j.ravel()],
+            "stability": np.array(STABILITY_CLASSES)[s.ravel()],
+            "frequency": hours / weather.n_hours,
+            "hours": hours.astype(int),
+        }
+    )
 
 
 def _sector_note(weather: HourlyWeather, n_sectors: int) -> str | None:
@@ -839,15 +1005,24 @@ def _sector_note(weather: HourlyWeather, n_sectors: int) -> str | None:
     if step <= 0 or even(n_sectors):
         return None
     better = [str(n) for n in (8, 12, 16, 18, 24, 36) if even(n)]
-    return (f"directions are reported in {step:g} deg steps, which do not divide the "
-            f"{360.0 / n_sectors:g} deg sectors evenly, so some sectors of frequency_table.csv "
-            f"hold more reported directions than others; {' or '.join(better)} sectors avoid "
-            "that")
+    return (
+        f"directions are reported in {step:g} deg steps, which do not divide the "
+        f"{360.0 / n_sectors:g} deg sectors evenly, so some sectors of frequency_table.csv "
+        f"hold more reported directions than others; {' or '.join(better)} sectors avoid "
+        "that"
+    )
 
 
-def write_weather_outputs(out_dir: Path, weather: HourlyWeather, summary: dict,
-                          warnings: list[str], *, n_sectors: int = 12, overwrite: bool = False,
-                          input_paths: Sequence[Path] = ()) -> tuple[Path, list[str]]:
+def write_weather_outputs(
+    out_dir: Path,
+    weather: HourlyWeather,
+    summary: dict,
+    warnings: list[str],
+    *,
+    n_sectors: int = 12,
+    overwrite: bool = False,
+    input_paths: Sequence[Path] = (),
+) -> tuple[Path, list[str]]:
     """Write the products of ``siting weather`` into ``out_dir``, atomically.
 
     Files: ``frequency_table.csv`` (usable as a scenario's ``frequency_table``),
@@ -878,15 +1053,18 @@ def write_weather_outputs(out_dir: Path, weather: HourlyWeather, summary: dict,
         "tool": "siting weather",
         "version": __version__,
         "run_time_utc": datetime.now(UTC).replace(microsecond=0).isoformat(),
-        "inputs": [{"path": str(Path(p).resolve()), "sha256": sha256_of(Path(p))}
-                   for p in input_paths],
+        "inputs": [
+            {"path": str(Path(p).resolve()), "sha256": sha256_of(Path(p))} for p in input_paths
+        ],
         "frequency_table": {
-            "file": "frequency_table.csv", "sectors": int(n_sectors),
+            "file": "frequency_table.csv",
+            "sectors": int(n_sectors),
             "sector_width_deg": 360.0 / n_sectors,
             "speed_class_edges_m_s": list(DEFAULT_SPEED_EDGES_M_S),
             "speed_rule": "speed_m_s of a class = mean speed of the hours in it (after the calm "
-                          "rule); the last class is open",
-            "rows": len(table)},
+            "rule); the last class is open",
+            "rows": len(table),
+        },
         "summary": summary,
         "warnings": warnings,
     }
@@ -894,6 +1072,7 @@ def write_weather_outputs(out_dir: Path, weather: HourlyWeather, summary: dict,
         table.to_csv(staging / "frequency_table.csv", index=False, float_format="%.10g")
         (staging / "wind_rose.png").write_bytes(wind_rose_png(weather))
         (staging / "stability_by_speed.png").write_bytes(stability_by_speed_png(weather))
-        (staging / "summary.json").write_text(json.dumps(record, indent=2, default=str),
-                                              encoding="utf-8")
+        (staging / "summary.json").write_text(
+            json.dumps(record, indent=2, default=str), encoding="utf-8"
+        )
     return out_dir, warnings

@@ -203,8 +203,10 @@ def _column(frame: Any, column: str) -> list:
 
 def _site_verdicts(frame: Any) -> list[str]:
     """Each site's verdict in lower case, 'not assessed' when missing."""
-    return [str(v).strip().lower() if not is_missing(v) else "not assessed"
-            for v in _column(frame, "verdict")]
+    return [
+        str(v).strip().lower() if not is_missing(v) else "not assessed"
+        for v in _column(frame, "verdict")
+    ]
 
 
 def _number_texts(values: list, unit: str, blank: bool = False) -> list[str]:
@@ -216,10 +218,10 @@ def _number_texts(values: list, unit: str, blank: bool = False) -> list[str]:
     texts = []
     for value in values:
         if isinstance(value, (float, int, np.floating, np.integer)) and not isinstance(
-                value, (bool, np.bool_)):
+            value, (bool, np.bool_)
+        ):
             number = float(value)
-            texts.append(missing if np.isnan(number)
-                         else f"{format_number(number)} {unit_text}")
+            texts.append(missing if np.isnan(number) else f"{format_number(number)} {unit_text}")
         else:
             texts.append(_num_or_blank(value, unit) if blank else _num(value, unit))
     return texts
@@ -431,7 +433,7 @@ def _legend_html(
             f"{escape_text(unit)}: not coloured</div>"
         )
     parts.extend(extra_rows)
-    for verdict, colour in (VERDICT_COLOURS.items() if verdicts else ()):
+    for verdict, colour in VERDICT_COLOURS.items() if verdicts else ():
         if verdict == next(iter(VERDICT_COLOURS)):
             parts.append("<h2>Habitat sites, verdict</h2>")
         dash = "dashed" if verdict == "not assessed" else "solid"
@@ -495,8 +497,10 @@ _SITE_SCRIPT = """function (feature, layer) {
 def _site_script() -> str:
     """The feature script: our own labels (escaped) and popup options as JavaScript literals."""
     labels = [escape_text(label) for label, _column, _unit in _SITE_POPUP_ROWS]
-    options = {"maxWidth": _POPUP_OPTIONS["max_width"],
-               "autoPanPaddingTopLeft": _POPUP_OPTIONS["auto_pan_padding_top_left"]}
+    options = {
+        "maxWidth": _POPUP_OPTIONS["max_width"],
+        "autoPanPaddingTopLeft": _POPUP_OPTIONS["auto_pan_padding_top_left"],
+    }
     return _SITE_SCRIPT % {"labels": json.dumps(labels), "options": json.dumps(options)}
 
 
@@ -531,8 +535,12 @@ def _site_features(sites_wgs84: gpd.GeoDataFrame) -> list[dict[str, Any]]:
     names = [escape_text(n) or "Unnamed site" for n in _column(sites_wgs84, "name")]
     popups = _site_popup_values(sites_wgs84)
     return [
-        {"type": "Feature", "id": int(i), "geometry": mapping(geometry),
-         "properties": {"verdict": verdicts[i], "name": names[i], "popup": popups[i]}}
+        {
+            "type": "Feature",
+            "id": int(i),
+            "geometry": mapping(geometry),
+            "properties": {"verdict": verdicts[i], "name": names[i], "popup": popups[i]},
+        }
         for i, geometry in zip(np.flatnonzero(drawable), rounded)
     ]
 
@@ -731,8 +739,15 @@ def write_screen_map(
                 ).add_to(contour_group)
         contour_group.add_to(fmap)
 
-    _add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape,
-                        "Edge of the computed grid: nothing was computed outside it")
+    _add_extent_outline(
+        fmap,
+        projected,
+        west_m,
+        north_m,
+        cell_m,
+        grid.shape,
+        "Edge of the computed grid: nothing was computed outside it",
+    )
 
     site_group = folium.FeatureGroup(name=escape_text("Habitat sites"), overlay=True)
     _add_sites(site_group, sites_wgs84)
@@ -747,8 +762,11 @@ def write_screen_map(
         seen = {str(r).strip().lower() for r in sources_wgs84["role"] if not is_missing(r)}
         roles = [r for r in ROLE_STYLES if r in seen] + sorted(seen - set(ROLE_STYLES))
     root.html.add_child(folium.Element(_title_html(title, run_time, version, cautions)))
-    root.html.add_child(folium.Element(_legend_html(edges, colours, contours, roles,
-                                                    extra_rows=[_extent_legend_row()])))
+    root.html.add_child(
+        folium.Element(
+            _legend_html(edges, colours, contours, roles, extra_rows=[_extent_legend_row()])
+        )
+    )
     root.html.add_child(folium.Element(_NORTH_ARROW))
 
     folium.LayerControl(collapsed=False).add_to(fmap)
@@ -761,13 +779,24 @@ _EXTENT_COLOUR = "#555555"
 #: Layer-control name and CSS class of the grid's outline.
 GRID_EDGE_LAYER = "Grid edge"
 GRID_EDGE_CLASS = "siting-grid-edge"
+
+
 def _extent_legend_row(label: str = "edge of the computed grid") -> str:
-    return ('<div class="row"><span class="line" style="border-top:2px dotted #555555"></span>'
-            f"{escape_text(label)}</div>")
+    return (
+        '<div class="row"><span class="line" style="border-top:2px dotted #555555"></span>'
+        f"{escape_text(label)}</div>"
+    )
 
 
-def _add_extent_outline(fmap, projected, west_m: float, north_m: float, cell_m: float,
-                        shape: tuple[int, int], tooltip: str) -> None:
+def _add_extent_outline(
+    fmap,
+    projected,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    shape: tuple[int, int],
+    tooltip: str,
+) -> None:
     """A dotted outline of the grid, so its edge is not read as the edge of the plume."""
     import folium
     from pyproj import Transformer
@@ -782,9 +811,15 @@ def _add_extent_outline(fmap, projected, west_m: float, north_m: float, cell_m: 
     dy = np.concatenate([ys[i] + (ys[i + 1] - ys[i]) * t for i in range(4)] + [ys[-1:]])
     lon, lat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True).transform(dx, dy)
     group = folium.FeatureGroup(name=escape_text(GRID_EDGE_LAYER), overlay=True)
-    folium.PolyLine(locations=np.column_stack([lat, lon]).tolist(), color=_EXTENT_COLOUR,
-                    weight=2, opacity=0.8, dash_array="2 5", class_name=GRID_EDGE_CLASS,
-                    tooltip=folium.Tooltip(escape_text(tooltip))).add_to(group)
+    folium.PolyLine(
+        locations=np.column_stack([lat, lon]).tolist(),
+        color=_EXTENT_COLOUR,
+        weight=2,
+        opacity=0.8,
+        dash_array="2 5",
+        class_name=GRID_EDGE_CLASS,
+        tooltip=folium.Tooltip(escape_text(tooltip)),
+    ).add_to(group)
     group.add_to(fmap)
 
 
@@ -802,9 +837,23 @@ def _share_colours() -> list[str]:
     return [to_hex(cmap(v)) for v in (0.08, 0.2, 0.32, 0.44, 0.6, 0.72, 0.84, 0.96)]
 
 
-def write_place_map(path: Path, *, title: str, crs: str, west_m: float, north_m: float,
-                    cell_m: float, share_of_threshold: np.ndarray, allowed_area, holding,
-                    positions, sites, cautions: list[str], version: str, run_time: str) -> None:
+def write_place_map(
+    path: Path,
+    *,
+    title: str,
+    crs: str,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    share_of_threshold: np.ndarray,
+    allowed_area,
+    holding,
+    positions,
+    sites,
+    cautions: list[str],
+    version: str,
+    run_time: str,
+) -> None:
     """Write the placement map: where on the holding the house does least harm.
 
     Parameters
@@ -828,71 +877,124 @@ def write_place_map(path: Path, *, title: str, crs: str, west_m: float, north_m:
     grid, projected = _check_grid(share_of_threshold, cell_m, crs)
     edges, colours = SHARE_CLASS_EDGES, _share_colours()
     data_url, bounds = _overlay(grid, projected, west_m, north_m, cell_m, edges, colours)
-    fmap = folium.Map(location=[(bounds[0][0] + bounds[1][0]) / 2,
-                                (bounds[0][1] + bounds[1][1]) / 2],
-                      zoom_start=15, tiles=None, control_scale=True)
+    fmap = folium.Map(
+        location=[(bounds[0][0] + bounds[1][0]) / 2, (bounds[0][1] + bounds[1][1]) / 2],
+        zoom_start=15,
+        tiles=None,
+        control_scale=True,
+    )
     root = fmap.get_root()
     root.header.add_child(folium.Element(f"<title>{escape_text(title)} · siting map</title>"))
     root.header.add_child(folium.Element(_MAP_CSS))
-    folium.TileLayer("OpenStreetMap", name=escape_text("OpenStreetMap background (needs internet)"),
-                     overlay=False, control=True, show=True).add_to(fmap)
+    folium.TileLayer(
+        "OpenStreetMap",
+        name=escape_text("OpenStreetMap background (needs internet)"),
+        overlay=False,
+        control=True,
+        show=True,
+    ).add_to(fmap)
     folium.raster_layers.ImageOverlay(
-        image=data_url, bounds=bounds,
+        image=data_url,
+        bounds=bounds,
         name=escape_text("Worst share of a threshold, by house position"),
-        opacity=_OVERLAY_OPACITY, interactive=False, overlay=True, control=True, show=True,
-        pixelated=True, class_name=OVERLAY_CLASS).add_to(fmap)
+        opacity=_OVERLAY_OPACITY,
+        interactive=False,
+        overlay=True,
+        control=True,
+        show=True,
+        pixelated=True,
+        class_name=OVERLAY_CLASS,
+    ).add_to(fmap)
     area_group = folium.FeatureGroup(name=escape_text("Holding and allowed area"), overlay=True)
-    for frame, colour, dash, label in ((holding, "#3b3b3b", "6 4", "holding boundary"),
-                                       (allowed_area, "#1b7f3b", None, "allowed area")):
+    for frame, colour, dash, label in (
+        (holding, "#3b3b3b", "6 4", "holding boundary"),
+        (allowed_area, "#1b7f3b", None, "allowed area"),
+    ):
         for geom in _with_crs(frame, projected).geometry:
-            folium.GeoJson(geom.__geo_interface__,
-                           style_function=lambda _f, c=colour, d=dash: {
-                               "color": c, "weight": 2, "fill": False, "dashArray": d},
-                           tooltip=folium.Tooltip(escape_text(label))).add_to(area_group)
+            folium.GeoJson(
+                geom.__geo_interface__,
+                style_function=lambda _f, c=colour, d=dash: {
+                    "color": c,
+                    "weight": 2,
+                    "fill": False,
+                    "dashArray": d,
+                },
+                tooltip=folium.Tooltip(escape_text(label)),
+            ).add_to(area_group)
     area_group.add_to(fmap)
     site_group = folium.FeatureGroup(name=escape_text("Habitat sites"), overlay=True)
     for row in _with_crs(sites, projected).itertuples():
-        text = (f"<b>{escape_text(row.name)}</b><br>{escape_text(row.designation)}<br>"
-                f"{escape_text(getattr(row, 'habitat_name', row.habitat))}")
-        folium.GeoJson(row.geometry.__geo_interface__,
-                       style_function=lambda _f: {"color": "#6a3d9a", "weight": 2,
-                                                  "fillOpacity": 0.15, "className": SITE_CLASS},
-                       tooltip=folium.Tooltip(escape_text(row.name)),
-                       popup=folium.Popup(text, max_width=300)).add_to(site_group)
+        text = (
+            f"<b>{escape_text(row.name)}</b><br>{escape_text(row.designation)}<br>"
+            f"{escape_text(getattr(row, 'habitat_name', row.habitat))}"
+        )
+        folium.GeoJson(
+            row.geometry.__geo_interface__,
+            style_function=lambda _f: {
+                "color": "#6a3d9a",
+                "weight": 2,
+                "fillOpacity": 0.15,
+                "className": SITE_CLASS,
+            },
+            tooltip=folium.Tooltip(escape_text(row.name)),
+            popup=folium.Popup(text, max_width=300),
+        ).add_to(site_group)
     site_group.add_to(fmap)
     best_group = folium.FeatureGroup(name=escape_text("Best positions"), overlay=True)
     for row in _with_crs(positions, projected).reset_index(drop=True).itertuples():
-        lines = [f"<b>Rank {row.Index + 1}</b>",
-                 f"x {row.x:.0f}, y {row.y:.0f}",
-                 f"limiting site: {escape_text(row.limiting_site)} "
-                 f"({row.limiting_share_of_threshold:.2f} of its threshold)",
-                 f"worst % of critical load: {format_number(row.worst_pct_load)} "
-                 f"({escape_text(row.worst_site)})",
-                 f"worst % of critical level: {format_number(row.worst_pct_level)}",
-                 f"reduction needed: {row.required_reduction_percent:.0f} %"]
+        lines = [
+            f"<b>Rank {row.Index + 1}</b>",
+            f"x {row.x:.0f}, y {row.y:.0f}",
+            f"limiting site: {escape_text(row.limiting_site)} "
+            f"({row.limiting_share_of_threshold:.2f} of its threshold)",
+            f"worst % of critical load: {format_number(row.worst_pct_load)} "
+            f"({escape_text(row.worst_site)})",
+            f"worst % of critical level: {format_number(row.worst_pct_level)}",
+            f"reduction needed: {row.required_reduction_percent:.0f} %",
+        ]
         places = getattr(row, "max_places_unabated", None)
         if places is not None and not is_missing(places):
             lines.append(f"most places unabated: {places:.0f}")
-        folium.CircleMarker(location=[row.geometry.y, row.geometry.x], radius=8,
-                            color="#111111", weight=2, fill=True, fill_color="#ffffff",
-                            fill_opacity=1.0,
-                            tooltip=folium.Tooltip(f"rank {row.Index + 1}"),
-                            popup=folium.Popup("<br>".join(lines), max_width=320)
-                            ).add_to(best_group)
+        folium.CircleMarker(
+            location=[row.geometry.y, row.geometry.x],
+            radius=8,
+            color="#111111",
+            weight=2,
+            fill=True,
+            fill_color="#ffffff",
+            fill_opacity=1.0,
+            tooltip=folium.Tooltip(f"rank {row.Index + 1}"),
+            popup=folium.Popup("<br>".join(lines), max_width=320),
+        ).add_to(best_group)
     best_group.add_to(fmap)
-    _add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape,
-                        "Edge of the searched area")
+    _add_extent_outline(
+        fmap, projected, west_m, north_m, cell_m, grid.shape, "Edge of the searched area"
+    )
     root.html.add_child(folium.Element(_title_html(title, run_time, version, cautions)))
-    best_row = ('<div class="row"><span class="dot" style="background:#ffffff;'
-                'border:2px solid #111111"></span>best positions (rank in popup)</div>')
-    note = ('<div class="note">House placed at a coloured cell: its process contribution at '
-            "the worst-hit site, as a share of that site's screening threshold. Below 1 it "
-            "passes every site; above 1 it needs abatement or fewer places (see positions.csv)."
-            "</div>")
-    root.html.add_child(folium.Element(_legend_html(
-        edges, colours, [], [], heading="Worst share of a site's threshold (1 = at it)",
-        unit="", extra_rows=[note, best_row, _extent_legend_row("edge of the searched area")],
-        verdicts=False)))
+    best_row = (
+        '<div class="row"><span class="dot" style="background:#ffffff;'
+        'border:2px solid #111111"></span>best positions (rank in popup)</div>'
+    )
+    note = (
+        '<div class="note">House placed at a coloured cell: its process contribution at '
+        "the worst-hit site, as a share of that site's screening threshold. Below 1 it "
+        "passes every site; above 1 it needs abatement or fewer places (see positions.csv)."
+        "</div>"
+    )
+    root.html.add_child(
+        folium.Element(
+            _legend_html(
+                edges,
+                colours,
+                [],
+                [],
+                heading="Worst share of a site's threshold (1 = at it)",
+                unit="",
+                extra_rows=[note, best_row, _extent_legend_row("edge of the searched area")],
+                verdicts=False,
+            )
+        )
+    )
     root.html.add_child(folium.Element(_NORTH_ARROW))
     folium.LayerControl(collapsed=False).add_to(fmap)
     fmap.fit_bounds(bounds)

@@ -30,9 +30,20 @@ from siting.cli import main
 from siting.outputs import SITE_COLUMNS
 from siting.resources import config_dir, demo_dir
 
-OUTPUTS = ["concentration.tif", "deposition.tif", "deposition_in_combination.tif", "sites.csv",
-           "sites.gpkg", "receptors.csv", "sources.csv", "sensitivity.csv", "run.json", "report.html",
-           "map.html", "inputs"]  # inputs/: the copies that make the folder a complete package
+OUTPUTS = [
+    "concentration.tif",
+    "deposition.tif",
+    "deposition_in_combination.tif",
+    "sites.csv",
+    "sites.gpkg",
+    "receptors.csv",
+    "sources.csv",
+    "sensitivity.csv",
+    "run.json",
+    "report.html",
+    "map.html",
+    "inputs",
+]  # inputs/: the copies that make the folder a complete package
 
 # CSV tables are written with float_format "%.6g" (siting/outputs.py): 6 significant figures,
 # so a value read back is within 5e-6 relative of the one computed.
@@ -78,6 +89,7 @@ def sites(demo) -> pd.DataFrame:
 # the run and its files
 # --------------------------------------------------------------------------------------------
 
+
 def test_demo_exits_zero_and_quiet_prints_nothing(demo):
     """`siting demo --quiet` exits 0 and prints no summary on stdout."""
     assert demo["rc"] == 0
@@ -100,11 +112,14 @@ def test_demo_leaves_no_staging_folder(demo):
     assert [p.name for p in demo["out"].parent.iterdir()] == ["demo"]
 
 
-@pytest.mark.parametrize("name, units", [
-    ("concentration.tif", "ug/m3"),
-    ("deposition.tif", "kg N/ha/yr"),
-    ("deposition_in_combination.tif", "kg N/ha/yr"),
-])
+@pytest.mark.parametrize(
+    "name, units",
+    [
+        ("concentration.tif", "ug/m3"),
+        ("deposition.tif", "kg N/ha/yr"),
+        ("deposition_in_combination.tif", "kg N/ha/yr"),
+    ],
+)
 def test_geotiff_profile(demo, name, units):
     """Each GeoTIFF: EPSG:32632, north-up at the scenario's spacing, float32, nodata, units."""
     spacing_m = _demo_scenario()["grid"]["spacing_m"]  # 25 m, data_demo/scenario.toml
@@ -138,8 +153,7 @@ def test_sites_gpkg_matches_sites_csv(demo, sites):
     assert list(gpkg["site_id"]) == list(sites["site_id"])
     assert list(gpkg["name"]) == list(sites["name"])
     assert set(gpkg.geom_type) <= {"Polygon", "MultiPolygon"}
-    assert_allclose(gpkg["pc_dep_max_kg_n_ha_yr"], sites["pc_dep_max_kg_n_ha_yr"],
-                    rtol=CSV_RTOL)
+    assert_allclose(gpkg["pc_dep_max_kg_n_ha_yr"], sites["pc_dep_max_kg_n_ha_yr"], rtol=CSV_RTOL)
 
 
 def test_receptors_csv_rows(demo):
@@ -170,8 +184,12 @@ def test_coordinates_round_trip(demo):
 def test_run_json_hashes_inputs_and_tables(demo):
     """run.json lists every input and config table with its true SHA-256."""
     record = json.loads((demo["out"] / "run.json").read_text(encoding="utf-8"))
-    expected_inputs = {"scenario": "scenario.toml", "weather": "weather_table.csv",
-                       "habitats": "habitats.gpkg", "receptors": "receptors.csv"}
+    expected_inputs = {
+        "scenario": "scenario.toml",
+        "weather": "weather_table.csv",
+        "habitats": "habitats.gpkg",
+        "receptors": "receptors.csv",
+    }
     assert set(record["inputs"]) == set(expected_inputs)
     for key, filename in expected_inputs.items():
         entry = record["inputs"][key]
@@ -187,6 +205,7 @@ def test_run_json_hashes_inputs_and_tables(demo):
 # --------------------------------------------------------------------------------------------
 # sane figures
 # --------------------------------------------------------------------------------------------
+
 
 def test_deposition_falls_with_distance_from_h1(demo):
     """Mean PC deposition on a ring 1.5-2 km from H1 is below that on a ring 300-500 m."""
@@ -229,13 +248,15 @@ def test_h1_emission_derivation(demo):
     assert h1["reduction_basis"].startswith("lower end of the published range")
     # analytic: unabated = factor [kg/place/yr] x places (DESIGN.md, Emissions)
     assert h1["nh3_unabated_kg_yr"] == pytest.approx(
-        h1["factor_nh3_kg_per_place_yr"] * spec["places"], rel=CSV_RTOL)
+        h1["factor_nh3_kg_per_place_yr"] * spec["places"], rel=CSV_RTOL
+    )
     assert h1["nh3_kg_yr"] == pytest.approx(
-        h1["nh3_unabated_kg_yr"] * (1 - h1["effective_reduction_percent"] / 100),
-        rel=2 * CSV_RTOL)  # two rounded CSV figures multiplied
+        h1["nh3_unabated_kg_yr"] * (1 - h1["effective_reduction_percent"] / 100), rel=2 * CSV_RTOL
+    )  # two rounded CSV figures multiplied
     # kg/yr -> g/s: 1000 g per kg over a 365-day year (siting/constants.py, DAYS_PER_YEAR)
     assert h1["emission_g_s"] == pytest.approx(
-        h1["nh3_kg_yr"] * 1000 / (365 * 86400), rel=2 * CSV_RTOL)
+        h1["nh3_kg_yr"] * 1000 / (365 * 86400), rel=2 * CSV_RTOL
+    )
 
 
 def test_demo_has_a_site_above_threshold(sites):
@@ -247,8 +268,16 @@ def test_fail_on_exceed_returns_1_for_the_demo(sites, tmp_path):
     """`screen --fail-on-exceed` on the demo exits 1 (a site is above threshold) and writes."""
     assert (sites["verdict"] == "above threshold").any()  # precondition, from sites.csv
     out = tmp_path / "exceed"
-    rc, _ = _run(["screen", str(demo_dir() / "scenario.toml"), "--out", str(out),
-                  "--fail-on-exceed", "--quiet"])
+    rc, _ = _run(
+        [
+            "screen",
+            str(demo_dir() / "scenario.toml"),
+            "--out",
+            str(out),
+            "--fail-on-exceed",
+            "--quiet",
+        ]
+    )
     assert rc == 1  # DESIGN.md: exit 1 only where asked (--fail-on-exceed)
     assert (out / "sites.csv").is_file()
 
@@ -265,6 +294,7 @@ def test_html_names_title_and_screening(demo, name):
 # H1 alone, with and without its scrubber
 # --------------------------------------------------------------------------------------------
 
+
 def _toml_value(value) -> str:
     return json.dumps(value)  # strings, numbers and booleans: JSON spelling is valid TOML
 
@@ -277,8 +307,11 @@ def _h1_only_scenario(folder: Path, abated: bool) -> Path:
         for key in ("abatement", "reduction_percent", "treated_air_fraction"):
             h1.pop(key, None)
     assert h1["role"] == "proposed"
-    lines = [f"title = {_toml_value('H1 alone (test variant of the invented demo)')}",
-             f"crs = {_toml_value(demo_toml['crs'])}", "[weather]"]
+    lines = [
+        f"title = {_toml_value('H1 alone (test variant of the invented demo)')}",
+        f"crs = {_toml_value(demo_toml['crs'])}",
+        "[weather]",
+    ]
     lines += [f"{k} = {_toml_value(v)}" for k, v in demo_toml["weather"].items()]
     lines += ["[grid]", "spacing_m = 50.0", "margin_m = 1000.0", "[deposition]"]
     lines += [f"{k} = {_toml_value(v)}" for k, v in demo_toml["deposition"].items()]
@@ -303,8 +336,12 @@ def h1_runs(tmp_path_factory) -> dict:
         out = folder / f"out_{label}"
         extra = ["--fail-on-exceed"] if abated else []
         rc, _ = _run(["screen", str(scenario), "--out", str(out), "--quiet", *extra])
-        runs[label] = {"rc": rc, "scenario": scenario, "out": out,
-                       "sites": gpd.read_file(out / "sites.gpkg")}  # full double precision
+        runs[label] = {
+            "rc": rc,
+            "scenario": scenario,
+            "out": out,
+            "sites": gpd.read_file(out / "sites.gpkg"),
+        }  # full double precision
     return runs
 
 
@@ -339,8 +376,16 @@ def test_overwrite_replaces_existing_folder(h1_runs, tmp_path):
     out.mkdir()
     (out / ".siting-output").write_text("{}", encoding="utf-8")  # an earlier output folder
     (out / "stale.txt").write_text("from an earlier run", encoding="utf-8")
-    rc, _ = _run(["screen", str(h1_runs["unabated"]["scenario"]), "--out", str(out),
-                  "--overwrite", "--quiet"])
+    rc, _ = _run(
+        [
+            "screen",
+            str(h1_runs["unabated"]["scenario"]),
+            "--out",
+            str(out),
+            "--overwrite",
+            "--quiet",
+        ]
+    )
     assert rc == 0
     assert sorted(p.name for p in out.iterdir()) == sorted(OUTPUTS + [".siting-output"])
     assert [p.name for p in tmp_path.iterdir()] == ["out"]
@@ -350,10 +395,16 @@ def test_overwrite_replaces_existing_folder(h1_runs, tmp_path):
 # python -m siting
 # --------------------------------------------------------------------------------------------
 
+
 def test_python_m_siting_version(tmp_path):
     """`python -m siting --version` prints 'siting <version>' and exits 0."""
-    done = subprocess.run([sys.executable, "-m", "siting", "--version"], cwd=tmp_path,
-                          capture_output=True, text=True, timeout=120)
+    done = subprocess.run(
+        [sys.executable, "-m", "siting", "--version"],
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert done.returncode == 0, done.stderr
     assert done.stdout.strip() == f"siting {siting.__version__}"
 
@@ -365,10 +416,15 @@ def test_user_text_in_the_terminal_is_shown_as_itself(tmp_path, capsys):
     shutil.copytree(demo_dir(), folder)
     scenario = folder / "scenario.toml"
     hostile = "<b>cert</b> [bold]x[/bold]"
-    scenario.write_text(scenario.read_text().replace(
-        "treated_air_fraction = 1.0",
-        f'treated_air_fraction = 1.0\nreduction_percent = 95\nreduction_basis = "{hostile}"', 1)
-        .replace("spacing_m = 25.0", "spacing_m = 100.0", 1))
+    scenario.write_text(
+        scenario.read_text()
+        .replace(
+            "treated_air_fraction = 1.0",
+            f'treated_air_fraction = 1.0\nreduction_percent = 95\nreduction_basis = "{hostile}"',
+            1,
+        )
+        .replace("spacing_m = 25.0", "spacing_m = 100.0", 1)
+    )
     assert main(["screen", str(scenario), "--out", str(tmp_path / "out"), "--quiet"]) == 0
     assert "<b>cert</b>" not in (tmp_path / "out" / "report.html").read_text()
     capsys.readouterr()
@@ -378,13 +434,23 @@ def test_user_text_in_the_terminal_is_shown_as_itself(tmp_path, capsys):
 
 
 def _snapshot(folder: Path) -> dict:
-    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*"))
-            if p.is_file()}
+    return {
+        str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*")) if p.is_file()
+    }
 
 
-@pytest.mark.parametrize("case", ["scenario folder", "current folder", "parent of current",
-                                  "submission", "weather record folder", "farms folder",
-                                  "notes folder"])
+@pytest.mark.parametrize(
+    "case",
+    [
+        "scenario folder",
+        "current folder",
+        "parent of current",
+        "submission",
+        "weather record folder",
+        "farms folder",
+        "notes folder",
+    ],
+)
 def test_overwrite_never_deletes_inputs_or_unrelated_folders(tmp_path, monkeypatch, capsys, case):
     """--overwrite naming a folder that holds inputs, the current folder, a parent of it or a
     folder siting did not write: exit 2, one line saying why, every file kept (nothing lost)."""
@@ -403,20 +469,39 @@ def test_overwrite_never_deletes_inputs_or_unrelated_folders(tmp_path, monkeypat
         target, argv = sub, ["verify", str(sub), "--out", str(sub), "--overwrite", "--quiet"]
     elif case == "weather record folder":
         target = demo
-        argv = ["weather", str(demo / "hourly_weather.csv"), "--lat", "52.3", "--lon", "9.7",
-                "--out", str(demo), "--overwrite", "--quiet"]
+        argv = [
+            "weather",
+            str(demo / "hourly_weather.csv"),
+            "--lat",
+            "52.3",
+            "--lon",
+            "9.7",
+            "--out",
+            str(demo),
+            "--overwrite",
+            "--quiet",
+        ]
     elif case == "farms folder":
         target = demo
-        argv = ["region", str(demo / "region_farms.gpkg"), "--weather",
-                str(demo / "weather_table.csv"), "--out", str(demo), "--overwrite", "--quiet"]
+        argv = [
+            "region",
+            str(demo / "region_farms.gpkg"),
+            "--weather",
+            str(demo / "weather_table.csv"),
+            "--out",
+            str(demo),
+            "--overwrite",
+            "--quiet",
+        ]
     elif case == "notes folder":
         target = tmp_path / "notes"
         target.mkdir()
         (target / "letter.txt").write_text("keep me", encoding="utf-8")
         argv = ["screen", str(scenario), "--out", str(target), "--overwrite", "--quiet"]
     else:
-        target = {"scenario folder": demo, "current folder": work,
-                  "parent of current": tmp_path}[case]
+        target = {"scenario folder": demo, "current folder": work, "parent of current": tmp_path}[
+            case
+        ]
         argv = ["screen", str(scenario), "--out", str(target), "--overwrite", "--quiet"]
     (work / "keep.txt").write_text("in the current folder", encoding="utf-8")
     before = _snapshot(tmp_path)
@@ -452,9 +537,9 @@ def test_sigterm_while_writing_leaves_nothing_and_keeps_the_old_folder(tmp_path)
         "report.write_report = dying\n"
         "from siting.cli import main\n"
         f"sys.exit(main(['screen', {str(scenario)!r}, '--out', {str(out)!r}, '--overwrite',"
-        " '--quiet']))\n")
-    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
-                         timeout=300)
+        " '--quiet']))\n"
+    )
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300)
     assert run.returncode == 130, run.stderr
     assert "interrupted" in run.stderr and "Traceback" not in run.stderr
     assert sorted(p.name for p in out.iterdir()) == [".siting-output", "old.txt"]
@@ -474,8 +559,9 @@ def test_fail_on_exceed_with_no_site_assessed_does_not_pass(tmp_path, capsys):
     sites = gpd.read_file(layer)
     sites["geometry"] = [affinity.translate(g, 100_000.0, 0.0) for g in sites.geometry]
     sites.to_file(layer)  # 100 km east: outside the grid
-    rc = main(["screen", str(scenario), "--out", str(tmp_path / "out"), "--quiet",
-               "--fail-on-exceed"])
+    rc = main(
+        ["screen", str(scenario), "--out", str(tmp_path / "out"), "--quiet", "--fail-on-exceed"]
+    )
     assert rc == 1
     assert "no habitat site could be assessed" in capsys.readouterr().err
 
@@ -486,8 +572,10 @@ def test_output_location_problems_are_found_before_any_work(tmp_path, capsys):
     scenario = tmp_path / "demo" / "scenario.toml"
     shutil.copytree(demo_dir(), scenario.parent)
     (tmp_path / "afile").write_text("x", encoding="utf-8")
-    for out, match in ((tmp_path / "afile" / "out", "is a file, not a folder"),
-                       (tmp_path / ("n" * 300), "too long")):
+    for out, match in (
+        (tmp_path / "afile" / "out", "is a file, not a folder"),
+        (tmp_path / ("n" * 300), "too long"),
+    ):
         capsys.readouterr()
         assert main(["screen", str(scenario), "--out", str(out), "--quiet"]) == 2
         err = capsys.readouterr().err.strip()
@@ -504,8 +592,9 @@ def test_an_internal_error_is_one_line_with_the_traceback_kept(tmp_path, capsys,
         raise ZeroDivisionError("forced for the test")
 
     monkeypatch.setattr(importlib.import_module("siting.screen"), "screen", broken)
-    rc = main(["screen", str(demo_dir() / "scenario.toml"), "--out", str(tmp_path / "o"),
-               "--quiet"])
+    rc = main(
+        ["screen", str(demo_dir() / "scenario.toml"), "--out", str(tmp_path / "o"), "--quiet"]
+    )
     err = capsys.readouterr().err.strip()
     assert rc == 3 and len(err.splitlines()) == 1 and "internal error" in err
     path = Path(err.rsplit("the traceback is in ", 1)[1])
@@ -518,24 +607,38 @@ def test_an_internal_error_is_one_line_with_the_traceback_kept(tmp_path, capsys,
 # the terminal summary of a large habitat layer
 # --------------------------------------------------------------------------------------------
 
+
 def _many_site_result(n: int = 200, n_warnings: int = 30):
     """A screening result of n synthetic sites (invented values): % of load rises with the
     index against a 1 % threshold, every third verdict flips under a variant."""
     from types import SimpleNamespace
 
     i = np.arange(n)
-    sites = pd.DataFrame({
-        "name": [f"Site {k}" for k in i], "tier": "national",
-        "pc_conc_max_ug_m3": i / 100.0, "pc_pct_level": i / 20.0,
-        "pc_dep_max_kg_n_ha_yr": i / 50.0, "pc_pct_load": i / 10.0,
-        "threshold_percent": 1.0,
-        "verdict": np.where(i / 10.0 > 1.0, "above threshold", "below threshold"),
-    })
-    summary = pd.DataFrame({"site": sites["name"], "verdict_flips": i % 3 == 0,
-                            "flipping_variants": "plume depletion on"})
-    return SimpleNamespace(scenario=SimpleNamespace(title="Many sites (synthetic)"),
-                           sites=sites, sensitivity_summary=summary,
-                           warnings=[f"warning number {k}" for k in range(n_warnings)])
+    sites = pd.DataFrame(
+        {
+            "name": [f"Site {k}" for k in i],
+            "tier": "national",
+            "pc_conc_max_ug_m3": i / 100.0,
+            "pc_pct_level": i / 20.0,
+            "pc_dep_max_kg_n_ha_yr": i / 50.0,
+            "pc_pct_load": i / 10.0,
+            "threshold_percent": 1.0,
+            "verdict": np.where(i / 10.0 > 1.0, "above threshold", "below threshold"),
+        }
+    )
+    summary = pd.DataFrame(
+        {
+            "site": sites["name"],
+            "verdict_flips": i % 3 == 0,
+            "flipping_variants": "plume depletion on",
+        }
+    )
+    return SimpleNamespace(
+        scenario=SimpleNamespace(title="Many sites (synthetic)"),
+        sites=sites,
+        sensitivity_summary=summary,
+        warnings=[f"warning number {k}" for k in range(n_warnings)],
+    )
 
 
 def test_summary_of_many_sites_prints_the_most_affected_and_a_count(tmp_path):
@@ -576,7 +679,8 @@ def test_summary_of_few_sites_prints_every_site_in_layer_order(tmp_path):
     stdout = io.StringIO()
     with contextlib.redirect_stdout(stdout):
         _print_summary(result, tmp_path, quiet=False)
-    rows = [line.split()[2] for line in stdout.getvalue().splitlines()
-            if line.startswith("│ Site ")]
+    rows = [
+        line.split()[2] for line in stdout.getvalue().splitlines() if line.startswith("│ Site ")
+    ]
     assert rows == ["0", "1", "2", "3", "4"]
     assert "more sites" not in stdout.getvalue()

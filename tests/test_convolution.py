@@ -43,8 +43,9 @@ def weather():
 @pytest.fixture(scope="module")
 def settings(briggs_rural, rural_exponents):
     """Briggs rural sigmas with plume depletion at the short-vegetation velocity 0.02 m/s."""
-    return DispersionSettings(scheme=briggs_rural, wind_exponents=rural_exponents,
-                              depletion_velocity_m_s=0.02)
+    return DispersionSettings(
+        scheme=briggs_rural, wind_exponents=rural_exponents, depletion_velocity_m_s=0.02
+    )
 
 
 def _grid(n):
@@ -56,9 +57,10 @@ def _grid(n):
 
 def _direct(gx, gy, xs, ys, qs, elements, weather, settings):
     """The direct per-source sum at the true positions [g m-3]."""
-    return sum(q * offset_concentration_g_m3_per_g_s(gx - x, gy - y, elements, weather,
-                                                     settings)
-               for x, y, q in zip(xs, ys, qs))
+    return sum(
+        q * offset_concentration_g_m3_per_g_s(gx - x, gy - y, elements, weather, settings)
+        for x, y, q in zip(xs, ys, qs)
+    )
 
 
 def _close(actual, expected, rtol):
@@ -86,13 +88,16 @@ def test_batch_independent_values(weather, settings):
     y = np.array([-20.0, 700.0, 2500.0, 5.0])
     together = offset_concentration_g_m3_per_g_s(x, y, elements, weather, settings)
     for i in range(x.size):
-        alone = offset_concentration_g_m3_per_g_s(x[i:i + 1], y[i:i + 1], elements, weather,
-                                                  settings)
+        alone = offset_concentration_g_m3_per_g_s(
+            x[i : i + 1], y[i : i + 1], elements, weather, settings
+        )
         assert_allclose(alone, together[i], rtol=1e-14)  # cross-check: same per-receptor ops
 
 
-@pytest.mark.parametrize("cls", [ReleaseClass("point", 5.0), ReleaseClass("point", 0.0),
-                                 ReleaseClass("volume", 4.0, 28.0)])
+@pytest.mark.parametrize(
+    "cls",
+    [ReleaseClass("point", 5.0), ReleaseClass("point", 0.0), ReleaseClass("volume", 4.0, 28.0)],
+)
 def test_radial_kernel_equals_engine_at_every_offset(cls, weather, settings):
     """Centre-line profiles assembled in angle give the engine's value at every offset."""
     direct = unit_kernel(cls.elements(), weather, settings, CELL_M, 30, 25, method="direct")
@@ -146,7 +151,7 @@ def test_tiled_equals_in_memory(weather, settings):
     for r0 in range(0, n_rows, 16):
         for c0 in range(0, n_cols, 16):
             rr, cc = (r0, min(r0 + 16, n_rows)), (c0, min(c0 + 16, n_cols))
-            tiled[rr[0]:rr[1], cc[0]:cc[1]] = tile_concentration(placed, kernel, rr, cc, 16, 16)
+            tiled[rr[0] : rr[1], cc[0] : cc[1]] = tile_concentration(placed, kernel, rr, cc, 16, 16)
     # cross-check: the same sum split by blocks of sources; FFT round-off relative to the peak
     assert_allclose(tiled, whole, rtol=1e-12, atol=1e-14 * whole.max())
 
@@ -166,8 +171,15 @@ def test_reach_truncates_kernel_and_skips_far_blocks(weather, settings):
     far = distance_m > reach_m + 1.0
     assert (whole[far] <= 1e-14 * whole.max()).all()  # zero but for FFT round-off
     assert (whole[~far & (distance_m >= CELL_M)] > 1e-6 * whole.max()).all()
-    tiled = np.block([[tile_concentration(placed, kernel, (r, r + 10), (c, c + 10), 10, 10)
-                       for c in range(0, n, 10)] for r in range(0, n, 10)])
+    tiled = np.block(
+        [
+            [
+                tile_concentration(placed, kernel, (r, r + 10), (c, c + 10), 10, 10)
+                for c in range(0, n, 10)
+            ]
+            for r in range(0, n, 10)
+        ]
+    )
     assert_allclose(tiled, whole, rtol=1e-12, atol=1e-14 * whole.max())
 
 
@@ -185,8 +197,14 @@ def test_bilinear_placement_keeps_total_and_centroid():
         place_on_cells([20.0], [512.0], [1.0], 0.0, 1000.0, CELL_M, 10, 10)
 
 
-@pytest.mark.parametrize("cls", [ReleaseClass("point", 3.0), ReleaseClass("point", 8.0),
-                                 ReleaseClass("volume", 4.0, 28.284271)])
+@pytest.mark.parametrize(
+    "cls",
+    [
+        ReleaseClass("point", 3.0),
+        ReleaseClass("point", 8.0),
+        ReleaseClass("volume", 4.0, 28.284271),
+    ],
+)
 def test_bilinear_placement_error_falls_as_one_over_distance(cls, weather, settings):
     """One source between centres: error vs the direct sum at its true position, by distance.
 
@@ -218,11 +236,13 @@ def test_bilinear_placement_error_falls_as_one_over_distance(cls, weather, setti
         nearest = place_on_cells([x], [y], [1.0], 0.0, n * CELL_M, CELL_M, n, n, "nearest")
         worse = error(tile_concentration(nearest, kernel, (0, n), (0, n)))
         assert worse[cells >= 10].max() > plain[cells >= 10].max()  # first order, not second
-        correction = near_field_correction([x], [y], [1.0], bilinear, kernel, elements, weather,
-                                           settings, 0.0, n * CELL_M, 10)
+        correction = near_field_correction(
+            [x], [y], [1.0], bilinear, kernel, elements, weather, settings, 0.0, n * CELL_M, 10
+        )
         assert correction.values.size == 400  # the 20 x 20 cells around the source
-        corrected = error(tile_concentration(bilinear, kernel, (0, n), (0, n),
-                                             correction=correction))
+        corrected = error(
+            tile_concentration(bilinear, kernel, (0, n), (0, n), correction=correction)
+        )
         window = np.zeros((n, n), bool)
         window[correction.rows, correction.cols] = True
         assert corrected[window].max() < 1e-9  # cross-check: the direct sum, FFT round-off only
@@ -240,11 +260,23 @@ def test_near_field_correction_of_many_sources(weather, settings):
     cls = ReleaseClass("volume", 5.0, 40.0)
     kernel = unit_kernel(cls.elements(), weather, settings, CELL_M, n - 1, n - 1)
     placed = place_on_cells(xs, ys, qs, 0.0, n * CELL_M, CELL_M, n, n)
-    one_batch = near_field_correction(xs, ys, qs, placed, kernel, cls.elements(), weather,
-                                      settings, 0.0, n * CELL_M, n)
-    small_batches = near_field_correction(xs, ys, qs, placed, kernel, cls.elements(), weather,
-                                          settings, 0.0, n * CELL_M, n,
-                                          sources_per_batch=2)
+    one_batch = near_field_correction(
+        xs, ys, qs, placed, kernel, cls.elements(), weather, settings, 0.0, n * CELL_M, n
+    )
+    small_batches = near_field_correction(
+        xs,
+        ys,
+        qs,
+        placed,
+        kernel,
+        cls.elements(),
+        weather,
+        settings,
+        0.0,
+        n * CELL_M,
+        n,
+        sources_per_batch=2,
+    )
     assert_allclose(small_batches.raster(), one_batch.raster(), rtol=1e-14, atol=0)
     field = tile_concentration(placed, kernel, (0, n), (0, n), correction=one_batch)
     direct = _direct(gx, gy, xs, ys, qs, cls.elements(), weather, settings)
@@ -288,12 +320,14 @@ def test_radial_kernel_from_interpolated_profiles_matches_direct():
     from siting.tables import load_dispersion, sigma_scheme, wind_exponents
 
     table = load_dispersion()
-    settings = DispersionSettings(sigma_scheme(table, "rural"), wind_exponents(table, "rural"),
-                                  depletion_velocity_m_s=0.02)
+    settings = DispersionSettings(
+        sigma_scheme(table, "rural"), wind_exponents(table, "rural"), depletion_velocity_m_s=0.02
+    )
     rng = np.random.default_rng(0)
     freq = rng.random((12, 6, 6))
-    weather = WeatherClasses(np.arange(12) * 30.0, np.array([1.0, 2.0, 3.5, 5.0, 7.0, 10.0]),
-                             freq / freq.sum())
+    weather = WeatherClasses(
+        np.arange(12) * 30.0, np.array([1.0, 2.0, 3.5, 5.0, 7.0, 10.0]), freq / freq.sum()
+    )
     house = [ReleaseElement(0, 0, 6.0, sigma_y0_m=5.0, sigma_z0_m=2.8, min_distance_m=10.0)]
     radial = unit_kernel(house, weather, settings, 100.0, 120, 120, method="radial").values
     direct = unit_kernel(house, weather, settings, 100.0, 120, 120, method="direct").values

@@ -21,8 +21,9 @@ D = 3
 
 def _integral(pasquill_gifford, height_m, x_m):
     table = np.concatenate(([0.0], np.geomspace(0.01, 2500.0, 200_000)))
-    density = ground_vertical_density_per_m(np.maximum(pasquill_gifford.sigma_z_m(table, D), 1e-9),
-                                            height_m)
+    density = ground_vertical_density_per_m(
+        np.maximum(pasquill_gifford.sigma_z_m(table, D), 1e-9), height_m
+    )
     return np.interp(x_m, table, cumulative_depletion_integral_m0(table, density))
 
 
@@ -33,12 +34,15 @@ def test_depletion_integral_check_values(pasquill_gifford):
     assert_allclose(integral, [4.930, 21.509, 40.041, 63.777], rtol=1e-3)
 
 
-@pytest.mark.parametrize("height_m,vd,expected", [
-    (5.0, 0.02, [0.9476, 0.8855, 0.8313, 0.7693]),
-    (5.0, 0.03, [0.9224, 0.8333, 0.7579, 0.6747]),
-    (10.0, 0.02, [0.9844, 0.9337, 0.8800, 0.8158]),
-    (10.0, 0.03, [0.9767, 0.9022, 0.8256, 0.7369]),
-])
+@pytest.mark.parametrize(
+    "height_m,vd,expected",
+    [
+        (5.0, 0.02, [0.9476, 0.8855, 0.8313, 0.7693]),
+        (5.0, 0.03, [0.9224, 0.8333, 0.7579, 0.6747]),
+        (10.0, 0.02, [0.9844, 0.9337, 0.8800, 0.8158]),
+        (10.0, 0.03, [0.9767, 0.9022, 0.8256, 0.7369]),
+    ],
+)
 def test_depletion_fraction_check_values(pasquill_gifford, height_m, vd, expected):
     """Q(x)/Q0, P-G class D, u 5 m/s, at 200/500/1000/2000 m (derived check values, 4 d.p.)."""
     x = np.array([200.0, 500.0, 1000.0, 2000.0])
@@ -61,8 +65,11 @@ def test_unit_conversion_to_kg_n_ha_yr():
     below the rounded-mass figure; rtol 2e-3 covers that difference and nothing larger.
     """
     assert_allclose(constants.UG_NH3_M2_S_TO_KG_N_HA_YR, 259.7, rtol=2e-3)
-    assert_allclose(constants.UG_NH3_M2_S_TO_KG_N_HA_YR,
-                    31_536_000 * 1e4 * 1e-9 * 14.0067 / 17.03052, rtol=1e-12)  # derivation
+    assert_allclose(
+        constants.UG_NH3_M2_S_TO_KG_N_HA_YR,
+        31_536_000 * 1e4 * 1e-9 * 14.0067 / 17.03052,
+        rtol=1e-12,
+    )  # derivation
 
 
 def test_concentration_to_deposition_handy_values():

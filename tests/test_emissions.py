@@ -29,23 +29,35 @@ def test_finishing_pigs_to_grams_per_second(tables):
 @pytest.mark.parametrize("reduction,expected_g_s", [(70.0, 0.05352), (90.0, 0.01784)])
 def test_scrubber_reduction(reduction, expected_g_s):
     """Abated strengths 0.05352 (70 %) and 0.01784 g/s (90 %) from 0.17840 g/s (derived)."""
-    d = derive_emission(factor_nh3_kg_per_place_yr=2.813, places=2000,
-                        reduction_percent=reduction, captures_in_effluent=True)
+    d = derive_emission(
+        factor_nh3_kg_per_place_yr=2.813,
+        places=2000,
+        reduction_percent=reduction,
+        captures_in_effluent=True,
+    )
     assert_allclose(d.emission_g_s, expected_g_s, rtol=5e-4)
 
 
 def test_effective_reduction_is_reduction_times_treated_share():
     """Effective reduction = reduction x treated share: 90 % on 60 % of the air = 54 % (definition)."""
-    d = derive_emission(nh3_unabated_kg_yr=1000.0, reduction_percent=90.0,
-                        treated_air_fraction=0.6, captures_in_effluent=True)
+    d = derive_emission(
+        nh3_unabated_kg_yr=1000.0,
+        reduction_percent=90.0,
+        treated_air_fraction=0.6,
+        captures_in_effluent=True,
+    )
     assert_allclose(d.effective_reduction_percent, 54.0, rtol=1e-12)
     assert_allclose(d.nh3_kg_yr, 460.0, rtol=1e-12)
 
 
 def test_nitrogen_captured_in_effluent():
     """N captured = NH3 removed x 14/17 (molar masses): 1,000 kg NH3 removed -> 822.5 kg N."""
-    d = derive_emission(nh3_unabated_kg_yr=1000.0, reduction_percent=100.0,
-                        captures_in_effluent=True, effluent_kg_n_per_m3=36.8)
+    d = derive_emission(
+        nh3_unabated_kg_yr=1000.0,
+        reduction_percent=100.0,
+        captures_in_effluent=True,
+        effluent_kg_n_per_m3=36.8,
+    )
     assert_allclose(d.n_captured_kg_yr, 1000.0 * 14.0067 / 17.03052, rtol=1e-12)
     assert_allclose(d.effluent_m3_yr, d.n_captured_kg_yr / 36.8, rtol=1e-12)
     housing = derive_emission(nh3_unabated_kg_yr=1000.0, reduction_percent=30.0)
@@ -61,15 +73,25 @@ def test_effluent_volumes_per_thousand_finishers(tables):
     bio = tables.technique("biological_scrubber", "test")
     assert acid["effluent_kg_n_per_m3"] == 39.6 and bio["effluent_kg_n_per_m3"] == 3.7
     # stoichiometry: 2813 kg NH3/yr x 0.70 x 14.0067 / 17.0305 = 1619.5 kg N/yr captured
-    d_acid = derive_emission(factor_nh3_kg_per_place_yr=2.813, places=1000,
-                             reduction_percent=default_reduction_percent(acid),
-                             effluent_kg_n_per_m3=39.6, captures_in_effluent=True)
+    d_acid = derive_emission(
+        factor_nh3_kg_per_place_yr=2.813,
+        places=1000,
+        reduction_percent=default_reduction_percent(acid),
+        effluent_kg_n_per_m3=39.6,
+        captures_in_effluent=True,
+    )
     assert d_acid.n_captured_kg_yr == pytest.approx(1619.5, rel=1e-4)
     assert d_acid.effluent_m3_yr == pytest.approx(1619.5 / 39.6, rel=1e-4)  # 40.9 m3/yr
-    typical = [derive_emission(factor_nh3_kg_per_place_yr=2.813, places=1000,
-                               reduction_percent=t["reduction_percent_typical"],
-                               effluent_kg_n_per_m3=t["effluent_kg_n_per_m3"],
-                               captures_in_effluent=True) for t in (acid, bio)]
+    typical = [
+        derive_emission(
+            factor_nh3_kg_per_place_yr=2.813,
+            places=1000,
+            reduction_percent=t["reduction_percent_typical"],
+            effluent_kg_n_per_m3=t["effluent_kg_n_per_m3"],
+            captures_in_effluent=True,
+        )
+        for t in (acid, bio)
+    ]
     # trade figures: within 25 % (their own N contents differ from the published ones)
     assert typical[0].effluent_m3_yr == pytest.approx(64.0, rel=0.25)
     assert typical[1].effluent_m3_yr == pytest.approx(515.0, rel=0.25)

@@ -25,7 +25,8 @@ from siting.longterm import (
 )
 
 _SPEC = importlib.util.spec_from_file_location(
-    "bench_reference", Path(__file__).resolve().parents[1] / "bench" / "reference.py")
+    "bench_reference", Path(__file__).resolve().parents[1] / "bench" / "reference.py"
+)
 reference = importlib.util.module_from_spec(_SPEC)
 _SPEC.loader.exec_module(reference)
 
@@ -38,8 +39,7 @@ FINE_TABLE_POINTS = 4096
 
 POINT = ReleaseElement(0.0, 0.0, 6.0)
 FAN = ReleaseElement(-40.0, 10.0, 8.0, diameter_m=0.8, exit_velocity_m_s=9.0)
-VOLUME = ReleaseElement(30.0, -20.0, 4.0, sigma_y0_m=8.0, sigma_z0_m=2.5,
-                        min_distance_m=2.15 * 8.0)
+VOLUME = ReleaseElement(30.0, -20.0, 4.0, sigma_y0_m=8.0, sigma_z0_m=2.5, min_distance_m=2.15 * 8.0)
 EMISSION_G_S = np.array([0.3, 1.2, 0.05])
 
 
@@ -54,30 +54,38 @@ def _table(seed):
     rng = np.random.default_rng(seed)
     freq = rng.random((12, 4, 6))
     freq[freq < 0.1] = 0.0  # some empty classes, as in real tables
-    return WeatherClasses(np.arange(12) * 30.0, np.array([1.5, 3.0, 5.0, 8.0]),
-                          freq / freq.sum())
+    return WeatherClasses(np.arange(12) * 30.0, np.array([1.5, 3.0, 5.0, 8.0]), freq / freq.sum())
 
 
 def _record(seed, n_hours=200):
     rng = np.random.default_rng(seed)
-    return HourlyWeather(np.arange(n_hours).astype("datetime64[h]").astype("datetime64[s]"),
-                         rng.integers(0, 36, n_hours) * 10.0, rng.integers(1, 21, n_hours) * 0.5,
-                         rng.integers(0, 6, n_hours), np.full(n_hours, np.nan))
+    return HourlyWeather(
+        np.arange(n_hours).astype("datetime64[h]").astype("datetime64[s]"),
+        rng.integers(0, 36, n_hours) * 10.0,
+        rng.integers(1, 21, n_hours) * 0.5,
+        rng.integers(0, 6, n_hours),
+        np.full(n_hours, np.nan),
+    )
 
 
 def _settings(briggs_rural, rural_exponents, vd=0.02, points=FINE_TABLE_POINTS):
-    return DispersionSettings(briggs_rural, rural_exponents, depletion_velocity_m_s=vd,
-                              depletion_table_points=points)
+    return DispersionSettings(
+        briggs_rural, rural_exponents, depletion_velocity_m_s=vd, depletion_table_points=points
+    )
 
 
 def _fast_sector(rx, ry, elements, emissions, weather, settings):
-    return sum(q * source_concentration_g_m3_per_g_s(rx, ry, [e], weather, settings)
-               for e, q in zip(elements, emissions))
+    return sum(
+        q * source_concentration_g_m3_per_g_s(rx, ry, [e], weather, settings)
+        for e, q in zip(elements, emissions)
+    )
 
 
 def _fast_hourly(rx, ry, elements, emissions, weather, settings, hour_weights=None):
-    return sum(q * source_hourly_mean_g_m3_per_g_s(rx, ry, [e], weather, settings, hour_weights)
-               for e, q in zip(elements, emissions))
+    return sum(
+        q * source_hourly_mean_g_m3_per_g_s(rx, ry, [e], weather, settings, hour_weights)
+        for e, q in zip(elements, emissions)
+    )
 
 
 def _assert_within_cutoff(fast, ref, centreline, rtol=1e-6):
@@ -86,7 +94,9 @@ def _assert_within_cutoff(fast, ref, centreline, rtol=1e-6):
     # |fast - ref| <= exp(-18) * (sum of centre-line values) + rtol (depletion table)
     bound = LATERAL_CUTOFF * centreline + rtol * ref
     excess = np.abs(fast - ref) - bound
-    assert excess.max() <= 0, f"worst excess {excess.max():.3g} at reference {ref[excess.argmax()]:.3g}"
+    assert excess.max() <= 0, (
+        f"worst excess {excess.max():.3g} at reference {ref[excess.argmax()]:.3g}"
+    )
 
 
 @pytest.mark.parametrize("vd", [None, 0.02])
@@ -105,8 +115,7 @@ def test_sector_average_equals_reference(briggs_rural, rural_exponents, vd):
     assert_allclose(fast, ref, rtol=1e-6)
 
 
-def test_sector_average_near_the_sources_converges_at_second_order(briggs_rural,
-                                                                  rural_exponents):
+def test_sector_average_near_the_sources_converges_at_second_order(briggs_rural, rural_exponents):
     """Receptors 2-300 m away: default nodes within 5e-6; halving the step quarters the error."""
     rx, ry = _receptors(3, near_m=2.0, far_m=300.0)
     weather = _table(4)
@@ -114,12 +123,14 @@ def test_sector_average_near_the_sources_converges_at_second_order(briggs_rural,
     ref = None
     worst = {}
     for step in (0.004, 0.002):
-        settings = DispersionSettings(briggs_rural, rural_exponents, depletion_velocity_m_s=0.02,
-                                      profile_log_step=step)
+        settings = DispersionSettings(
+            briggs_rural, rural_exponents, depletion_velocity_m_s=0.02, profile_log_step=step
+        )
         fast = _fast_sector(rx, ry, elements, EMISSION_G_S, weather, settings)
         if ref is None:
-            ref = reference.reference_sector_average(rx, ry, elements, weather, settings,
-                                                     EMISSION_G_S)
+            ref = reference.reference_sector_average(
+                rx, ry, elements, weather, settings, EMISSION_G_S
+            )
         worst[step] = np.max(np.abs(fast / ref - 1.0))
     # derived: linear interpolation in ln(distance) errs by ~h^2 / 8 x the profile's curvature
     # there, so the error falls fourfold per halving (7.0e-6 and 1.9e-6 measured, ratio 3.7)
@@ -134,8 +145,9 @@ def test_hourly_equals_reference_up_to_the_lateral_cutoff(briggs_rural, rural_ex
     hour_weights = np.random.default_rng(7).uniform(0.5, 1.5, weather.n_hours)
     elements, emissions = [POINT, FAN], EMISSION_G_S[:2]
     fast = _fast_hourly(rx, ry, elements, emissions, weather, settings, hour_weights)
-    ref, centreline = reference.reference_hourly(rx, ry, elements, weather, settings, emissions,
-                                                 hour_weights, return_centreline=True)
+    ref, centreline = reference.reference_hourly(
+        rx, ry, elements, weather, settings, emissions, hour_weights, return_centreline=True
+    )
     assert (ref > 0).mean() > 0.9  # most receptors are reached, so the check has teeth
     _assert_within_cutoff(fast, ref, centreline)
 
@@ -147,8 +159,9 @@ def test_hourly_spread_over_the_direction_step_equals_reference(briggs_rural, ru
     weather = dataclasses.replace(record, direction_step_deg=10.0)
     elements, emissions = [POINT, FAN], EMISSION_G_S[:2]
     fast = _fast_hourly(rx, ry, elements, emissions, weather, settings)
-    ref, centreline = reference.reference_hourly(rx, ry, elements, weather, settings, emissions,
-                                                 return_centreline=True)
+    ref, centreline = reference.reference_hourly(
+        rx, ry, elements, weather, settings, emissions, return_centreline=True
+    )
     unspread = reference.reference_hourly(rx, ry, elements, record, settings, emissions)
     assert np.abs(ref / np.maximum(unspread, 1e-300) - 1.0).max() > 0.1  # the spread matters
     # cross-check, same formula (normal CDF in the engine, erf here): the window widened by
@@ -163,8 +176,9 @@ def test_hourly_default_depletion_table_within_its_step(briggs_rural, rural_expo
     settings = DispersionSettings(briggs_rural, rural_exponents, depletion_velocity_m_s=0.02)
     elements, emissions = [POINT, FAN], EMISSION_G_S[:2]
     fast = _fast_hourly(rx, ry, elements, emissions, weather, settings)
-    ref, centreline = reference.reference_hourly(rx, ry, elements, weather, settings, emissions,
-                                                 return_centreline=True)
+    ref, centreline = reference.reference_hourly(
+        rx, ry, elements, weather, settings, emissions, return_centreline=True
+    )
     # derived: 256 geometric steps over 0.01 m-3 km are 4.9 % apart (h = ln(3e5) / 256); the
     # trapezoid errs by ~h^2 / 12 = 2e-4 of I, so the depletion fraction by 2e-4 x (v_d / u) I,
     # a few e-4 in the slowest, most depleted hours; averaged with the other hours of the year
@@ -172,14 +186,14 @@ def test_hourly_default_depletion_table_within_its_step(briggs_rural, rural_expo
     _assert_within_cutoff(fast, ref, centreline, rtol=5e-4)
 
 
-def test_hourly_volume_source_equals_reference_beyond_its_near_field(briggs_rural,
-                                                                     rural_exponents):
+def test_hourly_volume_source_equals_reference_beyond_its_near_field(briggs_rural, rural_exponents):
     """Volume source, receptors 150-3,000 m from it: hourly engine = reference (to the cut-off)."""
     rx, ry = _receptors(8, near_m=150.0, centre=(VOLUME.x_m, VOLUME.y_m))
     weather, settings = _record(9), _settings(briggs_rural, rural_exponents)
     fast = _fast_hourly(rx, ry, [VOLUME], [1.0], weather, settings)
-    ref, centreline = reference.reference_hourly(rx, ry, [VOLUME], weather, settings,
-                                                 return_centreline=True)
+    ref, centreline = reference.reference_hourly(
+        rx, ry, [VOLUME], weather, settings, return_centreline=True
+    )
     _assert_within_cutoff(fast, ref, centreline)
 
 
@@ -188,8 +202,9 @@ def test_hourly_volume_source_equals_reference_in_its_near_field(briggs_rural, r
     rx, ry = _receptors(10, n=500, near_m=5.0, far_m=60.0, centre=(VOLUME.x_m, VOLUME.y_m))
     weather, settings = _record(11), _settings(briggs_rural, rural_exponents)
     fast = _fast_hourly(rx, ry, [VOLUME], [1.0], weather, settings)
-    ref, centreline = reference.reference_hourly(rx, ry, [VOLUME], weather, settings,
-                                                 return_centreline=True)
+    ref, centreline = reference.reference_hourly(
+        rx, ry, [VOLUME], weather, settings, return_centreline=True
+    )
     _assert_within_cutoff(fast, ref, centreline)
 
 
@@ -200,8 +215,9 @@ def test_reference_depletion_integral_is_analytic_for_linear_sigma_z(briggs_rura
     a, height_m = briggs_rural.z[0][0], 6.0
     assert briggs_rural.z[0][1] == 0.0  # sigma_z is exactly a x for class A
     x = np.geomspace(5.0, 3000.0, 200)
-    integral = reference.DirectDepletionIntegral(lambda d: briggs_rural.sigma_z_m(d, 0),
-                                                 height_m, None, x.max())(x)
+    integral = reference.DirectDepletionIntegral(
+        lambda d: briggs_rural.sigma_z_m(d, 0), height_m, None, x.max()
+    )(x)
     expected = exp1(height_m**2 / (2.0 * a**2 * x**2)) / (a * np.sqrt(2.0 * np.pi))
     # the last panel to each x is a midpoint rule: absolute error <~ 1e-7 in I (1e-8 measured),
     # i.e. < 4e-9 in the depletion fraction exp(-(v_d / u) I) for v_d / u <= 0.04

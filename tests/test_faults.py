@@ -38,6 +38,7 @@ from siting.cli import main
 # fixtures: the inputs template and an earlier successful run (once per module)
 # --------------------------------------------------------------------------------------------
 
+
 @pytest.fixture(scope="module")
 def template(tmp_path_factory) -> Path:
     """The inputs every case copies (demo with a coarse grid, a week's hourly record, farms)."""
@@ -60,8 +61,16 @@ def earlier_run(template, tmp_path_factory):
     out = tmp_path_factory.mktemp("faults_earlier") / "out"
     with pytest.MonkeyPatch.context() as mp:
         mp.setattr(screen_module, "screen", keep)
-        rc = main(["screen", str(template / "inputs" / "scenario.toml"), "--out", str(out),
-                   "--overwrite", "--quiet"])
+        rc = main(
+            [
+                "screen",
+                str(template / "inputs" / "scenario.toml"),
+                "--out",
+                str(out),
+                "--overwrite",
+                "--quiet",
+            ]
+        )
     assert rc == 0 and (out / "run.json").is_file() and (out / ".siting-output").is_file()
     return out, kept["result"]
 
@@ -69,6 +78,7 @@ def earlier_run(template, tmp_path_factory):
 # --------------------------------------------------------------------------------------------
 # running a case
 # --------------------------------------------------------------------------------------------
+
 
 def _run(argv: list[str]) -> int:
     """The CLI in-process; argparse's own errors end in SystemExit, taken as the exit code."""
@@ -79,8 +89,13 @@ def _run(argv: list[str]) -> int:
 
 
 #: The computation of each command, replaced for "before any work" cases.
-_WORK = [("siting.screen", "screen"), ("siting.place", "place"), ("siting.region", "region"),
-         ("siting.verify", "verify"), ("siting.weather_hourly", "read_hourly_record")]
+_WORK = [
+    ("siting.screen", "screen"),
+    ("siting.place", "place"),
+    ("siting.region", "region"),
+    ("siting.verify", "verify"),
+    ("siting.weather_hourly", "read_hourly_record"),
+]
 
 
 def _no_work(mp) -> None:
@@ -100,8 +115,7 @@ def _next_run_tidies(ws, capsys) -> None:
     outputs = fc._mod("siting.outputs")
     real_alive = outputs._alive
     with pytest.MonkeyPatch.context() as mp:
-        mp.setattr(outputs, "_alive",
-                   lambda pid: False if pid == os.getpid() else real_alive(pid))
+        mp.setattr(outputs, "_alive", lambda pid: False if pid == os.getpid() else real_alive(pid))
         rc = _run(["verify", str(ws / "no-such-submission"), "--out", str(ws.out), "--quiet"])
     err = capsys.readouterr().err
     assert rc == 2, err
@@ -135,29 +149,34 @@ def test_fault(case: fc.Case, tmp_path, monkeypatch, capsys, template, earlier_r
     kept = "" if case.rc == 3 else _take_traceback(err)  # an unexpected bug's traceback file
     try:
         # README exit-code table: the exit code, and one line on stderr naming the culprit
-        assert rc == case.rc, (f"exit code {rc}, expected {case.rc}; stderr: {err[-1500:]}"
-                               + (f"\ntraceback (file removed):\n{kept}" if kept else ""))
+        assert rc == case.rc, f"exit code {rc}, expected {case.rc}; stderr: {err[-1500:]}" + (
+            f"\ntraceback (file removed):\n{kept}" if kept else ""
+        )
         assert "Traceback" not in err, err[-1500:]
         assert len(lines) == 1, f"{len(lines)} lines on stderr, expected one:\n{err[-1500:]}"
         assert re.search(case.message, lines[0]), (
-            f"the line does not name the culprit /{case.message}/:\n{lines[0]}")
+            f"the line does not name the culprit /{case.message}/:\n{lines[0]}"
+        )
         if case.check is not None:
             case.check(ws, lines[0])
         after = fc.snapshot(ws.root)
         if case.written:
             # a run that completes: only its output folder appears; nothing else changes
-            lost = {k for k in before if after.get(k) != before[k]
-                    and not (k == "out" or k.startswith("out/"))}  # out: the run's own
-            foreign = {k for k in set(after) - set(before) if not (k == "out" or
-                                                                    k.startswith("out/"))}
+            lost = {
+                k
+                for k in before
+                if after.get(k) != before[k] and not (k == "out" or k.startswith("out/"))
+            }  # out: the run's own
+            foreign = {
+                k for k in set(after) - set(before) if not (k == "out" or k.startswith("out/"))
+            }
             assert not lost and not foreign, fc.describe_changes(before, after)
             return
         if case.rc == 130 and after != before:
             # README: the next run into the same folder tidies what the interrupted run left
             _next_run_tidies(ws, capsys)
             after = fc.snapshot(ws.root)
-            assert after == before, ("after the next run: "
-                                     + fc.describe_changes(before, after))
+            assert after == before, "after the next run: " + fc.describe_changes(before, after)
         # README exit-code table: nothing written, nothing lost, the earlier folder kept
         assert after == before, fc.describe_changes(before, after)
     finally:

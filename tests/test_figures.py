@@ -32,7 +32,6 @@ PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 NOTE_WORDS = "Only the most affected sites are named"
 
 
-
 def test_figure_png_returns_png_bytes():
     """figure_png renders a plain Figure with the Agg canvas to PNG bytes."""
     fig = Figure(figsize=(2, 2))
@@ -98,16 +97,16 @@ def test_table_wind_rose_shares_add_up_to_the_time():
 def test_table_wind_rose_normalises_counts():
     """Counts instead of fractions give the same shares (scaled to 100 %)."""
     table = _table()
-    counts = WeatherClasses(table.sector_centres_deg, table.speeds_m_s,
-                            table.frequency_fraction * 8760.0)
+    counts = WeatherClasses(
+        table.sector_centres_deg, table.speeds_m_s, table.frequency_fraction * 8760.0
+    )
     assert_allclose(_table_rose_percent(counts), _table_rose_percent(table), rtol=1e-12)
 
 
 def test_table_wind_rose_rejects_a_misshapen_table():
     """A frequency array that does not match the sectors and speeds is refused by name."""
     table = _table()
-    bad = WeatherClasses(table.sector_centres_deg, table.speeds_m_s[:2],
-                         table.frequency_fraction)
+    bad = WeatherClasses(table.sector_centres_deg, table.speeds_m_s[:2], table.frequency_fraction)
     with pytest.raises(InputError, match="frequency_fraction"):
         wind_rose_from_table_png(bad)
 
@@ -134,8 +133,10 @@ def _many_sites() -> gpd.GeoDataFrame:
             "distance_m": 2000.0 - 9.0 * i,
             "verdict": np.where(i / 10.0 > 1.0, "above threshold", "below threshold"),
         },
-        geometry=[box(60.0 * (k % 15), -60.0 * (k // 15) - 40, 60.0 * (k % 15) + 40,
-                      -60.0 * (k // 15)) for k in i],
+        geometry=[
+            box(60.0 * (k % 15), -60.0 * (k // 15) - 40, 60.0 * (k % 15) + 40, -60.0 * (k // 15))
+            for k in i
+        ],
     )
 
 
@@ -207,11 +208,13 @@ def test_few_sites_are_all_named_without_a_note(drawn):
 def test_most_affected_order_ranks_by_share_of_threshold():
     """Order by max(% level, % load) / threshold %; a missing half ignored, no figure last,
     ties in layer order (analytic, from the values below)."""
-    sites = pd.DataFrame({
-        "pc_pct_level": [2.0, np.nan, 30.0, np.nan, 5.0],
-        "pc_pct_load": [4.0, 10.0, 10.0, np.nan, 5.0],
-        "threshold_percent": [1.0, 1.0, 20.0, 1.0, 1.0],
-    })
+    sites = pd.DataFrame(
+        {
+            "pc_pct_level": [2.0, np.nan, 30.0, np.nan, 5.0],
+            "pc_pct_load": [4.0, 10.0, 10.0, np.nan, 5.0],
+            "threshold_percent": [1.0, 1.0, 20.0, 1.0, 1.0],
+        }
+    )
     # shares: 4, 10, 1.5, none, 5
     assert most_affected_order(sites).tolist() == [1, 4, 0, 2, 3]
 

@@ -40,11 +40,24 @@ def test_demo_sites_get_values_from_tables(tables):
 def test_reprojection_and_overrides(tmp_path, tables):
     """A layer in another CRS is reprojected; per-site fields override the critical values."""
     poly = shapely.box(500000, 5800000, 500100, 5800100)
-    gdf = gpd.GeoDataFrame({"name": ["A"], "habitat": ["Raised bog"], "designation": ["SSSI"],
-                            "cle": [3.0], "clo": [7.5]}, geometry=[poly], crs="EPSG:32632")
+    gdf = gpd.GeoDataFrame(
+        {
+            "name": ["A"],
+            "habitat": ["Raised bog"],
+            "designation": ["SSSI"],
+            "cle": [3.0],
+            "clo": [7.5],
+        },
+        geometry=[poly],
+        crs="EPSG:32632",
+    )
     gdf.to_crs("EPSG:4326").to_file(tmp_path / "h.geojson")
-    sites, _ = read_habitats(_section(tmp_path / "h.geojson", critical_level_field="cle",
-                                      critical_load_field="clo"), "EPSG:32632", tables, "upper")
+    sites, _ = read_habitats(
+        _section(tmp_path / "h.geojson", critical_level_field="cle", critical_load_field="clo"),
+        "EPSG:32632",
+        tables,
+        "upper",
+    )
     row = sites.iloc[0]
     assert row.habitat == "raised_bog"  # matched by the table's name, case-insensitively
     assert row.critical_level_ug_m3 == 3.0 and row.critical_load_used_kg_n_ha_yr == 7.5
@@ -54,8 +67,11 @@ def test_reprojection_and_overrides(tmp_path, tables):
 
 def test_unknown_designation_takes_strictest_tier_with_warning(tmp_path, tables):
     """An unknown designation falls back to the strictest tier and says so."""
-    gdf = gpd.GeoDataFrame({"name": ["B"], "habitat": ["dry_heath"], "designation": ["parish green"]},
-                           geometry=[shapely.box(0, 0, 10, 10)], crs="EPSG:32632")
+    gdf = gpd.GeoDataFrame(
+        {"name": ["B"], "habitat": ["dry_heath"], "designation": ["parish green"]},
+        geometry=[shapely.box(0, 0, 10, 10)],
+        crs="EPSG:32632",
+    )
     gdf.to_file(tmp_path / "h.gpkg")
     sites, warnings = read_habitats(_section(tmp_path / "h.gpkg"), "EPSG:32632", tables)
     assert sites.iloc[0].threshold_percent == min(t["threshold_percent"] for t in tables.thresholds)
@@ -65,8 +81,11 @@ def test_unknown_designation_takes_strictest_tier_with_warning(tmp_path, tables)
 def test_bow_tie_polygon_is_repaired(tmp_path, tables):
     """A self-intersecting polygon is repaired with a warning, not silently dropped."""
     bow = shapely.Polygon([(0, 0), (10, 10), (10, 0), (0, 10)])
-    gdf = gpd.GeoDataFrame({"name": ["C"], "habitat": ["dry_heath"], "designation": ["SSSI"]},
-                           geometry=[bow], crs="EPSG:32632")
+    gdf = gpd.GeoDataFrame(
+        {"name": ["C"], "habitat": ["dry_heath"], "designation": ["SSSI"]},
+        geometry=[bow],
+        crs="EPSG:32632",
+    )
     gdf.to_file(tmp_path / "h.gpkg")
     sites, warnings = read_habitats(_section(tmp_path / "h.gpkg"), "EPSG:32632", tables)
     assert sites.iloc[0].geometry.is_valid and sites.iloc[0].area_ha > 0
@@ -75,8 +94,11 @@ def test_bow_tie_polygon_is_repaired(tmp_path, tables):
 
 def test_unknown_habitat_is_named(tmp_path, tables):
     """A habitat value missing from the table names the site and suggests the closest id."""
-    gdf = gpd.GeoDataFrame({"name": ["D"], "habitat": ["raised_bogs"], "designation": ["SSSI"]},
-                           geometry=[shapely.box(0, 0, 10, 10)], crs="EPSG:32632")
+    gdf = gpd.GeoDataFrame(
+        {"name": ["D"], "habitat": ["raised_bogs"], "designation": ["SSSI"]},
+        geometry=[shapely.box(0, 0, 10, 10)],
+        crs="EPSG:32632",
+    )
     gdf.to_file(tmp_path / "h.gpkg")
     with pytest.raises(InputError, match=r'"D".*raised_bogs.*did you mean "raised_bog"'):
         read_habitats(_section(tmp_path / "h.gpkg"), "EPSG:32632", tables)
@@ -111,10 +133,14 @@ def test_common_vector_formats_are_read(tmp_path, tables, suffix):
 
 
 def _layer(tmp_path, names, habitats, **fields):
-    polys = [shapely.box(500000 + 200 * i, 5800000, 500100 + 200 * i, 5800100)
-             for i in range(len(names))]
-    gpd.GeoDataFrame({"name": names, "habitat": habitats, "designation": ["SSSI"] * len(names),
-                      **fields}, geometry=polys, crs="EPSG:32632").to_file(tmp_path / "h.gpkg")
+    polys = [
+        shapely.box(500000 + 200 * i, 5800000, 500100 + 200 * i, 5800100) for i in range(len(names))
+    ]
+    gpd.GeoDataFrame(
+        {"name": names, "habitat": habitats, "designation": ["SSSI"] * len(names), **fields},
+        geometry=polys,
+        crs="EPSG:32632",
+    ).to_file(tmp_path / "h.gpkg")
     return tmp_path / "h.gpkg"
 
 
@@ -122,11 +148,21 @@ def test_woodland_gets_1_ug_m3_unless_lichens_are_shown_absent(tmp_path, tables)
     """A broadleaved wood (habitat type not flagged for lichens) gets 1 ug/m3 by default; 3 ug/m3
     only where the layer's field or the scenario says lichens and bryophytes are absent
     (UNECE2007 critical levels 1 and 3 ug/m3, Cape2009, confirmed)."""
-    path = _layer(tmp_path, ["Wood A", "Wood B", "Wood C", "Wood D"],
-                  ["broadleaved_woodland"] * 4, lichens=["absent", "present", None, None])
+    path = _layer(
+        tmp_path,
+        ["Wood A", "Wood B", "Wood C", "Wood D"],
+        ["broadleaved_woodland"] * 4,
+        lichens=["absent", "present", None, None],
+    )
     sites, warnings = read_habitats(
-        _section(path, lichens_bryophytes_field="lichens",
-                 lichens_bryophytes_absent=["wood d", "Nowhere Fen"]), "EPSG:32632", tables)
+        _section(
+            path,
+            lichens_bryophytes_field="lichens",
+            lichens_bryophytes_absent=["wood d", "Nowhere Fen"],
+        ),
+        "EPSG:32632",
+        tables,
+    )
     by_name = sites.set_index("name")
     assert list(by_name["critical_level_ug_m3"]) == [3.0, 1.0, 1.0, 3.0]
     assert "absent" in by_name.loc["Wood A", "critical_level_basis"]
@@ -166,8 +202,11 @@ def test_older_table_without_2022_values_falls_back_with_a_warning(tmp_path):
     folder = tmp_path / "cfg"
     shutil.copytree(config_dir(), folder)
     path = folder / "critical_loads.toml"
-    text = "\n".join(line for line in path.read_text().splitlines()
-                     if not line.startswith(("critical_load_2022", "source_2022", "eunis_2022")))
+    text = "\n".join(
+        line
+        for line in path.read_text().splitlines()
+        if not line.startswith(("critical_load_2022", "source_2022", "eunis_2022"))
+    )
     path.write_text(text)
     old_tables = load_tables(folder)
     layer = _layer(tmp_path, ["Heath"], ["dry_heath"])
@@ -176,24 +215,35 @@ def test_older_table_without_2022_values_falls_back_with_a_warning(tmp_path):
     assert sites.iloc[0]["critical_load_review"] == "2011"
     assert any("no 2022 range" in w for w in warnings)
     # half a 2022 range is refused, naming the row
-    text2 = path.read_text().replace('lichens_bryophytes = true\nsource = "BobbinkHettelingh2011 '
-                                     'table of empirical critical loads, F4.2',
-                                     'lichens_bryophytes = true\ncritical_load_2022_min_kg_n_ha_yr'
-                                     ' = 5.0\nsource = "BobbinkHettelingh2011 table of empirical '
-                                     'critical loads, F4.2', 1)
+    text2 = path.read_text().replace(
+        'lichens_bryophytes = true\nsource = "BobbinkHettelingh2011 '
+        "table of empirical critical loads, F4.2",
+        "lichens_bryophytes = true\ncritical_load_2022_min_kg_n_ha_yr"
+        ' = 5.0\nsource = "BobbinkHettelingh2011 table of empirical '
+        "critical loads, F4.2",
+        1,
+    )
     assert text2 != path.read_text()
     path.write_text(text2)
     with pytest.raises(InputError, match="dry_heath.*missing key"):
         load_tables(folder)
 
 
-@pytest.mark.parametrize("field, value, match", [
-    ("clo", float("inf"), "clo must be a finite number"),
-    ("clo", "lots", "clo must be a number"),
-    ("bg", -2.0, "bg must be >= 0"),
-    ("bg", float("inf"), "bg must be a finite number"),
-], ids=["infinite critical load", "text in a number field", "negative background",
-        "infinite background"])
+@pytest.mark.parametrize(
+    "field, value, match",
+    [
+        ("clo", float("inf"), "clo must be a finite number"),
+        ("clo", "lots", "clo must be a number"),
+        ("bg", -2.0, "bg must be >= 0"),
+        ("bg", float("inf"), "bg must be a finite number"),
+    ],
+    ids=[
+        "infinite critical load",
+        "text in a number field",
+        "negative background",
+        "infinite background",
+    ],
+)
 def test_bad_numbers_in_the_layer_are_named(tmp_path, tables, field, value, match):
     """A per-site number that would give 0 %, a crash or a negative total is refused, naming the
     field and the feature (nothing silently wrong)."""
@@ -217,12 +267,19 @@ def test_two_sites_with_one_name_are_refused(tmp_path, tables):
 
 def _mixed_sites():
     """Squares, a polygon with a hole, a two-part site and a thin diagonal strip (invented)."""
-    ring = shapely.Polygon([(0, 0), (200, 0), (200, 200), (0, 200)],
-                           holes=[[(50, 50), (150, 50), (150, 150), (50, 150)]])
-    return [shapely.box(300, 20, 360, 70), ring,
-            shapely.MultiPolygon([shapely.box(-400, -400, -340, -330), shapely.box(-300, -400, -260, -380)]),
-            shapely.Polygon([(500, 0), (900, 400), (905, 395), (505, -5)]),
-            shapely.box(-100, 500, -97, 503)]
+    ring = shapely.Polygon(
+        [(0, 0), (200, 0), (200, 200), (0, 200)],
+        holes=[[(50, 50), (150, 50), (150, 150), (50, 150)]],
+    )
+    return [
+        shapely.box(300, 20, 360, 70),
+        ring,
+        shapely.MultiPolygon(
+            [shapely.box(-400, -400, -340, -330), shapely.box(-300, -400, -260, -380)]
+        ),
+        shapely.Polygon([(500, 0), (900, 400), (905, 395), (505, -5)]),
+        shapely.box(-100, 500, -97, 503),
+    ]
 
 
 def test_sample_points_equal_a_per_site_reference():
@@ -235,8 +292,9 @@ def test_sample_points_equal_a_per_site_reference():
 
     sites = _mixed_sites()
     sources = [(250.0, 100.0), (-500.0, 600.0)]
-    index, x, y, interior = site_sample_points(sites, [s[0] for s in sources],
-                                               [s[1] for s in sources], 10.0)
+    index, x, y, interior = site_sample_points(
+        sites, [s[0] for s in sources], [s[1] for s in sources], 10.0
+    )
     steps = lattice_step_m(np.asarray(sites, dtype=object), 10.0)
     for i, geom in enumerate(sites):
         mine = index == i
@@ -244,9 +302,12 @@ def test_sample_points_equal_a_per_site_reference():
         rep = geom.representative_point()
         minx, miny, maxx, maxy = geom.bounds
         step = steps[i]
-        lattice = [(gx, gy) for gy in np.arange(miny + step / 2, maxy, step)
-                   for gx in np.arange(minx + step / 2, maxx, step)
-                   if geom.contains(shapely.Point(gx, gy))]
+        lattice = [
+            (gx, gy)
+            for gy in np.arange(miny + step / 2, maxy, step)
+            for gx in np.arange(minx + step / 2, maxx, step)
+            if geom.contains(shapely.Point(gx, gy))
+        ]
         got = np.column_stack([x[mine], y[mine]])
         assert np.allclose(got[:2], [(p.x, p.y) for p in expected])
         assert not interior[mine][:2].any()
@@ -266,8 +327,12 @@ def test_boundary_points_equal_a_per_ring_reference():
         for part in shapely.get_parts(geom):
             for ring in [part.exterior, *part.interiors]:
                 n = max(8, int(np.ceil(ring.length / 10.0)))
-                expected += [(p.x, p.y) for p in (ring.interpolate(d) for d in
-                                                 np.linspace(0, ring.length, n, endpoint=False))]
+                expected += [
+                    (p.x, p.y)
+                    for p in (
+                        ring.interpolate(d) for d in np.linspace(0, ring.length, n, endpoint=False)
+                    )
+                ]
         assert np.allclose(np.column_stack([x[index == i], y[index == i]]), expected)
 
 
@@ -290,8 +355,12 @@ def test_very_long_polygon_gets_bounded_points_and_a_warning():
     """A 2,000 km strip 1 m wide (absurd, issue 12 item 9) gets a bounded number of sample
     points, quickly, and a warning naming it; a small site gets none (bounds: the module's
     constants, common practice, no source)."""
-    from siting.habitats import (MAX_BOUNDARY_POINTS_PER_SITE, MAX_POINTS_PER_SITE,
-                                 coarsened_sites, site_boundary_points)
+    from siting.habitats import (
+        MAX_BOUNDARY_POINTS_PER_SITE,
+        MAX_POINTS_PER_SITE,
+        coarsened_sites,
+        site_boundary_points,
+    )
 
     strip = shapely.box(0, 0, 2_000_000, 1)
     small = shapely.box(0, 10, 30, 40)

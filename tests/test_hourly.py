@@ -25,8 +25,13 @@ D = 3
 def _hours(directions, speed=5.0, stability=D, step_deg=None):
     n = len(directions)
     stability = np.broadcast_to(np.asarray(stability), (n,)).copy()
-    args = (np.arange(n).astype("datetime64[h]").astype("datetime64[s]"),
-            np.asarray(directions, float), np.full(n, speed), stability, np.full(n, np.nan))
+    args = (
+        np.arange(n).astype("datetime64[h]").astype("datetime64[s]"),
+        np.asarray(directions, float),
+        np.full(n, speed),
+        stability,
+        np.full(n, np.nan),
+    )
     if step_deg is None:  # the constructor as it was before direction_step_deg existed
         return HourlyWeather(*args)
     return HourlyWeather(*args, direction_step_deg=step_deg)
@@ -35,12 +40,14 @@ def _hours(directions, speed=5.0, stability=D, step_deg=None):
 def test_single_hour_is_the_gaussian_plume(briggs_rural, rural_exponents):
     """One hour from the north: the receptor 600 m south, 40 m east gets Turner Eq. 3.1 (analytic)."""
     settings = DispersionSettings(briggs_rural, rural_exponents, depletion_velocity_m_s=None)
-    c = element_hourly_mean_g_m3_per_g_s(np.array([40.0]), np.array([-600.0]),
-                                         ReleaseElement(0, 0, 10.0), _hours([0.0]), settings)
+    c = element_hourly_mean_g_m3_per_g_s(
+        np.array([40.0]), np.array([-600.0]), ReleaseElement(0, 0, 10.0), _hours([0.0]), settings
+    )
     sy, sz = briggs_rural.sigma_y_m(600.0, D), briggs_rural.sigma_z_m(600.0, D)
     assert_allclose(c, plume_concentration_g_m3(1.0, 5.0, 40.0, sy, sz, 10.0), rtol=1e-12)
-    upwind = element_hourly_mean_g_m3_per_g_s(np.array([0.0]), np.array([600.0]),
-                                              ReleaseElement(0, 0, 10.0), _hours([0.0]), settings)
+    upwind = element_hourly_mean_g_m3_per_g_s(
+        np.array([0.0]), np.array([600.0]), ReleaseElement(0, 0, 10.0), _hours([0.0]), settings
+    )
     assert upwind == 0.0
 
 
@@ -57,10 +64,12 @@ def test_uniform_directions_reproduce_the_sector_average(briggs_rural, rural_exp
     theta = np.linspace(0, 2 * np.pi, 25)[:-1]
     for r in (300.0, 1000.0, 2500.0):
         x, y = r * np.sin(theta), r * np.cos(theta)
-        hourly = element_hourly_mean_g_m3_per_g_s(x, y, ReleaseElement(0, 0, 5.0),
-                                                  _hours(np.arange(3600) * 0.1), settings)
-        sector = element_concentration_g_m3_per_g_s(x, y, ReleaseElement(0, 0, 5.0), table,
-                                                    settings)
+        hourly = element_hourly_mean_g_m3_per_g_s(
+            x, y, ReleaseElement(0, 0, 5.0), _hours(np.arange(3600) * 0.1), settings
+        )
+        sector = element_concentration_g_m3_per_g_s(
+            x, y, ReleaseElement(0, 0, 5.0), table, settings
+        )
         assert_allclose(hourly, sector, rtol=1e-3)
 
 
@@ -83,8 +92,7 @@ def test_window_wraps_round_north(briggs_rural, rural_exponents):
     settings = DispersionSettings(briggs_rural, rural_exponents, depletion_velocity_m_s=None)
     x = np.array([-30.0, 30.0])
     y = np.array([-800.0, -800.0])
-    c = element_hourly_mean_g_m3_per_g_s(x, y, ReleaseElement(0, 0, 3.0), _hours([0.0]),
-                                         settings)
+    c = element_hourly_mean_g_m3_per_g_s(x, y, ReleaseElement(0, 0, 3.0), _hours([0.0]), settings)
     assert c[0] > 0 and c[1] > 0
     assert_allclose(c[0], c[1], rtol=1e-12)  # symmetric in crosswind distance
 
@@ -105,10 +113,10 @@ def test_step_zero_is_the_old_engine(briggs_rural, rural_exponents):
     dirs = np.arange(36) * 10.0
     classes = np.arange(36) % 6
     el = ReleaseElement(0, 0, 6.0)
-    without = element_hourly_mean_g_m3_per_g_s(x, y, el, _hours(dirs, stability=classes),
-                                               settings)
-    zero = element_hourly_mean_g_m3_per_g_s(x, y, el, _hours(dirs, stability=classes,
-                                                             step_deg=0.0), settings)
+    without = element_hourly_mean_g_m3_per_g_s(x, y, el, _hours(dirs, stability=classes), settings)
+    zero = element_hourly_mean_g_m3_per_g_s(
+        x, y, el, _hours(dirs, stability=classes, step_deg=0.0), settings
+    )
     assert _hours(dirs).direction_step_deg == 0.0  # regression: the default is exact directions
     assert_array_equal(zero, without)  # regression: same code path, bit for bit
 
@@ -121,9 +129,11 @@ def test_spreading_conserves_mass_round_a_ring(briggs_rural, rural_exponents, st
     for r_m in (500.0, 2000.0):
         x, y, dtheta = _ring(r_m)
         exact, spread = (
-            element_hourly_mean_g_m3_per_g_s(x, y, el, _hours([270.0], stability=stability,
-                                                              step_deg=step), settings)
-            for step in (0.0, 10.0))
+            element_hourly_mean_g_m3_per_g_s(
+                x, y, el, _hours([270.0], stability=stability, step_deg=step), settings
+            )
+            for step in (0.0, 10.0)
+        )
         # conservation: the averaged lateral density integrates to 1 over r dpsi like the
         # Gaussian (small-angle limit); what differs is sy, sz taken at x = r cos(psi) over a
         # wider spread of psi, <= 5e-4 measured (class F, 2 km); the ring sum at 0.05 deg
@@ -140,8 +150,9 @@ def test_ten_degree_record_gives_a_smooth_arc(briggs_rural, rural_exponents):
     el = ReleaseElement(0, 0, 5.0)
     ratio = {}
     for step in (0.0, 10.0):
-        c = element_hourly_mean_g_m3_per_g_s(x, y, el, _hours(dirs, stability=classes,
-                                                               step_deg=step), settings)
+        c = element_hourly_mean_g_m3_per_g_s(
+            x, y, el, _hours(dirs, stability=classes, step_deg=step), settings
+        )
         ratio[step] = c.max() / c.min()
     # derived: the directions are uniform round the compass, so the true field on the arc is
     # uniform; with spreading only the along-wind sigma and the first-order crosswind shift
@@ -160,10 +171,12 @@ def test_spread_hour_is_the_mean_over_its_interval(briggs_rural, rural_exponents
     off_deg = np.array([0.0, 5.0, 2.5, -5.0, -2.5, 0.0, 5.0])  # on a spoke, between, the edge
     travel = np.deg2rad(90.0 + off_deg)  # wind from 270 travels to 90 deg
     x, y = r_m * np.sin(travel), r_m * np.cos(travel)
-    spread = element_hourly_mean_g_m3_per_g_s(x, y, el, _hours([270.0], stability=stability,
-                                                               step_deg=10.0), settings)
-    mean = element_hourly_mean_g_m3_per_g_s(x, y, el, _hours(np.linspace(265.0, 275.0, 201),
-                                                             stability=stability), settings)
+    spread = element_hourly_mean_g_m3_per_g_s(
+        x, y, el, _hours([270.0], stability=stability, step_deg=10.0), settings
+    )
+    mean = element_hourly_mean_g_m3_per_g_s(
+        x, y, el, _hours(np.linspace(265.0, 275.0, 201), stability=stability), settings
+    )
     # analytic: the spread is the average over the interval; tolerance: small-angle
     # approximation (sy, sz at the reported direction's along-wind distance, crosswind shift
     # to first order): 0.5 % measured; 201 directions 0.05 deg apart average to < 1e-4

@@ -53,16 +53,19 @@ def test_fine_table_agrees_with_hourly(record, tmp_path, briggs_rural, rural_exp
     table = _table(record, tmp_path, 36, np.arange(0.0, 30.5, 0.5))
     hourly, sector = _both(record, table, briggs_rural, rural_exponents, radius_m)
     assert_allclose(hourly.mean(), sector.mean(), rtol=1e-2)
-    assert_allclose(hourly.reshape(12, 6).mean(axis=1), sector.reshape(12, 6).mean(axis=1),
-                    rtol=6e-2)
+    assert_allclose(
+        hourly.reshape(12, 6).mean(axis=1), sector.reshape(12, 6).mean(axis=1), rtol=6e-2
+    )
 
 
 @pytest.mark.parametrize("radius_m", [500.0, 2000.0])
-def test_default_table_agrees_with_hourly(record, tmp_path, briggs_rural, rural_exponents,
-                                          radius_m):
+def test_default_table_agrees_with_hourly(
+    record, tmp_path, briggs_rural, rural_exponents, radius_m
+):
     """Default 12 sectors, 6 speed classes: rings within 3 %, arcs within 20 % (cross-check)."""
     table = _table(record, tmp_path, 12, (0.0, 1.5, 3.0, 5.0, 8.0, 11.0))
     hourly, sector = _both(record, table, briggs_rural, rural_exponents, radius_m)
     assert_allclose(hourly.mean(), sector.mean(), rtol=3e-2)
-    assert_allclose(hourly.reshape(12, 6).mean(axis=1), sector.reshape(12, 6).mean(axis=1),
-                    rtol=0.2)
+    assert_allclose(
+        hourly.reshape(12, 6).mean(axis=1), sector.reshape(12, 6).mean(axis=1), rtol=0.2
+    )

@@ -37,8 +37,13 @@ def _weather(n_sectors=16, speeds=(5.0,), seed=None, single=None):
 def _settings(scheme, exponents, vd=None, lid=None, wind="unchanged"):
     # the analytic checks below use the class speed as the wind at release height ("unchanged"
     # below the anemometer); test_power_law_wind_below_anemometer checks the default rule
-    return DispersionSettings(scheme=scheme, wind_exponents=exponents, mixing_height_m=lid,
-                              depletion_velocity_m_s=vd, wind_below_anemometer=wind)
+    return DispersionSettings(
+        scheme=scheme,
+        wind_exponents=exponents,
+        mixing_height_m=lid,
+        depletion_velocity_m_s=vd,
+        wind_below_anemometer=wind,
+    )
 
 
 def test_centre_line_gets_exactly_its_sector(briggs_rural, rural_exponents):
@@ -48,18 +53,26 @@ def test_centre_line_gets_exactly_its_sector(briggs_rural, rural_exponents):
     element = ReleaseElement(0.0, 0.0, 10.0)  # 10 m = anemometer height: u = class speed
     k = 5  # sector 5 blows FROM 112.5 deg, so the plume travels to 292.5 deg
     bearing = np.deg2rad(weather.sector_centres_deg[k] + 180.0)
-    node_m = np.exp(np.round(np.log(800.0) / settings.profile_log_step)
-                    * settings.profile_log_step)  # a node of the engine's radial profiles
+    node_m = np.exp(
+        np.round(np.log(800.0) / settings.profile_log_step) * settings.profile_log_step
+    )  # a node of the engine's radial profiles
     x = np.array([node_m, 800.0])
-    c = element_concentration_g_m3_per_g_s(x * np.sin(bearing), x * np.cos(bearing), element,
-                                           weather, settings)
+    c = element_concentration_g_m3_per_g_s(
+        x * np.sin(bearing), x * np.cos(bearing), element, weather, settings
+    )
     expected = 0.0
     for s in range(6):
         sz = briggs_rural.sigma_z_m(x, s)
         for j, u in enumerate(weather.speeds_m_s):
             expected += sector_average_concentration_g_m3(
-                1.0, weather.frequency_fraction[k, j, s], u, x, 2 * np.pi / 16, sz,
-                vertical_term(sz, 10.0))
+                1.0,
+                weather.frequency_fraction[k, j, s],
+                u,
+                x,
+                2 * np.pi / 16,
+                sz,
+                vertical_term(sz, 10.0),
+            )
     # on a node: the formula itself, to rounding; between nodes the engine interpolates
     # log-linearly in distance over 0.2 % steps (derived: error ~ h^2 / 8 x the profile's
     # curvature in log-log, h = 0.002; 1.1e-7 measured here)
@@ -71,9 +84,13 @@ def test_direction_convention_wind_from_north_blows_south(briggs_rural, rural_ex
     """Wind FROM 0 deg carries the plume to the south (direction convention, by definition)."""
     weather = _weather(n_sectors=8, single=(0, 0, D))
     settings = _settings(briggs_rural, rural_exponents)
-    c = element_concentration_g_m3_per_g_s(np.array([0.0, 0.0, 500.0]),
-                                           np.array([-500.0, 500.0, 0.0]),
-                                           ReleaseElement(0, 0, 5.0), weather, settings)
+    c = element_concentration_g_m3_per_g_s(
+        np.array([0.0, 0.0, 500.0]),
+        np.array([-500.0, 500.0, 0.0]),
+        ReleaseElement(0, 0, 5.0),
+        weather,
+        settings,
+    )
     assert c[0] > 0 and c[1] == 0 and c[2] == 0
 
 
@@ -84,8 +101,9 @@ def test_ring_flux_equals_emission_without_deposition(briggs_rural, rural_expone
     settings = _settings(briggs_rural, rural_exponents, lid=lid)
     x = 1500.0
     theta = np.linspace(0, 2 * np.pi, 7201)
-    c = element_concentration_g_m3_per_g_s(x * np.sin(theta), x * np.cos(theta),
-                                           ReleaseElement(0, 0, 10.0), weather, settings)
+    c = element_concentration_g_m3_per_g_s(
+        x * np.sin(theta), x * np.cos(theta), ReleaseElement(0, 0, 10.0), weather, settings
+    )
     ring = np.trapezoid(c * x, theta)
     sz = briggs_rural.sigma_z_m(x, D)
     assert_allclose(ring, ground_vertical_density_per_m(sz, 10.0, lid) / 5.0, rtol=1e-4)
@@ -99,8 +117,9 @@ def test_deposited_plus_airborne_equals_emitted(briggs_rural, rural_exponents):
     r = np.geomspace(0.5, radius, 1500)
     theta = np.linspace(0, 2 * np.pi, 721)
     rr, tt = np.meshgrid(r, theta, indexing="ij")
-    c = element_concentration_g_m3_per_g_s(rr * np.sin(tt), rr * np.cos(tt),
-                                           ReleaseElement(0, 0, height), weather, settings)
+    c = element_concentration_g_m3_per_g_s(
+        rr * np.sin(tt), rr * np.cos(tt), ReleaseElement(0, 0, height), weather, settings
+    )
     deposited = np.trapezoid(np.trapezoid(vd * c * rr, theta, axis=1), r)
     table = np.concatenate(([0.0], np.geomspace(0.01, radius, 100_000)))
     g = ground_vertical_density_per_m(np.maximum(briggs_rural.sigma_z_m(table, D), 1e-9), height)
@@ -117,10 +136,12 @@ def test_depletion_lowers_concentration_as_published(pasquill_gifford, rural_exp
     el = ReleaseElement(0, -0.0, 10.0)
     bearing = np.deg2rad(180.0)  # from north sector 0 -> travels south
     rx, ry = x * np.sin(bearing), x * np.cos(bearing)
-    with_dep = element_concentration_g_m3_per_g_s(rx, ry, el, weather,
-                                                  _settings(pasquill_gifford, rural_exponents, vd=0.02))
-    without = element_concentration_g_m3_per_g_s(rx, ry, el, weather,
-                                                 _settings(pasquill_gifford, rural_exponents))
+    with_dep = element_concentration_g_m3_per_g_s(
+        rx, ry, el, weather, _settings(pasquill_gifford, rural_exponents, vd=0.02)
+    )
+    without = element_concentration_g_m3_per_g_s(
+        rx, ry, el, weather, _settings(pasquill_gifford, rural_exponents)
+    )
     assert_allclose(with_dep / without, 7.740e-5 / 8.290e-5, rtol=2e-3)
 
 
@@ -129,30 +150,41 @@ def test_finite_non_negative_linear(briggs_rural, rural_exponents):
     weather = _weather(seed=3, speeds=(1.0, 3.0, 6.0))
     settings = _settings(briggs_rural, rural_exponents, vd=0.02)
     x, y = np.meshgrid(np.linspace(-300, 300, 25), np.linspace(-300, 300, 25))
-    for element in (ReleaseElement(0, 0, 0.0), ReleaseElement(0, 0, 6.0, 9.3, 2.79),
-                    ReleaseElement(0, 0, 8.0, diameter_m=0.8, exit_velocity_m_s=9.0)):
+    for element in (
+        ReleaseElement(0, 0, 0.0),
+        ReleaseElement(0, 0, 6.0, 9.3, 2.79),
+        ReleaseElement(0, 0, 8.0, diameter_m=0.8, exit_velocity_m_s=9.0),
+    ):
         c = element_concentration_g_m3_per_g_s(x, y, element, weather, settings)
         assert np.isfinite(c).all() and (c >= 0).all()
     half = [ReleaseElement(0, 0, 6.0, share_fraction=0.5)]
     whole = [ReleaseElement(0, 0, 6.0)]
-    assert_allclose(source_concentration_g_m3_per_g_s(x, y, half, weather, settings),
-                    0.5 * source_concentration_g_m3_per_g_s(x, y, whole, weather, settings),
-                    rtol=1e-12)
+    assert_allclose(
+        source_concentration_g_m3_per_g_s(x, y, half, weather, settings),
+        0.5 * source_concentration_g_m3_per_g_s(x, y, whole, weather, settings),
+        rtol=1e-12,
+    )
 
 
 def test_plume_rise_lowers_nearby_ground_concentration(briggs_rural, rural_exponents):
     """An exit velocity lifts the plume: lower ground-level values near the source (Briggs rise)."""
     weather = _weather()
     settings = _settings(briggs_rural, rural_exponents)
-    x = np.array([0.0]); y = np.array([-150.0])
+    x = np.array([0.0])
+    y = np.array([-150.0])
     flat = element_concentration_g_m3_per_g_s(x, y, ReleaseElement(0, 0, 8.0), weather, settings)
     jet = element_concentration_g_m3_per_g_s(
-        x, y, ReleaseElement(0, 0, 8.0, diameter_m=1.0, exit_velocity_m_s=10.0, plume_rise=True),
-        weather, settings)
+        x,
+        y,
+        ReleaseElement(0, 0, 8.0, diameter_m=1.0, exit_velocity_m_s=10.0, plume_rise=True),
+        weather,
+        settings,
+    )
     assert jet < flat
     # without plume_rise (an outlet in the building wake) the exit velocity changes nothing
     wake = element_concentration_g_m3_per_g_s(
-        x, y, ReleaseElement(0, 0, 8.0, diameter_m=1.0, exit_velocity_m_s=10.0), weather, settings)
+        x, y, ReleaseElement(0, 0, 8.0, diameter_m=1.0, exit_velocity_m_s=10.0), weather, settings
+    )
     assert wake == flat
 
 
@@ -167,15 +199,17 @@ def test_area_source_integrates_and_matches_point_far_away(briggs_rural, rural_e
     area = source_concentration_g_m3_per_g_s(*far, elements, weather, settings)
     point = source_concentration_g_m3_per_g_s(*far, [ReleaseElement(0, 0, 2.0)], weather, settings)
     assert_allclose(area, point, rtol=2e-2)
-    centre = source_concentration_g_m3_per_g_s(np.array([0.0]), np.array([0.0]), elements,
-                                               weather, settings)
+    centre = source_concentration_g_m3_per_g_s(
+        np.array([0.0]), np.array([0.0]), elements, weather, settings
+    )
     assert np.isfinite(centre).all()
 
 
 def test_rectangle_orientation():
     """angle_deg turns the length axis clockwise from north (90 deg: length runs east-west)."""
     els = rectangle_elements(0.0, 0.0, 10.0, 100.0, 90.0, 1.0, element_size_m=10.0)
-    xs = np.array([e.x_m for e in els]); ys = np.array([e.y_m for e in els])
+    xs = np.array([e.x_m for e in els])
+    ys = np.array([e.y_m for e in els])
     assert np.ptp(xs) == pytest.approx(90.0) and np.ptp(ys) == pytest.approx(0.0, abs=1e-9)
 
 
@@ -192,11 +226,13 @@ def test_volume_source_ring_flux_equals_emission(briggs_rural, rural_exponents):
 
     xz = virtual_distance_m(2.8, lambda x: briggs_rural.sigma_z_m(x, D))
     for x in (200.0, 1500.0):
-        c = element_concentration_g_m3_per_g_s(x * np.sin(theta), x * np.cos(theta), element,
-                                               weather, settings)
+        c = element_concentration_g_m3_per_g_s(
+            x * np.sin(theta), x * np.cos(theta), element, weather, settings
+        )
         sz = briggs_rural.sigma_z_m(x + xz, D)
-        assert_allclose(np.trapezoid(c * x, theta),
-                        ground_vertical_density_per_m(sz, 5.0) / 5.0, rtol=1e-4)
+        assert_allclose(
+            np.trapezoid(c * x, theta), ground_vertical_density_per_m(sz, 5.0) / 5.0, rtol=1e-4
+        )
 
 
 def test_power_law_wind_below_anemometer(briggs_rural, rural_exponents):
@@ -207,8 +243,13 @@ def test_power_law_wind_below_anemometer(briggs_rural, rural_exponents):
     for s, ratio in ((3, 1 / 0.90125), (5, 1 / 0.68302)):
         weather = _weather(speeds=(4.0,), single=(0, 0, s))
         low = element_concentration_g_m3_per_g_s(
-            x, y, ReleaseElement(0, 0, 5.0), weather, _settings(briggs_rural, rural_exponents,
-                                                                wind="power_law"))
+            x,
+            y,
+            ReleaseElement(0, 0, 5.0),
+            weather,
+            _settings(briggs_rural, rural_exponents, wind="power_law"),
+        )
         kept = element_concentration_g_m3_per_g_s(
-            x, y, ReleaseElement(0, 0, 5.0), weather, _settings(briggs_rural, rural_exponents))
+            x, y, ReleaseElement(0, 0, 5.0), weather, _settings(briggs_rural, rural_exponents)
+        )
         assert_allclose(low / kept, ratio, rtol=1e-4)  # hand values to 5 s.f.

@@ -95,8 +95,7 @@ def test_overwrite_refuses_a_folder_siting_did_not_write(tmp_path):
     assert [p.name for p in notes.iterdir()] == ["letter.docx"]
 
 
-def test_overwrite_refuses_the_current_folder_its_parents_and_input_folders(tmp_path,
-                                                                            monkeypatch):
+def test_overwrite_refuses_the_current_folder_its_parents_and_input_folders(tmp_path, monkeypatch):
     """Never the current folder or a parent of it, never a folder holding an input, even one
     siting wrote (an output folder whose inputs/ copy is being re-run)."""
     work = _old_result(tmp_path / "work")
@@ -134,8 +133,13 @@ def test_csv_text_that_a_spreadsheet_would_evaluate_is_made_literal(tmp_path):
     from siting.outputs import write_csv
     from siting.verify import _read_csv
 
-    frame = pd.DataFrame({"name": ['=HYPERLINK("http://x","y")', "+cmd", "Moss", "-3.5"],
-                          "x_m": [-12.5, 1.0, 2.0, 3.0], "value": [-1.0, 2.0, 3.0, 4.0]})
+    frame = pd.DataFrame(
+        {
+            "name": ['=HYPERLINK("http://x","y")', "+cmd", "Moss", "-3.5"],
+            "x_m": [-12.5, 1.0, 2.0, 3.0],
+            "value": [-1.0, 2.0, 3.0, 4.0],
+        }
+    )
     write_csv(frame, tmp_path / "t.csv")
     text = (tmp_path / "t.csv").read_text(encoding="utf-8")
     assert "'=HYPERLINK" in text and "'+cmd" in text and ",-12.50," in text
@@ -200,15 +204,19 @@ def test_a_second_run_into_a_folder_being_written_stops_with_a_line(tmp_path):
     import sys
 
     out_dir = tmp_path / "out"
-    holder = subprocess.Popen([sys.executable, "-c", _HOLDER, str(out_dir)],
-                              stdin=subprocess.PIPE, stdout=subprocess.PIPE, text=True)
+    holder = subprocess.Popen(
+        [sys.executable, "-c", _HOLDER, str(out_dir)],
+        stdin=subprocess.PIPE,
+        stdout=subprocess.PIPE,
+        text=True,
+    )
     try:
         assert holder.stdout.readline().strip() == "writing"  # synchronised, not timed
         message = rf"another siting run \(process {holder.pid}\) is writing this folder now"
         with pytest.raises(OutputExistsError, match=message):
             check_output_dir(out_dir, overwrite=True)
         with pytest.raises(OutputExistsError, match=message):
-            with staged_folder(out_dir, overwrite=True) as staging:
+            with staged_folder(out_dir, overwrite=True):
                 pass
         holder.communicate("go\n", timeout=60)
     finally:
@@ -224,8 +232,12 @@ def test_a_lock_left_by_a_dead_run_is_taken_over(tmp_path):
     import subprocess
     import sys
 
-    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
-                          capture_output=True, text=True, check=True)
+    dead = subprocess.run(
+        [sys.executable, "-c", "import os; print(os.getpid())"],
+        capture_output=True,
+        text=True,
+        check=True,
+    )
     out_dir = tmp_path / "out"
     (tmp_path / ".out.lock").write_text(json.dumps({"pid": int(dead.stdout)}), encoding="utf-8")
     with staged_folder(out_dir, overwrite=False) as staging:
@@ -240,8 +252,9 @@ def test_too_little_free_space_is_refused_before_any_work(tmp_path, monkeypatch)
     from collections import namedtuple
 
     usage = namedtuple("usage", "total used free")
-    monkeypatch.setattr(shutil, "disk_usage", lambda path: usage(10**9, 10**9 - 5_000_000,
-                                                                 5_000_000))
+    monkeypatch.setattr(
+        shutil, "disk_usage", lambda path: usage(10**9, 10**9 - 5_000_000, 5_000_000)
+    )
     with pytest.raises(OutputExistsError, match=r"not enough free space .*MB needed, 5 MB free"):
         check_output_dir(tmp_path / "out", overwrite=False, need_bytes=1_000_000)
     old = _old_result(tmp_path / "old")

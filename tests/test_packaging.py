@@ -20,23 +20,30 @@ from pathlib import Path
 import pytest
 
 REPO = Path(__file__).resolve().parents[1]
-BUNDLED = ["siting/_bundled/config/emission_factors.toml",
-           "siting/_bundled/data_demo/scenario.toml"]
+BUNDLED = [
+    "siting/_bundled/config/emission_factors.toml",
+    "siting/_bundled/data_demo/scenario.toml",
+]
 
 pytestmark = pytest.mark.slow
 
 
 def _run(cmd: list[str], timeout_s: float, **kwargs) -> subprocess.CompletedProcess:
     done = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout_s, **kwargs)
-    assert done.returncode == 0, (f"{' '.join(map(str, cmd))} exited {done.returncode}\n"
-                                  f"{done.stdout[-3000:]}\n{done.stderr[-3000:]}")
+    assert done.returncode == 0, (
+        f"{' '.join(map(str, cmd))} exited {done.returncode}\n"
+        f"{done.stdout[-3000:]}\n{done.stderr[-3000:]}"
+    )
     return done
 
 
 def _clean_env() -> dict[str, str]:
     """The environment without anything that would point Python at this checkout."""
-    env = {k: v for k, v in os.environ.items()
-           if k not in ("PYTHONPATH", "PYTHONHOME", "VIRTUAL_ENV", "PYTHONSTARTUP")}
+    env = {
+        k: v
+        for k, v in os.environ.items()
+        if k not in ("PYTHONPATH", "PYTHONHOME", "VIRTUAL_ENV", "PYTHONSTARTUP")
+    }
     env["PYTHONNOUSERSITE"] = "1"
     return env
 
@@ -47,8 +54,11 @@ def wheel(tmp_path_factory) -> Path:
     if importlib.util.find_spec("build") is None:
         pytest.skip("the 'build' package is not installed (pip install build)")
     outdir = tmp_path_factory.mktemp("dist")
-    _run([sys.executable, "-m", "build", "--wheel", "--outdir", str(outdir), str(REPO)],
-         timeout_s=600, cwd=REPO)
+    _run(
+        [sys.executable, "-m", "build", "--wheel", "--outdir", str(outdir), str(REPO)],
+        timeout_s=600,
+        cwd=REPO,
+    )
     wheels = list(outdir.glob("siting-*.whl"))
     assert len(wheels) == 1, wheels
     return wheels[0]
@@ -63,8 +73,19 @@ def installed(wheel, tmp_path_factory) -> Path:
     venv.EnvBuilder(with_pip=True, clear=True).create(home)
     bindir = home / ("Scripts" if os.name == "nt" else "bin")
     python = bindir / ("python.exe" if os.name == "nt" else "python")
-    _run([str(python), "-m", "pip", "install", "--prefer-binary", "--disable-pip-version-check",
-          str(wheel)], timeout_s=900, env=_clean_env())
+    _run(
+        [
+            str(python),
+            "-m",
+            "pip",
+            "install",
+            "--prefer-binary",
+            "--disable-pip-version-check",
+            str(wheel),
+        ],
+        timeout_s=900,
+        env=_clean_env(),
+    )
     return bindir
 
 
@@ -78,8 +99,14 @@ def test_wheel_bundles_config_and_demo(wheel):
 def test_wheel_carries_the_map_assets(wheel):
     """The vendored Leaflet and jQuery (inlined into map.html) and their licences are packed."""
     names = set(zipfile.ZipFile(wheel).namelist())
-    for name in ("leaflet/leaflet.js", "leaflet/leaflet.css", "leaflet/LICENSE",
-                 "leaflet/images/layers.png", "jquery/jquery.slim.min.js", "jquery/LICENSE.txt"):
+    for name in (
+        "leaflet/leaflet.js",
+        "leaflet/leaflet.css",
+        "leaflet/LICENSE",
+        "leaflet/images/layers.png",
+        "jquery/jquery.slim.min.js",
+        "jquery/LICENSE.txt",
+    ):
         assert f"siting/_assets/{name}" in names
 
 

@@ -55,9 +55,10 @@ def test_required_reduction_reproduces_the_threshold(demo_place, tmp_path):
     kg = row["nh3_unabated_kg_yr"] * (1 - worst["required_reduction_percent"] / 100)
     path = _single_house_scenario(tmp_path, worst["x"], worst["y"])
     text = path.read_text()
-    text = re.sub(r'\nlivestock = .*\nhousing = .*\nplaces = .*\n', f"\nnh3_kg_per_year = {kg}\n",
-                  text)
-    text = re.sub(r'\nabatement = .*\n', "\n", text)
+    text = re.sub(
+        r"\nlivestock = .*\nhousing = .*\nplaces = .*\n", f"\nnh3_kg_per_year = {kg}\n", text
+    )
+    text = re.sub(r"\nabatement = .*\n", "\n", text)
     path.write_text(text)
     sites = screen(path).sites
     share = np.maximum(sites["pc_pct_level"], sites["pc_pct_load"]) / sites["threshold_percent"]
@@ -68,9 +69,10 @@ def test_max_places_reproduce_the_threshold(demo_place, tmp_path):
     """The worst position with max_places_unabated places and no abatement: at the threshold."""
     worst = demo_place.positions.iloc[-1]
     path = _single_house_scenario(tmp_path, worst["x"], worst["y"])
-    text = re.sub(r"\nplaces = [0-9.]+", f"\nplaces = {int(worst['max_places_unabated'])}",
-                  path.read_text())
-    text = re.sub(r'\nabatement = .*\n', "\n", text)
+    text = re.sub(
+        r"\nplaces = [0-9.]+", f"\nplaces = {int(worst['max_places_unabated'])}", path.read_text()
+    )
+    text = re.sub(r"\nabatement = .*\n", "\n", text)
     path.write_text(text)
     sites = screen(path).sites
     share = np.maximum(sites["pc_pct_level"], sites["pc_pct_load"]) / sites["threshold_percent"]
@@ -97,8 +99,9 @@ def test_bad_holdings_are_refused(tmp_path):
     folder = tmp_path / "d"
     shutil.copytree(demo_dir(), folder)
     scenario = folder / "scenario.toml"
-    line = gpd.GeoDataFrame(geometry=[shapely.LineString([(499800, 5799800), (500200, 5800000)])],
-                            crs="EPSG:32632")
+    line = gpd.GeoDataFrame(
+        geometry=[shapely.LineString([(499800, 5799800), (500200, 5800000)])], crs="EPSG:32632"
+    )
     line.to_file(folder / "line.gpkg")
     text = scenario.read_text()
     scenario.write_text(text.replace('file = "holding.gpkg"', 'file = "line.gpkg"'))
@@ -125,13 +128,30 @@ def test_place_command_writes_its_outputs(tmp_path):
     from siting.cli import main
 
     out = tmp_path / "out"
-    rc = main(["place", str(demo_dir() / "scenario.toml"), "--house", "H2", "--out", str(out),
-               "--spacing", "25", "--quiet"])
+    rc = main(
+        [
+            "place",
+            str(demo_dir() / "scenario.toml"),
+            "--house",
+            "H2",
+            "--out",
+            str(out),
+            "--spacing",
+            "25",
+            "--quiet",
+        ]
+    )
     assert rc == 0
     table = pd.read_csv(out / "positions.csv")
-    assert list(table.columns[:7]) == ["x", "y", "worst_site", "worst_pct_load",
-                                       "worst_pct_level", "required_reduction_percent",
-                                       "max_places_unabated"]
+    assert list(table.columns[:7]) == [
+        "x",
+        "y",
+        "worst_site",
+        "worst_pct_load",
+        "worst_pct_level",
+        "required_reduction_percent",
+        "max_places_unabated",
+    ]
     assert "max_places_acid_scrubber" in table.columns
     assert table["limiting_share_of_threshold"].is_monotonic_increasing  # ranked best first
     with rasterio.open(out / "suitability.tif") as src:

@@ -42,8 +42,9 @@ BRIGGS_URBAN = {
 }
 
 
-@pytest.mark.parametrize("table,fixture", [(BRIGGS_RURAL, "briggs_rural"),
-                                           (BRIGGS_URBAN, "briggs_urban")])
+@pytest.mark.parametrize(
+    "table,fixture", [(BRIGGS_RURAL, "briggs_rural"), (BRIGGS_URBAN, "briggs_urban")]
+)
 def test_briggs_sigmas_match_tabulated_values(table, fixture, request):
     """Briggs1973 rural and urban sigma_y/sigma_z at 100 m, 1 km, 10 km (derived check values)."""
     scheme = request.getfixturevalue(fixture)
@@ -156,12 +157,15 @@ def test_sector_average_coefficient_2032():
     assert_allclose(c, 1.266e-5, rtol=5e-4)  # REFERENCES 3a check value, P-G D at 1 km (derived)
 
 
-@pytest.mark.parametrize("s,x_m,expected", [(C, 500.0, 2.506e-5), (D, 100.0, 8.737e-4),
-                                            (F, 1000.0, 2.912e-5)])
+@pytest.mark.parametrize(
+    "s,x_m,expected", [(C, 500.0, 2.506e-5), (D, 100.0, 8.737e-4), (F, 1000.0, 2.912e-5)]
+)
 def test_sector_average_check_values(pasquill_gifford, s, x_m, expected):
     """Sector-averaged C, Q 1 g/s, u 5 m/s, f 1, H 0, P-G sz (derived from EPA1995 formula)."""
     sz = pasquill_gifford.sigma_z_m(x_m, s)
-    c = sector_average_concentration_g_m3(1.0, 1.0, 5.0, x_m, 2 * np.pi / 16, sz, vertical_term(sz, 0.0))
+    c = sector_average_concentration_g_m3(
+        1.0, 1.0, 5.0, x_m, 2 * np.pi / 16, sz, vertical_term(sz, 0.0)
+    )
     assert_allclose(c, expected, rtol=1e-3)
 
 

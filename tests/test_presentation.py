@@ -39,4 +39,3 @@ def test_format_number_significant_digits():
     assert format_number(1234.5) == "1230"
     assert format_number(np.nan, "%") == "n/a"
     assert format_number(0.0) == "0"
-

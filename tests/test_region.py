@@ -65,8 +65,14 @@ def _farms(n: int, seed: int, half_side_m: float = 3500.0) -> gpd.GeoDataFrame:
         if sites.contains(Point(x, y)):
             continue
         geom = Point(x, y) if len(rows) % 3 else box(x - 10, y - 25, x + 10, y + 25)
-        rows.append({"id": f"T{len(rows) + 1}", "nh3_kg_per_year": rng.uniform(300, 6000),
-                     "height_m": float(rng.choice([4.0, 6.0])), "geometry": geom})
+        rows.append(
+            {
+                "id": f"T{len(rows) + 1}",
+                "nh3_kg_per_year": rng.uniform(300, 6000),
+                "height_m": float(rng.choice([4.0, 6.0])),
+                "geometry": geom,
+            }
+        )
     return gpd.GeoDataFrame(rows, geometry="geometry", crs=CRS)
 
 
@@ -96,9 +102,19 @@ def test_cli_region_on_the_demo(tmp_path):
 
     out = tmp_path / "region"
     demo = demo_dir()
-    code = main(["region", str(demo / "region_farms.gpkg"), "--weather",
-                 str(demo / "weather_table.csv"), "--habitats",
-                 str(demo / "region_habitats.gpkg"), "--out", str(out), "--quiet"])
+    code = main(
+        [
+            "region",
+            str(demo / "region_farms.gpkg"),
+            "--weather",
+            str(demo / "weather_table.csv"),
+            "--habitats",
+            str(demo / "region_habitats.gpkg"),
+            "--out",
+            str(out),
+            "--quiet",
+        ]
+    )
     assert code == 0
     for name, units in (("deposition.tif", "kg N/ha/yr"), ("concentration.tif", "ug/m3")):
         with rasterio.open(out / name) as src:
@@ -132,29 +148,33 @@ def test_tiled_equals_in_memory(plain, farms_file, weather_csv, habitats):
     a, b = tiled.concentration_ug_m3, plain.concentration_ug_m3
     # cross-check: the same sum split by tiles and blocks; FFT round-off relative to the peak
     assert_allclose(a, b, rtol=1e-12, atol=1e-14 * b.max())
-    assert_allclose(tiled.sites["pc_dep_max_kg_n_ha_yr"], plain.sites["pc_dep_max_kg_n_ha_yr"],
-                    rtol=0, atol=0)  # site figures do not depend on the tiles
+    assert_allclose(
+        tiled.sites["pc_dep_max_kg_n_ha_yr"], plain.sites["pc_dep_max_kg_n_ha_yr"], rtol=0, atol=0
+    )  # site figures do not depend on the tiles
 
 
 @pytest.mark.parametrize("scheduler", ["threads", "synchronous"])
 def test_dask_run_is_identical_to_plain(plain, farms_file, weather_csv, habitats, scheduler):
     """Dask threads (2 workers) or its synchronous scheduler: the very same numbers."""
-    run = _run(farms_file, weather_csv, habitats, top=100, scheduler=scheduler, workers=2,
-               tile_size=48)
+    run = _run(
+        farms_file, weather_csv, habitats, top=100, scheduler=scheduler, workers=2, tile_size=48
+    )
     again = _run(farms_file, weather_csv, habitats, top=100, tile_size=48)
     assert np.array_equal(run.concentration_ug_m3, again.concentration_ug_m3)
-    pd.testing.assert_frame_equal(pd.DataFrame(run.sites.drop(columns="geometry")),
-                                  pd.DataFrame(plain.sites.drop(columns="geometry")))
+    pd.testing.assert_frame_equal(
+        pd.DataFrame(run.sites.drop(columns="geometry")),
+        pd.DataFrame(plain.sites.drop(columns="geometry")),
+    )
     pd.testing.assert_frame_equal(run.contributors, plain.contributors)
 
 
 def test_distributed_run_is_identical_to_plain(plain, farms_file, weather_csv, habitats):
     """A dask.distributed scheduler address (an in-process local cluster) gives the same run."""
     distributed = pytest.importorskip("distributed")
-    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False,
-                                  dashboard_address=None) as cluster:
-        run = _run(farms_file, weather_csv, habitats, top=100,
-                   scheduler=cluster.scheduler_address)
+    with distributed.LocalCluster(
+        n_workers=1, threads_per_worker=2, processes=False, dashboard_address=None
+    ) as cluster:
+        run = _run(farms_file, weather_csv, habitats, top=100, scheduler=cluster.scheduler_address)
     assert np.array_equal(run.concentration_ug_m3, plain.concentration_ug_m3)
     pd.testing.assert_frame_equal(run.contributors, plain.contributors)
 
@@ -176,12 +196,23 @@ def test_large_grid_is_tiled_within_the_memory_budget(farms_file, weather_csv, h
     inputs = prepare_region(farms_file, weather_csv, habitats, options)
     grid = inputs.grid
     n_classes = len(inputs.classes)
-    whole = plan_tiles(grid.n_rows, grid.n_cols, n_classes, grid.n_rows - 1, grid.n_cols - 1,
-                       1e12, 2, 1e6, n_farms=24, window_cells=10)
+    whole = plan_tiles(
+        grid.n_rows,
+        grid.n_cols,
+        n_classes,
+        grid.n_rows - 1,
+        grid.n_cols - 1,
+        1e12,
+        2,
+        1e6,
+        n_farms=24,
+        window_cells=10,
+    )
     assert whole.n_tiles == 1
     budget_mb = 0.8 * whole.peak_bytes / 1e6  # one tile does not fit
-    inputs.options = RegionOptions(spacing_m=50.0, margin_m=1000.0, scheduler="threads",
-                                   workers=2, memory_mb=budget_mb)
+    inputs.options = RegionOptions(
+        spacing_m=50.0, margin_m=1000.0, scheduler="threads", workers=2, memory_mb=budget_mb
+    )
     tracemalloc.start()
     try:
         result = compute_region(inputs)
@@ -190,8 +221,10 @@ def test_large_grid_is_tiled_within_the_memory_budget(farms_file, weather_csv, h
         tracemalloc.stop()
     assert result.plan.n_tiles > 1
     assert result.plan.peak_bytes <= budget_mb * 1e6
-    print(f"budget {budget_mb:.1f} MB, estimate {result.plan.peak_bytes / 1e6:.1f} MB, traced "
-          f"peak {peak / 1e6:.1f} MB, {result.plan.n_tiles} tiles")
+    print(
+        f"budget {budget_mb:.1f} MB, estimate {result.plan.peak_bytes / 1e6:.1f} MB, traced "
+        f"peak {peak / 1e6:.1f} MB, {result.plan.n_tiles} tiles"
+    )
     assert peak < budget_mb * 1e6, f"traced peak {peak / 1e6:.1f} MB > budget {budget_mb:.1f} MB"
 
 
@@ -218,8 +251,9 @@ def test_contributors_add_up_to_the_site_total(plain):
     for site_id, group in plain.contributors.groupby("site_id"):
         assert len(group) == 24  # top=100 lists all 24 farms
         # conservation: the total is the sum of the farms' own direct sums at that point
-        assert_allclose(group["dep_kg_n_ha_yr"].sum(), sites.loc[site_id, "pc_dep_max_kg_n_ha_yr"],
-                        rtol=1e-12)
+        assert_allclose(
+            group["dep_kg_n_ha_yr"].sum(), sites.loc[site_id, "pc_dep_max_kg_n_ha_yr"], rtol=1e-12
+        )
         assert_allclose(group["share_of_site_total_percent"].sum(), 100.0, rtol=1e-12)
         assert (np.diff(group["dep_kg_n_ha_yr"]) <= 0).all()  # ranked, largest first
 
@@ -232,8 +266,12 @@ def test_site_maximum_is_the_direct_sum_of_the_farms(plain):
         total = 0.0
         for farm in farms.itertuples():
             unit = offset_concentration_g_m3_per_g_s(
-                np.array([site.max_x_m - farm.x_m]), np.array([site.max_y_m - farm.y_m]),
-                farm.release_class.elements(), inputs.weather, inputs.settings)
+                np.array([site.max_x_m - farm.x_m]),
+                np.array([site.max_y_m - farm.y_m]),
+                farm.release_class.elements(),
+                inputs.weather,
+                inputs.settings,
+            )
             total += farm.emission_g_s * unit[0] * UG_PER_G
         # cross-check: the same per-pair values (fixed profile nodes), summed in another order
         assert_allclose(site.pc_conc_max_ug_m3, total, rtol=1e-12)
@@ -243,19 +281,30 @@ def test_grid_is_the_direct_sum_when_the_near_field_covers_it(weather_csv, tmp_p
     """Near-field windows as wide as the grid: every cell is the direct per-farm sum (1e-9)."""
     path = tmp_path / "farms.gpkg"
     _farms(6, seed=3, half_side_m=2000.0).to_file(path, driver="GPKG")
-    result = region(path, weather_csv, None, RegionOptions(spacing_m=200.0, margin_m=600.0,
-                                                           scheduler=None,
-                                                           near_field_cells=100))
+    result = region(
+        path,
+        weather_csv,
+        None,
+        RegionOptions(spacing_m=200.0, margin_m=600.0, scheduler=None, near_field_cells=100),
+    )
     grid, inputs = result.grid, result.inputs
     gx, gy = grid.centres()
-    direct = sum(f.emission_g_s * offset_concentration_g_m3_per_g_s(
-        gx - f.x_m, gy - f.y_m, f.release_class.elements(), inputs.weather, inputs.settings)
-        for f in inputs.farms.itertuples()) * UG_PER_G
+    direct = (
+        sum(
+            f.emission_g_s
+            * offset_concentration_g_m3_per_g_s(
+                gx - f.x_m, gy - f.y_m, f.release_class.elements(), inputs.weather, inputs.settings
+            )
+            for f in inputs.farms.itertuples()
+        )
+        * UG_PER_G
+    )
     # cross-check: FFT round-off only, relative to the peak for the smallest cells
     assert_allclose(result.concentration_ug_m3, direct, rtol=1e-9, atol=1e-12 * direct.max())
     # and with the default 10-cell window, the bilinear placement error (measured <= 1.5 %)
-    default = region(path, weather_csv, None, RegionOptions(spacing_m=200.0, margin_m=600.0,
-                                                            scheduler=None))
+    default = region(
+        path, weather_csv, None, RegionOptions(spacing_m=200.0, margin_m=600.0, scheduler=None)
+    )
     assert_allclose(default.concentration_ug_m3, direct, rtol=0.02, atol=1e-9 * direct.max())
 
 
@@ -277,13 +326,24 @@ def _layer(tmp_path, rows, crs=CRS, name="farms.gpkg"):
 
 def test_defaults_and_classes(tmp_path, tables):
     """Points default to 6 m, polygons to 4 m; a polygon's class side is its area's ladder step."""
-    path = _layer(tmp_path, [
-        {"id": "A", "nh3_kg_per_year": 1000.0, "height_m": None,
-         "geometry": Point(*CENTRE)},
-        {"id": "B", "nh3_kg_per_year": 2000.0, "height_m": None,
-         "geometry": box(CENTRE[0] + 500, CENTRE[1], CENTRE[0] + 520, CENTRE[1] + 40)},
-        {"id": "C", "nh3_kg_per_year": 500.0, "height_m": 7.8,
-         "geometry": Point(CENTRE[0], CENTRE[1] + 900)}])
+    path = _layer(
+        tmp_path,
+        [
+            {"id": "A", "nh3_kg_per_year": 1000.0, "height_m": None, "geometry": Point(*CENTRE)},
+            {
+                "id": "B",
+                "nh3_kg_per_year": 2000.0,
+                "height_m": None,
+                "geometry": box(CENTRE[0] + 500, CENTRE[1], CENTRE[0] + 520, CENTRE[1] + 40),
+            },
+            {
+                "id": "C",
+                "nh3_kg_per_year": 500.0,
+                "height_m": 7.8,
+                "geometry": Point(CENTRE[0], CENTRE[1] + 900),
+            },
+        ],
+    )
     farms, crs, _ = read_farms(path, tables)
     assert crs.endswith("32632")
     assert list(farms["kind"]) == ["point", "volume", "point"]
@@ -295,13 +355,29 @@ def test_defaults_and_classes(tmp_path, tables):
 
 def test_livestock_fields_give_the_emission(tmp_path, tables):
     """An empty emission with livestock, housing, places: factor x places, less abatement."""
-    path = _layer(tmp_path, [
-        {"id": "P", "nh3_kg_per_year": None, "livestock": "finishing_pig",
-         "housing": "fully_slatted", "places": 1000.0, "abatement": None,
-         "geometry": Point(*CENTRE)},
-        {"id": "Q", "nh3_kg_per_year": None, "livestock": "finishing_pig",
-         "housing": "fully_slatted", "places": 1000.0, "abatement": "acid_scrubber",
-         "geometry": Point(CENTRE[0] + 800, CENTRE[1])}])
+    path = _layer(
+        tmp_path,
+        [
+            {
+                "id": "P",
+                "nh3_kg_per_year": None,
+                "livestock": "finishing_pig",
+                "housing": "fully_slatted",
+                "places": 1000.0,
+                "abatement": None,
+                "geometry": Point(*CENTRE),
+            },
+            {
+                "id": "Q",
+                "nh3_kg_per_year": None,
+                "livestock": "finishing_pig",
+                "housing": "fully_slatted",
+                "places": 1000.0,
+                "abatement": "acid_scrubber",
+                "geometry": Point(CENTRE[0] + 800, CENTRE[1]),
+            },
+        ],
+    )
     farms, _, _ = read_farms(path, tables)
     assert farms["nh3_kg_yr"][0] == pytest.approx(2813.0)  # EA2024: 2.813 kg/place/yr x 1000
     # no reduction stated: the lower end of the acid scrubber's range (BATc2017 4.11, 70 %;
@@ -321,8 +397,11 @@ def test_no_emission_field_is_an_input_error(tmp_path, tables):
 
 def test_geographic_crs_is_an_input_error(tmp_path, tables):
     """A farms layer in degrees: InputError asking for --crs; with --crs it is reprojected."""
-    path = _layer(tmp_path, [{"id": "A", "nh3_kg_per_year": 900.0,
-                              "geometry": Point(9.0, 52.3)}], crs="EPSG:4326")
+    path = _layer(
+        tmp_path,
+        [{"id": "A", "nh3_kg_per_year": 900.0, "geometry": Point(9.0, 52.3)}],
+        crs="EPSG:4326",
+    )
     with pytest.raises(InputError, match="geographic.*--crs"):
         read_farms(path, tables)
     farms, _, _ = read_farms(path, tables, crs="EPSG:32632")
@@ -331,18 +410,38 @@ def test_geographic_crs_is_an_input_error(tmp_path, tables):
         read_farms(path, tables, crs="EPSG:4326")
 
 
-@pytest.mark.parametrize("row, message", [
-    ({"id": "A", "nh3_kg_per_year": -5.0, "geometry": Point(*CENTRE)},
-     'farm "A": nh3_kg_per_year must be a number >= 0'),
-    ({"id": "A", "nh3_kg_per_year": 5.0, "height_m": 250.0, "geometry": Point(*CENTRE)},
-     'farm "A": height_m must be a number >= 0 and <= 100'),
-    ({"id": "A", "nh3_kg_per_year": 5.0,
-      "geometry": LineString([CENTRE, (CENTRE[0] + 10, CENTRE[1])])},
-     'farm "A": geometry is a LineString'),
-    ({"id": "A", "nh3_kg_per_year": None, "livestock": "finishing_pigs",
-      "housing": "fully_slatted", "places": 10.0, "geometry": Point(*CENTRE)},
-     'did you mean "finishing_pig"'),
-])
+@pytest.mark.parametrize(
+    "row, message",
+    [
+        (
+            {"id": "A", "nh3_kg_per_year": -5.0, "geometry": Point(*CENTRE)},
+            'farm "A": nh3_kg_per_year must be a number >= 0',
+        ),
+        (
+            {"id": "A", "nh3_kg_per_year": 5.0, "height_m": 250.0, "geometry": Point(*CENTRE)},
+            'farm "A": height_m must be a number >= 0 and <= 100',
+        ),
+        (
+            {
+                "id": "A",
+                "nh3_kg_per_year": 5.0,
+                "geometry": LineString([CENTRE, (CENTRE[0] + 10, CENTRE[1])]),
+            },
+            'farm "A": geometry is a LineString',
+        ),
+        (
+            {
+                "id": "A",
+                "nh3_kg_per_year": None,
+                "livestock": "finishing_pigs",
+                "housing": "fully_slatted",
+                "places": 10.0,
+                "geometry": Point(*CENTRE),
+            },
+            'did you mean "finishing_pig"',
+        ),
+    ],
+)
 def test_bad_farm_values_name_the_farm(tmp_path, tables, row, message):
     """A bad value, geometry or livestock id: InputError naming the farm and the field."""
     path = _layer(tmp_path, [row])
@@ -352,9 +451,13 @@ def test_bad_farm_values_name_the_farm(tmp_path, tables, row, message):
 
 def test_duplicate_ids_and_missing_file(tmp_path, tables):
     """Two farms with one id, or a file that is not there: clear errors."""
-    path = _layer(tmp_path, [{"id": "A", "nh3_kg_per_year": 5.0, "geometry": Point(*CENTRE)},
-                             {"id": "A", "nh3_kg_per_year": 6.0,
-                              "geometry": Point(CENTRE[0] + 100, CENTRE[1])}])
+    path = _layer(
+        tmp_path,
+        [
+            {"id": "A", "nh3_kg_per_year": 5.0, "geometry": Point(*CENTRE)},
+            {"id": "A", "nh3_kg_per_year": 6.0, "geometry": Point(CENTRE[0] + 100, CENTRE[1])},
+        ],
+    )
     with pytest.raises(InputError, match='duplicate farm id "A"'):
         read_farms(path, tables)
     with pytest.raises(InputFileError, match="not found"):
@@ -371,10 +474,15 @@ def test_options_are_checked():
 
 def test_cli_bad_input_exits_2(tmp_path, weather_csv, capsys):
     """A geographic farms layer: exit code 2, one line on stderr, nothing written."""
-    path = _layer(tmp_path, [{"id": "A", "nh3_kg_per_year": 900.0,
-                              "geometry": Point(9.0, 52.3)}], crs="EPSG:4326")
+    path = _layer(
+        tmp_path,
+        [{"id": "A", "nh3_kg_per_year": 900.0, "geometry": Point(9.0, 52.3)}],
+        crs="EPSG:4326",
+    )
     out = tmp_path / "out"
-    assert main(["region", str(path), "--weather", str(weather_csv), "--out", str(out),
-                 "--quiet"]) == 2
+    assert (
+        main(["region", str(path), "--weather", str(weather_csv), "--out", str(out), "--quiet"])
+        == 2
+    )
     assert "geographic" in capsys.readouterr().err
     assert not out.exists()

@@ -9,11 +9,11 @@ import re
 import numpy as np
 import pandas as pd
 import pytest
+from synthetic import NAMES, hostile_sites
 
 from siting.errors import InputError
 from siting.figures import pc_vs_distance_figure
 from siting.report import write_report
-from synthetic import NAMES, hostile_sites
 
 CAUTIONS = [
     "Screening estimate from a simplified model (flat terrain, no building wake, long-term means);"
@@ -21,8 +21,6 @@ CAUTIONS = [
     "Emission factors and deposition velocities carry wide uncertainty.",
     "Local regulations and the competent authority decide.",
 ]
-
-
 
 
 FLAG = "reduction 95 % is outside the published range 70-90 % for <scrubber>"
@@ -111,21 +109,21 @@ def _write(path, **overrides) -> str:
             "source": ["key A, Table 1 (from memory)", "key B, p. 12 & <note>"],
         }
     )
-    arguments = dict(
-        title="Farm <Nord>",
-        version="0.1.0",
-        run_time="2024-05-01T12:00:00Z",
-        scenario_file="scenario.toml",
-        sites=hostile_sites(),
-        sources=_sources(),
-        weather_summary=WEATHER,
-        habitat_values=habitat_values,
-        warnings=["weather record is short <1 yr>"],
-        cautions=CAUTIONS,
-        method_notes=["Sector-averaged Gaussian plume, flat terrain."],
-        run_record=RUN_RECORD,
-        figures={"PC by distance": pc_vs_distance_figure(hostile_sites())},
-    )
+    arguments = {
+        "title": "Farm <Nord>",
+        "version": "0.1.0",
+        "run_time": "2024-05-01T12:00:00Z",
+        "scenario_file": "scenario.toml",
+        "sites": hostile_sites(),
+        "sources": _sources(),
+        "weather_summary": WEATHER,
+        "habitat_values": habitat_values,
+        "warnings": ["weather record is short <1 yr>"],
+        "cautions": CAUTIONS,
+        "method_notes": ["Sector-averaged Gaussian plume, flat terrain."],
+        "run_record": RUN_RECORD,
+        "figures": {"PC by distance": pc_vs_distance_figure(hostile_sites())},
+    }
     arguments.update(overrides)
     write_report(path, **arguments)
     return path.read_text(encoding="utf-8")
@@ -277,7 +275,9 @@ def test_sources_table_formats_by_column_meaning(report_html):
     assert ">2.813<" in _row(table, "Emission factor [kg NH3/place/yr]")
     assert ">0.0936<" in _row(table, "Source strength [g/s]")  # 0.0935975 at 4 digits
     assert ">2954<" in _row(table, "NH3 emitted [kg/yr]")  # large: whole kg
-    assert ">50.0<" in _row(table, "Share of the ammonia treated over the year [%]")  # fraction 0.5 as %
+    assert ">50.0<" in _row(
+        table, "Share of the ammonia treated over the year [%]"
+    )  # fraction 0.5 as %
     assert ">95.0<" in _row(table, "Reduction by the technique [%]")
 
 
@@ -363,8 +363,14 @@ def test_net_change_table_lists_each_site():
 
     from siting.report import _change_table
 
-    sites = pd.DataFrame({"name": ["A", "B"], "net_conc_max_ug_m3": [0.012, -0.3],
-                          "net_pct_load": [1.5, -4.0], "background_dep_kg_n_ha_yr": [None, None]})
+    sites = pd.DataFrame(
+        {
+            "name": ["A", "B"],
+            "net_conc_max_ug_m3": [0.012, -0.3],
+            "net_pct_load": [1.5, -4.0],
+            "background_dep_kg_n_ha_yr": [None, None],
+        }
+    )
     html_text = _change_table(sites)
     assert "Net change" in html_text and html_text.count("<tr>") == 3
     assert "Background" not in html_text.split("<thead>")[1].split("</thead>")[0]
@@ -375,8 +381,7 @@ def test_weather_figures_follow_the_weather_summary(tmp_path):
     """Weather charts sit in section 2 right after the weather table, not among the figures."""
     png = pc_vs_distance_figure(hostile_sites())
     text = _write(tmp_path / "report.html", weather_figures={"Wind rose <of the table>": png})
-    weather = _between(text, '<div class="weather" id="weather"><h3>Weather</h3>',
-                       "<h3>Habitats")
+    weather = _between(text, '<div class="weather" id="weather"><h3>Weather</h3>', "<h3>Habitats")
     table_end = weather.index("</table>")
     figure = weather.index('<figure><img src="data:image/png;base64,')
     assert table_end < figure
@@ -402,7 +407,7 @@ def test_weather_figure_that_is_not_png_is_refused(tmp_path):
 def test_print_css_sets_a4_and_keeps_blocks_whole(report_html):
     """Print CSS: A4 portrait, headings kept with what follows, figures capped in height."""
     assert "@page { size: A4 portrait;" in report_html
-    print_css = report_html[report_html.index("@media print"):report_html.index("</style>")]
+    print_css = report_html[report_html.index("@media print") : report_html.index("</style>")]
     assert "h1, h2, h3, h4 { page-break-after: avoid; break-after: avoid; }" in print_css
     assert "tr.step-group { page-break-after: avoid; break-after: avoid; }" in print_css
     assert "figure img { max-height:" in print_css
@@ -417,8 +422,11 @@ def test_many_sites_all_in_the_summary_in_layer_order(tmp_path):
     body = _summary_body(_write(tmp_path / "many.html", sites=many, figures={}))
     rows = re.findall(r'<tr class="site-row">(.*?)</tr>', body, re.S)
     assert len(rows) == len(many)
-    small = re.findall(r'<tr class="site-row">(.*?)</tr>',
-                       _summary_body(_write(tmp_path / "few.html", figures={})), re.S)
+    small = re.findall(
+        r'<tr class="site-row">(.*?)</tr>',
+        _summary_body(_write(tmp_path / "few.html", figures={})),
+        re.S,
+    )
     for i in (0, 1, 2, 3, 397, 398, 399):
         suffix = html.escape(f" #{i}")
         assert rows[i].replace(suffix, "", 1) == small[i % 4], i

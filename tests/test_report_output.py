@@ -10,8 +10,16 @@ import pytest
 from siting.cli import main
 from siting.presentation import format_for_column, format_percent, is_missing
 
-SECTION_ORDER = ["summary", "inputs", "method", "cautious", "figures", "warnings", "cautions",
-                 "run-record"]
+SECTION_ORDER = [
+    "summary",
+    "inputs",
+    "method",
+    "cautious",
+    "figures",
+    "warnings",
+    "cautions",
+    "run-record",
+]
 
 #: Cells of a summary row after Site | Verdict | Habitat, by the header of their column
 #: (label + unit as the page shows them) -> the sites.csv column they show.
@@ -96,8 +104,9 @@ class _ReportParser(HTMLParser):
             self._ids.append(attributes.get("id"))
         inside = tuple(i for i in self._ids if i)
         if tag == "img":
-            self.images.append({"src": attributes.get("src") or "", "alt": attributes.get("alt"),
-                                "inside": inside})
+            self.images.append(
+                {"src": attributes.get("src") or "", "alt": attributes.get("alt"), "inside": inside}
+            )
         elif tag == "table":
             table = _Table(css, inside)
             self.tables.append(table)
@@ -201,8 +210,10 @@ def test_summary_table_equals_sites_csv(demo):
         assert site_cell.spans["site-name"] == site["name"]
         designation = None if is_missing(site["designation"]) else site["designation"]
         assert site_cell.spans.get("sub") == designation
-        assert verdict_cell.spans[next(k for k in verdict_cell.spans
-                                       if k.startswith("verdict "))] == site["verdict"]
+        assert (
+            verdict_cell.spans[next(k for k in verdict_cell.spans if k.startswith("verdict "))]
+            == site["verdict"]
+        )
         habitat = site["habitat_name"] if not is_missing(site["habitat_name"]) else site["habitat"]
         assert habitat_cell.text == habitat
         assert len(numbers) == len(columns)
@@ -221,8 +232,7 @@ def test_net_change_table_equals_sites_csv(demo):
     tables = _tables_in(parser, "summary", "summary")
     assert len(tables) == 2  # the summary, then the net-change table
     table = tables[1]
-    shown = [CHANGE_HEADERS[h] for h in (c.text for c in table.head[0][1:])
-             if h in CHANGE_HEADERS]
+    shown = [CHANGE_HEADERS[h] for h in (c.text for c in table.head[0][1:]) if h in CHANGE_HEADERS]
     assert len(shown) == len(table.head[0]) - 1  # every header is a known sites.csv column
     filled = [c for c in sites.columns if sites[c].notna().any()]
     for column in ("net_conc_max_ug_m3", "net_pct_level", "net_dep_max_kg_n_ha_yr",

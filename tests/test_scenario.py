@@ -32,6 +32,7 @@ SCENARIO_DIR = "scenario"  # the copy of data_demo/ inside tmp_path
 # helpers
 # --------------------------------------------------------------------------------------------
 
+
 @pytest.fixture
 def demo_copy(tmp_path) -> Path:
     """A private copy of the demo; returns the path of its scenario.toml."""
@@ -95,63 +96,160 @@ def _pattern(fragments: list[str]) -> str:
 
 # (id, old text, new text, error class, fragments the message must hold, in order)
 TOML_CASES = [
-    ("unknown top-level key", 'crs = "EPSG:32632"', 'crs = "EPSG:32632"\ncolour = "red"',
-     InputError, ["scenario.toml", "unknown key", "colour"]),
-    ("unknown source key next to the right one", "height_m = 7.5",
-     "height_m = 7.5\nhieght_m = 7.5",
-     InputError, ["scenario.toml", "unknown key", 'source "H1"', "hieght_m"]),
-    ("missing crs", 'crs = "EPSG:32632"\n', "",
-     InputError, ["scenario.toml", "missing key", "crs"]),
-    ("source without x", "x = 500040.0\n", "",
-     InputError, ["scenario.toml", "missing key", 'source "H1"', " x"]),
-    ("wrong type", "height_m = 7.5", 'height_m = "six"',
-     InputError, ["scenario.toml", 'source "H1"', "height_m", "six"]),
-    ("negative height", "height_m = 7.5", "height_m = -6",
-     InputError, ['source "H1"', "height_m", "-6"]),
-    ("reduction above 100 %", "treated_air_fraction = 1.0",
-     "treated_air_fraction = 1.0\nreduction_percent = 150",
-     InputError, ['source "H1"', "reduction_percent", "100", "150"]),
-    ("geographic CRS", 'crs = "EPSG:32632"', 'crs = "EPSG:4326"',
-     InputError, ["crs", "EPSG:4326", "geographic (degrees)", "projected"]),
-    ("unknown CRS", 'crs = "EPSG:32632"', 'crs = "EPSG:999999"',
-     InputError, ["crs", "EPSG:999999", "not a CRS"]),
-    ("weather file missing", 'frequency_table = "weather_table.csv"',
-     'frequency_table = "no_such_weather.csv"',
-     InputFileError, ["weather.frequency_table", "no_such_weather.csv", "not found"]),
-    ("unknown livestock", 'livestock = "finishing_pig"\nhousing = "fully_slatted"',
-     'livestock = "finishing_pigs"\nhousing = "fully_slatted"',
-     InputError, ['source "H1"', 'unknown livestock "finishing_pigs"',
-                  'did you mean "finishing_pig"?']),
-    ("unknown abatement, close to a known one", 'abatement = "acid_scrubber"',
-     'abatement = "acid_scrubbers"',
-     InputError, ['source "H1"', 'unknown abatement "acid_scrubbers"',
-                  'did you mean "acid_scrubber"?']),
-    ("unknown abatement, nothing close", 'abatement = "acid_scrubber"',
-     'abatement = "magic_box"',
-     InputError, ['source "H1"', 'unknown abatement "magic_box"', "known:", "acid_scrubber"]),
-    ("direct figure and livestock both", "places = 2400", "places = 2400\nnh3_kg_per_year = 100.0",
-     InputError, ['source "H1"', "nh3_kg_per_year", "not both"]),
-    ("volume source without width", "width_m = 18.0\n", "",
-     InputError, ['source "H2"', "volume", "width_m"]),
-    ("duplicate source ids", 'id = "H2"', 'id = "H1"',
-     InputError, ["scenario.toml", 'duplicate source id "H1"']),
-    ("name_field not in the layer", 'name_field = "name"', 'name_field = "site_name"',
-     InputError, ["habitats.name_field", '"site_name"', "habitats.gpkg",
-                  'did you mean "name"?']),
-    ("a reduction basis without the reduction it supports", "treated_air_fraction = 1.0",
-     'treated_air_fraction = 1.0\nreduction_basis = "certificate"',
-     InputError, ['source "H1"', "reduction_basis", "reduction_percent"]),
-    ("building width without its height", "building_height_m = 6.0 ", "# ",
-     InputError, ['source "H1"', "building_width_m needs building_height_m"]),
-    ("unknown wind rule", 'land_type = "rural"',
-     'land_type = "rural"\nwind_below_anemometer = "linear"',
-     InputError, ["weather", "wind_below_anemometer", "power_law"]),
-    ("unknown critical load review", "[weather]\n",
-     '[assessment]\ncritical_load_review = "2019"\n\n[weather]\n',
-     InputError, ["assessment", "critical_load_review", "2022"]),
-    ("direction step with a frequency table", 'land_type = "rural"',
-     'land_type = "rural"\ndirection_step_deg = 10.0',
-     InputError, ["weather.direction_step_deg", "hourly"]),
+    (
+        "unknown top-level key",
+        'crs = "EPSG:32632"',
+        'crs = "EPSG:32632"\ncolour = "red"',
+        InputError,
+        ["scenario.toml", "unknown key", "colour"],
+    ),
+    (
+        "unknown source key next to the right one",
+        "height_m = 7.5",
+        "height_m = 7.5\nhieght_m = 7.5",
+        InputError,
+        ["scenario.toml", "unknown key", 'source "H1"', "hieght_m"],
+    ),
+    (
+        "missing crs",
+        'crs = "EPSG:32632"\n',
+        "",
+        InputError,
+        ["scenario.toml", "missing key", "crs"],
+    ),
+    (
+        "source without x",
+        "x = 500040.0\n",
+        "",
+        InputError,
+        ["scenario.toml", "missing key", 'source "H1"', " x"],
+    ),
+    (
+        "wrong type",
+        "height_m = 7.5",
+        'height_m = "six"',
+        InputError,
+        ["scenario.toml", 'source "H1"', "height_m", "six"],
+    ),
+    (
+        "negative height",
+        "height_m = 7.5",
+        "height_m = -6",
+        InputError,
+        ['source "H1"', "height_m", "-6"],
+    ),
+    (
+        "reduction above 100 %",
+        "treated_air_fraction = 1.0",
+        "treated_air_fraction = 1.0\nreduction_percent = 150",
+        InputError,
+        ['source "H1"', "reduction_percent", "100", "150"],
+    ),
+    (
+        "geographic CRS",
+        'crs = "EPSG:32632"',
+        'crs = "EPSG:4326"',
+        InputError,
+        ["crs", "EPSG:4326", "geographic (degrees)", "projected"],
+    ),
+    (
+        "unknown CRS",
+        'crs = "EPSG:32632"',
+        'crs = "EPSG:999999"',
+        InputError,
+        ["crs", "EPSG:999999", "not a CRS"],
+    ),
+    (
+        "weather file missing",
+        'frequency_table = "weather_table.csv"',
+        'frequency_table = "no_such_weather.csv"',
+        InputFileError,
+        ["weather.frequency_table", "no_such_weather.csv", "not found"],
+    ),
+    (
+        "unknown livestock",
+        'livestock = "finishing_pig"\nhousing = "fully_slatted"',
+        'livestock = "finishing_pigs"\nhousing = "fully_slatted"',
+        InputError,
+        ['source "H1"', 'unknown livestock "finishing_pigs"', 'did you mean "finishing_pig"?'],
+    ),
+    (
+        "unknown abatement, close to a known one",
+        'abatement = "acid_scrubber"',
+        'abatement = "acid_scrubbers"',
+        InputError,
+        ['source "H1"', 'unknown abatement "acid_scrubbers"', 'did you mean "acid_scrubber"?'],
+    ),
+    (
+        "unknown abatement, nothing close",
+        'abatement = "acid_scrubber"',
+        'abatement = "magic_box"',
+        InputError,
+        ['source "H1"', 'unknown abatement "magic_box"', "known:", "acid_scrubber"],
+    ),
+    (
+        "direct figure and livestock both",
+        "places = 2400",
+        "places = 2400\nnh3_kg_per_year = 100.0",
+        InputError,
+        ['source "H1"', "nh3_kg_per_year", "not both"],
+    ),
+    (
+        "volume source without width",
+        "width_m = 18.0\n",
+        "",
+        InputError,
+        ['source "H2"', "volume", "width_m"],
+    ),
+    (
+        "duplicate source ids",
+        'id = "H2"',
+        'id = "H1"',
+        InputError,
+        ["scenario.toml", 'duplicate source id "H1"'],
+    ),
+    (
+        "name_field not in the layer",
+        'name_field = "name"',
+        'name_field = "site_name"',
+        InputError,
+        ["habitats.name_field", '"site_name"', "habitats.gpkg", 'did you mean "name"?'],
+    ),
+    (
+        "a reduction basis without the reduction it supports",
+        "treated_air_fraction = 1.0",
+        'treated_air_fraction = 1.0\nreduction_basis = "certificate"',
+        InputError,
+        ['source "H1"', "reduction_basis", "reduction_percent"],
+    ),
+    (
+        "building width without its height",
+        "building_height_m = 6.0 ",
+        "# ",
+        InputError,
+        ['source "H1"', "building_width_m needs building_height_m"],
+    ),
+    (
+        "unknown wind rule",
+        'land_type = "rural"',
+        'land_type = "rural"\nwind_below_anemometer = "linear"',
+        InputError,
+        ["weather", "wind_below_anemometer", "power_law"],
+    ),
+    (
+        "unknown critical load review",
+        "[weather]\n",
+        '[assessment]\ncritical_load_review = "2019"\n\n[weather]\n',
+        InputError,
+        ["assessment", "critical_load_review", "2022"],
+    ),
+    (
+        "direction step with a frequency table",
+        'land_type = "rural"',
+        'land_type = "rural"\ndirection_step_deg = 10.0',
+        InputError,
+        ["weather.direction_step_deg", "hourly"],
+    ),
 ]
 
 
@@ -160,15 +258,22 @@ KNOWN_BUGS: dict[str, str] = {}
 
 
 def _params(cases):
-    return [pytest.param(*case[1:], id=case[0],
-                         marks=[pytest.mark.xfail(strict=True, reason=KNOWN_BUGS[case[0]])]
-                         if case[0] in KNOWN_BUGS else [])
-            for case in cases]
+    return [
+        pytest.param(
+            *case[1:],
+            id=case[0],
+            marks=[pytest.mark.xfail(strict=True, reason=KNOWN_BUGS[case[0]])]
+            if case[0] in KNOWN_BUGS
+            else [],
+        )
+        for case in cases
+    ]
 
 
 @pytest.mark.parametrize("old, new, error, fragments", _params(TOML_CASES))
-def test_bad_scenario_key_is_named_and_nothing_written(demo_copy, capsys, old, new, error,
-                                                       fragments):
+def test_bad_scenario_key_is_named_and_nothing_written(
+    demo_copy, capsys, old, new, error, fragments
+):
     """A bad key in scenario.toml: exit 2, one stderr line naming it, no output folder."""
     _replace_once(demo_copy, old, new)
     line = _run_bad(demo_copy, capsys)
@@ -188,9 +293,11 @@ def test_misspelt_source_key_is_named(demo_copy, capsys):
 # bad or missing data files
 # --------------------------------------------------------------------------------------------
 
+
 def _remove(name):
     def change(folder: Path) -> None:
         (folder / name).unlink()
+
     return change
 
 
@@ -211,6 +318,7 @@ def _unknown_habitat(folder: Path) -> None:
     def change(gdf):
         gdf.loc[gdf["name"] == "Gorseburrow Heath", "habitat"] = "dry_heaths"
         return gdf
+
     _rewrite_habitats(folder, change)
 
 
@@ -229,25 +337,66 @@ def _no_stability_column(folder: Path) -> None:
 
 # (id, change to the scenario folder, error class, message fragments in order)
 FILE_CASES = [
-    ("habitats file missing", _remove("habitats.gpkg"),
-     InputFileError, ["habitats.file", "habitats.gpkg", "not found"]),
-    ("receptors file missing", _remove("receptors.csv"),
-     InputFileError, ["receptors.file", "receptors.csv", "not found"]),
-    ("empty habitat layer", _empty_layer,
-     InputError, ["habitats.file", "habitats.gpkg", "no features"]),
-    ("text file named .gpkg", _text_as_gpkg,
-     InputError, ["habitats.file", "habitats.gpkg", "cannot read"]),
-    ("points instead of polygons", _points_layer,
-     InputError, ["habitats.gpkg", '"Fernwhistle Moss"', "Point", "polygons"]),
-    ("habitat not in critical_loads.toml", _unknown_habitat,
-     InputError, ["habitats.gpkg", '"Gorseburrow Heath"', '"dry_heaths"', "critical_loads.toml",
-                  'did you mean "dry_heath"?']),
-    ("weather directions unevenly spaced", _uneven_directions,
-     InputError, ["weather_table.csv", "evenly spaced", "30 deg", "40"]),
-    ("weather stability G", _stability_g,
-     InputError, ["weather_table.csv", "line", "stability", "A-F", "'G'"]),
-    ("weather column missing", _no_stability_column,
-     InputError, ["weather_table.csv", "missing column", "stability"]),
+    (
+        "habitats file missing",
+        _remove("habitats.gpkg"),
+        InputFileError,
+        ["habitats.file", "habitats.gpkg", "not found"],
+    ),
+    (
+        "receptors file missing",
+        _remove("receptors.csv"),
+        InputFileError,
+        ["receptors.file", "receptors.csv", "not found"],
+    ),
+    (
+        "empty habitat layer",
+        _empty_layer,
+        InputError,
+        ["habitats.file", "habitats.gpkg", "no features"],
+    ),
+    (
+        "text file named .gpkg",
+        _text_as_gpkg,
+        InputError,
+        ["habitats.file", "habitats.gpkg", "cannot read"],
+    ),
+    (
+        "points instead of polygons",
+        _points_layer,
+        InputError,
+        ["habitats.gpkg", '"Fernwhistle Moss"', "Point", "polygons"],
+    ),
+    (
+        "habitat not in critical_loads.toml",
+        _unknown_habitat,
+        InputError,
+        [
+            "habitats.gpkg",
+            '"Gorseburrow Heath"',
+            '"dry_heaths"',
+            "critical_loads.toml",
+            'did you mean "dry_heath"?',
+        ],
+    ),
+    (
+        "weather directions unevenly spaced",
+        _uneven_directions,
+        InputError,
+        ["weather_table.csv", "evenly spaced", "30 deg", "40"],
+    ),
+    (
+        "weather stability G",
+        _stability_g,
+        InputError,
+        ["weather_table.csv", "line", "stability", "A-F", "'G'"],
+    ),
+    (
+        "weather column missing",
+        _no_stability_column,
+        InputError,
+        ["weather_table.csv", "missing column", "stability"],
+    ),
 ]
 
 
@@ -298,6 +447,7 @@ def test_existing_output_folder_needs_overwrite(demo_copy, capsys):
 # paths resolve against the scenario file's folder
 # --------------------------------------------------------------------------------------------
 
+
 @pytest.fixture
 def elsewhere(tmp_path, monkeypatch) -> Path:
     """A working directory holding decoys of the demo's data files (broken on purpose)."""
@@ -319,8 +469,12 @@ def test_load_scenario_returns_absolute_paths(demo_copy, elsewhere):
         assert scenario.weather.frequency_table == folder / "weather_table.csv"
         assert scenario.habitats.file == folder / "habitats.gpkg"
         assert scenario.receptors.file == folder / "receptors.csv"
-        for path in (scenario.path, scenario.weather.frequency_table, scenario.habitats.file,
-                     scenario.receptors.file):
+        for path in (
+            scenario.path,
+            scenario.weather.frequency_table,
+            scenario.habitats.file,
+            scenario.receptors.file,
+        ):
             assert path.is_absolute()
 
 
@@ -334,8 +488,11 @@ def test_screen_from_another_folder_reads_the_scenario_folder(demo_copy, elsewhe
     assert rc == 0, capsys.readouterr().err
     assert (out / "sites.csv").is_file()
     # nothing written in the cwd: only the three decoys are there
-    assert sorted(p.name for p in elsewhere.iterdir()) == ["habitats.gpkg", "receptors.csv",
-                                                           "weather_table.csv"]
+    assert sorted(p.name for p in elsewhere.iterdir()) == [
+        "habitats.gpkg",
+        "receptors.csv",
+        "weather_table.csv",
+    ]
     inputs = json.loads((out / "run.json").read_text(encoding="utf-8"))["inputs"]
     folder = demo_copy.parent.resolve()
     assert Path(inputs["weather"]["path"]) == folder / "weather_table.csv"
@@ -347,12 +504,20 @@ def test_screen_from_another_folder_reads_the_scenario_folder(demo_copy, elsewhe
 # non-finite numbers and wrong TOML types (once reported as bugs, now fixed)
 # --------------------------------------------------------------------------------------------
 
-@pytest.mark.parametrize("old, new, fragments", [
-    pytest.param("x = 500040.0", "x = nan", ['source "H1"', "x"], id="x nan"),
-    pytest.param("x = 500040.0", "x = inf", ['source "H1"', "x"], id="x inf"),
-    pytest.param("nh3_kg_per_year = 420.0", "nh3_kg_per_year = inf",
-                 ['source "M1"', "nh3_kg_per_year"], id="emission inf"),
-])
+
+@pytest.mark.parametrize(
+    "old, new, fragments",
+    [
+        pytest.param("x = 500040.0", "x = nan", ['source "H1"', "x"], id="x nan"),
+        pytest.param("x = 500040.0", "x = inf", ['source "H1"', "x"], id="x inf"),
+        pytest.param(
+            "nh3_kg_per_year = 420.0",
+            "nh3_kg_per_year = inf",
+            ['source "M1"', "nh3_kg_per_year"],
+            id="emission inf",
+        ),
+    ],
+)
 def test_non_finite_numbers_are_rejected(demo_copy, capsys, old, new, fragments):
     """TOML nan/inf in a number field: exit 2 with the key named, nothing written."""
     _replace_once(demo_copy, old, new)
@@ -360,11 +525,15 @@ def test_non_finite_numbers_are_rejected(demo_copy, capsys, old, new, fragments)
     assert re.search(_pattern(fragments), line), line
 
 
-@pytest.mark.parametrize("old, new, fragments", [
-    pytest.param("places = 2400", "places = true", ['source "H1"', "places"], id="bool places"),
-    pytest.param("height_m = 7.5", 'height_m = "7.5"', ['source "H1"', "height_m"],
-                 id="quoted number"),
-])
+@pytest.mark.parametrize(
+    "old, new, fragments",
+    [
+        pytest.param("places = 2400", "places = true", ['source "H1"', "places"], id="bool places"),
+        pytest.param(
+            "height_m = 7.5", 'height_m = "7.5"', ['source "H1"', "height_m"], id="quoted number"
+        ),
+    ],
+)
 def test_wrong_toml_type_is_not_coerced(demo_copy, capsys, old, new, fragments):
     """A boolean or quoted string where a number belongs: exit 2 naming the key."""
     _replace_once(demo_copy, old, new)

@@ -26,12 +26,21 @@ def _write_case(folder, *, extra_source="", abatement="", wind="unchanged"):
 
     (folder / "weather.csv").write_text(
         "direction_deg,speed_m_s,stability,frequency\n"
-        + "".join(f"{22.5 * k},5.0,D,1\n" for k in range(16)))
-    (folder / "points.csv").write_text(f"id,x,y,land_cover\nR500,{X0},{Y0 - 500.0},short_vegetation\n")
+        + "".join(f"{22.5 * k},5.0,D,1\n" for k in range(16))
+    )
+    (folder / "points.csv").write_text(
+        f"id,x,y,land_cover\nR500,{X0},{Y0 - 500.0},short_vegetation\n"
+    )
     site = shapely.box(X0 + 490.0, Y0 - 10.0, X0 + 510.0, Y0 + 10.0)
-    gpd.GeoDataFrame({"name": ["Test Bog"], "habitat": ["raised_bog"],
-                      "designation": ["Special Area of Conservation"]},
-                     geometry=[site], crs="EPSG:32632").to_file(folder / "sites.gpkg")
+    gpd.GeoDataFrame(
+        {
+            "name": ["Test Bog"],
+            "habitat": ["raised_bog"],
+            "designation": ["Special Area of Conservation"],
+        },
+        geometry=[site],
+        crs="EPSG:32632",
+    ).to_file(folder / "sites.gpkg")
     (folder / "case.toml").write_text(f"""
 title = "worked example"
 crs = "EPSG:32632"
@@ -76,14 +85,19 @@ def test_worked_example_whole_chain(tmp_path):
     assert_allclose(r["conc_ug_m3"], 0.4953, rtol=1e-3)  # derived, 4 s.f.
     assert_allclose(r["conc_ug_m3"], _hand_concentration_ug_m3(500.0), rtol=1e-6)
     assert_allclose(r["dep_kg_n_ha_yr"], 2.572, rtol=2e-3)  # 259.7 vs our 259.37: 0.13 %
-    assert_allclose(r["dep_kg_n_ha_yr"], r["conc_ug_m3"] * 0.02 * UG_NH3_M2_S_TO_KG_N_HA_YR,
-                    rtol=1e-12)
+    assert_allclose(
+        r["dep_kg_n_ha_yr"], r["conc_ug_m3"] * 0.02 * UG_NH3_M2_S_TO_KG_N_HA_YR, rtol=1e-12
+    )
     site = result.sites.iloc[0]
     assert site["critical_level_ug_m3"] == 1.0  # bog: lichens/bryophytes (UNECE 2007, confirmed)
     assert site["critical_load_used_kg_n_ha_yr"] == 5.0  # bogs 5-10, lower end (Bobbink2011)
     assert site["threshold_percent"] == 4.0  # international tier default (common practice)
     # the site spans 490-510 m from the source: its maximum lies between the hand values there
-    assert _hand_concentration_ug_m3(510.0) < site["pc_conc_max_ug_m3"] <= _hand_concentration_ug_m3(490.0) * 1.001
+    assert (
+        _hand_concentration_ug_m3(510.0)
+        < site["pc_conc_max_ug_m3"]
+        <= _hand_concentration_ug_m3(490.0) * 1.001
+    )
     assert_allclose(site["pc_pct_level"], 100 * site["pc_conc_max_ug_m3"], rtol=1e-12)
     assert_allclose(site["pc_pct_load"], 100 * site["pc_dep_max_kg_n_ha_yr"] / 5.0, rtol=1e-12)
     assert site["verdict"] == "above threshold"
@@ -101,7 +115,8 @@ def test_worked_example_with_the_wind_taken_down_to_the_release(tmp_path):
 
 def test_roles_combine_as_documented(tmp_path):
     """PC = proposed + existing, net = proposed - removed, in-combination = PC + other (definitions)."""
-    extra = "\n".join(f"""
+    extra = "\n".join(
+        f"""
 [[source]]
 id = "{sid}"
 x = {X0 + dx}
@@ -109,8 +124,13 @@ y = {Y0}
 height_m = 0.0
 role = "{role}"
 nh3_kg_per_year = {kg}
-""" for sid, dx, role, kg in [("E", -30.0, "existing", 1000.0), ("R", 30.0, "removed", 700.0),
-                               ("O", -800.0, "other", 3000.0)])
+"""
+        for sid, dx, role, kg in [
+            ("E", -30.0, "existing", 1000.0),
+            ("R", 30.0, "removed", 700.0),
+            ("O", -800.0, "other", 3000.0),
+        ]
+    )
     result = screen(_write_case(tmp_path, extra_source=extra))
     r = result.receptors.iloc[0]
     singles = {}
@@ -120,7 +140,11 @@ nh3_kg_per_year = {kg}
         text = (tmp_path / "case.toml").read_text()
         blocks = text.split("[[source]]")
         keep = [b for b in blocks[1:] if f'id = "{sid}"' in b][0]
-        keep = keep.replace('role = "existing"', "").replace('role = "removed"', "").replace('role = "other"', "")
+        keep = (
+            keep.replace('role = "existing"', "")
+            .replace('role = "removed"', "")
+            .replace('role = "other"', "")
+        )
         (sub / "case.toml").write_text(blocks[0] + "[[source]]" + keep)
         for name in ("weather.csv", "points.csv", "sites.gpkg"):
             (sub / name).write_bytes((tmp_path / name).read_bytes())
@@ -132,8 +156,9 @@ nh3_kg_per_year = {kg}
 
 def test_out_of_range_reduction_is_flagged(tmp_path):
     """A reduction outside the technique's published range is allowed but flagged."""
-    result = screen(_write_case(tmp_path, abatement='abatement = "biological_scrubber"\n'
-                                                    "reduction_percent = 99"))
+    result = screen(
+        _write_case(tmp_path, abatement='abatement = "biological_scrubber"\nreduction_percent = 99')
+    )
     assert "outside the published range" in result.sources.loc[0, "reduction_flag"]
     assert any("outside the published range" in w for w in result.warnings)
     assert_allclose(result.sources.loc[0, "nh3_kg_yr"], 5626.0 * 0.01, rtol=1e-12)
@@ -147,9 +172,15 @@ def test_site_outside_grid_is_not_assessed(tmp_path):
     path = _write_case(tmp_path)
     far = shapely.box(X0 + 5000, Y0, X0 + 5100, Y0 + 100)
     gdf = gpd.read_file(tmp_path / "sites.gpkg")
-    gdf = gpd.GeoDataFrame({"name": ["Test Bog", "Far Fen"], "habitat": ["raised_bog", "valley_mire"],
-                            "designation": ["Special Area of Conservation", "national"]},
-                           geometry=[gdf.geometry.iloc[0], far], crs=gdf.crs)
+    gdf = gpd.GeoDataFrame(
+        {
+            "name": ["Test Bog", "Far Fen"],
+            "habitat": ["raised_bog", "valley_mire"],
+            "designation": ["Special Area of Conservation", "national"],
+        },
+        geometry=[gdf.geometry.iloc[0], far],
+        crs=gdf.crs,
+    )
     gdf.to_file(tmp_path / "sites.gpkg")
     result = screen(path)
     far_row = result.sites.set_index("name").loc["Far Fen"]
@@ -187,10 +218,12 @@ def test_roof_outlet_in_the_wake_gets_no_rise_a_clear_stack_does(tmp_path):
     from siting.screen import outlet_rise
 
     rows = {}
-    for name, height, building in (("roof", 9.0, "building_height_m = 6.0"),
-                                   ("none", 9.0, ""),
-                                   ("clear", 20.0, "building_height_m = 6.0\nbuilding_width_m = 30.0"),
-                                   ("clear_no_jet", 20.0, "building_height_m = 6.0\nbuilding_width_m = 30.0")):
+    for name, height, building in (
+        ("roof", 9.0, "building_height_m = 6.0"),
+        ("none", 9.0, ""),
+        ("clear", 20.0, "building_height_m = 6.0\nbuilding_width_m = 30.0"),
+        ("clear_no_jet", 20.0, "building_height_m = 6.0\nbuilding_width_m = 30.0"),
+    ):
         folder = tmp_path / name
         folder.mkdir()
         extra = _stack(height, building)
@@ -225,8 +258,9 @@ def test_depletion_on_shows_the_undepleted_figures_beside(tmp_path):
     (tmp_path / "off").mkdir()
     off = screen(_write_case(tmp_path / "off"), sensitivity=False)
     assert "pc_conc_max_undepleted_ug_m3" not in off.sites.columns
-    assert_allclose(site["pc_conc_max_undepleted_ug_m3"], off.sites.iloc[0]["pc_conc_max_ug_m3"],
-                    rtol=1e-9)  # the twin run is the run without depletion
+    assert_allclose(
+        site["pc_conc_max_undepleted_ug_m3"], off.sites.iloc[0]["pc_conc_max_ug_m3"], rtol=1e-9
+    )  # the twin run is the run without depletion
 
 
 def test_infinite_receptor_coordinate_is_named(tmp_path):

@@ -28,9 +28,15 @@ def _write_case(folder, *, seasonal: bool, source_extra: str = ""):
     (folder / "hourly.csv").write_text("\n".join(lines) + "\n")
     west = shapely.box(X0 - 820, Y0 - 20, X0 - 780, Y0 + 20)  # downwind of east winds
     east = shapely.box(X0 + 780, Y0 - 20, X0 + 820, Y0 + 20)
-    gpd.GeoDataFrame({"name": ["West Bog", "East Bog"], "habitat": ["raised_bog"] * 2,
-                      "designation": ["Special Area of Conservation"] * 2},
-                     geometry=[west, east], crs="EPSG:32632").to_file(folder / "sites.gpkg")
+    gpd.GeoDataFrame(
+        {
+            "name": ["West Bog", "East Bog"],
+            "habitat": ["raised_bog"] * 2,
+            "designation": ["Special Area of Conservation"] * 2,
+        },
+        geometry=[west, east],
+        crs="EPSG:32632",
+    ).to_file(folder / "sites.gpkg")
     (folder / "case.toml").write_text(f"""
 title = "hourly case"
 crs = "EPSG:32632"
@@ -59,7 +65,8 @@ places = 2000
 def test_warm_hours_shift_where_deposition_lands(tmp_path):
     """Temperature-weighted emission: same annual total, more deposition downwind of warm winds."""
     flat_dir, warm_dir = tmp_path / "flat", tmp_path / "warm"
-    flat_dir.mkdir(); warm_dir.mkdir()
+    flat_dir.mkdir()
+    warm_dir.mkdir()
     flat = screen(_write_case(flat_dir, seasonal=False))
     warm = screen(_write_case(warm_dir, seasonal=True))
     assert_allclose(warm.sources["nh3_kg_yr"], flat.sources["nh3_kg_yr"], rtol=1e-12)
@@ -74,16 +81,20 @@ def test_warm_hours_shift_where_deposition_lands(tmp_path):
 
 def test_partial_scrubber_reports_both_shares(tmp_path):
     """A scrubber sized for 40 % of maximum air treats more than 40 % of the year's ammonia."""
-    path = _write_case(tmp_path, seasonal=False,
-                       source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4')
+    path = _write_case(
+        tmp_path,
+        seasonal=False,
+        source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4',
+    )
     result = screen(path)
     row = result.sources.iloc[0]
     assert row["scrubber_design_share"] == 0.4
     assert 0.4 < row["treated_air_fraction"] < 1.0
     # reduction x treated share (definition); no reduction stated, so the acid scrubber's lower
     # end, 70 % (BATc2017 section 4.11, from memory)
-    assert_allclose(row["effective_reduction_percent"], 70.0 * row["treated_air_fraction"],
-                    rtol=1e-12)
+    assert_allclose(
+        row["effective_reduction_percent"], 70.0 * row["treated_air_fraction"], rtol=1e-12
+    )
     shares = result.weather_summary["scrubber_treated_share"]["H1"]
     assert shares["design_share"] == 0.4 and shares["treated_share"] == row["treated_air_fraction"]
 
@@ -93,8 +104,11 @@ def test_partial_scrubber_counts_the_years_ammonia_not_its_hours(tmp_path):
     (temperature-dependent) emission: warm hours run at full ventilation, when the scrubber takes
     the smallest share, and emit most, so the share of the ammonia is below the share of the hours
     (seasonal.py model; analytic direction, common practice, no source for the parameters)."""
-    path = _write_case(tmp_path, seasonal=False,
-                       source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4')
+    path = _write_case(
+        tmp_path,
+        seasonal=False,
+        source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4',
+    )
     text = path.read_text().replace("temperature_dependent_emission = false\n", "")
     path.write_text(text)
     result = screen(path)
@@ -103,11 +117,15 @@ def test_partial_scrubber_counts_the_years_ammonia_not_its_hours(tmp_path):
     assert shares["hours_weighted_by"].startswith("emission")
     # explicitly switched off: the hours count alike, as before
     (tmp_path / "flat").mkdir()
-    flat = screen(_write_case(tmp_path / "flat", seasonal=False,
-                              source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4'))
+    flat = screen(
+        _write_case(
+            tmp_path / "flat",
+            seasonal=False,
+            source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4',
+        )
+    )
     flat_shares = flat.weather_summary["scrubber_treated_share"]["H1"]
-    assert_allclose(flat_shares["treated_share"], flat_shares["treated_share_of_hours"],
-                    rtol=1e-12)
+    assert_allclose(flat_shares["treated_share"], flat_shares["treated_share_of_hours"], rtol=1e-12)
     # less treated ammonia: more emitted (the cautious side)
     assert result.sources.iloc[0]["nh3_kg_yr"] > flat.sources.iloc[0]["nh3_kg_yr"]
 
@@ -116,8 +134,9 @@ def test_scrubber_design_share_needs_an_hourly_record(tmp_path, capsys):
     """scrubber_design_share with a frequency table: exit 2 naming the key, nothing written."""
     shutil.copytree(demo_dir(), tmp_path / "demo")
     scenario = tmp_path / "demo" / "scenario.toml"
-    text = scenario.read_text().replace('abatement = "acid_scrubber"',
-                                        'abatement = "acid_scrubber"\nscrubber_design_share = 0.5', 1)
+    text = scenario.read_text().replace(
+        'abatement = "acid_scrubber"', 'abatement = "acid_scrubber"\nscrubber_design_share = 0.5', 1
+    )
     scenario.write_text(text)
     rc = main(["screen", str(scenario), "--out", str(tmp_path / "out")])
     assert rc == 2 and not (tmp_path / "out").exists()
@@ -126,8 +145,11 @@ def test_scrubber_design_share_needs_an_hourly_record(tmp_path, capsys):
 
 def test_hourly_run_outputs_record_the_weather(tmp_path):
     """run.json hashes the hourly file; the report carries the wind rose and the shares."""
-    path = _write_case(tmp_path, seasonal=True,
-                       source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.6')
+    path = _write_case(
+        tmp_path,
+        seasonal=True,
+        source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.6',
+    )
     rc = main(["screen", str(path), "--out", str(tmp_path / "out"), "--quiet"])
     assert rc == 0
     record = json.loads((tmp_path / "out" / "run.json").read_text())

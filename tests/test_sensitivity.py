@@ -16,12 +16,20 @@ def test_velocity_variants_without_depletion_equal_a_rerun():
     assert not result.scenario.deposition.plume_depletion
     long = result.sensitivity
     tables = result.tables
-    for end, label in (("deposition_velocity_max_m_s", "deposition velocity high"),
-                       ("deposition_velocity_min_m_s", "deposition velocity low")):
-        velocities = {k: {**v, "deposition_velocity_m_s": v[end]}
-                      for k, v in tables.deposition_velocities.items()}
-        rerun = screen(result.scenario, with_grid=False, sensitivity=False,
-                       tables=dataclasses.replace(tables, deposition_velocities=velocities))
+    for end, label in (
+        ("deposition_velocity_max_m_s", "deposition velocity high"),
+        ("deposition_velocity_min_m_s", "deposition velocity low"),
+    ):
+        velocities = {
+            k: {**v, "deposition_velocity_m_s": v[end]}
+            for k, v in tables.deposition_velocities.items()
+        }
+        rerun = screen(
+            result.scenario,
+            with_grid=False,
+            sensitivity=False,
+            tables=dataclasses.replace(tables, deposition_velocities=velocities),
+        )
         sites = rerun.sites.set_index("name")
         expected = 100 * sites["pc_dep_max_kg_n_ha_yr"] / sites["critical_load_used_kg_n_ha_yr"]
         got = long[long["variant"] == label].set_index("site")["pct_load"]

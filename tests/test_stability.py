@@ -62,7 +62,7 @@ def _index(speed_m_s, nri):
 
 def test_knot_is_1852_m_per_hour():
     """The international knot is 1852 m per 3600 s = 0.514444 m/s."""
-    assert KNOT_M_S == pytest.approx(0.514444, abs=5e-7)  # definition (international nautical mile)
+    assert pytest.approx(0.514444, abs=5e-7) == KNOT_M_S  # definition (international nautical mile)
 
 
 @pytest.mark.parametrize("nri", sorted(FORCE_NRI))

@@ -62,8 +62,7 @@ def test_tampered_input_is_flagged_and_explains_the_difference(clean, tmp_path):
     result = verify(sub)
     assert {"INPUT_CHANGED", "RESULTS_DIFFER"} <= _codes(result)
     assert result.exit_code == 1
-    assert result.differences and all("weather" in d["explained_by"]
-                                      for d in result.differences)
+    assert result.differences and all("weather" in d["explained_by"] for d in result.differences)
 
 
 def test_edited_result_figure_is_flagged(clean, tmp_path):
@@ -83,9 +82,14 @@ def test_edited_result_figure_is_flagged(clean, tmp_path):
 
 def test_inflated_reduction_is_flagged(tmp_path):
     """An acid scrubber claimed at 99.9 %: outside the published 70-99 % (BATc2017, from memory)."""
-    out = _screen(tmp_path, edit=lambda t: t.replace('abatement = "acid_scrubber"',
-                                                     'abatement = "acid_scrubber"\n'
-                                                     "reduction_percent = 99.9", 1))
+    out = _screen(
+        tmp_path,
+        edit=lambda t: t.replace(
+            'abatement = "acid_scrubber"',
+            'abatement = "acid_scrubber"\nreduction_percent = 99.9',
+            1,
+        ),
+    )
     result = verify(out)
     finding = next(f for f in result.findings if f.code == "REDUCTION_OUT_OF_RANGE")
     assert finding.severity == "high" and finding.subject == 'source "H1"'
@@ -95,6 +99,7 @@ def test_inflated_reduction_is_flagged(tmp_path):
 
 def test_missing_habitat_site_is_flagged(tmp_path):
     """A site left out of the submitted layer but within its search distance: SITE_LEFT_OUT."""
+
     def drop_heath(path):
         layer = gpd.read_file(path)
         layer[layer["name"] != "Gorseburrow Heath"].to_file(path, layer="habitats", driver="GPKG")
@@ -114,11 +119,19 @@ def test_sensitivity_looks_both_ways(clean):
     result = verify(clean)
     long = result.sensitivity
     variants = set(long["variant"])
-    assert {"central", "deposition velocity low", "deposition velocity high",
-            "critical load lower end", "critical load upper end", "critical level 1 µg/m³",
-            "critical level 3 µg/m³", "plume depletion on",
-            "wind below the anemometer: unchanged", "emission factors low (-30 %)",
-            "emission factors high (+30 %)"} <= variants
+    assert {
+        "central",
+        "deposition velocity low",
+        "deposition velocity high",
+        "critical load lower end",
+        "critical load upper end",
+        "critical level 1 µg/m³",
+        "critical level 3 µg/m³",
+        "plume depletion on",
+        "wind below the anemometer: unchanged",
+        "emission factors low (-30 %)",
+        "emission factors high (+30 %)",
+    } <= variants
     summary = result.sensitivity_summary
     assessed = summary["central_pct_load"].notna()
     assert assessed.sum() >= 3
@@ -138,8 +151,10 @@ def test_claimed_reduction_is_a_finding_and_a_variant(tmp_path):
     """A reduction above the range's lower end is the user's claim: accepted with its basis in
     sources.csv, raised by verify, and undone in a sensitivity variant (acid scrubber 70-99 %,
     BATc2017 4.11, from memory)."""
-    claim = ('abatement = "acid_scrubber"\nreduction_percent = 95.0\n'
-             'reduction_basis = "invented test certificate no. 1"')
+    claim = (
+        'abatement = "acid_scrubber"\nreduction_percent = 95.0\n'
+        'reduction_basis = "invented test certificate no. 1"'
+    )
     out = _screen(tmp_path, edit=lambda t: t.replace('abatement = "acid_scrubber"', claim, 1))
     sources = pd.read_csv(out / "sources.csv").set_index("source_id")
     assert sources.loc["H1", "reduction_basis"] == "claimed: invented test certificate no. 1"
@@ -179,18 +194,19 @@ def test_factor_below_table_and_underived_treated_share(tmp_path):
     from siting.resources import config_dir
 
     def edit(text):
-        text = re.sub(r"(?m)^treated_air_fraction = [0-9.]+", "treated_air_fraction = 0.5", text,
-                      count=1)
+        text = re.sub(
+            r"(?m)^treated_air_fraction = [0-9.]+", "treated_air_fraction = 0.5", text, count=1
+        )
         return text + '\n[assessment]\nconfig_dir = "my_tables"\n'
-
 
     folder_tables = tmp_path / "sub_in" / "my_tables"
 
     def tables(_habitats_path):
         shutil.copytree(config_dir(), folder_tables)
         path = folder_tables / "emission_factors.toml"
-        path.write_text(path.read_text().replace("nh3_kg_per_place_yr = 2.813",
-                                                 "nh3_kg_per_place_yr = 1.5", 1))
+        path.write_text(
+            path.read_text().replace("nh3_kg_per_place_yr = 2.813", "nh3_kg_per_place_yr = 1.5", 1)
+        )
 
     out = _screen(tmp_path, edit=edit, habitats=tables)
     result = verify(out)
@@ -203,9 +219,13 @@ def test_factor_below_table_and_underived_treated_share(tmp_path):
 
 def test_package_stands_alone_with_inputs_from_elsewhere(tmp_path):
     """Inputs named outside the scenario folder are packed too; the folder verifies elsewhere."""
+
     def edit(text):
-        return text.replace('frequency_table = "weather_table.csv"',
-                            'frequency_table = "../shared_weather/weather_table.csv"', 1)
+        return text.replace(
+            'frequency_table = "weather_table.csv"',
+            'frequency_table = "../shared_weather/weather_table.csv"',
+            1,
+        )
 
     (tmp_path / "shared_weather").mkdir()
     shutil.copy(demo_dir() / "weather_table.csv", tmp_path / "shared_weather")
@@ -223,25 +243,40 @@ def test_package_stands_alone_with_inputs_from_elsewhere(tmp_path):
 def test_plume_rise_is_a_finding_to_check(tmp_path):
     """An outlet given building dimensions that put it clear of the wake (GEP height, EPA1985)
     gets rise, which lowers nearby figures: verify asks for the dimensions to be checked."""
-    out = _screen(tmp_path, edit=lambda t: t.replace(
-        "building_height_m = 6.0 ", "building_height_m = 2.0 ", 1).replace(
-        "building_width_m = 25.0 ", "building_width_m = 2.0 ", 1))
+    out = _screen(
+        tmp_path,
+        edit=lambda t: t.replace("building_height_m = 6.0 ", "building_height_m = 2.0 ", 1).replace(
+            "building_width_m = 25.0 ", "building_width_m = 2.0 ", 1
+        ),
+    )
     result = verify(out)
     rise = [f for f in result.findings if f.code == "PLUME_RISE_CLAIMED"]
     assert [f.subject for f in rise] == ['source "H1"']
     assert "wake height 5 m" in rise[0].message  # 2 + 1.5 x min(2, 2)
 
 
-@pytest.mark.parametrize("change, match", [
-    (lambda r: r["package"]["files"].update(scenario="../../../../etc/hostname"),
-     "points outside the package"),
-    (lambda r: r["package"]["files"].update(weather="/etc/hostname"), "points outside"),
-    (lambda r: r["config_tables"].update({"../../x.toml": {"sha256": "0"}}), "points outside"),
-    (lambda r: r.update(inputs=["not", "a", "map"]), "inputs must be a map"),
-    (lambda r: r["inputs"]["scenario"].update(sha256=5), "needs a sha256 text"),
-    (lambda r: r["package"].update(files="scenario.toml"), "package.files must be a map"),
-], ids=["scenario path escapes", "absolute weather path", "config table escapes",
-        "inputs not a map", "hash not text", "files not a map"])
+@pytest.mark.parametrize(
+    "change, match",
+    [
+        (
+            lambda r: r["package"]["files"].update(scenario="../../../../etc/hostname"),
+            "points outside the package",
+        ),
+        (lambda r: r["package"]["files"].update(weather="/etc/hostname"), "points outside"),
+        (lambda r: r["config_tables"].update({"../../x.toml": {"sha256": "0"}}), "points outside"),
+        (lambda r: r.update(inputs=["not", "a", "map"]), "inputs must be a map"),
+        (lambda r: r["inputs"]["scenario"].update(sha256=5), "needs a sha256 text"),
+        (lambda r: r["package"].update(files="scenario.toml"), "package.files must be a map"),
+    ],
+    ids=[
+        "scenario path escapes",
+        "absolute weather path",
+        "config table escapes",
+        "inputs not a map",
+        "hash not text",
+        "files not a map",
+    ],
+)
 def test_a_hostile_run_record_is_refused_in_one_line(clean, tmp_path, capsys, change, match):
     """verify treats a package as untrusted: paths stay inside it, malformed entries are exit 2
     with one line naming run.json; nothing outside the package is read, nothing written."""
@@ -265,14 +300,25 @@ def test_a_run_record_that_is_not_an_object_is_refused(clean, tmp_path, capsys):
     assert rc == 2 and "not a run record" in capsys.readouterr().err
 
 
-@pytest.mark.parametrize("damage, code", [
-    (lambda sub: (sub / "report.html").write_text(
-        (sub / "report.html").read_text().replace("above threshold", "below threshold")),
-     "OUTPUT_CHANGED"),
-    (lambda sub: (sub / "deposition.tif").write_bytes((sub / "deposition.tif").read_bytes()[:500]),
-     "OUTPUT_CHANGED"),
-    (lambda sub: (sub / "receptors.csv").unlink(), "OUTPUT_MISSING"),
-], ids=["edited verdict in report.html", "truncated GeoTIFF", "deleted receptors.csv"])
+@pytest.mark.parametrize(
+    "damage, code",
+    [
+        (
+            lambda sub: (sub / "report.html").write_text(
+                (sub / "report.html").read_text().replace("above threshold", "below threshold")
+            ),
+            "OUTPUT_CHANGED",
+        ),
+        (
+            lambda sub: (sub / "deposition.tif").write_bytes(
+                (sub / "deposition.tif").read_bytes()[:500]
+            ),
+            "OUTPUT_CHANGED",
+        ),
+        (lambda sub: (sub / "receptors.csv").unlink(), "OUTPUT_MISSING"),
+    ],
+    ids=["edited verdict in report.html", "truncated GeoTIFF", "deleted receptors.csv"],
+)
 def test_edited_truncated_or_deleted_outputs_are_findings(clean, tmp_path, damage, code):
     """Every output is hashed in run.json: an edited report, a truncated GeoTIFF or a deleted
     table no longer verifies as consistent (exit 1)."""

@@ -35,20 +35,25 @@ def test_counts_are_normalised_and_360_is_north(tmp_path):
 def test_calm_speeds_raised_with_warning(tmp_path):
     """Class speeds below the floor are raised to it and the share is reported."""
     rows = ["0,0.5,F,1", "90,3,D,1", "180,3,D,1", "270,3,D,1"]
-    weather, summary, warnings = read_frequency_table(_write(tmp_path, rows), min_wind_speed_m_s=1.0)
+    weather, summary, warnings = read_frequency_table(
+        _write(tmp_path, rows), min_wind_speed_m_s=1.0
+    )
     assert weather.speeds_m_s.min() == 1.0
     assert summary["share_raised_to_min_speed"] == pytest.approx(0.25)
     assert any("raised" in w for w in warnings)
 
 
-@pytest.mark.parametrize("rows,header,match", [
-    (["0,3,D,1", "100,3,D,1", "180,3,D,1", "270,3,D,1"], None, "evenly spaced"),
-    (["0,3,G,1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "stability"),
-    (["0,3,D,1"], "direction_deg,speed,stability,frequency", "speed_m_s"),
-    (["0,3,D,-1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "frequency must be >= 0"),
-    (["400,3,D,1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "0..360"),
-    (["0,3,D,x", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "frequency must be a number"),
-])
+@pytest.mark.parametrize(
+    "rows,header,match",
+    [
+        (["0,3,D,1", "100,3,D,1", "180,3,D,1", "270,3,D,1"], None, "evenly spaced"),
+        (["0,3,G,1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "stability"),
+        (["0,3,D,1"], "direction_deg,speed,stability,frequency", "speed_m_s"),
+        (["0,3,D,-1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "frequency must be >= 0"),
+        (["400,3,D,1", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "0..360"),
+        (["0,3,D,x", "90,3,D,1", "180,3,D,1", "270,3,D,1"], None, "frequency must be a number"),
+    ],
+)
 def test_bad_tables_are_refused(tmp_path, rows, header, match):
     """Uneven sectors, unknown class, missing column, negative or non-numeric values: clear errors."""
     path = _write(tmp_path, rows, header or "direction_deg,speed_m_s,stability,frequency")
@@ -62,12 +67,22 @@ def _table(tmp_path, rows):
     return path
 
 
-@pytest.mark.parametrize("rows, match", [
-    ("".join(f"{90 * k},5,D,0.125\n" for k in range(4)), "sum to 0.5"),
-    ("".join(f"{90 * k},5,D,1e308\n" for k in range(4)), "overflow"),
-    ("".join(f"{90 * k},inf,D,0.25\n" for k in range(4)), "line 2: speed_m_s must be a finite number, got .inf."),
-    ("".join(f"{90 * k},5,D,nan\n" for k in range(4)), "line 2: frequency must be a finite number, got .nan."),
-], ids=["fractions summing to 0.5", "1e308 frequencies", "infinite speed", "NaN frequency"])
+@pytest.mark.parametrize(
+    "rows, match",
+    [
+        ("".join(f"{90 * k},5,D,0.125\n" for k in range(4)), "sum to 0.5"),
+        ("".join(f"{90 * k},5,D,1e308\n" for k in range(4)), "overflow"),
+        (
+            "".join(f"{90 * k},inf,D,0.25\n" for k in range(4)),
+            "line 2: speed_m_s must be a finite number, got .inf.",
+        ),
+        (
+            "".join(f"{90 * k},5,D,nan\n" for k in range(4)),
+            "line 2: frequency must be a finite number, got .nan.",
+        ),
+    ],
+    ids=["fractions summing to 0.5", "1e308 frequencies", "infinite speed", "NaN frequency"],
+)
 def test_frequencies_that_would_mislead_are_refused(tmp_path, rows, match):
     """Fractions must sum to 1 within 0.01 (or be whole counts); every number finite: a table
     that would silently give a wrong PC stops with the file and the value named."""
@@ -78,6 +93,7 @@ def test_frequencies_that_would_mislead_are_refused(tmp_path, rows, match):
 def test_counts_are_normalised_and_said(tmp_path):
     """Whole-number counts (hours) are normalised to fractions; the summary says so."""
     weather, summary, _ = read_frequency_table(
-        _table(tmp_path, "".join(f"{90 * k},5,D,{100 * (k + 1)}\n" for k in range(4))))
+        _table(tmp_path, "".join(f"{90 * k},5,D,{100 * (k + 1)}\n" for k in range(4)))
+    )
     assert summary["frequencies_given_as"] == "counts (normalised)"
     assert abs(weather.frequency_fraction.sum() - 1.0) < 1e-12  # normalised (definition)

@@ -42,8 +42,10 @@ def _record(tmp_path, n_hours: int = 48, bad_line: str | None = None):
         speed = "0.0" if calm else f"{1.5 + (h % 9) * 0.5:.1f}"
         cloud = h % 9
         ceiling = "2500" if cloud >= 5 else ""
-        lines.append(f"2025-07-{day + 1:02d}T{hour:02d}:00+01:00,{direction},{speed},{cloud},"
-                     f"{ceiling},{15 + (hour - 12) / 3:.1f}")
+        lines.append(
+            f"2025-07-{day + 1:02d}T{hour:02d}:00+01:00,{direction},{speed},{cloud},"
+            f"{ceiling},{15 + (hour - 12) / 3:.1f}"
+        )
     if bad_line:
         lines.append(bad_line)
     path = tmp_path / "station.csv"
@@ -58,8 +60,20 @@ def test_weather_writes_four_files_and_a_usable_table(tmp_path):
     holds the summary and the input's SHA-256.
     """
     out = tmp_path / "weather"
-    rc, stdout, stderr = _run(["weather", str(_record(tmp_path)), "--lat", "52.4", "--lon",
-                               "9.0", "--out", str(out), "--max-missing-percent", "5"])
+    rc, stdout, stderr = _run(
+        [
+            "weather",
+            str(_record(tmp_path)),
+            "--lat",
+            "52.4",
+            "--lon",
+            "9.0",
+            "--out",
+            str(out),
+            "--max-missing-percent",
+            "5",
+        ]
+    )
     assert rc == 0, stderr
     assert {p.name for p in out.iterdir()} == OUTPUTS | {".siting-output"}
     classes, table_summary, _ = read_frequency_table(out / "frequency_table.csv")
@@ -80,8 +94,18 @@ def test_bad_record_exits_2_and_writes_nothing(tmp_path):
     """A cloud cover of 9 oktas: one error line naming file and line, exit 2, no folder left."""
     out = tmp_path / "weather"
     bad = "2025-07-03T00:00+01:00,200,3.0,9,,15.0"
-    rc, _, stderr = _run(["weather", str(_record(tmp_path, bad_line=bad)), "--lat", "52",
-                          "--lon", "9", "--out", str(out)])
+    rc, _, stderr = _run(
+        [
+            "weather",
+            str(_record(tmp_path, bad_line=bad)),
+            "--lat",
+            "52",
+            "--lon",
+            "9",
+            "--out",
+            str(out),
+        ]
+    )
     assert rc == 2
     assert stderr.startswith("siting: error: station.csv, line 48: cloud_oktas")
     assert stderr.count("\n") == 1
@@ -96,21 +120,37 @@ def test_existing_out_dir_needs_overwrite(tmp_path):
     (out / ".siting-output").write_text("{}")  # an earlier output folder of siting
     (out / "keep.txt").write_text("earlier result")
     record = _record(tmp_path)
-    rc, _, stderr = _run(["weather", str(record), "--lat", "52", "--lon", "9", "--out", str(out),
-                          "--quiet"])
+    rc, _, stderr = _run(
+        ["weather", str(record), "--lat", "52", "--lon", "9", "--out", str(out), "--quiet"]
+    )
     assert rc == 2 and "--overwrite" in stderr
     assert sorted(p.name for p in out.iterdir()) == [".siting-output", "keep.txt"]
-    rc, stdout, _ = _run(["weather", str(record), "--lat", "52", "--lon", "9", "--out", str(out),
-                          "--quiet", "--overwrite"])
+    rc, stdout, _ = _run(
+        [
+            "weather",
+            str(record),
+            "--lat",
+            "52",
+            "--lon",
+            "9",
+            "--out",
+            str(out),
+            "--quiet",
+            "--overwrite",
+        ]
+    )
     assert rc == 0 and stdout == ""
     assert {p.name for p in out.iterdir()} == OUTPUTS | {".siting-output"}
 
 
-@pytest.mark.parametrize("option,value,match", [
-    ("--lat", "91", "--lat must be within -90..90"),
-    ("--lon", "-181", "--lon must be within -180..180"),
-    ("--sectors", "2", "--sectors must be within 4..360"),
-])
+@pytest.mark.parametrize(
+    "option,value,match",
+    [
+        ("--lat", "91", "--lat must be within -90..90"),
+        ("--lon", "-181", "--lon must be within -180..180"),
+        ("--sectors", "2", "--sectors must be within 4..360"),
+    ],
+)
 def test_bad_options_exit_2(tmp_path, option, value, match):
     """Site position and sector count out of range: exit 2 with the option named."""
     options = {"--lat": "52", "--lon": "9", "--out": str(tmp_path / "w"), option: value}
@@ -123,13 +163,28 @@ def test_bad_options_exit_2(tmp_path, option, value, match):
 def test_naive_times_need_utc_offset(tmp_path):
     """Naive times: an error naming --utc-offset; with it the run succeeds."""
     path = tmp_path / "naive.csv"
-    path.write_text("time,direction_deg,speed_m_s,stability\n"
-                    + "".join(f"2025-01-01T{h:02d}:00,230,4.0,D\n" for h in range(6)))
+    path.write_text(
+        "time,direction_deg,speed_m_s,stability\n"
+        + "".join(f"2025-01-01T{h:02d}:00,230,4.0,D\n" for h in range(6))
+    )
     out = tmp_path / "w"
     rc, _, stderr = _run(["weather", str(path), "--lat", "52", "--lon", "9", "--out", str(out)])
     assert rc == 2 and "--utc-offset" in stderr and not out.exists()
-    rc, _, _ = _run(["weather", str(path), "--lat", "52", "--lon", "9", "--out", str(out),
-                     "--utc-offset", "1", "--quiet"])
+    rc, _, _ = _run(
+        [
+            "weather",
+            str(path),
+            "--lat",
+            "52",
+            "--lon",
+            "9",
+            "--out",
+            str(out),
+            "--utc-offset",
+            "1",
+            "--quiet",
+        ]
+    )
     assert rc == 0
 
 
@@ -139,11 +194,24 @@ def test_demo_hourly_flag_is_parsed():
     assert args.hourly is True and args.out is None
 
 
-@pytest.mark.parametrize("option,value", [("--anemometer-height", "inf"),
-                                          ("--min-speed", "inf"), ("--min-speed", "nan")])
+@pytest.mark.parametrize(
+    "option,value", [("--anemometer-height", "inf"), ("--min-speed", "inf"), ("--min-speed", "nan")]
+)
 def test_infinite_options_exit_2(tmp_path, option, value):
     """An infinite anemometer height or minimum speed (PC = 0 everywhere) is refused, named."""
-    rc, _, stderr = _run(["weather", str(_record(tmp_path)), "--lat", "52", "--lon", "9",
-                          "--out", str(tmp_path / "w"), option, value])
+    rc, _, stderr = _run(
+        [
+            "weather",
+            str(_record(tmp_path)),
+            "--lat",
+            "52",
+            "--lon",
+            "9",
+            "--out",
+            str(tmp_path / "w"),
+            option,
+            value,
+        ]
+    )
     key = {"--anemometer-height": "anemometer_height_m", "--min-speed": "min_wind_speed_m_s"}
     assert rc == 2 and key[option] in stderr and not (tmp_path / "w").exists()

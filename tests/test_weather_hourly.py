@@ -40,8 +40,14 @@ def test_frequency_table_from_hourly_counts_and_reads_back(tmp_path):
 
     Cross-check: read_frequency_table gives the record's mean speed and class shares.
     """
-    rows = [f"{_stamp(0)},10,2.0,D", f"{_stamp(1)},350,2.5,D", f"{_stamp(2)},180,6.0,D",
-            f"{_stamp(3)},190,7.0,E", f"{_stamp(4)},90,12.0,C", f"{_stamp(5)},270,1.2,F"]
+    rows = [
+        f"{_stamp(0)},10,2.0,D",
+        f"{_stamp(1)},350,2.5,D",
+        f"{_stamp(2)},180,6.0,D",
+        f"{_stamp(3)},190,7.0,E",
+        f"{_stamp(4)},90,12.0,C",
+        f"{_stamp(5)},270,1.2,F",
+    ]
     weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
     table = frequency_table_from_hourly(weather, n_sectors=12)
     assert len(table) == 12 * 6 * 6  # every sector x speed class x class A-F (complete table)
@@ -49,8 +55,11 @@ def test_frequency_table_from_hourly_counts_and_reads_back(tmp_path):
 
     def hours(direction, stability, speed_class):
         speeds = sorted(table["speed_m_s"].unique())
-        pick = ((table["direction_deg"] == direction) & (table["stability"] == stability)
-                & (table["speed_m_s"] == speeds[speed_class]))
+        pick = (
+            (table["direction_deg"] == direction)
+            & (table["stability"] == stability)
+            & (table["speed_m_s"] == speeds[speed_class])
+        )
         return int(table.loc[pick, "hours"].sum())
 
     # by hand: 10 and 350 deg -> sector 0 (+-15 deg), class 1.5-3 (index 1); 180 and 190 ->
@@ -77,15 +86,17 @@ def test_missing_hours_counted_and_gaps_listed(tmp_path):
     """Absent rows (3 h) and an empty value (1 h) are missing, never filled; gaps longest first."""
     present = [h for h in range(24) if h not in (5, 6, 7)]  # hours 5-7 absent
     rows = [f"{_stamp(h)},200,{'' if h == 12 else '4.0'},D" for h in present]  # 12 empty
-    weather, summary, warnings = read_hourly_record(_hourly(tmp_path, rows), LAT, LON,
-                                                    max_missing_percent=20.0)
+    weather, summary, warnings = read_hourly_record(
+        _hourly(tmp_path, rows), LAT, LON, max_missing_percent=20.0
+    )
     assert summary["hours_expected"] == 24  # first to last time, hourly (analytic)
     assert summary["hours_used"] == weather.n_hours == 20
     assert summary["hours_missing"] == 4
     assert summary["missing_percent"] == pytest.approx(100 * 4 / 24)
     assert summary["gaps"] == [
         {"start_utc": "2025-03-01T05:00Z", "end_utc": "2025-03-01T07:00Z", "hours": 3},
-        {"start_utc": "2025-03-01T12:00Z", "end_utc": "2025-03-01T12:00Z", "hours": 1}]
+        {"start_utc": "2025-03-01T12:00Z", "end_utc": "2025-03-01T12:00Z", "hours": 1},
+    ]
     assert np.datetime64("2025-03-01T06:00") not in weather.time_utc  # not filled
     assert any("less than a year" in w for w in warnings)
 
@@ -96,16 +107,19 @@ def test_calm_rule_applied_and_reported(tmp_path):
     Calms keep a recorded direction, else take the last non-calm hour's; calms and light
     winds are raised to the floor speed.
     """
-    rows = [f"{_stamp(0)},0,0.0,F",      # calm before any non-calm hour: takes hour 2's 200
-            f"{_stamp(1)},,0.3,F",       # calm, empty direction: also 200
-            f"{_stamp(2)},200,3.0,D",
-            f"{_stamp(3)},0,0.0,F",      # calm coded 0: last non-calm = 200
-            f"{_stamp(4)},90,0.2,F",     # calm with its own direction: kept
-            f"{_stamp(5)},250,0.7,E",    # light, not calm: raised, direction kept
-            f"{_stamp(6)},,0.0,F",       # calm, empty: last non-calm is hour 5 (250)
-            f"{_stamp(7)},360,5.0,D"]    # 360 = north, stored as 0
-    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON,
-                                             calm_threshold_m_s=0.5, min_wind_speed_m_s=1.0)
+    rows = [
+        f"{_stamp(0)},0,0.0,F",  # calm before any non-calm hour: takes hour 2's 200
+        f"{_stamp(1)},,0.3,F",  # calm, empty direction: also 200
+        f"{_stamp(2)},200,3.0,D",
+        f"{_stamp(3)},0,0.0,F",  # calm coded 0: last non-calm = 200
+        f"{_stamp(4)},90,0.2,F",  # calm with its own direction: kept
+        f"{_stamp(5)},250,0.7,E",  # light, not calm: raised, direction kept
+        f"{_stamp(6)},,0.0,F",  # calm, empty: last non-calm is hour 5 (250)
+        f"{_stamp(7)},360,5.0,D",
+    ]  # 360 = north, stored as 0
+    weather, summary, _ = read_hourly_record(
+        _hourly(tmp_path, rows), LAT, LON, calm_threshold_m_s=0.5, min_wind_speed_m_s=1.0
+    )
     assert_allclose(weather.direction_deg, [200, 200, 200, 200, 90, 250, 250, 0])
     assert_allclose(weather.speed_m_s, [1.0, 1.0, 3.0, 1.0, 1.0, 1.0, 1.0, 5.0])
     assert summary["calm_hours"] == 5
@@ -132,8 +146,7 @@ def test_iso_offset_and_naive_plus_offset_give_the_same_utc(tmp_path):
     with_offset = [f"{_stamp(h, '+01:00')},200,4.0,D" for h in range(3)]
     as_utc = [f"{_stamp(h - 1, 'Z')},200,4.0,D" for h in range(3)]
     a, sa, _ = read_hourly_record(_hourly(tmp_path, with_offset, name="a.csv"), LAT, LON)
-    b, _, _ = read_hourly_record(_hourly(tmp_path, local, name="b.csv"), LAT, LON,
-                                 utc_offset_h=1.0)
+    b, _, _ = read_hourly_record(_hourly(tmp_path, local, name="b.csv"), LAT, LON, utc_offset_h=1.0)
     c, _, _ = read_hourly_record(_hourly(tmp_path, as_utc, name="c.csv"), LAT, LON)
     assert (a.time_utc == b.time_utc).all() and (a.time_utc == c.time_utc).all()
     assert a.time_utc[0] == np.datetime64("2025-02-28T23:00:00")
@@ -163,7 +176,9 @@ def test_clear_summer_noon_is_unstable_and_overcast_is_neutral(tmp_path):
     rows = ["2025-06-21T12:00Z,200,2.0,0,", "2025-06-21T13:00Z,200,2.0,8,3000"]
     weather, summary, _ = read_hourly_record(
         _hourly(tmp_path, rows, header="time,direction_deg,speed_m_s,cloud_oktas,ceiling_ft"),
-        LAT, LON)
+        LAT,
+        LON,
+    )
     assert STABILITY_CLASSES[weather.stability_index[0]] in ("A", "B")
     assert STABILITY_CLASSES[weather.stability_index[1]] == "D"
     assert summary["stability_method"].startswith("Turner's method")
@@ -197,7 +212,8 @@ def test_temperature_summary(tmp_path):
     """temperature_c is carried hour by hour; min/mean/max over the hours used."""
     rows = [f"{_stamp(h)},200,4.0,D,{t}" for h, t in enumerate(("1.5", "", "4.5"))]
     weather, summary, _ = read_hourly_record(
-        _hourly(tmp_path, rows, header=HOURLY_HEADER + ",temperature_c"), LAT, LON)
+        _hourly(tmp_path, rows, header=HOURLY_HEADER + ",temperature_c"), LAT, LON
+    )
     assert_allclose(weather.temperature_c, [1.5, np.nan, 4.5])
     assert summary["temperature_c"] == {"min": 1.5, "mean": 3.0, "max": 4.5, "hours_without": 1}
 
@@ -206,37 +222,84 @@ def _day(n=24, direction="200", speed="4.0", extra=""):
     return [f"{_stamp(h)},{direction},{speed},D{extra}" for h in range(n)]
 
 
-@pytest.mark.parametrize("header,rows,match", [
-    ("time,direction_deg,speed,stability", _day(3),
-     r"record\.csv, line 1: missing column\(s\) speed_m_s"),
-    ("time,direction_deg,speed_m_s", [f"{_stamp(h)},200,4.0" for h in range(3)],
-     r"missing column\(s\) stability or cloud_oktas"),
-    ("time,direction_deg,speed_m_s,stability,cloud_oktas", _day(3, extra=",4"),
-     r"line 1: give either a stability column or a cloud_oktas column"),
-    (HOURLY_HEADER, _day(2) + [f"{_stamp(2)},400,4.0,D"],
-     r"record\.csv, line 4: direction_deg must be within 0\.\.360.*got '400'"),
-    (HOURLY_HEADER, _day(2) + [f"{_stamp(3)},200,-1,D"],
-     r"line 4: speed_m_s must be >= 0, got '-1'"),
-    (HOURLY_HEADER, [_stamp(0) + ",200,4,D", _stamp(2) + ",200,4,D", _stamp(1) + ",200,4,D"],
-     r"record\.csv, line 4: time '2025-03-01T01:00Z' is earlier than line 3"),
-    (HOURLY_HEADER, [_stamp(0) + ",200,4,D", _stamp(0) + ",200,4,D"],
-     r"record\.csv, line 3: time '2025-03-01T00:00Z' repeats the time of line 2"),
-    (HOURLY_HEADER, [_stamp(0) + ",200,4,D", "2025-03-01T01:30Z,200,4,D"],
-     r"line 3: time '2025-03-01T01:30Z' is not on a whole hour"),
-    (HOURLY_HEADER, [_stamp(0) + ",200,4,D", _stamp(1, "") + ",200,4,D"],
-     r"record\.csv: times mix UTC offsets and naive times: line 2"),
-    (HOURLY_HEADER, [_stamp(0) + ",200,4,D", "01/03/2025 01:00,200,4,D"],
-     r"line 3: time must be ISO 8601.*'01/03/2025 01:00'"),
-    (HOURLY_HEADER, [_stamp(0) + ",200,4,D", _stamp(1) + ",200,4,G"],
-     r"line 3: stability must be a Pasquill class A-F, got 'G'"),
-    (HOURLY_HEADER, [_stamp(0) + ",200,4,D", _stamp(1) + ",200,fast,D"],
-     r"line 3: speed_m_s must be a number, got 'fast'"),
-    ("time,direction_deg,speed_m_s,cloud_oktas", [_stamp(0) + ",200,4,3", _stamp(1) + ",200,4,9"],
-     r"record\.csv, line 3: cloud_oktas must be whole oktas 0\.\.8.*got '9'"),
-    (HOURLY_HEADER, [_stamp(0) + ",200,4,D", _stamp(30) + ",200,4,D"],
-     (r"record\.csv: 93\.5 % of the 31 expected hours are missing \(29 h\), more than "
-      r"max_missing_percent = 10 %; the longest gap is 29 h from 2025-03-01T01:00Z")),
-])
+@pytest.mark.parametrize(
+    "header,rows,match",
+    [
+        (
+            "time,direction_deg,speed,stability",
+            _day(3),
+            r"record\.csv, line 1: missing column\(s\) speed_m_s",
+        ),
+        (
+            "time,direction_deg,speed_m_s",
+            [f"{_stamp(h)},200,4.0" for h in range(3)],
+            r"missing column\(s\) stability or cloud_oktas",
+        ),
+        (
+            "time,direction_deg,speed_m_s,stability,cloud_oktas",
+            _day(3, extra=",4"),
+            r"line 1: give either a stability column or a cloud_oktas column",
+        ),
+        (
+            HOURLY_HEADER,
+            _day(2) + [f"{_stamp(2)},400,4.0,D"],
+            r"record\.csv, line 4: direction_deg must be within 0\.\.360.*got '400'",
+        ),
+        (
+            HOURLY_HEADER,
+            _day(2) + [f"{_stamp(3)},200,-1,D"],
+            r"line 4: speed_m_s must be >= 0, got '-1'",
+        ),
+        (
+            HOURLY_HEADER,
+            [_stamp(0) + ",200,4,D", _stamp(2) + ",200,4,D", _stamp(1) + ",200,4,D"],
+            r"record\.csv, line 4: time '2025-03-01T01:00Z' is earlier than line 3",
+        ),
+        (
+            HOURLY_HEADER,
+            [_stamp(0) + ",200,4,D", _stamp(0) + ",200,4,D"],
+            r"record\.csv, line 3: time '2025-03-01T00:00Z' repeats the time of line 2",
+        ),
+        (
+            HOURLY_HEADER,
+            [_stamp(0) + ",200,4,D", "2025-03-01T01:30Z,200,4,D"],
+            r"line 3: time '2025-03-01T01:30Z' is not on a whole hour",
+        ),
+        (
+            HOURLY_HEADER,
+            [_stamp(0) + ",200,4,D", _stamp(1, "") + ",200,4,D"],
+            r"record\.csv: times mix UTC offsets and naive times: line 2",
+        ),
+        (
+            HOURLY_HEADER,
+            [_stamp(0) + ",200,4,D", "01/03/2025 01:00,200,4,D"],
+            r"line 3: time must be ISO 8601.*'01/03/2025 01:00'",
+        ),
+        (
+            HOURLY_HEADER,
+            [_stamp(0) + ",200,4,D", _stamp(1) + ",200,4,G"],
+            r"line 3: stability must be a Pasquill class A-F, got 'G'",
+        ),
+        (
+            HOURLY_HEADER,
+            [_stamp(0) + ",200,4,D", _stamp(1) + ",200,fast,D"],
+            r"line 3: speed_m_s must be a number, got 'fast'",
+        ),
+        (
+            "time,direction_deg,speed_m_s,cloud_oktas",
+            [_stamp(0) + ",200,4,3", _stamp(1) + ",200,4,9"],
+            r"record\.csv, line 3: cloud_oktas must be whole oktas 0\.\.8.*got '9'",
+        ),
+        (
+            HOURLY_HEADER,
+            [_stamp(0) + ",200,4,D", _stamp(30) + ",200,4,D"],
+            (
+                r"record\.csv: 93\.5 % of the 31 expected hours are missing \(29 h\), more than "
+                r"max_missing_percent = 10 %; the longest gap is 29 h from 2025-03-01T01:00Z"
+            ),
+        ),
+    ],
+)
 def test_bad_hourly_records_are_refused(tmp_path, header, rows, match):
     """Each bad record is an InputError naming the file and the line, or the missing share.
 
@@ -252,8 +315,7 @@ def test_missing_share_limit_is_a_setting(tmp_path):
     rows = [f"{_stamp(h)},200,4.0,D" for h in range(24) if h not in (3, 4, 5, 6)]
     with pytest.raises(InputError, match="16.7 % of the 24 expected hours"):
         read_hourly_record(_hourly(tmp_path, rows), LAT, LON, max_missing_percent=10.0)
-    _, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON,
-                                       max_missing_percent=20.0)
+    _, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON, max_missing_percent=20.0)
     assert summary["hours_missing"] == 4
 
 
@@ -311,7 +373,8 @@ def test_direction_step_inferred_from_a_ten_degree_record(tmp_path):
     assert summary["direction_spread_deg"] == 10.0 and weather.direction_step_deg == 10.0
     assert summary["direction_rule"].startswith(
         "each hour's plume is spread evenly over the 10-degree interval its direction was "
-        "reported in")
+        "reported in"
+    )
     json.dumps(summary)
 
 

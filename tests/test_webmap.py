@@ -101,20 +101,20 @@ def _sources() -> gpd.GeoDataFrame:
 
 def _write(path, contours=((1.0, "1 kg N/ha/yr"),), **overrides) -> str:
     """Write a map with the synthetic inputs and return its HTML."""
-    arguments = dict(
-        title="Farm <Nord> & `test`",
-        crs=CRS,
-        west_m=WEST_M,
-        north_m=NORTH_M,
-        cell_m=CELL_M,
-        deposition_kg_n_ha_yr=_grid(),
-        sites=_sites(),
-        sources=_sources(),
-        contours=list(contours),
-        cautions=CAUTIONS,
-        version="0.1.0",
-        run_time="2024-05-01T12:00:00Z",
-    )
+    arguments = {
+        "title": "Farm <Nord> & `test`",
+        "crs": CRS,
+        "west_m": WEST_M,
+        "north_m": NORTH_M,
+        "cell_m": CELL_M,
+        "deposition_kg_n_ha_yr": _grid(),
+        "sites": _sites(),
+        "sources": _sources(),
+        "contours": list(contours),
+        "cautions": CAUTIONS,
+        "version": "0.1.0",
+        "run_time": "2024-05-01T12:00:00Z",
+    }
     arguments.update(overrides)
     write_screen_map(path, **arguments)
     return path.read_text(encoding="utf-8")
@@ -123,15 +123,21 @@ def _write(path, contours=((1.0, "1 kg N/ha/yr"),), **overrides) -> str:
 def _geojson_layers(text: str) -> list[dict]:
     """The data of every folium GeoJson layer in the page (``geo_json_<id>_add({...})``)."""
     decoder = json.JSONDecoder()
-    return [decoder.raw_decode(text, match.end())[0]
-            for match in re.finditer(r"geo_json_[0-9a-f]+_add\(", text)]
+    return [
+        decoder.raw_decode(text, match.end())[0]
+        for match in re.finditer(r"geo_json_[0-9a-f]+_add\(", text)
+    ]
 
 
 def _site_layers(text: str) -> list[dict]:
     """The GeoJson layers of habitat sites: those whose features carry a verdict."""
-    return [layer for layer in _geojson_layers(text)
-            if layer.get("type") == "FeatureCollection" and layer["features"]
-            and all("verdict" in f["properties"] for f in layer["features"])]
+    return [
+        layer
+        for layer in _geojson_layers(text)
+        if layer.get("type") == "FeatureCollection"
+        and layer["features"]
+        and all("verdict" in f["properties"] for f in layer["features"])
+    ]
 
 
 def _site_properties(text: str) -> list[dict]:
@@ -326,9 +332,15 @@ def _many_sites(n: int) -> gpd.GeoDataFrame:
             "verdict": [verdicts[i % 3] for i in range(n)],
             "pc_pct_load": np.linspace(0.1, 50.0, n),
         },
-        geometry=[box(centre_x - 600 + 40 * (i % side), centre_y - 500 + 40 * (i // side),
-                      centre_x - 580 + 40 * (i % side), centre_y - 480 + 40 * (i // side))
-                  for i in range(n)],
+        geometry=[
+            box(
+                centre_x - 600 + 40 * (i % side),
+                centre_y - 500 + 40 * (i // side),
+                centre_x - 580 + 40 * (i % side),
+                centre_y - 480 + 40 * (i // side),
+            )
+            for i in range(n)
+        ],
         crs=CRS,
     )
 
@@ -342,7 +354,8 @@ def test_many_sites_are_one_layer_with_a_feature_each(tmp_path):
     assert len(layers) == 1
     assert len(layers[0]["features"]) == n
     assert [f["properties"]["name"] for f in layers[0]["features"]] == [
-        escape_text(f"Site {i} <{i}>") for i in range(n)]
+        escape_text(f"Site {i} <{i}>") for i in range(n)
+    ]
     assert "Site 0 <0>" not in text
     # one bound popup script, not one popup element per site
     assert text.count(".bindPopup(function ()") == 1
@@ -354,8 +367,9 @@ def test_site_style_is_keyed_on_the_verdict(map_html):
     stable CSS class appear in its style map (siting.presentation.VERDICT_COLOURS)."""
     from siting.presentation import VERDICT_COLOURS
 
-    styler = re.search(r"function geo_json_[0-9a-f]+_styler\(feature\) \{(.*?)\n        \}",
-                       map_html, re.S)
+    styler = re.search(
+        r"function geo_json_[0-9a-f]+_styler\(feature\) \{(.*?)\n        \}", map_html, re.S
+    )
     assert styler is not None
     for colour in VERDICT_COLOURS.values():
         assert colour in styler.group(1)
