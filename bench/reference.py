@@ -5,11 +5,13 @@ formulas of ``siting.plume`` are used (the sigma scheme, the wind profile, momen
 vertical term, the virtual distance and the hourly plume). Plain vectorised numpy, one source at
 a time, no grouping, no windows, no caches beyond the obvious:
 
-- :func:`reference_sector_average` loops over EVERY (sector, speed, stability) class with a
-  non-zero frequency and evaluates that class's sector-averaged plume on ALL receptors, masked by
-  the receptor's angular weight for the sector (a triangle: 1 on the sector's centre line, falling
-  linearly to 0 on the neighbouring centre lines, so between two centre lines the value is the
-  linear interpolation longterm.py documents).
+- :func:`reference_sector_average` loops over every (speed, stability) pair with a non-zero
+  frequency and evaluates the plume's vertical term (and depletion) once on ALL receptors; each
+  receptor then takes the frequencies of the two sectors whose centre lines bracket its bearing,
+  weighted by a triangle in angle (1 on a centre line, falling linearly to 0 on the
+  neighbouring ones, so between two centre lines the value is the linear interpolation
+  longterm.py documents). This is the plain implementation: no sector's work is repeated, and
+  no sector that cannot reach a receptor is evaluated there.
 - :func:`reference_hourly` loops over every hour of the record and evaluates that hour's
   off-axis Gaussian plume (``plume.plume_concentration_g_m3``, [Turner1970] Eq. 3.1) on ALL
   receptors, zero upwind; no lateral cut-off. With a direction step (directions reported in
@@ -170,6 +172,20 @@ def _sector_weights(dx_m, dy_m, sector_centres_deg) -> np.ndarray:
     return np.maximum(1.0 - apart, 0.0)
 
 
+def _neighbour_sectors(dx_m, dy_m, sector_centres_deg):
+    """The two sectors whose centre lines bracket each receptor's bearing, and their weights.
+
+    Returns (k0, k1, w0, w1): sector indices and weights (w0 + w1 = 1), the only non-zero
+    entries of :func:`_sector_weights` for each receptor.
+    """
+    n = len(sector_centres_deg)
+    wind_from_deg = (np.degrees(np.arctan2(dx_m, dy_m)) + 180.0) % 360.0
+    pos = ((wind_from_deg - sector_centres_deg[0]) / (360.0 / n)) % n  # in sector widths
+    k0 = np.floor(pos).astype(int) % n
+    w1 = pos - np.floor(pos)
+    return k0, (k0 + 1) % n, 1.0 - w1, w1
+
+
 def reference_sector_average(
     receptor_x, receptor_y, sources: Sequence, weather, settings, emission_g_s=None
 ) -> np.ndarray:
@@ -213,7 +229,7 @@ def reference_sector_average(
         for element in _elements(source):
             dx, dy = rx - element.x_m, ry - element.y_m
             x = np.maximum(np.hypot(dx, dy), element.min_distance_m)
-            sector_weight = _sector_weights(dx, dy, centres)
+            k0, k1, w0, w1 = _neighbour_sectors(dx, dy, centres)
             scale = q * element.share_fraction
             for s in range(N_STABILITY):
                 if not freq[:, :, s].any():
@@ -239,18 +255,18 @@ def reference_sector_average(
                         integral_at_x[key] = DirectDepletionIntegral(
                             sigma_z_of, height_m, settings.mixing_height_m, x.max()
                         )(x)
-                    for k in range(len(centres)):
-                        f = freq[k, j, s]
-                        if f == 0:
-                            continue
-                        # every class on every receptor: the sector weight masks, nothing skips
-                        v = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
-                        c = f * sector_weight[k] * v / (_SQRT_2PI * u * sz * width_rad * x)
-                        if settings.depletion_velocity_m_s:
-                            c = c * np.exp(
-                                -(settings.depletion_velocity_m_s / u) * integral_at_x[key]
-                            )
-                        total += scale * c
+                    f = freq[:, j, s]
+                    if not f.any():
+                        continue
+                    # the vertical term and the depletion do not depend on the sector: once per
+                    # (stability, speed) on every receptor; each receptor then takes the two
+                    # sectors whose centre lines bracket its bearing, nothing else reaches it
+                    weight = f[k0] * w0 + f[k1] * w1
+                    v = vertical_term(sz, height_m, 0.0, settings.mixing_height_m)
+                    c = weight * v / (_SQRT_2PI * u * sz * width_rad * x)
+                    if settings.depletion_velocity_m_s:
+                        c = c * np.exp(-(settings.depletion_velocity_m_s / u) * integral_at_x[key])
+                    total += scale * c
     return total.reshape(np.shape(receptor_x))
 
 

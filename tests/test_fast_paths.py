@@ -235,3 +235,20 @@ def test_reference_sector_weights_interpolate_between_centre_lines():
     assert_allclose(weights[[0, 1], 1], [0.5, 0.5], rtol=1e-12)  # half way between 0 and 30
     assert_allclose(weights[[11, 0], 3], [0.5, 0.5], rtol=1e-12)  # across north
     assert_allclose(weights[[6, 7], 4], [1 / 3, 2 / 3], rtol=1e-12)  # 200 deg: 1/3 of the way
+
+
+def test_reference_neighbour_sectors_are_the_non_zero_sector_weights():
+    """The two bracketing sectors and their weights are exactly the non-zero entries of the
+    triangle weights (same definition, two ways), at random bearings and on centre lines."""
+    centres = np.arange(16) * 22.5
+    rng = np.random.default_rng(3)
+    wind_from = np.concatenate([rng.uniform(0, 360, 200), centres, [359.999, 0.0]])
+    travel = np.deg2rad(wind_from + 180.0)
+    dx, dy = np.sin(travel), np.cos(travel)
+    dense = reference._sector_weights(dx, dy, centres)
+    k0, k1, w0, w1 = reference._neighbour_sectors(dx, dy, centres)
+    rebuilt = np.zeros_like(dense)
+    columns = np.arange(dense.shape[1])
+    np.add.at(rebuilt, (k0, columns), w0)
+    np.add.at(rebuilt, (k1, columns), w1)
+    assert_allclose(rebuilt, dense, atol=1e-9)
