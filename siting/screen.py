@@ -688,6 +688,244 @@ def _site_stats(conc_ug_m3, vd_m_s, member_receptor, member_site, member_interio
     return c_max, c_mean, d_max, d_mean
 
 
+@dataclass
+class _Receptors:
+    """Every receptor of a run in one flat array: grid cells, named points, site sample points.
+
+    ``vd_m_s`` is each receptor's deposition velocity [m s-1] by land cover; the member arrays
+    say which receptors belong to which site (``member_site``, ``member_receptor``) and whether
+    each counts towards the site's mean (``member_interior``).
+    """
+
+    x_m: np.ndarray
+    y_m: np.ndarray
+    vd_m_s: np.ndarray
+    n_grid: int
+    n_named: int
+    member_site: np.ndarray
+    member_receptor: np.ndarray
+    member_interior: np.ndarray
+
+    @property
+    def named(self) -> slice:
+        return slice(self.n_grid, self.n_grid + self.n_named)
+
+
+def _screen_grid(scenario: Scenario) -> GridSpec:
+    """The receptor grid around the sources, refused if it has too many cells."""
+    grid = grid_around(
+        [s.x for s in scenario.sources],
+        [s.y for s in scenario.sources],
+        scenario.grid.margin_m,
+        scenario.grid.spacing_m,
+        scenario.crs,
+    )
+    if grid.size > MAX_GRID_CELLS:
+        raise InputError(
+            f"grid: {grid.n_cols} x {grid.n_rows} = {grid.size:,} cells exceeds "
+            f"{MAX_GRID_CELLS:,}; increase grid.spacing_m or reduce grid.margin_m"
+        )
+    return grid
+
+
+def _assessed_sites(sites, grid: GridSpec, warnings: list[str]) -> np.ndarray:
+    """Which sites touch the grid (a warning names each one that does not)."""
+    import shapely
+
+    extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
+    assessed = np.asarray(shapely.intersects(sites.geometry.values, extent), dtype=bool)
+    for name in sites.loc[~assessed, "name"]:
+        warnings.append(
+            f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)'
+        )
+    return assessed
+
+
+def _site_points(scenario: Scenario, sites, assessed_idx: np.ndarray, warnings: list[str]):
+    """(site index, x, y, interior) of the assessed sites' sample points: the boundary point
+    nearest each source, the interior lattice and the boundary every BOUNDARY_SPACING_M."""
+    geometries = sites.geometry.iloc[assessed_idx]
+    boundary_spacing_m = min(scenario.grid.spacing_m, BOUNDARY_SPACING_M)
+    s_index, s_x, s_y, s_interior = site_sample_points(
+        geometries,
+        [s.x for s in scenario.sources],
+        [s.y for s in scenario.sources],
+        scenario.grid.spacing_m,
+    )
+    b_index, b_x, b_y = site_boundary_points(geometries, boundary_spacing_m)
+    warnings += coarsened_sites(
+        geometries, sites["name"].iloc[assessed_idx], scenario.grid.spacing_m, boundary_spacing_m
+    )
+    s_index = np.concatenate([s_index, b_index])
+    s_index = assessed_idx[s_index] if len(s_index) else s_index
+    return (
+        s_index,
+        np.concatenate([s_x, b_x]),
+        np.concatenate([s_y, b_y]),
+        np.concatenate([s_interior, np.zeros(b_index.size, bool)]),
+    )
+
+
+def _receptors(prep: Prepared, grid: GridSpec, named, assessed: np.ndarray, with_grid: bool,
+               warnings: list[str]) -> _Receptors:  # fmt: skip
+    """Every receptor of the run, its deposition velocity and which site it belongs to.
+
+    A grid node inside two overlapping sites takes the higher of their deposition velocities
+    (the cautious one); a named point takes its land cover's; a site point its site's.
+    """
+    sites = prep.sites
+    gx, gy = grid.centres() if with_grid else (np.empty((0, 0)), np.empty((0, 0)))
+    assessed_idx = np.flatnonzero(assessed)
+    s_index, s_x, s_y, s_interior = _site_points(prep.scenario, sites, assessed_idx, warnings)
+    rx = np.concatenate([gx.ravel(), named["x"].to_numpy(float), s_x])
+    ry = np.concatenate([gy.ravel(), named["y"].to_numpy(float), s_y])
+    n_grid, n_named = gx.size, len(named)
+
+    vd = np.full(rx.size, prep.default_deposition_velocity_m_s, dtype=float)
+    if with_grid:
+        inside, site_of = grid_nodes_in_sites(sites.geometry.values[assessed_idx], grid)
+    else:
+        inside, site_of = np.zeros(0, int), np.zeros(0, int)
+    site_of = assessed_idx[site_of]
+    site_vd = sites["deposition_velocity_m_s"].to_numpy(float)
+    vd[inside] = -np.inf
+    np.maximum.at(vd, inside, site_vd[site_of])
+    named_vd = named["land_cover"].map(
+        {k: v["deposition_velocity_m_s"] for k, v in prep.tables.deposition_velocities.items()}
+    )
+    vd[n_grid : n_grid + n_named] = named_vd.to_numpy(float)
+    vd[n_grid + n_named :] = site_vd[s_index] if len(s_index) else []
+    return _Receptors(
+        rx,
+        ry,
+        vd,
+        n_grid,
+        n_named,
+        member_site=np.concatenate([s_index, site_of]).astype(int),
+        member_receptor=np.concatenate([n_grid + n_named + np.arange(len(s_x)), inside]).astype(
+            int
+        ),
+        member_interior=np.concatenate([s_interior, np.ones(inside.size, bool)]).astype(bool),
+    )
+
+
+def _disperse(prep: Prepared, element_lists, rec: _Receptors, with_grid: bool, progress: bool):
+    """(concentration by role [ug m-3], undepleted PC or None) at every receptor.
+
+    With depletion the same run without it is made at the sites' points (and grid nodes inside
+    sites) only, to show what depletion took off; without the grid at every point, the same
+    points as a run without depletion, so a sensitivity's re-runs share it through the cache.
+    """
+    depleted = prep.settings.depletion_velocity_m_s is not None
+    bar = _progress(progress)
+    task = (
+        bar.add_task("dispersion", total=len(element_lists) * (2 if depleted else 1))
+        if bar
+        else None
+    )
+    if bar:
+        bar.start()
+    try:
+        advance = (lambda: bar.advance(task)) if bar else None
+        conc_by_role = prep.concentration_by_role_ug_m3(
+            element_lists, rec.x_m, rec.y_m, advance=advance
+        )
+        undepleted_pc = None
+        if depleted:
+            at = np.unique(rec.member_receptor) if with_grid else np.arange(rec.x_m.size)
+            plain = dataclasses.replace(prep.settings, depletion_velocity_m_s=None)
+            twin = prep.concentration_by_role_ug_m3(
+                element_lists, rec.x_m[at], rec.y_m[at], plain, advance=advance
+            )
+            undepleted_pc = np.full(rec.x_m.size, np.nan)
+            undepleted_pc[at] = twin["proposed"] + twin["existing"]
+    finally:
+        if bar:
+            bar.stop()
+    return conc_by_role, undepleted_pc
+
+
+def _site_table(
+    prep: Prepared,
+    combos: dict,
+    undepleted_pc,
+    rec: _Receptors,
+    source_shapes,
+    assessed: np.ndarray,
+    warnings: list[str],
+):
+    """The sites with their figures: PC, net change and in-combination maxima and means, % of
+    critical level and load, the undepleted twin where depleted, the predicted environmental
+    totals, distance from the installation and the verdict (blank where not assessed)."""
+    import shapely
+
+    sites, scenario = prep.sites, prep.scenario
+    n_sites = len(sites)
+    members = (rec.member_receptor, rec.member_site, rec.member_interior, n_sites)
+    level = sites["critical_level_ug_m3"].to_numpy()
+    load = sites["critical_load_used_kg_n_ha_yr"].to_numpy()
+    out = sites.copy()
+    for key, conc in combos.items():
+        c_max, c_mean, d_max, d_mean = _site_stats(conc, rec.vd_m_s, *members)
+        out[f"{key}_conc_max_ug_m3"] = c_max
+        if key == "pc":
+            out["pc_conc_mean_ug_m3"] = c_mean
+        out[f"{key}_dep_max_kg_n_ha_yr"] = d_max
+        if key == "pc":
+            out["pc_dep_mean_kg_n_ha_yr"] = d_mean
+            out["pc_dep_max_mol_n_ha_yr"] = kg_n_to_mol_n(d_max)
+            out["pc_dep_max_keq_ha_yr"] = d_max * KEQ_PER_KG_N
+        out[f"{key}_pct_level"] = assess.percent_of(c_max, level)
+        out[f"{key}_pct_load"] = assess.percent_of(d_max, load)
+    if undepleted_pc is not None:
+        c_max, _, d_max, _ = _site_stats(undepleted_pc, rec.vd_m_s, *members)
+        out["pc_conc_max_undepleted_ug_m3"] = c_max
+        out["pc_dep_max_undepleted_kg_n_ha_yr"] = d_max
+        out["pc_pct_level_undepleted"] = assess.percent_of(c_max, level)
+        out["pc_pct_load_undepleted"] = assess.percent_of(d_max, load)
+    out["pec_conc_ug_m3"] = out["background_conc_ug_m3"] + out["pc_conc_max_ug_m3"]
+    out["pec_dep_kg_n_ha_yr"] = out["background_dep_kg_n_ha_yr"] + out["pc_dep_max_kg_n_ha_yr"]
+    out["pec_pct_level"] = assess.percent_of(out["pec_conc_ug_m3"], level)
+    out["pec_pct_load"] = assess.percent_of(out["pec_dep_kg_n_ha_yr"], load)
+    installation = [
+        shape
+        for s, shape in zip(scenario.sources, source_shapes)
+        if s.role in ("proposed", "existing")
+    ]
+    if installation:
+        union = shapely.union_all(installation)
+        out["distance_m"] = shapely.distance(sites.geometry.values, union)
+    else:
+        out["distance_m"] = np.nan
+        warnings.append("no proposed or existing source: the installation's PC is zero")
+    out["assessed"] = assessed
+    out["verdict"] = assess.verdict(
+        out["pc_pct_level"].to_numpy(),
+        out["pc_pct_load"].to_numpy(),
+        out["threshold_percent"].to_numpy(),
+        assessed,
+    )
+    for col in [c for c in out.columns if c.startswith(("pc_", "net_", "incomb_", "pec_"))]:
+        out.loc[~assessed, col] = np.nan
+    return out
+
+
+def _named_point_table(named, combos: dict, dep: dict, rec: _Receptors):
+    """The named points (receptors.csv): PC, net change and in-combination at each."""
+    receptors = named[["id", "x", "y"]].copy()
+    sl = rec.named
+    receptors["conc_ug_m3"] = combos["pc"][sl]
+    receptors["dep_kg_n_ha_yr"] = dep["pc"][sl]
+    receptors["dep_mol_n_ha_yr"] = kg_n_to_mol_n(dep["pc"][sl])
+    receptors["land_cover"] = named["land_cover"].to_numpy()
+    receptors["deposition_velocity_m_s"] = rec.vd_m_s[sl]
+    receptors["net_conc_ug_m3"] = combos["net"][sl]
+    receptors["net_dep_kg_n_ha_yr"] = dep["net"][sl]
+    receptors["incomb_conc_ug_m3"] = combos["incomb"][sl]
+    receptors["incomb_dep_kg_n_ha_yr"] = dep["incomb"][sl]
+    return receptors
+
+
 def screen(
     scenario: Scenario | str | Path,
     *,
@@ -705,126 +943,27 @@ def screen(
     ``sensitivity`` (with the grid) adds the two-sided sensitivity of every site
     (sensitivity.py): the same assumptions varied both ways, re-run at the sites' points.
     ``cache`` is shared by the re-runs of one scenario (a sensitivity; see RunCache).
+
+    The steps: read and check the inputs (:func:`prepare`), place the receptors
+    (:func:`_receptors`), disperse (:func:`_disperse`), combine the roles, and tabulate the
+    sites (:func:`_site_table`) and the named points (:func:`_named_point_table`).
     """
     import geopandas as gpd
-    import shapely
 
     clock = {"start": time.perf_counter()}
     prep = prepare(scenario, tables, cache)
-    scenario, tables, weather = prep.scenario, prep.tables, prep.weather
-    weather_summary, sources, sites = prep.weather_summary, prep.sources, prep.sites
+    scenario = prep.scenario
     warnings = list(prep.warnings)
-    named = _read_named_receptors(scenario, tables)
-
-    grid = grid_around(
-        [s.x for s in scenario.sources],
-        [s.y for s in scenario.sources],
-        scenario.grid.margin_m,
-        scenario.grid.spacing_m,
-        scenario.crs,
-    )
-    if grid.size > MAX_GRID_CELLS:
-        raise InputError(
-            f"grid: {grid.n_cols} x {grid.n_rows} = {grid.size:,} cells exceeds "
-            f"{MAX_GRID_CELLS:,}; increase grid.spacing_m or reduce grid.margin_m"
-        )
-    gx, gy = grid.centres() if with_grid else (np.empty((0, 0)), np.empty((0, 0)))
-    extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
-    assessed = np.asarray(shapely.intersects(sites.geometry.values, extent), dtype=bool)
-    for name in sites.loc[~assessed, "name"]:
-        warnings.append(
-            f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)'
-        )
-
+    named = _read_named_receptors(scenario, prep.tables)
+    grid = _screen_grid(scenario)
+    assessed = _assessed_sites(prep.sites, grid, warnings)
+    rec = _receptors(prep, grid, named, assessed, with_grid, warnings)
     elements_and_shapes = [_source_elements(s) for s in scenario.sources]
-    assessed_idx = np.flatnonzero(assessed)
-    s_index, s_x, s_y, s_interior = site_sample_points(
-        sites.geometry.iloc[assessed_idx],
-        [s.x for s in scenario.sources],
-        [s.y for s in scenario.sources],
-        scenario.grid.spacing_m,
-    )
-    b_index, b_x, b_y = site_boundary_points(
-        sites.geometry.iloc[assessed_idx], min(scenario.grid.spacing_m, BOUNDARY_SPACING_M)
-    )
-    warnings += coarsened_sites(
-        sites.geometry.iloc[assessed_idx],
-        sites["name"].iloc[assessed_idx],
-        scenario.grid.spacing_m,
-        min(scenario.grid.spacing_m, BOUNDARY_SPACING_M),
-    )
-    s_index = np.concatenate([s_index, b_index])
-    s_x, s_y = np.concatenate([s_x, b_x]), np.concatenate([s_y, b_y])
-    s_interior = np.concatenate([s_interior, np.zeros(b_index.size, bool)])
-    s_index = assessed_idx[s_index] if len(s_index) else s_index
-
-    # every receptor in one flat array: grid cells, named points, site sample points
-    rx = np.concatenate([gx.ravel(), named["x"].to_numpy(float), s_x])
-    ry = np.concatenate([gy.ravel(), named["y"].to_numpy(float), s_y])
-    n_grid, n_named = gx.size, len(named)
-
-    # deposition velocity of each receptor by land cover
-    default_vd = prep.default_deposition_velocity_m_s
-    vd = np.full(rx.size, default_vd, dtype=float)
-    member_site, member_receptor, member_interior = (
-        [s_index],
-        [n_grid + n_named + np.arange(len(s_x))],
-        [s_interior],
-    )
-    # grid nodes inside each site (one spatial-index query for all sites); a node inside two
-    # overlapping sites takes the higher of their deposition velocities (the cautious one)
-    if with_grid:
-        inside, site_of = grid_nodes_in_sites(sites.geometry.values[assessed_idx], grid)
-    else:
-        inside, site_of = np.zeros(0, int), np.zeros(0, int)
-    site_of = assessed_idx[site_of]
-    site_vd = sites["deposition_velocity_m_s"].to_numpy(float)
-    vd[inside] = -np.inf
-    np.maximum.at(vd, inside, site_vd[site_of])
-    member_site.append(site_of)
-    member_receptor.append(inside)
-    member_interior.append(np.ones(inside.size, bool))
-    named_vd = named["land_cover"].map(
-        {k: v["deposition_velocity_m_s"] for k, v in tables.deposition_velocities.items()}
-    )
-    vd[n_grid : n_grid + n_named] = named_vd.to_numpy(float)
-    vd[n_grid + n_named :] = (
-        sites["deposition_velocity_m_s"].to_numpy()[s_index] if len(s_index) else []
-    )
-    member_site = np.concatenate(member_site).astype(int)
-    member_receptor = np.concatenate(member_receptor).astype(int)
-    member_interior = np.concatenate(member_interior).astype(bool)
+    element_lists = [elements for elements, _ in elements_and_shapes]
+    source_shapes = [shape for _, shape in elements_and_shapes]
     clock["inputs"] = time.perf_counter()
 
-    depleted = prep.settings.depletion_velocity_m_s is not None
-    bar = _progress(progress)
-    task = (
-        bar.add_task("dispersion", total=len(scenario.sources) * (2 if depleted else 1))
-        if bar
-        else None
-    )
-    if bar:
-        bar.start()
-    element_lists = [elements for elements, _ in elements_and_shapes]
-    try:
-        advance = (lambda: bar.advance(task)) if bar else None
-        conc_by_role = prep.concentration_by_role_ug_m3(element_lists, rx, ry, advance=advance)
-        undepleted_pc = None
-        if depleted:
-            # what depletion took off: the same run without depletion, at the sites' points
-            # (and grid nodes inside sites) only
-            # (every point without the grid: the same points as a run without depletion, so
-            # a sensitivity's re-runs share this dispersion through the cache)
-            at = np.unique(member_receptor) if with_grid else np.arange(rx.size)
-            plain = dataclasses.replace(prep.settings, depletion_velocity_m_s=None)
-            twin = prep.concentration_by_role_ug_m3(
-                element_lists, rx[at], ry[at], plain, advance=advance
-            )
-            undepleted_pc = np.full(rx.size, np.nan)
-            undepleted_pc[at] = twin["proposed"] + twin["existing"]
-    finally:
-        if bar:
-            bar.stop()
+    conc_by_role, undepleted_pc = _disperse(prep, element_lists, rec, with_grid, progress)
     clock["dispersion"] = time.perf_counter()
 
     combos = {
@@ -832,103 +971,36 @@ def screen(
         "net": conc_by_role["proposed"] - conc_by_role["removed"],
     }
     combos["incomb"] = combos["pc"] + conc_by_role["other"]
-    dep = {k: deposition_kg_n_ha_yr(v, vd) for k, v in combos.items()}
-
-    # per-site statistics
-    n_sites = len(sites)
-    results = {
-        key: _site_stats(combos[key], vd, member_receptor, member_site, member_interior, n_sites)
-        for key in combos
-    }
-    level = sites["critical_level_ug_m3"].to_numpy()
-    load = sites["critical_load_used_kg_n_ha_yr"].to_numpy()
-    out = sites.copy()
-    for key, (c_max, c_mean, d_max, d_mean) in results.items():
-        out[f"{key}_conc_max_ug_m3"] = c_max
-        if key == "pc":
-            out["pc_conc_mean_ug_m3"] = c_mean
-        out[f"{key}_dep_max_kg_n_ha_yr"] = d_max
-        if key == "pc":
-            out["pc_dep_mean_kg_n_ha_yr"] = d_mean
-            out["pc_dep_max_mol_n_ha_yr"] = kg_n_to_mol_n(d_max)
-            out["pc_dep_max_keq_ha_yr"] = d_max * KEQ_PER_KG_N
-        out[f"{key}_pct_level"] = assess.percent_of(c_max, level)
-        out[f"{key}_pct_load"] = assess.percent_of(d_max, load)
-    if undepleted_pc is not None:
-        c_max, _, d_max, _ = _site_stats(
-            undepleted_pc, vd, member_receptor, member_site, member_interior, n_sites
-        )
-        out["pc_conc_max_undepleted_ug_m3"] = c_max
-        out["pc_dep_max_undepleted_kg_n_ha_yr"] = d_max
-        out["pc_pct_level_undepleted"] = assess.percent_of(c_max, level)
-        out["pc_pct_load_undepleted"] = assess.percent_of(d_max, load)
-    out["pec_conc_ug_m3"] = out["background_conc_ug_m3"] + out["pc_conc_max_ug_m3"]
-    out["pec_dep_kg_n_ha_yr"] = out["background_dep_kg_n_ha_yr"] + out["pc_dep_max_kg_n_ha_yr"]
-    out["pec_pct_level"] = assess.percent_of(out["pec_conc_ug_m3"], level)
-    out["pec_pct_load"] = assess.percent_of(out["pec_dep_kg_n_ha_yr"], load)
-    installation = [(s.x, s.y) for s in scenario.sources if s.role in ("proposed", "existing")]
-    installation_shapes = [
-        shape
-        for s, (_, shape) in zip(scenario.sources, elements_and_shapes)
-        if s.role in ("proposed", "existing")
-    ]
-    if installation_shapes:
-        union = shapely.union_all(installation_shapes)
-        out["distance_m"] = shapely.distance(sites.geometry.values, union)
-    else:
-        out["distance_m"] = np.nan
-    out["assessed"] = assessed
-    out["verdict"] = assess.verdict(
-        out["pc_pct_level"].to_numpy(),
-        out["pc_pct_load"].to_numpy(),
-        out["threshold_percent"].to_numpy(),
-        assessed,
-    )
-    for col in [c for c in out.columns if c.startswith(("pc_", "net_", "incomb_", "pec_"))]:
-        out.loc[~assessed, col] = np.nan
-    if not installation:
-        warnings.append("no proposed or existing source: the installation's PC is zero")
-
-    receptors = named[["id", "x", "y"]].copy()
-    sl = slice(n_grid, n_grid + n_named)
-    receptors["conc_ug_m3"] = combos["pc"][sl]
-    receptors["dep_kg_n_ha_yr"] = dep["pc"][sl]
-    receptors["dep_mol_n_ha_yr"] = kg_n_to_mol_n(dep["pc"][sl])
-    receptors["land_cover"] = named["land_cover"].to_numpy()
-    receptors["deposition_velocity_m_s"] = vd[sl]
-    receptors["net_conc_ug_m3"] = combos["net"][sl]
-    receptors["net_dep_kg_n_ha_yr"] = dep["net"][sl]
-    receptors["incomb_conc_ug_m3"] = combos["incomb"][sl]
-    receptors["incomb_dep_kg_n_ha_yr"] = dep["incomb"][sl]
-
+    dep = {k: deposition_kg_n_ha_yr(v, rec.vd_m_s) for k, v in combos.items()}
+    out = _site_table(prep, combos, undepleted_pc, rec, source_shapes, assessed, warnings)
+    receptors = _named_point_table(named, combos, dep, rec)
     shape = (grid.n_rows, grid.n_cols) if with_grid else (0, 0)
     fields = {
-        "pc_conc_ug_m3": combos["pc"][:n_grid].reshape(shape),
-        "pc_dep_kg_n_ha_yr": dep["pc"][:n_grid].reshape(shape),
-        "incomb_dep_kg_n_ha_yr": dep["incomb"][:n_grid].reshape(shape),
-        "net_dep_kg_n_ha_yr": dep["net"][:n_grid].reshape(shape),
+        "pc_conc_ug_m3": combos["pc"][: rec.n_grid].reshape(shape),
+        "pc_dep_kg_n_ha_yr": dep["pc"][: rec.n_grid].reshape(shape),
+        "incomb_dep_kg_n_ha_yr": dep["incomb"][: rec.n_grid].reshape(shape),
+        "net_dep_kg_n_ha_yr": dep["net"][: rec.n_grid].reshape(shape),
     }
     clock["assessment"] = time.perf_counter()
     timings = {
         "inputs_s": clock["inputs"] - clock["start"],
         "dispersion_s": clock["dispersion"] - clock["inputs"],
         "assessment_s": clock["assessment"] - clock["dispersion"],
-        "receptors": int(rx.size),
+        "receptors": int(rec.x_m.size),
     }
-    source_shapes = [shape for _, shape in elements_and_shapes]
     result = ScreenResult(
         scenario,
-        tables,
+        prep.tables,
         grid,
-        weather_summary,
-        sources,
+        prep.weather_summary,
+        prep.sources,
         source_shapes,
         gpd.GeoDataFrame(out, geometry="geometry", crs=scenario.crs),
         receptors,
         fields,
         warnings,
         timings,
-        weather,
+        prep.weather,
     )
     if sensitivity and with_grid:
         from siting.sensitivity import sensitivity as two_sided
