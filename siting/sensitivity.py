@@ -31,13 +31,32 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
     points only (no grid), so a variant's site maximum can sit a little below the central
     run's where a grid node inside a site held it.
     """
-    from siting.screen import RunCache, screen
+    variants = _Variants(scenario, result)
+    variants.add("central", result.sites)
+    variants.critical_values()
+    variants.deposition_velocities()
+    variants.model_rules()
+    variants.claimed_abatement()
+    variants.emission_factors()
+    for path in weather_files:
+        variants.weather(Path(path))
+    long = pd.concat(variants.frames, ignore_index=True)
+    return long, _summary(long)
 
-    sites = result.sites
-    frames = []
-    cache = RunCache()  # the re-runs share the habitat layer and unchanged dispersion
 
-    def add(variant, frame, load_col="critical_load_used_kg_n_ha_yr", level=None):
+class _Variants:
+    """The variants of one run, collected in order (one frame per variant)."""
+
+    def __init__(self, scenario, result) -> None:
+        from siting.screen import RunCache
+
+        self.scenario, self.result, self.sites = scenario, result, result.sites
+        self.tables = result.tables
+        self.frames: list[pd.DataFrame] = []
+        self.cache = RunCache()  # the re-runs share the habitat layer and unchanged dispersion
+
+    def add(self, variant: str, frame, load_col="critical_load_used_kg_n_ha_yr", level=None):
+        """One variant's % of load and level and verdict at every site of ``frame``."""
         pct_load = assess.percent_of(
             frame["pc_dep_max_kg_n_ha_yr"].to_numpy(), frame[load_col].to_numpy()
         )
@@ -49,7 +68,7 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
         verdicts = assess.verdict(
             pct_level, pct_load, frame["threshold_percent"].to_numpy(), frame["assessed"].to_numpy()
         )
-        frames.append(
+        self.frames.append(
             pd.DataFrame(
                 {
                     "site": frame["name"].to_numpy(),
@@ -61,97 +80,121 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
             )
         )
 
-    def rerun(variant, scen=scenario, tables=None):
-        add(
-            variant,
-            screen(scen, tables=tables, with_grid=False, sensitivity=False, cache=cache).sites,
+    def rerun(self, variant: str, scenario=None, tables=None) -> None:
+        """A variant that needs dispersion again: re-run at the sites' own points."""
+        from siting.screen import screen
+
+        run = screen(
+            scenario or self.scenario,
+            tables=tables,
+            with_grid=False,
+            sensitivity=False,
+            cache=self.cache,
+        )
+        self.add(variant, run.sites)
+
+    def section(self, name: str, **changes):
+        """The scenario with keys of one section changed."""
+        return self.scenario.model_copy(
+            update={name: getattr(self.scenario, name).model_copy(update=changes)}
         )
 
-    def section(name, **changes):
-        return scenario.model_copy(
-            update={name: getattr(scenario, name).model_copy(update=changes)}
+    def critical_values(self) -> None:
+        """Both ends of each habitat's critical-load range; critical levels 1 and 3 ug/m3."""
+        self.add("critical load lower end", self.sites, "critical_load_min_kg_n_ha_yr")
+        self.add("critical load upper end", self.sites, "critical_load_max_kg_n_ha_yr")
+        self.add("critical level 1 µg/m³", self.sites, level=1.0)
+        self.add("critical level 3 µg/m³", self.sites, level=3.0)
+
+    def deposition_velocities(self) -> None:
+        """Both ends of each land cover's deposition-velocity range."""
+        sites, tables = self.sites, self.tables
+        for end, label in (
+            ("deposition_velocity_min_m_s", "deposition velocity low"),
+            ("deposition_velocity_max_m_s", "deposition velocity high"),
+        ):
+            velocities = {
+                k: {**v, "deposition_velocity_m_s": v[end]}
+                for k, v in tables.deposition_velocities.items()
+            }
+            if self.scenario.deposition.plume_depletion:  # it also depletes: a run of its own
+                self.rerun(
+                    label, tables=dataclasses.replace(tables, deposition_velocities=velocities)
+                )
+                continue
+            # without depletion the flux is v_d x C at every point of a site, whose points all
+            # take the site's own velocity: its deposition scales by the ratio of the velocities
+            ratio = sites["land_cover"].map(
+                lambda c, velocities=velocities: velocities[c]["deposition_velocity_m_s"]
+            ).to_numpy(float) / sites["deposition_velocity_m_s"].to_numpy(float)
+            scaled = sites.copy()
+            scaled["pc_dep_max_kg_n_ha_yr"] = sites["pc_dep_max_kg_n_ha_yr"].to_numpy() * ratio
+            self.add(label, scaled)
+
+    def model_rules(self) -> None:
+        """Plume depletion the other way; the other rule for the wind below the anemometer."""
+        depleted = self.scenario.deposition.plume_depletion
+        self.rerun(
+            "plume depletion " + ("off" if depleted else "on"),
+            self.section("deposition", plume_depletion=not depleted),
+        )
+        rule = self.scenario.weather.wind_below_anemometer
+        other_wind = "unchanged" if rule == "power_law" else "power_law"
+        self.rerun(
+            f"wind below the anemometer: {other_wind.replace('_', ' ')}",
+            self.section("weather", wind_below_anemometer=other_wind),
         )
 
-    add("central", sites)
-    add("critical load lower end", sites, "critical_load_min_kg_n_ha_yr")
-    add("critical load upper end", sites, "critical_load_max_kg_n_ha_yr")
-    add("critical level 1 µg/m³", sites, level=1.0)
-    add("critical level 3 µg/m³", sites, level=3.0)
-    tables = result.tables
-    depleted = scenario.deposition.plume_depletion
-    for end, label in (
-        ("deposition_velocity_min_m_s", "deposition velocity low"),
-        ("deposition_velocity_max_m_s", "deposition velocity high"),
-    ):
-        velocities = {
-            k: {**v, "deposition_velocity_m_s": v[end]}
-            for k, v in tables.deposition_velocities.items()
-        }
-        if depleted:  # the velocity also depletes the plume: a run of its own
-            rerun(label, tables=dataclasses.replace(tables, deposition_velocities=velocities))
-            continue
-        # without depletion the flux is v_d x C at every point of a site, whose points all
-        # take the site's own velocity: its deposition scales by the ratio of the velocities
-        ratio = sites["land_cover"].map(
-            lambda c, velocities=velocities: velocities[c]["deposition_velocity_m_s"]
-        ).to_numpy(float) / sites["deposition_velocity_m_s"].to_numpy(float)
-        scaled = sites.copy()
-        scaled["pc_dep_max_kg_n_ha_yr"] = sites["pc_dep_max_kg_n_ha_yr"].to_numpy() * ratio
-        add(label, scaled)
-    rerun(
-        "plume depletion " + ("off" if depleted else "on"),
-        section("deposition", plume_depletion=not depleted),
-    )
-    other_wind = (
-        "unchanged" if scenario.weather.wind_below_anemometer == "power_law" else "power_law"
-    )
-    rerun(
-        f"wind below the anemometer: {other_wind.replace('_', ' ')}",
-        section("weather", wind_below_anemometer=other_wind),
-    )
-    claimed = [
-        src.id
-        for src in scenario.sources
-        if src.abatement in tables.abatement
-        and is_claimed_reduction(src.reduction_percent, tables.abatement[src.abatement])
-    ]
-    if claimed:
+    def claimed_abatement(self) -> None:
+        """Every claimed reduction (above its range's lower end) back at the lower end."""
+        abatement = self.tables.abatement
+        claimed = [
+            src.id
+            for src in self.scenario.sources
+            if src.abatement in abatement
+            and is_claimed_reduction(src.reduction_percent, abatement[src.abatement])
+        ]
+        if not claimed:
+            return
         lowered = [
             src.model_copy(update={"reduction_percent": None, "reduction_basis": None})
             if src.id in claimed
             else src
-            for src in scenario.sources
+            for src in self.scenario.sources
         ]
-        rerun(
+        self.rerun(
             "abatement at the lower end of its range (" + ", ".join(claimed) + ")",
-            scenario.model_copy(update={"sources": lowered}),
+            self.scenario.model_copy(update={"sources": lowered}),
         )
-    uncertainty = tables.emission_factor_uncertainty
-    if uncertainty and any(src.nh3_kg_per_year is None for src in scenario.sources):
+
+    def emission_factors(self) -> None:
+        """Every emission factor down and up by its stated uncertainty."""
+        uncertainty = self.tables.emission_factor_uncertainty
+        if not uncertainty or all(src.nh3_kg_per_year is not None for src in self.scenario.sources):
+            return
         u = uncertainty["emission_factor_percent"] / 100.0
         for sign, word in ((-1, "low"), (1, "high")):
             factors = [
                 {**r, "nh3_kg_per_place_yr": r["nh3_kg_per_place_yr"] * (1 + sign * u)}
-                for r in tables.emission_factors
+                for r in self.tables.emission_factors
             ]
-            rerun(
+            self.rerun(
                 f"emission factors {word} ({'-' if sign < 0 else '+'}"
                 f"{uncertainty['emission_factor_percent']:g} %)",
-                tables=dataclasses.replace(tables, emission_factors=factors),
+                tables=dataclasses.replace(self.tables, emission_factors=factors),
             )
-    for path in weather_files:
-        path = Path(path)
+
+    def weather(self, path: Path) -> None:
+        """Another weather record (a frequency table or an hourly record, by its header)."""
         first = path.read_text(encoding="utf-8", errors="replace").splitlines()[:1]
         hourly = bool(first) and first[0].lower().startswith("time")
-        weather = scenario.weather.model_copy(
+        weather = self.scenario.weather.model_copy(
             update={
                 "frequency_table": None if hourly else path.resolve(),
                 "hourly": [path.resolve()] if hourly else None,
             }
         )
-        rerun(f"weather: {path.name}", scenario.model_copy(update={"weather": weather}))
-    long = pd.concat(frames, ignore_index=True)
-    return long, _summary(long)
+        self.rerun(f"weather: {path.name}", self.scenario.model_copy(update={"weather": weather}))
 
 
 def _summary(long: pd.DataFrame) -> pd.DataFrame:
