@@ -597,44 +597,26 @@ def _contour_levels(sites) -> list[tuple[float, str]]:
     return sorted(levels.items())
 
 
-def _write_all(result, folder: Path, run_time: str) -> None:
+def _write_rasters(result, folder: Path) -> None:
+    """concentration.tif, deposition.tif and deposition_in_combination.tif."""
+    grid, fields = result.grid, result.fields
+    for name, key, description, units in (
+        ("concentration.tif", "pc_conc_ug_m3",
+         "annual mean NH3 concentration, process contribution (screening estimate)", "ug/m3"),
+        ("deposition.tif", "pc_dep_kg_n_ha_yr",
+         "dry deposition of N from NH3, process contribution (screening estimate)",
+         "kg N/ha/yr"),
+        ("deposition_in_combination.tif", "incomb_dep_kg_n_ha_yr",
+         "dry deposition of N from NH3, process contribution + other sources", "kg N/ha/yr"),
+    ):  # fmt: skip
+        write_geotiff(folder / name, grid, fields[key], description, units)
+
+
+def _write_tables(result, folder: Path) -> pd.DataFrame:
+    """sites.csv and sites.gpkg (the undepleted figures beside the depleted ones),
+    receptors.csv, sources.csv and sensitivity.csv; returns the sites table as written."""
     import geopandas as gpd
 
-    from siting import __version__
-    from siting.figures import (
-        deposition_figure,
-        pc_vs_distance_figure,
-        stability_by_speed_png,
-        wind_rose_from_table_png,
-        wind_rose_png,
-    )
-    from siting.hourly import HourlyWeather
-    from siting.longterm import WeatherClasses
-    from siting.report import write_report
-    from siting.webmap import write_screen_map
-
-    grid = result.grid
-    write_geotiff(
-        folder / "concentration.tif",
-        grid,
-        result.fields["pc_conc_ug_m3"],
-        "annual mean NH3 concentration, process contribution (screening estimate)",
-        "ug/m3",
-    )
-    write_geotiff(
-        folder / "deposition.tif",
-        grid,
-        result.fields["pc_dep_kg_n_ha_yr"],
-        "dry deposition of N from NH3, process contribution (screening estimate)",
-        "kg N/ha/yr",
-    )
-    write_geotiff(
-        folder / "deposition_in_combination.tif",
-        grid,
-        result.fields["incomb_dep_kg_n_ha_yr"],
-        "dry deposition of N from NH3, process contribution + other sources",
-        "kg N/ha/yr",
-    )
     sites = result.sites
     columns = list(SITE_COLUMNS)
     at = columns.index("pc_pct_load") + 1  # beside the depleted figures
@@ -648,9 +630,66 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     write_csv(result.sources, folder / "sources.csv")
     if result.sensitivity is not None:
         write_csv(result.sensitivity, folder / "sensitivity.csv")
+    return table
+
+
+def _report_figures(result, sources_gdf, contours) -> tuple[dict, dict]:
+    """(the report's result figures, its weather figures), each title -> PNG bytes."""
+    from siting.figures import (
+        deposition_figure,
+        pc_vs_distance_figure,
+        stability_by_speed_png,
+        wind_rose_from_table_png,
+        wind_rose_png,
+    )
+    from siting.hourly import HourlyWeather
+    from siting.longterm import WeatherClasses
+
+    grid, sites = result.grid, result.sites
+    figures = {
+        "Deposition (process contribution) with habitat sites and sources": deposition_figure(
+            result.fields["pc_dep_kg_n_ha_yr"],
+            west_m=grid.west_m,
+            north_m=grid.north_m,
+            cell_m=grid.cell_m,
+            sites=sites,
+            sources=sources_gdf,
+            contours=contours,
+            crs_label=result.scenario.crs,
+        ),
+        "Process contribution at each site against distance from the installation": (
+            pc_vs_distance_figure(pd.DataFrame(sites.drop(columns="geometry")))
+        ),
+    }
+    weather_figures = {}  # shown in the report's weather part, after the summary table
+    if isinstance(result.weather, HourlyWeather):
+        weather_figures["Wind rose of the hourly record (direction the wind blows from)"] = (
+            wind_rose_png(result.weather)
+        )
+        weather_figures["Stability class by wind speed (Turner's method or as given)"] = (
+            stability_by_speed_png(result.weather)
+        )
+    elif isinstance(result.weather, WeatherClasses):
+        weather_figures["Wind rose of the frequency table (direction the wind blows from)"] = (
+            wind_rose_from_table_png(result.weather)
+        )
+    return figures, weather_figures
+
+
+def _write_all(result, folder: Path, run_time: str) -> None:
+    """Every output of a screening run into ``folder`` (the staging folder): rasters, tables,
+    the packed inputs, map.html, report.html and, last, run.json with every output hashed."""
+    import geopandas as gpd
+
+    from siting import __version__
+    from siting.report import write_report
+    from siting.webmap import write_screen_map
+
+    grid, sites = result.grid, result.sites
+    _write_rasters(result, folder)
+    table = _write_tables(result, folder)
     record = run_record(result, run_time)
     record["package"] = package_inputs(result, folder)
-
     sources_gdf = gpd.GeoDataFrame(
         result.sources.copy(), geometry=result.source_geometries, crs=result.scenario.crs
     )
@@ -670,33 +709,7 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         version=__version__,
         run_time=run_time,
     )
-    figures = {
-        "Deposition (process contribution) with habitat sites and sources": deposition_figure(
-            result.fields["pc_dep_kg_n_ha_yr"],
-            west_m=grid.west_m,
-            north_m=grid.north_m,
-            cell_m=grid.cell_m,
-            sites=sites,
-            sources=sources_gdf,
-            contours=contours,
-            crs_label=result.scenario.crs,
-        ),
-        "Process contribution at each site against distance from the installation": pc_vs_distance_figure(
-            pd.DataFrame(sites.drop(columns="geometry"))
-        ),
-    }
-    weather_figures = {}  # shown in the report's weather part, after the summary table
-    if isinstance(result.weather, HourlyWeather):
-        weather_figures["Wind rose of the hourly record (direction the wind blows from)"] = (
-            wind_rose_png(result.weather)
-        )
-        weather_figures["Stability class by wind speed (Turner's method or as given)"] = (
-            stability_by_speed_png(result.weather)
-        )
-    elif isinstance(result.weather, WeatherClasses):
-        weather_figures["Wind rose of the frequency table (direction the wind blows from)"] = (
-            wind_rose_from_table_png(result.weather)
-        )
+    figures, weather_figures = _report_figures(result, sources_gdf, contours)
     write_report(
         folder / "report.html",
         title=result.scenario.title,
