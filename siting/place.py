@@ -144,18 +144,8 @@ def _candidates(allowed, house_shape, spacing_m: float, house_id: str):
     return cx, cy, grid, row, col
 
 
-def place(
-    scenario: Scenario | str | Path,
-    house_id: str,
-    *,
-    spacing_m: float | None = None,
-    in_combination: bool | None = None,
-) -> PlaceResult:
-    """Search the holding for positions of source ``house_id`` (its x/y are ignored)."""
-
-    clock = {"start": time.perf_counter()}
-    if not isinstance(scenario, Scenario):
-        scenario = load_scenario(scenario)
+def _house_of(scenario: Scenario, house_id: str):
+    """The source the search moves, refused without a [holding] or an unknown id."""
     if scenario.holding is None:
         raise InputError(
             f"{scenario.path.name if scenario.path else 'scenario'}: "
@@ -164,24 +154,12 @@ def place(
     ids = [s.id for s in scenario.sources]
     if house_id not in ids:
         raise InputError(f'--house "{house_id}": no such source (sources: {", ".join(ids)})')
-    house = scenario.sources[ids.index(house_id)]
-    cfg = scenario.holding
-    spacing_m = spacing_m or cfg.spacing_m
-    in_combination = cfg.in_combination if in_combination is None else in_combination
-    prep = prepare(scenario)
-    warnings = list(prep.warnings)
-    holding, allowed = _allowed_area(scenario, house_id, prep, warnings)
-    origin_house = house.model_copy(update={"x": 0.0, "y": 0.0})
-    elements0, shape0 = _source_elements(origin_house)
-    cx, cy, grid, row, col = _candidates(allowed, shape0, spacing_m, house_id)
-    grid = GridSpec(grid.west_m, grid.north_m, grid.cell_m, grid.n_cols, grid.n_rows, scenario.crs)
+    return scenario.sources[ids.index(house_id)]
 
-    sites = prep.sites
-    n_sites = len(sites)
-    p_site, px, py = site_outline_points(sites.geometry, min(spacing_m, BOUNDARY_SPACING_M))
-    clock["inputs"] = time.perf_counter()
 
-    # the house's unit field as a kernel of offsets, wide enough for every candidate-site pair
+def _unit_site_maxima(prep: Prepared, house_id: str, elements0, cx, cy, px, py, p_site):
+    """Each site's maximum concentration [ug m-3 per g s-1] from the house at each candidate
+    position: the house's unit field as a kernel of offsets, wide enough for every pair."""
     corners = np.array(
         [[cx.min(), cy.min()], [cx.min(), cy.max()], [cx.max(), cy.min()], [cx.max(), cy.max()]]
     )
@@ -191,10 +169,29 @@ def place(
     kernel = PolarKernel(
         radius, bearing, prep.unit_concentration_ug_m3(house_id, elements0, ox, oy)
     )
-    unit_conc = site_maxima(kernel, cx, cy, px, py, p_site, n_sites)  # ug/m3 per g/s
-    clock["kernel"] = time.perf_counter()
+    n_sites = len(prep.sites)
+    return site_maxima(kernel, cx, cy, px, py, p_site, n_sites), int(ox.size)
 
-    src_row = prep.sources.set_index("source_id").loc[house_id]
+
+def _other_sources_ug_m3(prep: Prepared, house_id: str, px, py, p_site) -> np.ndarray:
+    """Each site's maximum concentration [ug m-3] from the other sources (in combination):
+    every source but the house and those removed."""
+    other_conc = np.zeros(len(prep.sites))
+    for src, emission_g_s in zip(prep.scenario.sources, prep.sources["emission_g_s"]):
+        if src.id == house_id or src.role == "removed" or emission_g_s <= 0:
+            continue
+        elements, _ = _source_elements(src)
+        field_ug = emission_g_s * prep.unit_concentration_ug_m3(src.id, elements, px, py)
+        np.maximum.at(other_conc, p_site, field_ug)
+    return other_conc
+
+
+def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy, warnings):
+    """The candidate positions with their worst sites, required reduction, most places and
+    whether they pass as described, best first; and the per-site % of level and load (rows
+    in the table's order) and each position's largest share of its threshold."""
+    sites = prep.sites
+    src_row = prep.sources.set_index("source_id").loc[house.id]
     described_g_s = float(src_row["emission_g_s"])
     unabated_g_s = float(src_row["nh3_unabated_kg_yr"]) * KG_YR_TO_G_S
     level = sites["critical_level_ug_m3"].to_numpy()
@@ -208,15 +205,7 @@ def place(
         pct_load = 100.0 * conc * vd * UG_NH3_M2_S_TO_KG_N_HA_YR / load
         return pct_level, pct_load, share_of_threshold(pct_level, pct_load, threshold)
 
-    other_conc = np.zeros(n_sites)
-    if in_combination:
-        for src, emission_g_s in zip(scenario.sources, prep.sources["emission_g_s"]):
-            if src.id == house_id or src.role == "removed" or emission_g_s <= 0:
-                continue
-            elements, _ = _source_elements(src)
-            field_ug = emission_g_s * prep.unit_concentration_ug_m3(src.id, elements, px, py)
-            np.maximum.at(other_conc, p_site, field_ug)
-    _, _, other_share = shares(0.0, other_conc, unit=np.zeros(n_sites))
+    _, _, other_share = shares(0.0, other_conc, unit=np.zeros(len(sites)))
     pct_level, pct_load, share = shares(described_g_s, other_conc)
     _, _, unabated_share = shares(unabated_g_s)
     names = sites["name"].to_numpy()
@@ -233,17 +222,15 @@ def place(
             "required_reduction_percent": required_reduction_percent(unabated_share, other_share),
         }
     )
-    places = house.places
-    options = list(prep.tables.abatement.values())
-    if places is not None:
-        table["max_places_unabated"] = max_places(places, unabated_share, other_share)
-        for option in options:
+    if house.places is not None:
+        table["max_places_unabated"] = max_places(house.places, unabated_share, other_share)
+        for option in prep.tables.abatement.values():
             table[f"max_places_{option['id']}"] = max_places(
-                places, unabated_share, other_share, default_reduction_percent(option)
+                house.places, unabated_share, other_share, default_reduction_percent(option)
             )
     else:
         warnings.append(
-            f'source "{house_id}" gives nh3_kg_per_year, not places: the '
+            f'source "{house.id}" gives nh3_kg_per_year, not places: the '
             "max-places columns are left out"
         )
     table["limiting_site"] = names[limiting]
@@ -254,10 +241,54 @@ def place(
     )
     table = table.iloc[order].reset_index(drop=True)
     by_site = {"pct_level": pct_level[order], "pct_load": pct_load[order]}
+    return table, by_site, pct_load.max(axis=1), share.max(axis=1)
+
+
+def place(
+    scenario: Scenario | str | Path,
+    house_id: str,
+    *,
+    spacing_m: float | None = None,
+    in_combination: bool | None = None,
+) -> PlaceResult:
+    """Search the holding for positions of source ``house_id`` (its x/y are ignored).
+
+    The steps: the house and the allowed area (:func:`_allowed_area`), candidate positions,
+    each site's maximum from the house anywhere (:func:`_unit_site_maxima`) and from the other
+    sources (:func:`_other_sources_ug_m3`), and the table of positions (:func:`_position_table`).
+    """
+    clock = {"start": time.perf_counter()}
+    if not isinstance(scenario, Scenario):
+        scenario = load_scenario(scenario)
+    house = _house_of(scenario, house_id)
+    cfg = scenario.holding
+    spacing_m = spacing_m or cfg.spacing_m
+    in_combination = cfg.in_combination if in_combination is None else in_combination
+    prep = prepare(scenario)
+    warnings = list(prep.warnings)
+    holding, allowed = _allowed_area(scenario, house_id, prep, warnings)
+    origin_house = house.model_copy(update={"x": 0.0, "y": 0.0})
+    elements0, shape0 = _source_elements(origin_house)
+    cx, cy, grid, row, col = _candidates(allowed, shape0, spacing_m, house_id)
+    grid = GridSpec(grid.west_m, grid.north_m, grid.cell_m, grid.n_cols, grid.n_rows, scenario.crs)
+    p_site, px, py = site_outline_points(prep.sites.geometry, min(spacing_m, BOUNDARY_SPACING_M))
+    clock["inputs"] = time.perf_counter()
+
+    unit_conc, kernel_points = _unit_site_maxima(prep, house_id, elements0, cx, cy, px, py, p_site)
+    clock["kernel"] = time.perf_counter()
+
+    other_conc = (
+        _other_sources_ug_m3(prep, house_id, px, py, p_site)
+        if in_combination
+        else np.zeros(len(prep.sites))
+    )
+    table, by_site, worst_load, worst_share = _position_table(
+        prep, house, unit_conc, other_conc, cx, cy, warnings
+    )
     surface = np.full((grid.n_rows, grid.n_cols), np.nan)
-    surface[row, col] = pct_load.max(axis=1)
+    surface[row, col] = worst_load
     share_surface = np.full((grid.n_rows, grid.n_cols), np.nan)
-    share_surface[row, col] = share.max(axis=1)
+    share_surface[row, col] = worst_share
     clock["assessment"] = time.perf_counter()
     timings = {
         "inputs_s": clock["inputs"] - clock["start"],
@@ -265,7 +296,7 @@ def place(
         "assessment_s": clock["assessment"] - clock["kernel"],
         "positions": int(cx.size),
         "site_points": int(px.size),
-        "kernel_points": int(ox.size),
+        "kernel_points": kernel_points,
     }
     return PlaceResult(
         prep,
@@ -276,7 +307,7 @@ def place(
         share_surface,
         allowed,
         holding,
-        options,
+        list(prep.tables.abatement.values()),
         by_site,
         warnings,
         timings,
