@@ -47,6 +47,48 @@ def read_frequency_table(
         Legal but doubtful content (speeds raised to the floor).
     """
     name = Path(path).name
+    table, as_written, lines = _read_table(path, name)
+    _numeric_columns(table, as_written, lines, name)
+    stability, direction, speed, freq = _checked_values(table, lines, name)
+    total, counts = _frequency_total(freq, name)
+    sectors = _sectors(direction, name)
+    warnings = []
+    raised = speed < min_wind_speed_m_s
+    raised_share = float(freq[raised].sum() / total)
+    if raised.any():
+        warnings.append(
+            f"{name}: {raised_share:.1%} of the time has class speeds below "
+            f"{min_wind_speed_m_s} m/s; raised to that floor (plume formula needs u > 0)"
+        )
+    speed = np.maximum(speed, min_wind_speed_m_s)
+    speeds = np.unique(speed)
+    frequency = np.zeros((len(sectors), len(speeds), len(STABILITY_CLASSES)))
+    k = np.searchsorted(sectors, direction)
+    j = np.searchsorted(speeds, speed)
+    s = stability.map({c: i for i, c in enumerate(STABILITY_CLASSES)}).to_numpy()
+    np.add.at(frequency, (k, j, s), freq / total)
+    weather = WeatherClasses(sectors, speeds, frequency, anemometer_height_m)
+    by_class = frequency.sum(axis=(0, 1))
+    by_sector = frequency.sum(axis=(1, 2))
+    summary = {
+        "file": name,
+        "sectors": len(sectors),
+        "sector_width_deg": 360.0 / len(sectors),
+        "speed_classes_m_s": [float(v) for v in speeds],
+        "mean_speed_m_s": float((frequency.sum(axis=(0, 2)) * speeds).sum()),
+        "stability_share": {c: float(by_class[i]) for i, c in enumerate(STABILITY_CLASSES)},
+        "prevailing_from_deg": float(sectors[int(np.argmax(by_sector))]),
+        "share_raised_to_min_speed": raised_share,
+        "anemometer_height_m": anemometer_height_m,
+        "rows": int(len(table)),
+        "frequencies_given_as": "counts (normalised)" if counts else "fractions",
+    }
+    return weather, summary, warnings
+
+
+def _read_table(path: Path, name: str):
+    """(the table, the same cells as text as the user wrote them, the file's line number of
+    each row), refused if unreadable, without a column or without rows."""
     try:
         table = pd.read_csv(path, skipinitialspace=True, comment="#")
     except Exception as exc:  # pandas raises several types for unreadable text
@@ -64,42 +106,66 @@ def read_frequency_table(
         path, skipinitialspace=True, comment="#", dtype=str, keep_default_na=False
     )  # for messages: each cell as the user wrote it
     as_written.columns = [str(c).strip() for c in as_written.columns]
+    text = Path(path).read_text(encoding="utf-8", errors="replace").splitlines()
+    # the lines pandas reads: not blank, not a whole-line comment; the first is the header
+    data_lines = [
+        i + 1 for i, line in enumerate(text) if line.strip() and not line.lstrip().startswith("#")
+    ][1:]
+    if len(data_lines) != len(table):  # a layout we did not foresee: count from the header
+        data_lines = list(range(2, len(table) + 2))
+    return table, as_written, np.asarray(data_lines)
+
+
+def _numeric_columns(table, as_written, lines, name: str) -> None:
+    """Direction, speed and frequency as floats, each a finite number, else the first bad
+    cell named by line, as written."""
     for col in ("direction_deg", "speed_m_s", "frequency"):
         values = pd.to_numeric(table[col], errors="coerce")
         bad = values.isna() | ~np.isfinite(values.to_numpy(float, na_value=np.nan))
         if bad.any():
-            row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
-            text = str(as_written[col].iloc[row - 2]).strip()
+            i = int(np.flatnonzero(bad.to_numpy())[0])
+            text = str(as_written[col].iloc[i]).strip()
             what = (
                 "a finite number"
                 if text.lower().lstrip("+-") in ("nan", "inf", "infinity")
                 else "a number"
             )
-            raise InputError(f"{name}, line {row}: {col} must be {what}, got {text!r}")
+            raise InputError(f"{name}, line {lines[i]}: {col} must be {what}, got {text!r}")
         table[col] = values.astype(float)
+
+
+def _checked_values(table, lines, name: str):
+    """(stability letters, directions [deg, 0-360), speeds, frequencies), each in range,
+    else the first bad row named by line."""
     stability = table["stability"].astype(str).str.strip().str.upper()
     bad = ~stability.isin(STABILITY_CLASSES)
     if bad.any():
-        row = int(np.flatnonzero(bad.to_numpy())[0]) + 2
+        i = int(np.flatnonzero(bad.to_numpy())[0])
         raise InputError(
-            f"{name}, line {row}: stability must be one of A-F (Pasquill class), "
-            f"got {table['stability'].iloc[row - 2]!r}"
+            f"{name}, line {lines[i]}: stability must be one of A-F (Pasquill class), "
+            f"got {table['stability'].iloc[i]!r}"
         )
     direction = table["direction_deg"].to_numpy()
     if ((direction < 0) | (direction > 360)).any():
-        row = int(np.flatnonzero((direction < 0) | (direction > 360))[0]) + 2
+        i = int(np.flatnonzero((direction < 0) | (direction > 360))[0])
         raise InputError(
-            f"{name}, line {row}: direction_deg must be within 0..360, got {direction[row - 2]}"
+            f"{name}, line {lines[i]}: direction_deg must be within 0..360, got {direction[i]}"
         )
     direction = np.round(direction % 360.0, 6)
     speed = table["speed_m_s"].to_numpy()
     if (speed < 0).any():
-        row = int(np.flatnonzero(speed < 0)[0]) + 2
-        raise InputError(f"{name}, line {row}: speed_m_s must be >= 0, got {speed[row - 2]:g}")
+        i = int(np.flatnonzero(speed < 0)[0])
+        raise InputError(f"{name}, line {lines[i]}: speed_m_s must be >= 0, got {speed[i]:g}")
     freq = table["frequency"].to_numpy()
     if (freq < 0).any():
-        row = int(np.flatnonzero(freq < 0)[0]) + 2
-        raise InputError(f"{name}, line {row}: frequency must be >= 0, got {freq[row - 2]:g}")
+        i = int(np.flatnonzero(freq < 0)[0])
+        raise InputError(f"{name}, line {lines[i]}: frequency must be >= 0, got {freq[i]:g}")
+    return stability, direction, speed, freq
+
+
+def _frequency_total(freq: np.ndarray, name: str) -> tuple[float, bool]:
+    """(the sum of the frequencies, whether they are whole counts): fractions must sum to 1
+    within FRACTION_SUM_TOLERANCE; counts are normalised."""
     with np.errstate(over="ignore"):
         total = freq.sum()
     if not np.isfinite(total):
@@ -116,7 +182,11 @@ def read_frequency_table(
             f"(within {FRACTION_SUM_TOLERANCE:g}), or give whole-number counts "
             "(hours), which are normalised"
         )
+    return float(total), counts
 
+
+def _sectors(direction: np.ndarray, name: str) -> np.ndarray:
+    """The distinct directions, at least 4 and evenly spaced."""
     sectors = np.unique(direction)
     n = len(sectors)
     if n < 4:
@@ -127,36 +197,4 @@ def read_frequency_table(
             f"{name}: the {n} distinct directions must be evenly spaced "
             f"({360.0 / n:g} deg apart); got {', '.join(f'{d:g}' for d in sectors)}"
         )
-
-    warnings = []
-    raised = speed < min_wind_speed_m_s
-    raised_share = float(freq[raised].sum() / total)
-    if raised.any():
-        warnings.append(
-            f"{name}: {raised_share:.1%} of the time has class speeds below "
-            f"{min_wind_speed_m_s} m/s; raised to that floor (plume formula needs u > 0)"
-        )
-    speed = np.maximum(speed, min_wind_speed_m_s)
-    speeds = np.unique(speed)
-    frequency = np.zeros((n, len(speeds), len(STABILITY_CLASSES)))
-    k = np.searchsorted(sectors, direction)
-    j = np.searchsorted(speeds, speed)
-    s = stability.map({c: i for i, c in enumerate(STABILITY_CLASSES)}).to_numpy()
-    np.add.at(frequency, (k, j, s), freq / total)
-    weather = WeatherClasses(sectors, speeds, frequency, anemometer_height_m)
-    by_class = frequency.sum(axis=(0, 1))
-    by_sector = frequency.sum(axis=(1, 2))
-    summary = {
-        "file": name,
-        "sectors": n,
-        "sector_width_deg": 360.0 / n,
-        "speed_classes_m_s": [float(v) for v in speeds],
-        "mean_speed_m_s": float((frequency.sum(axis=(0, 2)) * speeds).sum()),
-        "stability_share": {c: float(by_class[i]) for i, c in enumerate(STABILITY_CLASSES)},
-        "prevailing_from_deg": float(sectors[int(np.argmax(by_sector))]),
-        "share_raised_to_min_speed": raised_share,
-        "anemometer_height_m": anemometer_height_m,
-        "rows": int(len(table)),
-        "frequencies_given_as": "counts (normalised)" if counts else "fractions",
-    }
-    return weather, summary, warnings
+    return sectors

@@ -97,3 +97,17 @@ def test_counts_are_normalised_and_said(tmp_path):
     )
     assert summary["frequencies_given_as"] == "counts (normalised)"
     assert abs(weather.frequency_fraction.sum() - 1.0) < 1e-12  # normalised (definition)
+
+
+def test_a_bad_row_is_named_by_its_line_in_the_file(tmp_path):
+    """Comment and blank lines before a bad row: the message names the row's own line in the
+    file (line 6 here, counted by hand), not its position among the rows."""
+    path = tmp_path / "t.csv"
+    path.write_text(
+        "# invented table\ndirection_deg,speed_m_s,stability,frequency\n"
+        "0,5,D,0.25\n\n# the next row is bad\n90,5,G,0.25\n"
+        "180,5,D,0.25\n270,5,D,0.25\n",
+        encoding="utf-8",
+    )
+    with pytest.raises(InputError, match=r"t.csv, line 6: stability must be one of A-F"):
+        read_frequency_table(path)
