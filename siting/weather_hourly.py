@@ -58,6 +58,7 @@ from __future__ import annotations
 import csv
 import json
 from collections.abc import Sequence
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from itertools import pairwise
 from pathlib import Path
@@ -147,6 +148,64 @@ class _RawFile:
         self.lines = lines
         self.time_utc = time_utc  # datetime64[m]
         self.offsets = offsets
+
+
+@dataclass
+class _Rows:
+    """Every row of a record's files end to end, in time order, as checked values.
+
+    Numbers are NaN where empty. ``method_value`` is what sets the stability class: the given
+    class 0..5 (-1 where empty) when ``given_class``, else the cloud cover [oktas].
+    """
+
+    files: list[_RawFile]  # in time order
+    direction_deg: np.ndarray
+    speed_m_s: np.ndarray
+    temperature_c: np.ndarray
+    ceiling_ft: np.ndarray
+    given_class: bool
+    method_value: np.ndarray
+    time_utc: np.ndarray  # datetime64[m]
+    line: np.ndarray  # the row's line number in its file
+    file_of: np.ndarray  # the row's file, an index into files
+    written: np.ndarray  # the row's time text as written
+
+    @property
+    def names(self) -> str:
+        """The file names, comma-separated, for messages."""
+        return ", ".join(f.name for f in self.files)
+
+    def where(self, i: int) -> str:
+        """'<file>, line <n>' of row i."""
+        return _where(self.files[self.file_of[i]].name, self.line[i])
+
+
+@dataclass
+class _Timeline:
+    """The rows on the hourly timeline: the hour of each, the calms and the hours used."""
+
+    hour_index: np.ndarray  # whole hours since the record's first time, per row
+    n_expected: int  # hours from the first to the last time, both included
+    calm: np.ndarray  # speed below the calm threshold (False where empty), per row
+    valid: np.ndarray  # the row is an hour used (missing-hour rule), per row
+    gaps: list[dict]  # runs of missing hours, longest first (_gaps)
+
+    @property
+    def used(self) -> np.ndarray:
+        """Row indices of the hours used, in time order."""
+        return np.flatnonzero(self.valid)
+
+    @property
+    def n_used(self) -> int:
+        return int(self.valid.sum())
+
+    @property
+    def n_missing(self) -> int:
+        return self.n_expected - self.n_used
+
+    @property
+    def missing_percent(self) -> float:
+        return 100.0 * self.n_missing / self.n_expected
 
 
 def _where(name: str, line: int) -> str:
@@ -563,7 +622,7 @@ def _checked_edges(speed_edges_m_s) -> np.ndarray:
     return edges
 
 
-def read_hourly_record(
+def read_hourly_record(  # > 80 lines only for its docstring (~70); the body is ~45
     paths,
     latitude_deg: float,
     longitude_deg: float,
@@ -631,9 +690,6 @@ def read_hourly_record(
         more than ``max_missing_percent`` missing hours (with the share and the longest gap);
         or a direction_step_deg outside 0..45 (named ``weather.direction_step_deg``).
     """
-    from siting.solar import is_night, solar_elevation_deg
-    from siting.stability import turner_stability_index
-
     _check_options(
         latitude_deg,
         longitude_deg,
@@ -644,6 +700,51 @@ def read_hourly_record(
         max_missing_percent,
     )
     given_step = _checked_direction_step(direction_step_deg)
+    files, warnings = _read_files(paths, utc_offset_h)
+    rows = _joined_rows(files)
+    hour_index, n_expected = _hour_index(rows)
+    timeline = _usable_hours(rows, hour_index, n_expected, calm_threshold_m_s, max_missing_percent)
+    direction, filled = _calm_directions(rows, timeline)
+    used = timeline.used
+    times_s = rows.time_utc[used].astype("datetime64[s]")
+    stability_index = _stability_index(rows, used, times_s, latitude_deg, longitude_deg)
+    used_direction = direction[used].astype(float)
+    step, spread, step_warnings = _direction_step_and_spread(used_direction, given_step, rows)
+    weather = HourlyWeather(
+        times_s,
+        used_direction,
+        np.maximum(rows.speed_m_s[used], min_wind_speed_m_s),
+        stability_index,
+        rows.temperature_c[used].astype(float),
+        float(anemometer_height_m),
+        spread,
+    )
+    summary = _summary(
+        rows,
+        timeline,
+        weather,
+        filled,
+        step=step,
+        step_given=given_step is not None,
+        latitude_deg=latitude_deg,
+        longitude_deg=longitude_deg,
+        utc_offset_h=utc_offset_h,
+        calm_threshold_m_s=calm_threshold_m_s,
+        min_wind_speed_m_s=min_wind_speed_m_s,
+        anemometer_height_m=anemometer_height_m,
+    )
+    warnings += step_warnings
+    warnings += _record_warnings(summary, rows, timeline, calm_threshold_m_s, min_wind_speed_m_s)
+    return weather, summary, warnings
+
+
+def _read_files(paths, utc_offset_h: float | None) -> tuple[list[_RawFile], list[str]]:
+    """Read every file of the record and join them.
+
+    Each file is read, its header and times checked (:func:`_read_hourly_file`), in the order
+    given; then the files are put in time order and checked for overlaps (:func:`_join_files`).
+    Returns the files in time order and the files' warnings (in the order the files were given).
+    """
     paths = [Path(paths)] if isinstance(paths, (str, Path)) else [Path(p) for p in paths]
     if not paths:
         raise InputError("hourly weather: no file given")
@@ -653,52 +754,90 @@ def read_hourly_record(
         raw, file_warnings = _read_hourly_file(path, utc_offset_h)
         files.append(raw)
         warnings += file_warnings
-    files = _join_files(files)
-    names = ", ".join(f.name for f in files)
+    return _join_files(files), warnings
 
+
+def _joined_rows(files: list[_RawFile]) -> _Rows:
+    """Check the values row by row and put the files' rows end to end.
+
+    Each file's columns are checked and turned into numbers (:func:`_file_values`), file by file
+    in time order, so the first bad value of the earliest file is the one named. Returns every
+    row of the record as one :class:`_Rows`.
+    """
     values = [_file_values(raw) for raw in files]
     direction, speed, temperature, ceiling = (
         np.concatenate([v[key] for v in values])
         for key in ("direction_deg", "speed_m_s", "temperature_c", "ceiling_ft")
     )
     given_class = "stability" in files[0].columns  # one kind for all files (_join_files)
-    method_value = np.concatenate(
-        [v["stability" if given_class else "cloud_oktas"] for v in values]
+    return _Rows(
+        files=files,
+        direction_deg=direction,
+        speed_m_s=speed,
+        temperature_c=temperature,
+        ceiling_ft=ceiling,
+        given_class=given_class,
+        method_value=np.concatenate(
+            [v["stability" if given_class else "cloud_oktas"] for v in values]
+        ),
+        time_utc=np.concatenate([f.time_utc for f in files]),
+        line=np.concatenate([f.lines for f in files]),
+        file_of=np.concatenate([np.full(f.lines.size, k) for k, f in enumerate(files)]),
+        written=np.concatenate([f.columns["time"] for f in files]),
     )
-    time_utc = np.concatenate([f.time_utc for f in files])
-    line = np.concatenate([f.lines for f in files])
-    file_of = np.concatenate([np.full(f.lines.size, k) for k, f in enumerate(files)])
-    written = np.concatenate([f.columns["time"] for f in files])
 
-    # the hourly timeline
-    t0 = time_utc[0]
-    since_minutes = (time_utc - t0).astype(np.int64)
+
+def _hour_index(rows: _Rows) -> tuple[np.ndarray, int]:
+    """Place every row on the hourly timeline that starts at the record's first time.
+
+    Returns each row's hour index (whole hours since the first time) and the hours expected
+    (first to last time, both included). Raises where a time is not a whole number of hours
+    after the first (files with different UTC offsets can do that).
+    """
+    t0 = rows.time_utc[0]
+    since_minutes = (rows.time_utc - t0).astype(np.int64)
     off_grid = since_minutes % 60 != 0
     if off_grid.any():
         i = int(np.flatnonzero(off_grid)[0])
         raise InputError(
-            f"{_where(files[file_of[i]].name, line[i])}: time {written[i]!r} is not "
+            f"{rows.where(i)}: time {rows.written[i]!r} is not "
             f"a whole number of hours after the record's first time "
             f"({_utc_text(t0)}); check the UTC offsets"
         )
     hour_index = since_minutes // 60
-    n_expected = int(hour_index[-1]) + 1
+    return hour_index, int(hour_index[-1]) + 1
 
-    # which hours can be used
-    calm = speed < calm_threshold_m_s  # False where speed is NaN
-    has_class = method_value >= 0 if given_class else np.isfinite(method_value)
-    valid = np.isfinite(speed) & has_class & (np.isfinite(direction) | calm)
-    n_used = int(valid.sum())
-    n_missing = n_expected - n_used
-    missing_percent = 100.0 * n_missing / n_expected
-    gaps = _gaps(hour_index[valid], n_expected, t0)
-    if n_used == 0:
+
+def _usable_hours(
+    rows: _Rows,
+    hour_index: np.ndarray,
+    n_expected: int,
+    calm_threshold_m_s: float,
+    max_missing_percent: float,
+) -> _Timeline:
+    """The missing-hour rule: which hours can be used, the calms and the gaps.
+
+    An hour is used when its speed and its class (or cloud cover) are given and its direction
+    too, unless it is a calm (the calm rule gives it one). Returns the :class:`_Timeline`.
+    Raises when no hour can be used, when more than ``max_missing_percent`` of the expected
+    hours are missing, or when every usable hour is calm (no direction to give the calms).
+    """
+    calm = rows.speed_m_s < calm_threshold_m_s  # False where speed is NaN
+    if rows.given_class:
+        has_class = rows.method_value >= 0
+    else:
+        has_class = np.isfinite(rows.method_value)
+    valid = np.isfinite(rows.speed_m_s) & has_class & (np.isfinite(rows.direction_deg) | calm)
+    gaps = _gaps(hour_index[valid], n_expected, rows.time_utc[0])
+    timeline = _Timeline(hour_index, n_expected, calm, valid, gaps)
+    names = rows.names
+    if timeline.n_used == 0:
         raise InputError(f"{names}: no usable hour (every row lacks a required value)")
-    if missing_percent > max_missing_percent:
+    if timeline.missing_percent > max_missing_percent:
         longest = gaps[0]
         raise InputError(
-            f"{names}: {missing_percent:.1f} % of the {n_expected} expected hours "
-            f"are missing ({n_missing} h), more than max_missing_percent = "
+            f"{names}: {timeline.missing_percent:.1f} % of the {n_expected} expected hours "
+            f"are missing ({timeline.n_missing} h), more than max_missing_percent = "
             f"{max_missing_percent:g} %; the longest gap is {longest['hours']} h "
             f"from {longest['start_utc']} to {longest['end_utc']}"
         )
@@ -707,76 +846,113 @@ def read_hourly_record(
             f"{names}: every usable hour is calm (speed < {calm_threshold_m_s:g} "
             "m/s), so no wind direction can be given to the calms"
         )
+    return timeline
 
-    # calm rule: keep a usable direction, else the last non-calm hour's direction
+
+def _calm_directions(rows: _Rows, timeline: _Timeline) -> tuple[np.ndarray, np.ndarray]:
+    """The calm rule's directions.
+
+    A calm keeps a usable direction; one without (empty, or 0 = the station's code for calm)
+    takes the direction of the last non-calm used hour before it (calms before the first
+    non-calm hour take that hour's). 360 is stored as 0. Returns the direction of every row
+    [deg], 0 <= d < 360 (NaN where empty and not filled), and a mask of the used calms whose
+    direction was filled.
+    """
+    calm, valid = timeline.calm, timeline.valid
+    direction = rows.direction_deg
     no_direction = calm & ~(np.isfinite(direction) & (direction != 0))  # 0 = station's calm
     direction = direction % 360.0  # 360 = north -> 0
     source = pd.Series(np.where(valid & ~calm, direction, np.nan))
     carried = source.ffill().bfill().to_numpy()
     filled = valid & no_direction
-    direction = np.where(filled, carried, direction)
+    return np.where(filled, carried, direction), filled
 
-    # stability index 0..5
-    v = np.flatnonzero(valid)
-    times_s = time_utc[v].astype("datetime64[s]")
-    if given_class:
-        stability_index = method_value[v].astype(int)
-    else:
-        elevation = solar_elevation_deg(times_s, latitude_deg, longitude_deg)
-        night = is_night(times_s, latitude_deg, longitude_deg)
-        stability_index = turner_stability_index(
-            speed[v], method_value[v], elevation, night, ceiling_ft=ceiling[v]
-        ).astype(int)
 
-    observed = speed[v]
-    used_speed = np.maximum(observed, min_wind_speed_m_s)
-    used_direction = direction[v].astype(float)
+def _stability_index(
+    rows: _Rows,
+    used: np.ndarray,
+    times_s: np.ndarray,
+    latitude_deg: float,
+    longitude_deg: float,
+) -> np.ndarray:
+    """The Pasquill class of each used hour, 0..5 = A..F (int).
+
+    The given class, or Turner's method from the observed (not raised) speed, the cloud cover,
+    the ceiling and the solar elevation and night flag at the site at ``times_s`` (UTC, the
+    used hours' time stamps).
+    """
+    from siting.solar import is_night, solar_elevation_deg
+    from siting.stability import turner_stability_index
+
+    if rows.given_class:
+        return rows.method_value[used].astype(int)
+    elevation = solar_elevation_deg(times_s, latitude_deg, longitude_deg)
+    night = is_night(times_s, latitude_deg, longitude_deg)
+    return turner_stability_index(
+        rows.speed_m_s[used],
+        rows.method_value[used],
+        elevation,
+        night,
+        ceiling_ft=rows.ceiling_ft[used],
+    ).astype(int)
+
+
+def _direction_step_and_spread(
+    used_direction: np.ndarray, given_step: float | None, rows: _Rows
+) -> tuple[float, float, list[str]]:
+    """The direction step of the record and the spread of each hour's plume.
+
+    Returns the reporting step [deg] (given, or inferred from the used directions by
+    :func:`direction_step_deg`), the spread [deg] (an inferred step of 1 deg or finer is not
+    spread; a given step always is) and a warning when the directions are not all multiples
+    of a given step.
+    """
+    warnings = []
     if given_step is None:
-        step = _infer_direction_step(used_direction)
+        step = direction_step_deg(used_direction)
         spread = step if step > _EXACT_STEP_DEG else 0.0
     else:
         step = spread = given_step
         if step > 0 and not _all_multiples(used_direction, step):
             warnings.append(
-                f"{names}: direction_step_deg = {step:g} is given, but not every "
+                f"{rows.names}: direction_step_deg = {step:g} is given, but not every "
                 f"direction is a multiple of {step:g} deg; each hour is still "
                 "spread over +-half the step around its direction"
             )
-    weather = HourlyWeather(
-        times_s,
-        used_direction,
-        used_speed,
-        stability_index,
-        temperature[v].astype(float),
-        float(anemometer_height_m),
-        spread,
-    )
+    return step, spread, warnings
 
-    # summary
-    n_calm = int(calm[v].sum())
-    light = (~calm[v]) & (observed < min_wind_speed_m_s)
+
+def _summary(
+    rows: _Rows,
+    timeline: _Timeline,
+    weather: HourlyWeather,
+    filled: np.ndarray,
+    *,
+    step: float,
+    step_given: bool,
+    latitude_deg: float,
+    longitude_deg: float,
+    utc_offset_h: float | None,
+    calm_threshold_m_s: float,
+    min_wind_speed_m_s: float,
+    anemometer_height_m: float,
+) -> dict:
+    """The summary of a record (keys: see :func:`read_hourly_record`)."""
+    used, n_used, n_expected = timeline.used, timeline.n_used, timeline.n_expected
+    observed = rows.speed_m_s[used]
+    n_calm = int(timeline.calm[used].sum())
+    light = (~timeline.calm[used]) & (observed < min_wind_speed_m_s)
     by_point = hours_by_sector(weather.direction_deg, 16, step)
     prevailing = float(np.argmax(by_point) * 22.5)
-    share = np.bincount(stability_index, minlength=len(STABILITY_CLASSES)) / n_used
-    t_used = weather.temperature_c[np.isfinite(weather.temperature_c)]
-    temperature_summary = (
-        None
-        if t_used.size == 0
-        else {
-            "min": float(t_used.min()),
-            "mean": float(t_used.mean()),
-            "max": float(t_used.max()),
-            "hours_without": int(n_used - t_used.size),
-        }
-    )
-    offsets = sorted(set().union(*(f.offsets for f in files)))
-    years = sorted({int(text[:4]) for text in written[v]})
-    summary = {
-        "files": [f.name for f in files],
+    share = np.bincount(weather.stability_index, minlength=len(STABILITY_CLASSES)) / n_used
+    offsets = sorted(set().union(*(f.offsets for f in rows.files)))
+    spread = weather.direction_step_deg
+    return {
+        "files": [f.name for f in rows.files],
         "latitude_deg": float(latitude_deg),
         "longitude_deg": float(longitude_deg),
-        "first_time_utc": _utc_text(time_utc[0]),
-        "last_time_utc": _utc_text(time_utc[-1]),
+        "first_time_utc": _utc_text(rows.time_utc[0]),
+        "last_time_utc": _utc_text(rows.time_utc[-1]),
         "time_offsets": (
             f"given in the file(s): {', '.join(offsets)}"
             if offsets
@@ -784,33 +960,58 @@ def read_hourly_record(
         ),
         "hours_expected": n_expected,
         "hours_used": n_used,
-        "hours_missing": n_missing,
-        "missing_percent": missing_percent,
-        "gap_count": len(gaps),
-        "gaps": gaps[:_MAX_GAPS_LISTED],
+        "hours_missing": timeline.n_missing,
+        "missing_percent": timeline.missing_percent,
+        "gap_count": len(timeline.gaps),
+        "gaps": timeline.gaps[:_MAX_GAPS_LISTED],
         "calm_threshold_m_s": float(calm_threshold_m_s),
         "min_wind_speed_m_s": float(min_wind_speed_m_s),
         "calm_hours": n_calm,
         "calm_percent": 100.0 * n_calm / n_used,
         "calm_direction_filled_hours": int(filled.sum()),
         "raised_to_min_speed_percent": 100.0 * int(light.sum()) / n_used,
-        "mean_speed_m_s": float(used_speed.mean()),
+        "mean_speed_m_s": float(weather.speed_m_s.mean()),
         "mean_observed_speed_m_s": float(observed.mean()),
         "prevailing_from_deg": prevailing,
         "prevailing_from_words": compass_words(prevailing),
         "direction_step_deg": step,
         "direction_spread_deg": spread,
-        "direction_rule": _direction_rule(step, spread, given_step is not None),
+        "direction_rule": _direction_rule(step, spread, step_given),
         "stability_share": {c: float(share[i]) for i, c in enumerate(STABILITY_CLASSES)},
-        "stability_method": STABILITY_GIVEN if given_class else STABILITY_TURNER,
-        "temperature_c": temperature_summary,
-        "years_covered": years,
+        "stability_method": STABILITY_GIVEN if rows.given_class else STABILITY_TURNER,
+        "temperature_c": _temperature_summary(weather.temperature_c),
+        "years_covered": sorted({int(text[:4]) for text in rows.written[used]}),
         "record_years": round(n_expected / _HOURS_PER_MEAN_YEAR, 3),
         "anemometer_height_m": float(anemometer_height_m),
         "calm_rule": CALM_RULE,
         "missing_rule": MISSING_RULE,
     }
 
+
+def _temperature_summary(temperature_c: np.ndarray) -> dict | None:
+    """Min, mean, max [deg C] and hours_without of the used hours' temperatures; None if none."""
+    t_used = temperature_c[np.isfinite(temperature_c)]
+    if t_used.size == 0:
+        return None
+    return {
+        "min": float(t_used.min()),
+        "mean": float(t_used.mean()),
+        "max": float(t_used.max()),
+        "hours_without": int(temperature_c.size - t_used.size),
+    }
+
+
+def _record_warnings(
+    summary: dict,
+    rows: _Rows,
+    timeline: _Timeline,
+    calm_threshold_m_s: float,
+    min_wind_speed_m_s: float,
+) -> list[str]:
+    """Warnings on the record as a whole, in this order: many calms, shorter than a
+    year, long gaps, a speed so high it suggests the wrong unit."""
+    names = rows.names
+    warnings = []
     if summary["calm_percent"] > _CALM_WARN_PERCENT:
         warnings.append(
             f"{names}: {summary['calm_percent']:.1f} % of the hours used are calm "
@@ -819,26 +1020,27 @@ def read_hourly_record(
             "the last non-calm hour where they had none; check the station and "
             "its anemometer threshold"
         )
-    if n_expected < HOURS_PER_YEAR:
+    if timeline.n_expected < HOURS_PER_YEAR:
         warnings.append(
-            f"{names}: the record covers {n_expected} h, less than a year "
+            f"{names}: the record covers {timeline.n_expected} h, less than a year "
             f"({HOURS_PER_YEAR} h); seasons are not equally represented"
         )
-    long_gaps = [g for g in gaps if g["hours"] > _LONG_GAP_H]
+    long_gaps = [g for g in timeline.gaps if g["hours"] > _LONG_GAP_H]
     if long_gaps:
         warnings.append(
             f"{names}: {len(long_gaps)} gap(s) longer than {_LONG_GAP_H} h, the "
             f"longest {long_gaps[0]['hours']} h from {long_gaps[0]['start_utc']}; "
             "missing hours are not filled, so that part of the year counts less"
         )
+    observed = rows.speed_m_s[timeline.used]
     if observed.max() > _FAST_SPEED_M_S:
-        i = v[int(np.argmax(observed))]
+        i = timeline.used[int(np.argmax(observed))]
         warnings.append(
-            f"{_where(files[file_of[i]].name, line[i])}: speed_m_s "
+            f"{rows.where(i)}: speed_m_s "
             f"{observed.max():g} is above {_FAST_SPEED_M_S:g} m/s; check the unit "
             "(knots?)"
         )
-    return weather, summary, warnings
+    return warnings
 
 
 def _checked_direction_step(direction_step_deg) -> float | None:
@@ -862,12 +1064,6 @@ def _checked_direction_step(direction_step_deg) -> float | None:
 def _all_multiples(direction_deg: np.ndarray, step_deg: float) -> bool:
     ratio = np.asarray(direction_deg, dtype=float) / step_deg
     return bool(np.allclose(ratio, np.round(ratio), atol=1e-6))
-
-
-def _infer_direction_step(direction_deg: np.ndarray) -> float:
-    """:func:`direction_step_deg` of the hours used, callable where a keyword of that name
-    hides the function (``read_hourly_record``)."""
-    return direction_step_deg(direction_deg)
 
 
 def _direction_rule(step_deg: float, spread_deg: float, given: bool) -> str:
