@@ -245,9 +245,15 @@ def deposition_figure(
     ------
     InputError
         If the grid is not 2-D or cell_m <= 0.
+
+    Notes
+    -----
+    Drawn in steps, in this order (the order is part of the look): the classes layer and its
+    colour bar (:func:`_draw_deposition_classes`), the contours (:func:`_draw_contours`), the
+    site outlines (:func:`_draw_site_outlines`), the sources and the legend
+    (:func:`_draw_sources`, :func:`_map_legend`), the axes (:func:`_style_map_axes`) and last
+    the site names (:func:`_name_sites_on_map`), measured against the final axes.
     """
-    from matplotlib.collections import LineCollection
-    from matplotlib.colors import BoundaryNorm, ListedColormap
     from matplotlib.figure import Figure
 
     grid = np.asarray(deposition_kg_n_ha_yr, dtype=float)
@@ -256,83 +262,178 @@ def deposition_figure(
     if not cell_m > 0:
         raise InputError(f"deposition figure: cell_m must be > 0, got {cell_m}")
     n_rows, n_cols = grid.shape
-    east_m = west_m + n_cols * cell_m
-    south_m = north_m - n_rows * cell_m
+    extent_m = (west_m, west_m + n_cols * cell_m, north_m - n_rows * cell_m, north_m)
+
+    fig = Figure(figsize=(7.5, 6.5))
+    ax = fig.add_subplot()
+    _draw_deposition_classes(ax, grid, extent_m)
+    _draw_contours(ax, grid, contours, west_m=west_m, north_m=north_m, cell_m=cell_m)
+    has_sites = sites is not None and len(sites) > 0
+    if has_sites:
+        _draw_site_outlines(ax, sites)
+    if sources is not None and len(sources):
+        _draw_sources(ax, sources)
+    _map_legend(ax)
+    _style_map_axes(ax, extent_m, crs_label)
+    if has_sites and "name" in sites:
+        _name_sites_on_map(ax, sites)
+    return figure_png(fig)
+
+
+def _draw_deposition_classes(
+    ax: Any, grid: np.ndarray, extent_m: tuple[float, float, float, float]
+) -> None:
+    """Draw the grid in the deposition classes, with a colour bar ticked at the class edges.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+        The map axes; the colour bar is added beside it in its figure.
+    grid : ndarray, shape (n_rows, n_cols)
+        Deposition [kg N ha-1 yr-1], row 0 north; NaN cells are left uncoloured, as are cells
+        below the lowest class edge; cells above the highest take the top class colour.
+    extent_m : (west, east, south, north)
+        Edges of the grid in the projected CRS [m].
+    """
+    from matplotlib.colors import BoundaryNorm, ListedColormap
+
     edges = deposition_class_edges(grid)
     colours = deposition_class_colours(edges.size - 1)
     cmap = ListedColormap(colours).with_extremes(
         under=(0, 0, 0, 0), over=colours[-1], bad=(0, 0, 0, 0)
     )
-    norm = BoundaryNorm(edges, cmap.N)
-
-    fig = Figure(figsize=(7.5, 6.5))
-    ax = fig.add_subplot()
-    shown = np.ma.masked_invalid(grid)
     image = ax.imshow(
-        shown,
+        np.ma.masked_invalid(grid),
         cmap=cmap,
-        norm=norm,
-        extent=(west_m, east_m, south_m, north_m),
+        norm=BoundaryNorm(edges, cmap.N),
+        extent=extent_m,
         origin="upper",
         interpolation="nearest",
     )
-    colourbar = fig.colorbar(image, ax=ax, extend="neither", shrink=0.85)
+    colourbar = ax.get_figure().colorbar(image, ax=ax, extend="neither", shrink=0.85)
     colourbar.set_ticks(edges)
     colourbar.set_ticklabels([format_number(e) for e in edges])
     colourbar.set_label("Deposition, PC [kg N/ha/yr]")
 
-    valid = np.isfinite(grid)
-    if contours and valid.any():
-        x_m = west_m + (np.arange(n_cols) + 0.5) * cell_m
-        y_m = north_m - (np.arange(n_rows) + 0.5) * cell_m
-        vmin, vmax = float(np.nanmin(grid)), float(np.nanmax(grid))
-        inside = sorted({float(v) for v, _ in contours if vmin < float(v) < vmax})
-        if inside:
-            contour_set = ax.contour(
-                x_m, y_m, shown, levels=inside, colors="#202020", linewidths=1.0, linestyles="--"
-            )
-            labels = {float(v): str(text) for v, text in contours}
-            label_texts = ax.clabel(
-                contour_set, fmt={v: labels.get(v, format_number(v)) for v in inside}, fontsize=7
-            )
-            for text in label_texts:
-                text.set_parse_math(False)  # user labels may contain "$"
 
-    if sites is not None and len(sites):
-        outlines = _site_outlines(sites.geometry)
-        # many sites: thin, half-transparent outlines, so the deposition shows between them
-        width, alpha = (1.0, 1.0) if len(sites) <= _THIN_OUTLINES_ABOVE else (0.4, 0.6)
-        if outlines:
-            ax.add_collection(
-                LineCollection(outlines, colors="#8a1c0a", linewidths=width, alpha=alpha)
+def _draw_contours(
+    ax: Any,
+    grid: np.ndarray,
+    contours: Sequence[tuple[float, str]],
+    *,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+) -> None:
+    """Draw the contour levels that fall inside the grid's range, dashed, with their labels.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+        The map axes.
+    grid : ndarray, shape (n_rows, n_cols)
+        Deposition [kg N ha-1 yr-1], row 0 north; NaN cells are ignored.
+    contours : sequence of (float, str)
+        Levels [kg N ha-1 yr-1] and their labels; a level not strictly between the grid's
+        minimum and maximum is not drawn. Labels are plain text (user labels may hold "$").
+    west_m, north_m, cell_m : float
+        Grid edges and cell size [m]; contours are traced through the cell centres.
+    """
+    if not contours or not np.isfinite(grid).any():
+        return
+    n_rows, n_cols = grid.shape
+    x_m = west_m + (np.arange(n_cols) + 0.5) * cell_m
+    y_m = north_m - (np.arange(n_rows) + 0.5) * cell_m
+    vmin, vmax = float(np.nanmin(grid)), float(np.nanmax(grid))
+    inside = sorted({float(v) for v, _ in contours if vmin < float(v) < vmax})
+    if not inside:
+        return
+    contour_set = ax.contour(
+        x_m,
+        y_m,
+        np.ma.masked_invalid(grid),
+        levels=inside,
+        colors="#202020",
+        linewidths=1.0,
+        linestyles="--",
+    )
+    labels = {float(v): str(text) for v, text in contours}
+    label_texts = ax.clabel(
+        contour_set, fmt={v: labels.get(v, format_number(v)) for v in inside}, fontsize=7
+    )
+    for text in label_texts:
+        text.set_parse_math(False)  # user labels may contain "$"
+
+
+def _draw_site_outlines(ax: Any, sites: gpd.GeoDataFrame) -> None:
+    """Draw every site's outline as one line collection, and its "habitat site" legend entry.
+
+    Above :data:`_THIN_OUTLINES_ABOVE` sites the outlines are thin and half transparent, so
+    the deposition shows between them; the legend entry keeps the full line either way.
+    """
+    from matplotlib.collections import LineCollection
+
+    outlines = _site_outlines(sites.geometry)
+    width, alpha = (1.0, 1.0) if len(sites) <= _THIN_OUTLINES_ABOVE else (0.4, 0.6)
+    if outlines:
+        ax.add_collection(LineCollection(outlines, colors="#8a1c0a", linewidths=width, alpha=alpha))
+    ax.plot([], [], color="#8a1c0a", linewidth=1.0, label="habitat site")
+
+
+def _source_roles(sources: gpd.GeoDataFrame) -> list[str]:
+    """Each source's role, stripped and lower case; "" when missing or without a role column."""
+    if "role" not in sources:
+        return [""] * len(sources)
+    return [str(r).strip().lower() if not is_missing(r) else "" for r in sources["role"]]
+
+
+def _draw_sources(ax: Any, sources: gpd.GeoDataFrame) -> None:
+    """Draw the sources at their representative points, one marker style per role.
+
+    Roles are drawn in first-seen order, each with its legend entry ("proposed source", ...,
+    or "source" without a role); the marker and fill come from :data:`_SOURCE_MARKERS`, an
+    unknown role drawn as an open triangle. Missing and empty geometries are skipped.
+    """
+    roles = _source_roles(sources)
+    for role in dict.fromkeys(roles):  # first-seen order
+        marker, face = _SOURCE_MARKERS.get(role, ("^", "#ffffff"))
+        points = [
+            g.representative_point()
+            for g, r in zip(sources.geometry, roles)
+            if r == role and g is not None and not g.is_empty
+        ]
+        if points:
+            ax.plot(
+                [p.x for p in points],
+                [p.y for p in points],
+                linestyle="none",
+                marker=marker,
+                markersize=7,
+                markerfacecolor=face,
+                markeredgecolor="#000000",
+                label=f"{role} source" if role else "source",
             )
-        ax.plot([], [], color="#8a1c0a", linewidth=1.0, label="habitat site")
-    if sources is not None and len(sources):
-        roles = (
-            [str(r).strip().lower() if not is_missing(r) else "" for r in sources["role"]]
-            if "role" in sources
-            else [""] * len(sources)
-        )
-        for role in dict.fromkeys(roles):  # first-seen order
-            marker, face = _SOURCE_MARKERS.get(role, ("^", "#ffffff"))
-            points = [
-                g.representative_point()
-                for g, r in zip(sources.geometry, roles)
-                if r == role and g is not None and not g.is_empty
-            ]
-            if points:
-                ax.plot(
-                    [p.x for p in points],
-                    [p.y for p in points],
-                    linestyle="none",
-                    marker=marker,
-                    markersize=7,
-                    markerfacecolor=face,
-                    markeredgecolor="#000000",
-                    label=f"{role} source" if role else "source",
-                )
+
+
+def _map_legend(ax: Any) -> None:
+    """Add the map's legend at the lower left, when anything drawn has a legend entry."""
     if ax.get_legend_handles_labels()[0]:
         ax.legend(fontsize=7, loc="lower left", framealpha=0.85)
+
+
+def _style_map_axes(ax: Any, extent_m: tuple[float, float, float, float], crs_label: str) -> None:
+    """Set the map's limits to the grid, equal aspect, axis labels with the CRS, and title.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+        The map axes.
+    extent_m : (west, east, south, north)
+        Edges of the grid in the projected CRS [m]; the axes show exactly the grid.
+    crs_label : str
+        Added to both axis labels in brackets when not empty.
+    """
+    west_m, east_m, south_m, north_m = extent_m
     ax.set_xlim(west_m, east_m)
     ax.set_ylim(south_m, north_m)
     ax.set_aspect("equal")
@@ -342,9 +443,6 @@ def deposition_figure(
     ax.set_title("Process contribution: nitrogen deposition", fontsize=10)
     ax.ticklabel_format(useOffset=False, style="plain")
     ax.tick_params(labelsize=7)
-    if sites is not None and len(sites) and "name" in sites:
-        _name_sites_on_map(ax, sites)
-    return figure_png(fig)
 
 
 def _name_sites_on_map(ax: Any, sites: gpd.GeoDataFrame) -> None:
@@ -387,9 +485,15 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     ------
     InputError
         If a required column is missing.
+
+    Notes
+    -----
+    Drawn in steps, in this order: the verdict scatter (:func:`_draw_verdict_points`), the
+    threshold marks (:func:`_draw_threshold_marks`), the legend (:func:`_verdict_legend`),
+    the log axes (:func:`_style_distance_axes`) and last the site names
+    (:func:`_name_sites_by_distance`), measured against the final limits.
     """
     from matplotlib.figure import Figure
-    from matplotlib.ticker import FuncFormatter, LogLocator
 
     missing = [c for c in ("name", "distance_m", "pc_dep_max_kg_n_ha_yr") if c not in sites]
     if missing:
@@ -401,55 +505,127 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     fig = Figure(figsize=(7.5, 4.8))
     ax = fig.add_subplot()
     if not keep.any():
-        ax.text(
-            0.5,
-            0.5,
-            "No site with a positive deposition to plot.",
-            ha="center",
-            va="center",
-            transform=ax.transAxes,
-        )
-        ax.set_axis_off()
+        _say_nothing_to_plot(ax)
         return figure_png(fig)
-    verdicts = list(sites["verdict"]) if "verdict" in sites else [None] * len(sites)
-    colours = [VERDICT_COLOURS.get(str(v), VERDICT_COLOURS["not assessed"]) for v in verdicts]
     idx = np.flatnonzero(keep)
     many = idx.size > _LEGEND_INSIDE_MAX_POINTS
+    verdicts = list(sites["verdict"]) if "verdict" in sites else [None] * len(sites)
+    _draw_verdict_points(ax, distance_m[idx], dep_kg_n_ha_yr[idx], [verdicts[i] for i in idx], many)
+    _draw_threshold_marks(ax, sites, distance_m, idx)
+    _verdict_legend(ax, verdicts, many)
+    _style_distance_axes(ax)
+    _name_sites_by_distance(ax, sites, keep, distance_m, dep_kg_n_ha_yr)
+    return figure_png(fig)
+
+
+def _say_nothing_to_plot(ax: Any) -> None:
+    """Replace the axes with a centred note that no site has a positive deposition."""
+    ax.text(
+        0.5,
+        0.5,
+        "No site with a positive deposition to plot.",
+        ha="center",
+        va="center",
+        transform=ax.transAxes,
+    )
+    ax.set_axis_off()
+
+
+def _draw_verdict_points(
+    ax: Any,
+    distance_m: np.ndarray,
+    dep_kg_n_ha_yr: np.ndarray,
+    verdicts: Sequence[Any],
+    many: bool,
+) -> None:
+    """Draw one point per plotted site, filled with its verdict's colour.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+        The PC-distance axes.
+    distance_m : ndarray, shape (n,)
+        Distance of each plotted site from the nearest source [m].
+    dep_kg_n_ha_yr : ndarray, shape (n,)
+        Its maximum PC deposition [kg N ha-1 yr-1], > 0.
+    verdicts : sequence, length n
+        Its verdict; one not in ``VERDICT_COLOURS`` (or None) takes the "not assessed" colour.
+    many : bool
+        More than :data:`_LEGEND_INSIDE_MAX_POINTS` sites: smaller points with thinner edges,
+        so fewer hide each other.
+    """
     ax.scatter(
-        distance_m[idx],
-        dep_kg_n_ha_yr[idx],
-        c=[colours[i] for i in idx],
-        s=16 if many else 36,  # smaller points where there are many: fewer hide each other
+        distance_m,
+        dep_kg_n_ha_yr,
+        c=[VERDICT_COLOURS.get(str(v), VERDICT_COLOURS["not assessed"]) for v in verdicts],
+        s=16 if many else 36,
         zorder=3,
         edgecolors="#000000",
         linewidths=0.3 if many else 0.5,
     )
-    if {"threshold_percent", "critical_load_used_kg_n_ha_yr"} <= set(sites.columns):
-        threshold_kg_n_ha_yr = (
-            np.asarray(sites["threshold_percent"], dtype=float)
-            / 100.0
-            * np.asarray(sites["critical_load_used_kg_n_ha_yr"], dtype=float)
+
+
+def _draw_threshold_marks(
+    ax: Any, sites: pd.DataFrame, distance_m: np.ndarray, idx: np.ndarray
+) -> None:
+    """Mark each plotted site's screening threshold with a short bar at its distance.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+        The PC-distance axes.
+    sites : DataFrame
+        The sites table; nothing is drawn without both ``threshold_percent`` [%] and
+        ``critical_load_used_kg_n_ha_yr`` [kg N ha-1 yr-1]. The threshold is their product
+        over 100 [kg N ha-1 yr-1]; a site without a positive, finite one gets no mark.
+    distance_m : ndarray, shape (n_sites,)
+        Distance of every site from the nearest source [m].
+    idx : ndarray of int
+        Rows of the plotted sites.
+    """
+    if not {"threshold_percent", "critical_load_used_kg_n_ha_yr"} <= set(sites.columns):
+        return
+    threshold_kg_n_ha_yr = (
+        np.asarray(sites["threshold_percent"], dtype=float)
+        / 100.0
+        * np.asarray(sites["critical_load_used_kg_n_ha_yr"], dtype=float)
+    )
+    marks = idx[np.isfinite(threshold_kg_n_ha_yr[idx]) & (threshold_kg_n_ha_yr[idx] > 0)]
+    if marks.size:
+        ax.scatter(
+            distance_m[marks],
+            threshold_kg_n_ha_yr[marks],
+            marker="_",
+            s=220,
+            color="#000000",
+            linewidths=1.5,
+            zorder=2,
+            label="screening threshold of the site",
         )
-        marks = idx[np.isfinite(threshold_kg_n_ha_yr[idx]) & (threshold_kg_n_ha_yr[idx] > 0)]
-        if marks.size:
-            ax.scatter(
-                distance_m[marks],
-                threshold_kg_n_ha_yr[marks],
-                marker="_",
-                s=220,
-                color="#000000",
-                linewidths=1.5,
-                zorder=2,
-                label="screening threshold of the site",
-            )
+
+
+def _verdict_legend(ax: Any, verdicts: Sequence[Any], many: bool) -> None:
+    """Add a legend entry per known verdict of the table (first-seen order), then the legend.
+
+    The verdicts are those of every row of the table, plotted or not. With ``many``
+    points the legend goes beside the axes (:data:`_LEGEND_INSIDE_MAX_POINTS`), else at
+    matplotlib's "best" spot inside.
+    """
     for verdict in dict.fromkeys(str(v) for v in verdicts if str(v) in VERDICT_COLOURS):
         ax.scatter([], [], c=VERDICT_COLOURS[verdict], s=36, edgecolors="#000000",
                    linewidths=0.5, label=verdict)  # fmt: skip
-    if ax.get_legend_handles_labels()[0]:
-        if many:
-            ax.legend(fontsize=8, loc="upper left", bbox_to_anchor=(1.01, 1.0))
-        else:
-            ax.legend(fontsize=8, loc="best")
+    if not ax.get_legend_handles_labels()[0]:
+        return
+    if many:
+        ax.legend(fontsize=8, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    else:
+        ax.legend(fontsize=8, loc="best")
+
+
+def _style_distance_axes(ax: Any) -> None:
+    """Log deposition axis with plain-number ticks (minor at 2 and 5), labels, title, grid."""
+    from matplotlib.ticker import FuncFormatter, LogLocator
+
     ax.set_yscale("log")
     plain = FuncFormatter(lambda value, _: format_number(value))
     ax.yaxis.set_major_formatter(plain)
@@ -460,6 +636,30 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     ax.set_ylabel("PC max deposition [kg N/ha/yr]")
     ax.set_title("Process contribution at each site by distance", fontsize=10)
     ax.grid(True, which="both", linewidth=0.4, alpha=0.5)
+
+
+def _name_sites_by_distance(
+    ax: Any,
+    sites: pd.DataFrame,
+    keep: np.ndarray,
+    distance_m: np.ndarray,
+    dep_kg_n_ha_yr: np.ndarray,
+) -> None:
+    """Name the most affected plotted sites beside their points (:func:`_label_sites`), with
+    the note when some names are left out.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+        The PC-distance axes, fully styled; its limits are settled here before the name boxes
+        are measured.
+    sites : DataFrame
+        The sites table (``name`` column; ranked by :func:`most_affected_order`).
+    keep : ndarray of bool, shape (n_sites,)
+        The plotted sites; only those with a name are named.
+    distance_m, dep_kg_n_ha_yr : ndarray, shape (n_sites,)
+        Each site's point [m] and [kg N ha-1 yr-1].
+    """
     names = sites["name"].to_numpy(dtype=object)
     nameable = keep & np.array([not is_missing(n) for n in names], dtype=bool)
     order = np.array([i for i in most_affected_order(sites) if nameable[i]], dtype=int)
@@ -472,8 +672,7 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
         xytext=(5, 4),
         fontsize=7,
     ):
-        _labels_note(ax, idx.size)
-    return figure_png(fig)
+        _labels_note(ax, int(keep.sum()))
 
 
 #: Fill of each Pasquill class A..F in the weather charts: warm (unstable) to cool (stable),
