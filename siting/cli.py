@@ -565,6 +565,8 @@ class _OneLineParser(argparse.ArgumentParser):
 
 
 def build_parser() -> argparse.ArgumentParser:
+    """The `siting` command line: the top-level options and one sub-parser per command, in
+    the order ``siting --help`` lists them."""
     from siting import __version__
 
     parser = _OneLineParser(
@@ -577,6 +579,14 @@ def build_parser() -> argparse.ArgumentParser:
         dest="command", required=True, metavar="COMMAND", parser_class=_OneLineParser
     )
 
+    common = _common_options()
+    for add_command in (_add_screen, _add_demo, _add_weather, _add_place, _add_verify, _add_region):
+        add_command(sub, common)
+    return parser
+
+
+def _common_options() -> argparse.ArgumentParser:
+    """The options every command takes (--overwrite, --quiet), as a parent parser."""
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument(
         "--overwrite",
@@ -584,7 +594,11 @@ def build_parser() -> argparse.ArgumentParser:
         help="replace an existing output folder (only once the new run is complete)",
     )
     common.add_argument("--quiet", action="store_true", help="no summary table or progress")
+    return common
 
+
+def _add_screen(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
+    """`siting screen`: a scenario file screened into an output folder."""
     p = sub.add_parser(
         "screen",
         parents=[common],
@@ -600,6 +614,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.set_defaults(func=cmd_screen)
 
+
+def _add_demo(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
+    """`siting demo`: the bundled invented demo (or its hourly variant) screened."""
     p = sub.add_parser(
         "demo",
         parents=[common],
@@ -615,6 +632,10 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.set_defaults(func=cmd_demo)
 
+
+def _add_weather(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
+    """`siting weather`: an hourly station record checked and binned into a frequency table
+    and charts."""
     p = sub.add_parser(
         "weather",
         parents=[common],
@@ -683,6 +704,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.set_defaults(func=cmd_weather)
 
+
+def _add_place(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
+    """`siting place`: the placement search for one house over the holding."""
     p = sub.add_parser(
         "place",
         parents=[common],
@@ -720,6 +744,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.set_defaults(func=cmd_place)
 
+
+def _add_verify(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
+    """`siting verify`: a submitted run re-run and questioned."""
     p = sub.add_parser(
         "verify",
         parents=[common],
@@ -754,6 +781,10 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.set_defaults(func=cmd_verify)
 
+
+def _add_region(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
+    """`siting region`: many farms over a region. Its options come in three groups after the
+    inputs and --out (run, fields, model), in the order --help lists them."""
     p = sub.add_parser(
         "region",
         parents=[common],
@@ -779,6 +810,15 @@ def build_parser() -> argparse.ArgumentParser:
         "it only the grids are written",
     )
     p.add_argument("--out", help="output folder (default: maps/<FARMS name>_region)")
+    _add_region_run_options(p)
+    _add_region_field_options(p)
+    _add_region_model_options(p)
+    p.set_defaults(func=cmd_region)
+
+
+def _add_region_run_options(p: argparse.ArgumentParser) -> None:
+    """`siting region`: the grid, its tiles, the dask scheduler, the farms' reach and the
+    contributors listed."""
     p.add_argument(
         "--spacing",
         type=float,
@@ -838,6 +878,10 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="N",
         help="contributors listed per site in contributors.csv (default 10)",
     )
+
+
+def _add_region_field_options(p: argparse.ArgumentParser) -> None:
+    """`siting region`: the layers and field names of the farms and habitats files."""
     p.add_argument("--layer", help="layer of the farms file (default: its first)")
     p.add_argument("--id-field", metavar="FIELD", help="farm id field (default: id)")
     p.add_argument(
@@ -864,6 +908,11 @@ def build_parser() -> argparse.ArgumentParser:
         default="designation",
         help="designation field (default: designation)",
     )
+
+
+def _add_region_model_options(p: argparse.ArgumentParser) -> None:
+    """`siting region`: critical loads, dispersion coefficients, wind, depletion and the
+    near field."""
     p.add_argument(
         "--critical-load-end",
         choices=("lower", "middle", "upper"),
@@ -911,8 +960,6 @@ def build_parser() -> argparse.ArgumentParser:
         help="cells around each farm where the grid is made the direct sum at the "
         "farm's true position (default 10; 0 = none)",
     )
-    p.set_defaults(func=cmd_region)
-    return parser
 
 
 def _interrupt_on_termination() -> dict:
