@@ -276,30 +276,64 @@ def read_farms(
         Missing or unreadable file; no CRS or a geographic one; no emission field; a value out
         of range, an unknown livestock, a duplicate id or an unusable geometry (named by farm).
     """
-    import shapely
-
     path = Path(path)
     name = f"farms layer {path.name}"
+    gdf, crs = _open_farms(path, name, fields.layer, crs)
+    columns = [c for c in gdf.columns if c != "geometry"]
+    # the checks run in this order, so the first fault reported stays the same
+    id_col = _field_name(name, columns, "--id-field", fields.id_field, "id")
+    ids, warnings = _farm_ids(gdf, id_col, name)
+    frame = _farm_positions(gdf, ids, name)
+    nh3_kg_yr, emission_from = _farm_emissions(gdf, ids, name, columns, tables, fields)
+    frame["nh3_kg_yr"] = nh3_kg_yr
+    frame["emission_from"] = emission_from
+    frame["emission_g_s"] = kg_per_year_to_g_s(frame["nh3_kg_yr"].to_numpy(float))
+    height_col = _field_name(name, columns, "--height-field", fields.height_field, "height_m")
+    heights = _release_heights(gdf, frame["kind"], ids, name, height_col)
+    frame["release_height_m"] = heights
+    frame["release_class"] = [
+        release_class(k, h, a)
+        for k, h, a in zip(frame["kind"], heights, frame["footprint_area_m2"])
+    ]
+    return frame, crs, warnings
+
+
+def _open_farms(path: Path, name: str, layer: str | None, crs: str | None):
+    """The farms layer as read, in its working CRS: (GeoDataFrame, CRS).
+
+    The CRS is the one given (the layer is reprojected to it) or else the layer's own; either
+    must be projected, in metres (InputError with the fix otherwise).
+    """
     if not path.exists():
         raise InputFileError(f"{name}: not found ({path})")
-    gdf = read_vector_layer(path, fields.layer, "farms layer")
+    gdf = read_vector_layer(path, layer, "farms layer")
     if crs is None:
         crs = projected_crs(gdf.crs, name, _CRS_FIX)
     else:
         crs = projected_crs(crs, "--crs", _CRS_FIX)
         gdf = gdf.to_crs(crs)
-    columns = [c for c in gdf.columns if c != "geometry"]
+    return gdf, crs
+
+
+def _field_name(
+    name: str, columns: list[str], option: str, given: str | None, default: str
+) -> str | None:
+    """The layer field an option names (InputError if there is no such field), else the
+    default name where the layer has it, else None."""
+    if given is not None and given not in columns:
+        raise InputError(
+            f'{name}: {option} "{given}": no such field{suggest(given, columns)} '
+            f"(fields: {', '.join(columns) or 'none'})"
+        )
+    return given if given is not None else (default if default in columns else None)
+
+
+def _farm_ids(gdf, id_col: str | None, name: str) -> tuple[list[str], list[str]]:
+    """Each farm's id (from ``id_col``, else F1, F2, ... with a warning) and the warnings.
+
+    Raises InputError for an id used twice.
+    """
     warnings: list[str] = []
-
-    def column(option: str, given: str | None, default: str) -> str | None:
-        if given is not None and given not in columns:
-            raise InputError(
-                f'{name}: {option} "{given}": no such field{suggest(given, columns)} '
-                f"(fields: {', '.join(columns) or 'none'})"
-            )
-        return given if given is not None else (default if default in columns else None)
-
-    id_col = column("--id-field", fields.id_field, "id")
     if id_col is None:
         ids = [f"F{i}" for i in range(1, len(gdf) + 1)]
         warnings.append(f'{name}: no "id" field; farms are named by feature number (F1, F2, ...)')
@@ -310,38 +344,61 @@ def read_farms(
             if farm_id in seen:
                 raise InputError(f'{name}: duplicate farm id "{farm_id}" in field {id_col}')
             seen.add(farm_id)
+    return ids, warnings
 
-    # geometry -> kind, position, footprint
+
+def _farm_positions(gdf, ids: list[str], name: str) -> pd.DataFrame:
+    """The farms' frame so far: farm_id, kind, x_m, y_m, footprint_area_m2 (geometry -> kind,
+    position, footprint), checked farm by farm in the layer's order."""
     kinds, xs, ys, areas = [], [], [], []
     for farm_id, geom in zip(ids, gdf.geometry):
-        if geom is None or geom.is_empty:
-            raise InputError(f'{name}, farm "{farm_id}": empty geometry')
-        if geom.geom_type == "Point":
-            kinds.append("point")
-            xs.append(geom.x)
-            ys.append(geom.y)
-            areas.append(0.0)
-        elif geom.geom_type in ("Polygon", "MultiPolygon"):
-            if not geom.is_valid:
-                geom = shapely.make_valid(geom)
-            if geom.area <= 0:
-                raise InputError(f'{name}, farm "{farm_id}": the polygon encloses no area')
-            c = geom.centroid
-            kinds.append("volume")
-            xs.append(c.x)
-            ys.append(c.y)
-            areas.append(geom.area)
-        else:
-            raise InputError(
-                f'{name}, farm "{farm_id}": geometry is a {geom.geom_type}; farms '
-                "must be points (point sources) or polygons (house footprints)"
-            )
-    frame = pd.DataFrame(
+        kind, x, y, area = _farm_position(geom, name, farm_id)
+        kinds.append(kind)
+        xs.append(x)
+        ys.append(y)
+        areas.append(area)
+    return pd.DataFrame(
         {"farm_id": ids, "kind": kinds, "x_m": xs, "y_m": ys, "footprint_area_m2": areas}
     )
 
-    # emission: the emission field, else (per farm, where it is empty) livestock x places
-    emission_col = column("--emission-field", fields.emission_field, "nh3_kg_per_year")
+
+def _farm_position(geom, name: str, farm_id: str) -> tuple[str, float, float, float]:
+    """One farm's kind ("point" or "volume"), position x, y [m] and footprint area [m2].
+
+    A point is itself with no area; a polygon (repaired if invalid) is its centroid and area.
+    Raises InputError for an empty geometry, a polygon of no area or another geometry type.
+    """
+    import shapely
+
+    if geom is None or geom.is_empty:
+        raise InputError(f'{name}, farm "{farm_id}": empty geometry')
+    if geom.geom_type == "Point":
+        return "point", geom.x, geom.y, 0.0
+    if geom.geom_type in ("Polygon", "MultiPolygon"):
+        if not geom.is_valid:
+            geom = shapely.make_valid(geom)
+        if geom.area <= 0:
+            raise InputError(f'{name}, farm "{farm_id}": the polygon encloses no area')
+        c = geom.centroid
+        return "volume", c.x, c.y, geom.area
+    raise InputError(
+        f'{name}, farm "{farm_id}": geometry is a {geom.geom_type}; farms '
+        "must be points (point sources) or polygons (house footprints)"
+    )
+
+
+def _farm_emissions(
+    gdf, ids: list[str], name: str, columns: list[str], tables: Tables, fields: FarmFields
+) -> tuple[np.ndarray, list[str]]:
+    """Each farm's emission [kg NH3 yr-1] and where it came from.
+
+    The emission field, else (per farm, where it is empty) livestock x places, less the
+    abatement's default reduction (:func:`_derived_emission`). Raises InputError when the layer
+    has neither, or a farm has no emission, or a value is out of range.
+    """
+    emission_col = _field_name(
+        name, columns, "--emission-field", fields.emission_field, "nh3_kg_per_year"
+    )
     can_derive = all(f in columns for f in DERIVATION_FIELDS)
     if emission_col is None and not can_derive:
         raise InputError(
@@ -368,41 +425,44 @@ def read_farms(
                 f"{where}: no emission: give {emission_col or 'nh3_kg_per_year'} "
                 "(kg NH3 per year) or livestock, housing and places"
             )
-        factor = tables.factor(str(row["livestock"]), str(row["housing"]), where)
-        places = _numbers(gdf.iloc[[i]], "places", name, [farm_id], 0.0, None, False)[0]
-        reduction, technique = 0.0, None
-        if "abatement" in columns and isinstance(row["abatement"], str) and row["abatement"]:
-            technique = tables.technique(row["abatement"], where)
-            reduction = default_reduction_percent(technique)
-        d = derive_emission(
-            factor_nh3_kg_per_place_yr=factor["nh3_kg_per_place_yr"],
-            places=places,
-            reduction_percent=reduction,
-        )
-        emissions.append(d.nh3_kg_yr)
-        emission_from.append(
-            f"{places:g} {row['livestock']} places x "
-            f"{factor['nh3_kg_per_place_yr']:g} kg/place/yr ({factor['source']})"
-            + (f" less {technique['id']} {reduction:g} %" if technique else "")
-        )
-    frame["nh3_kg_yr"] = np.asarray(emissions, dtype=float)
-    frame["emission_from"] = emission_from
-    frame["emission_g_s"] = kg_per_year_to_g_s(frame["nh3_kg_yr"].to_numpy(float))
+        nh3_kg_yr, source = _derived_emission(gdf, i, row, farm_id, name, columns, tables)
+        emissions.append(nh3_kg_yr)
+        emission_from.append(source)
+    return np.asarray(emissions, dtype=float), emission_from
 
-    # release height and class
-    height_col = column("--height-field", fields.height_field, "height_m")
-    default_h = frame["kind"].map(DEFAULT_RELEASE_HEIGHT_M).to_numpy(float)
+
+def _derived_emission(
+    gdf, i: int, row, farm_id: str, name: str, columns: list[str], tables: Tables
+) -> tuple[float, str]:
+    """One farm's emission [kg NH3 yr-1] from its livestock, housing and places (row ``i``),
+    less its abatement's default reduction, and the text saying so (emission_from)."""
+    where = f'{name}, farm "{farm_id}"'
+    factor = tables.factor(str(row["livestock"]), str(row["housing"]), where)
+    places = _numbers(gdf.iloc[[i]], "places", name, [farm_id], 0.0, None, False)[0]
+    reduction, technique = 0.0, None
+    if "abatement" in columns and isinstance(row["abatement"], str) and row["abatement"]:
+        technique = tables.technique(row["abatement"], where)
+        reduction = default_reduction_percent(technique)
+    d = derive_emission(
+        factor_nh3_kg_per_place_yr=factor["nh3_kg_per_place_yr"],
+        places=places,
+        reduction_percent=reduction,
+    )
+    return d.nh3_kg_yr, (
+        f"{places:g} {row['livestock']} places x "
+        f"{factor['nh3_kg_per_place_yr']:g} kg/place/yr ({factor['source']})"
+        + (f" less {technique['id']} {reduction:g} %" if technique else "")
+    )
+
+
+def _release_heights(gdf, kinds: pd.Series, ids: list[str], name: str, height_col: str | None):
+    """Each farm's release height [m]: the height field, 0..100 m; where that is absent or
+    empty, DEFAULT_RELEASE_HEIGHT_M of the farm's kind."""
+    default_h = kinds.map(DEFAULT_RELEASE_HEIGHT_M).to_numpy(float)
     if height_col is None:
-        heights = default_h
-    else:
-        given = _numbers(gdf, height_col, name, ids, 0.0, 100.0, True)
-        heights = np.where(np.isnan(given), default_h, given)
-    frame["release_height_m"] = heights
-    frame["release_class"] = [
-        release_class(k, h, a)
-        for k, h, a in zip(frame["kind"], heights, frame["footprint_area_m2"])
-    ]
-    return frame, crs, warnings
+        return default_h
+    given = _numbers(gdf, height_col, name, ids, 0.0, 100.0, True)
+    return np.where(np.isnan(given), default_h, given)
 
 
 def _read_sites(
@@ -599,22 +659,14 @@ def prepare_region(
 ) -> RegionInputs:
     """Read and check the farms, weather and habitats of a regional run (no dispersion)."""
     from siting.outputs import _layer_files
-    from siting.tables import sigma_scheme, wind_exponents
-    from siting.weather import read_frequency_table
 
     options.check()
     tables = tables if tables is not None else load_tables()
     farms, crs, warnings = read_farms(Path(farms_path), tables, fields, crs)
     weather_path = Path(weather_path)
-    if not weather_path.exists():
-        raise InputFileError(f"--weather {weather_path.name}: not found ({weather_path})")
-    weather, weather_summary, weather_warnings = read_frequency_table(
-        weather_path, options.anemometer_height_m, options.min_wind_speed_m_s
-    )
+    weather, weather_summary, weather_warnings = _read_weather(weather_path, options)
     warnings += weather_warnings
-    classes = sorted(
-        set(farms["release_class"]), key=lambda c: (c.kind, c.release_height_m, c.footprint_side_m)
-    )
+    classes = _release_classes(farms)
     grid = grid_around(farms["x_m"], farms["y_m"], options.margin_m, options.spacing_m, crs)
     sites = None
     files = dict(_layer_files("farms", Path(farms_path).resolve()))
@@ -632,25 +684,8 @@ def prepare_region(
         )
         warnings += site_warnings
         files.update(_layer_files("habitats", Path(habitats_path).resolve()))
-        import shapely
-
-        extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
-        for name, geom in zip(sites["name"], sites.geometry):
-            if not geom.intersects(extent):
-                warnings.append(
-                    f'site "{name}" lies outside the grid: not on the maps, but '
-                    "assessed at its own points"
-                )
-    vd = float(tables.deposition_velocities[LAND_COVER_GRID]["deposition_velocity_m_s"])
-    workers = options.workers or os.cpu_count() or 1
-    settings = DispersionSettings(
-        scheme=sigma_scheme(tables.dispersion, options.land_type, "briggs"),
-        wind_exponents=wind_exponents(tables.dispersion, options.land_type),
-        depletion_velocity_m_s=vd if options.plume_depletion else None,
-        memory_budget_mb=engine_budget_mb(options.memory_mb, workers),
-        wind_below_anemometer=options.wind_below_anemometer,
-        min_wind_speed_m_s=options.min_wind_speed_m_s,
-    )
+        warnings += _sites_off_grid(sites, grid)
+    settings = _dispersion_settings(tables, options)
     return RegionInputs(
         farms,
         classes,
@@ -664,6 +699,56 @@ def prepare_region(
         options,
         files,
         warnings,
+    )
+
+
+def _read_weather(weather_path: Path, options: RegionOptions):
+    """The frequency table (``--weather``): (WeatherClasses, summary, warnings)."""
+    from siting.weather import read_frequency_table
+
+    if not weather_path.exists():
+        raise InputFileError(f"--weather {weather_path.name}: not found ({weather_path})")
+    return read_frequency_table(
+        weather_path, options.anemometer_height_m, options.min_wind_speed_m_s
+    )
+
+
+def _release_classes(farms: pd.DataFrame) -> list[ReleaseClass]:
+    """The farms' distinct release classes, sorted by kind, release height and footprint."""
+    return sorted(
+        set(farms["release_class"]), key=lambda c: (c.kind, c.release_height_m, c.footprint_side_m)
+    )
+
+
+def _sites_off_grid(sites, grid: GridSpec) -> list[str]:
+    """A warning for each site that does not touch the grid (it is still assessed)."""
+    import shapely
+
+    warnings = []
+    extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
+    for name, geom in zip(sites["name"], sites.geometry):
+        if not geom.intersects(extent):
+            warnings.append(
+                f'site "{name}" lies outside the grid: not on the maps, but '
+                "assessed at its own points"
+            )
+    return warnings
+
+
+def _dispersion_settings(tables: Tables, options: RegionOptions) -> DispersionSettings:
+    """The plume settings of the run: sigma scheme and wind exponents of the land type,
+    depletion with the short-vegetation velocity if asked, an engine budget per worker."""
+    from siting.tables import sigma_scheme, wind_exponents
+
+    vd = float(tables.deposition_velocities[LAND_COVER_GRID]["deposition_velocity_m_s"])
+    workers = options.workers or os.cpu_count() or 1
+    return DispersionSettings(
+        scheme=sigma_scheme(tables.dispersion, options.land_type, "briggs"),
+        wind_exponents=wind_exponents(tables.dispersion, options.land_type),
+        depletion_velocity_m_s=vd if options.plume_depletion else None,
+        memory_budget_mb=engine_budget_mb(options.memory_mb, workers),
+        wind_below_anemometer=options.wind_below_anemometer,
+        min_wind_speed_m_s=options.min_wind_speed_m_s,
     )
 
 
@@ -797,159 +882,256 @@ def _site_points(sites, spacing_m: float):
 def compute_region(inputs: RegionInputs) -> RegionResult:
     """Concentration and deposition over the grid, and every site's figures and contributors."""
     clock = {"start": time.perf_counter()}
-    opt, grid, farms = inputs.options, inputs.grid, inputs.farms
+    opt, grid = inputs.options, inputs.grid
     workers = opt.workers or os.cpu_count() or 1
     runner = _Runner(opt.scheduler, workers)
     try:
         if runner.client is not None and opt.workers is None:
             workers = max(1, sum(runner.client.nthreads().values()))
         half_rows, half_cols = kernel_half_size(grid.n_rows, grid.n_cols, grid.cell_m, opt.reach_m)
-        concurrent = _concurrent(opt, workers)
-        settings = replace(
-            inputs.settings, memory_budget_mb=engine_budget_mb(opt.memory_mb, concurrent)
-        )
-        plan = plan_tiles(
-            grid.n_rows,
-            grid.n_cols,
-            len(inputs.classes),
+        settings, plan = _settings_and_plan(inputs, workers, half_rows, half_cols)
+        points = _all_site_points(inputs)
+        farm = _farm_arrays(inputs)
+        lattice = runner.call(
+            offset_lattice,
             half_rows,
             half_cols,
-            opt.memory_mb * 1e6,
-            concurrent,
-            settings.memory_budget_mb * 1e6,
-            opt.tile_size,
-            len(farms),
-            opt.near_field_cells,
+            grid.cell_m,
+            inputs.weather,
+            settings.chunk_receptors,
         )
-        chunk = settings.chunk_receptors
-        site_index, px, py, interior = (
-            _site_points(inputs.sites, grid.cell_m)
-            if inputs.sites is not None
-            else (np.zeros(0, int), np.zeros(0), np.zeros(0), np.zeros(0, bool))
+        kernels, placed, corrections, site_parts = _class_tasks(
+            runner, inputs, settings, lattice, farm, points.x_m, points.y_m
         )
-        fx_all, fy_all = farms["x_m"].to_numpy(float), farms["y_m"].to_numpy(float)
-        q_all = farms["emission_g_s"].to_numpy(float)
-        class_of = {c: i for i, c in enumerate(inputs.classes)}
-        farm_class = np.array([class_of[c] for c in farms["release_class"]])
-        members = [np.flatnonzero(farm_class == i) for i in range(len(inputs.classes))]
-
-        lattice = runner.call(
-            offset_lattice, half_rows, half_cols, grid.cell_m, inputs.weather, chunk
-        )
-        kernels, placed, corrections, site_parts = [], [], [], []
-        for cls, idx in zip(inputs.classes, members):
-            kernel = runner.call(_task_kernel, cls, inputs.weather, settings, lattice, opt.reach_m)
-            cells = place_on_cells(
-                fx_all[idx],
-                fy_all[idx],
-                q_all[idx],
-                grid.west_m,
-                grid.north_m,
-                grid.cell_m,
-                grid.n_rows,
-                grid.n_cols,
-                opt.placement,
-            )
-            kernels.append(kernel)
-            placed.append(cells)
-            corrections.append(
-                runner.call(
-                    _task_correction,
-                    kernel,
-                    cls,
-                    fx_all[idx],
-                    fy_all[idx],
-                    q_all[idx],
-                    cells,
-                    inputs.weather,
-                    settings,
-                    grid.west_m,
-                    grid.north_m,
-                    opt.near_field_cells,
-                )
-                if opt.near_field_cells > 0
-                else None
-            )
-            per_task = max(1, min(PAIRS_PER_TASK, chunk) // max(1, px.size))
-            for start in range(0, idx.size, per_task) if px.size else ():
-                part = idx[start : start + per_task]
-                site_parts.append(
-                    runner.call(
-                        _task_site_sum,
-                        cls,
-                        fx_all[part],
-                        fy_all[part],
-                        q_all[part],
-                        px,
-                        py,
-                        inputs.weather,
-                        settings,
-                        opt.reach_m,
-                    )
-                )
-        tiles, ranges = [], []
-        tr, tc = plan.tile_rows, plan.tile_cols
-        for r0 in range(0, grid.n_rows, tr):
-            for c0 in range(0, grid.n_cols, tc):
-                rr, cc = (r0, min(r0 + tr, grid.n_rows)), (c0, min(c0 + tc, grid.n_cols))
-                ranges.append((rr, cc))
-                tiles.append(
-                    runner.call(_task_tile, kernels, placed, corrections, rr, cc, (tr, tc))
-                )
+        tiles, ranges = _tile_tasks(runner, grid, plan, kernels, placed, corrections)
         clock["graph"] = time.perf_counter()
         done = runner.compute(tiles + site_parts)
         clock["grid_and_sites"] = time.perf_counter()
-        concentration = np.empty((grid.n_rows, grid.n_cols))
-        for (rr, cc), tile in zip(ranges, done[: len(tiles)]):
-            concentration[rr[0] : rr[1], cc[0] : cc[1]] = tile
-        del done[: len(tiles)]
-        point_conc = np.zeros(px.size)
-        for part in done:
-            point_conc += part
-
-        sites, contributors = None, pd.DataFrame(columns=CONTRIBUTOR_COLUMNS)
-        if inputs.sites is not None:
-            sites, max_points = _site_figures(
-                inputs.sites, site_index, px, py, interior, point_conc
-            )
-            nodes = []
-            for cls, idx in zip(inputs.classes, members):
-                nodes.append(
-                    runner.call(
-                        _pair_values,
-                        cls,
-                        fx_all[idx],
-                        fy_all[idx],
-                        q_all[idx],
-                        max_points[:, 0],
-                        max_points[:, 1],
-                        inputs.weather,
-                        settings,
-                        opt.reach_m,
-                    )
-                )
-            by_class = runner.compute(nodes)
-            conc_at_max = np.zeros((len(farms), len(sites)))
-            for idx, values in zip(members, by_class):
-                conc_at_max[idx] = values
-            contributors = _contributors(sites, farms, conc_at_max, opt.top)
+        concentration, point_conc = _gather(grid, ranges, done, points.x_m.size)
+        sites, contributors = _site_results(runner, inputs, settings, farm, points, point_conc)
         clock["contributors"] = time.perf_counter()
     finally:
         runner.close()
-    timings = {
+    timings = _timings(clock, inputs, plan, workers, points.x_m.size)
+    return RegionResult(
+        inputs, concentration, sites, contributors, plan, timings, list(inputs.warnings)
+    )
+
+
+@dataclass(frozen=True)
+class _FarmArrays:
+    """The farms as task arguments: positions [m], emissions [g s-1] and the farms of each
+    release class (indices into the farms frame, one array per class of inputs.classes)."""
+
+    x_m: np.ndarray
+    y_m: np.ndarray
+    emission_g_s: np.ndarray
+    members: list[np.ndarray]
+
+    def at(self, idx: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """x [m], y [m] and emission [g s-1] of the farms ``idx``."""
+        return self.x_m[idx], self.y_m[idx], self.emission_g_s[idx]
+
+
+@dataclass(frozen=True)
+class _SitePoints:
+    """Every site's receptor points: site (row of inputs.sites), x, y [m], interior or not."""
+
+    site_index: np.ndarray
+    x_m: np.ndarray
+    y_m: np.ndarray
+    interior: np.ndarray
+
+
+def _farm_arrays(inputs: RegionInputs) -> _FarmArrays:
+    """The farms' positions, emissions and release classes as arrays."""
+    farms = inputs.farms
+    x_m, y_m = farms["x_m"].to_numpy(float), farms["y_m"].to_numpy(float)
+    emission_g_s = farms["emission_g_s"].to_numpy(float)
+    class_of = {c: i for i, c in enumerate(inputs.classes)}
+    farm_class = np.array([class_of[c] for c in farms["release_class"]])
+    members = [np.flatnonzero(farm_class == i) for i in range(len(inputs.classes))]
+    return _FarmArrays(x_m, y_m, emission_g_s, members)
+
+
+def _all_site_points(inputs: RegionInputs) -> _SitePoints:
+    """The sites' receptor points (:func:`_site_points`); none without a habitats layer."""
+    if inputs.sites is None:
+        return _SitePoints(np.zeros(0, int), np.zeros(0), np.zeros(0), np.zeros(0, bool))
+    return _SitePoints(*_site_points(inputs.sites, inputs.grid.cell_m))
+
+
+def _settings_and_plan(
+    inputs: RegionInputs, workers: int, half_rows: int, half_cols: int
+) -> tuple[DispersionSettings, TilePlan]:
+    """The engine settings with the budget of one task among those running at once, and the
+    tile plan that fits the memory budget (InputError when none does)."""
+    opt, grid = inputs.options, inputs.grid
+    concurrent = _concurrent(opt, workers)
+    settings = replace(
+        inputs.settings, memory_budget_mb=engine_budget_mb(opt.memory_mb, concurrent)
+    )
+    plan = plan_tiles(
+        grid.n_rows,
+        grid.n_cols,
+        len(inputs.classes),
+        half_rows,
+        half_cols,
+        opt.memory_mb * 1e6,
+        concurrent,
+        settings.memory_budget_mb * 1e6,
+        opt.tile_size,
+        len(inputs.farms),
+        opt.near_field_cells,
+    )
+    return settings, plan
+
+
+def _class_tasks(runner: _Runner, inputs: RegionInputs, settings, lattice, farm, px, py):
+    """Class by class: the kernel task, the farms placed on the cells, the near-field
+    correction task (None without one) and the site-point sum tasks (one list of all classes').
+
+    The tasks are made in this order whatever runs them (without dask ``runner.call`` runs each
+    at once), so the sums are the same in every case.
+    """
+    opt, grid = inputs.options, inputs.grid
+    kernels, placed, corrections, site_parts = [], [], [], []
+    for cls, idx in zip(inputs.classes, farm.members):
+        kernel = runner.call(_task_kernel, cls, inputs.weather, settings, lattice, opt.reach_m)
+        cells = place_on_cells(
+            *farm.at(idx),
+            grid.west_m,
+            grid.north_m,
+            grid.cell_m,
+            grid.n_rows,
+            grid.n_cols,
+            opt.placement,
+        )
+        kernels.append(kernel)
+        placed.append(cells)
+        corrections.append(
+            _correction_task(runner, inputs, settings, kernel, cls, farm.at(idx), cells)
+        )
+        site_parts += _site_sum_tasks(runner, inputs, settings, cls, idx, farm, px, py)
+    return kernels, placed, corrections, site_parts
+
+
+def _correction_task(runner: _Runner, inputs: RegionInputs, settings, kernel, cls, xyq, cells):
+    """The near-field correction task of one class's farms (x, y, q), or None when the
+    near-field window is 0 cells."""
+    grid, window = inputs.grid, inputs.options.near_field_cells
+    if window <= 0:
+        return None
+    return runner.call(
+        _task_correction,
+        kernel,
+        cls,
+        *xyq,
+        cells,
+        inputs.weather,
+        settings,
+        grid.west_m,
+        grid.north_m,
+        window,
+    )
+
+
+def _site_sum_tasks(runner: _Runner, inputs: RegionInputs, settings, cls, idx, farm, px, py):
+    """One class's farms (``idx``) summed at every site point, in tasks of up to
+    PAIRS_PER_TASK farm x point pairs (none without site points)."""
+    per_task = max(1, min(PAIRS_PER_TASK, settings.chunk_receptors) // max(1, px.size))
+    tasks = []
+    for start in range(0, idx.size, per_task) if px.size else ():
+        part = idx[start : start + per_task]
+        tasks.append(
+            runner.call(
+                _task_site_sum,
+                cls,
+                *farm.at(part),
+                px,
+                py,
+                inputs.weather,
+                settings,
+                inputs.options.reach_m,
+            )
+        )
+    return tasks
+
+
+def _tile_tasks(runner: _Runner, grid: GridSpec, plan: TilePlan, kernels, placed, corrections):
+    """One task per tile of the plan, row by row: (tasks, their (row, col) ranges)."""
+    tiles, ranges = [], []
+    tr, tc = plan.tile_rows, plan.tile_cols
+    for r0 in range(0, grid.n_rows, tr):
+        for c0 in range(0, grid.n_cols, tc):
+            rr, cc = (r0, min(r0 + tr, grid.n_rows)), (c0, min(c0 + tc, grid.n_cols))
+            ranges.append((rr, cc))
+            tiles.append(runner.call(_task_tile, kernels, placed, corrections, rr, cc, (tr, tc)))
+    return tiles, ranges
+
+
+def _gather(grid: GridSpec, ranges, done: list, n_points: int):
+    """The concentration grid [ug m-3] from the tiles (the first ``len(ranges)`` of ``done``,
+    which are dropped from it) and the site points' total [ug m-3], parts summed in order."""
+    concentration = np.empty((grid.n_rows, grid.n_cols))
+    for (rr, cc), tile in zip(ranges, done[: len(ranges)]):
+        concentration[rr[0] : rr[1], cc[0] : cc[1]] = tile
+    del done[: len(ranges)]
+    point_conc = np.zeros(n_points)
+    for part in done:
+        point_conc += part
+    return concentration, point_conc
+
+
+def _site_results(runner: _Runner, inputs: RegionInputs, settings, farm, points, point_conc):
+    """Every site's figures and its top contributors (None and an empty table without sites)."""
+    sites, contributors = None, pd.DataFrame(columns=CONTRIBUTOR_COLUMNS)
+    if inputs.sites is not None:
+        sites, max_points = _site_figures(
+            inputs.sites, points.site_index, points.x_m, points.y_m, points.interior, point_conc
+        )
+        conc_at_max = _farms_at_points(runner, inputs, settings, farm, max_points)
+        contributors = _contributors(sites, inputs.farms, conc_at_max, inputs.options.top)
+    return sites, contributors
+
+
+def _farms_at_points(runner: _Runner, inputs: RegionInputs, settings, farm, points_xy):
+    """Each farm's own concentration [ug m-3] (rows) at each point (columns; ``points_xy`` is
+    (n, 2) x, y [m]), one task per release class."""
+    nodes = []
+    for cls, idx in zip(inputs.classes, farm.members):
+        nodes.append(
+            runner.call(
+                _pair_values,
+                cls,
+                *farm.at(idx),
+                points_xy[:, 0],
+                points_xy[:, 1],
+                inputs.weather,
+                settings,
+                inputs.options.reach_m,
+            )
+        )
+    by_class = runner.compute(nodes)
+    values_ug_m3 = np.zeros((len(inputs.farms), len(points_xy)))
+    for idx, values in zip(farm.members, by_class):
+        values_ug_m3[idx] = values
+    return values_ug_m3
+
+
+def _timings(clock: dict, inputs: RegionInputs, plan: TilePlan, workers: int, n_points: int):
+    """The run's phases [s] and sizes, for run.json."""
+    return {
         "setup_s": clock["graph"] - clock["start"],
         "grid_and_site_points_s": clock["grid_and_sites"] - clock["graph"],
         "contributors_s": clock["contributors"] - clock["grid_and_sites"],
         "total_s": clock["contributors"] - clock["start"],
-        "site_points": int(px.size),
-        "farms": len(farms),
+        "site_points": int(n_points),
+        "farms": len(inputs.farms),
         "release_classes": len(inputs.classes),
         "tiles": plan.n_tiles,
         "workers": int(workers),
     }
-    return RegionResult(
-        inputs, concentration, sites, contributors, plan, timings, list(inputs.warnings)
-    )
 
 
 CONTRIBUTOR_COLUMNS = [

@@ -464,6 +464,26 @@ def test_duplicate_ids_and_missing_file(tmp_path, tables):
         read_farms(tmp_path / "nothing.gpkg", tables)
 
 
+def test_first_fault_of_a_farm_layer_is_the_one_reported(tmp_path, tables):
+    """Several faults in one layer: ids, then geometry, then emission, then height are checked."""
+    line = LineString([CENTRE, (CENTRE[0] + 10, CENTRE[1])])
+    bad_a = {"id": "A", "nh3_kg_per_year": -5.0, "height_m": 500.0, "geometry": line}
+    bad_b = {"id": "B", "nh3_kg_per_year": -5.0, "height_m": 500.0, "geometry": Point(*CENTRE)}
+    again_a = {"id": "A", "nh3_kg_per_year": 5.0, "height_m": 4.0, "geometry": Point(*CENTRE)}
+    cases = [
+        ([bad_a, bad_b, again_a], 'duplicate farm id "A"'),
+        ([bad_a, bad_b], 'farm "A": geometry is a LineString'),
+        ([bad_b], 'farm "B": nh3_kg_per_year must be a number >= 0'),
+        (
+            [{**bad_b, "nh3_kg_per_year": 5.0}],
+            'farm "B": height_m must be a number >= 0 and <= 100',
+        ),
+    ]
+    for i, (rows, message) in enumerate(cases):
+        with pytest.raises(InputError, match=message):
+            read_farms(_layer(tmp_path, rows, name=f"farms_{i}.gpkg"), tables)
+
+
 def test_options_are_checked():
     """Out-of-range options name the CLI option."""
     with pytest.raises(InputError, match="--margin"):
