@@ -13,9 +13,16 @@ page. folium writes popup and tooltip content into JavaScript template literals 
 escaping, so HTML escaping alone is not enough: backticks, ``$``, braces and backslashes are
 turned into HTML character references too. The sources are added one by one, with only their
 geometry in the GeoJSON. The habitat sites, which may number thousands, are one GeoJSON layer
-(:func:`_add_sites`): each feature carries its verdict and its popup and tooltip texts, every
-user value among them already escaped by :func:`escape_text`, so no raw user property is ever
-embedded in the page; a short script of ours binds them to each feature when the page loads.
+(:func:`_add_sites`, on both maps): each feature carries its verdict and its popup and tooltip
+texts, every user value among them already escaped by :func:`escape_text`, so no raw user
+property is ever embedded in the page; a short script of ours binds them to each feature when
+the page loads.
+
+:func:`write_screen_map` (map.html of a screening run) and :func:`write_place_map` (the
+placement search's map) are short sequences of the same steps: :func:`_new_map` (page title,
+style sheet, background), :func:`_add_surface` (the coloured grid), their own layers,
+:func:`_add_extent_outline`, and :func:`_write_map` (title block, legend, north arrow, layer
+control, vendored assets, the file).
 """
 
 from __future__ import annotations
@@ -177,10 +184,13 @@ def _popup_table(head: str, rows: Sequence[tuple[str, str]]) -> str:
     return f'<div class="siting-popup"><div class="head">{head}</div><table>{body}</table></div>'
 
 
+#: (label, column, unit) rows of a popup table; see _SITE_POPUP_ROWS.
+_PopupRows = tuple[tuple[str, str, str | None], ...]
+
 #: Rows of a site's popup: (label, column, unit); unit None for text. A row whose value is empty
 #: text is left out; numbers show "n/a" when missing. The in-combination row (last) is shown
 #: only where the site has that figure.
-_SITE_POPUP_ROWS: tuple[tuple[str, str, str | None], ...] = (
+_SITE_POPUP_ROWS: _PopupRows = (
     ("Site id", "site_id", None),
     ("Designation", "designation", None),
     ("Habitat", "habitat", None),
@@ -227,13 +237,14 @@ def _number_texts(values: list, unit: str, blank: bool = False) -> list[str]:
     return texts
 
 
-def _site_popup_values(frame: Any) -> list[list[str]]:
-    """Per site, the escaped value of each row of :data:`_SITE_POPUP_ROWS` ('' = row left out).
+def _site_popup_values(frame: Any, rows: _PopupRows = _SITE_POPUP_ROWS) -> list[list[str]]:
+    """Per site, the escaped value of each of ``rows`` ('' = row left out).
 
-    Built column by column, so thousands of sites cost a fraction of a second.
+    ``rows`` are (label, column, unit) as in :data:`_SITE_POPUP_ROWS`. Built column by column,
+    so thousands of sites cost a fraction of a second.
     """
     columns = []
-    for _label, column, unit in _SITE_POPUP_ROWS:
+    for _label, column, unit in rows:
         values = _column(frame, column)
         if column == "verdict":
             texts = [f"<strong>{escape_text(v) or 'not assessed'}</strong>" for v in values]
@@ -494,9 +505,10 @@ _SITE_SCRIPT = """function (feature, layer) {
 }"""
 
 
-def _site_script() -> str:
-    """The feature script: our own labels (escaped) and popup options as JavaScript literals."""
-    labels = [escape_text(label) for label, _column, _unit in _SITE_POPUP_ROWS]
+def _site_script(rows: _PopupRows = _SITE_POPUP_ROWS) -> str:
+    """The feature script: our own labels of ``rows`` (escaped) and the popup options as
+    JavaScript literals."""
+    labels = [escape_text(label) for label, _column, _unit in rows]
     options = {
         "maxWidth": _POPUP_OPTIONS["max_width"],
         "autoPanPaddingTopLeft": _POPUP_OPTIONS["auto_pan_padding_top_left"],
@@ -517,12 +529,15 @@ def _site_style(verdict: str) -> dict[str, Any]:
     }
 
 
-def _site_features(sites_wgs84: gpd.GeoDataFrame) -> list[dict[str, Any]]:
+def _site_features(
+    sites_wgs84: gpd.GeoDataFrame, rows: _PopupRows = _SITE_POPUP_ROWS
+) -> list[dict[str, Any]]:
     """One GeoJSON feature per drawable site: rounded outline, verdict, escaped texts.
 
     Properties: ``verdict`` (lower case; the style key), ``name`` (escaped, 'Unnamed site'
-    when blank) and ``popup`` (the escaped values of :data:`_SITE_POPUP_ROWS`). Sites without
-    a geometry are left out; ``id`` is the site's row position.
+    when blank) and ``popup`` (the escaped values of ``rows``, by default
+    :data:`_SITE_POPUP_ROWS`). Sites without a geometry are left out; ``id`` is the site's row
+    position.
     """
     import shapely
     from shapely.geometry import mapping
@@ -533,7 +548,7 @@ def _site_features(sites_wgs84: gpd.GeoDataFrame) -> list[dict[str, Any]]:
     rounded = shapely.transform(geoms[drawable], lambda xy: np.round(xy, _LONLAT_DECIMALS))
     verdicts = _site_verdicts(sites_wgs84)
     names = [escape_text(n) or "Unnamed site" for n in _column(sites_wgs84, "name")]
-    popups = _site_popup_values(sites_wgs84)
+    popups = _site_popup_values(sites_wgs84, rows)
     return [
         {
             "type": "Feature",
@@ -545,24 +560,39 @@ def _site_features(sites_wgs84: gpd.GeoDataFrame) -> list[dict[str, Any]]:
     ]
 
 
-def _add_sites(group: folium.FeatureGroup, sites_wgs84: gpd.GeoDataFrame) -> None:
-    """All sites as one GeoJson layer, styled by verdict, with a popup and tooltip per feature.
+def _add_sites(
+    group: folium.FeatureGroup,
+    sites_wgs84: gpd.GeoDataFrame,
+    *,
+    rows: _PopupRows = _SITE_POPUP_ROWS,
+    style: dict[str, Any] | None = None,
+    highlight: bool = True,
+) -> None:
+    """All sites as one GeoJson layer, with a popup and tooltip per feature.
 
     One layer instead of one per site keeps map.html small and quick to write for thousands
-    of sites; the style is keyed on the ``verdict`` property, and the popup and tooltip of
-    each feature are bound by :data:`_SITE_SCRIPT` from its already escaped properties.
+    of sites. Each feature is styled by its ``verdict`` property (:func:`_site_style`), or
+    all alike by ``style`` when given; its popup (the rows of ``rows`` that have a value) and
+    tooltip are bound by :data:`_SITE_SCRIPT` from its already escaped properties.
+    ``highlight`` thickens an outline under the pointer.
     """
     import folium
     from folium.utilities import JsCode
 
-    features = _site_features(sites_wgs84)
+    features = _site_features(sites_wgs84, rows)
     if not features:
         return
     folium.GeoJson(
         data={"type": "FeatureCollection", "features": features},
-        style_function=lambda feature: _site_style(feature["properties"]["verdict"]),
-        highlight_function=lambda _feature: {"weight": 4, "fillOpacity": 0.35},
-        on_each_feature=JsCode(_site_script()),
+        style_function=(
+            (lambda _feature: style)
+            if style is not None
+            else (lambda feature: _site_style(feature["properties"]["verdict"]))
+        ),
+        highlight_function=(
+            (lambda _feature: {"weight": 4, "fillOpacity": 0.35}) if highlight else None
+        ),
+        on_each_feature=JsCode(_site_script(rows)),
         zoom_on_click=False,
         control=False,
     ).add_to(group)
@@ -613,6 +643,173 @@ def _add_sources(group: folium.FeatureGroup, sources_wgs84: gpd.GeoDataFrame) ->
         popup.add_to(marker)
         tooltip.add_to(marker)
         marker.add_to(group)
+
+
+def _roles_present(sources_wgs84: gpd.GeoDataFrame) -> list[str]:
+    """The sources' roles for the legend: ours in :data:`ROLE_STYLES` order, then others sorted."""
+    if "role" not in sources_wgs84:
+        return []
+    seen = {str(r).strip().lower() for r in sources_wgs84["role"] if not is_missing(r)}
+    return [r for r in ROLE_STYLES if r in seen] + sorted(seen - set(ROLE_STYLES))
+
+
+# --- steps shared by both maps -------------------------------------------------------------
+
+
+def _new_map(title: str, bounds: list[list[float]], zoom_start: int) -> folium.Map:
+    """A map centred on ``bounds`` ([[lat_s, lon_w], [lat_n, lon_e]]) with the page title
+    (escaped), our style sheet and the optional OpenStreetMap background."""
+    import folium
+
+    (lat_s, lon_w), (lat_n, lon_e) = bounds
+    fmap = folium.Map(
+        location=[(lat_s + lat_n) / 2.0, (lon_w + lon_e) / 2.0],
+        zoom_start=zoom_start,
+        tiles=None,
+        control_scale=True,
+    )
+    root = fmap.get_root()
+    root.header.add_child(folium.Element(f"<title>{escape_text(title)} · siting map</title>"))
+    root.header.add_child(folium.Element(_MAP_CSS))
+    folium.TileLayer(
+        "OpenStreetMap",
+        name=escape_text("OpenStreetMap background (needs internet)"),
+        overlay=False,
+        control=True,
+        show=True,
+    ).add_to(fmap)
+    return fmap
+
+
+def _add_surface(fmap: folium.Map, data_url: str, bounds: list[list[float]], name: str) -> None:
+    """The coloured grid from :func:`_overlay` as an image overlay named ``name`` (escaped)."""
+    import folium
+
+    folium.raster_layers.ImageOverlay(
+        image=data_url,
+        bounds=bounds,
+        name=escape_text(name),
+        opacity=_OVERLAY_OPACITY,
+        interactive=False,
+        overlay=True,
+        control=True,
+        show=True,
+        pixelated=True,
+        class_name=OVERLAY_CLASS,
+    ).add_to(fmap)
+
+
+def _layer(fmap: folium.Map, name: str) -> folium.FeatureGroup:
+    """A new overlay group named ``name`` (escaped), already on the map, to draw into."""
+    import folium
+
+    group = folium.FeatureGroup(name=escape_text(name), overlay=True)
+    group.add_to(fmap)
+    return group
+
+
+_EXTENT_COLOUR = "#555555"
+#: Layer-control name and CSS class of the grid's outline.
+GRID_EDGE_LAYER = "Grid edge"
+GRID_EDGE_CLASS = "siting-grid-edge"
+#: Tooltips of the outline on the screening map and on the placement map.
+_GRID_EDGE_TIP = "Edge of the computed grid: nothing was computed outside it"
+_SEARCH_EDGE_TIP = "Edge of the searched area"
+
+
+def _extent_legend_row(label: str = "edge of the computed grid") -> str:
+    """Legend row of the grid's dotted outline (label escaped)."""
+    return (
+        '<div class="row"><span class="line" style="border-top:2px dotted #555555"></span>'
+        f"{escape_text(label)}</div>"
+    )
+
+
+def _add_extent_outline(
+    fmap,
+    projected,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    shape: tuple[int, int],
+    tooltip: str,
+) -> None:
+    """A dotted outline of the grid, so its edge is not read as the edge of the plume."""
+    import folium
+    from pyproj import Transformer
+
+    n_rows, n_cols = shape
+    east_m, south_m = west_m + n_cols * cell_m, north_m - n_rows * cell_m
+    xs = np.array([west_m, east_m, east_m, west_m, west_m])
+    ys = np.array([north_m, north_m, south_m, south_m, north_m])
+    # densify so the outline follows the projection's curvature
+    t = np.linspace(0.0, 1.0, 25)[:-1]
+    dx = np.concatenate([xs[i] + (xs[i + 1] - xs[i]) * t for i in range(4)] + [xs[-1:]])
+    dy = np.concatenate([ys[i] + (ys[i + 1] - ys[i]) * t for i in range(4)] + [ys[-1:]])
+    lon, lat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True).transform(dx, dy)
+    group = folium.FeatureGroup(name=escape_text(GRID_EDGE_LAYER), overlay=True)
+    folium.PolyLine(
+        locations=np.column_stack([lat, lon]).tolist(),
+        color=_EXTENT_COLOUR,
+        weight=2,
+        opacity=0.8,
+        dash_array="2 5",
+        class_name=GRID_EDGE_CLASS,
+        tooltip=folium.Tooltip(escape_text(tooltip)),
+    ).add_to(group)
+    group.add_to(fmap)
+
+
+def _write_map(fmap: folium.Map, path: Path, bounds: list[list[float]], boxes: list[str]) -> None:
+    """Finish and write the page: the ready-made ``boxes`` (title block, legend), the north
+    arrow, the layer control and the view fitted to ``bounds``. folium's CDN links are
+    replaced by the vendored assets (:func:`siting.webassets.inline_assets`) before anything
+    is written, so an asset siting does not vendor leaves no file."""
+    import folium
+
+    root = fmap.get_root()
+    for box in [*boxes, _NORTH_ARROW]:
+        root.html.add_child(folium.Element(box))
+    folium.LayerControl(collapsed=False).add_to(fmap)
+    fmap.fit_bounds(bounds)
+    page = inline_assets(root.render())
+    Path(path).write_bytes(page.encode("utf-8"))
+
+
+# --- the screening map ---------------------------------------------------------------------
+
+
+def _add_contours(
+    fmap: folium.Map,
+    grid: np.ndarray,
+    projected: Any,
+    west_m: float,
+    north_m: float,
+    cell_m: float,
+    contours: Sequence[tuple[float, str]],
+) -> None:
+    """The "Contours" layer (none without levels): dashed lines of the grid at each level
+    [kg N ha-1 yr-1], each with its label as tooltip (escaped)."""
+    import folium
+    from pyproj import Transformer
+
+    if not contours:
+        return
+    group = _layer(fmap, "Contours")
+    to_lonlat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True)
+    for level, label in contours:
+        for line in _contour_lines(grid, west_m, north_m, cell_m, float(level)):
+            lon, lat = to_lonlat.transform(line[:, 0], line[:, 1])
+            folium.PolyLine(
+                locations=np.column_stack([lat, lon]).tolist(),
+                color=_CONTOUR_COLOUR,
+                weight=2,
+                opacity=0.9,
+                dash_array="6 4",
+                tooltip=folium.Tooltip(
+                    f"{escape_text(label)} ({escape_text(format_number(level))} kg N/ha/yr)"
+                ),
+            ).add_to(group)
 
 
 def write_screen_map(
@@ -680,152 +877,37 @@ def write_screen_map(
     The raster is reprojected with nearest-neighbour resampling so each coloured pixel keeps a
     value of the grid. Class edges come from :func:`siting.presentation.deposition_class_edges`.
     """
-    import folium
-    from pyproj import Transformer
-
     grid, projected = _check_grid(deposition_kg_n_ha_yr, cell_m, crs)
     edges = deposition_class_edges(grid)
     colours = deposition_class_colours(edges.size - 1)
     data_url, bounds = _overlay(grid, projected, west_m, north_m, cell_m, edges, colours)
-    sites_wgs84 = _with_crs(sites, projected)
     sources_wgs84 = _with_crs(sources, projected)
-
-    (lat_s, lon_w), (lat_n, lon_e) = bounds
-    fmap = folium.Map(
-        location=[(lat_s + lat_n) / 2.0, (lon_w + lon_e) / 2.0],
-        zoom_start=13,
-        tiles=None,
-        control_scale=True,
-    )
-    root = fmap.get_root()
-    root.header.add_child(folium.Element(f"<title>{escape_text(title)} · siting map</title>"))
-    root.header.add_child(folium.Element(_MAP_CSS))
-    folium.TileLayer(
-        "OpenStreetMap",
-        name=escape_text("OpenStreetMap background (needs internet)"),
-        overlay=False,
-        control=True,
-        show=True,
-    ).add_to(fmap)
-
-    folium.raster_layers.ImageOverlay(
-        image=data_url,
-        bounds=bounds,
-        name=escape_text("Deposition, PC (kg N/ha/yr)"),
-        opacity=_OVERLAY_OPACITY,
-        interactive=False,
-        overlay=True,
-        control=True,
-        show=True,
-        pixelated=True,
-        class_name=OVERLAY_CLASS,
-    ).add_to(fmap)
-
-    if contours:
-        to_lonlat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True)
-        contour_group = folium.FeatureGroup(name=escape_text("Contours"), overlay=True)
-        for level, label in contours:
-            for line in _contour_lines(grid, west_m, north_m, cell_m, float(level)):
-                lon, lat = to_lonlat.transform(line[:, 0], line[:, 1])
-                folium.PolyLine(
-                    locations=np.column_stack([lat, lon]).tolist(),
-                    color=_CONTOUR_COLOUR,
-                    weight=2,
-                    opacity=0.9,
-                    dash_array="6 4",
-                    tooltip=folium.Tooltip(
-                        f"{escape_text(label)} ({escape_text(format_number(level))} kg N/ha/yr)"
-                    ),
-                ).add_to(contour_group)
-        contour_group.add_to(fmap)
-
-    _add_extent_outline(
-        fmap,
-        projected,
-        west_m,
-        north_m,
-        cell_m,
-        grid.shape,
-        "Edge of the computed grid: nothing was computed outside it",
-    )
-
-    site_group = folium.FeatureGroup(name=escape_text("Habitat sites"), overlay=True)
-    _add_sites(site_group, sites_wgs84)
-    site_group.add_to(fmap)
-
-    source_group = folium.FeatureGroup(name=escape_text("Sources"), overlay=True)
-    _add_sources(source_group, sources_wgs84)
-    source_group.add_to(fmap)
-
-    roles = []
-    if "role" in sources_wgs84:
-        seen = {str(r).strip().lower() for r in sources_wgs84["role"] if not is_missing(r)}
-        roles = [r for r in ROLE_STYLES if r in seen] + sorted(seen - set(ROLE_STYLES))
-    root.html.add_child(folium.Element(_title_html(title, run_time, version, cautions)))
-    root.html.add_child(
-        folium.Element(
-            _legend_html(edges, colours, contours, roles, extra_rows=[_extent_legend_row()])
-        )
-    )
-    root.html.add_child(folium.Element(_NORTH_ARROW))
-
-    folium.LayerControl(collapsed=False).add_to(fmap)
-    fmap.fit_bounds(bounds)
-    page = inline_assets(fmap.get_root().render())
-    Path(path).write_bytes(page.encode("utf-8"))
+    fmap = _new_map(title, bounds, zoom_start=13)
+    _add_surface(fmap, data_url, bounds, "Deposition, PC (kg N/ha/yr)")
+    _add_contours(fmap, grid, projected, west_m, north_m, cell_m, contours)
+    _add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape, _GRID_EDGE_TIP)
+    _add_sites(_layer(fmap, "Habitat sites"), _with_crs(sites, projected))
+    _add_sources(_layer(fmap, "Sources"), sources_wgs84)
+    roles = _roles_present(sources_wgs84)
+    legend = _legend_html(edges, colours, contours, roles, extra_rows=[_extent_legend_row()])
+    title_box = _title_html(title, run_time, version, cautions)
+    _write_map(fmap, path, bounds, [title_box, legend])
 
 
-_EXTENT_COLOUR = "#555555"
-#: Layer-control name and CSS class of the grid's outline.
-GRID_EDGE_LAYER = "Grid edge"
-GRID_EDGE_CLASS = "siting-grid-edge"
-
-
-def _extent_legend_row(label: str = "edge of the computed grid") -> str:
-    return (
-        '<div class="row"><span class="line" style="border-top:2px dotted #555555"></span>'
-        f"{escape_text(label)}</div>"
-    )
-
-
-def _add_extent_outline(
-    fmap,
-    projected,
-    west_m: float,
-    north_m: float,
-    cell_m: float,
-    shape: tuple[int, int],
-    tooltip: str,
-) -> None:
-    """A dotted outline of the grid, so its edge is not read as the edge of the plume."""
-    import folium
-    from pyproj import Transformer
-
-    n_rows, n_cols = shape
-    east_m, south_m = west_m + n_cols * cell_m, north_m - n_rows * cell_m
-    xs = np.array([west_m, east_m, east_m, west_m, west_m])
-    ys = np.array([north_m, north_m, south_m, south_m, north_m])
-    # densify so the outline follows the projection's curvature
-    t = np.linspace(0.0, 1.0, 25)[:-1]
-    dx = np.concatenate([xs[i] + (xs[i + 1] - xs[i]) * t for i in range(4)] + [xs[-1:]])
-    dy = np.concatenate([ys[i] + (ys[i + 1] - ys[i]) * t for i in range(4)] + [ys[-1:]])
-    lon, lat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True).transform(dx, dy)
-    group = folium.FeatureGroup(name=escape_text(GRID_EDGE_LAYER), overlay=True)
-    folium.PolyLine(
-        locations=np.column_stack([lat, lon]).tolist(),
-        color=_EXTENT_COLOUR,
-        weight=2,
-        opacity=0.8,
-        dash_array="2 5",
-        class_name=GRID_EDGE_CLASS,
-        tooltip=folium.Tooltip(escape_text(tooltip)),
-    ).add_to(group)
-    group.add_to(fmap)
-
+# --- the placement map ---------------------------------------------------------------------
 
 #: Classes of the placement surface: the worst share of a site's screening threshold
 #: (1 = exactly at it); four passing classes, four failing ones. Our own choice.
 SHARE_CLASS_EDGES = np.array([0.0, 0.25, 0.5, 0.75, 1.0, 1.5, 2.0, 5.0, 10.0])
+
+#: Outline of every habitat site on the placement map (figures there are of the screening
+#: run, not of the positions, so the sites are not coloured by verdict). Our own colour.
+_PLACE_SITE_STYLE: dict[str, Any] = {
+    "color": "#6a3d9a",
+    "weight": 2,
+    "fillOpacity": 0.15,
+    "className": SITE_CLASS,
+}
 
 
 def _share_colours() -> list[str]:
@@ -835,6 +917,100 @@ def _share_colours() -> list[str]:
 
     cmap = colormaps["BrBG_r"]
     return [to_hex(cmap(v)) for v in (0.08, 0.2, 0.32, 0.44, 0.6, 0.72, 0.84, 0.96)]
+
+
+def _place_site_rows(sites: gpd.GeoDataFrame) -> _PopupRows:
+    """Popup rows of a site on the placement map: designation and habitat (its name when the
+    frame has ``habitat_name``, else its id)."""
+    habitat = "habitat_name" if "habitat_name" in sites else "habitat"
+    return (("Designation", "designation", None), ("Habitat", habitat, None))
+
+
+def _add_holding(
+    group: folium.FeatureGroup,
+    holding: gpd.GeoDataFrame,
+    allowed_area: gpd.GeoDataFrame,
+    projected: Any,
+) -> None:
+    """Outlines of the holding boundary (dashed grey) and the allowed area (green)."""
+    import folium
+
+    for frame, colour, dash, label in (
+        (holding, "#3b3b3b", "6 4", "holding boundary"),
+        (allowed_area, "#1b7f3b", None, "allowed area"),
+    ):
+        for geom in _with_crs(frame, projected).geometry:
+            folium.GeoJson(
+                geom.__geo_interface__,
+                style_function=lambda _f, c=colour, d=dash: {
+                    "color": c,
+                    "weight": 2,
+                    "fill": False,
+                    "dashArray": d,
+                },
+                tooltip=folium.Tooltip(escape_text(label)),
+            ).add_to(group)
+
+
+def _position_popup(rank: int, row: Any) -> str:
+    """Popup HTML of one ranked position (a row of positions.csv); site names escaped."""
+    lines = [
+        f"<b>Rank {rank}</b>",
+        f"x {row.x:.0f}, y {row.y:.0f}",
+        f"limiting site: {escape_text(row.limiting_site)} "
+        f"({row.limiting_share_of_threshold:.2f} of its threshold)",
+        f"worst % of critical load: {format_number(row.worst_pct_load)} "
+        f"({escape_text(row.worst_site)})",
+        f"worst % of critical level: {format_number(row.worst_pct_level)}",
+        f"reduction needed: {row.required_reduction_percent:.0f} %",
+    ]
+    places = getattr(row, "max_places_unabated", None)
+    if places is not None and not is_missing(places):
+        lines.append(f"most places unabated: {places:.0f}")
+    return "<br>".join(lines)
+
+
+def _add_positions(group: folium.FeatureGroup, positions_wgs84: gpd.GeoDataFrame) -> None:
+    """The best positions, best first, as white circle markers with their rank."""
+    import folium
+
+    for row in positions_wgs84.reset_index(drop=True).itertuples():
+        rank = row.Index + 1
+        folium.CircleMarker(
+            location=[row.geometry.y, row.geometry.x],
+            radius=8,
+            color="#111111",
+            weight=2,
+            fill=True,
+            fill_color="#ffffff",
+            fill_opacity=1.0,
+            tooltip=folium.Tooltip(f"rank {rank}"),
+            popup=folium.Popup(_position_popup(rank, row), max_width=320),
+        ).add_to(group)
+
+
+def _place_legend_html(edges: np.ndarray, colours: list[str]) -> str:
+    """Legend of the placement map: share classes, how to read them, positions, grid edge."""
+    best_row = (
+        '<div class="row"><span class="dot" style="background:#ffffff;'
+        'border:2px solid #111111"></span>best positions (rank in popup)</div>'
+    )
+    note = (
+        '<div class="note">House placed at a coloured cell: its process contribution at '
+        "the worst-hit site, as a share of that site's screening threshold. Below 1 it "
+        "passes every site; above 1 it needs abatement or fewer places (see positions.csv)."
+        "</div>"
+    )
+    return _legend_html(
+        edges,
+        colours,
+        [],
+        [],
+        heading="Worst share of a site's threshold (1 = at it)",
+        unit="",
+        extra_rows=[note, best_row, _extent_legend_row("edge of the searched area")],
+        verdicts=False,
+    )
 
 
 def write_place_map(
@@ -872,131 +1048,21 @@ def write_place_map(
 
     Other parameters as for :func:`write_screen_map`. User text is escaped throughout.
     """
-    import folium
-
     grid, projected = _check_grid(share_of_threshold, cell_m, crs)
     edges, colours = SHARE_CLASS_EDGES, _share_colours()
     data_url, bounds = _overlay(grid, projected, west_m, north_m, cell_m, edges, colours)
-    fmap = folium.Map(
-        location=[(bounds[0][0] + bounds[1][0]) / 2, (bounds[0][1] + bounds[1][1]) / 2],
-        zoom_start=15,
-        tiles=None,
-        control_scale=True,
+
+    fmap = _new_map(title, bounds, zoom_start=15)
+    _add_surface(fmap, data_url, bounds, "Worst share of a threshold, by house position")
+    _add_holding(_layer(fmap, "Holding and allowed area"), holding, allowed_area, projected)
+    _add_sites(
+        _layer(fmap, "Habitat sites"),
+        _with_crs(sites, projected),
+        rows=_place_site_rows(sites),
+        style=_PLACE_SITE_STYLE,
+        highlight=False,
     )
-    root = fmap.get_root()
-    root.header.add_child(folium.Element(f"<title>{escape_text(title)} · siting map</title>"))
-    root.header.add_child(folium.Element(_MAP_CSS))
-    folium.TileLayer(
-        "OpenStreetMap",
-        name=escape_text("OpenStreetMap background (needs internet)"),
-        overlay=False,
-        control=True,
-        show=True,
-    ).add_to(fmap)
-    folium.raster_layers.ImageOverlay(
-        image=data_url,
-        bounds=bounds,
-        name=escape_text("Worst share of a threshold, by house position"),
-        opacity=_OVERLAY_OPACITY,
-        interactive=False,
-        overlay=True,
-        control=True,
-        show=True,
-        pixelated=True,
-        class_name=OVERLAY_CLASS,
-    ).add_to(fmap)
-    area_group = folium.FeatureGroup(name=escape_text("Holding and allowed area"), overlay=True)
-    for frame, colour, dash, label in (
-        (holding, "#3b3b3b", "6 4", "holding boundary"),
-        (allowed_area, "#1b7f3b", None, "allowed area"),
-    ):
-        for geom in _with_crs(frame, projected).geometry:
-            folium.GeoJson(
-                geom.__geo_interface__,
-                style_function=lambda _f, c=colour, d=dash: {
-                    "color": c,
-                    "weight": 2,
-                    "fill": False,
-                    "dashArray": d,
-                },
-                tooltip=folium.Tooltip(escape_text(label)),
-            ).add_to(area_group)
-    area_group.add_to(fmap)
-    site_group = folium.FeatureGroup(name=escape_text("Habitat sites"), overlay=True)
-    for row in _with_crs(sites, projected).itertuples():
-        text = (
-            f"<b>{escape_text(row.name)}</b><br>{escape_text(row.designation)}<br>"
-            f"{escape_text(getattr(row, 'habitat_name', row.habitat))}"
-        )
-        folium.GeoJson(
-            row.geometry.__geo_interface__,
-            style_function=lambda _f: {
-                "color": "#6a3d9a",
-                "weight": 2,
-                "fillOpacity": 0.15,
-                "className": SITE_CLASS,
-            },
-            tooltip=folium.Tooltip(escape_text(row.name)),
-            popup=folium.Popup(text, max_width=300),
-        ).add_to(site_group)
-    site_group.add_to(fmap)
-    best_group = folium.FeatureGroup(name=escape_text("Best positions"), overlay=True)
-    for row in _with_crs(positions, projected).reset_index(drop=True).itertuples():
-        lines = [
-            f"<b>Rank {row.Index + 1}</b>",
-            f"x {row.x:.0f}, y {row.y:.0f}",
-            f"limiting site: {escape_text(row.limiting_site)} "
-            f"({row.limiting_share_of_threshold:.2f} of its threshold)",
-            f"worst % of critical load: {format_number(row.worst_pct_load)} "
-            f"({escape_text(row.worst_site)})",
-            f"worst % of critical level: {format_number(row.worst_pct_level)}",
-            f"reduction needed: {row.required_reduction_percent:.0f} %",
-        ]
-        places = getattr(row, "max_places_unabated", None)
-        if places is not None and not is_missing(places):
-            lines.append(f"most places unabated: {places:.0f}")
-        folium.CircleMarker(
-            location=[row.geometry.y, row.geometry.x],
-            radius=8,
-            color="#111111",
-            weight=2,
-            fill=True,
-            fill_color="#ffffff",
-            fill_opacity=1.0,
-            tooltip=folium.Tooltip(f"rank {row.Index + 1}"),
-            popup=folium.Popup("<br>".join(lines), max_width=320),
-        ).add_to(best_group)
-    best_group.add_to(fmap)
-    _add_extent_outline(
-        fmap, projected, west_m, north_m, cell_m, grid.shape, "Edge of the searched area"
-    )
-    root.html.add_child(folium.Element(_title_html(title, run_time, version, cautions)))
-    best_row = (
-        '<div class="row"><span class="dot" style="background:#ffffff;'
-        'border:2px solid #111111"></span>best positions (rank in popup)</div>'
-    )
-    note = (
-        '<div class="note">House placed at a coloured cell: its process contribution at '
-        "the worst-hit site, as a share of that site's screening threshold. Below 1 it "
-        "passes every site; above 1 it needs abatement or fewer places (see positions.csv)."
-        "</div>"
-    )
-    root.html.add_child(
-        folium.Element(
-            _legend_html(
-                edges,
-                colours,
-                [],
-                [],
-                heading="Worst share of a site's threshold (1 = at it)",
-                unit="",
-                extra_rows=[note, best_row, _extent_legend_row("edge of the searched area")],
-                verdicts=False,
-            )
-        )
-    )
-    root.html.add_child(folium.Element(_NORTH_ARROW))
-    folium.LayerControl(collapsed=False).add_to(fmap)
-    fmap.fit_bounds(bounds)
-    page = inline_assets(fmap.get_root().render())
-    Path(path).write_bytes(page.encode("utf-8"))
+    _add_positions(_layer(fmap, "Best positions"), _with_crs(positions, projected))
+    _add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape, _SEARCH_EDGE_TIP)
+    title_box = _title_html(title, run_time, version, cautions)
+    _write_map(fmap, path, bounds, [title_box, _place_legend_html(edges, colours)])

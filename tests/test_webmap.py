@@ -374,3 +374,69 @@ def test_site_style_is_keyed_on_the_verdict(map_html):
     for colour in VERDICT_COLOURS.values():
         assert colour in styler.group(1)
     assert SITE_CLASS in styler.group(1)
+
+
+def test_place_map_draws_the_sites_as_one_escaped_layer(tmp_path):
+    """The placement map reuses the screening map's single site layer: one GeoJson of every
+    site, the stable CSS class, only designation and habitat in the popup, hostile text
+    escaped (common practice, no source)."""
+    from siting.webmap import write_place_map
+
+    centre_x = WEST_M + N_COLS * CELL_M / 2
+    centre_y = NORTH_M - N_ROWS * CELL_M / 2
+    holding = gpd.GeoDataFrame(
+        geometry=[box(centre_x - 150, centre_y - 150, centre_x + 150, centre_y + 150)], crs=CRS
+    )
+    allowed = gpd.GeoDataFrame(
+        geometry=[box(centre_x - 100, centre_y - 100, centre_x + 100, centre_y + 100)], crs=CRS
+    )
+    positions = gpd.GeoDataFrame(
+        {
+            "x": [centre_x],
+            "y": [centre_y],
+            "limiting_site": [NASTY_SCRIPT],
+            "limiting_share_of_threshold": [0.8],
+            "worst_pct_load": [0.9],
+            "worst_site": [NASTY_IMG],
+            "worst_pct_level": [0.5],
+            "required_reduction_percent": [0.0],
+        },
+        geometry=[Point(centre_x, centre_y)],
+        crs=CRS,
+    )
+    path = tmp_path / "map.html"
+    write_place_map(
+        path,
+        title="Farm <Nord>",
+        crs=CRS,
+        west_m=WEST_M,
+        north_m=NORTH_M,
+        cell_m=CELL_M,
+        share_of_threshold=_grid() / 20.0,  # synthetic shares 0-1
+        allowed_area=allowed,
+        holding=holding,
+        positions=positions,
+        sites=_sites(),
+        cautions=CAUTIONS,
+        version="0.1.0",
+        run_time="2024-05-01T12:00:00Z",
+    )
+    text = path.read_text(encoding="utf-8")
+    layers = [  # the holding outlines are features without properties
+        layer
+        for layer in _geojson_layers(text)
+        if layer.get("features")
+        and all("verdict" in f.get("properties", {}) for f in layer["features"])
+    ]
+    assert len(layers) == 1 and len(layers[0]["features"]) == len(_sites())
+    properties = [f["properties"] for f in layers[0]["features"]]
+    assert [p["name"] for p in properties] == [
+        escape_text(NASTY_SCRIPT),
+        escape_text(NASTY_TEMPLATE),
+        escape_text(NASTY_IMG),
+    ]
+    assert properties[1]["popup"] == ["&lt;b&gt;SSSI&lt;/b&gt;", "oak woodland"]
+    assert text.count(".bindPopup(function ()") == 1
+    assert f'"className": "{SITE_CLASS}"' in text
+    for raw in (NASTY_SCRIPT, NASTY_TEMPLATE, NASTY_IMG, "<b>SSSI</b>", "${alert(1)}"):
+        assert raw not in text
