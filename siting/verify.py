@@ -430,170 +430,204 @@ def review(
     scenario = result.scenario
     used = result.tables
     for src in scenario.sources:
-        subject = f'source "{src.id}"'
-        if src.livestock and src.housing:
-            mine = [
-                r
-                for r in this_tables.emission_factors
-                if r["livestock"] == src.livestock and r["housing"] == src.housing
-            ]
-            theirs = [
-                r
-                for r in used.emission_factors
-                if r["livestock"] == src.livestock and r["housing"] == src.housing
-            ]
-            if not mine:
-                findings.append(
-                    Finding(
-                        "FACTOR_NOT_IN_TABLE",
-                        "medium",
-                        subject,
-                        f"{src.livestock}/{src.housing} has no row in this "
-                        "version's emission-factor table",
-                        {},
-                    )
-                )
-            elif theirs and theirs[0]["nh3_kg_per_place_yr"] < mine[0]["nh3_kg_per_place_yr"]:
-                findings.append(
-                    Finding(
-                        "FACTOR_BELOW_TABLE",
-                        "high",
-                        subject,
-                        f"emission factor {theirs[0]['nh3_kg_per_place_yr']:g} kg NH3/place/yr is "
-                        f"below the table value {mine[0]['nh3_kg_per_place_yr']:g} for "
-                        f"{src.livestock}, {src.housing}",
-                        {
-                            "submitted_kg_per_place_yr": theirs[0]["nh3_kg_per_place_yr"],
-                            "table_kg_per_place_yr": mine[0]["nh3_kg_per_place_yr"],
-                            "source": mine[0]["source"],
-                        },
-                    )
-                )
-        elif src.nh3_kg_per_year is not None:
-            findings.append(
-                Finding(
-                    "EMISSION_GIVEN_DIRECTLY",
-                    "low",
-                    subject,
-                    f"emission given directly ({src.nh3_kg_per_year:g} kg NH3/yr),"
-                    " not derived from a factor and places: ask for its basis",
-                    {"nh3_kg_per_year": src.nh3_kg_per_year},
-                )
-            )
-        if src.abatement:
-            technique = this_tables.abatement.get(src.abatement)
-            reduction = (
-                src.reduction_percent
-                if src.reduction_percent is not None
-                else (default_reduction_percent(technique) if technique else None)
-            )
-            if (
-                technique
-                and reduction is not None
-                and not (
-                    technique["reduction_percent_min"]
-                    <= reduction
-                    <= technique["reduction_percent_max"]
-                )
-            ):
-                findings.append(
-                    Finding(
-                        "REDUCTION_OUT_OF_RANGE",
-                        "high",
-                        subject,
-                        f"{technique['name']}: {reduction:g} % reduction is outside the published "
-                        f"range {technique['reduction_percent_min']:g}-"
-                        f"{technique['reduction_percent_max']:g} %",
-                        {
-                            "reduction_percent": reduction,
-                            "published_range_percent": f"{technique['reduction_percent_min']:g}-"
-                            f"{technique['reduction_percent_max']:g}",
-                            "source": technique["source"],
-                        },
-                    )
-                )
-            elif technique and is_claimed_reduction(src.reduction_percent, technique):
-                lo = default_reduction_percent(technique)
-                findings.append(
-                    Finding(
-                        "REDUCTION_CLAIMED",
-                        "medium" if src.reduction_basis else "high",
-                        subject,
-                        f"{technique['name']}: {src.reduction_percent:g} % claimed, above the "
-                        f"published lower end {lo:g} % used by default; "
-                        + (
-                            f"stated basis: {src.reduction_basis}; check it"
-                            if src.reduction_basis
-                            else "no basis stated (reduction_basis): ask for "
-                            "the certificate or measurement"
-                        ),
-                        {
-                            "reduction_percent": src.reduction_percent,
-                            "lower_end_percent": lo,
-                            "basis": src.reduction_basis or "",
-                            "source": technique["source"],
-                        },
-                    )
-                )
-            if src.treated_air_fraction is not None and src.treated_air_fraction < 1.0:
-                findings.append(
-                    Finding(
-                        "TREATED_SHARE_UNDERIVED",
-                        "medium",
-                        subject,
-                        f"treated share {src.treated_air_fraction:g} given without its derivation "
-                        "(give scrubber_design_share with an hourly record, or the ventilation "
-                        "calculation behind it)",
-                        {"treated_air_fraction": src.treated_air_fraction},
-                    )
-                )
-        lo, hi = HOUSE_HEIGHT_RANGE_M
-        if src.kind in ("point", "volume") and not lo <= src.height_m <= hi:
-            findings.append(
-                Finding(
-                    "RELEASE_HEIGHT_UNUSUAL",
-                    "medium",
-                    subject,
-                    f"release height {src.height_m:g} m is unusual for a livestock house "
-                    f"({lo:g}-{hi:g} m; common practice, no source)",
-                    {"height_m": src.height_m, "usual_range_m": f"{lo:g}-{hi:g}"},
-                )
-            )
-        rise, rise_basis = outlet_rise(src)
-        if rise:
-            findings.append(
-                Finding(
-                    "PLUME_RISE_CLAIMED",
-                    "medium",
-                    subject,
-                    f"the outlet gets momentum plume rise as clear of its building's wake "
-                    f"({rise_basis}); rise lowers nearby figures: check the building dimensions",
-                    {
-                        "height_m": src.height_m,
-                        "building_height_m": src.building_height_m,
-                        "building_width_m": src.building_width_m,
-                        "source": "US EPA 1985 good-engineering-practice stack height, Hb + 1.5 L",
-                    },
-                )
-            )
-        if src.exit_velocity_m_s and src.exit_velocity_m_s > EXIT_VELOCITY_MAX_M_S:
-            findings.append(
-                Finding(
-                    "EXIT_VELOCITY_UNUSUAL",
-                    "medium",
-                    subject,
-                    f"exit velocity {src.exit_velocity_m_s:g} m/s is above what house fans or "
-                    f"scrubber outlets usually give (<= {EXIT_VELOCITY_MAX_M_S:g} m/s; common "
-                    "practice, no source); plume rise lowers nearby figures",
-                    {"exit_velocity_m_s": src.exit_velocity_m_s},
-                )
-            )
+        findings += _source_findings(src, used, this_tables)
     findings += _table_findings(used, this_tables)
     findings += _weather_findings(scenario, result)
     findings += _grid_findings(scenario, result)
     if reference_habitats is not None:
         findings += _missing_sites(scenario, result, reference_habitats, name_field)
     return sorted(findings, key=lambda f: SEVERITY_ORDER.get(f.severity, 9))
+
+
+def _source_findings(src, used, this_tables) -> list[Finding]:
+    """One source's findings, in this order: its emission (factor or direct figure), its
+    abatement, then its release (height, plume rise, exit velocity)."""
+    subject = f'source "{src.id}"'
+    return (
+        _emission_findings(src, subject, used, this_tables)
+        + _abatement_findings(src, subject, this_tables)
+        + _release_findings(src, subject)
+    )
+
+
+def _emission_findings(src, subject: str, used, this_tables) -> list[Finding]:
+    """A source's emission factor against this version's table (missing row, or the run's factor
+    below it), or an emission given directly, whose basis is to be asked for."""
+    if src.livestock and src.housing:
+        mine = [
+            r
+            for r in this_tables.emission_factors
+            if r["livestock"] == src.livestock and r["housing"] == src.housing
+        ]
+        theirs = [
+            r
+            for r in used.emission_factors
+            if r["livestock"] == src.livestock and r["housing"] == src.housing
+        ]
+        if not mine:
+            return [
+                Finding(
+                    "FACTOR_NOT_IN_TABLE",
+                    "medium",
+                    subject,
+                    f"{src.livestock}/{src.housing} has no row in this "
+                    "version's emission-factor table",
+                    {},
+                )
+            ]
+        if theirs and theirs[0]["nh3_kg_per_place_yr"] < mine[0]["nh3_kg_per_place_yr"]:
+            return [
+                Finding(
+                    "FACTOR_BELOW_TABLE",
+                    "high",
+                    subject,
+                    f"emission factor {theirs[0]['nh3_kg_per_place_yr']:g} kg NH3/place/yr is "
+                    f"below the table value {mine[0]['nh3_kg_per_place_yr']:g} for "
+                    f"{src.livestock}, {src.housing}",
+                    {
+                        "submitted_kg_per_place_yr": theirs[0]["nh3_kg_per_place_yr"],
+                        "table_kg_per_place_yr": mine[0]["nh3_kg_per_place_yr"],
+                        "source": mine[0]["source"],
+                    },
+                )
+            ]
+        return []
+    if src.nh3_kg_per_year is not None:
+        return [
+            Finding(
+                "EMISSION_GIVEN_DIRECTLY",
+                "low",
+                subject,
+                f"emission given directly ({src.nh3_kg_per_year:g} kg NH3/yr),"
+                " not derived from a factor and places: ask for its basis",
+                {"nh3_kg_per_year": src.nh3_kg_per_year},
+            )
+        ]
+    return []
+
+
+def _abatement_findings(src, subject: str, this_tables) -> list[Finding]:
+    """A source's abatement: its reduction (outside the published range, or claimed above the
+    range's lower end), then a treated share below 1 given without its derivation."""
+    if not src.abatement:
+        return []
+    findings = []
+    technique = this_tables.abatement.get(src.abatement)
+    finding = _reduction_finding(src, subject, technique)
+    if finding is not None:
+        findings.append(finding)
+    if src.treated_air_fraction is not None and src.treated_air_fraction < 1.0:
+        findings.append(
+            Finding(
+                "TREATED_SHARE_UNDERIVED",
+                "medium",
+                subject,
+                f"treated share {src.treated_air_fraction:g} given without its derivation "
+                "(give scrubber_design_share with an hourly record, or the ventilation "
+                "calculation behind it)",
+                {"treated_air_fraction": src.treated_air_fraction},
+            )
+        )
+    return findings
+
+
+def _reduction_finding(src, subject: str, technique: dict | None) -> Finding | None:
+    """The reduction a source uses (stated, else the technique's default) against the published
+    range of ``technique``: outside it is high; a claim above the lower end is medium with a
+    stated basis, high without one. None when the technique is unknown or nothing is found."""
+    if not technique:
+        return None
+    reduction = (
+        src.reduction_percent
+        if src.reduction_percent is not None
+        else default_reduction_percent(technique)
+    )
+    if reduction is not None and not (
+        technique["reduction_percent_min"] <= reduction <= technique["reduction_percent_max"]
+    ):
+        return Finding(
+            "REDUCTION_OUT_OF_RANGE",
+            "high",
+            subject,
+            f"{technique['name']}: {reduction:g} % reduction is outside the published "
+            f"range {technique['reduction_percent_min']:g}-"
+            f"{technique['reduction_percent_max']:g} %",
+            {
+                "reduction_percent": reduction,
+                "published_range_percent": f"{technique['reduction_percent_min']:g}-"
+                f"{technique['reduction_percent_max']:g}",
+                "source": technique["source"],
+            },
+        )
+    if is_claimed_reduction(src.reduction_percent, technique):
+        lo = default_reduction_percent(technique)
+        return Finding(
+            "REDUCTION_CLAIMED",
+            "medium" if src.reduction_basis else "high",
+            subject,
+            f"{technique['name']}: {src.reduction_percent:g} % claimed, above the "
+            f"published lower end {lo:g} % used by default; "
+            + (
+                f"stated basis: {src.reduction_basis}; check it"
+                if src.reduction_basis
+                else "no basis stated (reduction_basis): ask for the certificate or measurement"
+            ),
+            {
+                "reduction_percent": src.reduction_percent,
+                "lower_end_percent": lo,
+                "basis": src.reduction_basis or "",
+                "source": technique["source"],
+            },
+        )
+    return None
+
+
+def _release_findings(src, subject: str) -> list[Finding]:
+    """How a source releases its air: a house release height outside the usual range, plume
+    rise from an outlet clear of its building's wake, and an unusually fast exit velocity."""
+    findings = []
+    lo, hi = HOUSE_HEIGHT_RANGE_M
+    if src.kind in ("point", "volume") and not lo <= src.height_m <= hi:
+        findings.append(
+            Finding(
+                "RELEASE_HEIGHT_UNUSUAL",
+                "medium",
+                subject,
+                f"release height {src.height_m:g} m is unusual for a livestock house "
+                f"({lo:g}-{hi:g} m; common practice, no source)",
+                {"height_m": src.height_m, "usual_range_m": f"{lo:g}-{hi:g}"},
+            )
+        )
+    rise, rise_basis = outlet_rise(src)
+    if rise:
+        findings.append(
+            Finding(
+                "PLUME_RISE_CLAIMED",
+                "medium",
+                subject,
+                f"the outlet gets momentum plume rise as clear of its building's wake "
+                f"({rise_basis}); rise lowers nearby figures: check the building dimensions",
+                {
+                    "height_m": src.height_m,
+                    "building_height_m": src.building_height_m,
+                    "building_width_m": src.building_width_m,
+                    "source": "US EPA 1985 good-engineering-practice stack height, Hb + 1.5 L",
+                },
+            )
+        )
+    if src.exit_velocity_m_s and src.exit_velocity_m_s > EXIT_VELOCITY_MAX_M_S:
+        findings.append(
+            Finding(
+                "EXIT_VELOCITY_UNUSUAL",
+                "medium",
+                subject,
+                f"exit velocity {src.exit_velocity_m_s:g} m/s is above what house fans or "
+                f"scrubber outlets usually give (<= {EXIT_VELOCITY_MAX_M_S:g} m/s; common "
+                "practice, no source); plume rise lowers nearby figures",
+                {"exit_velocity_m_s": src.exit_velocity_m_s},
+            )
+        )
+    return findings
 
 
 def _table_findings(used, mine) -> list[Finding]:
@@ -647,11 +681,11 @@ def _table_findings(used, mine) -> list[Finding]:
 
 
 def _weather_findings(scenario, result) -> list[Finding]:
-    findings = []
-    summary = result.weather_summary
+    """The weather behind the run: what its record allows to be checked (a frequency table
+    cannot be; an hourly record's length, calms and gaps can), then the station's distance."""
     w = scenario.weather
     if w.hourly is None:
-        findings.append(
+        findings = [
             Finding(
                 "WEATHER_TABLE_UNVERIFIABLE",
                 "info",
@@ -660,56 +694,71 @@ def _weather_findings(scenario, result) -> list[Finding]:
                 "be checked; ask for the hourly record behind it",
                 {},
             )
-        )
+        ]
     else:
-        years = float(summary.get("record_years", 0))
-        if years < 1.0:
-            findings.append(
-                Finding(
-                    "WEATHER_SHORT",
-                    "high",
-                    "weather",
-                    f"the hourly record covers {years:.2f} years; a long-term "
-                    "mean needs at least one full year",
-                    {"record_years": years},
-                )
-            )
-        elif years < 3.0:
-            findings.append(
-                Finding(
-                    "WEATHER_FEW_YEARS",
-                    "low",
-                    "weather",
-                    f"{years:.1f} year(s) of weather; several years (3-5) reduce "
-                    "the year-to-year spread (common practice, no source)",
-                    {"record_years": years},
-                )
-            )
-        calms = float(summary.get("calm_percent", 0.0))
-        if calms > 10.0:
-            findings.append(
-                Finding(
-                    "WEATHER_MANY_CALMS",
-                    "medium",
-                    "weather",
-                    f"{calms:.1f} % calms (over 10 %; common practice, no "
-                    "source): results rest on the calm rule",
-                    {"calm_percent": calms},
-                )
-            )
-        missing = float(summary.get("missing_percent", 0.0))
-        if missing > 5.0:
-            findings.append(
-                Finding(
-                    "WEATHER_GAPS",
-                    "medium",
-                    "weather",
-                    f"{missing:.1f} % of hours missing (over 5 %; common practice, no source)",
-                    {"missing_percent": missing},
-                )
-            )
-    if w.station_latitude_deg is None or w.station_longitude_deg is None:
+        findings = _hourly_record_findings(result.weather_summary)
+    return findings + _station_findings(scenario)
+
+
+def _hourly_record_findings(summary: dict) -> list[Finding]:
+    """An hourly record's length (under a year is high, under three low), share of calms (over
+    10 %) and of missing hours (over 5 %), from the run's weather summary."""
+    findings = []
+    years = float(summary.get("record_years", 0))
+    if years < 1.0:
         findings.append(
+            Finding(
+                "WEATHER_SHORT",
+                "high",
+                "weather",
+                f"the hourly record covers {years:.2f} years; a long-term "
+                "mean needs at least one full year",
+                {"record_years": years},
+            )
+        )
+    elif years < 3.0:
+        findings.append(
+            Finding(
+                "WEATHER_FEW_YEARS",
+                "low",
+                "weather",
+                f"{years:.1f} year(s) of weather; several years (3-5) reduce "
+                "the year-to-year spread (common practice, no source)",
+                {"record_years": years},
+            )
+        )
+    calms = float(summary.get("calm_percent", 0.0))
+    if calms > 10.0:
+        findings.append(
+            Finding(
+                "WEATHER_MANY_CALMS",
+                "medium",
+                "weather",
+                f"{calms:.1f} % calms (over 10 %; common practice, no "
+                "source): results rest on the calm rule",
+                {"calm_percent": calms},
+            )
+        )
+    missing = float(summary.get("missing_percent", 0.0))
+    if missing > 5.0:
+        findings.append(
+            Finding(
+                "WEATHER_GAPS",
+                "medium",
+                "weather",
+                f"{missing:.1f} % of hours missing (over 5 %; common practice, no source)",
+                {"missing_percent": missing},
+            )
+        )
+    return findings
+
+
+def _station_findings(scenario) -> list[Finding]:
+    """The weather station's distance from the site (WGS84 geodesic): unknown without its
+    position, medium beyond STATION_DISTANCE_M's first figure, high beyond its second."""
+    w = scenario.weather
+    if w.station_latitude_deg is None or w.station_longitude_deg is None:
+        return [
             Finding(
                 "WEATHER_STATION_UNKNOWN",
                 "info",
@@ -719,30 +768,29 @@ def _weather_findings(scenario, result) -> list[Finding]:
                 "site not checked",
                 {},
             )
-        )
-    else:
-        from pyproj import Geod
+        ]
+    from pyproj import Geod
 
-        from siting.screen import site_lat_lon
+    from siting.screen import site_lat_lon
 
-        lat, lon = site_lat_lon(scenario)
-        _, _, distance = Geod(ellps="WGS84").inv(
-            lon, lat, w.station_longitude_deg, w.station_latitude_deg
-        )
-        medium, high = STATION_DISTANCE_M
-        if distance > medium:
-            findings.append(
-                Finding(
-                    "WEATHER_FAR",
-                    "high" if distance > high else "medium",
-                    "weather",
-                    f"the station is {distance / 1000:.0f} km from the "
-                    f"site (over {medium / 1000:.0f} km; common practice, no "
-                    "source)",
-                    {"distance_km": round(distance / 1000, 1)},
-                )
+    lat, lon = site_lat_lon(scenario)
+    _, _, distance = Geod(ellps="WGS84").inv(
+        lon, lat, w.station_longitude_deg, w.station_latitude_deg
+    )
+    medium, high = STATION_DISTANCE_M
+    if distance > medium:
+        return [
+            Finding(
+                "WEATHER_FAR",
+                "high" if distance > high else "medium",
+                "weather",
+                f"the station is {distance / 1000:.0f} km from the "
+                f"site (over {medium / 1000:.0f} km; common practice, no "
+                "source)",
+                {"distance_km": round(distance / 1000, 1)},
             )
-    return findings
+        ]
+    return []
 
 
 def _grid_findings(scenario, result) -> list[Finding]:
@@ -827,13 +875,30 @@ def verify(
 ) -> VerifyResult:
     """Verify a submission (see module docstring). Raises SitingError if it cannot be read."""
     from siting import __version__
-    from siting.scenario import load_scenario
-    from siting.screen import screen
     from siting.tables import load_tables
 
     sub = load_submission(Path(submission), results)
     integrity = check_integrity(sub)
     submitted_version = str(sub.record.get("version", "")) if sub.record else ""
+    scenario, result = _rerun(sub)
+    explanation = _explanation(integrity, submitted_version, __version__)
+    differences = compare_figures(sub, result, explanation)
+    reviewed = review(sub, result, load_tables(), reference_habitats, name_field)
+    findings = _all_findings(sub, integrity, differences, explanation, reviewed)
+    long, summary = sensitivity(scenario, result, weather_files)
+    return VerifyResult(
+        sub, integrity, differences, findings, long, summary, submitted_version, __version__
+    )
+
+
+def _rerun(sub: Submission):
+    """The packed scenario, read with its files where the package now holds them and its
+    packed tables (when there are), and screened again without the sensitivity (verify runs
+    its own, with --weather). Returns (scenario, result); a SitingError of either step becomes
+    one InputError, "the submission cannot be re-run: ..."."""
+    from siting.scenario import load_scenario
+    from siting.screen import screen
+
     try:
         scenario = load_scenario(sub.scenario_path, moved=sub.moved)
         if sub.config_dir is not None and sub.config_dir.is_dir():
@@ -844,29 +909,26 @@ def verify(
                     )
                 }
             )
-        result = screen(scenario, sensitivity=False)  # its own, with --weather, below
+        result = screen(scenario, sensitivity=False)  # its own, with --weather, in verify
     except SitingError as exc:
         raise InputError(f"the submission cannot be re-run: {exc}") from exc
-    explanation = _explanation(integrity, submitted_version, __version__)
-    differences = compare_figures(sub, result, explanation)
-    findings = review(sub, result, load_tables(), reference_habitats, name_field)
-    findings = check_outputs(sub) + findings
+    return scenario, result
+
+
+def _all_findings(
+    sub: Submission,
+    integrity: list[dict],
+    differences: list[dict],
+    explanation: str,
+    reviewed: list[Finding],
+) -> list[Finding]:
+    """Every finding of a verification, in the order they are reported: RESULTS_DIFFER, the
+    changed or missing inputs (the last recorded first), the outputs' checks, the plausibility
+    review (``reviewed``, by severity), then NO_RUN_RECORD."""
+    findings = check_outputs(sub) + reviewed
     for row in integrity:
         if row["status"] != "ok":
-            findings.insert(
-                0,
-                Finding(
-                    "INPUT_CHANGED" if row["status"] == "changed" else "INPUT_MISSING",
-                    "high",
-                    f"input {row['key']}",
-                    f"{row['file']} {'differs from' if row['status'] == 'changed' else 'is missing; it was'}"
-                    " the file the run recorded (SHA-256)",
-                    {
-                        "expected_sha256": row["expected_sha256"],
-                        "actual_sha256": row["actual_sha256"],
-                    },
-                ),
-            )
+            findings.insert(0, _input_finding(row))
     if sub.record is None:
         findings.append(
             Finding(
@@ -878,25 +940,40 @@ def verify(
             )
         )
     if differences:
-        findings.insert(
-            0,
-            Finding(
-                "RESULTS_DIFFER",
-                "high",
-                "results",
-                f"{len(differences)} figure(s) differ from this version's re-run beyond the "
-                "tolerance"
-                + (
-                    f"; {explanation}"
-                    if explanation
-                    else "; no changed input explains it (edited results?)"
-                ),
-                {"figures": len(differences)},
-            ),
-        )
-    long, summary = sensitivity(scenario, result, weather_files)
-    return VerifyResult(
-        sub, integrity, differences, findings, long, summary, submitted_version, __version__
+        findings.insert(0, _results_differ_finding(differences, explanation))
+    return findings
+
+
+def _input_finding(row: dict) -> Finding:
+    """An integrity row that is not ok (see check_integrity): INPUT_CHANGED or INPUT_MISSING."""
+    return Finding(
+        "INPUT_CHANGED" if row["status"] == "changed" else "INPUT_MISSING",
+        "high",
+        f"input {row['key']}",
+        f"{row['file']} {'differs from' if row['status'] == 'changed' else 'is missing; it was'}"
+        " the file the run recorded (SHA-256)",
+        {
+            "expected_sha256": row["expected_sha256"],
+            "actual_sha256": row["actual_sha256"],
+        },
+    )
+
+
+def _results_differ_finding(differences: list[dict], explanation: str) -> Finding:
+    """RESULTS_DIFFER: how many figures differ from the re-run, and the changed input (or
+    version) that explains them, if one does (see _explanation)."""
+    return Finding(
+        "RESULTS_DIFFER",
+        "high",
+        "results",
+        f"{len(differences)} figure(s) differ from this version's re-run beyond the "
+        "tolerance"
+        + (
+            f"; {explanation}"
+            if explanation
+            else "; no changed input explains it (edited results?)"
+        ),
+        {"figures": len(differences)},
     )
 
 

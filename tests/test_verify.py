@@ -328,3 +328,29 @@ def test_edited_truncated_or_deleted_outputs_are_findings(clean, tmp_path, damag
     result = verify(sub)
     assert code in _codes(result)
     assert result.exit_code == 1
+
+
+def test_findings_come_in_a_fixed_order(clean, tmp_path):
+    """Findings are listed RESULTS_DIFFER, changed inputs (last recorded first), outputs, then
+    the plausibility review by severity (regression: the order before verify.py was split)."""
+    from siting.verify import SEVERITY_ORDER
+
+    sub = tmp_path / "sub"
+    shutil.copytree(clean, sub)
+    table = sub / "inputs" / "weather_table.csv"
+    frame = pd.read_csv(table)
+    frame.loc[frame["frequency"].idxmax(), "frequency"] *= 3  # more of the prevailing wind
+    frame["frequency"] /= frame["frequency"].sum()
+    frame.to_csv(table, index=False)
+    thresholds = sub / "inputs" / "_config" / "thresholds.toml"
+    thresholds.write_text(thresholds.read_text() + "\n# edited\n")  # same values, new hash
+    report = sub / "report.html"
+    report.write_text(report.read_text().replace("above threshold", "below threshold"))
+    result = verify(sub)
+    changed = [row["key"] for row in result.integrity if row["status"] != "ok"]
+    assert changed == ["weather", "table thresholds.toml"]
+    codes = [f.code for f in result.findings]
+    assert codes[:4] == ["RESULTS_DIFFER", "INPUT_CHANGED", "INPUT_CHANGED", "OUTPUT_CHANGED"]
+    assert [f.subject for f in result.findings[1:3]] == [f"input {k}" for k in changed[::-1]]
+    reviewed = [SEVERITY_ORDER[f.severity] for f in result.findings[4:]]
+    assert reviewed and reviewed == sorted(reviewed)
