@@ -11,6 +11,9 @@ nearest each source, and an interior lattice) so a small site between grid nodes
 
 from __future__ import annotations
 
+import math
+from dataclasses import dataclass
+
 import numpy as np
 import pandas as pd
 import shapely
@@ -41,11 +44,11 @@ def read_vector_layer(path, layer: str | None, what: str):
     return gdf
 
 
-def _positive_field(feature, field: str | None, where: str):
+def _positive_field(feature: dict, field: str | None, where: str):
     """(value, "habitat layer field F") where the layer gives a per-site value, else None."""
     if not field:
         return None
-    value = getattr(feature, field)
+    value = feature[field]
     if value is None or pd.isna(value):
         return None
     number = _number(value, field, where)
@@ -60,7 +63,7 @@ def _number(value, field: str, where: str) -> float:
         number = float(value)
     except (TypeError, ValueError):
         raise InputError(f"{where}: {field} must be a number, got {value!r}") from None
-    if not np.isfinite(number):
+    if not math.isfinite(number):  # a float here; np.isfinite is 30x slower on scalars
         raise InputError(f"{where}: {field} must be a finite number, got {value!r}")
     return number
 
@@ -70,11 +73,11 @@ _ABSENT = {"absent", "no", "false", "0", "n", "none"}
 _PRESENT = {"present", "yes", "true", "1", "y"}
 
 
-def _lichens_absent(feature, field: str | None, where: str) -> bool | None:
+def _lichens_absent(feature: dict, field: str | None, where: str) -> bool | None:
     """True/False where the layer says lichens and bryophytes are absent/present, else None."""
     if not field:
         return None
-    value = getattr(feature, field)
+    value = feature[field]
     if value is None or (not isinstance(value, str) and pd.isna(value)):
         return None
     text = str(value).strip().lower()
@@ -100,31 +103,19 @@ def critical_level_for(
     they are absent: they grow on most sites unless shown otherwise, so the cautious level is
     the default whatever the habitat type ([UNECE2007]; critical_levels.toml).
     """
+    stated = f"habitat layer field {field}: lichens and bryophytes"
     if absent is True:
-        row, basis = (
-            levels["higher_plants"],
-            (f"habitat layer field {field}: lichens and bryophytes absent"),
-        )
+        key, basis = "higher_plants", f"{stated} absent"
     elif absent is False:
-        row, basis = (
-            levels["lichens_bryophytes"],
-            (f"habitat layer field {field}: lichens and bryophytes present"),
-        )
+        key, basis = "lichens_bryophytes", f"{stated} present"
     elif absent_by_scenario:
-        row, basis = (
-            levels["higher_plants"],
-            ("scenario habitats.lichens_bryophytes_absent: lichens and bryophytes absent"),
-        )
+        key = "higher_plants"
+        basis = "scenario habitats.lichens_bryophytes_absent: lichens and bryophytes absent"
     elif habitat.get("lichens_bryophytes"):
-        row, basis = (
-            levels["lichens_bryophytes"],
-            ("habitat type where lichens and bryophytes are important"),
-        )
+        key, basis = "lichens_bryophytes", "habitat type where lichens and bryophytes are important"
     else:
-        row, basis = (
-            levels["lichens_bryophytes"],
-            ("lichens and bryophytes not shown absent (default)"),
-        )
+        key, basis = "lichens_bryophytes", "lichens and bryophytes not shown absent (default)"
+    row = levels[key]
     return float(row["critical_level_ug_m3"]), basis, row["source"]
 
 
@@ -167,21 +158,49 @@ def read_habitats(
     warnings : list of str
     """
     gdf = read_vector_layer(section.file, section.layer, "habitats.file")
-    name = section.file.name
-    fields = {
-        "name_field": section.name_field,
-        "habitat_field": section.habitat_field,
-        "designation_field": section.designation_field,
-    }
-    for key in (
-        "critical_level_field",
-        "critical_load_field",
-        "background_deposition_field",
-        "background_concentration_field",
-        "lichens_bryophytes_field",
-    ):
-        if getattr(section, key):
-            fields[key] = getattr(section, key)
+    fields = _named_fields(section)
+    _check_fields(gdf, fields, section.file.name)
+    gdf = gdf.to_crs(crs)
+    names = gdf[section.name_field].astype(str).str.strip()
+    _check_unique_names(names, section.file.name)
+    context = _Context.build(section, tables, critical_load_end, critical_load_review)
+    warnings = _unknown_absent_names(context, names)
+    fallback: set[str] = set()
+    # plain lists, not itertuples: no per-row pandas overhead, and a field name need not be
+    # a Python identifier ("site name")
+    columns = {field: gdf[field].tolist() for field in dict.fromkeys(fields.values())}
+    rows = []
+    for i, (geom, *values) in enumerate(zip(gdf.geometry.to_numpy(), *columns.values()), start=1):
+        feature = dict(zip(columns, values))
+        rows.append(_site_row(i, feature, geom, context, warnings, fallback))
+    warnings += [
+        f'critical_loads.toml, habitat "{key}": no 2022 range in the table; the 2011 range is used'
+        for key in sorted(fallback)
+    ]
+    import geopandas as gpd
+
+    return gpd.GeoDataFrame(rows, geometry="geometry", crs=crs), warnings
+
+
+_OPTIONAL_FIELDS = (
+    "critical_level_field",
+    "critical_load_field",
+    "background_deposition_field",
+    "background_concentration_field",
+    "lichens_bryophytes_field",
+)
+
+
+def _named_fields(section: HabitatsSection) -> dict[str, str]:
+    """{scenario key: layer field} of every field the scenario names, the required three
+    first (the order in which a missing one is reported)."""
+    fields = {k: getattr(section, k) for k in ("name_field", "habitat_field", "designation_field")}
+    fields.update({k: getattr(section, k) for k in _OPTIONAL_FIELDS if getattr(section, k)})
+    return fields
+
+
+def _check_fields(gdf, fields: dict[str, str], name: str) -> None:
+    """Refuse a layer lacking a field the scenario names, suggesting the closest one."""
     for key, field in fields.items():
         if field not in gdf.columns:
             cols = [c for c in gdf.columns if c != "geometry"]
@@ -189,15 +208,10 @@ def read_habitats(
                 f'habitats.{key} = "{field}": no such field in {name}'
                 f"{suggest(field, cols)} (fields: {', '.join(cols)})"
             )
-    gdf = gdf.to_crs(crs)
-    warnings: list[str] = []
-    rows = []
-    loads = tables.critical_loads
-    by_name = {str(r["name"]).lower(): k for k, r in loads.items()}
-    tiers = sorted(tables.thresholds, key=lambda t: t["threshold_percent"])
-    tier_by_designation = {d.strip().lower(): t for t in tiers for d in t["designations"]}
-    levels = tables.critical_levels
-    names = gdf[section.name_field].astype(str).str.strip()
+
+
+def _check_unique_names(names: pd.Series, name: str) -> None:
+    """Refuse two features with one site name (stripped): sites are reported by name."""
     repeated = names[names.duplicated()]
     if len(repeated):
         first = repeated.iloc[0]
@@ -207,123 +221,195 @@ def read_habitats(
             f'"{first}"; sites are reported and checked by name: give each a '
             "name of its own, or merge the parts of one site into one feature"
         )
-    absent_names = {n.strip().lower() for n in section.lichens_bryophytes_absent}
-    for missing in sorted(absent_names - set(names.str.lower())):
+
+
+@dataclass(frozen=True)
+class _Context:
+    """What every feature's lookups need: the scenario's section, the tables (and two of them
+    keyed for lookup), the critical load end and review asked for, and the sites named in
+    habitats.lichens_bryophytes_absent (stripped, lower case)."""
+
+    section: HabitatsSection
+    tables: Tables
+    loads_by_name: dict[str, str]
+    tiers: list[dict]
+    tier_by_designation: dict[str, dict]
+    load_end: str
+    load_review: str
+    absent_names: frozenset[str]
+
+    @classmethod
+    def build(
+        cls, section: HabitatsSection, tables: Tables, load_end: str, load_review: str
+    ) -> _Context:
+        """The context of one layer read with these tables and assessment settings."""
+        loads = tables.critical_loads
+        tiers = sorted(tables.thresholds, key=lambda t: t["threshold_percent"])
+        return cls(
+            section=section,
+            tables=tables,
+            loads_by_name={str(r["name"]).lower(): k for k, r in loads.items()},
+            tiers=tiers,
+            tier_by_designation={d.strip().lower(): t for t in tiers for d in t["designations"]},
+            load_end=load_end,
+            load_review=load_review,
+            absent_names=frozenset(n.strip().lower() for n in section.lichens_bryophytes_absent),
+        )
+
+
+def _unknown_absent_names(context: _Context, names: pd.Series) -> list[str]:
+    """Warnings for names in habitats.lichens_bryophytes_absent that match no site."""
+    known = set(names.str.lower())
+    return [
+        f'habitats.lichens_bryophytes_absent: "{missing}" is not a site name in '
+        f"{context.section.file.name}; it is ignored"
+        for missing in sorted(context.absent_names - known)
+    ]
+
+
+def _site_geometry(geom, where: str, warnings: list[str]):
+    """One feature's polygon: refuse an empty or non-polygon geometry, repair an invalid
+    polygon (with a warning), refuse one that cannot be repaired into a polygon of some area."""
+    if geom is None or geom.is_empty:
+        raise InputError(f"{where}: empty geometry")
+    if geom.geom_type not in ("Polygon", "MultiPolygon"):
+        raise InputError(f"{where}: geometry is a {geom.geom_type}; habitat sites must be polygons")
+    if geom.is_valid:
+        return geom
+    polys = shapely.get_parts(shapely.make_valid(geom))
+    polys = [p for p in polys if p.geom_type in ("Polygon", "MultiPolygon")]
+    repaired = shapely.union_all(polys) if polys else None
+    if repaired is None or repaired.area <= 0:
+        raise InputError(
+            f"{where}: invalid polygon that cannot be repaired ({shapely.is_valid_reason(geom)})"
+        )
+    warnings.append(f"{where}: invalid polygon repaired ({shapely.is_valid_reason(geom)})")
+    return repaired
+
+
+def _site_row(
+    i: int, feature: dict, geom, context: _Context, warnings: list[str], fallback: set[str]
+) -> dict:
+    """The sites-table row of feature ``i`` (1-based; ``feature`` maps layer field to value).
+
+    The checks run in this order, and the first one to fail is the error reported (the
+    fault suite relies on it): geometry, habitat, designation (a warning), critical load,
+    lichens, critical level, background deposition, background concentration. Adds the habitat
+    id to ``fallback`` where the table has no range of the review asked for.
+    """
+    section = context.section
+    site_name = str(feature[section.name_field])
+    where = f'habitats.file {section.file.name}, feature {i} ("{site_name}")'
+    geom = _site_geometry(geom, where, warnings)
+    habitat_key = _habitat_key(feature[section.habitat_field], where, context)
+    habitat = context.tables.critical_loads[habitat_key]
+    designation = str(feature[section.designation_field]).strip()
+    tier = _tier(designation, where, context, warnings)
+    lo, hi, review, used, load_source = _critical_load(habitat, feature, where, context)
+    if review != context.load_review:
+        fallback.add(habitat_key)
+    level, level_basis, level_source = _critical_level(habitat, site_name, feature, where, context)
+    land_cover = context.tables.deposition_velocities[habitat["land_cover"]]
+    return {
+        "site_id": f"S{i:02d}",
+        "name": site_name,
+        "designation": designation,
+        "tier": tier["id"],
+        "threshold_percent": float(tier["threshold_percent"]),
+        "threshold_source": tier["source"],
+        "habitat": habitat_key,
+        "habitat_name": habitat["name"],
+        "land_cover": habitat["land_cover"],
+        "deposition_velocity_m_s": float(land_cover["deposition_velocity_m_s"]),
+        "deposition_velocity_source": land_cover["source"],
+        "critical_level_ug_m3": float(level),
+        "critical_level_basis": level_basis,
+        "critical_level_source": level_source,
+        "critical_load_review": review,
+        "critical_load_min_kg_n_ha_yr": float(lo),
+        "critical_load_max_kg_n_ha_yr": float(hi),
+        "critical_load_used_kg_n_ha_yr": float(used),
+        "critical_load_source": load_source,
+        "background_dep_kg_n_ha_yr": _background(
+            feature, section.background_deposition_field, where
+        ),
+        "background_conc_ug_m3": _background(
+            feature, section.background_concentration_field, where
+        ),
+        "area_ha": geom.area / 1e4,
+        "geometry": geom,
+    }
+
+
+def _habitat_key(raw, where: str, context: _Context) -> str:
+    """The critical_loads.toml id of a layer's habitat value: an id or a row's name, either
+    case-insensitive; an error suggesting the closest id otherwise."""
+    loads = context.tables.critical_loads
+    key = str(raw).strip().lower()
+    key = key if key in loads else context.loads_by_name.get(key)
+    if key is None:
+        raise InputError(
+            f'{where}: habitat "{raw}" is not in critical_loads.toml'
+            f"{suggest(str(raw).lower(), loads)} (known: {', '.join(sorted(loads))})"
+        )
+    return key
+
+
+def _tier(designation: str, where: str, context: _Context, warnings: list[str]) -> dict:
+    """The thresholds.toml tier listing a designation (case-insensitive); the strictest tier,
+    with a warning, for a designation no tier lists."""
+    tier = context.tier_by_designation.get(designation.lower())
+    if tier is None:
+        tier = context.tiers[0]
         warnings.append(
-            f'habitats.lichens_bryophytes_absent: "{missing}" is not a site name in '
-            f"{name}; it is ignored"
+            f'{where}: designation "{designation}" matches no tier in '
+            f'thresholds.toml; the strictest tier "{tier["id"]}" '
+            f"({tier['threshold_percent']:g} %) is used"
         )
-    fallback: set[str] = set()
-    for i, feature in enumerate(gdf.itertuples(index=False), start=1):
-        site_name = str(getattr(feature, section.name_field))
-        where = f'habitats.file {name}, feature {i} ("{site_name}")'
-        geom = feature.geometry
-        if geom is None or geom.is_empty:
-            raise InputError(f"{where}: empty geometry")
-        if geom.geom_type not in ("Polygon", "MultiPolygon"):
-            raise InputError(
-                f"{where}: geometry is a {geom.geom_type}; habitat sites must be polygons"
-            )
-        if not geom.is_valid:
-            repaired = shapely.make_valid(geom)
-            polys = shapely.get_parts(repaired)
-            polys = [p for p in polys if p.geom_type in ("Polygon", "MultiPolygon")]
-            if not polys or shapely.union_all(polys).area <= 0:
-                raise InputError(
-                    f"{where}: invalid polygon that cannot be repaired "
-                    f"({shapely.is_valid_reason(geom)})"
-                )
-            geom = shapely.union_all(polys)
-            warnings.append(
-                f"{where}: invalid polygon repaired ({shapely.is_valid_reason(feature.geometry)})"
-            )
-        habitat_raw = getattr(feature, section.habitat_field)
-        habitat_key = str(habitat_raw).strip().lower()
-        habitat_key = habitat_key if habitat_key in loads else by_name.get(habitat_key)
-        if habitat_key is None:
-            raise InputError(
-                f'{where}: habitat "{habitat_raw}" is not in critical_loads.toml'
-                f"{suggest(str(habitat_raw).lower(), loads)} "
-                f"(known: {', '.join(sorted(loads))})"
-            )
-        habitat = loads[habitat_key]
-        designation = str(getattr(feature, section.designation_field)).strip()
-        tier = tier_by_designation.get(designation.lower())
-        if tier is None:
-            tier = tiers[0]
-            warnings.append(
-                f'{where}: designation "{designation}" matches no tier in '
-                f'thresholds.toml; the strictest tier "{tier["id"]}" '
-                f"({tier['threshold_percent']:g} %) is used"
-            )
-        lo, hi, review, range_source = critical_load_range(habitat, critical_load_review)
-        if review != critical_load_review:
-            fallback.add(habitat_key)
-        used = {"lower": lo, "middle": 0.5 * (lo + hi), "upper": hi}[critical_load_end]
-        load_source = f"{range_source} ({critical_load_end} end of range)"
-        override = _positive_field(feature, section.critical_load_field, where)
-        if override is not None:
-            used, load_source = override
-        level, level_basis, level_source = critical_level_for(
-            habitat,
-            levels,
-            _lichens_absent(feature, section.lichens_bryophytes_field, where),
-            site_name.strip().lower() in absent_names,
-            section.lichens_bryophytes_field,
-        )
-        override = _positive_field(feature, section.critical_level_field, where)
-        if override is not None:
-            level, level_source = override
-            level_basis = "given per site in the habitat layer"
-        land_cover = tables.deposition_velocities[habitat["land_cover"]]
+    return tier
 
-        def optional(key, feature=feature, where=where):
-            field = getattr(section, key)
-            if not field:
-                return np.nan
-            value = getattr(feature, field)
-            if value is None or pd.isna(value):
-                return np.nan
-            number = _number(value, field, where)
-            if number < 0:
-                raise InputError(f"{where}: {field} must be >= 0 (a background), got {value!r}")
-            return number
 
-        rows.append(
-            {
-                "site_id": f"S{i:02d}",
-                "name": site_name,
-                "designation": designation,
-                "tier": tier["id"],
-                "threshold_percent": float(tier["threshold_percent"]),
-                "threshold_source": tier["source"],
-                "habitat": habitat_key,
-                "habitat_name": habitat["name"],
-                "land_cover": habitat["land_cover"],
-                "deposition_velocity_m_s": float(land_cover["deposition_velocity_m_s"]),
-                "deposition_velocity_source": land_cover["source"],
-                "critical_level_ug_m3": float(level),
-                "critical_level_basis": level_basis,
-                "critical_level_source": level_source,
-                "critical_load_review": review,
-                "critical_load_min_kg_n_ha_yr": float(lo),
-                "critical_load_max_kg_n_ha_yr": float(hi),
-                "critical_load_used_kg_n_ha_yr": float(used),
-                "critical_load_source": load_source,
-                "background_dep_kg_n_ha_yr": optional("background_deposition_field"),
-                "background_conc_ug_m3": optional("background_concentration_field"),
-                "area_ha": geom.area / 1e4,
-                "geometry": geom,
-            }
-        )
-    for key in sorted(fallback):
-        warnings.append(
-            f'critical_loads.toml, habitat "{key}": no 2022 range in the table; '
-            "the 2011 range is used"
-        )
-    import geopandas as gpd
+def _critical_load(habitat: dict, feature: dict, where: str, context: _Context):
+    """(min, max, review used, load used [kg N ha-1 yr-1], source of the load used) of one
+    site: the asked end of the table's range, or the layer's per-site field where given."""
+    lo, hi, review, range_source = critical_load_range(habitat, context.load_review)
+    used = {"lower": lo, "middle": 0.5 * (lo + hi), "upper": hi}[context.load_end]
+    source = f"{range_source} ({context.load_end} end of range)"
+    override = _positive_field(feature, context.section.critical_load_field, where)
+    if override is not None:
+        used, source = override
+    return lo, hi, review, used, source
 
-    return gpd.GeoDataFrame(rows, geometry="geometry", crs=crs), warnings
+
+def _critical_level(habitat: dict, site_name: str, feature: dict, where: str, context: _Context):
+    """(critical level [ug m-3], basis in words, source) of one site: by lichens and
+    bryophytes (:func:`critical_level_for`), or the layer's per-site field where given."""
+    field = context.section.lichens_bryophytes_field
+    level, basis, source = critical_level_for(
+        habitat,
+        context.tables.critical_levels,
+        _lichens_absent(feature, field, where),
+        site_name.strip().lower() in context.absent_names,
+        field,
+    )
+    override = _positive_field(feature, context.section.critical_level_field, where)
+    if override is not None:
+        level, source = override
+        basis = "given per site in the habitat layer"
+    return level, basis, source
+
+
+def _background(feature: dict, field: str | None, where: str) -> float:
+    """A site's background value from the layer's field (>= 0), NaN where not given."""
+    if not field:
+        return np.nan
+    value = feature[field]
+    if value is None or pd.isna(value):
+        return np.nan
+    number = _number(value, field, where)
+    if number < 0:
+        raise InputError(f"{where}: {field} must be >= 0 (a background), got {value!r}")
+    return number
 
 
 def site_sample_points(geometries, source_x_m, source_y_m, spacing_m: float):

@@ -265,6 +265,37 @@ def test_two_sites_with_one_name_are_refused(tmp_path, tables):
         read_habitats(_section(path), "EPSG:32632", tables)
 
 
+def test_field_names_need_not_be_python_identifiers(tmp_path, tables):
+    """Fields named "site name", "class" or "2022 load" (legal in GeoPackage, shapefile and
+    GeoJSON) are read like any other; the per-feature loop once used attribute access and
+    crashed on them (invented values, read back)."""
+    gdf = gpd.GeoDataFrame(
+        {
+            "site name": ["Moss"],
+            "class": ["raised_bog"],
+            "designation": ["SSSI"],
+            "2022 load": [7.5],
+            "bg dep": [3.0],
+        },
+        geometry=[shapely.box(0, 0, 100, 100)],
+        crs="EPSG:32632",
+    )
+    gdf.to_file(tmp_path / "h.gpkg")
+    section = _section(
+        tmp_path / "h.gpkg",
+        name_field="site name",
+        habitat_field="class",
+        critical_load_field="2022 load",
+        background_deposition_field="bg dep",
+    )
+    sites, warnings = read_habitats(section, "EPSG:32632", tables)
+    row = sites.iloc[0]
+    assert warnings == []
+    assert (row["name"], row["habitat"]) == ("Moss", "raised_bog")
+    assert row["critical_load_used_kg_n_ha_yr"] == 7.5  # the layer's value, read back
+    assert row["background_dep_kg_n_ha_yr"] == 3.0  # the layer's value, read back
+
+
 def _mixed_sites():
     """Squares, a polygon with a hole, a two-part site and a thin diagonal strip (invented)."""
     ring = shapely.Polygon(
