@@ -209,6 +209,97 @@ def reduction_basis(src: SourceSpec, technique: dict) -> tuple[str, str]:
     )
 
 
+@dataclass
+class _Abatement:
+    """A source's abatement as used: the technique row (or None), the reduction [%] and its
+    basis, the treated share of its ammonia [-] and a flag when outside the published range."""
+
+    technique: dict | None = None
+    reduction_percent: float = 0.0
+    treated: float = 1.0
+    basis: str = ""
+    flag: str = ""
+
+
+def _abatement_of(src: SourceSpec, tables: Tables, treated_shares: dict, where: str,
+                  warnings: list[str]) -> _Abatement:  # fmt: skip
+    """The reduction a source's abatement gives: the stated figure or the range's lower end,
+    over the treated share (the hourly record's for a partial scrubber); warnings for a
+    claimed figure and for one outside the published range."""
+    if not src.abatement:
+        return _Abatement()
+    technique = tables.technique(src.abatement, where)
+    reduction = (
+        src.reduction_percent
+        if src.reduction_percent is not None
+        else default_reduction_percent(technique)
+    )
+    basis, claim_warning = reduction_basis(src, technique)
+    if claim_warning:
+        warnings.append(f"{where}: {claim_warning}")
+    treated = src.treated_air_fraction if src.treated_air_fraction is not None else 1.0
+    if src.scrubber_design_share is not None:
+        if technique["kind"] != "scrubber":
+            raise InputError(
+                f"{where}: scrubber_design_share applies to scrubbers; "
+                f'"{src.abatement}" is a {technique["kind"]}'
+            )
+        treated = treated_shares[src.id]
+    flag = ""
+    lo, hi = technique["reduction_percent_min"], technique["reduction_percent_max"]
+    if not lo <= reduction <= hi:
+        flag = (
+            f"reduction {reduction:g} % is outside the published range "
+            f"{lo:g}-{hi:g} % for {technique['name']}"
+        )
+        warnings.append(f"{where}: {flag}")
+    return _Abatement(technique, reduction, treated, basis, flag)
+
+
+def _nan_if_none(value):
+    return value if value is not None else np.nan
+
+
+def _source_row(src: SourceSpec, factor_row: dict | None, ab: _Abatement, d) -> dict:
+    """One row of sources.csv: the source, its factor, its abatement and the derivation."""
+    technique = ab.technique
+    rise, rise_basis = outlet_rise(src)
+    return {
+        "source_id": src.id,
+        "kind": src.kind,
+        "role": src.role,
+        "x_m": src.x,
+        "y_m": src.y,
+        "height_m": src.height_m,
+        "plume_rise": ("yes" if rise else "no") if src.kind == "point" else "",
+        "plume_rise_basis": rise_basis,
+        "livestock": src.livestock or "",
+        "housing": src.housing or "",
+        "places": src.places,
+        "factor_nh3_kg_per_place_yr": d.factor_nh3_kg_per_place_yr,
+        "factor_source": factor_row["source"] if factor_row else "given in scenario",
+        "nh3_unabated_kg_yr": d.nh3_unabated_kg_yr,
+        "abatement": src.abatement or "",
+        "reduction_percent": d.reduction_percent if src.abatement else np.nan,
+        "reduction_range_percent": (
+            f"{technique['reduction_percent_min']:g}-{technique['reduction_percent_max']:g}"
+            if technique
+            else ""
+        ),
+        "reduction_source": technique["source"] if technique else "",
+        "reduction_basis": ab.basis,
+        "reduction_flag": ab.flag,
+        "scrubber_design_share": _nan_if_none(src.scrubber_design_share),
+        "treated_air_fraction": d.treated_air_fraction if src.abatement else np.nan,
+        "effective_reduction_percent": d.effective_reduction_percent,
+        "nh3_kg_yr": d.nh3_kg_yr,
+        "emission_g_s": d.emission_g_s,
+        "nh3_removed_kg_yr": d.nh3_removed_kg_yr,
+        "n_captured_kg_yr": _nan_if_none(d.n_captured_kg_yr),
+        "effluent_m3_yr": _nan_if_none(d.effluent_m3_yr),
+    }
+
+
 def derive_sources(
     scenario: Scenario, tables: Tables, treated_shares: dict[str, float] | None = None
 ) -> tuple[pd.DataFrame, list[str]]:
@@ -221,87 +312,21 @@ def derive_sources(
     treated_shares = treated_shares or {}
     for src in scenario.sources:
         where = f'source "{src.id}"'
-        factor_row = technique = None
+        factor_row = None
         if src.nh3_kg_per_year is None:
             factor_row = tables.factor(src.livestock, src.housing, where)
-        reduction, treated = 0.0, 1.0
-        flag = basis = ""
-        if src.abatement:
-            technique = tables.technique(src.abatement, where)
-            reduction = (
-                src.reduction_percent
-                if src.reduction_percent is not None
-                else default_reduction_percent(technique)
-            )
-            basis, claim_warning = reduction_basis(src, technique)
-            if claim_warning:
-                warnings.append(f"{where}: {claim_warning}")
-            treated = src.treated_air_fraction if src.treated_air_fraction is not None else 1.0
-            if src.scrubber_design_share is not None:
-                if technique["kind"] != "scrubber":
-                    raise InputError(
-                        f"{where}: scrubber_design_share applies to scrubbers; "
-                        f'"{src.abatement}" is a {technique["kind"]}'
-                    )
-                treated = treated_shares[src.id]
-            lo, hi = technique["reduction_percent_min"], technique["reduction_percent_max"]
-            if not lo <= reduction <= hi:
-                flag = (
-                    f"reduction {reduction:g} % is outside the published range "
-                    f"{lo:g}-{hi:g} % for {technique['name']}"
-                )
-                warnings.append(f"{where}: {flag}")
-        is_scrubber = bool(technique) and technique["kind"] == "scrubber"
-        rise, rise_basis = outlet_rise(src)
+        ab = _abatement_of(src, tables, treated_shares, where, warnings)
+        technique = ab.technique
         d = derive_emission(
             nh3_unabated_kg_yr=src.nh3_kg_per_year,
             factor_nh3_kg_per_place_yr=factor_row["nh3_kg_per_place_yr"] if factor_row else None,
             places=src.places if factor_row else None,
-            reduction_percent=reduction,
-            treated_air_fraction=treated,
+            reduction_percent=ab.reduction_percent,
+            treated_air_fraction=ab.treated,
             effluent_kg_n_per_m3=technique.get("effluent_kg_n_per_m3") if technique else None,
-            captures_in_effluent=is_scrubber,
+            captures_in_effluent=bool(technique) and technique["kind"] == "scrubber",
         )
-        rows.append(
-            {
-                "source_id": src.id,
-                "kind": src.kind,
-                "role": src.role,
-                "x_m": src.x,
-                "y_m": src.y,
-                "height_m": src.height_m,
-                "plume_rise": ("yes" if rise else "no") if src.kind == "point" else "",
-                "plume_rise_basis": rise_basis,
-                "livestock": src.livestock or "",
-                "housing": src.housing or "",
-                "places": src.places,
-                "factor_nh3_kg_per_place_yr": d.factor_nh3_kg_per_place_yr,
-                "factor_source": factor_row["source"] if factor_row else "given in scenario",
-                "nh3_unabated_kg_yr": d.nh3_unabated_kg_yr,
-                "abatement": src.abatement or "",
-                "reduction_percent": d.reduction_percent if src.abatement else np.nan,
-                "reduction_range_percent": (
-                    f"{technique['reduction_percent_min']:g}-{technique['reduction_percent_max']:g}"
-                    if technique
-                    else ""
-                ),
-                "reduction_source": technique["source"] if technique else "",
-                "reduction_basis": basis,
-                "reduction_flag": flag,
-                "scrubber_design_share": (
-                    src.scrubber_design_share if src.scrubber_design_share is not None else np.nan
-                ),
-                "treated_air_fraction": d.treated_air_fraction if src.abatement else np.nan,
-                "effective_reduction_percent": d.effective_reduction_percent,
-                "nh3_kg_yr": d.nh3_kg_yr,
-                "emission_g_s": d.emission_g_s,
-                "nh3_removed_kg_yr": d.nh3_removed_kg_yr,
-                "n_captured_kg_yr": d.n_captured_kg_yr
-                if d.n_captured_kg_yr is not None
-                else np.nan,
-                "effluent_m3_yr": d.effluent_m3_yr if d.effluent_m3_yr is not None else np.nan,
-            }
-        )
+        rows.append(_source_row(src, factor_row, ab, d))
     return pd.DataFrame(rows), warnings
 
 
