@@ -411,6 +411,21 @@ def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Sce
         projected in metres.
     """
     path = Path(path)
+    raw = _read_toml(path)
+    scenario = _validate(raw, path.name)
+    _check_needs_hourly(scenario, path.name)
+    folder = path.resolve().parent
+    return scenario.model_copy(
+        update={**_resolved_sections(scenario, folder, path.name, moved), "path": path.resolve()}
+    )
+
+
+def _read_toml(path: Path) -> dict:
+    """Step 1 of :func:`load_scenario`: the scenario file's TOML as a dict.
+
+    Raises InputFileError if the file does not exist, InputError if it is not UTF-8 TOML or
+    sets the reserved key ``path``.
+    """
     if not path.is_file():
         raise InputFileError(f"{path}: scenario file not found")
     try:
@@ -419,11 +434,28 @@ def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Sce
         raise InputError(f"{path.name}: not valid TOML: {exc}") from exc
     if "path" in raw:
         raise InputError(f"{path.name}: unknown key path")
+    return raw
+
+
+def _validate(raw: dict, filename: str) -> Scenario:
+    """Step 2 of :func:`load_scenario`: the pydantic model, and a projected CRS in metres.
+
+    Raises InputError with the first validation error worded by :func:`_format_error`.
+    """
     try:
         scenario = Scenario.model_validate(raw)
     except ValidationError as exc:
-        raise InputError(_format_error(exc, raw, path.name)) from None
-    projected_crs(scenario.crs, path.name)
+        raise InputError(_format_error(exc, raw, filename)) from None
+    projected_crs(scenario.crs, filename)
+    return scenario
+
+
+def _check_needs_hourly(scenario: Scenario, filename: str) -> None:
+    """Step 3 of :func:`load_scenario`: settings that need an hourly record have one.
+
+    Without weather.hourly, a scrubber_design_share, a temperature-dependent emission or a
+    weather.direction_step_deg raises InputError.
+    """
     hourly_needed = [s.id for s in scenario.sources if s.scrubber_design_share is not None]
     if scenario.weather.hourly is None:
         if hourly_needed or scenario.seasonal.temperature_dependent_emission:
@@ -433,75 +465,96 @@ def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Sce
                 else "seasonal.temperature_dependent_emission"
             )
             raise InputError(
-                f"{path.name}: {what} needs an hourly weather record with "
+                f"{filename}: {what} needs an hourly weather record with "
                 "temperature_c (weather.hourly)"
             )
         if scenario.weather.direction_step_deg is not None:
             raise InputError(
-                f"{path.name}: weather.direction_step_deg applies to an hourly "
+                f"{filename}: weather.direction_step_deg applies to an hourly "
                 "record (weather.hourly); a frequency table's sectors set its own"
             )
-    folder = path.resolve().parent
-    hourly = scenario.weather.hourly
-    if hourly is not None:
-        files = hourly if isinstance(hourly, list) else [hourly]
-        if not files:
-            raise InputError(f"{path.name}: weather.hourly: give at least one file")
-        hourly = [_resolve(f, folder, "weather.hourly", path.name, moved) for f in files]
-    weather = scenario.weather.model_copy(
-        update={
-            "frequency_table": _resolve(
-                scenario.weather.frequency_table,
-                folder,
-                "weather.frequency_table",
-                path.name,
-                moved,
-            ),
-            "hourly": hourly,
-        }
-    )
+
+
+def _resolved_sections(
+    scenario: Scenario, folder: Path, filename: str, moved: dict[str, Path] | None
+) -> dict:
+    """Step 4 of :func:`load_scenario`: the sections naming files, with absolute paths.
+
+    Files are resolved against ``folder`` (see :func:`_resolve`) in the order weather,
+    habitats, receptors, assessment, holding, so the first missing file is the one reported.
+    """
+    weather = _resolved_weather(scenario.weather, folder, filename, moved)
     habitats = scenario.habitats.model_copy(
-        update={"file": _resolve(scenario.habitats.file, folder, "habitats.file", path.name, moved)}
+        update={"file": _resolve(scenario.habitats.file, folder, "habitats.file", filename, moved)}
     )
     receptors = scenario.receptors
     if receptors is not None:
         receptors = receptors.model_copy(
-            update={"file": _resolve(receptors.file, folder, "receptors.file", path.name, moved)}
+            update={"file": _resolve(receptors.file, folder, "receptors.file", filename, moved)}
         )
     assessment = scenario.assessment
     if assessment.config_dir is not None:
         assessment = assessment.model_copy(
             update={
                 "config_dir": _resolve(
-                    assessment.config_dir, folder, "assessment.config_dir", path.name, moved
+                    assessment.config_dir, folder, "assessment.config_dir", filename, moved
                 )
             }
         )
     holding = scenario.holding
     if holding is not None:
-        exclusions = [
-            e.model_copy(
-                update={
-                    "file": _resolve(
-                        e.file, folder, f"holding.exclusion #{i} file", path.name, moved
-                    )
-                }
-            )
-            for i, e in enumerate(holding.exclusion, start=1)
-        ]
-        holding = holding.model_copy(
+        holding = _resolved_holding(holding, folder, filename, moved)
+    return {
+        "weather": weather,
+        "habitats": habitats,
+        "receptors": receptors,
+        "assessment": assessment,
+        "holding": holding,
+    }
+
+
+def _resolved_weather(
+    weather: WeatherSection, folder: Path, filename: str, moved: dict[str, Path] | None
+) -> WeatherSection:
+    """[weather] with its hourly files (always a list) and frequency table resolved.
+
+    Raises InputError if weather.hourly is an empty list, InputFileError if a file is missing.
+    """
+    hourly = weather.hourly
+    if hourly is not None:
+        files = hourly if isinstance(hourly, list) else [hourly]
+        if not files:
+            raise InputError(f"{filename}: weather.hourly: give at least one file")
+        hourly = [_resolve(f, folder, "weather.hourly", filename, moved) for f in files]
+    return weather.model_copy(
+        update={
+            "frequency_table": _resolve(
+                weather.frequency_table,
+                folder,
+                "weather.frequency_table",
+                filename,
+                moved,
+            ),
+            "hourly": hourly,
+        }
+    )
+
+
+def _resolved_holding(
+    holding: HoldingSection, folder: Path, filename: str, moved: dict[str, Path] | None
+) -> HoldingSection:
+    """[holding] with its exclusion layers (first) and its own file resolved."""
+    exclusions = [
+        e.model_copy(
             update={
-                "file": _resolve(holding.file, folder, "holding.file", path.name, moved),
-                "exclusion": exclusions,
+                "file": _resolve(e.file, folder, f"holding.exclusion #{i} file", filename, moved)
             }
         )
-    return scenario.model_copy(
+        for i, e in enumerate(holding.exclusion, start=1)
+    ]
+    return holding.model_copy(
         update={
-            "weather": weather,
-            "habitats": habitats,
-            "receptors": receptors,
-            "assessment": assessment,
-            "holding": holding,
-            "path": path.resolve(),
+            "file": _resolve(holding.file, folder, "holding.file", filename, moved),
+            "exclusion": exclusions,
         }
     )

@@ -142,16 +142,46 @@ def net_radiation_index(solar_elevation_deg, night, cloud_tenths, ceiling_ft=Non
     - cloud > 5/10 but not overcast, by day -> treated as a 7000-16000 ft ceiling (subtract 1);
     - nights that are not overcast do not use the ceiling.
     """
+    elevation_deg, night, cloud_tenths, ceiling_ft = _nri_inputs(
+        solar_elevation_deg, night, cloud_tenths, ceiling_ft
+    )
+    _check_cloud_and_ceiling(cloud_tenths, ceiling_ft)
+    overcast = cloud_tenths >= _OVERCAST_TENTHS
+    reported, low, middle = _ceiling_bands(ceiling_ft)
+
+    # step 1, [EPA2000] 6.4.1.1; unreported ceiling with overcast: our assumption (Notes)
+    neutral = overcast & (low | ~reported)
+
+    # step 2, night
+    nri_night = np.where(cloud_tenths <= _NIGHT_CLEAR_MAX_TENTHS, -2, -1)
+
+    # step 3, day
+    nri_day = _day_nri(
+        elevation_deg, ~neutral & ~night, cloud_tenths, overcast, reported, low, middle
+    )
+
+    return np.where(neutral, 0, np.where(night, nri_night, nri_day)).astype(np.int64)
+
+
+def _nri_inputs(solar_elevation_deg, night, cloud_tenths, ceiling_ft):
+    """The inputs of :func:`net_radiation_index` as float/bool arrays of one broadcast shape.
+
+    A ceiling of None (not reported) becomes NaN [ft].
+    """
     elevation_deg = np.asarray(solar_elevation_deg, dtype=float)
     night = np.asarray(night, dtype=bool)
     cloud_tenths = np.asarray(cloud_tenths, dtype=float)
     if ceiling_ft is None:
         ceiling_ft = np.nan
     ceiling_ft = np.asarray(ceiling_ft, dtype=float)
-    elevation_deg, night, cloud_tenths, ceiling_ft = np.broadcast_arrays(
-        elevation_deg, night, cloud_tenths, ceiling_ft
-    )
+    return np.broadcast_arrays(elevation_deg, night, cloud_tenths, ceiling_ft)
 
+
+def _check_cloud_and_ceiling(cloud_tenths, ceiling_ft):
+    """Raise ValueError unless cloud is 0..10 tenths and no ceiling [ft] is negative.
+
+    NaN cloud is rejected; a NaN ceiling (not reported) is allowed.
+    """
     bad = ~((cloud_tenths >= 0.0) & (cloud_tenths <= _OVERCAST_TENTHS))
     if bad.any():
         raise ValueError(
@@ -164,19 +194,24 @@ def net_radiation_index(solar_elevation_deg, night, cloud_tenths, ceiling_ft=Non
             f"{np.unique(ceiling_ft[bad])[:5].tolist()}"
         )
 
-    overcast = cloud_tenths >= _OVERCAST_TENTHS
+
+def _ceiling_bands(ceiling_ft):
+    """Masks (reported, low, middle) of the ceiling [ft], [EPA2000] Sect. 6.4.1.1.
+
+    low: reported and < 7000 ft; middle: reported and 7000 <= ceiling < 16000 ft.
+    """
     reported = ~np.isnan(ceiling_ft)
     low = reported & (ceiling_ft < _LOW_CEILING_FT)
     middle = reported & (ceiling_ft >= _LOW_CEILING_FT) & (ceiling_ft < _HIGH_CEILING_FT)
+    return reported, low, middle
 
-    # step 1, [EPA2000] 6.4.1.1; unreported ceiling with overcast: our assumption (Notes)
-    neutral = overcast & (low | ~reported)
 
-    # step 2, night
-    nri_night = np.where(cloud_tenths <= _NIGHT_CLEAR_MAX_TENTHS, -2, -1)
+def _day_nri(elevation_deg, day_needed, cloud_tenths, overcast, reported, low, middle):
+    """Step 3 of :func:`net_radiation_index`: the daytime NRI, 1..4, for every element.
 
-    # step 3, day
-    day_needed = ~neutral & ~night
+    ``day_needed`` marks the hours whose elevation [deg] must be finite (day, not set by
+    step 1); elsewhere the elevation is replaced by 0 and the result is not used.
+    """
     bad = day_needed & ~np.isfinite(elevation_deg)
     if bad.any():
         raise ValueError(
@@ -190,9 +225,7 @@ def net_radiation_index(solar_elevation_deg, night, cloud_tenths, ceiling_ft=Non
         + 1 * (cloudy & (middle | ~reported))  # unreported: as 7000-16000 ft (our assumption)
         + 1 * (cloudy & overcast & reported & ~low)  # 10/10 step, ceiling >= 7000 ft
     )
-    nri_day = np.maximum(ic - reduction, 1)
-
-    return np.where(neutral, 0, np.where(night, nri_night, nri_day)).astype(np.int64)
+    return np.maximum(ic - reduction, 1)
 
 
 def turner_stability_index(
