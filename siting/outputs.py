@@ -751,98 +751,134 @@ def output_hashes(folder: Path) -> dict[str, dict]:
     return hashes
 
 
+#: Marks a modelling choice left at the default that errs towards the higher PC.
+_CAUTIOUS_DEFAULT = " (cautious default)"
+
+
+def _wind_choice(scenario) -> tuple[str, str, str]:
+    """The rule for the wind at a release height below the anemometer."""
+    wind = scenario.weather.wind_below_anemometer
+    return (
+        "Wind at a release height below the anemometer",
+        (
+            "power law taken down to the release height (lowest "
+            f"{scenario.weather.wind_profile_min_height_m:g} m){_CAUTIOUS_DEFAULT}"
+        )
+        if wind == "power_law"
+        else "measured speed used unchanged",
+        'wind_below_anemometer = "unchanged": the measured speed (lower figures)'
+        if wind == "power_law"
+        else 'wind_below_anemometer = "power_law" (higher figures)',
+    )
+
+
+def _depletion_choice(scenario) -> tuple[str, str, str]:
+    """Whether the plume is depleted by deposition on the way."""
+    depleted = scenario.deposition.plume_depletion
+    return (
+        "Plume depletion by deposition on the way",
+        "on: figures without depletion are shown beside" if depleted else f"off{_CAUTIOUS_DEFAULT}",
+        "off (higher figures)" if depleted else "plume_depletion = true (lower figures)",
+    )
+
+
+def _plume_rise_choices(sources: pd.DataFrame) -> list[tuple[str, str, str]]:
+    """One entry per source whose plume rise was decided ("yes" or "no")."""
+    return [
+        (
+            f'Plume rise, source "{row.source_id}"',
+            str(row.plume_rise_basis),
+            "rise only for an outlet at or above the good-engineering-practice "
+            "height of its building (building_height_m, building_width_m)",
+        )
+        for row in sources.itertuples()
+        if getattr(row, "plume_rise", "") in ("yes", "no")
+    ]
+
+
+def _critical_level_choice(sites: pd.DataFrame) -> tuple[str, str, str]:
+    """How many sites were given the 1 µg/m³ critical level of ammonia."""
+    levels = sites["critical_level_ug_m3"]
+    n1 = int((levels == 1.0).sum())
+    return (
+        "Critical level of ammonia",
+        f"1 µg/m³ at {n1} of {len(levels)} site(s) (lichens and bryophytes not shown absent)"
+        + (_CAUTIOUS_DEFAULT if n1 == len(levels) else "; 3 µg/m³ where stated absent"),
+        "3 µg/m³ where the habitat layer (lichens_bryophytes_field) or the scenario "
+        "(lichens_bryophytes_absent) states lichens and bryophytes absent",
+    )
+
+
+def _critical_load_choice(scenario) -> tuple[str, str, str]:
+    """Which review of the critical loads, and which end of each range."""
+    review = scenario.assessment.critical_load_review
+    end = scenario.assessment.critical_load_end
+    return (
+        "Critical loads",
+        f"{review} review, {end} end of each range"
+        + (_CAUTIOUS_DEFAULT if (review, end) == ("2022", "lower") else ""),
+        'critical_load_review = "2011"; critical_load_end = "middle" or "upper"',
+    )
+
+
+def _abatement_choices(sources: pd.DataFrame) -> list[tuple[str, str, str]]:
+    """One entry per source with a claimed abatement: the reduction and its basis."""
+    return [
+        (
+            f'Abatement, source "{row.source_id}"',
+            f"{row.reduction_percent:g} %: {row.reduction_basis}",
+            "the lower end of the published range unless a higher figure is "
+            "stated with its basis (reduction_percent, reduction_basis)",
+        )
+        for row in sources.itertuples()
+        if row.abatement
+    ]
+
+
+def _scrubbing_choices(weather_summary: dict) -> list[tuple[str, str, str]]:
+    """One entry per partly scrubbed source: the treated share of its ammonia and hours."""
+    shares = weather_summary.get("scrubber_treated_share") or {}
+    return [
+        (
+            f'Partial scrubbing, source "{sid}"',
+            f"treated share {100 * share['treated_share']:.1f} % of the year's "
+            f"ammonia (hours weighted by {share['hours_weighted_by']}); "
+            f"{100 * share['treated_share_of_hours']:.1f} % of its hours",
+            "[seasonal] temperature_dependent_emission = false: hours count alike "
+            "(a larger treated share, lower figures)",
+        )
+        for sid, share in shares.items()
+    ]
+
+
+def _direction_choices(weather_summary: dict) -> list[tuple[str, str, str]]:
+    """The rule applied to hourly wind directions, when the run recorded one."""
+    rule = weather_summary.get("direction_rule")
+    if not rule:
+        return []
+    return [
+        (
+            "Hourly wind directions",
+            str(rule),
+            "weather.direction_step_deg = 0: each hour on its exact direction",
+        )
+    ]
+
+
 def cautious_choices(result) -> list[tuple[str, str, str]]:
     """(choice, what this run used, the alternative) for each modelling choice that moves the
     PC, in words; "(cautious default)" marks the defaults that err towards the higher PC."""
     scenario = result.scenario
-    default = " (cautious default)"
-    choices = []
-    wind = scenario.weather.wind_below_anemometer
-    choices.append(
-        (
-            "Wind at a release height below the anemometer",
-            (
-                "power law taken down to the release height (lowest "
-                f"{scenario.weather.wind_profile_min_height_m:g} m){default}"
-            )
-            if wind == "power_law"
-            else "measured speed used unchanged",
-            'wind_below_anemometer = "unchanged": the measured speed (lower figures)'
-            if wind == "power_law"
-            else 'wind_below_anemometer = "power_law" (higher figures)',
-        )
-    )
-    depleted = scenario.deposition.plume_depletion
-    choices.append(
-        (
-            "Plume depletion by deposition on the way",
-            "on: figures without depletion are shown beside" if depleted else f"off{default}",
-            "off (higher figures)" if depleted else "plume_depletion = true (lower figures)",
-        )
-    )
-    for row in result.sources.itertuples():
-        if getattr(row, "plume_rise", "") in ("yes", "no"):
-            choices.append(
-                (
-                    f'Plume rise, source "{row.source_id}"',
-                    str(row.plume_rise_basis),
-                    "rise only for an outlet at or above the good-engineering-practice "
-                    "height of its building (building_height_m, building_width_m)",
-                )
-            )
-    levels = result.sites["critical_level_ug_m3"]
-    n1 = int((levels == 1.0).sum())
-    choices.append(
-        (
-            "Critical level of ammonia",
-            f"1 µg/m³ at {n1} of {len(levels)} site(s) (lichens and bryophytes not shown absent)"
-            + (default if n1 == len(levels) else "; 3 µg/m³ where stated absent"),
-            "3 µg/m³ where the habitat layer (lichens_bryophytes_field) or the scenario "
-            "(lichens_bryophytes_absent) states lichens and bryophytes absent",
-        )
-    )
-    review = scenario.assessment.critical_load_review
-    end = scenario.assessment.critical_load_end
-    choices.append(
-        (
-            "Critical loads",
-            f"{review} review, {end} end of each range"
-            + (default if (review, end) == ("2022", "lower") else ""),
-            'critical_load_review = "2011"; critical_load_end = "middle" or "upper"',
-        )
-    )
-    for row in result.sources.itertuples():
-        if row.abatement:
-            choices.append(
-                (
-                    f'Abatement, source "{row.source_id}"',
-                    f"{row.reduction_percent:g} %: {row.reduction_basis}",
-                    "the lower end of the published range unless a higher figure is "
-                    "stated with its basis (reduction_percent, reduction_basis)",
-                )
-            )
-    shares = result.weather_summary.get("scrubber_treated_share") or {}
-    for sid, share in shares.items():
-        choices.append(
-            (
-                f'Partial scrubbing, source "{sid}"',
-                f"treated share {100 * share['treated_share']:.1f} % of the year's "
-                f"ammonia (hours weighted by {share['hours_weighted_by']}); "
-                f"{100 * share['treated_share_of_hours']:.1f} % of its hours",
-                "[seasonal] temperature_dependent_emission = false: hours count alike "
-                "(a larger treated share, lower figures)",
-            )
-        )
-    rule = result.weather_summary.get("direction_rule")
-    if rule:
-        choices.append(
-            (
-                "Hourly wind directions",
-                str(rule),
-                "weather.direction_step_deg = 0: each hour on its exact direction",
-            )
-        )
-    return choices
+    return [
+        _wind_choice(scenario),
+        _depletion_choice(scenario),
+        *_plume_rise_choices(result.sources),
+        _critical_level_choice(result.sites),
+        _critical_load_choice(scenario),
+        *_abatement_choices(result.sources),
+        *_scrubbing_choices(result.weather_summary),
+        *_direction_choices(result.weather_summary),
+    ]
 
 
 def estimate_screen_bytes(scenario) -> int:

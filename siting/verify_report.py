@@ -733,7 +733,72 @@ def _sensitivity_section(sensitivity: pd.DataFrame, summary: pd.DataFrame) -> st
 # --------------------------------------------------------------------------------------------
 
 
-def write_verify_report(
+def _numbered_sections(
+    findings: Sequence[Mapping[str, Any]],
+    integrity: Sequence[Mapping[str, Any]],
+    figures_html: str,
+    sensitivity: pd.DataFrame,
+    sensitivity_summary: pd.DataFrame,
+    cautions: Sequence[str],
+) -> tuple[tuple[str, str, str], ...]:
+    """Sections 1 to 5 of the page as (anchor, heading, HTML), in page order; section 3
+    (from :func:`_figures_section`) arrives ready made."""
+    return (
+        ("findings", "1. Findings", _findings_section(findings)),
+        ("integrity", "2. Inputs intact?", _integrity_section(integrity)),
+        ("figures", "3. Same numbers with this version?", figures_html),
+        ("sensitivity", "4. Sensitivity", _sensitivity_section(sensitivity, sensitivity_summary)),
+        (
+            "cautions",
+            "5. Cautions",
+            f'<div class="cautions">{bullet_list(cautions, "No cautions given.")}</div>',
+        ),
+    )
+
+
+def _opening(
+    verdict: str,
+    exit_code: int,
+    findings: Sequence[Mapping[str, Any]],
+    integrity: Sequence[Mapping[str, Any]],
+    differences: Sequence[Mapping[str, Any]],
+    sensitivity_summary: pd.DataFrame,
+    this_version: str,
+) -> str:
+    """What precedes the sections: the verdict box, the list of checks and the caution line."""
+    n_high = _severity_counts(findings).get("high", 0)
+    return (
+        _verdict_box(verdict, exit_code, n_high, _flipping_sites(sensitivity_summary))
+        + _checks_list(findings, integrity, differences, sensitivity_summary, str(this_version))
+        + '<p class="caution-line">A screening submission is an estimate from a simplified '
+        "model: read the cautions in section 5. The competent authority and local regulations "
+        "decide.</p>"
+    )
+
+
+def _page_heading(submission: str, submitted_version: str, this_version: str, run_time: str) -> str:
+    """The page title and the line naming the submission, both versions and the run time."""
+    return (
+        "<h1>Verification of a screening submission</h1>"
+        f'<p class="meta">Submission <span class="mono">{esc(submission)}</span> · made with '
+        f"siting {esc(submitted_version)} · verified with siting {esc(this_version)} on "
+        f"{esc(run_time)}</p>"
+    )
+
+
+def _page_footer(
+    submission: str, submitted_version: str, this_version: str, run_time: str, exit_code: int
+) -> str:
+    """The footer: who wrote the page when, from which submission, with which exit code."""
+    return (
+        f"<footer>Verification report written by siting {esc(this_version)} on "
+        f"{esc(run_time)} · submission made with siting {esc(submitted_version)} · "
+        f'submission folder <span class="mono">{esc(submission)}</span> · '
+        f"exit code {int(exit_code)}</footer>"
+    )
+
+
+def write_verify_report(  # over 80 lines only for the docstring of its 14 parameters
     path: Path,
     *,
     submission: str,
@@ -799,37 +864,18 @@ def write_verify_report(
     """
     _check_columns(sensitivity, SENSITIVITY_COLUMNS, "sensitivity")
     _check_columns(sensitivity_summary, SENSITIVITY_SUMMARY_COLUMNS, "sensitivity summary")
-    n_high = _severity_counts(findings).get("high", 0)
-    sections = (
-        ("findings", "1. Findings", _findings_section(findings)),
-        ("integrity", "2. Inputs intact?", _integrity_section(integrity)),
-        (
-            "figures",
-            "3. Same numbers with this version?",
-            _figures_section(differences, submitted_version, this_version, tolerance_text),
-        ),
-        ("sensitivity", "4. Sensitivity", _sensitivity_section(sensitivity, sensitivity_summary)),
-        (
-            "cautions",
-            "5. Cautions",
-            f'<div class="cautions">{bullet_list(cautions, "No cautions given.")}</div>',
-        ),
+    figures = _figures_section(differences, submitted_version, this_version, tolerance_text)
+    sections = _numbered_sections(
+        findings, integrity, figures, sensitivity, sensitivity_summary, cautions
+    )
+    opening = _opening(
+        verdict, exit_code, findings, integrity, differences, sensitivity_summary, this_version
     )
     body = (
-        "<h1>Verification of a screening submission</h1>"
-        f'<p class="meta">Submission <span class="mono">{esc(submission)}</span> · made with '
-        f"siting {esc(submitted_version)} · verified with siting {esc(this_version)} on "
-        f"{esc(run_time)}</p>"
-        + _verdict_box(verdict, exit_code, n_high, _flipping_sites(sensitivity_summary))
-        + _checks_list(findings, integrity, differences, sensitivity_summary, str(this_version))
-        + '<p class="caution-line">A screening submission is an estimate from a simplified '
-        "model: read the cautions in section 5. The competent authority and local regulations "
-        "decide.</p>"
+        _page_heading(submission, submitted_version, this_version, run_time)
+        + opening
         + sections_html(sections)
-        + f"<footer>Verification report written by siting {esc(this_version)} on "
-        f"{esc(run_time)} · submission made with siting {esc(submitted_version)} · "
-        f'submission folder <span class="mono">{esc(submission)}</span> · '
-        f"exit code {int(exit_code)}</footer>"
+        + _page_footer(submission, submitted_version, this_version, run_time, exit_code)
     )
     title = f"Verification of {PurePath(str(submission)).name or submission} · siting"
     Path(path).write_text(page_html(title, _CSS, body), encoding="utf-8")

@@ -247,3 +247,24 @@ def test_many_receptor_differences_list_the_largest_and_count_the_rest(tmp_path)
     assert "R0250" in section and "R0051" in section  # the 200 largest
     assert "R0050" not in section
     assert "50 more receptor figures also differ" in section
+
+
+def test_page_parts_come_in_reading_order(tmp_path):
+    """Heading, verdict box, checks, caution line, sections 1 to 5, then the footer, in order."""
+    page = _write(tmp_path)
+    markers = [
+        "<h1>Verification of a screening submission</h1>",
+        'class="verdict-box',
+        '<h2 id="checks">',
+        'class="caution-line"',
+        'id="findings"',
+        'id="integrity"',
+        'id="figures"',
+        'id="sensitivity"',
+        'id="cautions"',
+        "<footer>",
+    ]
+    positions = [page.index(marker) for marker in markers]
+    assert positions == sorted(positions)  # regression: order of the page before the split
+    footer = page[page.index("<footer>") :]
+    assert "siting 0.4.0" in footer and "siting 0.3.2" in footer and "exit code 1" in footer
