@@ -11,13 +11,12 @@ A small public API for notebooks and scripts; the CLI (``siting``) is built on i
 Results are screening estimates from a simplified model; see the cautions in every output.
 """
 
+from siting._version import __version__
 from siting.errors import InputError, InputFileError, OutputExistsError, SitingError
 from siting.outputs import write_outputs
 from siting.place import PlaceResult, place
 from siting.scenario import Scenario, load_scenario
 from siting.screen import ScreenResult, screen
-
-__version__ = "0.1.0"
 
 __all__ = [
     "InputError",

@@ -273,7 +273,8 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
 def cmd_weather(args) -> int:
     from siting.errors import InputError
     from siting.outputs import check_output_dir
-    from siting.weather_hourly import read_hourly_record, write_weather_outputs
+    from siting.weather_hourly import read_hourly_record
+    from siting.weather_outputs import write_weather_outputs
 
     if not -90.0 <= args.lat <= 90.0:
         raise InputError(f"--lat must be within -90..90 (degrees north), got {args.lat}")
@@ -567,7 +568,7 @@ class _OneLineParser(argparse.ArgumentParser):
 def build_parser() -> argparse.ArgumentParser:
     """The `siting` command line: the top-level options and one sub-parser per command, in
     the order ``siting --help`` lists them."""
-    from siting import __version__
+    from siting._version import __version__
 
     parser = _OneLineParser(
         prog="siting",

@@ -3,7 +3,7 @@
 An adapter. Everything is written into a temporary folder beside the target and moved into
 place only when complete, so a failed run leaves nothing half-written and an earlier result is
 replaced only with ``overwrite`` (and only once the new one is whole). That staging is
-:func:`staged_folder`, which ``siting weather`` (``weather_hourly.write_weather_outputs``) uses
+:func:`staged_folder`, which ``siting weather`` (``weather_outputs.write_weather_outputs``) uses
 too.
 """
 
@@ -429,7 +429,7 @@ def run_record_base(run, run_time: str, holding: bool = False) -> dict:
     import rasterio
     import shapely
 
-    from siting import __version__
+    from siting._version import __version__
 
     inputs = {
         key: {"path": str(path), "sha256": sha256_of(path)}
@@ -681,7 +681,7 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     the packed inputs, map.html, report.html and, last, run.json with every output hashed."""
     import geopandas as gpd
 
-    from siting import __version__
+    from siting._version import __version__
     from siting.report import write_report
     from siting.webmap import write_screen_map
 
@@ -986,7 +986,7 @@ def _staged(out_dir: Path, overwrite: bool) -> Iterator[Path]:
             except FileExistsError:
                 staging = None
         staging.chmod(0o755)  # whatever the umask: the result is an ordinary folder
-        from siting import __version__
+        from siting._version import __version__
 
         (staging / OUTPUT_MARKER).write_text(
             json.dumps(

@@ -31,7 +31,7 @@ def write_place_outputs(
     import geopandas as gpd
     import shapely
 
-    from siting import __version__
+    from siting._version import __version__
     from siting.webmap import write_place_map
 
     out_dir = Path(out_dir).resolve()

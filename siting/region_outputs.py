@@ -125,7 +125,7 @@ def region_record(result: RegionResult, run_time: str) -> dict:
     import rasterio
     import scipy
 
-    from siting import __version__
+    from siting._version import __version__
     from siting.outputs import sha256_of
 
     inputs = result.inputs

@@ -12,9 +12,7 @@ environmental total is background + PC where the habitat layer gives a backgroun
 from __future__ import annotations
 
 import dataclasses
-import hashlib
 import math
-import pickle
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -42,7 +40,9 @@ from siting.longterm import (
     source_concentration_g_m3_per_g_s,
 )
 from siting.plume import gep_stack_height_m
+from siting.run_cache import RunCache
 from siting.scenario import ROLES, Scenario, SourceSpec, load_scenario
+from siting.sensitivity import sensitivity as two_sided
 from siting.tables import Tables, default_reduction_percent, is_claimed_reduction, load_tables
 from siting.weather import read_frequency_table
 
@@ -496,24 +496,6 @@ def _progress(enabled: bool):
         TimeElapsedColumn(),
         transient=True,
     )
-
-
-class RunCache:
-    """What the re-runs of one scenario (a sensitivity) share: the habitat layer as read and
-    each source's unit concentration at a set of points. An entry is keyed by a digest of
-    everything it depends on (inputs, tables, settings, weather, points), so a re-run that
-    changes any of them computes afresh; one that changes only emissions (the emission-factor
-    and abatement variants: the concentration is linear in the emission) reuses the
-    dispersion."""
-
-    def __init__(self) -> None:
-        self._store: dict[bytes, object] = {}
-
-    def get(self, key_parts: tuple, compute):
-        key = hashlib.blake2b(pickle.dumps(key_parts, protocol=5), digest_size=20).digest()
-        if key not in self._store:
-            self._store[key] = compute()
-        return self._store[key]
 
 
 def _habitats_key(scenario: Scenario, tables: Tables) -> tuple:
@@ -1028,8 +1010,6 @@ def screen(
         prep.weather,
     )
     if sensitivity and with_grid:
-        from siting.sensitivity import sensitivity as two_sided
-
-        result.sensitivity, result.sensitivity_summary = two_sided(scenario, result)
+        result.sensitivity, result.sensitivity_summary = two_sided(scenario, result, run=screen)
         timings["sensitivity_s"] = time.perf_counter() - clock["assessment"]
     return result

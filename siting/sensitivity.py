@@ -15,10 +15,11 @@ from pathlib import Path
 import pandas as pd
 
 from siting import assess
+from siting.run_cache import RunCache
 from siting.tables import is_claimed_reduction
 
 
-def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.DataFrame]:
+def sensitivity(scenario, result, weather_files=(), *, run) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Each site's % of critical load and level under variants that can raise it as well as
     lower it, and whether its verdict flips.
 
@@ -29,9 +30,11 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
     emission factors at their stated uncertainty (emission_factors.toml [uncertainty]),
     down and up; other weather records where given. Variants are computed at the sites' own
     points only (no grid), so a variant's site maximum can sit a little below the central
-    run's where a grid node inside a site held it.
+    run's where a grid node inside a site held it. ``run`` is the screening function the
+    variants are re-run with (``siting.screen.screen``; passed in, so this module does not
+    import the pipeline that calls it).
     """
-    variants = _Variants(scenario, result)
+    variants = _Variants(scenario, result, run)
     variants.add("central", result.sites)
     variants.critical_values()
     variants.deposition_velocities()
@@ -47,9 +50,8 @@ def sensitivity(scenario, result, weather_files=()) -> tuple[pd.DataFrame, pd.Da
 class _Variants:
     """The variants of one run, collected in order (one frame per variant)."""
 
-    def __init__(self, scenario, result) -> None:
-        from siting.screen import RunCache
-
+    def __init__(self, scenario, result, run) -> None:
+        self.run = run
         self.scenario, self.result, self.sites = scenario, result, result.sites
         self.tables = result.tables
         self.frames: list[pd.DataFrame] = []
@@ -82,9 +84,7 @@ class _Variants:
 
     def rerun(self, variant: str, scenario=None, tables=None) -> None:
         """A variant that needs dispersion again: re-run at the sites' own points."""
-        from siting.screen import screen
-
-        run = screen(
+        run = self.run(
             scenario or self.scenario,
             tables=tables,
             with_grid=False,

@@ -6,13 +6,13 @@ An adapter: reads, checks and converts; the physics is elsewhere (solar position
 
 * :func:`read_hourly_record` -- one or more hourly CSV records -> :class:`HourlyWeather`.
 * :func:`frequency_table_from_hourly` -- an hourly record -> a frequency table (DataFrame).
-* :func:`write_weather_outputs` -- the files of ``siting weather``, written atomically.
 * :func:`compass_words`, :func:`direction_step_deg`, :func:`hours_by_sector`,
   :func:`speed_class_index`, :func:`speed_class_labels` -- naming, binning and classing of
   directions and speeds, shared with the weather charts of ``figures.py``.
 
 What is not here: reading a frequency table (``weather.py``), drawing the charts
-(``figures.py``), and the staging folder that makes writing atomic (``outputs.staged_folder``).
+(``figures.py``), and writing the files of ``siting weather`` (``weather_outputs.py``): a
+reader writes nothing.
 
 Hourly record CSV
 -----------------
@@ -56,10 +56,8 @@ overlap between files are an error.
 from __future__ import annotations
 
 import csv
-import json
 from collections.abc import Sequence
 from dataclasses import dataclass
-from datetime import UTC, datetime
 from itertools import pairwise
 from pathlib import Path
 
@@ -1188,87 +1186,3 @@ def frequency_table_from_hourly(
             "hours": hours.astype(int),
         }
     )
-
-
-def _sector_note(weather: HourlyWeather, n_sectors: int) -> str | None:
-    """A warning when reported directions fall unevenly into the table's sectors."""
-    step = direction_step_deg(weather.direction_deg)
-
-    def even(n: int) -> bool:
-        ratio = 360.0 / n / step
-        return abs(ratio - round(ratio)) < 1e-9
-
-    if step <= 0 or even(n_sectors):
-        return None
-    better = [str(n) for n in (8, 12, 16, 18, 24, 36) if even(n)]
-    return (
-        f"directions are reported in {step:g} deg steps, which do not divide the "
-        f"{360.0 / n_sectors:g} deg sectors evenly, so some sectors of frequency_table.csv "
-        f"hold more reported directions than others; {' or '.join(better)} sectors avoid "
-        "that"
-    )
-
-
-def write_weather_outputs(
-    out_dir: Path,
-    weather: HourlyWeather,
-    summary: dict,
-    warnings: list[str],
-    *,
-    n_sectors: int = 12,
-    overwrite: bool = False,
-    input_paths: Sequence[Path] = (),
-) -> tuple[Path, list[str]]:
-    """Write the products of ``siting weather`` into ``out_dir``, atomically.
-
-    Files: ``frequency_table.csv`` (usable as a scenario's ``frequency_table``),
-    ``wind_rose.png``, ``stability_by_speed.png`` and ``summary.json`` (the summary, warnings,
-    table settings and the SHA-256 of every input file). Everything is written into a staging
-    folder beside ``out_dir`` and moved into place when complete; an existing ``out_dir`` is
-    replaced only with ``overwrite`` (``outputs.staged_folder``, as for ``siting screen``).
-
-    Returns
-    -------
-    out_dir : Path
-        The folder written (absolute).
-    warnings : list of str
-        The warnings given plus any about the table's sectors.
-    """
-    from siting import __version__
-    from siting.figures import stability_by_speed_png, wind_rose_png
-    from siting.outputs import check_output_dir, sha256_of, staged_folder
-
-    out_dir = Path(out_dir).resolve()
-    check_output_dir(out_dir, overwrite)
-    table = frequency_table_from_hourly(weather, n_sectors)
-    warnings = list(warnings)
-    note = _sector_note(weather, n_sectors)
-    if note:
-        warnings.append(note)
-    record = {
-        "tool": "siting weather",
-        "version": __version__,
-        "run_time_utc": datetime.now(UTC).replace(microsecond=0).isoformat(),
-        "inputs": [
-            {"path": str(Path(p).resolve()), "sha256": sha256_of(Path(p))} for p in input_paths
-        ],
-        "frequency_table": {
-            "file": "frequency_table.csv",
-            "sectors": int(n_sectors),
-            "sector_width_deg": 360.0 / n_sectors,
-            "speed_class_edges_m_s": list(DEFAULT_SPEED_EDGES_M_S),
-            "speed_rule": "speed_m_s of a class = mean speed of the hours in it (after the calm "
-            "rule); the last class is open",
-            "rows": len(table),
-        },
-        "summary": summary,
-        "warnings": warnings,
-    }
-    with staged_folder(out_dir, overwrite) as staging:
-        table.to_csv(staging / "frequency_table.csv", index=False, float_format="%.10g")
-        (staging / "wind_rose.png").write_bytes(wind_rose_png(weather))
-        (staging / "stability_by_speed.png").write_bytes(stability_by_speed_png(weather))
-        (staging / "summary.json").write_text(
-            json.dumps(record, indent=2, default=str), encoding="utf-8"
-        )
-    return out_dir, warnings
