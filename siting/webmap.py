@@ -184,8 +184,9 @@ def _popup_table(head: str, rows: Sequence[tuple[str, str]]) -> str:
     return f'<div class="siting-popup"><div class="head">{head}</div><table>{body}</table></div>'
 
 
-#: (label, column, unit) rows of a popup table; see _SITE_POPUP_ROWS.
-_PopupRows = tuple[tuple[str, str, str | None], ...]
+#: (label, column, unit) rows of a popup table; see _SITE_POPUP_ROWS. A column may be a tuple
+#: of names: the first the frame has is shown.
+_PopupRows = tuple[tuple[str, str | tuple[str, ...], str | None], ...]
 
 #: Rows of a site's popup: (label, column, unit); unit None for text. A row whose value is empty
 #: text is left out; numbers show "n/a" when missing. The in-combination row (last) is shown
@@ -193,7 +194,7 @@ _PopupRows = tuple[tuple[str, str, str | None], ...]
 _SITE_POPUP_ROWS: _PopupRows = (
     ("Site id", "site_id", None),
     ("Designation", "designation", None),
-    ("Habitat", "habitat", None),
+    ("Habitat", ("habitat_name", "habitat"), None),  # its name where known, as in the report
     ("Verdict", "verdict", None),
     ("PC max concentration", "pc_conc_max_ug_m3", "µg NH3/m³"),
     ("Critical level", "critical_level_ug_m3", "µg NH3/m³"),
@@ -206,9 +207,13 @@ _SITE_POPUP_ROWS: _PopupRows = (
 )
 
 
-def _column(frame: Any, column: str) -> list:
-    """A column's values as a list (all None when the frame lacks it)."""
-    return frame[column].tolist() if column in frame else [None] * len(frame)
+def _column(frame: Any, column: str | tuple[str, ...]) -> list:
+    """A column's values as a list (all None when the frame lacks it); of a tuple of names,
+    the first the frame has."""
+    for name in (column,) if isinstance(column, str) else column:
+        if name in frame:
+            return frame[name].tolist()
+    return [None] * len(frame)
 
 
 def _site_verdicts(frame: Any) -> list[str]:

@@ -440,3 +440,17 @@ def test_place_map_draws_the_sites_as_one_escaped_layer(tmp_path):
     assert f'"className": "{SITE_CLASS}"' in text
     for raw in (NASTY_SCRIPT, NASTY_TEMPLATE, NASTY_IMG, "<b>SSSI</b>", "${alert(1)}"):
         assert raw not in text
+
+
+def test_site_popup_shows_the_habitat_name_where_known():
+    """The popup's Habitat row shows the habitat's name (as the report does), its id only when
+    the frame has no name column (our own display rule, common practice, no source)."""
+    import pandas as pd
+
+    from siting.webmap import _SITE_POPUP_ROWS, _site_popup_values
+
+    row = [label for label, _, _ in _SITE_POPUP_ROWS].index("Habitat")
+    named = pd.DataFrame({"habitat": ["dry_heath"], "habitat_name": ["Dry heath"]})
+    assert _site_popup_values(named)[0][row] == "Dry heath"
+    bare = pd.DataFrame({"habitat": ["dry_heath"]})
+    assert _site_popup_values(bare)[0][row] == "dry_heath"
