@@ -181,11 +181,8 @@ def _lock_path(out_dir: Path) -> Path:
 def _lock_owner(out_dir: Path):
     """The process id of a run of this machine writing ``out_dir`` now, else None (a lock
     left by a dead run does not count)."""
-    try:
-        pid = json.loads(_lock_path(out_dir).read_text(encoding="utf-8")).get("pid")
-    except (OSError, ValueError, AttributeError):
-        return None
-    return pid if pid != os.getpid() and _alive(pid) else None
+    pid = _recorded_pid(_lock_path(out_dir))
+    return pid if pid is not None and pid != os.getpid() and _alive(pid) else None
 
 
 def _busy_message(out_dir: Path, pid) -> str:
@@ -314,11 +311,16 @@ def _alive(pid) -> bool:
     return True
 
 
-def _staging_pid(staging: Path):
+def _recorded_pid(path: Path):
+    """The process id a lock or marker file records ({"pid": ...}), None if unreadable."""
     try:
-        return json.loads((staging / OUTPUT_MARKER).read_text(encoding="utf-8")).get("pid")
+        return json.loads(path.read_text(encoding="utf-8")).get("pid")
     except (OSError, ValueError, AttributeError):
         return None
+
+
+def _staging_pid(staging: Path):
+    return _recorded_pid(staging / OUTPUT_MARKER)
 
 
 #: A staging folder without its marker (a run killed within moments of making it) counts as
@@ -336,13 +338,6 @@ def _dead_staging(partial: Path) -> bool:
     return not _alive(pid)
 
 
-def _own_lock(lock: Path) -> bool:
-    try:
-        return json.loads(lock.read_text(encoding="utf-8")).get("pid") == os.getpid()
-    except (OSError, ValueError, AttributeError):
-        return False
-
-
 def recover_interrupted(out_dir: Path) -> list[str]:
     """Tidy what a run killed while writing ``out_dir`` left beside it; what was done, in words.
 
@@ -357,7 +352,7 @@ def recover_interrupted(out_dir: Path) -> list[str]:
     if not parent.is_dir():
         return done
     lock = _lock_path(out_dir)
-    if lock.is_file() and _lock_owner(out_dir) is None and not _own_lock(lock):
+    if lock.is_file() and _lock_owner(out_dir) is None and _recorded_pid(lock) != os.getpid():
         lock.unlink(missing_ok=True)
         done.append(f"{lock}: removed the lock of an interrupted run")
     prefix = f".{out_dir.name}."
@@ -920,7 +915,7 @@ def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
 
 
 @contextmanager
-def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
+def staged_folder(out_dir: Path, overwrite: bool, need_bytes: int = 0) -> Iterator[Path]:
     """A staging folder beside ``out_dir`` that takes its place only if the block succeeds.
 
     Parameters
@@ -929,6 +924,9 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
         The folder to produce; its parent is created if needed.
     overwrite : bool
         Whether an existing ``out_dir`` may be replaced.
+    need_bytes : int, optional
+        The run's estimate of what it will write [bytes], checked against the free space on
+        entry (:func:`check_output_dir`).
 
     Yields
     ------
@@ -953,7 +951,7 @@ def staged_folder(out_dir: Path, overwrite: bool) -> Iterator[Path]:
     folder, so each is atomic on POSIX. The whole swap runs under the folder's lock.
     """
     out_dir = Path(out_dir).resolve()
-    check_output_dir(out_dir, overwrite)
+    check_output_dir(out_dir, overwrite, need_bytes=need_bytes)
     out_dir.parent.mkdir(parents=True, exist_ok=True)
     with _writing_lock(out_dir):
         yield from _staged(out_dir, overwrite)

@@ -188,15 +188,15 @@ def write_region_outputs(
 ) -> Path:
     """Write deposition.tif, concentration.tif, sites.csv, contributors.csv, farms.csv, run.json
     atomically into ``out_dir``; returns it."""
-    from siting.outputs import check_output_dir, staged_folder, write_csv
+    from siting.outputs import staged_folder, write_csv
 
     out_dir = Path(out_dir).resolve()
     run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
     grid = result.grid
     # room for two float32 rasters, uncompressed, with their overviews (a third more), before
     # any file is written (the grid is known only once the farms are read)
-    check_output_dir(out_dir, overwrite, need_bytes=int(2 * 4 * grid.n_rows * grid.n_cols * 4 / 3))
-    with staged_folder(out_dir, overwrite) as staging:
+    need_bytes = int(2 * 4 * grid.n_rows * grid.n_cols * 4 / 3)
+    with staged_folder(out_dir, overwrite, need_bytes=need_bytes) as staging:
         write_region_geotiff(
             staging / "concentration.tif",
             grid,
