@@ -316,6 +316,16 @@ def _message(exc: ValidationError, raw: dict, filename: str, model: type[BaseMod
     return f"{where}: {key + ' ' if key else ''}{validation_wording(err)}"
 
 
+def _first_repeat(keys) -> int | None:
+    """Position of the first key that came before, or None when all differ."""
+    seen = set()
+    for i, key in enumerate(keys):
+        if key in seen:
+            return i
+        seen.add(key)
+    return None
+
+
 def validate_table(name: str, raw: dict, filename: str) -> dict:
     """The table's data checked and normalised (rows as plain dicts, whole numbers as floats,
     optional keys that are absent left out), or an InputError naming file, row and key."""
@@ -329,22 +339,17 @@ def validate_table(name: str, raw: dict, filename: str) -> dict:
         for section, rows in data.items():
             if not isinstance(rows, list):
                 continue
-            seen: set[str] = set()
-            for i, row in enumerate(rows):
-                if row[id_key] in seen:
-                    raise InputError(
-                        f"{filename}, {_row_label(raw, section, i)}: id "
-                        f'"{row[id_key]}" appears twice; each row needs its own'
-                    )
-                seen.add(row[id_key])
-    if name == "emission_factors":
-        seen_pairs: set[tuple[str, str]] = set()
-        for i, row in enumerate(data["factor"]):
-            pair = (row["livestock"], row["housing"])
-            if pair in seen_pairs:
+            i = _first_repeat(row[id_key] for row in rows)
+            if i is not None:
                 raise InputError(
-                    f"{filename}, {_row_label(raw, 'factor', i)}: this livestock "
-                    "and housing appear twice; each pair needs one row"
+                    f"{filename}, {_row_label(raw, section, i)}: id "
+                    f'"{rows[i][id_key]}" appears twice; each row needs its own'
                 )
-            seen_pairs.add(pair)
+    if name == "emission_factors":
+        i = _first_repeat((row["livestock"], row["housing"]) for row in data["factor"])
+        if i is not None:
+            raise InputError(
+                f"{filename}, {_row_label(raw, 'factor', i)}: this livestock "
+                "and housing appear twice; each pair needs one row"
+            )
     return data

@@ -924,11 +924,10 @@ def _share_colours() -> list[str]:
     return [to_hex(cmap(v)) for v in (0.08, 0.2, 0.32, 0.44, 0.6, 0.72, 0.84, 0.96)]
 
 
-def _place_site_rows(sites: gpd.GeoDataFrame) -> _PopupRows:
-    """Popup rows of a site on the placement map: designation and habitat (its name when the
-    frame has ``habitat_name``, else its id)."""
-    habitat = "habitat_name" if "habitat_name" in sites else "habitat"
-    return (("Designation", "designation", None), ("Habitat", habitat, None))
+#: Popup rows of a site on the placement map: the screening map's designation and habitat.
+_PLACE_SITE_ROWS: _PopupRows = tuple(
+    row for row in _SITE_POPUP_ROWS if row[0] in ("Designation", "Habitat")
+)
 
 
 def _add_holding(
@@ -1063,7 +1062,7 @@ def write_place_map(
     _add_sites(
         _layer(fmap, "Habitat sites"),
         _with_crs(sites, projected),
-        rows=_place_site_rows(sites),
+        rows=_PLACE_SITE_ROWS,
         style=_PLACE_SITE_STYLE,
         highlight=False,
     )
