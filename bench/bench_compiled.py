@@ -85,7 +85,7 @@ def lookup_rows() -> tuple[list, str]:
     sys.path.insert(0, str(Path(__file__).resolve().parent))
     import bench_runs
 
-    from siting.longterm import _element_chunk, radial_profiles, receptor_range_m
+    from siting.dispersion.sector import _element_chunk, radial_profiles, receptor_range_m
 
     case = bench_runs.build_case("site", quick=False)
     rx, ry = case.receptor_x_m.ravel(), case.receptor_y_m.ravel()

@@ -16,11 +16,11 @@ from pathlib import Path
 
 import numpy as np
 
-from siting.outputs import write_outputs
-from siting.resources import demo_dir
-from siting.scenario import load_scenario
-from siting.screen import _source_elements, screen
-from siting.weather import read_frequency_table
+from siting.output.files import write_outputs
+from siting.readers.frequency_table import read_frequency_table
+from siting.readers.resources import demo_dir
+from siting.readers.scenario import load_scenario
+from siting.runs.screen import _source_elements, screen
 
 
 def main() -> None:

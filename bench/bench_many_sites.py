@@ -89,10 +89,14 @@ def main() -> None:
 
     import geopandas as gpd
 
-    from siting.grids import grid_around
-    from siting.habitats import grid_nodes_in_sites, site_boundary_points, site_sample_points
-    from siting.resources import demo_dir
-    from siting.scenario import load_scenario
+    from siting.output.grids import grid_around
+    from siting.readers.habitats import (
+        grid_nodes_in_sites,
+        site_boundary_points,
+        site_sample_points,
+    )
+    from siting.readers.resources import demo_dir
+    from siting.readers.scenario import load_scenario
 
     demo = demo_dir()
     with tempfile.TemporaryDirectory() as tmp:

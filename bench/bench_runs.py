@@ -13,7 +13,7 @@ Three synthetic cases, built deterministically (seeded) and invented:
 
 Sources are spread over the grid, release heights 3-10 m (in 0.5 m steps), a mix of plain
 points, fan outlets with momentum rise (not in the regional case) and volume sources. Each case
-runs the fast path (the package's engines; for the regional case ``siting.convolution``:
+runs the fast path (the package's engines; for the regional case ``siting.dispersion.convolution``:
 ``regional_deposition`` if it exists, else its building blocks composed here, else the direct
 sum per source timed on a subset and extrapolated, each said in a note) and the
 straightforward reference of ``bench/reference.py`` in the same process, and prints one table:
@@ -40,14 +40,14 @@ from dataclasses import dataclass, replace
 import numpy as np
 import reference  # bench/reference.py: the script's folder is first on sys.path
 
-from siting.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
-from siting.longterm import (
+from siting.dispersion.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
+from siting.dispersion.sector import (
     DispersionSettings,
     ReleaseElement,
     WeatherClasses,
     source_concentration_g_m3_per_g_s,
 )
-from siting.tables import load_dispersion, sigma_scheme, wind_exponents
+from siting.readers.tables import load_dispersion, sigma_scheme, wind_exponents
 
 SEED = 20240611
 HOURS_PER_YEAR = 8760
@@ -113,7 +113,7 @@ def make_sources(
     """n sources spread over a square [margin, extent - margin]^2: points, fans, volume sources.
 
     Heights 3-10 m in 0.5 m steps. Volume sources: a house footprint of side 14-40 m (on a
-    sqrt(2) ladder through 10 m, as ``siting.convolution`` classes footprints) as
+    sqrt(2) ladder through 10 m, as ``siting.dispersion.convolution`` classes footprints) as
     sigma_y0 = side / 4.3 and sigma_z0 = height / 2.15, kept side / 2 (= 2.15 sigma_y0) from
     receptors ([EPA1992] initial dimensions, from memory). Fan outlets (with ``fans``):
     0.6-1.0 m diameter, 5-10 m/s exit velocity, momentum rise. Emissions 0.02-0.5 g/s (a few
@@ -262,25 +262,25 @@ def fast_hourly(case: Case, weather=None) -> np.ndarray:
 def regional_fast_path():
     """How the regional case is run fast: (callable(case, elements, emissions), label, note).
 
-    In this order, the first that exists: ``siting.convolution.regional_deposition`` (or
-    ``regional_concentration``); ``siting.region.compute_region`` (the ``siting region``
+    In this order, the first that exists: ``siting.dispersion.convolution.regional_deposition`` (or
+    ``regional_concentration``); ``siting.runs.region.compute_region`` (the ``siting region``
     pipeline, dask threads) on inputs built here from the case's arrays; the convolution
     module's building blocks composed here; else (None, "direct", why not).
     """
     try:
-        from siting import convolution
+        from siting.dispersion import convolution
     except ImportError as exc:
-        return None, "direct", f"siting.convolution not importable ({exc})"
+        return None, "direct", f"siting.dispersion.convolution not importable ({exc})"
     for name in ("regional_deposition", "regional_concentration"):
         function = getattr(convolution, name, None)
         if callable(function):
             return functools.partial(call_regional, function), f"convolution.{name}", ""
     try:
-        from siting import region
+        from siting.runs import region
 
         if callable(getattr(region, "compute_region", None)):
             why = (
-                "siting.convolution has no regional_deposition: timed siting.region."
+                "siting.dispersion.convolution has no regional_deposition: timed siting.runs.region."
                 "compute_region (kernel per release class, FFT tiles, near-field "
                 "correction, dask threads) on inputs built from the case's arrays"
             )
@@ -290,16 +290,20 @@ def regional_fast_path():
     blocks = ("unit_kernel", "place_on_cells", "convolve_emissions", "near_field_correction")
     if all(hasattr(convolution, b) for b in blocks):
         why = (
-            "siting.convolution has no regional_deposition yet: its unit_kernel, "
+            "siting.dispersion.convolution has no regional_deposition yet: its unit_kernel, "
             "place_on_cells, convolve_emissions and near_field_correction composed here "
             "(kernel per release class, bilinear placing, 10-cell near-field correction)"
         )
         return functools.partial(convolution_from_blocks, convolution), "convolution blocks", why
-    return None, "direct", "siting.convolution has neither regional_deposition nor its blocks"
+    return (
+        None,
+        "direct",
+        "siting.dispersion.convolution has neither regional_deposition nor its blocks",
+    )
 
 
 def region_pipeline(region, case: Case, elements, emission_g_s) -> np.ndarray:
-    """Concentration [g m-3] from siting.region.compute_region on this case's grid and farms.
+    """Concentration [g m-3] from siting.runs.region.compute_region on this case's grid and farms.
 
     Each element becomes a farm of release class point or volume (side 4.3 sigma_y0; the
     case's sides already sit on the class ladder, so the classes are the elements).
@@ -307,10 +311,10 @@ def region_pipeline(region, case: Case, elements, emission_g_s) -> np.ndarray:
     """
     import pandas as pd
 
-    from siting.constants import UG_PER_G
-    from siting.convolution import release_class
-    from siting.grids import GridSpec
-    from siting.tables import load_tables
+    from siting.dispersion.convolution import release_class
+    from siting.output.grids import GridSpec
+    from siting.physics.constants import UG_PER_G
+    from siting.readers.tables import load_tables
 
     classes = []
     for element in elements:
@@ -372,7 +376,7 @@ NEAR_FIELD_CELLS = 10
 
 
 def convolution_from_blocks(convolution, case: Case, elements, emission_g_s) -> np.ndarray:
-    """Regional field from siting.convolution's building blocks, one FFT per release class."""
+    """Regional field from siting.dispersion.convolution's building blocks, one FFT per release class."""
     n_rows, n_cols = case.receptor_x_m.shape
     cell_m = case.cell_m
     west_m, north_m = 0.0, n_rows * cell_m

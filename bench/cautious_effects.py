@@ -14,9 +14,9 @@ import dataclasses
 
 import numpy as np
 
-from siting.resources import demo_dir
-from siting.scenario import load_scenario
-from siting.screen import screen
+from siting.readers.resources import demo_dir
+from siting.readers.scenario import load_scenario
+from siting.runs.screen import screen
 
 
 def _run(scenario, tables=None):

@@ -1,7 +1,7 @@
 """Straightforward reference implementations of the two long-term engines (benchmarks, tests).
 
 Written from the formulas, not from ``siting/longterm.py`` or ``siting/hourly.py``: only the pure
-formulas of ``siting.plume`` are used (the sigma scheme, the wind profile, momentum rise, the
+formulas of ``siting.physics.plume`` are used (the sigma scheme, the wind profile, momentum rise, the
 vertical term, the virtual distance and the hourly plume). Plain vectorised numpy, one source at
 a time, no grouping, no windows, no caches beyond the obvious:
 
@@ -38,7 +38,7 @@ from collections.abc import Sequence
 import numpy as np
 from scipy.special import erf
 
-from siting.plume import (
+from siting.physics.plume import (
     momentum_plume_rise_m,
     plume_concentration_g_m3,
     stack_tip_downwash_height_m,

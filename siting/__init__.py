@@ -4,19 +4,19 @@ A small public API for notebooks and scripts; the CLI (``siting``) is built on i
 
     >>> import siting
     >>> scenario = siting.load_scenario("data_demo/scenario.toml")
-    >>> result = siting.screen(scenario)
+    >>> result = siting.runs.screen(scenario)
     >>> siting.write_outputs(result, "maps/demo")
-    >>> best = siting.place(scenario, "H2").positions.head()   # placement search
+    >>> best = siting.runs.place(scenario, "H2").positions.head()   # placement search
 
 Results are screening estimates from a simplified model; see the cautions in every output.
 """
 
 from siting._version import __version__
 from siting.errors import InputError, InputFileError, OutputExistsError, SitingError
-from siting.outputs import write_outputs
-from siting.place import PlaceResult, place
-from siting.scenario import Scenario, load_scenario
-from siting.screen import ScreenResult, screen
+from siting.output.files import write_outputs
+from siting.readers.scenario import Scenario, load_scenario
+from siting.runs.place import PlaceResult, place
+from siting.runs.screen import ScreenResult, screen
 
 __all__ = [
     "InputError",

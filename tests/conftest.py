@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from siting.tables import load_dispersion, sigma_scheme, wind_exponents
+from siting.readers.tables import load_dispersion, sigma_scheme, wind_exponents
 
 
 @pytest.fixture(scope="session")

@@ -288,7 +288,7 @@ class Workspace:
 
     def config(self) -> Path:
         """A user copy of the config tables, named by the scenario's [assessment] config_dir."""
-        from siting.resources import config_dir
+        from siting.readers.resources import config_dir
 
         folder = self.inputs / "my_config"
         if not folder.exists():
@@ -300,7 +300,7 @@ class Workspace:
 def make_template(folder: Path) -> Path:
     """The inputs every case starts from (copied per case): the invented demo with a coarse grid,
     the hourly record cut to a week and named by scenario_hourly.toml, and a farms layer."""
-    from siting.resources import demo_dir
+    from siting.readers.resources import demo_dir
 
     inputs = folder / "inputs"
     shutil.copytree(demo_dir(), inputs, ignore=shutil.ignore_patterns("*.py", "__pycache__"))
@@ -371,8 +371,8 @@ def wrap(
 
 
 def _mod(name: str):
-    """A module by name (``siting.screen`` and ``siting.place`` are also functions of the
-    package, so ``import siting.screen`` then ``siting.screen`` gives the function)."""
+    """A module by name (``siting.runs.screen`` and ``siting.runs.place`` are also functions of the
+    package, so ``import siting.runs.screen`` then ``siting.runs.screen`` gives the function)."""
     import importlib
 
     return importlib.import_module(name)
@@ -403,13 +403,16 @@ def stage_marker_written(ws, mp):
 
 def stage_first_file(ws, mp):
     """The first output file (concentration.tif) has just been written."""
-    wrap(mp, _mod("siting.outputs"), "write_geotiff")
+    wrap(mp, _mod("siting.output.files"), "write_geotiff")
 
 
 def stage_sites_csv(ws, mp):
     """sites.csv (the middle of the tables) has just been written."""
     wrap(
-        mp, _mod("siting.outputs"), "write_csv", when=lambda frame, path: _name(path) == "sites.csv"
+        mp,
+        _mod("siting.output.files"),
+        "write_csv",
+        when=lambda frame, path: _name(path) == "sites.csv",
     )
 
 
@@ -420,12 +423,12 @@ def stage_packing_inputs(ws, mp):
 
 def stage_map_sigterm(ws, mp):
     """map.html has just been written; then SIGTERM (as `timeout` or CI sends)."""
-    wrap(mp, _mod("siting.webmap"), "write_screen_map", how="SIGTERM")
+    wrap(mp, _mod("siting.presentation.webmap"), "write_screen_map", how="SIGTERM")
 
 
 def stage_report_sighup(ws, mp):
     """report.html has just been written; then SIGHUP (the terminal closed)."""
-    wrap(mp, _mod("siting.report"), "write_report", how="SIGHUP")
+    wrap(mp, _mod("siting.presentation.report"), "write_report", how="SIGHUP")
 
 
 def stage_run_json(ws, mp):
@@ -447,7 +450,7 @@ def stage_before_swap(ws, mp):
             (p / "run.json").is_file() for p in out_dir.parent.glob(f".{out_dir.name}.*.partial")
         )
 
-    wrap(mp, _mod("siting.outputs"), "check_output_dir", when=complete, after=False)
+    wrap(mp, _mod("siting.output.files"), "check_output_dir", when=complete, after=False)
 
 
 def stage_between_renames(ws, mp):
@@ -477,27 +480,27 @@ def stage_removing_backup(ws, mp):
 
 def during_dispersion(ws, mp):
     """In the middle of the computation (the first source's dispersion), before any writing."""
-    wrap(mp, _mod("siting.screen"), "source_concentration_g_m3_per_g_s", after=False)
+    wrap(mp, _mod("siting.runs.screen"), "source_concentration_g_m3_per_g_s", after=False)
 
 
 def weather_second_chart(ws, mp):
     """siting weather: the wind rose is written, the stability chart is being drawn."""
-    wrap(mp, _mod("siting.figures"), "stability_by_speed_png", after=False)
+    wrap(mp, _mod("siting.presentation.figures"), "stability_by_speed_png", after=False)
 
 
 def place_positions_csv(ws, mp):
     """siting place: positions.csv has just been written."""
-    wrap(mp, _mod("siting.place_outputs"), "write_csv")
+    wrap(mp, _mod("siting.output.place"), "write_csv")
 
 
 def region_second_geotiff(ws, mp):
     """siting region: the second GeoTIFF (deposition.tif) has just been written; SIGTERM."""
-    wrap(mp, _mod("siting.region_outputs"), "write_region_geotiff", nth=2, how="SIGTERM")
+    wrap(mp, _mod("siting.output.region"), "write_region_geotiff", nth=2, how="SIGTERM")
 
 
 def verify_report_written(ws, mp):
     """siting verify: findings.json and verify.html are written, the swap not yet done."""
-    wrap(mp, _mod("siting.verify_report"), "write_verify_report")
+    wrap(mp, _mod("siting.presentation.verify_report"), "write_verify_report")
 
 
 def bug_in(module: str, name: str, after: bool = False):
@@ -2888,7 +2891,7 @@ case(
     BUG,
     README_EXIT,
     prior=True,
-    patch=bug_in("siting.screen", "source_concentration_g_m3_per_g_s"),
+    patch=bug_in("siting.runs.screen", "source_concentration_g_m3_per_g_s"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(
@@ -2899,7 +2902,7 @@ case(
     README_EXIT,
     prior=True,
     cached_screen=True,
-    patch=bug_in("siting.outputs", "write_geotiff"),
+    patch=bug_in("siting.output.files", "write_geotiff"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(
@@ -2908,7 +2911,7 @@ case(
     3,
     BUG,
     README_EXIT,
-    patch=bug_in("siting.weather_hourly", "frequency_table_from_hourly"),
+    patch=bug_in("siting.readers.hourly_record", "frequency_table_from_hourly"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(
@@ -2917,7 +2920,7 @@ case(
     3,
     BUG,
     README_EXIT,
-    patch=bug_in("siting.region", "_task_tile"),
+    patch=bug_in("siting.runs.region", "_task_tile"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(
@@ -2928,7 +2931,7 @@ case(
     README_EXIT,
     prior=True,
     cached_screen=True,
-    patch=disk_full_at("siting.outputs", "write_csv", "sites.csv"),
+    patch=disk_full_at("siting.output.files", "write_csv", "sites.csv"),
 )
 case(
     "permission-denied-writing-map",
@@ -2938,7 +2941,7 @@ case(
     README_EXIT,
     prior=True,
     cached_screen=True,
-    patch=disk_full_at("siting.webmap", "write_screen_map", "map.html", errno.EACCES),
+    patch=disk_full_at("siting.presentation.webmap", "write_screen_map", "map.html", errno.EACCES),
 )
 
 # ============================================================================================

@@ -32,8 +32,8 @@ except ImportError:  # reported by the `browser` fixture, so the module still co
     PlaywrightTimeoutError = TimeoutError
 
 from siting.cli import main
-from siting.resources import demo_dir
-from siting.webmap import OVERLAY_CLASS, SITE_CLASS, SOURCE_CLASS
+from siting.presentation.webmap import OVERLAY_CLASS, SITE_CLASS, SOURCE_CLASS
+from siting.readers.resources import demo_dir
 
 pytestmark = pytest.mark.browser
 

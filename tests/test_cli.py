@@ -27,8 +27,8 @@ from numpy.testing import assert_allclose
 
 import siting
 from siting.cli import main
-from siting.outputs import SITE_COLUMNS
-from siting.resources import config_dir, demo_dir
+from siting.output.files import SITE_COLUMNS
+from siting.readers.resources import config_dir, demo_dir
 
 OUTPUTS = [
     "concentration.tif",
@@ -529,7 +529,7 @@ def test_sigterm_while_writing_leaves_nothing_and_keeps_the_old_folder(tmp_path)
     scenario.write_text(scenario.read_text().replace("spacing_m = 25.0", "spacing_m = 100.0", 1))
     code = (
         "import os, signal, sys\n"
-        "import siting.report as report\n"
+        "import siting.presentation.report as report\n"
         "real = report.write_report\n"
         "def dying(*a, **k):\n"
         "    os.kill(os.getpid(), signal.SIGTERM)\n"
@@ -591,7 +591,7 @@ def test_an_internal_error_is_one_line_with_the_traceback_kept(tmp_path, capsys,
     def broken(*args, **kwargs):
         raise ZeroDivisionError("forced for the test")
 
-    monkeypatch.setattr(importlib.import_module("siting.screen"), "screen", broken)
+    monkeypatch.setattr(importlib.import_module("siting.runs.screen"), "screen", broken)
     rc = main(
         ["screen", str(demo_dir() / "scenario.toml"), "--out", str(tmp_path / "o"), "--quiet"]
     )

@@ -1,4 +1,4 @@
-"""Checks of siting.convolution: kernels, placement, FFT convolution and tiling.
+"""Checks of siting.dispersion.convolution: kernels, placement, FFT convolution and tiling.
 
 Every expected value is a cross-check against the direct per-source sum of the long-term engine
 (``longterm.source_concentration_g_m3_per_g_s`` through ``offset_concentration_g_m3_per_g_s``,
@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.convolution import (
+from siting.dispersion.convolution import (
     ReleaseClass,
     convolve_emissions,
     kernel_half_size,
@@ -26,9 +26,9 @@ from siting.convolution import (
     tile_concentration,
     unit_kernel,
 )
-from siting.longterm import DispersionSettings, WeatherClasses
-from siting.resources import demo_dir
-from siting.weather import read_frequency_table
+from siting.dispersion.sector import DispersionSettings, WeatherClasses
+from siting.readers.frequency_table import read_frequency_table
+from siting.readers.resources import demo_dir
 
 CELL_M = 100.0
 
@@ -315,9 +315,9 @@ def test_radial_kernel_from_interpolated_profiles_matches_direct():
     interpolated linearly in log distance to the lattice's distinct distances; measured error
     1.8e-5 relative (where the field exceeds 1e-9 of its peak), largest next to the source.
     """
-    from siting.convolution import unit_kernel
-    from siting.longterm import DispersionSettings, ReleaseElement, WeatherClasses
-    from siting.tables import load_dispersion, sigma_scheme, wind_exponents
+    from siting.dispersion.convolution import unit_kernel
+    from siting.dispersion.sector import DispersionSettings, ReleaseElement, WeatherClasses
+    from siting.readers.tables import load_dispersion, sigma_scheme, wind_exponents
 
     table = load_dispersion()
     settings = DispersionSettings(

@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 
 from siting.cli import main
-from siting.resources import demo_dir
+from siting.readers.resources import demo_dir
 
 GOLDEN = Path(__file__).parent / "golden"
 

@@ -1,4 +1,4 @@
-"""Checks of siting.deposition: source depletion against derived check values, and units.
+"""Checks of siting.physics.deposition: source depletion against derived check values, and units.
 
 Source keys: Chamberlain1953 / VanderHoven1968 (source-depletion equation, from memory),
 EPA1995 (Pasquill-Gifford curve fits), AQTAG06 (deposition velocities and the 259.7 factor, from
@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting import constants
-from siting.deposition import (
+from siting.physics import constants
+from siting.physics.deposition import (
     cumulative_depletion_integral_m0,
     ground_vertical_density_per_m,
     source_depletion_fraction,

@@ -1,4 +1,4 @@
-"""Checks of siting.emissions and the emission/abatement tables read back.
+"""Checks of siting.physics.emissions and the emission/abatement tables read back.
 
 Source keys: EA2024 (UK Environment Agency housing emission factors for permitted pig farms,
 confirmed), BATc2017 (EU BAT conclusions 2017/302 sect. 4.11), trade figures for scrubber effluent
@@ -8,8 +8,8 @@ confirmed), BATc2017 (EU BAT conclusions 2017/302 sect. 4.11), trade figures for
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.emissions import derive_emission
-from siting.tables import default_reduction_percent, load_tables
+from siting.physics.emissions import derive_emission
+from siting.readers.tables import default_reduction_percent, load_tables
 
 
 @pytest.fixture(scope="module")

@@ -16,8 +16,8 @@ import pytest
 from numpy.testing import assert_allclose
 from scipy.special import exp1
 
-from siting.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
-from siting.longterm import (
+from siting.dispersion.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
+from siting.dispersion.sector import (
     DispersionSettings,
     ReleaseElement,
     WeatherClasses,

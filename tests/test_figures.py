@@ -1,4 +1,4 @@
-"""Tests of siting.figures: the report figures render to PNG, hostile names included."""
+"""Tests of siting.presentation.figures: the report figures render to PNG, hostile names included."""
 
 from __future__ import annotations
 
@@ -12,9 +12,10 @@ from numpy.testing import assert_allclose
 from shapely.geometry import MultiPolygon, Point, Polygon, box
 from synthetic import hostile_sites
 
-from siting import figures
+from siting.dispersion.sector import WeatherClasses
 from siting.errors import InputError
-from siting.figures import (
+from siting.presentation import figures
+from siting.presentation.figures import (
     MAX_LABELLED_SITES,
     _site_outlines,
     _table_rose_percent,
@@ -23,8 +24,7 @@ from siting.figures import (
     pc_vs_distance_figure,
     wind_rose_from_table_png,
 )
-from siting.longterm import WeatherClasses
-from siting.presentation import most_affected_order
+from siting.presentation.formats import most_affected_order
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 

@@ -5,19 +5,19 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
-from siting.hourly import (
+from siting.dispersion.hourly import (
     HourlyWeather,
     element_hourly_mean_g_m3_per_g_s,
     group_identical_hours,
     spread_lateral_density_per_m,
 )
-from siting.longterm import (
+from siting.dispersion.sector import (
     DispersionSettings,
     ReleaseElement,
     WeatherClasses,
     element_concentration_g_m3_per_g_s,
 )
-from siting.plume import plume_concentration_g_m3
+from siting.physics.plume import plume_concentration_g_m3
 
 D = 3
 

@@ -1,4 +1,4 @@
-"""Checks of siting.longterm: sector averaging, mass conservation, area and volume sources.
+"""Checks of siting.dispersion.sector: sector averaging, mass conservation, area and volume sources.
 
 Expected values are analytic (the sector-averaged formula of Turner1970 Ch. 10 / EPA1995, from
 memory) or conservation laws (what is emitted is carried through every ring, or deposited).
@@ -8,8 +8,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.deposition import ground_vertical_density_per_m, source_depletion_fraction
-from siting.longterm import (
+from siting.dispersion.sector import (
     DispersionSettings,
     ReleaseElement,
     WeatherClasses,
@@ -17,7 +16,8 @@ from siting.longterm import (
     rectangle_elements,
     source_concentration_g_m3_per_g_s,
 )
-from siting.plume import sector_average_concentration_g_m3, vertical_term
+from siting.physics.deposition import ground_vertical_density_per_m, source_depletion_fraction
+from siting.physics.plume import sector_average_concentration_g_m3, vertical_term
 
 D = 3
 
@@ -222,7 +222,7 @@ def test_volume_source_ring_flux_equals_emission(briggs_rural, rural_exponents):
     settings = _settings(briggs_rural, rural_exponents)
     element = ReleaseElement(0, 0, 5.0, sigma_y0_m=9.3, sigma_z0_m=2.8, min_distance_m=20.0)
     theta = np.linspace(0, 2 * np.pi, 3601)
-    from siting.plume import virtual_distance_m
+    from siting.physics.plume import virtual_distance_m
 
     xz = virtual_distance_m(2.8, lambda x: briggs_rural.sigma_z_m(x, D))
     for x in (200.0, 1500.0):

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.hourly import HourlyWeather, element_hourly_mean_g_m3_per_g_s
-from siting.longterm import (
+from siting.dispersion.hourly import HourlyWeather, element_hourly_mean_g_m3_per_g_s
+from siting.dispersion.sector import (
     DispersionSettings,
     ReleaseElement,
     WeatherClasses,

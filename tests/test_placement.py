@@ -4,18 +4,18 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.longterm import (
-    DispersionSettings,
-    ReleaseElement,
-    WeatherClasses,
-    source_concentration_g_m3_per_g_s,
-)
-from siting.placement import (
+from siting.dispersion.placement import (
     PolarKernel,
     max_places,
     required_reduction_percent,
     share_of_threshold,
     site_maxima,
+)
+from siting.dispersion.sector import (
+    DispersionSettings,
+    ReleaseElement,
+    WeatherClasses,
+    source_concentration_g_m3_per_g_s,
 )
 
 RNG = np.random.default_rng(5)

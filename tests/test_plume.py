@@ -1,4 +1,4 @@
-"""Checks of siting.plume against published coefficient tables and worked examples.
+"""Checks of siting.physics.plume against published coefficient tables and worked examples.
 
 Source keys: Briggs1973 (formulas as tabulated in EPA1995 Vol. II), EPA1995 (EPA-454/B-95-003b),
 Boubel1994 (Boubel, Fox, Turner & Stern, Fundamentals of Air Pollution, 3rd ed., Ch. 19 III.D),
@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.plume import (
+from siting.physics.plume import (
     gep_stack_height_m,
     momentum_plume_rise_m,
     plume_concentration_g_m3,

@@ -1,11 +1,11 @@
-"""Tests of siting.presentation: number formatting and the deposition classes."""
+"""Tests of siting.presentation.formats: number formatting and the deposition classes."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from siting.presentation import deposition_class_edges, format_for_column, format_number
+from siting.presentation.formats import deposition_class_edges, format_for_column, format_number
 
 
 def test_class_edges_follow_the_data_range():

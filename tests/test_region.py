@@ -1,4 +1,4 @@
-"""Checks of siting.region and `siting region`: many farms over a region, tiled, on dask.
+"""Checks of siting.runs.region and `siting region`: many farms over a region, tiled, on dask.
 
 Expected values are cross-checks (tiled vs one tile, dask vs no dask, the grid and site figures
 vs the engine's direct per-farm sum), conservation (contributors add up to the site total), the
@@ -18,10 +18,13 @@ from numpy.testing import assert_allclose
 from shapely.geometry import LineString, Point, box
 
 from siting.cli import main
-from siting.constants import UG_PER_G, kg_per_year_to_g_s
-from siting.convolution import offset_concentration_g_m3_per_g_s
+from siting.dispersion.convolution import offset_concentration_g_m3_per_g_s
 from siting.errors import InputError, InputFileError
-from siting.region import (
+from siting.output.region import SITE_COLUMNS
+from siting.physics.constants import UG_PER_G, kg_per_year_to_g_s
+from siting.readers.resources import demo_dir
+from siting.readers.tables import load_tables
+from siting.runs.region import (
     CONTRIBUTOR_COLUMNS,
     FarmFields,
     RegionOptions,
@@ -31,9 +34,6 @@ from siting.region import (
     read_farms,
     region,
 )
-from siting.region_outputs import SITE_COLUMNS
-from siting.resources import demo_dir
-from siting.tables import load_tables
 
 CRS = "EPSG:32632"
 CENTRE = (500_000.0, 5_800_000.0)
@@ -182,7 +182,7 @@ def test_distributed_run_is_identical_to_plain(plain, farms_file, weather_csv, h
 def test_unreachable_scheduler_is_a_clear_error(farms_file, weather_csv, monkeypatch):
     """A scheduler address nobody listens on: InputError naming --scheduler."""
     pytest.importorskip("distributed")
-    monkeypatch.setattr("siting.region.SCHEDULER_CONNECT_TIMEOUT_S", 1.0)
+    monkeypatch.setattr("siting.runs.region.SCHEDULER_CONNECT_TIMEOUT_S", 1.0)
     with pytest.raises(InputError, match="--scheduler"):
         _run(farms_file, weather_csv, None, scheduler="tcp://127.0.0.1:9")
 

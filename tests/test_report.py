@@ -1,4 +1,4 @@
-"""Tests of siting.report: report.html structure, escaping, inlined figures, helpers."""
+"""Tests of siting.presentation.report: report.html structure, escaping, inlined figures, helpers."""
 
 from __future__ import annotations
 
@@ -12,8 +12,8 @@ import pytest
 from synthetic import NAMES, hostile_sites
 
 from siting.errors import InputError
-from siting.figures import pc_vs_distance_figure
-from siting.report import write_report
+from siting.presentation.figures import pc_vs_distance_figure
+from siting.presentation.report import write_report
 
 CAUTIONS = [
     "Screening estimate from a simplified model (flat terrain, no building wake, long-term means);"
@@ -361,7 +361,7 @@ def test_net_change_table_lists_each_site():
     """The net-change/in-combination table shows each site's net change when present."""
     import pandas as pd
 
-    from siting.report import _change_table
+    from siting.presentation.report import _change_table
 
     sites = pd.DataFrame(
         {
@@ -434,7 +434,7 @@ def test_many_sites_all_in_the_summary_in_layer_order(tmp_path):
 
 def test_remembered_cells_keep_types_apart():
     """The cell memory tells True, 1 and 1.0 apart (they hash alike but may format apart)."""
-    from siting.report import _cached
+    from siting.presentation.report import _cached
 
     calls = []
     cell = _cached(lambda value: calls.append(value) or type(value).__name__)

@@ -8,7 +8,7 @@ import pandas as pd
 import pytest
 
 from siting.cli import main
-from siting.presentation import format_for_column, format_percent, is_missing
+from siting.presentation.formats import format_for_column, format_percent, is_missing
 
 SECTION_ORDER = [
     "summary",

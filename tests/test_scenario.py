@@ -21,9 +21,9 @@ import pytest
 
 from siting.cli import main
 from siting.errors import InputError, InputFileError
-from siting.resources import demo_dir
-from siting.scenario import load_scenario
-from siting.screen import screen
+from siting.readers.resources import demo_dir
+from siting.readers.scenario import load_scenario
+from siting.runs.screen import screen
 
 SCENARIO_DIR = "scenario"  # the copy of data_demo/ inside tmp_path
 

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.seasonal import (
+from siting.physics.seasonal import (
     temperature_emission_weights,
     treated_ammonia_share,
     ventilation_fraction,

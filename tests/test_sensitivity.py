@@ -4,8 +4,8 @@ import dataclasses
 
 from numpy.testing import assert_allclose
 
-from siting.resources import demo_dir
-from siting.screen import screen
+from siting.readers.resources import demo_dir
+from siting.runs.screen import screen
 
 
 def test_velocity_variants_without_depletion_equal_a_rerun():

@@ -1,4 +1,4 @@
-"""Checks of siting.solar against NREL SPA (via pvlib), analytic solar geometry and Turner's night.
+"""Checks of siting.physics.solar against NREL SPA (via pvlib), analytic solar geometry and Turner's night.
 
 Source keys: NOAA-GMD (NOAA solar calculator equations), Meeus1991 (Astronomical Algorithms),
 EPA2000 (EPA-454/R-99-005 Sect. 6.4.1, night definition: from memory), SPA = Reda & Andreas
@@ -19,7 +19,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
-from siting.solar import _true_elevation_deg, _unix_seconds, is_night, solar_elevation_deg
+from siting.physics.solar import _true_elevation_deg, _unix_seconds, is_night, solar_elevation_deg
 
 pvlib = pytest.importorskip("pvlib", reason="pvlib (NREL SPA reference) not installed")
 pd = pytest.importorskip("pandas")

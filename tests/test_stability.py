@@ -1,4 +1,4 @@
-"""Checks of siting.stability against Turner's key and the net-radiation-index procedure.
+"""Checks of siting.physics.stability against Turner's key and the net-radiation-index procedure.
 
 Source keys: EPA2000 = US EPA, EPA-454/R-99-005 (2000), Sect. 6.4.1. Table 6-4 (Turner's class
 by wind speed in knots and net radiation index) is a published table, status confirmed; the
@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_array_equal
 
-from siting.stability import (
+from siting.physics.stability import (
     KNOT_M_S,
     _turner_class,
     insolation_class,

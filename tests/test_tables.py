@@ -12,8 +12,8 @@ import tomllib
 import pytest
 
 from siting.errors import InputError
-from siting.resources import config_dir
-from siting.tables import TABLE_FILES, load_tables
+from siting.readers.resources import config_dir
+from siting.readers.tables import TABLE_FILES, load_tables
 
 
 @pytest.fixture(scope="module")

@@ -9,8 +9,8 @@ import pandas as pd
 import pytest
 
 from siting.cli import main
-from siting.resources import demo_dir
-from siting.verify import verify
+from siting.readers.resources import demo_dir
+from siting.runs.verify import verify
 
 
 def _screen(tmp_path, name="sub", edit=None, habitats=None):
@@ -191,7 +191,7 @@ def test_scenario_plus_results_table(clean, tmp_path):
 
 def test_factor_below_table_and_underived_treated_share(tmp_path):
     """A lowered factor in the applicant's own tables, a bare treated share: both flagged."""
-    from siting.resources import config_dir
+    from siting.readers.resources import config_dir
 
     def edit(text):
         text = re.sub(
@@ -333,7 +333,7 @@ def test_edited_truncated_or_deleted_outputs_are_findings(clean, tmp_path, damag
 def test_findings_come_in_a_fixed_order(clean, tmp_path):
     """Findings are listed RESULTS_DIFFER, changed inputs (last recorded first), outputs, then
     the plausibility review by severity (regression: the order before verify.py was split)."""
-    from siting.verify import SEVERITY_ORDER
+    from siting.runs.verify import SEVERITY_ORDER
 
     sub = tmp_path / "sub"
     shutil.copytree(clean, sub)

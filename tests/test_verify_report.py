@@ -1,4 +1,4 @@
-"""Tests of siting.verify_report: the verification page's content, order, escaping and marks."""
+"""Tests of siting.presentation.verify_report: the verification page's content, order, escaping and marks."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 
 from siting.errors import InputError
-from siting.verify_report import write_verify_report
+from siting.presentation.verify_report import write_verify_report
 
 HOSTILE_SUBJECT = 'site "<script>alert(1)</script>"'
 

@@ -4,8 +4,8 @@ import pytest
 from numpy.testing import assert_allclose
 
 from siting.errors import InputError
-from siting.resources import demo_dir
-from siting.weather import read_frequency_table
+from siting.readers.frequency_table import read_frequency_table
+from siting.readers.resources import demo_dir
 
 
 def _write(tmp_path, rows, header="direction_deg,speed_m_s,stability,frequency"):

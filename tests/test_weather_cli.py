@@ -16,7 +16,7 @@ import pytest
 from numpy.testing import assert_allclose
 
 from siting.cli import build_parser, main
-from siting.weather import read_frequency_table
+from siting.readers.frequency_table import read_frequency_table
 
 OUTPUTS = {"frequency_table.csv", "wind_rose.png", "stability_by_speed.png", "summary.json"}
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"

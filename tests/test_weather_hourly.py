@@ -9,15 +9,15 @@ import pytest
 from numpy.testing import assert_allclose
 
 from siting.errors import InputError
-from siting.plume import STABILITY_CLASSES
-from siting.resources import demo_dir
-from siting.weather import read_frequency_table
-from siting.weather_hourly import (
+from siting.physics.plume import STABILITY_CLASSES
+from siting.readers.frequency_table import read_frequency_table
+from siting.readers.hourly_record import (
     compass_words,
     frequency_table_from_hourly,
     hours_by_sector,
     read_hourly_record,
 )
+from siting.readers.resources import demo_dir
 
 LAT, LON = 52.0, 0.0  # a site at 52 N on the Greenwich meridian (solar time ~ UTC)
 HOURLY_HEADER = "time,direction_deg,speed_m_s,stability"

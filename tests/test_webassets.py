@@ -1,4 +1,4 @@
-"""Tests of siting.webassets: map.html is one self-contained file that works offline."""
+"""Tests of siting.presentation.webassets: map.html is one self-contained file that works offline."""
 
 from __future__ import annotations
 
@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from shapely.geometry import Point, box
 
-import siting.webassets
+import siting.presentation.webassets
 from siting.errors import AssetError, SitingError
-from siting.webassets import inline_assets
-from siting.webmap import write_screen_map
+from siting.presentation.webassets import inline_assets
+from siting.presentation.webmap import write_screen_map
 
 CRS = "EPSG:32632"
 WEST_M, NORTH_M, CELL_M = 500_000.0, 5_700_000.0, 50.0
@@ -188,7 +188,7 @@ def test_awesome_marker_is_refused():
 
 def test_nothing_written_when_an_asset_is_unknown(tmp_path, monkeypatch):
     """With no known assets, write_screen_map raises AssetError and writes no file."""
-    monkeypatch.setattr(siting.webassets, "_ASSETS", ())
+    monkeypatch.setattr(siting.presentation.webassets, "_ASSETS", ())
     path = tmp_path / "map.html"
     with pytest.raises(AssetError, match="leaflet"):
         _write_small_map(path)
@@ -197,7 +197,7 @@ def test_nothing_written_when_an_asset_is_unknown(tmp_path, monkeypatch):
 
 def test_readme_lists_every_vendored_file_with_its_hash():
     """_assets/README.md names each vendored file with the SHA-256 of the copy shipped."""
-    folder = siting.webassets._ASSETS_DIR
+    folder = siting.presentation.webassets._ASSETS_DIR
     readme = (folder / "README.md").read_text(encoding="utf-8")
     files = [p for p in sorted(folder.rglob("*")) if p.is_file() and p.name != "README.md"]
     assert len(files) == 7  # leaflet.js, .css, 2 images, LICENSE; jquery slim, LICENSE.txt

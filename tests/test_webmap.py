@@ -1,4 +1,4 @@
-"""Tests of siting.webmap: map.html content, escaping of user text, overlay, legend, contours."""
+"""Tests of siting.presentation.webmap: map.html content, escaping of user text, overlay, legend, contours."""
 
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ import pytest
 from shapely.geometry import Point, box
 
 from siting.errors import InputError
-from siting.webmap import SITE_CLASS, escape_text, write_screen_map
+from siting.presentation.webmap import SITE_CLASS, escape_text, write_screen_map
 
 CRS = "EPSG:32632"
 WEST_M, NORTH_M, CELL_M = 500_000.0, 5_700_000.0, 25.0
@@ -364,8 +364,8 @@ def test_many_sites_are_one_layer_with_a_feature_each(tmp_path):
 
 def test_site_style_is_keyed_on_the_verdict(map_html):
     """The one site layer styles each feature by its verdict: the verdict colours and the
-    stable CSS class appear in its style map (siting.presentation.VERDICT_COLOURS)."""
-    from siting.presentation import VERDICT_COLOURS
+    stable CSS class appear in its style map (siting.presentation.formats.VERDICT_COLOURS)."""
+    from siting.presentation.formats import VERDICT_COLOURS
 
     styler = re.search(
         r"function geo_json_[0-9a-f]+_styler\(feature\) \{(.*?)\n        \}", map_html, re.S
@@ -380,7 +380,7 @@ def test_place_map_draws_the_sites_as_one_escaped_layer(tmp_path):
     """The placement map reuses the screening map's single site layer: one GeoJson of every
     site, the stable CSS class, only designation and habitat in the popup, hostile text
     escaped (common practice, no source)."""
-    from siting.webmap import write_place_map
+    from siting.presentation.webmap import write_place_map
 
     centre_x = WEST_M + N_COLS * CELL_M / 2
     centre_y = NORTH_M - N_ROWS * CELL_M / 2
@@ -447,7 +447,7 @@ def test_site_popup_shows_the_habitat_name_where_known():
     the frame has no name column (our own display rule, common practice, no source)."""
     import pandas as pd
 
-    from siting.webmap import _SITE_POPUP_ROWS, _site_popup_values
+    from siting.presentation.webmap import _SITE_POPUP_ROWS, _site_popup_values
 
     row = [label for label, _, _ in _SITE_POPUP_ROWS].index("Habitat")
     named = pd.DataFrame({"habitat": ["dry_heath"], "habitat_name": ["Dry heath"]})

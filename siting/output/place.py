@@ -1,0 +1,93 @@
+"""Writing a placement search's outputs: suitability.tif, positions.csv, run.json, map.html.
+
+An adapter: everything goes through outputs.staged_folder, so a failed run leaves nothing
+half-written and an existing folder is replaced only with ``overwrite``. No physics here.
+"""
+
+from __future__ import annotations
+
+import json
+from datetime import UTC, datetime
+from pathlib import Path
+
+from siting.output.files import (
+    check_output_dir,
+    package_inputs,
+    run_record_base,
+    staged_folder,
+    write_csv,
+)
+from siting.output.grids import write_geotiff
+from siting.readers.tables import default_reduction_percent
+
+#: How many of the best positions the map marks.
+TOP_POSITIONS = 10
+
+
+def write_place_outputs(
+    result, out_dir: Path, overwrite: bool = False, top: int = TOP_POSITIONS
+) -> Path:
+    """Write the placement outputs atomically into ``out_dir``; returns it."""
+    import geopandas as gpd
+    import shapely
+
+    from siting._version import __version__
+    from siting.presentation.webmap import write_place_map
+
+    out_dir = Path(out_dir).resolve()
+    check_output_dir(out_dir, overwrite)
+    run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
+    prep = result.prepared
+    scenario = prep.scenario
+    with staged_folder(out_dir, overwrite) as staging:
+        write_geotiff(
+            staging / "suitability.tif",
+            result.grid,
+            result.suitability_pct_load,
+            f"worst process contribution of house {result.house_id} over all habitat "
+            "sites as % of critical load, by house position (screening estimate)",
+            "% of critical load",
+        )
+        write_csv(result.positions, staging / "positions.csv")
+        record = run_record_base(prep, run_time, holding=True)
+        record.update(
+            {
+                "command": "place",
+                "house": result.house_id,
+                "holding": {
+                    "spacing_m": result.grid.cell_m,
+                    "positions": len(result.positions),
+                    "allowed_area_ha": result.allowed_area.area / 1e4,
+                    "holding_area_ha": result.holding.area / 1e4,
+                },
+                "abatement_options": {
+                    o["id"]: default_reduction_percent(o) for o in result.options
+                },
+                "timings_s": result.timings_s,
+                "warnings": result.warnings,
+            }
+        )
+        record["package"] = package_inputs(prep, staging)
+        (staging / "run.json").write_text(
+            json.dumps(record, indent=2, default=str), encoding="utf-8"
+        )
+        best = result.positions.head(top)
+        write_place_map(
+            staging / "map.html",
+            title=f"{scenario.title}: where could {result.house_id} go?",
+            crs=scenario.crs,
+            west_m=result.grid.west_m,
+            north_m=result.grid.north_m,
+            cell_m=result.grid.cell_m,
+            share_of_threshold=result.share_of_threshold,
+            allowed_area=gpd.GeoDataFrame(geometry=[result.allowed_area], crs=scenario.crs),
+            holding=gpd.GeoDataFrame(geometry=[result.holding], crs=scenario.crs),
+            positions=gpd.GeoDataFrame(
+                best.copy(), geometry=shapely.points(best["x"], best["y"]), crs=scenario.crs
+            ),
+            sites=prep.sites,
+            cautions=list(prep.cautions),
+            version=__version__,
+            run_time=run_time,
+        )
+    return out_dir

@@ -1,0 +1,190 @@
+"""Loaders of the config/ lookup tables.
+
+Each table is a TOML file whose rows all carry a non-empty ``source``. Its shape (sections,
+keys, types, ranges, finite numbers) is checked by the pydantic models of table_schema.py, which
+name the file, the row and the key in any error; here only the checks across tables. Tables are
+read from the bundled config/ folder unless the caller passes another folder (a user may keep a
+copy edited for their jurisdiction). No physics here: rows become plain dicts and small arrays.
+"""
+
+from __future__ import annotations
+
+import difflib
+import hashlib
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from siting.errors import InputError, InputFileError
+from siting.physics.plume import STABILITY_CLASSES, SigmaScheme
+from siting.readers.resources import config_dir
+from siting.readers.table_schema import validate_table
+
+TABLE_FILES = {
+    "emission_factors": ("emission_factors.toml", "factor"),
+    "abatement": ("abatement.toml", "technique"),
+    "critical_loads": ("critical_loads.toml", "habitat"),
+    "critical_levels": ("critical_levels.toml", "level"),
+    "deposition_velocities": ("deposition_velocities.toml", "land_cover"),
+    "thresholds": ("thresholds.toml", "tier"),
+    "dispersion": ("dispersion.toml", None),
+}
+
+
+def suggest(name: str, choices) -> str:
+    """'; did you mean "x"?' for the closest choice, or an empty string."""
+    close = difflib.get_close_matches(str(name), [str(c) for c in choices], n=1, cutoff=0.6)
+    return f'; did you mean "{close[0]}"?' if close else ""
+
+
+def _read_toml(path: Path) -> dict:
+    try:
+        with open(path, "rb") as handle:
+            return tomllib.load(handle)
+    except FileNotFoundError as exc:
+        raise InputFileError(f"{path}: table not found") from exc
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{path}: not valid TOML: {exc}") from exc
+
+
+@dataclass(frozen=True)
+class Tables:
+    """All lookup tables of a run, with the file each came from and its SHA-256."""
+
+    folder: Path
+    emission_factors: list[dict]
+    abatement: dict[str, dict]
+    critical_loads: dict[str, dict]
+    critical_levels: dict[str, dict]
+    deposition_velocities: dict[str, dict]
+    thresholds: list[dict]
+    dispersion: dict
+    files_sha256: dict[str, str]
+    #: emission_factors.toml [uncertainty]: {"emission_factor_percent", "source"}, or None
+    emission_factor_uncertainty: dict | None = None
+
+    def factor(self, livestock: str, housing: str, where: str) -> dict:
+        """The emission-factor row for a livestock category and housing system."""
+        categories = sorted({r["livestock"] for r in self.emission_factors})
+        if livestock not in categories:
+            raise InputError(
+                f'{where}: unknown livestock "{livestock}"{suggest(livestock, categories)}'
+                f" (known: {', '.join(categories)})"
+            )
+        systems = sorted(r["housing"] for r in self.emission_factors if r["livestock"] == livestock)
+        for row in self.emission_factors:
+            if row["livestock"] == livestock and row["housing"] == housing:
+                return row
+        raise InputError(
+            f'{where}: unknown housing "{housing}" for {livestock}'
+            f"{suggest(housing, systems)} (known: {', '.join(systems)})"
+        )
+
+    def technique(self, technique_id: str, where: str) -> dict:
+        if technique_id not in self.abatement:
+            raise InputError(
+                f'{where}: unknown abatement "{technique_id}"'
+                f"{suggest(technique_id, self.abatement)}"
+                f" (known: {', '.join(sorted(self.abatement))})"
+            )
+        return self.abatement[technique_id]
+
+    def sigma_scheme(self, land_type: str, kind: str = "briggs") -> SigmaScheme:
+        """Dispersion coefficients of this run's dispersion table."""
+        return sigma_scheme(self.dispersion, land_type, kind)
+
+    def wind_exponents(self, land_type: str) -> np.ndarray:
+        """Power-law exponents A..F of this run's dispersion table."""
+        return wind_exponents(self.dispersion, land_type)
+
+
+def sigma_scheme(dispersion: dict, land_type: str, kind: str = "briggs") -> SigmaScheme:
+    """Dispersion coefficients of a dispersion table as arrays for the physics.
+
+    kind "briggs" takes the Briggs (1973) rows of ``land_type``; kind "pasquill_gifford" the
+    rural Pasquill-Gifford curve fits.
+    """
+    if kind == "briggs":
+        rows = {r["stability"]: r for r in dispersion["briggs"] if r["land_type"] == land_type}
+        y = np.array([[rows[s]["sigma_y"][k] for k in "abc"] for s in STABILITY_CLASSES])
+        z = np.array([[rows[s]["sigma_z"][k] for k in "abc"] for s in STABILITY_CLASSES])
+        return SigmaScheme(f"briggs_{land_type}", "briggs", y, z)
+    rows = {r["stability"]: r for r in dispersion["pasquill_gifford"]}
+    y = np.array([[rows[s]["sigma_y"]["c"], rows[s]["sigma_y"]["d"]] for s in STABILITY_CLASSES])
+    bands = tuple(tuple(map(tuple, rows[s]["sigma_z_bands"])) for s in STABILITY_CLASSES)
+    return SigmaScheme("pasquill_gifford", "pasquill_gifford", y, z_bands=bands)
+
+
+def wind_exponents(dispersion: dict, land_type: str) -> np.ndarray:
+    """Power-law wind-profile exponents p for classes A..F."""
+    rows = {r["stability"]: r for r in dispersion["wind_exponent"]}
+    return np.array([float(rows[s][land_type]) for s in STABILITY_CLASSES])
+
+
+def load_dispersion(folder: Path | None = None) -> dict:
+    """The dispersion table alone (checked), for users of the physics without a scenario."""
+    path = (Path(folder) if folder is not None else config_dir()) / TABLE_FILES["dispersion"][0]
+    return validate_table("dispersion", _read_toml(path), path.name)
+
+
+def default_reduction_percent(technique: dict) -> float:
+    """Reduction used when a scenario states none [%]: the lower end of the published range.
+
+    The cautious reading of a range: a higher figure is the user's claim, to be stated with its
+    basis (``reduction_percent`` with ``reduction_basis``) and checked by ``siting verify``.
+    """
+    return float(technique["reduction_percent_min"])
+
+
+def is_claimed_reduction(reduction_percent: float | None, technique: dict) -> bool:
+    """Whether a stated reduction lies above the range's lower end: the user's claim, shown with
+    its basis and raised by ``siting verify`` (None, no stated figure, is no claim)."""
+    return reduction_percent is not None and reduction_percent > default_reduction_percent(
+        technique
+    )
+
+
+def load_tables(folder: Path | None = None) -> Tables:
+    """Read and check every lookup table from ``folder`` (default: the bundled config/)."""
+    folder = Path(folder) if folder is not None else config_dir()
+    data, hashes = {}, {}
+    for name, (filename, _) in TABLE_FILES.items():
+        path = folder / filename
+        if not path.is_file():
+            raise InputFileError(f"{path}: lookup table not found")
+        hashes[filename] = hashlib.sha256(path.read_bytes()).hexdigest()
+        data[name] = (_read_toml(path), path)
+
+    checked = {name: validate_table(name, raw, path.name) for name, (raw, path) in data.items()}
+    factors = checked["emission_factors"]["factor"]
+    loads = checked["critical_loads"]["habitat"]
+    levels = checked["critical_levels"]["level"]
+    velocities = checked["deposition_velocities"]["land_cover"]
+    land_covers = {r["id"] for r in velocities}
+    for i, row in enumerate(loads, start=1):
+        if row["land_cover"] not in land_covers:
+            raise InputError(
+                f'critical_loads.toml, [[habitat]] row {i} ("{row["id"]}"): '
+                f'land_cover "{row["land_cover"]}" is not in '
+                f"deposition_velocities.toml{suggest(row['land_cover'], land_covers)}"
+            )
+    for needed in ("lichens_bryophytes", "higher_plants"):
+        if needed not in {r["id"] for r in levels}:
+            raise InputError(
+                f'critical_levels.toml: missing level "{needed}" (a [[level]] row '
+                f'with id = "{needed}")'
+            )
+    return Tables(
+        folder=folder,
+        emission_factors=factors,
+        abatement={r["id"]: r for r in checked["abatement"]["technique"]},
+        critical_loads={r["id"]: r for r in loads},
+        critical_levels={r["id"]: r for r in levels},
+        deposition_velocities={r["id"]: r for r in velocities},
+        thresholds=checked["thresholds"]["tier"],
+        dispersion=checked["dispersion"],
+        files_sha256=hashes,
+        emission_factor_uncertainty=checked["emission_factors"].get("uncertainty"),
+    )

@@ -1,0 +1,314 @@
+"""The placement search: where on the holding a new house does least harm (``siting place``).
+
+Wires the adapters to the placement arithmetic: reads the holding boundary and exclusion layers,
+lays candidate positions where the house's footprint fits inside the allowed area, computes the
+house's unit-emission field once as an offset kernel (placement.PolarKernel) and reads every
+candidate's site maxima off it. Figures per position: the worst share of critical level and
+load over all sites (with the other sources' contribution when in-combination is asked), the
+reduction an abatement technique would need, and the most animal places that pass unabated and
+with each abatement option of config/abatement.toml.
+
+In-combination: the other sources' contribution at each site is its maximum over the site, added
+to the house's maximum there; the two maxima may lie at different points, so the sum is an upper
+bound (cautious).
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from siting.dispersion.placement import (
+    PolarKernel,
+    max_places,
+    required_reduction_percent,
+    share_of_threshold,
+    site_maxima,
+)
+from siting.errors import InputError
+from siting.output.grids import GridSpec
+from siting.physics.constants import KG_YR_TO_G_S, UG_NH3_M2_S_TO_KG_N_HA_YR
+from siting.readers.habitats import read_vector_layer, site_outline_points
+from siting.readers.scenario import Scenario, load_scenario
+from siting.readers.tables import default_reduction_percent
+from siting.runs.screen import BOUNDARY_SPACING_M, Prepared, _source_elements, prepare
+
+MAX_CANDIDATES = 200_000
+
+
+@dataclass
+class PlaceResult:
+    """Everything a placement search produced, in memory."""
+
+    prepared: Prepared
+    house_id: str
+    positions: pd.DataFrame
+    grid: GridSpec
+    suitability_pct_load: np.ndarray
+    share_of_threshold: np.ndarray  # same grid: worst share of a site's threshold
+    allowed_area: object  # shapely geometry
+    holding: object  # shapely geometry
+    options: list[dict]
+    by_site: dict[str, np.ndarray]  # per position (ranked order) and site: pct_level, pct_load
+    warnings: list[str] = field(default_factory=list)
+    timings_s: dict = field(default_factory=dict)
+
+
+def _read_polygons(path: Path, layer: str | None, crs: str, what: str):
+    """A layer's geometries as one valid geometry in ``crs``, and the layer itself."""
+    import shapely
+
+    gdf = read_vector_layer(path, layer, what)
+    geoms = gdf.to_crs(crs).geometry
+    return shapely.make_valid(shapely.union_all(geoms.to_numpy())), gdf
+
+
+def _allowed_area(scenario: Scenario, house_id: str, prep: Prepared, warnings: list[str]):
+    import shapely
+
+    cfg = scenario.holding
+    holding, gdf = _read_polygons(cfg.file, cfg.layer, scenario.crs, "holding.file")
+    if not set(gdf.geometry.geom_type) <= {"Polygon", "MultiPolygon"}:
+        raise InputError(
+            f"holding.file {cfg.file.name}: the holding boundary must be polygons, "
+            f"got {', '.join(sorted(set(gdf.geometry.geom_type)))}"
+        )
+    if holding.area <= 0:
+        raise InputError(f"holding.file {cfg.file.name}: the boundary encloses no area")
+    allowed = holding.buffer(-cfg.boundary_buffer_m) if cfg.boundary_buffer_m else holding
+    for i, ex in enumerate(cfg.exclusion, start=1):
+        zone, _ = _read_polygons(ex.file, ex.layer, scenario.crs, f"holding.exclusion #{i}")
+        allowed = allowed.difference(zone.buffer(ex.buffer_m) if ex.buffer_m else zone)
+    if cfg.min_distance_to_existing_m > 0:
+        keep_off = [
+            shape
+            for src, (_, shape) in zip(
+                scenario.sources, (_source_elements(s) for s in scenario.sources)
+            )
+            if src.role == "existing" and src.id != house_id
+        ]
+        if keep_off:
+            allowed = allowed.difference(
+                shapely.union_all(keep_off).buffer(cfg.min_distance_to_existing_m)
+            )
+    if allowed.is_empty or allowed.area <= 0:
+        raise InputError(
+            "holding: no allowed area left after the boundary buffer, exclusion "
+            "zones and distance to existing houses; relax one of them"
+        )
+    return holding, allowed
+
+
+def _candidates(allowed, house_shape, spacing_m: float, house_id: str):
+    """Candidate centres on a spacing grid where the house footprint fits in the allowed area."""
+    import shapely
+    from shapely import affinity
+
+    minx, miny, maxx, maxy = allowed.bounds
+    west = math.floor(minx / spacing_m) * spacing_m
+    north = math.ceil(maxy / spacing_m) * spacing_m
+    n_cols = max(1, int(math.ceil((maxx - west) / spacing_m)))
+    n_rows = max(1, int(math.ceil((north - miny) / spacing_m)))
+    if n_cols * n_rows > MAX_CANDIDATES:
+        raise InputError(
+            f"holding.spacing_m = {spacing_m:g} gives {n_cols * n_rows:,} candidate "
+            f"positions (limit {MAX_CANDIDATES:,}); use a coarser spacing"
+        )
+    xs = west + (np.arange(n_cols) + 0.5) * spacing_m
+    ys = north - (np.arange(n_rows) + 0.5) * spacing_m
+    gx, gy = np.meshgrid(xs, ys)
+    cx, cy = gx.ravel(), gy.ravel()
+    inside = shapely.contains_xy(allowed, cx, cy)
+    cx, cy = cx[inside], cy[inside]
+    if house_shape.geom_type != "Point" and cx.size:
+        centre = house_shape.centroid
+        shapes = [
+            affinity.translate(house_shape, x - centre.x, y - centre.y) for x, y in zip(cx, cy)
+        ]
+        fits = shapely.contains(allowed, np.array(shapes, dtype=object))
+        cx, cy = cx[fits], cy[fits]
+    if cx.size == 0:
+        raise InputError(
+            f'source "{house_id}": the house does not fit anywhere in the allowed '
+            "area at this spacing (check its width_m/length_m, the buffers and "
+            "exclusion zones)"
+        )
+    grid = GridSpec(west, north, spacing_m, n_cols, n_rows, "")
+    col = np.round((cx - west) / spacing_m - 0.5).astype(int)
+    row = np.round((north - cy) / spacing_m - 0.5).astype(int)
+    return cx, cy, grid, row, col
+
+
+def _house_of(scenario: Scenario, house_id: str):
+    """The source the search moves, refused without a [holding] or an unknown id."""
+    if scenario.holding is None:
+        raise InputError(
+            f"{scenario.path.name if scenario.path else 'scenario'}: "
+            "`siting place` needs a [holding] table with the boundary file"
+        )
+    ids = [s.id for s in scenario.sources]
+    if house_id not in ids:
+        raise InputError(f'--house "{house_id}": no such source (sources: {", ".join(ids)})')
+    return scenario.sources[ids.index(house_id)]
+
+
+def _unit_site_maxima(prep: Prepared, house_id: str, elements0, cx, cy, px, py, p_site):
+    """Each site's maximum concentration [ug m-3 per g s-1] from the house at each candidate
+    position: the house's unit field as a kernel of offsets, wide enough for every pair."""
+    corners = np.array(
+        [[cx.min(), cy.min()], [cx.min(), cy.max()], [cx.max(), cy.min()], [cx.max(), cy.max()]]
+    )
+    reach = np.hypot(px[:, None] - corners[None, :, 0], py[:, None] - corners[None, :, 1]).max()
+    min_radius = min(e.min_distance_m for e in elements0)
+    radius, bearing, ox, oy = PolarKernel.offsets(min_radius, reach * 1.02 + 10.0)
+    kernel = PolarKernel(
+        radius, bearing, prep.unit_concentration_ug_m3(house_id, elements0, ox, oy)
+    )
+    n_sites = len(prep.sites)
+    return site_maxima(kernel, cx, cy, px, py, p_site, n_sites), int(ox.size)
+
+
+def _other_sources_ug_m3(prep: Prepared, house_id: str, px, py, p_site) -> np.ndarray:
+    """Each site's maximum concentration [ug m-3] from the other sources (in combination):
+    every source but the house and those removed."""
+    other_conc = np.zeros(len(prep.sites))
+    for src, emission_g_s in zip(prep.scenario.sources, prep.sources["emission_g_s"]):
+        if src.id == house_id or src.role == "removed" or emission_g_s <= 0:
+            continue
+        elements, _ = _source_elements(src)
+        field_ug = emission_g_s * prep.unit_concentration_ug_m3(src.id, elements, px, py)
+        np.maximum.at(other_conc, p_site, field_ug)
+    return other_conc
+
+
+def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy, warnings):
+    """The candidate positions with their worst sites, required reduction, most places and
+    whether they pass as described, best first; and the per-site % of level and load (rows
+    in the table's order) and each position's largest share of its threshold."""
+    sites = prep.sites
+    src_row = prep.sources.set_index("source_id").loc[house.id]
+    described_g_s = float(src_row["emission_g_s"])
+    unabated_g_s = float(src_row["nh3_unabated_kg_yr"]) * KG_YR_TO_G_S
+    level = sites["critical_level_ug_m3"].to_numpy()
+    load = sites["critical_load_used_kg_n_ha_yr"].to_numpy()
+    vd = sites["deposition_velocity_m_s"].to_numpy()
+    threshold = sites["threshold_percent"].to_numpy()
+
+    def shares(emission_g_s, extra_conc=0.0, unit=unit_conc):
+        conc = unit * emission_g_s + extra_conc
+        pct_level = 100.0 * conc / level
+        pct_load = 100.0 * conc * vd * UG_NH3_M2_S_TO_KG_N_HA_YR / load
+        return pct_level, pct_load, share_of_threshold(pct_level, pct_load, threshold)
+
+    _, _, other_share = shares(0.0, other_conc, unit=np.zeros(len(sites)))
+    pct_level, pct_load, share = shares(described_g_s, other_conc)
+    _, _, unabated_share = shares(unabated_g_s)
+    names = sites["name"].to_numpy()
+    rows = np.arange(cx.size)
+    worst_load_site = pct_load.argmax(axis=1)
+    limiting = share.argmax(axis=1)
+    table = pd.DataFrame(
+        {
+            "x": cx,
+            "y": cy,
+            "worst_site": names[worst_load_site],
+            "worst_pct_load": pct_load[rows, worst_load_site],
+            "worst_pct_level": pct_level.max(axis=1),
+            "required_reduction_percent": required_reduction_percent(unabated_share, other_share),
+        }
+    )
+    if house.places is not None:
+        table["max_places_unabated"] = max_places(house.places, unabated_share, other_share)
+        for option in prep.tables.abatement.values():
+            table[f"max_places_{option['id']}"] = max_places(
+                house.places, unabated_share, other_share, default_reduction_percent(option)
+            )
+    else:
+        warnings.append(
+            f'source "{house.id}" gives nh3_kg_per_year, not places: the '
+            "max-places columns are left out"
+        )
+    table["limiting_site"] = names[limiting]
+    table["limiting_share_of_threshold"] = share[rows, limiting]
+    table["passes_as_described"] = share[rows, limiting] <= 1.0
+    order = np.lexsort(
+        (table["worst_pct_load"].to_numpy(), table["limiting_share_of_threshold"].to_numpy())
+    )
+    table = table.iloc[order].reset_index(drop=True)
+    by_site = {"pct_level": pct_level[order], "pct_load": pct_load[order]}
+    return table, by_site, pct_load.max(axis=1), share.max(axis=1)
+
+
+def place(
+    scenario: Scenario | str | Path,
+    house_id: str,
+    *,
+    spacing_m: float | None = None,
+    in_combination: bool | None = None,
+) -> PlaceResult:
+    """Search the holding for positions of source ``house_id`` (its x/y are ignored).
+
+    The steps: the house and the allowed area (:func:`_allowed_area`), candidate positions,
+    each site's maximum from the house anywhere (:func:`_unit_site_maxima`) and from the other
+    sources (:func:`_other_sources_ug_m3`), and the table of positions (:func:`_position_table`).
+    """
+    clock = {"start": time.perf_counter()}
+    if not isinstance(scenario, Scenario):
+        scenario = load_scenario(scenario)
+    house = _house_of(scenario, house_id)
+    cfg = scenario.holding
+    spacing_m = spacing_m or cfg.spacing_m
+    in_combination = cfg.in_combination if in_combination is None else in_combination
+    prep = prepare(scenario)
+    warnings = list(prep.warnings)
+    holding, allowed = _allowed_area(scenario, house_id, prep, warnings)
+    origin_house = house.model_copy(update={"x": 0.0, "y": 0.0})
+    elements0, shape0 = _source_elements(origin_house)
+    cx, cy, grid, row, col = _candidates(allowed, shape0, spacing_m, house_id)
+    grid = GridSpec(grid.west_m, grid.north_m, grid.cell_m, grid.n_cols, grid.n_rows, scenario.crs)
+    p_site, px, py = site_outline_points(prep.sites.geometry, min(spacing_m, BOUNDARY_SPACING_M))
+    clock["inputs"] = time.perf_counter()
+
+    unit_conc, kernel_points = _unit_site_maxima(prep, house_id, elements0, cx, cy, px, py, p_site)
+    clock["kernel"] = time.perf_counter()
+
+    other_conc = (
+        _other_sources_ug_m3(prep, house_id, px, py, p_site)
+        if in_combination
+        else np.zeros(len(prep.sites))
+    )
+    table, by_site, worst_load, worst_share = _position_table(
+        prep, house, unit_conc, other_conc, cx, cy, warnings
+    )
+    surface = np.full((grid.n_rows, grid.n_cols), np.nan)
+    surface[row, col] = worst_load
+    share_surface = np.full((grid.n_rows, grid.n_cols), np.nan)
+    share_surface[row, col] = worst_share
+    clock["assessment"] = time.perf_counter()
+    timings = {
+        "inputs_s": clock["inputs"] - clock["start"],
+        "kernel_s": clock["kernel"] - clock["inputs"],
+        "assessment_s": clock["assessment"] - clock["kernel"],
+        "positions": int(cx.size),
+        "site_points": int(px.size),
+        "kernel_points": kernel_points,
+    }
+    return PlaceResult(
+        prep,
+        house_id,
+        table,
+        grid,
+        surface,
+        share_surface,
+        allowed,
+        holding,
+        list(prep.tables.abatement.values()),
+        by_site,
+        warnings,
+        timings,
+    )

@@ -1,0 +1,1042 @@
+"""A regulator's spot-check of a submitted screening run (``siting verify``).
+
+Given an output folder of ``siting screen`` (or a scenario plus the applicant's sites table):
+1. integrity: every input and table recorded in run.json is found in the folder's inputs/ with
+   the same SHA-256;
+2. re-run: the packed scenario is assessed again with this version and every site and receptor
+   figure is compared with the submitted one at a stated tolerance; each difference says which
+   changed input (or version) explains it, when one does;
+3. plausibility review: each finding gives its reason and the published range or table value it
+   is judged against (this version's config/ tables, which cite their sources);
+4. sensitivity, both ways: the deposition-velocity and critical-load ranges, critical level 1
+   and 3 ug/m3, depletion on and off, the wind rule, claimed abatement at its lower end, the
+   emission factors' uncertainty and other weather years give each site's range of % of
+   critical load and level and whether its verdict flips.
+
+The arithmetic of the comparisons lives here; reading and writing is done by the loaders it
+calls (scenario, tables) and by verify_report.py.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import math
+import os
+from dataclasses import dataclass, field
+from datetime import UTC
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from siting.errors import InputError, InputFileError, SitingError
+from siting.output.files import sha256_of, spreadsheet_text
+from siting.readers.tables import default_reduction_percent, is_claimed_reduction
+from siting.runs.screen import outlet_rise
+from siting.runs.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
+
+#: Site figures compared between the submission and the re-run.
+SITE_FIGURES = [
+    "critical_level_ug_m3",
+    "critical_load_used_kg_n_ha_yr",
+    "threshold_percent",
+    "pc_conc_max_ug_m3",
+    "pc_dep_max_kg_n_ha_yr",
+    "pc_pct_level",
+    "pc_pct_load",
+    "net_conc_max_ug_m3",
+    "net_dep_max_kg_n_ha_yr",
+    "incomb_conc_max_ug_m3",
+    "incomb_dep_max_kg_n_ha_yr",
+    "pec_dep_kg_n_ha_yr",
+]
+RECEPTOR_FIGURES = ["conc_ug_m3", "dep_kg_n_ha_yr"]
+RELATIVE_TOLERANCE = 1e-3
+ABSOLUTE_TOLERANCE = 1e-9
+TOLERANCE_TEXT = (
+    "Figures agree when they differ by at most 0.1 % (relative) or 1e-9 (absolute). The tables "
+    "are written to 6 significant figures (rounding below 5e-6 relative), so 0.1 % leaves room "
+    "for differences between library versions and platforms while any edit of a reported "
+    "figure at its third significant digit is caught."
+)
+
+#: Screening search distances by designation tier [m]: European sites 10 km, national 5 km,
+#: local 2 km (EA farm-permit decision documents, e.g. EPR/WP3034VF; confirmed).
+SEARCH_DISTANCE_M = {"international": 10_000.0, "national": 5_000.0, "local": 2_000.0}
+
+#: Ranges below are common practice without a published source; findings say so.
+HOUSE_HEIGHT_RANGE_M = (1.0, 15.0)
+EXIT_VELOCITY_MAX_M_S = 15.0
+STATION_DISTANCE_M = (30_000.0, 60_000.0)  # medium, high
+SEVERITY_ORDER = {"high": 0, "medium": 1, "low": 2, "info": 3}
+
+
+@dataclass
+class Finding:
+    """One result of the review: code, severity, subject, message and its evidence."""
+
+    code: str
+    severity: str
+    subject: str
+    message: str
+    evidence: dict = field(default_factory=dict)
+
+    def as_dict(self) -> dict:
+        return dataclasses.asdict(self)
+
+
+@dataclass
+class Submission:
+    """What was submitted: its folder, run record, tables and the packed scenario."""
+
+    folder: Path
+    record: dict | None
+    sites: pd.DataFrame
+    receptors: pd.DataFrame | None
+    scenario_path: Path
+    moved: dict[str, Path]
+    config_dir: Path | None
+
+
+@dataclass
+class VerifyResult:
+    """Everything a verification found (see module docstring)."""
+
+    submission: Submission
+    integrity: list[dict]
+    differences: list[dict]
+    findings: list[Finding]
+    sensitivity: pd.DataFrame
+    sensitivity_summary: pd.DataFrame
+    submitted_version: str
+    this_version: str
+
+    @property
+    def consistent(self) -> bool:
+        return (
+            not self.differences
+            and not any(f.severity == "high" for f in self.findings)
+            and all(row["status"] == "ok" for row in self.integrity)
+        )
+
+    @property
+    def exit_code(self) -> int:
+        return 0 if self.consistent else 1
+
+
+def _read_csv(path: Path, what: str) -> pd.DataFrame:
+    try:
+        table = pd.read_csv(path, dtype={"id": str, "site_id": str, "name": str})
+    except FileNotFoundError as exc:
+        raise InputFileError(f"{what}: {path} not found") from exc
+    except Exception as exc:  # pandas raises many types
+        raise InputError(f"{what}: {path.name} cannot be read as CSV: {exc}") from exc
+    for col in table.columns:  # text made spreadsheet-safe by outputs.write_csv, read back
+        if pd.api.types.is_object_dtype(table[col]) or pd.api.types.is_string_dtype(table[col]):
+            table[col] = table[col].map(spreadsheet_text)
+    return table
+
+
+def load_submission(path: Path, results: Path | None = None) -> Submission:
+    """Read a submission: an output folder of `screen`, or a scenario file plus a sites table."""
+    path = Path(path)
+    if path.is_file():
+        if results is None:
+            raise InputError(
+                f"{path.name}: a scenario file needs the applicant's sites table "
+                "(--results sites.csv)"
+            )
+        return Submission(
+            path.parent, None, _read_csv(results, "--results"), None, path.resolve(), {}, None
+        )
+    if not path.is_dir():
+        raise InputFileError(f"{path}: no such submission folder or scenario file")
+    record_path = path / "run.json"
+    try:
+        record = json.loads(record_path.read_text(encoding="utf-8"))
+    except FileNotFoundError as exc:
+        raise InputFileError(
+            f"{path}: no run.json; is this an output folder of `siting screen`?"
+        ) from exc
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"{record_path}: not readable JSON: {exc}") from exc
+    if not isinstance(record, dict):
+        raise InputError(f"{record_path}: not a run record (a JSON object expected)")
+    package = record.get("package")
+    if not isinstance(package, dict) or "files" not in package:
+        raise InputError(
+            f"{record_path}: no package map; the folder was written by a version "
+            "that did not pack its inputs (re-run `siting screen`)"
+        )
+    inputs = path / "inputs"
+    _check_record(record, record_path, inputs)
+    files = package["files"]
+    if "scenario" not in files:
+        raise InputError(f"{record_path}: the package map names no scenario")
+    original_folder = Path(record.get("inputs", {}).get("scenario", {}).get("path", ".")).parent
+    moved: dict[str, Path] = {}
+
+    def move(original: str, now: Path) -> None:
+        """Where the packed scenario will look for a file it named, and where it is now: an
+        absolute name stays as written; a relative one now resolves against inputs/."""
+        original_path = Path(original).resolve()
+        moved[str(original_path)] = now.resolve()
+        relative = os.path.relpath(original_path, original_folder.resolve())
+        moved[str(Path(os.path.normpath(scenario_folder / relative)))] = now.resolve()
+
+    scenario_folder = (inputs / files["scenario"]).resolve().parent
+    for key, relative in files.items():
+        original = record.get("inputs", {}).get(key, {}).get("path")
+        if original:
+            move(original, inputs / relative)
+    config_dir = inputs / package.get("config", "_config")
+    for entry in record.get("config_tables", {}).values():  # the tables' own folder, packed
+        move(str(Path(entry["path"]).parent), config_dir)
+        break
+    sites = _read_csv(results if results else path / "sites.csv", "sites table")
+    receptors = (
+        _read_csv(path / "receptors.csv", "receptors table")
+        if (path / "receptors.csv").exists()
+        else None
+    )
+    return Submission(
+        path, record, sites, receptors, (inputs / files["scenario"]).resolve(), moved, config_dir
+    )
+
+
+def _inside(folder: Path, relative, what: str, record_path: Path) -> None:
+    """A path named by a submitted record must stay inside the package's inputs/ folder."""
+    if not isinstance(relative, str) or not relative.strip():
+        raise InputError(f"{record_path}: {what} must be a file name, got {relative!r}")
+    target = (folder / relative).resolve()
+    if Path(relative).is_absolute() or not (
+        target == folder.resolve() or folder.resolve() in target.parents
+    ):
+        raise InputError(
+            f"{record_path}: {what} {relative!r} points outside the package "
+            f"({folder.name}/); a submission is read only inside itself"
+        )
+
+
+def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
+    """A submitted run.json is untrusted: every entry the verification uses is of the expected
+    kind, and every path it names stays inside the package (one InputError line if not)."""
+    package = record["package"]
+    files = package["files"]
+    if not isinstance(files, dict):
+        raise InputError(f"{record_path}: package.files must be a map of input key to file")
+    for key, relative in files.items():
+        _inside(inputs, relative, f"package.files.{key}", record_path)
+    _inside(inputs, package.get("config", "_config"), "package.config", record_path)
+    # hashed files: inputs (anywhere, by key), config tables (in inputs/_config), outputs (in
+    # the submission folder, by their relative path)
+    within = {"inputs": None, "config_tables": inputs / "_config", "outputs": record_path.parent}
+    for section, folder in within.items():
+        entries = record.get(section, {})
+        if not isinstance(entries, dict):
+            raise InputError(
+                f"{record_path}: {section} must be a map, got {type(entries).__name__}"
+            )
+        for key, entry in entries.items():
+            if not isinstance(entry, dict) or not isinstance(entry.get("sha256"), str):
+                raise InputError(f"{record_path}: {section}.{key} needs a sha256 text")
+            if "path" in entry and not isinstance(entry["path"], str):
+                raise InputError(f"{record_path}: {section}.{key}.path must be text")
+            if folder is not None:
+                _inside(folder, key, f"{section}.{key}", record_path)
+
+
+def check_integrity(sub: Submission) -> list[dict]:
+    """Each recorded input and table against its packed copy: ok, changed or missing."""
+    if sub.record is None:
+        return []
+    rows = []
+    files = sub.record["package"]["files"]
+    for key, entry in sub.record.get("inputs", {}).items():
+        packed = sub.folder / "inputs" / files.get(key, "")
+        status, actual = "missing", None
+        if key in files and packed.is_file():
+            actual = sha256_of(packed)
+            status = "ok" if actual == entry["sha256"] else "changed"
+        rows.append(
+            {
+                "key": key,
+                "file": f"inputs/{files.get(key, '?')}",
+                "expected_sha256": entry["sha256"],
+                "actual_sha256": actual,
+                "status": status,
+            }
+        )
+    for name, entry in sub.record.get("config_tables", {}).items():
+        packed = sub.config_dir / name
+        actual = sha256_of(packed) if packed.is_file() else None
+        rows.append(
+            {
+                "key": f"table {name}",
+                "file": f"inputs/_config/{name}",
+                "expected_sha256": entry["sha256"],
+                "actual_sha256": actual,
+                "status": "missing"
+                if actual is None
+                else ("ok" if actual == entry["sha256"] else "changed"),
+            }
+        )
+    return rows
+
+
+def check_outputs(sub: Submission) -> list[Finding]:
+    """Each output the run recorded (run.json "outputs") against the file in the folder: an
+    edited, truncated or deleted output is a finding (records of older versions have none)."""
+    if sub.record is None or "outputs" not in sub.record:
+        return []
+    findings = []
+    for relative, entry in sub.record["outputs"].items():
+        path = sub.folder / relative
+        if not path.is_file():
+            findings.append(
+                Finding(
+                    "OUTPUT_MISSING",
+                    "high",
+                    f"output {relative}",
+                    f"{relative} is missing; the run wrote it",
+                    {},
+                )
+            )
+            continue
+        actual = sha256_of(path)
+        if actual != entry["sha256"]:
+            findings.append(
+                Finding(
+                    "OUTPUT_CHANGED",
+                    "high",
+                    f"output {relative}",
+                    f"{relative} differs from the file the run wrote (SHA-256"
+                    + (
+                        f"; {path.stat().st_size} bytes, written {entry['bytes']}"
+                        if isinstance(entry.get("bytes"), int)
+                        else ""
+                    )
+                    + "): edited or truncated",
+                    {"expected_sha256": entry["sha256"], "actual_sha256": actual},
+                )
+            )
+    return findings
+
+
+def _differs(a, b) -> tuple[bool, float | None]:
+    if isinstance(a, str) or isinstance(b, str):
+        return (str(a) != str(b)), None
+    a, b = float(a), float(b)
+    if math.isnan(a) and math.isnan(b):
+        return False, None
+    if math.isnan(a) != math.isnan(b):
+        return True, None
+    scale = max(abs(a), abs(b))
+    rel = abs(a - b) / scale if scale > 0 else 0.0
+    return abs(a - b) > max(RELATIVE_TOLERANCE * scale, ABSOLUTE_TOLERANCE), rel
+
+
+def compare_figures(sub: Submission, result, explanation: str) -> list[dict]:
+    """Submitted vs recomputed figures: one row per figure beyond the tolerance."""
+    rows = []
+    recomputed = pd.DataFrame(result.sites.drop(columns="geometry")).set_index("name")
+    submitted = sub.sites.set_index("name") if "name" in sub.sites else sub.sites
+    for name in submitted.index:
+        if name not in recomputed.index:
+            rows.append(
+                {
+                    "table": "sites",
+                    "id": str(name),
+                    "column": "(site)",
+                    "submitted": "present",
+                    "recomputed": "absent",
+                    "relative_difference": None,
+                    "explained_by": explanation,
+                }
+            )
+            continue
+        for column in [*SITE_FIGURES, "verdict"]:
+            if column not in submitted.columns or column not in recomputed.columns:
+                continue
+            a, b = submitted.at[name, column], recomputed.at[name, column]
+            differs, rel = _differs(a, b)
+            if differs:
+                rows.append(
+                    {
+                        "table": "sites",
+                        "id": str(name),
+                        "column": column,
+                        "submitted": a,
+                        "recomputed": b,
+                        "relative_difference": rel,
+                        "explained_by": explanation,
+                    }
+                )
+    for name in recomputed.index.difference(submitted.index):
+        rows.append(
+            {
+                "table": "sites",
+                "id": str(name),
+                "column": "(site)",
+                "submitted": "absent",
+                "recomputed": "present",
+                "relative_difference": None,
+                "explained_by": explanation,
+            }
+        )
+    if sub.receptors is not None and len(sub.receptors):
+        mine = result.receptors.set_index("id")
+        for rid, row in sub.receptors.set_index("id").iterrows():
+            if rid not in mine.index:
+                continue
+            for column in RECEPTOR_FIGURES:
+                differs, rel = _differs(row[column], mine.at[rid, column])
+                if differs:
+                    rows.append(
+                        {
+                            "table": "receptors",
+                            "id": str(rid),
+                            "column": column,
+                            "submitted": row[column],
+                            "recomputed": mine.at[rid, column],
+                            "relative_difference": rel,
+                            "explained_by": explanation,
+                        }
+                    )
+    return rows
+
+
+def _explanation(integrity: list[dict], submitted_version: str, this_version: str) -> str:
+    changed = [row["key"] for row in integrity if row["status"] != "ok"]
+    if changed:
+        return "input(s) changed since the run (SHA-256 differs from run.json): " + ", ".join(
+            changed
+        )
+    if submitted_version and submitted_version != this_version:
+        return f"the run used siting {submitted_version}; this is siting {this_version}"
+    return ""
+
+
+def review(
+    sub: Submission,
+    result,
+    this_tables,
+    reference_habitats: Path | None = None,
+    name_field: str | None = None,
+) -> list[Finding]:
+    """Plausibility findings, each judged against this version's tables or a stated range."""
+    findings: list[Finding] = []
+    scenario = result.scenario
+    used = result.tables
+    for src in scenario.sources:
+        findings += _source_findings(src, used, this_tables)
+    findings += _table_findings(used, this_tables)
+    findings += _weather_findings(scenario, result)
+    findings += _grid_findings(scenario, result)
+    if reference_habitats is not None:
+        findings += _missing_sites(scenario, result, reference_habitats, name_field)
+    return sorted(findings, key=lambda f: SEVERITY_ORDER.get(f.severity, 9))
+
+
+def _source_findings(src, used, this_tables) -> list[Finding]:
+    """One source's findings, in this order: its emission (factor or direct figure), its
+    abatement, then its release (height, plume rise, exit velocity)."""
+    subject = f'source "{src.id}"'
+    return (
+        _emission_findings(src, subject, used, this_tables)
+        + _abatement_findings(src, subject, this_tables)
+        + _release_findings(src, subject)
+    )
+
+
+def _emission_findings(src, subject: str, used, this_tables) -> list[Finding]:
+    """A source's emission factor against this version's table (missing row, or the run's factor
+    below it), or an emission given directly, whose basis is to be asked for."""
+    if src.livestock and src.housing:
+        mine = [
+            r
+            for r in this_tables.emission_factors
+            if r["livestock"] == src.livestock and r["housing"] == src.housing
+        ]
+        theirs = [
+            r
+            for r in used.emission_factors
+            if r["livestock"] == src.livestock and r["housing"] == src.housing
+        ]
+        if not mine:
+            return [
+                Finding(
+                    "FACTOR_NOT_IN_TABLE",
+                    "medium",
+                    subject,
+                    f"{src.livestock}/{src.housing} has no row in this "
+                    "version's emission-factor table",
+                    {},
+                )
+            ]
+        if theirs and theirs[0]["nh3_kg_per_place_yr"] < mine[0]["nh3_kg_per_place_yr"]:
+            return [
+                Finding(
+                    "FACTOR_BELOW_TABLE",
+                    "high",
+                    subject,
+                    f"emission factor {theirs[0]['nh3_kg_per_place_yr']:g} kg NH3/place/yr is "
+                    f"below the table value {mine[0]['nh3_kg_per_place_yr']:g} for "
+                    f"{src.livestock}, {src.housing}",
+                    {
+                        "submitted_kg_per_place_yr": theirs[0]["nh3_kg_per_place_yr"],
+                        "table_kg_per_place_yr": mine[0]["nh3_kg_per_place_yr"],
+                        "source": mine[0]["source"],
+                    },
+                )
+            ]
+        return []
+    if src.nh3_kg_per_year is not None:
+        return [
+            Finding(
+                "EMISSION_GIVEN_DIRECTLY",
+                "low",
+                subject,
+                f"emission given directly ({src.nh3_kg_per_year:g} kg NH3/yr),"
+                " not derived from a factor and places: ask for its basis",
+                {"nh3_kg_per_year": src.nh3_kg_per_year},
+            )
+        ]
+    return []
+
+
+def _abatement_findings(src, subject: str, this_tables) -> list[Finding]:
+    """A source's abatement: its reduction (outside the published range, or claimed above the
+    range's lower end), then a treated share below 1 given without its derivation."""
+    if not src.abatement:
+        return []
+    findings = []
+    technique = this_tables.abatement.get(src.abatement)
+    finding = _reduction_finding(src, subject, technique)
+    if finding is not None:
+        findings.append(finding)
+    if src.treated_air_fraction is not None and src.treated_air_fraction < 1.0:
+        findings.append(
+            Finding(
+                "TREATED_SHARE_UNDERIVED",
+                "medium",
+                subject,
+                f"treated share {src.treated_air_fraction:g} given without its derivation "
+                "(give scrubber_design_share with an hourly record, or the ventilation "
+                "calculation behind it)",
+                {"treated_air_fraction": src.treated_air_fraction},
+            )
+        )
+    return findings
+
+
+def _reduction_finding(src, subject: str, technique: dict | None) -> Finding | None:
+    """The reduction a source uses (stated, else the technique's default) against the published
+    range of ``technique``: outside it is high; a claim above the lower end is medium with a
+    stated basis, high without one. None when the technique is unknown or nothing is found."""
+    if not technique:
+        return None
+    reduction = (
+        src.reduction_percent
+        if src.reduction_percent is not None
+        else default_reduction_percent(technique)
+    )
+    if reduction is not None and not (
+        technique["reduction_percent_min"] <= reduction <= technique["reduction_percent_max"]
+    ):
+        return Finding(
+            "REDUCTION_OUT_OF_RANGE",
+            "high",
+            subject,
+            f"{technique['name']}: {reduction:g} % reduction is outside the published "
+            f"range {technique['reduction_percent_min']:g}-"
+            f"{technique['reduction_percent_max']:g} %",
+            {
+                "reduction_percent": reduction,
+                "published_range_percent": f"{technique['reduction_percent_min']:g}-"
+                f"{technique['reduction_percent_max']:g}",
+                "source": technique["source"],
+            },
+        )
+    if is_claimed_reduction(src.reduction_percent, technique):
+        lo = default_reduction_percent(technique)
+        return Finding(
+            "REDUCTION_CLAIMED",
+            "medium" if src.reduction_basis else "high",
+            subject,
+            f"{technique['name']}: {src.reduction_percent:g} % claimed, above the "
+            f"published lower end {lo:g} % used by default; "
+            + (
+                f"stated basis: {src.reduction_basis}; check it"
+                if src.reduction_basis
+                else "no basis stated (reduction_basis): ask for the certificate or measurement"
+            ),
+            {
+                "reduction_percent": src.reduction_percent,
+                "lower_end_percent": lo,
+                "basis": src.reduction_basis or "",
+                "source": technique["source"],
+            },
+        )
+    return None
+
+
+def _release_findings(src, subject: str) -> list[Finding]:
+    """How a source releases its air: a house release height outside the usual range, plume
+    rise from an outlet clear of its building's wake, and an unusually fast exit velocity."""
+    findings = []
+    lo, hi = HOUSE_HEIGHT_RANGE_M
+    if src.kind in ("point", "volume") and not lo <= src.height_m <= hi:
+        findings.append(
+            Finding(
+                "RELEASE_HEIGHT_UNUSUAL",
+                "medium",
+                subject,
+                f"release height {src.height_m:g} m is unusual for a livestock house "
+                f"({lo:g}-{hi:g} m; common practice, no source)",
+                {"height_m": src.height_m, "usual_range_m": f"{lo:g}-{hi:g}"},
+            )
+        )
+    rise, rise_basis = outlet_rise(src)
+    if rise:
+        findings.append(
+            Finding(
+                "PLUME_RISE_CLAIMED",
+                "medium",
+                subject,
+                f"the outlet gets momentum plume rise as clear of its building's wake "
+                f"({rise_basis}); rise lowers nearby figures: check the building dimensions",
+                {
+                    "height_m": src.height_m,
+                    "building_height_m": src.building_height_m,
+                    "building_width_m": src.building_width_m,
+                    "source": "US EPA 1985 good-engineering-practice stack height, Hb + 1.5 L",
+                },
+            )
+        )
+    if src.exit_velocity_m_s and src.exit_velocity_m_s > EXIT_VELOCITY_MAX_M_S:
+        findings.append(
+            Finding(
+                "EXIT_VELOCITY_UNUSUAL",
+                "medium",
+                subject,
+                f"exit velocity {src.exit_velocity_m_s:g} m/s is above what house fans or "
+                f"scrubber outlets usually give (<= {EXIT_VELOCITY_MAX_M_S:g} m/s; common "
+                "practice, no source); plume rise lowers nearby figures",
+                {"exit_velocity_m_s": src.exit_velocity_m_s},
+            )
+        )
+    return findings
+
+
+def _table_findings(used, mine) -> list[Finding]:
+    findings = []
+    for key, row in used.critical_loads.items():
+        ref = mine.critical_loads.get(key)
+        if ref and row["critical_load_min_kg_n_ha_yr"] > ref["critical_load_min_kg_n_ha_yr"]:
+            findings.append(
+                Finding(
+                    "CRITICAL_LOAD_ABOVE_TABLE",
+                    "high",
+                    f'habitat "{key}"',
+                    f"critical load range starts at {row['critical_load_min_kg_n_ha_yr']:g}, above "
+                    f"the table's {ref['critical_load_min_kg_n_ha_yr']:g} kg N/ha/yr",
+                    {
+                        "published_range_kg_n_ha_yr": f"{ref['critical_load_min_kg_n_ha_yr']:g}-"
+                        f"{ref['critical_load_max_kg_n_ha_yr']:g}",
+                        "source": ref["source"],
+                    },
+                )
+            )
+    for key, row in used.deposition_velocities.items():
+        ref = mine.deposition_velocities.get(key)
+        if ref and row["deposition_velocity_m_s"] < ref["deposition_velocity_m_s"]:
+            findings.append(
+                Finding(
+                    "DEPOSITION_VELOCITY_BELOW_TABLE",
+                    "high",
+                    f'land cover "{key}"',
+                    f"deposition velocity {row['deposition_velocity_m_s']:g} m/s is below the "
+                    f"table's {ref['deposition_velocity_m_s']:g} m/s",
+                    {"table_m_s": ref["deposition_velocity_m_s"], "source": ref["source"]},
+                )
+            )
+    theirs = {t["id"]: t for t in used.thresholds}
+    for tier in mine.thresholds:
+        other = theirs.get(tier["id"])
+        if other and other["threshold_percent"] > tier["threshold_percent"]:
+            findings.append(
+                Finding(
+                    "THRESHOLD_ABOVE_DEFAULT",
+                    "medium",
+                    f'tier "{tier["id"]}"',
+                    f"screening threshold {other['threshold_percent']:g} % is above this version's "
+                    f"default {tier['threshold_percent']:g} % (defaults are to be replaced by the "
+                    "jurisdiction's; check which applies)",
+                    {"source": tier["source"]},
+                )
+            )
+    return findings
+
+
+def _weather_findings(scenario, result) -> list[Finding]:
+    """The weather behind the run: what its record allows to be checked (a frequency table
+    cannot be; an hourly record's length, calms and gaps can), then the station's distance."""
+    w = scenario.weather
+    if w.hourly is None:
+        findings = [
+            Finding(
+                "WEATHER_TABLE_UNVERIFIABLE",
+                "info",
+                "weather",
+                "a frequency table: its record length, station and calms cannot "
+                "be checked; ask for the hourly record behind it",
+                {},
+            )
+        ]
+    else:
+        findings = _hourly_record_findings(result.weather_summary)
+    return findings + _station_findings(scenario)
+
+
+def _hourly_record_findings(summary: dict) -> list[Finding]:
+    """An hourly record's length (under a year is high, under three low), share of calms (over
+    10 %) and of missing hours (over 5 %), from the run's weather summary."""
+    findings = []
+    years = float(summary.get("record_years", 0))
+    if years < 1.0:
+        findings.append(
+            Finding(
+                "WEATHER_SHORT",
+                "high",
+                "weather",
+                f"the hourly record covers {years:.2f} years; a long-term "
+                "mean needs at least one full year",
+                {"record_years": years},
+            )
+        )
+    elif years < 3.0:
+        findings.append(
+            Finding(
+                "WEATHER_FEW_YEARS",
+                "low",
+                "weather",
+                f"{years:.1f} year(s) of weather; several years (3-5) reduce "
+                "the year-to-year spread (common practice, no source)",
+                {"record_years": years},
+            )
+        )
+    calms = float(summary.get("calm_percent", 0.0))
+    if calms > 10.0:
+        findings.append(
+            Finding(
+                "WEATHER_MANY_CALMS",
+                "medium",
+                "weather",
+                f"{calms:.1f} % calms (over 10 %; common practice, no "
+                "source): results rest on the calm rule",
+                {"calm_percent": calms},
+            )
+        )
+    missing = float(summary.get("missing_percent", 0.0))
+    if missing > 5.0:
+        findings.append(
+            Finding(
+                "WEATHER_GAPS",
+                "medium",
+                "weather",
+                f"{missing:.1f} % of hours missing (over 5 %; common practice, no source)",
+                {"missing_percent": missing},
+            )
+        )
+    return findings
+
+
+def _station_findings(scenario) -> list[Finding]:
+    """The weather station's distance from the site (WGS84 geodesic): unknown without its
+    position, medium beyond STATION_DISTANCE_M's first figure, high beyond its second."""
+    w = scenario.weather
+    if w.station_latitude_deg is None or w.station_longitude_deg is None:
+        return [
+            Finding(
+                "WEATHER_STATION_UNKNOWN",
+                "info",
+                "weather",
+                "the weather station's position is not given "
+                "(weather.station_latitude_deg/longitude_deg): distance to the "
+                "site not checked",
+                {},
+            )
+        ]
+    from pyproj import Geod
+
+    from siting.runs.screen import site_lat_lon
+
+    lat, lon = site_lat_lon(scenario)
+    _, _, distance = Geod(ellps="WGS84").inv(
+        lon, lat, w.station_longitude_deg, w.station_latitude_deg
+    )
+    medium, high = STATION_DISTANCE_M
+    if distance > medium:
+        return [
+            Finding(
+                "WEATHER_FAR",
+                "high" if distance > high else "medium",
+                "weather",
+                f"the station is {distance / 1000:.0f} km from the "
+                f"site (over {medium / 1000:.0f} km; common practice, no "
+                "source)",
+                {"distance_km": round(distance / 1000, 1)},
+            )
+        ]
+    return []
+
+
+def _grid_findings(scenario, result) -> list[Finding]:
+    sites = result.sites
+    assessed = sites[sites["assessed"]]
+    if assessed.empty:
+        return []
+    nearest = float(assessed["distance_m"].min())
+    spacing = scenario.grid.spacing_m
+    if spacing > nearest / 10.0:
+        name = assessed.loc[assessed["distance_m"].idxmin(), "name"]
+        return [
+            Finding(
+                "GRID_COARSE",
+                "medium",
+                "grid",
+                f"grid spacing {spacing:g} m is coarse for the nearest site ({name}, "
+                f"{nearest:.0f} m away): at most a tenth of the distance resolves the "
+                "gradient (common practice, no source); site points soften this",
+                {"spacing_m": spacing, "nearest_site_m": round(nearest, 1)},
+            )
+        ]
+    return []
+
+
+def _missing_sites(scenario, result, reference: Path, name_field: str | None) -> list[Finding]:
+    import geopandas as gpd
+    import shapely
+
+    try:
+        ref = gpd.read_file(reference).to_crs(scenario.crs)
+    except Exception as exc:
+        raise InputError(f"--habitats {reference}: cannot read as a vector layer: {exc}") from exc
+    field_name = name_field or scenario.habitats.name_field
+    designation_field = scenario.habitats.designation_field
+    tier_of = {
+        d.strip().lower(): t["id"] for t in result.tables.thresholds for d in t["designations"]
+    }
+    installation = [s for s in scenario.sources if s.role in ("proposed", "existing")]
+    if not installation:
+        return []
+    centre = shapely.MultiPoint([(s.x, s.y) for s in installation])
+    submitted = shapely.union_all(result.sites.geometry.to_numpy())
+    findings = []
+    for row in ref.itertuples():
+        geom = row.geometry
+        if geom is None or geom.is_empty:
+            continue
+        tier = tier_of.get(str(getattr(row, designation_field, "")).strip().lower(), "local")
+        limit = SEARCH_DISTANCE_M.get(tier, 2_000.0)
+        distance = geom.distance(centre)
+        if distance > limit:
+            continue
+        overlap = geom.intersection(submitted).area / geom.area if geom.area > 0 else 0.0
+        if overlap < 0.5:
+            name = str(getattr(row, field_name, "?"))
+            findings.append(
+                Finding(
+                    "SITE_LEFT_OUT",
+                    "high",
+                    f'site "{name}"',
+                    f"{name} ({tier}) lies {distance:.0f} m from the installation, within the "
+                    f"{limit / 1000:g} km search distance, but is not in the submitted habitat layer",
+                    {
+                        "distance_m": round(distance, 1),
+                        "search_distance_m": limit,
+                        "source": "EA farm-permit decisions (e.g. EPR/WP3034VF): 10 km European sites, "
+                        "5 km national, 2 km local; confirmed",
+                    },
+                )
+            )
+    return findings
+
+
+def verify(
+    submission: Path,
+    *,
+    results: Path | None = None,
+    reference_habitats: Path | None = None,
+    name_field: str | None = None,
+    weather_files=(),
+) -> VerifyResult:
+    """Verify a submission (see module docstring). Raises SitingError if it cannot be read."""
+    from siting._version import __version__
+    from siting.readers.tables import load_tables
+
+    sub = load_submission(Path(submission), results)
+    integrity = check_integrity(sub)
+    submitted_version = str(sub.record.get("version", "")) if sub.record else ""
+    scenario, result = _rerun(sub)
+    explanation = _explanation(integrity, submitted_version, __version__)
+    differences = compare_figures(sub, result, explanation)
+    reviewed = review(sub, result, load_tables(), reference_habitats, name_field)
+    findings = _all_findings(sub, integrity, differences, explanation, reviewed)
+    from siting.runs.screen import screen  # at call time, as in _rerun (tests stand one in)
+
+    long, summary = sensitivity(scenario, result, weather_files, run=screen)
+    return VerifyResult(
+        sub, integrity, differences, findings, long, summary, submitted_version, __version__
+    )
+
+
+def _rerun(sub: Submission):
+    """The packed scenario, read with its files where the package now holds them and its
+    packed tables (when there are), and screened again without the sensitivity (verify runs
+    its own, with --weather). Returns (scenario, result); a SitingError of either step becomes
+    one InputError, "the submission cannot be re-run: ..."."""
+    from siting.readers.scenario import load_scenario
+    from siting.runs.screen import screen
+
+    try:
+        scenario = load_scenario(sub.scenario_path, moved=sub.moved)
+        if sub.config_dir is not None and sub.config_dir.is_dir():
+            scenario = scenario.model_copy(
+                update={
+                    "assessment": scenario.assessment.model_copy(
+                        update={"config_dir": sub.config_dir}
+                    )
+                }
+            )
+        result = screen(scenario, sensitivity=False)  # its own, with --weather, in verify
+    except SitingError as exc:
+        raise InputError(f"the submission cannot be re-run: {exc}") from exc
+    return scenario, result
+
+
+def _all_findings(
+    sub: Submission,
+    integrity: list[dict],
+    differences: list[dict],
+    explanation: str,
+    reviewed: list[Finding],
+) -> list[Finding]:
+    """Every finding of a verification, in the order they are reported: RESULTS_DIFFER, the
+    changed or missing inputs (the last recorded first), the outputs' checks, the plausibility
+    review (``reviewed``, by severity), then NO_RUN_RECORD."""
+    findings = check_outputs(sub) + reviewed
+    for row in integrity:
+        if row["status"] != "ok":
+            findings.insert(0, _input_finding(row))
+    if sub.record is None:
+        findings.append(
+            Finding(
+                "NO_RUN_RECORD",
+                "info",
+                "submission",
+                "no run.json: inputs could not be checked against hashes",
+                {},
+            )
+        )
+    if differences:
+        findings.insert(0, _results_differ_finding(differences, explanation))
+    return findings
+
+
+def _input_finding(row: dict) -> Finding:
+    """An integrity row that is not ok (see check_integrity): INPUT_CHANGED or INPUT_MISSING."""
+    return Finding(
+        "INPUT_CHANGED" if row["status"] == "changed" else "INPUT_MISSING",
+        "high",
+        f"input {row['key']}",
+        f"{row['file']} {'differs from' if row['status'] == 'changed' else 'is missing; it was'}"
+        " the file the run recorded (SHA-256)",
+        {
+            "expected_sha256": row["expected_sha256"],
+            "actual_sha256": row["actual_sha256"],
+        },
+    )
+
+
+def _results_differ_finding(differences: list[dict], explanation: str) -> Finding:
+    """RESULTS_DIFFER: how many figures differ from the re-run, and the changed input (or
+    version) that explains them, if one does (see _explanation)."""
+    return Finding(
+        "RESULTS_DIFFER",
+        "high",
+        "results",
+        f"{len(differences)} figure(s) differ from this version's re-run beyond the "
+        "tolerance"
+        + (
+            f"; {explanation}"
+            if explanation
+            else "; no changed input explains it (edited results?)"
+        ),
+        {"figures": len(differences)},
+    )
+
+
+def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = False) -> Path:
+    """findings.json and verify.html, written atomically into ``out_dir``."""
+    from datetime import datetime
+
+    from siting.output.files import check_output_dir, staged_folder
+    from siting.presentation.verify_report import write_verify_report
+    from siting.runs.screen import CAUTIONS
+
+    out_dir = Path(out_dir).resolve()
+    check_output_dir(out_dir, overwrite)
+    run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
+    verdict = (
+        "Consistent: inputs intact, the same figures with this version, no high-severity finding."
+        if result.consistent
+        else "Not consistent: see the findings (differences, changed inputs or high-severity "
+        "findings)."
+    )
+    payload = {
+        "submission": str(result.submission.folder),
+        "submitted_version": result.submitted_version,
+        "this_version": result.this_version,
+        "run_time_utc": run_time,
+        "consistent": result.consistent,
+        "exit_code": result.exit_code,
+        "tolerance": TOLERANCE_TEXT,
+        "findings": [f.as_dict() for f in result.findings],
+        "integrity": result.integrity,
+        "differences": result.differences,
+        "sensitivity_summary": result.sensitivity_summary.to_dict(orient="records"),
+    }
+    with staged_folder(out_dir, overwrite) as staging:
+        (staging / "findings.json").write_text(
+            json.dumps(payload, indent=2, default=_json_default), encoding="utf-8"
+        )
+        write_verify_report(
+            staging / "verify.html",
+            submission=str(result.submission.folder),
+            submitted_version=result.submitted_version,
+            this_version=result.this_version,
+            run_time=run_time,
+            verdict=verdict,
+            exit_code=result.exit_code,
+            integrity=result.integrity,
+            differences=result.differences,
+            tolerance_text=TOLERANCE_TEXT,
+            findings=[f.as_dict() for f in result.findings],
+            sensitivity=result.sensitivity,
+            sensitivity_summary=result.sensitivity_summary,
+            cautions=list(CAUTIONS),
+        )
+    return out_dir
+
+
+def _json_default(value):
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, (np.floating,)):
+        return None if np.isnan(value) else float(value)
+    if isinstance(value, np.bool_):
+        return bool(value)
+    return str(value)
