@@ -16,7 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
-from siting.output.files import write_outputs
+from siting.output.screen import write_outputs
 from siting.readers.frequency_table import read_frequency_table
 from siting.readers.resources import demo_dir
 from siting.readers.scenario import load_scenario

@@ -89,7 +89,7 @@ def main() -> None:
 
     import geopandas as gpd
 
-    from siting.output.grids import grid_around
+    from siting.dispersion.grid import grid_around
     from siting.readers.habitats import (
         grid_nodes_in_sites,
         site_boundary_points,

@@ -312,7 +312,7 @@ def region_pipeline(region, case: Case, elements, emission_g_s) -> np.ndarray:
     import pandas as pd
 
     from siting.dispersion.convolution import release_class
-    from siting.output.grids import GridSpec
+    from siting.dispersion.grid import GridSpec
     from siting.physics.constants import UG_PER_G
     from siting.readers.tables import load_tables
 

@@ -13,7 +13,7 @@ Results are screening estimates from a simplified model; see the cautions in eve
 
 from siting._version import __version__
 from siting.errors import InputError, InputFileError, OutputExistsError, SitingError
-from siting.output.files import write_outputs
+from siting.output.screen import write_outputs
 from siting.readers.scenario import Scenario, load_scenario
 from siting.runs.place import PlaceResult, place
 from siting.runs.screen import ScreenResult, screen

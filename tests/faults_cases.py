@@ -403,14 +403,14 @@ def stage_marker_written(ws, mp):
 
 def stage_first_file(ws, mp):
     """The first output file (concentration.tif) has just been written."""
-    wrap(mp, _mod("siting.output.files"), "write_geotiff")
+    wrap(mp, _mod("siting.output.screen"), "write_geotiff")
 
 
 def stage_sites_csv(ws, mp):
     """sites.csv (the middle of the tables) has just been written."""
     wrap(
         mp,
-        _mod("siting.output.files"),
+        _mod("siting.output.screen"),
         "write_csv",
         when=lambda frame, path: _name(path) == "sites.csv",
     )
@@ -423,12 +423,12 @@ def stage_packing_inputs(ws, mp):
 
 def stage_map_sigterm(ws, mp):
     """map.html has just been written; then SIGTERM (as `timeout` or CI sends)."""
-    wrap(mp, _mod("siting.presentation.webmap"), "write_screen_map", how="SIGTERM")
+    wrap(mp, _mod("siting.output.screen"), "write_screen_map", how="SIGTERM")
 
 
 def stage_report_sighup(ws, mp):
     """report.html has just been written; then SIGHUP (the terminal closed)."""
-    wrap(mp, _mod("siting.presentation.report"), "write_report", how="SIGHUP")
+    wrap(mp, _mod("siting.output.screen"), "write_report", how="SIGHUP")
 
 
 def stage_run_json(ws, mp):
@@ -450,7 +450,7 @@ def stage_before_swap(ws, mp):
             (p / "run.json").is_file() for p in out_dir.parent.glob(f".{out_dir.name}.*.partial")
         )
 
-    wrap(mp, _mod("siting.output.files"), "check_output_dir", when=complete, after=False)
+    wrap(mp, _mod("siting.output.folder"), "check_output_dir", when=complete, after=False)
 
 
 def stage_between_renames(ws, mp):
@@ -495,12 +495,12 @@ def place_positions_csv(ws, mp):
 
 def region_second_geotiff(ws, mp):
     """siting region: the second GeoTIFF (deposition.tif) has just been written; SIGTERM."""
-    wrap(mp, _mod("siting.output.region"), "write_region_geotiff", nth=2, how="SIGTERM")
+    wrap(mp, _mod("siting.output.region"), "write_large_geotiff", nth=2, how="SIGTERM")
 
 
 def verify_report_written(ws, mp):
     """siting verify: findings.json and verify.html are written, the swap not yet done."""
-    wrap(mp, _mod("siting.presentation.verify_report"), "write_verify_report")
+    wrap(mp, _mod("siting.output.verify"), "write_verify_report")
 
 
 def bug_in(module: str, name: str, after: bool = False):
@@ -2902,7 +2902,7 @@ case(
     README_EXIT,
     prior=True,
     cached_screen=True,
-    patch=bug_in("siting.output.files", "write_geotiff"),
+    patch=bug_in("siting.output.screen", "write_geotiff"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(
@@ -2931,7 +2931,7 @@ case(
     README_EXIT,
     prior=True,
     cached_screen=True,
-    patch=disk_full_at("siting.output.files", "write_csv", "sites.csv"),
+    patch=disk_full_at("siting.output.screen", "write_csv", "sites.csv"),
 )
 case(
     "permission-denied-writing-map",
@@ -2941,7 +2941,7 @@ case(
     README_EXIT,
     prior=True,
     cached_screen=True,
-    patch=disk_full_at("siting.presentation.webmap", "write_screen_map", "map.html", errno.EACCES),
+    patch=disk_full_at("siting.output.screen", "write_screen_map", "map.html", errno.EACCES),
 )
 
 # ============================================================================================

@@ -27,7 +27,7 @@ from numpy.testing import assert_allclose
 
 import siting
 from siting.cli import main
-from siting.output.files import SITE_COLUMNS
+from siting.output.screen import SITE_COLUMNS
 from siting.readers.resources import config_dir, demo_dir
 
 OUTPUTS = [
@@ -45,7 +45,7 @@ OUTPUTS = [
     "inputs",
 ]  # inputs/: the copies that make the folder a complete package
 
-# CSV tables are written with float_format "%.6g" (siting/outputs.py): 6 significant figures,
+# CSV tables are written with float_format "%.6g" (siting/output/tables.py): 6 significant figures,
 # so a value read back is within 5e-6 relative of the one computed.
 CSV_RTOL = 5e-6
 
@@ -140,7 +140,7 @@ def test_geotiff_profile(demo, name, units):
 
 
 def test_sites_csv_columns_and_rows(sites):
-    """sites.csv has outputs.SITE_COLUMNS, one row per habitat feature, in layer order."""
+    """sites.csv has siting.output.screen.SITE_COLUMNS, one row per habitat feature, in layer order."""
     layer = gpd.read_file(demo_dir() / "habitats.gpkg")
     assert list(sites.columns) == SITE_COLUMNS
     assert list(sites["name"]) == list(layer["name"])
@@ -529,7 +529,7 @@ def test_sigterm_while_writing_leaves_nothing_and_keeps_the_old_folder(tmp_path)
     scenario.write_text(scenario.read_text().replace("spacing_m = 25.0", "spacing_m = 100.0", 1))
     code = (
         "import os, signal, sys\n"
-        "import siting.presentation.report as report\n"
+        "import siting.output.screen as report\n"
         "real = report.write_report\n"
         "def dying(*a, **k):\n"
         "    os.kill(os.getpid(), signal.SIGTERM)\n"
@@ -591,7 +591,7 @@ def test_an_internal_error_is_one_line_with_the_traceback_kept(tmp_path, capsys,
     def broken(*args, **kwargs):
         raise ZeroDivisionError("forced for the test")
 
-    monkeypatch.setattr(importlib.import_module("siting.runs.screen"), "screen", broken)
+    monkeypatch.setattr(importlib.import_module("siting.cli.screen"), "screen", broken)
     rc = main(
         ["screen", str(demo_dir() / "scenario.toml"), "--out", str(tmp_path / "o"), "--quiet"]
     )
@@ -645,12 +645,8 @@ def test_summary_of_many_sites_prints_the_most_affected_and_a_count(tmp_path):
     """200 sites: at most 25 site rows, the most affected first, then "175 more sites in
     sites.csv"; at most 10 flip lines and "and 57 more sites (sensitivity.csv)"; at most 10
     warnings (caps: common practice, no source)."""
-    from siting.cli import (
-        SUMMARY_MAX_FLIPS,
-        SUMMARY_MAX_SITES,
-        SUMMARY_MAX_WARNINGS,
-        _print_summary,
-    )
+    from siting.cli.screen import _print_summary
+    from siting.cli.terminal import SUMMARY_MAX_FLIPS, SUMMARY_MAX_SITES, SUMMARY_MAX_WARNINGS
 
     result = _many_site_result()
     stdout = io.StringIO()
@@ -673,7 +669,7 @@ def test_summary_of_many_sites_prints_the_most_affected_and_a_count(tmp_path):
 
 def test_summary_of_few_sites_prints_every_site_in_layer_order(tmp_path):
     """Up to 25 sites every one is printed, in layer order, with no "more sites" line."""
-    from siting.cli import _print_summary
+    from siting.cli.screen import _print_summary
 
     result = _many_site_result(n=5, n_warnings=1)
     stdout = io.StringIO()

@@ -50,7 +50,7 @@ def earlier_run(template, tmp_path_factory):
     """An earlier successful `siting screen ... --overwrite` of the template's scenario: its
     output folder (copied into cases as the previous output) and its ScreenResult (reused by the
     cases that test writing only)."""
-    screen_module = fc._mod("siting.runs.screen")
+    screen_module = fc._mod("siting.cli.screen")  # where `siting screen` looks it up
     real = screen_module.screen
     kept = {}
 
@@ -88,13 +88,14 @@ def _run(argv: list[str]) -> int:
         return exc.code if isinstance(exc.code, int) else 1
 
 
-#: The computation of each command, replaced for "before any work" cases.
+#: The computation of each command, replaced for "before any work" cases: where each command's
+#: module (siting.cli.<command>) looks it up.
 _WORK = [
-    ("siting.runs.screen", "screen"),
-    ("siting.runs.place", "place"),
-    ("siting.runs.region", "region"),
-    ("siting.runs.verify", "verify"),
-    ("siting.readers.hourly_record", "read_hourly_record"),
+    ("siting.cli.screen", "screen"),
+    ("siting.cli.place", "place"),
+    ("siting.cli.region", "region"),
+    ("siting.cli.verify", "verify"),
+    ("siting.cli.weather", "read_hourly_record"),
 ]
 
 
@@ -112,7 +113,7 @@ def _next_run_tidies(ws, capsys) -> None:
     """The next run into the same output folder, as if this process had died: a real command
     whose output folder check tidies what an interrupted run left (and which then fails on its
     missing submission, or refuses the existing folder: it writes nothing itself)."""
-    outputs = fc._mod("siting.output.files")
+    outputs = fc._mod("siting.output.folder")
     real_alive = outputs._alive
     with pytest.MonkeyPatch.context() as mp:
         mp.setattr(outputs, "_alive", lambda pid: False if pid == os.getpid() else real_alive(pid))
@@ -140,7 +141,7 @@ def test_fault(case: fc.Case, tmp_path, monkeypatch, capsys, template, earlier_r
         if case.before_work:
             _no_work(mp)
         if case.cached_screen:
-            mp.setattr(fc._mod("siting.runs.screen"), "screen", lambda *a, **k: cached)
+            mp.setattr(fc._mod("siting.cli.screen"), "screen", lambda *a, **k: cached)
         if case.patch is not None:
             case.patch(ws, mp)
         rc = _run(argv)

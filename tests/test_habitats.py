@@ -370,7 +370,7 @@ def test_boundary_points_equal_a_per_ring_reference():
 def test_grid_nodes_in_sites_equal_contains_on_every_node():
     """Nodes inside each site (bounding-box candidates) equal shapely.contains_xy over the
     whole grid for that site (independent reference, brute force)."""
-    from siting.output.grids import GridSpec
+    from siting.dispersion.grid import GridSpec
     from siting.readers.habitats import grid_nodes_in_sites
 
     grid = GridSpec(-520.0, 620.0, 10.0, 150, 110, "EPSG:32632")

@@ -6,7 +6,7 @@ import stat
 import pytest
 
 from siting.errors import OutputExistsError
-from siting.output.files import OUTPUT_MARKER, check_output_dir, staged_folder
+from siting.output.folder import OUTPUT_MARKER, check_output_dir, staged_folder
 
 
 def _old_result(out_dir):
@@ -130,8 +130,8 @@ def test_csv_text_that_a_spreadsheet_would_evaluate_is_made_literal(tmp_path):
     by verify's reader it is the original text."""
     import pandas as pd
 
-    from siting.output.files import write_csv
-    from siting.runs.verify import _read_csv
+    from siting.output.tables import write_csv
+    from siting.readers.submission import _read_csv
 
     frame = pd.DataFrame(
         {
@@ -188,7 +188,7 @@ def test_stale_staging_of_a_dead_run_is_removed_and_a_live_one_kept(tmp_path):
 
 _HOLDER = """
 import sys
-from siting.output.files import staged_folder
+from siting.output.folder import staged_folder
 with staged_folder(sys.argv[1], overwrite=True) as staging:
     (staging / "first.txt").write_text("first run", encoding="utf-8")
     print("writing", flush=True)

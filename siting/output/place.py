@@ -10,14 +10,12 @@ import json
 from datetime import UTC, datetime
 from pathlib import Path
 
-from siting.output.files import (
-    check_output_dir,
-    package_inputs,
-    run_record_base,
-    staged_folder,
-    write_csv,
-)
-from siting.output.grids import write_geotiff
+from siting._version import __version__
+from siting.output.folder import check_output_dir, staged_folder
+from siting.output.geotiff import write_geotiff
+from siting.output.records import package_inputs, run_record_base
+from siting.output.tables import write_csv
+from siting.presentation.webmap import write_place_map
 from siting.readers.tables import default_reduction_percent
 
 #: How many of the best positions the map marks.
@@ -30,9 +28,6 @@ def write_place_outputs(
     """Write the placement outputs atomically into ``out_dir``; returns it."""
     import geopandas as gpd
     import shapely
-
-    from siting._version import __version__
-    from siting.presentation.webmap import write_place_map
 
     out_dir = Path(out_dir).resolve()
     check_output_dir(out_dir, overwrite)

@@ -11,16 +11,21 @@ import platform
 from dataclasses import asdict
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
 
-from siting.output.grids import NODATA, GridSpec
+from siting._version import __version__
+from siting.output.folder import staged_folder
+from siting.output.geotiff import write_large_geotiff
+from siting.output.records import sha256_of
+from siting.output.tables import write_csv
 from siting.physics.constants import deposition_kg_n_ha_yr
-from siting.runs.region import CAUTIONS, LAND_COVER_GRID, RegionResult
 
-OVERVIEW_FACTORS = (2, 4, 8, 16)
-GEOTIFF_BLOCK = 256
+if TYPE_CHECKING:  # the type only: a run's result is written, never computed, here
+    from siting.runs.region import RegionResult
+
 
 SITE_COLUMNS = [
     "site_id",
@@ -58,47 +63,6 @@ FARM_COLUMNS = [
 ]
 
 
-def write_region_geotiff(
-    path: Path, grid: GridSpec, values: np.ndarray, description: str, units: str, scale: float = 1.0
-) -> None:
-    """Float32 GeoTIFF of ``values x scale``: tiled 256 x 256, deflate, overviews 2-16 (average).
-
-    Written in strips of block rows, so no full-size copy of the grid is made.
-    """
-    import rasterio
-    from rasterio.enums import Resampling
-    from rasterio.windows import Window
-
-    profile = {
-        "driver": "GTiff",
-        "width": grid.n_cols,
-        "height": grid.n_rows,
-        "count": 1,
-        "dtype": "float32",
-        "crs": grid.crs,
-        "transform": grid.transform(),
-        "nodata": NODATA,
-        "compress": "deflate",
-        "tiled": True,
-        "blockxsize": GEOTIFF_BLOCK,
-        "blockysize": GEOTIFF_BLOCK,
-        "BIGTIFF": "IF_SAFER",
-    }
-    with rasterio.open(path, "w", **profile) as dst:
-        for r0 in range(0, grid.n_rows, GEOTIFF_BLOCK):
-            strip = values[r0 : r0 + GEOTIFF_BLOCK] * scale
-            strip = np.where(np.isfinite(strip), strip, NODATA).astype("float32")
-            dst.write(strip, 1, window=Window(0, r0, grid.n_cols, strip.shape[0]))
-        factors = [f for f in OVERVIEW_FACTORS if min(grid.n_rows, grid.n_cols) // f >= 1]
-        if factors:
-            dst.build_overviews(factors, Resampling.average)
-            dst.update_tags(ns="rio_overview", resampling="average")
-        dst.set_band_description(1, description)
-        dst.update_tags(1, units=units, description=description)
-        dst.update_tags(units=units, producer="siting region (screening estimate)")
-        dst.units = (units,)
-
-
 def _farm_table(farms: pd.DataFrame) -> pd.DataFrame:
     out = farms.copy()
     out["class_release_height_m"] = [c.release_height_m for c in farms["release_class"]]
@@ -124,9 +88,6 @@ def region_record(result: RegionResult, run_time: str) -> dict:
     import dask
     import rasterio
     import scipy
-
-    from siting._version import __version__
-    from siting.output.files import sha256_of
 
     inputs = result.inputs
     grid = result.grid
@@ -154,7 +115,7 @@ def region_record(result: RegionResult, run_time: str) -> dict:
             "n_rows": grid.n_rows,
             "crs": grid.crs,
             "deposition_velocity_m_s": inputs.grid_deposition_velocity_m_s,
-            "land_cover": LAND_COVER_GRID,
+            "land_cover": inputs.grid_land_cover,
         },
         "plan": {**asdict(result.plan), "peak_estimate_bytes": result.plan.peak_bytes},
         "release_classes": [
@@ -171,7 +132,7 @@ def region_record(result: RegionResult, run_time: str) -> dict:
         "accuracy": ACCURACY_NOTE.format(w=inputs.options.near_field_cells),
         "timings_s": result.timings_s,
         "warnings": result.warnings,
-        "cautions": list(CAUTIONS),
+        "cautions": result.cautions,
         "versions": {
             "python": platform.python_version(),
             "numpy": np.__version__,
@@ -188,7 +149,6 @@ def write_region_outputs(
 ) -> Path:
     """Write deposition.tif, concentration.tif, sites.csv, contributors.csv, farms.csv, run.json
     atomically into ``out_dir``; returns it."""
-    from siting.output.files import staged_folder, write_csv
 
     out_dir = Path(out_dir).resolve()
     run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
@@ -197,7 +157,7 @@ def write_region_outputs(
     # any file is written (the grid is known only once the farms are read)
     need_bytes = int(2 * 4 * grid.n_rows * grid.n_cols * 4 / 3)
     with staged_folder(out_dir, overwrite, need_bytes=need_bytes) as staging:
-        write_region_geotiff(
+        write_large_geotiff(
             staging / "concentration.tif",
             grid,
             result.concentration_ug_m3,
@@ -205,7 +165,7 @@ def write_region_outputs(
             "ug/m3",
         )
         scale = float(deposition_kg_n_ha_yr(1.0, result.inputs.grid_deposition_velocity_m_s))
-        write_region_geotiff(
+        write_large_geotiff(
             staging / "deposition.tif",
             grid,
             result.concentration_ug_m3,

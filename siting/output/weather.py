@@ -14,8 +14,10 @@ from collections.abc import Sequence
 from datetime import UTC, datetime
 from pathlib import Path
 
+from siting._version import __version__
 from siting.dispersion.hourly import HourlyWeather
-from siting.output.files import check_output_dir, sha256_of, staged_folder
+from siting.output.folder import check_output_dir, staged_folder
+from siting.output.records import sha256_of
 from siting.presentation import figures
 from siting.readers import hourly_record as weather_hourly
 
@@ -64,7 +66,6 @@ def write_weather_outputs(
     warnings : list of str
         The warnings given plus any about the table's sectors.
     """
-    from siting._version import __version__
 
     out_dir = Path(out_dir).resolve()
     check_output_dir(out_dir, overwrite)

@@ -24,6 +24,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from siting.errors import InputError
+from siting.physics.plume import STABILITY_CLASSES
 from siting.presentation.formats import (
     VERDICT_COLOURS,
     deposition_class_colours,
@@ -31,6 +32,13 @@ from siting.presentation.formats import (
     format_number,
     is_missing,
     most_affected_order,
+)
+from siting.readers.hourly_record import (
+    DEFAULT_SPEED_EDGES_M_S,
+    direction_step_deg,
+    hours_by_sector,
+    speed_class_index,
+    speed_class_labels,
 )
 
 if TYPE_CHECKING:  # imported for annotations only; the module does not need them at run time
@@ -796,14 +804,6 @@ def wind_rose_png(
     """
     from matplotlib.figure import Figure
 
-    from siting.readers.hourly_record import (
-        DEFAULT_SPEED_EDGES_M_S,
-        direction_step_deg,
-        hours_by_sector,
-        speed_class_index,
-        speed_class_labels,
-    )
-
     if n_sectors < 4:
         raise InputError(f"wind rose: n_sectors must be >= 4, got {n_sectors}")
     edges = DEFAULT_SPEED_EDGES_M_S if speed_edges_m_s is None else speed_edges_m_s
@@ -906,13 +906,6 @@ def stability_by_speed_png(weather, *, speed_edges_m_s: Sequence[float] | None =
         hours in the class written above it.
     """
     from matplotlib.figure import Figure
-
-    from siting.physics.plume import STABILITY_CLASSES
-    from siting.readers.hourly_record import (
-        DEFAULT_SPEED_EDGES_M_S,
-        speed_class_index,
-        speed_class_labels,
-    )
 
     edges = DEFAULT_SPEED_EDGES_M_S if speed_edges_m_s is None else speed_edges_m_s
     labels = speed_class_labels(edges)

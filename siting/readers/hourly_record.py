@@ -67,6 +67,8 @@ import pandas as pd
 from siting.dispersion.hourly import HourlyWeather
 from siting.errors import InputError, InputFileError
 from siting.physics.plume import STABILITY_CLASSES
+from siting.physics.solar import is_night, solar_elevation_deg
+from siting.physics.stability import turner_stability_index
 
 HOURLY_REQUIRED = ("time", "direction_deg", "speed_m_s")
 HOURLY_OPTIONAL = ("stability", "cloud_oktas", "ceiling_ft", "temperature_c")
@@ -879,8 +881,6 @@ def _stability_index(
     the ceiling and the solar elevation and night flag at the site at ``times_s`` (UTC, the
     used hours' time stamps).
     """
-    from siting.physics.solar import is_night, solar_elevation_deg
-    from siting.physics.stability import turner_stability_index
 
     if rows.given_class:
         return rows.method_value[used].astype(int)

@@ -23,6 +23,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from siting.dispersion.grid import GridSpec
 from siting.dispersion.placement import (
     PolarKernel,
     max_places,
@@ -31,7 +32,6 @@ from siting.dispersion.placement import (
     site_maxima,
 )
 from siting.errors import InputError
-from siting.output.grids import GridSpec
 from siting.physics.constants import KG_YR_TO_G_S, UG_NH3_M2_S_TO_KG_N_HA_YR
 from siting.readers.habitats import read_vector_layer, site_outline_points
 from siting.readers.scenario import Scenario, load_scenario

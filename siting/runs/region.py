@@ -52,15 +52,29 @@ from siting.dispersion.convolution import (
     tile_working_bytes,
     unit_kernel,
 )
+from siting.dispersion.grid import GridSpec, grid_around
 from siting.dispersion.sector import DispersionSettings
 from siting.errors import InputError, InputFileError, SitingError
-from siting.output.grids import GridSpec, grid_around
+from siting.output.records import _layer_files
 from siting.physics import assess
 from siting.physics.constants import UG_PER_G, deposition_kg_n_ha_yr, kg_per_year_to_g_s
 from siting.physics.emissions import derive_emission
-from siting.readers.habitats import read_vector_layer
-from siting.readers.scenario import projected_crs
-from siting.readers.tables import Tables, default_reduction_percent, load_tables, suggest
+from siting.readers.frequency_table import read_frequency_table
+from siting.readers.habitats import (
+    read_habitats,
+    read_vector_layer,
+    site_boundary_points,
+    site_sample_points,
+)
+from siting.readers.scenario import HabitatsSection, projected_crs
+from siting.readers.tables import (
+    Tables,
+    default_reduction_percent,
+    load_tables,
+    sigma_scheme,
+    suggest,
+    wind_exponents,
+)
 
 #: Release height of a farm whose layer gives none [m], by kind (common practice, no source):
 #: a roof or ridge outlet of a fan-ventilated house for points, about half the ridge height of
@@ -475,8 +489,6 @@ def _read_sites(
     habitat_field: str,
     designation_field: str,
 ):
-    from siting.readers.habitats import read_habitats
-    from siting.readers.scenario import HabitatsSection
 
     if not Path(habitats).exists():
         raise InputFileError(f"habitats layer {Path(habitats).name}: not found ({habitats})")
@@ -617,6 +629,10 @@ class RegionInputs:
     warnings: list[str]
 
     @property
+    def grid_land_cover(self) -> str:
+        return LAND_COVER_GRID
+
+    @property
     def grid_deposition_velocity_m_s(self) -> float:
         return float(self.tables.deposition_velocities[LAND_COVER_GRID]["deposition_velocity_m_s"])
 
@@ -632,6 +648,10 @@ class RegionResult:
     plan: TilePlan
     timings_s: dict
     warnings: list[str] = field(default_factory=list)
+
+    @property
+    def cautions(self) -> list[str]:
+        return list(CAUTIONS)
 
     @property
     def grid(self) -> GridSpec:
@@ -658,7 +678,6 @@ def prepare_region(
     designation_field: str = "designation",
 ) -> RegionInputs:
     """Read and check the farms, weather and habitats of a regional run (no dispersion)."""
-    from siting.output.files import _layer_files
 
     options.check()
     tables = tables if tables is not None else load_tables()
@@ -704,7 +723,6 @@ def prepare_region(
 
 def _read_weather(weather_path: Path, options: RegionOptions):
     """The frequency table (``--weather``): (WeatherClasses, summary, warnings)."""
-    from siting.readers.frequency_table import read_frequency_table
 
     if not weather_path.exists():
         raise InputFileError(f"--weather {weather_path.name}: not found ({weather_path})")
@@ -738,7 +756,6 @@ def _sites_off_grid(sites, grid: GridSpec) -> list[str]:
 def _dispersion_settings(tables: Tables, options: RegionOptions) -> DispersionSettings:
     """The plume settings of the run: sigma scheme and wind exponents of the land type,
     depletion with the short-vegetation velocity if asked, an engine budget per worker."""
-    from siting.readers.tables import sigma_scheme, wind_exponents
 
     vd = float(tables.deposition_velocities[LAND_COVER_GRID]["deposition_velocity_m_s"])
     workers = options.workers or os.cpu_count() or 1
@@ -867,7 +884,6 @@ def _concurrent(options: RegionOptions, workers: int) -> int:
 
 
 def _site_points(sites, spacing_m: float):
-    from siting.readers.habitats import site_boundary_points, site_sample_points
 
     b_index, bx, by = site_boundary_points(sites.geometry, min(spacing_m, BOUNDARY_SPACING_M))
     s_index, sx, sy, interior = site_sample_points(sites.geometry, [], [], spacing_m)

@@ -20,6 +20,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from siting.dispersion.grid import GridSpec, grid_around
 from siting.dispersion.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
 from siting.dispersion.sector import (
     DispersionSettings,
@@ -28,11 +29,15 @@ from siting.dispersion.sector import (
     source_concentration_g_m3_per_g_s,
 )
 from siting.errors import InputError
-from siting.output.grids import GridSpec, grid_around
 from siting.physics import assess
 from siting.physics.constants import KEQ_PER_KG_N, UG_PER_G, deposition_kg_n_ha_yr, kg_n_to_mol_n
 from siting.physics.emissions import derive_emission
 from siting.physics.plume import gep_stack_height_m
+from siting.physics.seasonal import (
+    temperature_emission_weights,
+    treated_ammonia_share,
+    ventilation_fraction,
+)
 from siting.readers.frequency_table import read_frequency_table
 from siting.readers.habitats import (
     coarsened_sites,
@@ -41,6 +46,7 @@ from siting.readers.habitats import (
     site_boundary_points,
     site_sample_points,
 )
+from siting.readers.hourly_record import read_hourly_record
 from siting.readers.scenario import ROLES, Scenario, SourceSpec, load_scenario
 from siting.readers.tables import (
     Tables,
@@ -346,7 +352,6 @@ def site_lat_lon(scenario: Scenario) -> tuple[float, float]:
 
 
 def _read_hourly(scenario: Scenario):
-    from siting.readers.hourly_record import read_hourly_record
 
     lat, lon = site_lat_lon(scenario)
     w = scenario.weather
@@ -371,11 +376,6 @@ def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summar
     of that hour's air the scrubber takes, and the annual treated share becomes its
     treated_air_fraction (so the annual total in sources.csv matches the hourly weights).
     """
-    from siting.physics.seasonal import (
-        temperature_emission_weights,
-        treated_ammonia_share,
-        ventilation_fraction,
-    )
 
     cfg = scenario.seasonal
     temperature_c = weather.temperature_c

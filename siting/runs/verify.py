@@ -20,20 +20,20 @@ calls (scenario, tables) and by verify_report.py.
 from __future__ import annotations
 
 import dataclasses
-import json
 import math
-import os
 from dataclasses import dataclass, field
-from datetime import UTC
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
-from siting.errors import InputError, InputFileError, SitingError
-from siting.output.files import sha256_of, spreadsheet_text
-from siting.readers.tables import default_reduction_percent, is_claimed_reduction
-from siting.runs.screen import outlet_rise
+from siting._version import __version__
+from siting.errors import InputError, SitingError
+from siting.output.records import sha256_of
+from siting.readers.scenario import load_scenario
+from siting.readers.submission import Submission, load_submission
+from siting.readers.tables import default_reduction_percent, is_claimed_reduction, load_tables
+from siting.runs import screen as screening  # screening.screen at call time: tests stand one in
+from siting.runs.screen import CAUTIONS, outlet_rise, site_lat_lon
 from siting.runs.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
 
 #: Site figures compared between the submission and the re-run.
@@ -87,19 +87,6 @@ class Finding:
 
 
 @dataclass
-class Submission:
-    """What was submitted: its folder, run record, tables and the packed scenario."""
-
-    folder: Path
-    record: dict | None
-    sites: pd.DataFrame
-    receptors: pd.DataFrame | None
-    scenario_path: Path
-    moved: dict[str, Path]
-    config_dir: Path | None
-
-
-@dataclass
 class VerifyResult:
     """Everything a verification found (see module docstring)."""
 
@@ -113,6 +100,14 @@ class VerifyResult:
     this_version: str
 
     @property
+    def cautions(self) -> list[str]:
+        return list(CAUTIONS)
+
+    @property
+    def tolerance_text(self) -> str:
+        return TOLERANCE_TEXT
+
+    @property
     def consistent(self) -> bool:
         return (
             not self.differences
@@ -123,128 +118,6 @@ class VerifyResult:
     @property
     def exit_code(self) -> int:
         return 0 if self.consistent else 1
-
-
-def _read_csv(path: Path, what: str) -> pd.DataFrame:
-    try:
-        table = pd.read_csv(path, dtype={"id": str, "site_id": str, "name": str})
-    except FileNotFoundError as exc:
-        raise InputFileError(f"{what}: {path} not found") from exc
-    except Exception as exc:  # pandas raises many types
-        raise InputError(f"{what}: {path.name} cannot be read as CSV: {exc}") from exc
-    for col in table.columns:  # text made spreadsheet-safe by outputs.write_csv, read back
-        if pd.api.types.is_object_dtype(table[col]) or pd.api.types.is_string_dtype(table[col]):
-            table[col] = table[col].map(spreadsheet_text)
-    return table
-
-
-def load_submission(path: Path, results: Path | None = None) -> Submission:
-    """Read a submission: an output folder of `screen`, or a scenario file plus a sites table."""
-    path = Path(path)
-    if path.is_file():
-        if results is None:
-            raise InputError(
-                f"{path.name}: a scenario file needs the applicant's sites table "
-                "(--results sites.csv)"
-            )
-        return Submission(
-            path.parent, None, _read_csv(results, "--results"), None, path.resolve(), {}, None
-        )
-    if not path.is_dir():
-        raise InputFileError(f"{path}: no such submission folder or scenario file")
-    record_path = path / "run.json"
-    try:
-        record = json.loads(record_path.read_text(encoding="utf-8"))
-    except FileNotFoundError as exc:
-        raise InputFileError(
-            f"{path}: no run.json; is this an output folder of `siting screen`?"
-        ) from exc
-    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
-        raise InputError(f"{record_path}: not readable JSON: {exc}") from exc
-    if not isinstance(record, dict):
-        raise InputError(f"{record_path}: not a run record (a JSON object expected)")
-    package = record.get("package")
-    if not isinstance(package, dict) or "files" not in package:
-        raise InputError(
-            f"{record_path}: no package map; the folder was written by a version "
-            "that did not pack its inputs (re-run `siting screen`)"
-        )
-    inputs = path / "inputs"
-    _check_record(record, record_path, inputs)
-    files = package["files"]
-    if "scenario" not in files:
-        raise InputError(f"{record_path}: the package map names no scenario")
-    original_folder = Path(record.get("inputs", {}).get("scenario", {}).get("path", ".")).parent
-    moved: dict[str, Path] = {}
-
-    def move(original: str, now: Path) -> None:
-        """Where the packed scenario will look for a file it named, and where it is now: an
-        absolute name stays as written; a relative one now resolves against inputs/."""
-        original_path = Path(original).resolve()
-        moved[str(original_path)] = now.resolve()
-        relative = os.path.relpath(original_path, original_folder.resolve())
-        moved[str(Path(os.path.normpath(scenario_folder / relative)))] = now.resolve()
-
-    scenario_folder = (inputs / files["scenario"]).resolve().parent
-    for key, relative in files.items():
-        original = record.get("inputs", {}).get(key, {}).get("path")
-        if original:
-            move(original, inputs / relative)
-    config_dir = inputs / package.get("config", "_config")
-    for entry in record.get("config_tables", {}).values():  # the tables' own folder, packed
-        move(str(Path(entry["path"]).parent), config_dir)
-        break
-    sites = _read_csv(results if results else path / "sites.csv", "sites table")
-    receptors = (
-        _read_csv(path / "receptors.csv", "receptors table")
-        if (path / "receptors.csv").exists()
-        else None
-    )
-    return Submission(
-        path, record, sites, receptors, (inputs / files["scenario"]).resolve(), moved, config_dir
-    )
-
-
-def _inside(folder: Path, relative, what: str, record_path: Path) -> None:
-    """A path named by a submitted record must stay inside the package's inputs/ folder."""
-    if not isinstance(relative, str) or not relative.strip():
-        raise InputError(f"{record_path}: {what} must be a file name, got {relative!r}")
-    target = (folder / relative).resolve()
-    if Path(relative).is_absolute() or not (
-        target == folder.resolve() or folder.resolve() in target.parents
-    ):
-        raise InputError(
-            f"{record_path}: {what} {relative!r} points outside the package "
-            f"({folder.name}/); a submission is read only inside itself"
-        )
-
-
-def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
-    """A submitted run.json is untrusted: every entry the verification uses is of the expected
-    kind, and every path it names stays inside the package (one InputError line if not)."""
-    package = record["package"]
-    files = package["files"]
-    if not isinstance(files, dict):
-        raise InputError(f"{record_path}: package.files must be a map of input key to file")
-    for key, relative in files.items():
-        _inside(inputs, relative, f"package.files.{key}", record_path)
-    _inside(inputs, package.get("config", "_config"), "package.config", record_path)
-    # hashed files: inputs (anywhere, by key), config tables (in inputs/_config), outputs (in
-    # the submission folder, by their relative path)
-    within = {"inputs": None, "config_tables": inputs / "_config", "outputs": record_path.parent}
-    for section, folder in within.items():
-        entries = record.get(section, {})
-        if not isinstance(entries, dict):
-            raise InputError(
-                f"{record_path}: {section} must be a map, got {type(entries).__name__}"
-            )
-        for key, entry in entries.items():
-            if not isinstance(entry, dict) or not isinstance(entry.get("sha256"), str):
-                raise InputError(f"{record_path}: {section}.{key} needs a sha256 text")
-            if "path" in entry and not isinstance(entry["path"], str):
-                raise InputError(f"{record_path}: {section}.{key}.path must be text")
-            if folder is not None:
-                _inside(folder, key, f"{section}.{key}", record_path)
 
 
 def check_integrity(sub: Submission) -> list[dict]:
@@ -771,8 +644,6 @@ def _station_findings(scenario) -> list[Finding]:
         ]
     from pyproj import Geod
 
-    from siting.runs.screen import site_lat_lon
-
     lat, lon = site_lat_lon(scenario)
     _, _, distance = Geod(ellps="WGS84").inv(
         lon, lat, w.station_longitude_deg, w.station_latitude_deg
@@ -874,8 +745,6 @@ def verify(
     weather_files=(),
 ) -> VerifyResult:
     """Verify a submission (see module docstring). Raises SitingError if it cannot be read."""
-    from siting._version import __version__
-    from siting.readers.tables import load_tables
 
     sub = load_submission(Path(submission), results)
     integrity = check_integrity(sub)
@@ -885,9 +754,8 @@ def verify(
     differences = compare_figures(sub, result, explanation)
     reviewed = review(sub, result, load_tables(), reference_habitats, name_field)
     findings = _all_findings(sub, integrity, differences, explanation, reviewed)
-    from siting.runs.screen import screen  # at call time, as in _rerun (tests stand one in)
 
-    long, summary = sensitivity(scenario, result, weather_files, run=screen)
+    long, summary = sensitivity(scenario, result, weather_files, run=screening.screen)
     return VerifyResult(
         sub, integrity, differences, findings, long, summary, submitted_version, __version__
     )
@@ -898,8 +766,6 @@ def _rerun(sub: Submission):
     packed tables (when there are), and screened again without the sensitivity (verify runs
     its own, with --weather). Returns (scenario, result); a SitingError of either step becomes
     one InputError, "the submission cannot be re-run: ..."."""
-    from siting.readers.scenario import load_scenario
-    from siting.runs.screen import screen
 
     try:
         scenario = load_scenario(sub.scenario_path, moved=sub.moved)
@@ -911,7 +777,7 @@ def _rerun(sub: Submission):
                     )
                 }
             )
-        result = screen(scenario, sensitivity=False)  # its own, with --weather, in verify
+        result = screening.screen(scenario, sensitivity=False)  # its own, with --weather, in verify
     except SitingError as exc:
         raise InputError(f"the submission cannot be re-run: {exc}") from exc
     return scenario, result
@@ -977,66 +843,3 @@ def _results_differ_finding(differences: list[dict], explanation: str) -> Findin
         ),
         {"figures": len(differences)},
     )
-
-
-def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = False) -> Path:
-    """findings.json and verify.html, written atomically into ``out_dir``."""
-    from datetime import datetime
-
-    from siting.output.files import check_output_dir, staged_folder
-    from siting.presentation.verify_report import write_verify_report
-    from siting.runs.screen import CAUTIONS
-
-    out_dir = Path(out_dir).resolve()
-    check_output_dir(out_dir, overwrite)
-    run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
-    verdict = (
-        "Consistent: inputs intact, the same figures with this version, no high-severity finding."
-        if result.consistent
-        else "Not consistent: see the findings (differences, changed inputs or high-severity "
-        "findings)."
-    )
-    payload = {
-        "submission": str(result.submission.folder),
-        "submitted_version": result.submitted_version,
-        "this_version": result.this_version,
-        "run_time_utc": run_time,
-        "consistent": result.consistent,
-        "exit_code": result.exit_code,
-        "tolerance": TOLERANCE_TEXT,
-        "findings": [f.as_dict() for f in result.findings],
-        "integrity": result.integrity,
-        "differences": result.differences,
-        "sensitivity_summary": result.sensitivity_summary.to_dict(orient="records"),
-    }
-    with staged_folder(out_dir, overwrite) as staging:
-        (staging / "findings.json").write_text(
-            json.dumps(payload, indent=2, default=_json_default), encoding="utf-8"
-        )
-        write_verify_report(
-            staging / "verify.html",
-            submission=str(result.submission.folder),
-            submitted_version=result.submitted_version,
-            this_version=result.this_version,
-            run_time=run_time,
-            verdict=verdict,
-            exit_code=result.exit_code,
-            integrity=result.integrity,
-            differences=result.differences,
-            tolerance_text=TOLERANCE_TEXT,
-            findings=[f.as_dict() for f in result.findings],
-            sensitivity=result.sensitivity,
-            sensitivity_summary=result.sensitivity_summary,
-            cautions=list(CAUTIONS),
-        )
-    return out_dir
-
-
-def _json_default(value):
-    if isinstance(value, (np.integer,)):
-        return int(value)
-    if isinstance(value, (np.floating,)):
-        return None if np.isnan(value) else float(value)
-    if isinstance(value, np.bool_):
-        return bool(value)
-    return str(value)

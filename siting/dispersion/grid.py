@@ -1,19 +1,16 @@
-"""The receptor grid and GeoTIFF output.
+"""The receptor grid: a north-up regular grid with named edges.
 
-An adapter: a regular grid with named edges (west, north, cell size; row 0 is the north edge,
-values at cell centres) and one GeoTIFF profile shared by every output raster, with CRS, nodata
-and each band's description and units. No physics.
+West and north edges, cell size, row 0 at the north edge, values at cell centres, in the
+scenario's projected CRS (carried as a label; nothing here transforms coordinates). The engines
+compute on its cell centres; siting.output.geotiff writes rasters on it.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
-
-NODATA = -9999.0
 
 
 @dataclass(frozen=True)
@@ -61,32 +58,3 @@ def grid_around(x_m, y_m, margin_m: float, cell_m: float, crs: str) -> GridSpec:
     n_cols = max(1, int(round((east - west) / cell_m)))
     n_rows = max(1, int(round((north - south) / cell_m)))
     return GridSpec(west, north, cell_m, n_cols, n_rows, crs)
-
-
-def write_geotiff(
-    path: Path, grid: GridSpec, values: np.ndarray, description: str, units: str
-) -> None:
-    """Write one float32 band with CRS, transform, nodata, description and units."""
-    import rasterio
-
-    data = np.where(np.isfinite(values), values, NODATA).astype("float32")
-    profile = {
-        "driver": "GTiff",
-        "width": grid.n_cols,
-        "height": grid.n_rows,
-        "count": 1,
-        "dtype": "float32",
-        "crs": grid.crs,
-        "transform": grid.transform(),
-        "nodata": NODATA,
-        "compress": "deflate",
-        "tiled": grid.n_cols >= 256 and grid.n_rows >= 256,
-    }
-    if profile["tiled"]:
-        profile.update(blockxsize=256, blockysize=256)
-    with rasterio.open(path, "w", **profile) as dst:
-        dst.write(data, 1)
-        dst.set_band_description(1, description)
-        dst.update_tags(1, units=units, description=description)
-        dst.update_tags(units=units, producer="siting (screening estimate)")
-        dst.units = (units,)

@@ -1,0 +1,82 @@
+"""`siting place`: the placement search for one house over the holding, and its summary."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from siting.cli.terminal import EXIT_OK, plain, print_warnings
+from siting.errors import InputError
+from siting.output.folder import check_output_dir
+from siting.output.place import write_place_outputs
+from siting.output.records import input_paths
+from siting.readers.scenario import load_scenario
+from siting.runs.place import place
+
+
+def run(args) -> int:
+
+    if args.spacing is not None and not 0 < args.spacing <= 500:
+        raise InputError(f"--spacing must be in (0, 500] m, got {args.spacing:g}")
+    if args.top < 1:
+        raise InputError(f"--top must be >= 1, got {args.top}")
+    scenario = load_scenario(args.scenario)
+    out_dir = Path(args.out) if args.out else Path("maps") / f"{scenario.name}_place_{args.house}"
+    check_output_dir(out_dir.resolve(), args.overwrite, input_paths(scenario, holding=True))
+    result = place(scenario, args.house, spacing_m=args.spacing, in_combination=args.in_combination)
+    written = write_place_outputs(result, out_dir, overwrite=args.overwrite, top=args.top)
+    if not args.quiet:
+        _print_place_summary(result, written, args.top)
+    return EXIT_OK
+
+
+def _print_place_summary(result, out_dir: Path, top: int) -> None:
+    from rich.console import Console
+    from rich.table import Table
+
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    t = result.timings_s
+    table = Table(
+        title=f"Best positions for {result.house_id} ({t['positions']:,} positions searched)",
+        title_justify="left",
+    )
+    for col in (
+        "rank",
+        "x",
+        "y",
+        "limiting site",
+        "worst % load",
+        "worst % level",
+        "share of threshold",
+        "reduction needed %",
+        "max places unabated",
+    ):
+        table.add_column(
+            col,
+            justify="left" if col == "limiting site" else "right",
+            no_wrap=col == "limiting site",
+        )
+    for row in result.positions.head(top).itertuples():
+        places = getattr(row, "max_places_unabated", float("nan"))
+        table.add_row(
+            str(row.Index + 1),
+            f"{row.x:.0f}",
+            f"{row.y:.0f}",
+            plain(row.limiting_site),
+            f"{row.worst_pct_load:.1f}",
+            f"{row.worst_pct_level:.1f}",
+            f"{row.limiting_share_of_threshold:.2f}",
+            f"{row.required_reduction_percent:.0f}",
+            "-" if places != places else f"{places:.0f}",
+        )
+    console.print(table)
+    passing = int(result.positions["passes_as_described"].sum())
+    console.print(
+        f"{passing:,} of {len(result.positions):,} positions pass every site's "
+        "threshold with the house as described."
+    )
+    print_warnings(console, result.warnings)
+    console.print(f"Outputs in {out_dir} (map.html, positions.csv, suitability.tif).")
+    console.print(
+        "Screening estimate only; local rules and the competent authority decide.", style="dim"
+    )

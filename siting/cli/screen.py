@@ -1,0 +1,175 @@
+"""`siting screen`: a scenario screened into an output folder, and the summary it prints."""
+
+from __future__ import annotations
+
+import sys
+import warnings
+from pathlib import Path
+
+from siting.cli.terminal import (
+    EXIT_EXCEEDS,
+    EXIT_OK,
+    SUMMARY_MAX_FLIPS,
+    SUMMARY_MAX_SITES,
+    SUMMARY_MAX_WARNINGS,
+    plain,
+    print_warnings,
+)
+from siting.output.folder import check_output_dir
+from siting.output.records import input_paths
+from siting.output.screen import estimate_screen_bytes, write_outputs
+from siting.presentation.formats import most_affected_order
+from siting.readers.scenario import load_scenario
+from siting.runs.screen import screen
+
+
+def _summary_rows(sites):
+    """The sites to print and how many are left out: all in layer order when they fit, else
+    the :data:`SUMMARY_MAX_SITES` most affected (highest PC as a share of the threshold) first."""
+
+    if len(sites) <= SUMMARY_MAX_SITES:
+        return sites, 0
+    shown = sites.iloc[most_affected_order(sites)[:SUMMARY_MAX_SITES]]
+    return shown, len(sites) - SUMMARY_MAX_SITES
+
+
+def _site_table(result, shown, n_more: int):
+    """The rich table of the shown sites."""
+    from rich.table import Table
+
+    title = f"{result.scenario.title}\nprocess contribution (PC) by site"
+    if n_more:
+        title += (
+            f": the {len(shown)} of {len(result.sites)} with the highest PC as a share "
+            "of their threshold"
+        )
+    table = Table(title=title, title_justify="left")
+    for col, justify in (
+        ("site", "left"),
+        ("tier", "left"),
+        ("PC ug NH3/m3", "right"),
+        ("% level", "right"),
+        ("PC kg N/ha/yr", "right"),
+        ("% load", "right"),
+        ("threshold %", "right"),
+        ("verdict", "left"),
+    ):
+        table.add_column(col, justify=justify, no_wrap=col in ("site", "tier", "verdict"))
+
+    def fmt(v, spec=".3g"):
+        return "-" if v != v else format(v, spec)
+
+    for row in shown.itertuples():
+        style = {"above threshold": "bold red", "below threshold": "green"}.get(
+            row.verdict, "yellow"
+        )
+        table.add_row(
+            plain(row.name),
+            str(row.tier),
+            fmt(row.pc_conc_max_ug_m3),
+            fmt(row.pc_pct_level, ".1f"),
+            fmt(row.pc_dep_max_kg_n_ha_yr),
+            fmt(row.pc_pct_load, ".1f"),
+            f"{row.threshold_percent:g}",
+            f"[{style}]{row.verdict}[/]",
+        )
+    return table
+
+
+def _print_flips(console, result) -> None:
+    """One line per site whose verdict a sensitivity variant flips, at most
+    :data:`SUMMARY_MAX_FLIPS` (the most affected sites first when there are more)."""
+    summary = result.sensitivity_summary
+    if summary is None or not len(summary) or not summary["verdict_flips"].any():
+        return
+    flips = summary[summary["verdict_flips"]]
+    if len(flips) > SUMMARY_MAX_FLIPS:
+        rank = {}
+        for position in most_affected_order(result.sites):
+            rank.setdefault(str(result.sites["name"].iloc[position]), len(rank))
+        order = sorted(
+            range(len(flips)), key=lambda i: rank.get(str(flips["site"].iloc[i]), len(rank))
+        )
+        flips = flips.iloc[order[:SUMMARY_MAX_FLIPS]]
+    for row in flips.itertuples():
+        console.print(
+            f"[yellow]sensitivity:[/] the verdict for {plain(row.site)} "
+            f"flips under {plain(row.flipping_variants)} (report section 4, "
+            "sensitivity.csv)",
+            markup=True,
+        )
+    n_more = int(summary["verdict_flips"].sum()) - len(flips)
+    if n_more:
+        console.print(
+            f"[yellow]sensitivity:[/] and {n_more} more sites (sensitivity.csv)", markup=True
+        )
+
+
+def _print_summary(result, out_dir: Path, quiet: bool) -> None:
+    """The screen summary: a table of at most :data:`SUMMARY_MAX_SITES` sites, the counts by
+    verdict when some are left out, the first warnings and verdict flips, where the outputs are."""
+    from rich.console import Console
+
+    if quiet:
+        return
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    shown, n_more = _summary_rows(result.sites)
+    console.print(_site_table(result, shown, n_more))
+    if n_more:
+        counts = result.sites["verdict"].value_counts()
+        console.print(
+            f"{n_more} more sites in sites.csv; all {len(result.sites)}: "
+            + ", ".join(f"{n} {plain(v)}" for v, n in counts.items())
+            + "."
+        )
+    print_warnings(console, result.warnings[:SUMMARY_MAX_WARNINGS])
+    if len(result.warnings) > SUMMARY_MAX_WARNINGS:
+        console.print(
+            f"[yellow]warning:[/] and {len(result.warnings) - SUMMARY_MAX_WARNINGS} "
+            "more warnings (report.html section 6, run.json)",
+            markup=True,
+        )
+    _print_flips(console, result)
+    console.print(f"Outputs in {out_dir} (report.html, map.html, sites.csv, GeoTIFFs).")
+    console.print(
+        "Screening estimate only; local rules and the competent authority decide.", style="dim"
+    )
+
+
+def screen_scenario(
+    scenario_path: Path, out: Path | None, overwrite: bool, fail_on_exceed: bool, quiet: bool
+) -> int:
+
+    scenario = load_scenario(scenario_path)
+    out_dir = out if out is not None else Path("maps") / scenario.name
+    check_output_dir(
+        out_dir.resolve(),
+        overwrite,
+        input_paths(scenario),
+        need_bytes=estimate_screen_bytes(scenario),
+    )
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        result = screen(scenario, progress=not quiet and sys.stderr.isatty())
+    written = write_outputs(result, out_dir, overwrite=overwrite)
+    _print_summary(result, written, quiet)
+    if fail_on_exceed and not result.sites["assessed"].any():
+        print(
+            "siting: --fail-on-exceed: no habitat site could be assessed, so none is shown "
+            "below threshold",
+            file=sys.stderr,
+        )
+        return EXIT_EXCEEDS
+    if fail_on_exceed and (result.sites["verdict"] == "above threshold").any():
+        return EXIT_EXCEEDS
+    return EXIT_OK
+
+
+def run(args) -> int:
+    return screen_scenario(
+        Path(args.scenario),
+        Path(args.out) if args.out else None,
+        args.overwrite,
+        args.fail_on_exceed,
+        args.quiet,
+    )

@@ -1,0 +1,71 @@
+"""`siting verify`: a regulator's check of a submitted run, and its summary."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from siting.cli.terminal import plain
+from siting.output.folder import check_output_dir
+from siting.output.verify import write_verify_outputs
+from siting.runs.verify import verify
+
+
+def run(args) -> int:
+
+    out_dir = Path(args.out)
+    submission = Path(args.submission)
+    read = [submission] + (list(submission.rglob("*")) if submission.is_dir() else [])
+    read += [Path(p) for p in (args.results, args.habitats, *args.weather) if p]
+    check_output_dir(out_dir.resolve(), args.overwrite, read)
+    result = verify(
+        Path(args.submission),
+        results=Path(args.results) if args.results else None,
+        reference_habitats=Path(args.habitats) if args.habitats else None,
+        name_field=args.name_field,
+        weather_files=[Path(p) for p in args.weather],
+    )
+    written = write_verify_outputs(result, out_dir, overwrite=args.overwrite)
+    if not args.quiet:
+        _print_verify_summary(result, written)
+    return result.exit_code
+
+
+def _print_verify_summary(result, out_dir: Path) -> None:
+    from rich.console import Console
+    from rich.table import Table
+
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    style = "green" if result.consistent else "bold red"
+    console.print(
+        f"[{style}]{'Consistent' if result.consistent else 'Not consistent'}[/] "
+        f"(submitted with siting {result.submitted_version or '?'}, checked with "
+        f"siting {result.this_version})",
+        markup=True,
+    )
+    changed = [r for r in result.integrity if r["status"] != "ok"]
+    console.print(
+        f"inputs: {len(result.integrity) - len(changed)} of {len(result.integrity)} "
+        f"intact; figures differing beyond tolerance: {len(result.differences)}"
+    )
+    if result.findings:
+        table = Table(title="Findings", title_justify="left")
+        for col in ("severity", "code", "subject", "message"):
+            table.add_column(col, no_wrap=col != "message")
+        for f in result.findings:
+            colour = {"high": "red", "medium": "yellow"}.get(f.severity, "")
+            table.add_row(
+                f"[{colour}]{f.severity}[/]" if colour else f.severity,
+                f.code,
+                plain(f.subject),
+                plain(f.message),
+            )
+        console.print(table)
+    flips = result.sensitivity_summary
+    flips = flips[flips["verdict_flips"]] if len(flips) else flips
+    for row in flips.itertuples():
+        console.print(
+            f"[yellow]verdict flips[/] at {plain(row.site)}: {plain(row.flipping_variants)}",
+            markup=True,
+        )
+    console.print(f"Outputs in {out_dir} (verify.html, findings.json).")

@@ -1,0 +1,107 @@
+"""`siting weather`: the products of an hourly weather record (frequency table, charts, summary)."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from siting.cli.terminal import EXIT_OK, print_warnings
+from siting.errors import InputError
+from siting.output.folder import check_output_dir
+from siting.output.weather import write_weather_outputs
+from siting.readers.hourly_record import read_hourly_record
+
+
+def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, quiet: bool) -> None:
+    from rich.console import Console
+    from rich.table import Table
+
+    if quiet:
+        return
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
+    table = Table(
+        title=f"Hourly weather record: {', '.join(summary['files'])}",
+        title_justify="left",
+        show_header=False,
+    )
+    table.add_column("what", style="bold")
+    table.add_column("value")
+    table.add_row("period (UTC)", f"{summary['first_time_utc']} to {summary['last_time_utc']}")
+    table.add_row("hours used", f"{summary['hours_used']} of {summary['hours_expected']} expected")
+    longest = (
+        f"; longest gap {summary['gaps'][0]['hours']} h from {summary['gaps'][0]['start_utc']}"
+        if summary["gaps"]
+        else ""
+    )
+    table.add_row(
+        "missing (not filled)",
+        f"{summary['hours_missing']} h "
+        f"({summary['missing_percent']:.2f} %) in "
+        f"{summary['gap_count']} gap(s){longest}",
+    )
+    table.add_row(
+        "calms",
+        f"{summary['calm_hours']} h ({summary['calm_percent']:.1f} %) below "
+        f"{summary['calm_threshold_m_s']:g} m/s, raised to "
+        f"{summary['min_wind_speed_m_s']:g} m/s",
+    )
+    table.add_row(
+        "light winds raised", f"{summary['raised_to_min_speed_percent']:.1f} % of the hours"
+    )
+    table.add_row(
+        "mean wind speed",
+        f"{summary['mean_speed_m_s']:.2f} m/s (after raising; "
+        f"{summary['mean_observed_speed_m_s']:.2f} m/s observed)",
+    )
+    table.add_row("prevailing wind", summary["prevailing_from_words"])
+    table.add_row(
+        "stability A-F",
+        "  ".join(f"{k} {100 * v:.1f} %" for k, v in summary["stability_share"].items()),
+    )
+    table.add_row("stability from", summary["stability_method"])
+    if summary["temperature_c"]:
+        t = summary["temperature_c"]
+        table.add_row(
+            "temperature",
+            f"{t['min']:.1f} / {t['mean']:.1f} / {t['max']:.1f} deg C (min / mean / max)",
+        )
+    console.print(table)
+    print_warnings(console, warnings_, soft_wrap=False)
+    console.print(
+        f"Outputs in {out_dir} (frequency_table.csv, wind_rose.png, "
+        "stability_by_speed.png, summary.json)."
+    )
+
+
+def run(args) -> int:
+
+    if not -90.0 <= args.lat <= 90.0:
+        raise InputError(f"--lat must be within -90..90 (degrees north), got {args.lat}")
+    if not -180.0 <= args.lon <= 180.0:
+        raise InputError(f"--lon must be within -180..180 (degrees east), got {args.lon}")
+    if not 4 <= args.sectors <= 360:
+        raise InputError(f"--sectors must be within 4..360, got {args.sectors}")
+    out_dir = Path(args.out).resolve()
+    paths = [Path(p) for p in args.hourly]
+    check_output_dir(out_dir, args.overwrite, paths)
+    weather, summary, warnings_ = read_hourly_record(
+        paths,
+        args.lat,
+        args.lon,
+        anemometer_height_m=args.anemometer_height,
+        utc_offset_h=args.utc_offset,
+        calm_threshold_m_s=args.calm_threshold,
+        min_wind_speed_m_s=args.min_speed,
+        max_missing_percent=args.max_missing_percent,
+    )
+    written, warnings_ = write_weather_outputs(
+        out_dir,
+        weather,
+        summary,
+        warnings_,
+        n_sectors=args.sectors,
+        overwrite=args.overwrite,
+        input_paths=paths,
+    )
+    _print_weather_summary(summary, warnings_, written, args.quiet)
+    return EXIT_OK

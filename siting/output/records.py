@@ -1,0 +1,165 @@
+"""The run record's shared parts: input files and their hashes, the packed inputs, versions.
+
+``run.json`` of every command starts from :func:`run_record_base`; the inputs are copied into
+the output folder's ``inputs/`` (:func:`package_inputs`) so ``siting verify`` can re-run them,
+and every output is hashed (:func:`output_hashes`).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import platform
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from siting._version import __version__
+from siting.output.folder import OUTPUT_MARKER
+
+
+def sha256_of(path: Path) -> str:
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def input_paths(scenario, holding: bool = False) -> list[Path]:
+    """Every file a scenario run reads (for :func:`check_output_dir`), config tables included."""
+    paths = list(_input_files(scenario, holding).values())
+    if scenario.assessment.config_dir is not None:
+        paths.append(scenario.assessment.config_dir)
+    return paths
+
+
+def _layer_files(key: str, path: Path) -> dict[str, Path]:
+    """A vector layer's files: a shapefile is several (same stem), anything else one."""
+    if path.suffix.lower() == ".shp":
+        return {
+            f"{key}{sidecar.suffix}": sidecar
+            for sidecar in sorted(path.parent.glob(path.stem + ".*"))
+        }
+    return {key: path}
+
+
+def _input_files(scenario, holding: bool = False) -> dict[str, Path]:
+    """Every file a run reads, by a short key (scenario, weather, habitats, ...); the holding
+    layers only for a placement search (``holding``)."""
+    files = {"scenario": scenario.path}
+    if scenario.weather.hourly is not None:
+        hourly = scenario.weather.hourly
+        for i, path in enumerate(hourly if isinstance(hourly, list) else [hourly], start=1):
+            files["weather" if i == 1 else f"weather_{i}"] = path
+    else:
+        files["weather"] = scenario.weather.frequency_table
+    files.update(_layer_files("habitats", scenario.habitats.file))
+    if scenario.receptors is not None:
+        files["receptors"] = scenario.receptors.file
+    if holding and scenario.holding is not None:
+        files.update(_layer_files("holding", scenario.holding.file))
+        for i, ex in enumerate(scenario.holding.exclusion, start=1):
+            files.update(_layer_files(f"exclusion_{i}", ex.file))
+    return files
+
+
+def run_record_base(run, run_time: str, holding: bool = False) -> dict:
+    """The part of run.json every command shares: inputs and tables with SHA-256, parameters,
+    weather summary, cautions and versions. ``run`` has .scenario, .tables, .weather_summary,
+    .cautions (a ScreenResult or a screen.Prepared)."""
+    import folium
+    import geopandas
+    import rasterio
+    import shapely
+
+    inputs = {
+        key: {"path": str(path), "sha256": sha256_of(path)}
+        for key, path in _input_files(run.scenario, holding).items()
+        if path is not None
+    }
+    tables = {
+        name: {"path": str(run.tables.folder / name), "sha256": digest}
+        for name, digest in run.tables.files_sha256.items()
+    }
+    return {
+        "tool": "siting",
+        "version": __version__,
+        "run_time_utc": run_time,
+        "title": run.scenario.title,
+        "inputs": inputs,
+        "config_tables": tables,
+        "parameters": json.loads(run.scenario.model_dump_json(by_alias=True)),
+        "weather_summary": run.weather_summary,
+        "cautions": list(run.cautions),
+        "versions": {
+            "python": platform.python_version(),
+            "numpy": np.__version__,
+            "pandas": pd.__version__,
+            "geopandas": geopandas.__version__,
+            "shapely": shapely.__version__,
+            "rasterio": rasterio.__version__,
+            "folium": folium.__version__,
+        },
+    }
+
+
+PACKAGE_FOLDER = "inputs"
+
+
+PACKAGE_CONFIG = "_config"
+
+
+PACKAGE_EXTERNAL = "_external"
+
+
+def package_inputs(run, folder: Path) -> dict:
+    """Copy every input of a run under ``folder/inputs`` so the output folder stands alone.
+
+    Files inside the scenario's folder keep their path relative to it (so the copied scenario
+    finds them unchanged); files elsewhere go to ``inputs/_external/<key>/``; the config tables
+    used go to ``inputs/_config/``. The holding layers are packed whenever the scenario names
+    them (the packed scenario must load), though only a placement run hashes them in run.json's
+    inputs. Returns the package map written into run.json:
+    {"files": {key: path under inputs/}, "config": "_config"}.
+    """
+
+    scenario = run.scenario
+    base = scenario.folder.resolve()
+    package = folder / PACKAGE_FOLDER
+    files = {}
+    for key, path in _input_files(scenario, holding=True).items():
+        if path is None:
+            continue
+        path = Path(path).resolve()
+        try:
+            relative = path.relative_to(base)
+        except ValueError:
+            relative = Path(PACKAGE_EXTERNAL) / key / path.name
+        target = package / relative
+        target.parent.mkdir(parents=True, exist_ok=True)
+        shutil.copy2(path, target)
+        files[key] = relative.as_posix()
+    config = package / PACKAGE_CONFIG
+    config.mkdir(parents=True, exist_ok=True)
+    for name in run.tables.files_sha256:
+        shutil.copy2(run.tables.folder / name, config / name)
+    return {"files": files, "config": PACKAGE_CONFIG}
+
+
+def output_hashes(folder: Path) -> dict[str, dict]:
+    """{relative path: {"sha256", "bytes"}} of every output file in ``folder`` except run.json,
+    the marker and the packed inputs/."""
+    hashes = {}
+    for path in sorted(Path(folder).rglob("*")):
+        relative = path.relative_to(folder).as_posix()
+        if (
+            not path.is_file()
+            or relative in ("run.json", OUTPUT_MARKER)
+            or relative.startswith("inputs/")
+        ):
+            continue
+        hashes[relative] = {"sha256": sha256_of(path), "bytes": path.stat().st_size}
+    return hashes

@@ -1,0 +1,301 @@
+"""The files of ``siting screen``: tables, GeoTIFFs, run.json, report.html and map.html.
+
+Written into a staging folder and moved into place when whole (siting.output.folder).
+"""
+
+from __future__ import annotations
+
+import json
+from datetime import UTC, datetime
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from siting._version import __version__
+from siting.dispersion.grid import grid_around
+from siting.dispersion.hourly import HourlyWeather
+from siting.dispersion.sector import WeatherClasses
+from siting.output.folder import check_output_dir, staged_folder
+from siting.output.geotiff import write_geotiff
+from siting.output.records import input_paths, output_hashes, package_inputs, run_record_base
+from siting.output.tables import write_csv
+from siting.presentation.figures import (
+    deposition_figure,
+    pc_vs_distance_figure,
+    stability_by_speed_png,
+    wind_rose_from_table_png,
+    wind_rose_png,
+)
+from siting.presentation.notes import METHOD_NOTES, cautious_choices
+from siting.presentation.report import write_report
+from siting.presentation.webmap import write_screen_map
+
+SITE_COLUMNS = [
+    "site_id",
+    "name",
+    "designation",
+    "tier",
+    "habitat",
+    "habitat_name",
+    "area_ha",
+    "land_cover",
+    "deposition_velocity_m_s",
+    "distance_m",
+    "critical_level_ug_m3",
+    "critical_level_basis",
+    "critical_level_source",
+    "critical_load_review",
+    "critical_load_min_kg_n_ha_yr",
+    "critical_load_max_kg_n_ha_yr",
+    "critical_load_used_kg_n_ha_yr",
+    "critical_load_source",
+    "threshold_percent",
+    "threshold_source",
+    "assessed",
+    "pc_conc_max_ug_m3",
+    "pc_conc_mean_ug_m3",
+    "pc_dep_max_kg_n_ha_yr",
+    "pc_dep_mean_kg_n_ha_yr",
+    "pc_dep_max_mol_n_ha_yr",
+    "pc_dep_max_keq_ha_yr",
+    "pc_pct_level",
+    "pc_pct_load",
+    "net_conc_max_ug_m3",
+    "net_dep_max_kg_n_ha_yr",
+    "net_pct_level",
+    "net_pct_load",
+    "incomb_conc_max_ug_m3",
+    "incomb_dep_max_kg_n_ha_yr",
+    "incomb_pct_level",
+    "incomb_pct_load",
+    "background_conc_ug_m3",
+    "background_dep_kg_n_ha_yr",
+    "pec_conc_ug_m3",
+    "pec_dep_kg_n_ha_yr",
+    "pec_pct_level",
+    "pec_pct_load",
+    "verdict",
+]
+
+#: Written beside the depleted figures when plume depletion is switched on: what depletion took off.
+UNDEPLETED_COLUMNS = [
+    "pc_conc_max_undepleted_ug_m3",
+    "pc_dep_max_undepleted_kg_n_ha_yr",
+    "pc_pct_level_undepleted",
+    "pc_pct_load_undepleted",
+]
+
+
+def run_record(result, run_time: str) -> dict:
+    """What a screening run's run.json holds: the shared part plus grid, timings, warnings."""
+    record = run_record_base(result, run_time)
+    record.update(
+        {
+            "grid": {
+                "west_m": result.grid.west_m,
+                "north_m": result.grid.north_m,
+                "cell_m": result.grid.cell_m,
+                "n_cols": result.grid.n_cols,
+                "n_rows": result.grid.n_rows,
+                "crs": result.grid.crs,
+            },
+            "timings_s": result.timings_s,
+            "warnings": result.warnings,
+        }
+    )
+    return record
+
+
+def _habitat_values(sites) -> pd.DataFrame:
+    cols = [
+        "habitat",
+        "habitat_name",
+        "land_cover",
+        "deposition_velocity_m_s",
+        "deposition_velocity_source",
+        "critical_load_min_kg_n_ha_yr",
+        "critical_load_max_kg_n_ha_yr",
+        "critical_load_used_kg_n_ha_yr",
+        "critical_load_source",
+        "critical_level_ug_m3",
+        "critical_level_source",
+    ]
+    return pd.DataFrame(sites[cols]).drop_duplicates().reset_index(drop=True)
+
+
+def _contour_levels(sites) -> list[tuple[float, str]]:
+    """Deposition contours at each assessed site's threshold share of its critical load."""
+    assessed = sites["assessed"].to_numpy(dtype=bool)
+    threshold = sites["threshold_percent"].to_numpy(dtype=float)[assessed]
+    load = sites["critical_load_used_kg_n_ha_yr"].to_numpy(dtype=float)[assessed]
+    levels = {}
+    if threshold.size:
+        # each distinct (threshold, load) pair once, in layer order: thousands of sites share few
+        _, first = np.unique(np.column_stack([threshold, load]), axis=0, return_index=True)
+        for i in sorted(first):
+            value = float(threshold[i]) / 100.0 * float(load[i])
+            levels.setdefault(round(value, 6), f"{threshold[i]:g} % of {load[i]:g} kg N/ha/yr")
+    return sorted(levels.items())
+
+
+def _write_rasters(result, folder: Path) -> None:
+    """concentration.tif, deposition.tif and deposition_in_combination.tif."""
+    grid, fields = result.grid, result.fields
+    for name, key, description, units in (
+        ("concentration.tif", "pc_conc_ug_m3",
+         "annual mean NH3 concentration, process contribution (screening estimate)", "ug/m3"),
+        ("deposition.tif", "pc_dep_kg_n_ha_yr",
+         "dry deposition of N from NH3, process contribution (screening estimate)",
+         "kg N/ha/yr"),
+        ("deposition_in_combination.tif", "incomb_dep_kg_n_ha_yr",
+         "dry deposition of N from NH3, process contribution + other sources", "kg N/ha/yr"),
+    ):  # fmt: skip
+        write_geotiff(folder / name, grid, fields[key], description, units)
+
+
+def _write_tables(result, folder: Path) -> pd.DataFrame:
+    """sites.csv and sites.gpkg (the undepleted figures beside the depleted ones),
+    receptors.csv, sources.csv and sensitivity.csv; returns the sites table as written."""
+    import geopandas as gpd
+
+    sites = result.sites
+    columns = list(SITE_COLUMNS)
+    at = columns.index("pc_pct_load") + 1  # beside the depleted figures
+    columns[at:at] = [c for c in UNDEPLETED_COLUMNS if c in sites.columns]
+    table = pd.DataFrame(sites[columns])
+    write_csv(table, folder / "sites.csv")
+    gpd.GeoDataFrame(table, geometry=sites.geometry, crs=sites.crs).to_file(
+        folder / "sites.gpkg", layer="sites", driver="GPKG"
+    )
+    write_csv(result.receptors, folder / "receptors.csv")
+    write_csv(result.sources, folder / "sources.csv")
+    if result.sensitivity is not None:
+        write_csv(result.sensitivity, folder / "sensitivity.csv")
+    return table
+
+
+def _report_figures(result, sources_gdf, contours) -> tuple[dict, dict]:
+    """(the report's result figures, its weather figures), each title -> PNG bytes."""
+
+    grid, sites = result.grid, result.sites
+    figures = {
+        "Deposition (process contribution) with habitat sites and sources": deposition_figure(
+            result.fields["pc_dep_kg_n_ha_yr"],
+            west_m=grid.west_m,
+            north_m=grid.north_m,
+            cell_m=grid.cell_m,
+            sites=sites,
+            sources=sources_gdf,
+            contours=contours,
+            crs_label=result.scenario.crs,
+        ),
+        "Process contribution at each site against distance from the installation": (
+            pc_vs_distance_figure(pd.DataFrame(sites.drop(columns="geometry")))
+        ),
+    }
+    weather_figures = {}  # shown in the report's weather part, after the summary table
+    if isinstance(result.weather, HourlyWeather):
+        weather_figures["Wind rose of the hourly record (direction the wind blows from)"] = (
+            wind_rose_png(result.weather)
+        )
+        weather_figures["Stability class by wind speed (Turner's method or as given)"] = (
+            stability_by_speed_png(result.weather)
+        )
+    elif isinstance(result.weather, WeatherClasses):
+        weather_figures["Wind rose of the frequency table (direction the wind blows from)"] = (
+            wind_rose_from_table_png(result.weather)
+        )
+    return figures, weather_figures
+
+
+def _write_all(result, folder: Path, run_time: str) -> None:
+    """Every output of a screening run into ``folder`` (the staging folder): rasters, tables,
+    the packed inputs, map.html, report.html and, last, run.json with every output hashed."""
+    import geopandas as gpd
+
+    grid, sites = result.grid, result.sites
+    _write_rasters(result, folder)
+    table = _write_tables(result, folder)
+    record = run_record(result, run_time)
+    record["package"] = package_inputs(result, folder)
+    sources_gdf = gpd.GeoDataFrame(
+        result.sources.copy(), geometry=result.source_geometries, crs=result.scenario.crs
+    )
+    contours = _contour_levels(sites)
+    write_screen_map(
+        folder / "map.html",
+        title=result.scenario.title,
+        crs=result.scenario.crs,
+        west_m=grid.west_m,
+        north_m=grid.north_m,
+        cell_m=grid.cell_m,
+        deposition_kg_n_ha_yr=result.fields["pc_dep_kg_n_ha_yr"],
+        sites=sites,
+        sources=sources_gdf,
+        contours=contours,
+        cautions=result.cautions,
+        version=__version__,
+        run_time=run_time,
+    )
+    figures, weather_figures = _report_figures(result, sources_gdf, contours)
+    write_report(
+        folder / "report.html",
+        title=result.scenario.title,
+        version=__version__,
+        run_time=run_time,
+        scenario_file=str(result.scenario.path),
+        sites=table,
+        sources=result.sources,
+        weather_summary=result.weather_summary,
+        habitat_values=_habitat_values(sites),
+        warnings=result.warnings,
+        cautions=result.cautions,
+        method_notes=METHOD_NOTES,
+        run_record=record,
+        figures=figures,
+        weather_figures=weather_figures,
+        cautious_choices=cautious_choices(result),
+        sensitivity_summary=result.sensitivity_summary,
+    )
+    # last: every output the run wrote, hashed, so `siting verify` can tell an edited,
+    # truncated or deleted one (run.json itself, the marker and the packed inputs aside)
+    record["outputs"] = output_hashes(folder)
+    (folder / "run.json").write_text(json.dumps(record, indent=2, default=str), encoding="utf-8")
+
+
+def estimate_screen_bytes(scenario) -> int:
+    """A generous estimate of a screening run's output folder [bytes], known before any work:
+    three float32 GeoTIFFs and the map's image of the grid (uncompressed, 4 bytes a cell),
+    and four times the inputs (their packaged copy, and the habitat sites again in
+    sites.gpkg, the map and the report)."""
+
+    grid = grid_around(
+        [s.x for s in scenario.sources],
+        [s.y for s in scenario.sources],
+        scenario.grid.margin_m,
+        scenario.grid.spacing_m,
+        scenario.crs,
+    )
+    inputs = 0
+    for path in input_paths(scenario):
+        try:
+            inputs += Path(path).stat().st_size
+        except (OSError, TypeError):
+            continue
+    return 4 * 4 * grid.size + 4 * inputs
+
+
+def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
+    """Write every output of a screening run atomically into ``out_dir``; returns it."""
+    out_dir = Path(out_dir).resolve()
+    check_output_dir(
+        out_dir,
+        overwrite,
+        input_paths(result.scenario),
+        need_bytes=estimate_screen_bytes(result.scenario),
+    )
+    run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
+    with staged_folder(out_dir, overwrite) as staging:
+        _write_all(result, staging, run_time)
+    return out_dir

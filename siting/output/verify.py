@@ -1,0 +1,73 @@
+"""The files of ``siting verify``: findings.json and verify.html, written atomically."""
+
+from __future__ import annotations
+
+import json
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from siting.output.folder import check_output_dir, staged_folder
+from siting.presentation.verify_report import write_verify_report
+
+if TYPE_CHECKING:  # the type only: a run's result is written here, never computed
+    from siting.runs.verify import VerifyResult
+
+
+def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = False) -> Path:
+    """findings.json and verify.html, written atomically into ``out_dir``."""
+    out_dir = Path(out_dir).resolve()
+    check_output_dir(out_dir, overwrite)
+    run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
+    verdict = (
+        "Consistent: inputs intact, the same figures with this version, no high-severity finding."
+        if result.consistent
+        else "Not consistent: see the findings (differences, changed inputs or high-severity "
+        "findings)."
+    )
+    payload = {
+        "submission": str(result.submission.folder),
+        "submitted_version": result.submitted_version,
+        "this_version": result.this_version,
+        "run_time_utc": run_time,
+        "consistent": result.consistent,
+        "exit_code": result.exit_code,
+        "tolerance": result.tolerance_text,
+        "findings": [f.as_dict() for f in result.findings],
+        "integrity": result.integrity,
+        "differences": result.differences,
+        "sensitivity_summary": result.sensitivity_summary.to_dict(orient="records"),
+    }
+    with staged_folder(out_dir, overwrite) as staging:
+        (staging / "findings.json").write_text(
+            json.dumps(payload, indent=2, default=_json_default), encoding="utf-8"
+        )
+        write_verify_report(
+            staging / "verify.html",
+            submission=str(result.submission.folder),
+            submitted_version=result.submitted_version,
+            this_version=result.this_version,
+            run_time=run_time,
+            verdict=verdict,
+            exit_code=result.exit_code,
+            integrity=result.integrity,
+            differences=result.differences,
+            tolerance_text=result.tolerance_text,
+            findings=[f.as_dict() for f in result.findings],
+            sensitivity=result.sensitivity,
+            sensitivity_summary=result.sensitivity_summary,
+            cautions=result.cautions,
+        )
+    return out_dir
+
+
+def _json_default(value):
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, (np.floating,)):
+        return None if np.isnan(value) else float(value)
+    if isinstance(value, np.bool_):
+        return bool(value)
+    return str(value)
