@@ -18,8 +18,8 @@ import numpy as np
 
 from siting.readers.habitats import site_outline_points
 from siting.readers.resources import demo_dir
-from siting.runs.place import place
-from siting.runs.screen import BOUNDARY_SPACING_M, _source_elements, prepare
+from siting.runs.placing import place
+from siting.runs.screening import BOUNDARY_SPACING_M, _source_elements, prepare
 
 
 def naive_seconds_per_position(prep, house_id: str, positions, samples: int) -> float:
@@ -39,7 +39,7 @@ def full_screen_seconds_per_position(
 ) -> float:
     """Seconds per position of a full `screen` run with the house moved there."""
     from siting.readers.scenario import load_scenario
-    from siting.runs.screen import screen
+    from siting.runs.screening import screen
 
     scenario = load_scenario(scenario_path)
     pick = positions.iloc[np.linspace(0, len(positions) - 1, samples).astype(int)]

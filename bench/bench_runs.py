@@ -263,7 +263,7 @@ def regional_fast_path():
     """How the regional case is run fast: (callable(case, elements, emissions), label, note).
 
     In this order, the first that exists: ``siting.dispersion.convolution.regional_deposition`` (or
-    ``regional_concentration``); ``siting.runs.region.compute_region`` (the ``siting region``
+    ``regional_concentration``); ``siting.runs.regional.compute_region`` (the ``siting region``
     pipeline, dask threads) on inputs built here from the case's arrays; the convolution
     module's building blocks composed here; else (None, "direct", why not).
     """
@@ -276,11 +276,11 @@ def regional_fast_path():
         if callable(function):
             return functools.partial(call_regional, function), f"convolution.{name}", ""
     try:
-        from siting.runs import region
+        from siting.runs import regional as region
 
         if callable(getattr(region, "compute_region", None)):
             why = (
-                "siting.dispersion.convolution has no regional_deposition: timed siting.runs.region."
+                "siting.dispersion.convolution has no regional_deposition: timed siting.runs.regional."
                 "compute_region (kernel per release class, FFT tiles, near-field "
                 "correction, dask threads) on inputs built from the case's arrays"
             )
@@ -303,7 +303,7 @@ def regional_fast_path():
 
 
 def region_pipeline(region, case: Case, elements, emission_g_s) -> np.ndarray:
-    """Concentration [g m-3] from siting.runs.region.compute_region on this case's grid and farms.
+    """Concentration [g m-3] from siting.runs.regional.compute_region on this case's grid and farms.
 
     Each element becomes a farm of release class point or volume (side 4.3 sigma_y0; the
     case's sides already sit on the class ladder, so the classes are the elements).

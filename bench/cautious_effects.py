@@ -16,7 +16,7 @@ import numpy as np
 
 from siting.readers.resources import demo_dir
 from siting.readers.scenario import load_scenario
-from siting.runs.screen import screen
+from siting.runs.screening import screen
 
 
 def _run(scenario, tables=None):

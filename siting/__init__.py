@@ -4,31 +4,30 @@ A small public API for notebooks and scripts; the CLI (``siting``) is built on i
 
     >>> import siting
     >>> scenario = siting.load_scenario("data_demo/scenario.toml")
-    >>> result = siting.runs.screen(scenario)
+    >>> result = siting.runs.screening(scenario)
     >>> siting.write_outputs(result, "maps/demo")
-    >>> best = siting.runs.place(scenario, "H2").positions.head()   # placement search
+    >>> best = siting.runs.placing(scenario, "H2").positions.head()   # placement search
 
 Results are screening estimates from a simplified model; see the cautions in every output.
 """
 
+from siting._lazy import lazy_exports
 from siting._version import __version__
-from siting.errors import InputError, InputFileError, OutputExistsError, SitingError
-from siting.output.screen import write_outputs
-from siting.readers.scenario import Scenario, load_scenario
-from siting.runs.place import PlaceResult, place
-from siting.runs.screen import ScreenResult, screen
 
-__all__ = [
-    "InputError",
-    "InputFileError",
-    "OutputExistsError",
-    "PlaceResult",
-    "Scenario",
-    "ScreenResult",
-    "SitingError",
-    "__version__",
-    "load_scenario",
-    "place",
-    "screen",
-    "write_outputs",
-]
+__all__, __getattr__, __dir__ = lazy_exports(
+    __name__,
+    {
+        "InputError": "siting.errors",
+        "InputFileError": "siting.errors",
+        "OutputExistsError": "siting.errors",
+        "SitingError": "siting.errors",
+        "Scenario": "siting.readers.scenario",
+        "load_scenario": "siting.readers.scenario",
+        "ScreenResult": "siting.runs.screening",
+        "screen": "siting.runs.screening",
+        "PlaceResult": "siting.runs.placing",
+        "place": "siting.runs.placing",
+        "write_outputs": "siting.output.screen",
+    },
+)
+__all__ = ["__version__", *__all__]

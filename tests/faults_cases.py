@@ -371,8 +371,8 @@ def wrap(
 
 
 def _mod(name: str):
-    """A module by name (``siting.runs.screen`` and ``siting.runs.place`` are also functions of the
-    package, so ``import siting.runs.screen`` then ``siting.runs.screen`` gives the function)."""
+    """A module by name (``siting.runs.screening`` and ``siting.runs.placing`` are also functions of the
+    package, so ``import siting.runs.screening`` then ``siting.runs.screening`` gives the function)."""
     import importlib
 
     return importlib.import_module(name)
@@ -480,7 +480,7 @@ def stage_removing_backup(ws, mp):
 
 def during_dispersion(ws, mp):
     """In the middle of the computation (the first source's dispersion), before any writing."""
-    wrap(mp, _mod("siting.runs.screen"), "source_concentration_g_m3_per_g_s", after=False)
+    wrap(mp, _mod("siting.runs.screening"), "source_concentration_g_m3_per_g_s", after=False)
 
 
 def weather_second_chart(ws, mp):
@@ -2891,7 +2891,7 @@ case(
     BUG,
     README_EXIT,
     prior=True,
-    patch=bug_in("siting.runs.screen", "source_concentration_g_m3_per_g_s"),
+    patch=bug_in("siting.runs.screening", "source_concentration_g_m3_per_g_s"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(
@@ -2920,7 +2920,7 @@ case(
     3,
     BUG,
     README_EXIT,
-    patch=bug_in("siting.runs.region", "_task_tile"),
+    patch=bug_in("siting.runs.regional", "_task_tile"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(

@@ -10,8 +10,8 @@ import shapely
 
 from siting.errors import InputError
 from siting.readers.resources import demo_dir
-from siting.runs.place import place
-from siting.runs.screen import screen
+from siting.runs.placing import place
+from siting.runs.screening import screen
 
 
 @pytest.fixture(scope="module")
@@ -81,7 +81,7 @@ def test_max_places_reproduce_the_threshold(demo_place, tmp_path):
 
 def test_positions_respect_exclusions_and_footprint(demo_place):
     """No position whose footprint touches an exclusion zone or leaves the allowed area."""
-    from siting.runs.screen import _source_elements
+    from siting.runs.screening import _source_elements
 
     folder = demo_dir()
     dwellings = gpd.read_file(folder / "dwellings.gpkg").union_all().buffer(100.0)

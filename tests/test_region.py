@@ -1,4 +1,4 @@
-"""Checks of siting.runs.region and `siting region`: many farms over a region, tiled, on dask.
+"""Checks of siting.runs.regional and `siting region`: many farms over a region, tiled, on dask.
 
 Expected values are cross-checks (tiled vs one tile, dask vs no dask, the grid and site figures
 vs the engine's direct per-farm sum), conservation (contributors add up to the site total), the
@@ -24,7 +24,7 @@ from siting.output.region import SITE_COLUMNS
 from siting.physics.constants import UG_PER_G, kg_per_year_to_g_s
 from siting.readers.resources import demo_dir
 from siting.readers.tables import load_tables
-from siting.runs.region import (
+from siting.runs.regional import (
     CONTRIBUTOR_COLUMNS,
     FarmFields,
     RegionOptions,
@@ -182,7 +182,7 @@ def test_distributed_run_is_identical_to_plain(plain, farms_file, weather_csv, h
 def test_unreachable_scheduler_is_a_clear_error(farms_file, weather_csv, monkeypatch):
     """A scheduler address nobody listens on: InputError naming --scheduler."""
     pytest.importorskip("distributed")
-    monkeypatch.setattr("siting.runs.region.SCHEDULER_CONNECT_TIMEOUT_S", 1.0)
+    monkeypatch.setattr("siting.runs.regional.SCHEDULER_CONNECT_TIMEOUT_S", 1.0)
     with pytest.raises(InputError, match="--scheduler"):
         _run(farms_file, weather_csv, None, scheduler="tcp://127.0.0.1:9")
 

@@ -23,7 +23,7 @@ from siting.cli import main
 from siting.errors import InputError, InputFileError
 from siting.readers.resources import demo_dir
 from siting.readers.scenario import load_scenario
-from siting.runs.screen import screen
+from siting.runs.screening import screen
 
 SCENARIO_DIR = "scenario"  # the copy of data_demo/ inside tmp_path
 

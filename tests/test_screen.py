@@ -15,7 +15,7 @@ import numpy as np
 from numpy.testing import assert_allclose
 
 from siting.physics.constants import UG_NH3_M2_S_TO_KG_N_HA_YR
-from siting.runs.screen import screen
+from siting.runs.screening import screen
 
 X0, Y0 = 500_000.0, 5_800_000.0
 
@@ -215,7 +215,7 @@ def test_roof_outlet_in_the_wake_gets_no_rise_a_clear_stack_does(tmp_path):
     51.100(ii), confirmed in a secondary copy): a 9 m outlet beside a 6 m house (wake height
     15 m) gets none and reads like a jet-less outlet; a 20 m stack clear of it gets rise."""
     from siting.readers.scenario import load_scenario
-    from siting.runs.screen import outlet_rise
+    from siting.runs.screening import outlet_rise
 
     rows = {}
     for name, height, building in (

@@ -8,7 +8,7 @@ from numpy.testing import assert_allclose
 
 from siting.cli import main
 from siting.readers.resources import demo_dir
-from siting.runs.screen import screen
+from siting.runs.screening import screen
 
 X0, Y0 = 500_000.0, 5_800_000.0
 

@@ -5,7 +5,7 @@ import dataclasses
 from numpy.testing import assert_allclose
 
 from siting.readers.resources import demo_dir
-from siting.runs.screen import screen
+from siting.runs.screening import screen
 
 
 def test_velocity_variants_without_depletion_equal_a_rerun():

@@ -11,7 +11,7 @@ from siting.output.folder import check_output_dir
 from siting.output.place import write_place_outputs
 from siting.output.records import input_paths
 from siting.readers.scenario import load_scenario
-from siting.runs.place import place
+from siting.runs.placing import place
 
 
 def run(args) -> int:

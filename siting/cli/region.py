@@ -9,7 +9,7 @@ from pathlib import Path
 from siting.cli.terminal import EXIT_OK, plain, print_warnings
 from siting.output.folder import check_output_dir
 from siting.output.region import write_region_outputs
-from siting.runs.region import FarmFields, RegionOptions, region
+from siting.runs.regional import FarmFields, RegionOptions, region
 
 
 def run(args) -> int:

@@ -20,7 +20,7 @@ from siting.output.records import input_paths
 from siting.output.screen import estimate_screen_bytes, write_outputs
 from siting.presentation.formats import most_affected_order
 from siting.readers.scenario import load_scenario
-from siting.runs.screen import screen
+from siting.runs.screening import screen
 
 
 def _summary_rows(sites):

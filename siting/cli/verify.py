@@ -8,7 +8,7 @@ from pathlib import Path
 from siting.cli.terminal import plain
 from siting.output.folder import check_output_dir
 from siting.output.verify import write_verify_outputs
-from siting.runs.verify import verify
+from siting.runs.verification import verify
 
 
 def run(args) -> int:

@@ -24,7 +24,7 @@ from siting.output.tables import write_csv
 from siting.physics.constants import deposition_kg_n_ha_yr
 
 if TYPE_CHECKING:  # the type only: a run's result is written, never computed, here
-    from siting.runs.region import RegionResult
+    from siting.runs.regional import RegionResult
 
 
 SITE_COLUMNS = [

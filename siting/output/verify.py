@@ -13,7 +13,7 @@ from siting.output.folder import check_output_dir, staged_folder
 from siting.presentation.verify_report import write_verify_report
 
 if TYPE_CHECKING:  # the type only: a run's result is written here, never computed
-    from siting.runs.verify import VerifyResult
+    from siting.runs.verification import VerifyResult
 
 
 def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = False) -> Path:

@@ -1,6 +1,6 @@
 """The verification report (verify.html) that ``siting verify`` writes.
 
-This adapter turns what :mod:`siting.runs.verify` found into one self-contained HTML file for the
+This adapter turns what :mod:`siting.runs.verification` found into one self-contained HTML file for the
 regulator's file: inline CSS, no scripts, no links outside the file, so it reads the same offline
 years later. No checking happens here: the verdict, the input hashes, the figure comparison, the
 plausibility findings and the sensitivity runs all arrive as plain data, and this module only

@@ -31,7 +31,7 @@ def sensitivity(scenario, result, weather_files=(), *, run) -> tuple[pd.DataFram
     down and up; other weather records where given. Variants are computed at the sites' own
     points only (no grid), so a variant's site maximum can sit a little below the central
     run's where a grid node inside a site held it. ``run`` is the screening function the
-    variants are re-run with (``siting.runs.screen.screen``; passed in, so this module does not
+    variants are re-run with (``siting.runs.screening.screen``; passed in, so this module does not
     import the pipeline that calls it).
     """
     variants = _Variants(scenario, result, run)

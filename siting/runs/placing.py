@@ -36,7 +36,7 @@ from siting.physics.constants import KG_YR_TO_G_S, UG_NH3_M2_S_TO_KG_N_HA_YR
 from siting.readers.habitats import read_vector_layer, site_outline_points
 from siting.readers.scenario import Scenario, load_scenario
 from siting.readers.tables import default_reduction_percent
-from siting.runs.screen import BOUNDARY_SPACING_M, Prepared, _source_elements, prepare
+from siting.runs.screening import BOUNDARY_SPACING_M, Prepared, _source_elements, prepare
 
 MAX_CANDIDATES = 200_000
 

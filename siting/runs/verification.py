@@ -32,8 +32,8 @@ from siting.output.records import sha256_of
 from siting.readers.scenario import load_scenario
 from siting.readers.submission import Submission, load_submission
 from siting.readers.tables import default_reduction_percent, is_claimed_reduction, load_tables
-from siting.runs import screen as screening  # screening.screen at call time: tests stand one in
-from siting.runs.screen import CAUTIONS, outlet_rise, site_lat_lon
+from siting.runs import screening  # screening.screen at call time: tests stand one in
+from siting.runs.screening import CAUTIONS, outlet_rise, site_lat_lon
 from siting.runs.sensitivity import sensitivity  # noqa: F401  (part of the verify API)
 
 #: Site figures compared between the submission and the re-run.
