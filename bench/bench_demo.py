@@ -28,7 +28,7 @@ def main() -> None:
     parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args()
     scenario = load_scenario(demo_dir() / "scenario.toml")
-    weather, _, _ = read_frequency_table(scenario.weather.frequency_table)
+    weather, _ = read_frequency_table(scenario.weather.frequency_table)
     n_classes = int(np.count_nonzero(weather.frequency_fraction.sum(axis=0)))
     n_elements = sum(len(_source_elements(s)[0]) for s in scenario.sources)
     rows = []

@@ -485,7 +485,7 @@ def during_dispersion(ws, mp):
 
 def weather_second_chart(ws, mp):
     """siting weather: the wind rose is written, the stability chart is being drawn."""
-    wrap(mp, _mod("siting.presentation.figures"), "stability_by_speed_png", after=False)
+    wrap(mp, _mod("siting.presentation.weather_figures"), "stability_by_speed_figure", after=False)
 
 
 def place_positions_csv(ws, mp):

@@ -36,7 +36,7 @@ CELL_M = 100.0
 @pytest.fixture(scope="module")
 def weather():
     """The invented demo frequency table: 12 sectors x 4 speeds x 6 classes."""
-    table, _, _ = read_frequency_table(demo_dir() / "weather_table.csv")
+    table, _ = read_frequency_table(demo_dir() / "weather_table.csv")
     return table
 
 

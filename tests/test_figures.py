@@ -1,6 +1,12 @@
-"""Tests of siting.presentation.figures: the report figures render to PNG, hostile names included."""
+"""Tests of the figure modules (siting.presentation.figures, weather_figures, figure_parts): the
+figures draw into a new Figure or a caller's Axes and render to PNG, hostile names included."""
 
 from __future__ import annotations
+
+import io
+import subprocess
+import sys
+import textwrap
 
 import geopandas as gpd
 import numpy as np
@@ -9,26 +15,31 @@ import pytest
 from matplotlib.collections import LineCollection
 from matplotlib.figure import Figure
 from numpy.testing import assert_allclose
+from PIL import Image
 from shapely.geometry import MultiPolygon, Point, Polygon, box
 from synthetic import hostile_sites
 
+from siting.dispersion.hourly import HourlyWeather
 from siting.dispersion.sector import WeatherClasses
 from siting.errors import InputError
-from siting.presentation import figures
 from siting.presentation.figures import (
     MAX_LABELLED_SITES,
     _site_outlines,
-    _table_rose_percent,
     deposition_figure,
     figure_png,
     pc_vs_distance_figure,
-    wind_rose_from_table_png,
 )
 from siting.presentation.formats import most_affected_order
+from siting.presentation.weather_figures import (
+    _table_rose_percent,
+    stability_by_speed_figure,
+    wind_rose_figure,
+    wind_rose_from_table_figure,
+)
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 
-#: Words of the note a figure carries when it names only some sites (figures._labels_note).
+#: Words of the note a figure carries when it names only some sites (figure_parts.labels_note).
 NOTE_WORDS = "Only the most affected sites are named"
 
 
@@ -41,13 +52,13 @@ def test_figure_png_returns_png_bytes():
 
 def test_pc_vs_distance_figure_with_hostile_names():
     """Names with $ and backslashes are drawn as plain text (no mathtext error)."""
-    assert pc_vs_distance_figure(hostile_sites()).startswith(PNG_MAGIC)
+    assert figure_png(pc_vs_distance_figure(hostile_sites())).startswith(PNG_MAGIC)
 
 
 def test_pc_vs_distance_figure_without_positive_values():
     """A table without positive deposition still gives a PNG (a note instead of points)."""
     sites = hostile_sites().assign(pc_dep_max_kg_n_ha_yr=0.0)
-    assert pc_vs_distance_figure(sites).startswith(PNG_MAGIC)
+    assert figure_png(pc_vs_distance_figure(sites)).startswith(PNG_MAGIC)
 
 
 def test_deposition_figure_returns_png():
@@ -57,7 +68,7 @@ def test_deposition_figure_returns_png():
     grid[0, 0] = np.nan
     sites = gpd.GeoDataFrame({"name": ["a$b$\\c"]}, geometry=[box(100, -300, 300, -100)])
     sources = gpd.GeoDataFrame({"source_id": ["H1"]}, geometry=[Point(500, -375)])
-    png = deposition_figure(
+    fig = deposition_figure(
         grid,
         west_m=0.0,
         north_m=0.0,
@@ -67,7 +78,7 @@ def test_deposition_figure_returns_png():
         contours=[(1.0, "1 $kg$")],
         crs_label="EPSG:32632",
     )
-    assert png.startswith(PNG_MAGIC)
+    assert figure_png(fig).startswith(PNG_MAGIC)
 
 
 def _table(n_sectors: int = 12, first_deg: float = 0.0) -> WeatherClasses:
@@ -81,8 +92,10 @@ def _table(n_sectors: int = 12, first_deg: float = 0.0) -> WeatherClasses:
 
 def test_table_wind_rose_returns_png():
     """A frequency table gives a wind rose PNG, also with sectors not centred on north."""
-    assert wind_rose_from_table_png(_table()).startswith(PNG_MAGIC)
-    assert wind_rose_from_table_png(_table(16, first_deg=11.25)).startswith(PNG_MAGIC)
+    assert figure_png(wind_rose_from_table_figure(_table())).startswith(PNG_MAGIC)
+    assert figure_png(wind_rose_from_table_figure(_table(16, first_deg=11.25))).startswith(
+        PNG_MAGIC
+    )
 
 
 def test_table_wind_rose_shares_add_up_to_the_time():
@@ -108,7 +121,7 @@ def test_table_wind_rose_rejects_a_misshapen_table():
     table = _table()
     bad = WeatherClasses(table.sector_centres_deg, table.speeds_m_s[:2], table.frequency_fraction)
     with pytest.raises(InputError, match="frequency_fraction"):
-        wind_rose_from_table_png(bad)
+        wind_rose_from_table_figure(bad)
 
 
 # --------------------------------------------------------------------------------------------
@@ -140,37 +153,23 @@ def _many_sites() -> gpd.GeoDataFrame:
     )
 
 
-@pytest.fixture
-def drawn(monkeypatch):
-    """The Figure objects the figure functions render, kept for inspection."""
-    kept = []
-    render = figures.figure_png
-
-    def keep(fig, dpi=110):
-        kept.append(fig)
-        return render(fig, dpi)
-
-    monkeypatch.setattr(figures, "figure_png", keep)
-    return kept
-
-
 def _texts(fig) -> list[str]:
     """Every text drawn in the figure's axes (names, notes, contour labels)."""
     return [t.get_text() for ax in fig.axes for t in ax.texts]
 
 
-def _deposition_of(sites) -> bytes:
+def _deposition_of(sites) -> Figure:
     rows, cols = np.mgrid[0:40, 0:40]
     grid = 20.0 * np.exp(-np.hypot(rows - 20, cols - 20) / 8.0)  # synthetic, spans ~0.01-20
     return deposition_figure(grid, west_m=-100.0, north_m=100.0, cell_m=25.0, sites=sites)
 
 
-def test_deposition_figure_names_at_most_the_cap_of_many_sites(drawn):
+def test_deposition_figure_names_at_most_the_cap_of_many_sites():
     """200 sites: all 200 outlined in one LineCollection, at most 15 named, the most affected
     among them, and a note says only the most affected are named (cap: common practice, no
     source)."""
-    _deposition_of(_many_sites())
-    fig = drawn[-1]
+    fig = _deposition_of(_many_sites())
+    assert figure_png(fig).startswith(PNG_MAGIC)
     names = [t for t in _texts(fig) if t.startswith("Site ")]
     assert 1 <= len(names) <= MAX_LABELLED_SITES == 15
     assert "Site 199" in names  # analytic: the highest % of load over its threshold
@@ -180,12 +179,12 @@ def test_deposition_figure_names_at_most_the_cap_of_many_sites(drawn):
     assert len(collections) == 1 and len(collections[0].get_segments()) == N_MANY  # one ring each
 
 
-def test_pc_vs_distance_figure_names_at_most_the_cap_of_many_sites(drawn):
+def test_pc_vs_distance_figure_names_at_most_the_cap_of_many_sites():
     """200 sites: every point drawn, at most 15 named (the most affected first), a note, and
     the legend beside the axes rather than placed 'best' among the points."""
     sites = pd.DataFrame(_many_sites().drop(columns="geometry"))
-    assert pc_vs_distance_figure(sites).startswith(PNG_MAGIC)
-    fig = drawn[-1]
+    fig = pc_vs_distance_figure(sites)
+    assert figure_png(fig).startswith(PNG_MAGIC)
     names = [t for t in _texts(fig) if t.startswith("Site ")]
     assert 1 <= len(names) <= MAX_LABELLED_SITES
     assert "Site 199" in names
@@ -196,10 +195,9 @@ def test_pc_vs_distance_figure_names_at_most_the_cap_of_many_sites(drawn):
     assert legend is not None and legend._loc != 0  # 0 is matplotlib's code for "best"
 
 
-def test_few_sites_are_all_named_without_a_note(drawn):
+def test_few_sites_are_all_named_without_a_note():
     """The four synthetic sites are named as before, and no note is added."""
-    pc_vs_distance_figure(hostile_sites())
-    texts = _texts(drawn[-1])
+    texts = _texts(pc_vs_distance_figure(hostile_sites()))
     plotted = hostile_sites().dropna(subset=["pc_dep_max_kg_n_ha_yr"])["name"]
     assert sorted(t for t in texts if t in set(plotted)) == sorted(plotted)
     assert not any(NOTE_WORDS in t for t in texts)
@@ -226,3 +224,177 @@ def test_site_outlines_give_every_ring():
     rings = _site_outlines([holed, parts, None])
     assert len(rings) == 4
     assert all(ring.shape[1] == 2 and (ring[0] == ring[-1]).all() for ring in rings)  # closed
+
+
+# --------------------------------------------------------------------------------------------
+# a caller's Axes: drawn there, its Figure returned; no pyplot
+# --------------------------------------------------------------------------------------------
+
+
+def _hours(n_hours: int = 48) -> HourlyWeather:
+    """An invented record: hourly from 2025-01-01, wind from the west at 0.5-12 m/s (cycling
+    by 0.5 m/s), Pasquill classes A..F in turn."""
+    i = np.arange(n_hours)
+    return HourlyWeather(
+        np.datetime64("2025-01-01T00:00", "s") + i * np.timedelta64(3600, "s"),
+        np.full(n_hours, 270.0),
+        0.5 + (i % 24) * 0.5,
+        i % 6,
+        np.full(n_hours, np.nan),
+    )
+
+
+def _grid() -> np.ndarray:
+    rows, cols = np.mgrid[0:30, 0:40]
+    return 20.0 * np.exp(-np.hypot(rows - 15, cols - 20) / 6.0)  # synthetic, spans ~0.01-20
+
+
+def test_report_figures_draw_into_the_callers_axes():
+    """Given an Axes, each report figure draws on it and returns its Figure; no other Axes is
+    made but the deposition figure's colour bar."""
+    fig = Figure()
+    ax = fig.subplots()
+    assert pc_vs_distance_figure(hostile_sites(), ax=ax) is fig
+    assert fig.axes == [ax]
+    # the three sites with a finite, positive deposition (synthetic.hostile_sites)
+    assert len(ax.collections[0].get_offsets()) == 3
+
+    fig = Figure()
+    ax = fig.subplots()
+    assert deposition_figure(_grid(), west_m=0.0, north_m=0.0, cell_m=25.0, ax=ax) is fig
+    assert len(ax.images) == 1 and ax.images[0].get_array().shape == (30, 40)
+    assert fig.axes[0] is ax and len(fig.axes) == 2  # the map and its colour bar
+
+
+def test_weather_charts_draw_into_the_callers_axes():
+    """Two panels of one caller's Figure: the stability chart on the left, a wind rose on the
+    right (polar); each chart's bars land on its own panel and the caller's Figure comes back.
+    Bar counts, analytic: 6 speed classes x 6 Pasquill classes; 16 sectors x 6 speed classes;
+    12 sectors x 3 class speeds."""
+    fig = Figure(figsize=(12, 5))
+    left = fig.add_subplot(1, 2, 1)
+    right = fig.add_subplot(1, 2, 2, projection="polar")
+    assert stability_by_speed_figure(_hours(), ax=left) is fig
+    assert wind_rose_figure(_hours(), ax=right) is fig
+    assert fig.axes == [left, right]
+    assert len(left.patches) == 6 * 6
+    assert len(right.patches) == 16 * 6
+    assert "48 hours" in left.get_title() and "48 hours" in right.get_title()
+
+    fig = Figure()
+    rose = fig.add_subplot(projection="polar")
+    assert wind_rose_from_table_figure(_table(), ax=rose) is fig
+    assert len(rose.patches) == 12 * 3
+
+
+def test_a_wind_rose_needs_a_polar_axes():
+    """A rose drawn into a plain (Cartesian) Axes is refused rather than drawn wrong."""
+    ax = Figure().subplots()
+    with pytest.raises(ValueError, match="polar"):
+        wind_rose_from_table_figure(_table(), ax=ax)
+    with pytest.raises(ValueError, match="polar"):
+        wind_rose_figure(_hours(), ax=ax)
+
+
+def test_figures_never_touch_pyplot():
+    """Drawing and rendering every figure leaves pyplot unimported (so no global figure state,
+    no figure manager); checked in a fresh interpreter."""
+    code = textwrap.dedent(
+        """
+        import sys
+        import numpy as np
+        import pandas as pd
+        from siting.presentation.figures import figure_png, pc_vs_distance_figure
+        from siting.presentation.figures import deposition_figure
+        from siting.dispersion.sector import WeatherClasses
+        from siting.presentation.weather_figures import wind_rose_from_table_figure
+        sites = pd.DataFrame({"name": ["a", "b"], "distance_m": [100.0, 400.0],
+                              "pc_dep_max_kg_n_ha_yr": [2.0, 0.5]})
+        figure_png(pc_vs_distance_figure(sites))
+        figure_png(deposition_figure(np.ones((4, 5)), west_m=0, north_m=0, cell_m=10.0))
+        table = WeatherClasses(np.arange(4) * 90.0, np.array([2.0]), np.full((4, 1, 6), 1 / 24))
+        figure_png(wind_rose_from_table_figure(table))
+        print("pyplot" if "matplotlib.pyplot" in sys.modules else "no pyplot")
+        """
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == "no pyplot"
+
+
+# --------------------------------------------------------------------------------------------
+# figure_png: one draw, cut to the drawing, as matplotlib's own tight bounding box would cut it
+# --------------------------------------------------------------------------------------------
+
+#: How far figure_png's crop may sit from savefig(bbox_inches="tight")'s [px at 110 dpi]: it
+#: follows the ink, tight follows the artists' boxes (a text's box holds its line height).
+#: Our own tolerance, 0.05 in.
+CROP_TOLERANCE_PX = 6
+
+
+def _png_size(png: bytes) -> tuple[int, int]:
+    return Image.open(io.BytesIO(png)).size
+
+
+def _tight_size(fig) -> tuple[int, int]:
+    """(width, height) [px] of matplotlib's own savefig(bbox_inches="tight"), the reference."""
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", dpi=110, bbox_inches="tight")
+    return _png_size(buffer.getvalue())
+
+
+def _spy_savefig(fig, monkeypatch) -> list:
+    """The bbox_inches of every savefig call on ``fig`` from now on."""
+    calls = []
+    real = fig.savefig
+
+    def savefig(*args, **kwargs):
+        calls.append(kwargs.get("bbox_inches"))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(fig, "savefig", savefig)
+    return calls
+
+
+def test_figure_png_keeps_what_sticks_out_in_one_draw(monkeypatch):
+    """A legend beside the axes, past the figure's right edge, is kept: the PNG is as wide as
+    matplotlib's tight box (reference: matplotlib's own bbox_inches="tight"), wider than the
+    figure, and made from one draw (no tight-box pass)."""
+    fig = Figure(figsize=(4.0, 3.0))
+    ax = fig.subplots()
+    ax.plot([0, 1], [0, 1], label="a legend entry")
+    ax.legend(loc="upper left", bbox_to_anchor=(1.02, 1.0))
+    calls = _spy_savefig(fig, monkeypatch)
+    width, height = _png_size(figure_png(fig))
+    assert "tight" not in calls and len(calls) == 1
+    tight_width, tight_height = _tight_size(fig)
+    assert width > 4.0 * 110  # the figure's own width [px]: the legend is past it
+    assert abs(width - tight_width) <= CROP_TOLERANCE_PX
+    assert abs(height - tight_height) <= CROP_TOLERANCE_PX
+
+
+def test_figure_png_falls_back_to_the_tight_box_when_the_drawing_runs_off(monkeypatch):
+    """A title far wider than the figure and its drawn margin: figure_png saves the matplotlib
+    way, so nothing is cut (the same size as matplotlib's tight box, exactly)."""
+    fig = Figure(figsize=(4.0, 3.0))
+    fig.subplots().set_title("a very long title " * 30)
+    calls = _spy_savefig(fig, monkeypatch)
+    size = _png_size(figure_png(fig))
+    assert calls[-1] == "tight"
+    assert size == _tight_size(fig)
+
+
+def test_report_figures_are_cut_like_the_tight_box():
+    """The report's figures and a wind rose come out within a few pixels of matplotlib's tight
+    box (reference: matplotlib's own bbox_inches="tight")."""
+    sites = gpd.GeoDataFrame({"name": ["Moor"]}, geometry=[box(100, -300, 300, -100)])
+    for fig in (
+        deposition_figure(_grid(), west_m=0.0, north_m=0.0, cell_m=25.0, sites=sites),
+        pc_vs_distance_figure(hostile_sites()),
+        wind_rose_figure(_hours()),
+        stability_by_speed_figure(_hours()),
+    ):
+        width, height = _png_size(figure_png(fig))
+        tight_width, tight_height = _tight_size(fig)
+        assert abs(width - tight_width) <= CROP_TOLERANCE_PX
+        assert abs(height - tight_height) <= CROP_TOLERANCE_PX

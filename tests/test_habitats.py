@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 import shapely
 
-from siting.errors import InputError
+from siting.errors import InputError, collect_warnings
 from siting.readers.habitats import read_habitats, site_sample_points
 from siting.readers.resources import demo_dir
 from siting.readers.scenario import HabitatsSection
@@ -25,7 +25,9 @@ def test_demo_sites_get_values_from_tables(tables):
     """Each demo site's critical load (2022 review, lower end) and threshold equal its table rows
     (read back); with nothing saying lichens and bryophytes are absent, every site gets 1 ug/m3
     (UNECE2007 as reported in Cape2009, confirmed)."""
-    sites, warnings = read_habitats(_section(demo_dir() / "habitats.gpkg"), "EPSG:32632", tables)
+    with collect_warnings(reissue=False) as found:
+        sites = read_habitats(_section(demo_dir() / "habitats.gpkg"), "EPSG:32632", tables)
+    warnings = found.messages
     assert warnings == []
     for row in sites.itertuples():
         habitat = tables.critical_loads[row.habitat]
@@ -52,7 +54,7 @@ def test_reprojection_and_overrides(tmp_path, tables):
         crs="EPSG:32632",
     )
     gdf.to_crs("EPSG:4326").to_file(tmp_path / "h.geojson")
-    sites, _ = read_habitats(
+    sites = read_habitats(
         _section(tmp_path / "h.geojson", critical_level_field="cle", critical_load_field="clo"),
         "EPSG:32632",
         tables,
@@ -73,7 +75,9 @@ def test_unknown_designation_takes_strictest_tier_with_warning(tmp_path, tables)
         crs="EPSG:32632",
     )
     gdf.to_file(tmp_path / "h.gpkg")
-    sites, warnings = read_habitats(_section(tmp_path / "h.gpkg"), "EPSG:32632", tables)
+    with collect_warnings(reissue=False) as found:
+        sites = read_habitats(_section(tmp_path / "h.gpkg"), "EPSG:32632", tables)
+    warnings = found.messages
     assert sites.iloc[0].threshold_percent == min(t["threshold_percent"] for t in tables.thresholds)
     assert any("parish green" in w for w in warnings)
 
@@ -87,7 +91,9 @@ def test_bow_tie_polygon_is_repaired(tmp_path, tables):
         crs="EPSG:32632",
     )
     gdf.to_file(tmp_path / "h.gpkg")
-    sites, warnings = read_habitats(_section(tmp_path / "h.gpkg"), "EPSG:32632", tables)
+    with collect_warnings(reissue=False) as found:
+        sites = read_habitats(_section(tmp_path / "h.gpkg"), "EPSG:32632", tables)
+    warnings = found.messages
     assert sites.iloc[0].geometry.is_valid and sites.iloc[0].area_ha > 0
     assert any("repaired" in w for w in warnings)
 
@@ -118,7 +124,7 @@ def test_sample_points_cover_boundary_nearest_source_and_interior():
 @pytest.mark.parametrize("suffix", [".shp", ".geojson", ".gpkg"])
 def test_common_vector_formats_are_read(tmp_path, tables, suffix):
     """Shapefile, GeoJSON and GeoPackage layers all read the same (any format geopandas reads)."""
-    sites, _ = read_habitats(_section(demo_dir() / "habitats.gpkg"), "EPSG:32632", tables)
+    sites = read_habitats(_section(demo_dir() / "habitats.gpkg"), "EPSG:32632", tables)
     layer = gpd.read_file(demo_dir() / "habitats.gpkg")
     path = tmp_path / f"h{suffix}"
     layer.to_file(path)
@@ -127,7 +133,7 @@ def test_common_vector_formats_are_read(tmp_path, tables, suffix):
     if fields:
         with pytest.raises(InputError, match='did you mean "designatio"'):
             read_habitats(_section(path), "EPSG:32632", tables)
-    again, _ = read_habitats(_section(path, **fields), "EPSG:32632", tables)
+    again = read_habitats(_section(path, **fields), "EPSG:32632", tables)
     assert list(again["name"]) == list(sites["name"])
     assert np.allclose(again["area_ha"], sites["area_ha"], rtol=1e-6)
 
@@ -154,22 +160,24 @@ def test_woodland_gets_1_ug_m3_unless_lichens_are_shown_absent(tmp_path, tables)
         ["broadleaved_woodland"] * 4,
         lichens=["absent", "present", None, None],
     )
-    sites, warnings = read_habitats(
-        _section(
-            path,
-            lichens_bryophytes_field="lichens",
-            lichens_bryophytes_absent=["wood d", "Nowhere Fen"],
-        ),
-        "EPSG:32632",
-        tables,
-    )
+    with collect_warnings(reissue=False) as found:
+        sites = read_habitats(
+            _section(
+                path,
+                lichens_bryophytes_field="lichens",
+                lichens_bryophytes_absent=["wood d", "Nowhere Fen"],
+            ),
+            "EPSG:32632",
+            tables,
+        )
+    warnings = found.messages
     by_name = sites.set_index("name")
     assert list(by_name["critical_level_ug_m3"]) == [3.0, 1.0, 1.0, 3.0]
     assert "absent" in by_name.loc["Wood A", "critical_level_basis"]
     assert "not shown absent" in by_name.loc["Wood C", "critical_level_basis"]
     assert "scenario" in by_name.loc["Wood D", "critical_level_basis"]
     assert any("nowhere fen" in w for w in warnings)  # a name matching no site is said
-    default, _ = read_habitats(_section(path), "EPSG:32632", tables)
+    default = read_habitats(_section(path), "EPSG:32632", tables)
     assert (default["critical_level_ug_m3"] == 1.0).all()
 
 
@@ -184,8 +192,8 @@ def test_critical_load_review_2022_by_default_and_2011_on_request(tmp_path, tabl
     """Dry heath: 2022 review 5-15 (Bobbink2022, from memory) by default, 2011 review 10-20
     (BobbinkHettelingh2011, confirmed range) when asked; lower end used."""
     path = _layer(tmp_path, ["Heath"], ["dry_heath"])
-    now, _ = read_habitats(_section(path), "EPSG:32632", tables)
-    old, _ = read_habitats(_section(path), "EPSG:32632", tables, "lower", "2011")
+    now = read_habitats(_section(path), "EPSG:32632", tables)
+    old = read_habitats(_section(path), "EPSG:32632", tables, "lower", "2011")
     assert now.iloc[0]["critical_load_used_kg_n_ha_yr"] == 5.0  # Bobbink2022, from memory
     assert now.iloc[0]["critical_load_review"] == "2022"
     assert old.iloc[0]["critical_load_used_kg_n_ha_yr"] == 10.0  # BobbinkHettelingh2011
@@ -210,7 +218,9 @@ def test_older_table_without_2022_values_falls_back_with_a_warning(tmp_path):
     path.write_text(text)
     old_tables = load_tables(folder)
     layer = _layer(tmp_path, ["Heath"], ["dry_heath"])
-    sites, warnings = read_habitats(_section(layer), "EPSG:32632", old_tables)
+    with collect_warnings(reissue=False) as found:
+        sites = read_habitats(_section(layer), "EPSG:32632", old_tables)
+    warnings = found.messages
     assert sites.iloc[0]["critical_load_used_kg_n_ha_yr"] == 10.0
     assert sites.iloc[0]["critical_load_review"] == "2011"
     assert any("no 2022 range" in w for w in warnings)
@@ -288,7 +298,9 @@ def test_field_names_need_not_be_python_identifiers(tmp_path, tables):
         critical_load_field="2022 load",
         background_deposition_field="bg dep",
     )
-    sites, warnings = read_habitats(section, "EPSG:32632", tables)
+    with collect_warnings(reissue=False) as found:
+        sites = read_habitats(section, "EPSG:32632", tables)
+    warnings = found.messages
     row = sites.iloc[0]
     assert warnings == []
     assert (row["name"], row["habitat"]) == ("Moss", "raised_bog")
@@ -399,5 +411,8 @@ def test_very_long_polygon_gets_bounded_points_and_a_warning():
     assert (index == 0).sum() <= MAX_POINTS_PER_SITE + 2
     b_index, *_ = site_boundary_points([strip, small], 10.0)
     assert (b_index == 0).sum() <= MAX_BOUNDARY_POINTS_PER_SITE + 8
-    warnings = coarsened_sites([strip, small], ["Long Strip", "Small"], 25.0, 10.0)
+    with collect_warnings(reissue=False) as found:
+        names = coarsened_sites([strip, small], ["Long Strip", "Small"], 25.0, 10.0)
+    warnings = found.messages
+    assert names == ["Long Strip"]  # the only site too long for the bounded points, by design
     assert len(warnings) == 1 and '"Long Strip"' in warnings[0] and "Small" not in warnings[0]

@@ -32,7 +32,7 @@ HOUSE = ReleaseElement(0.0, 0.0, 4.0, sigma_y0_m=9.3, sigma_z0_m=1.9, min_distan
 
 @pytest.fixture(scope="module")
 def record():
-    weather, _, _ = read_hourly_record(demo_dir() / "hourly_weather.csv", 52.4, 9.0)
+    weather, _ = read_hourly_record(demo_dir() / "hourly_weather.csv", 52.4, 9.0)
     return weather
 
 

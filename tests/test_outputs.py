@@ -43,7 +43,7 @@ def test_existing_folder_without_overwrite_is_refused_and_kept(tmp_path):
     """overwrite=False with an existing folder raises OutputExistsError before the block runs."""
     out_dir = _old_result(tmp_path / "out")
     ran = False
-    with pytest.raises(OutputExistsError, match="--overwrite"):
+    with pytest.raises(OutputExistsError, match="pass overwrite to replace it"):
         with staged_folder(out_dir, overwrite=False):
             ran = True
     assert not ran

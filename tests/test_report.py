@@ -12,8 +12,8 @@ import pytest
 from synthetic import NAMES, hostile_sites
 
 from siting.errors import InputError
-from siting.presentation.figures import pc_vs_distance_figure
-from siting.presentation.report import write_report
+from siting.output.screen import write_report
+from siting.presentation.figures import figure_png, pc_vs_distance_figure
 
 CAUTIONS = [
     "Screening estimate from a simplified model (flat terrain, no building wake, long-term means);"
@@ -122,7 +122,7 @@ def _write(path, **overrides) -> str:
         "cautions": CAUTIONS,
         "method_notes": ["Sector-averaged Gaussian plume, flat terrain."],
         "run_record": RUN_RECORD,
-        "figures": {"PC by distance": pc_vs_distance_figure(hostile_sites())},
+        "figures": {"PC by distance": figure_png(pc_vs_distance_figure(hostile_sites()))},
     }
     arguments.update(overrides)
     write_report(path, **arguments)
@@ -379,7 +379,7 @@ def test_net_change_table_lists_each_site():
 
 def test_weather_figures_follow_the_weather_summary(tmp_path):
     """Weather charts sit in section 2 right after the weather table, not among the figures."""
-    png = pc_vs_distance_figure(hostile_sites())
+    png = figure_png(pc_vs_distance_figure(hostile_sites()))
     text = _write(tmp_path / "report.html", weather_figures={"Wind rose <of the table>": png})
     weather = _between(text, '<div class="weather" id="weather"><h3>Weather</h3>', "<h3>Habitats")
     table_end = weather.index("</table>")

@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 
 from siting.errors import InputError
-from siting.presentation.verify_report import write_verify_report
+from siting.output.verify import write_verify_report
 
 HOSTILE_SUBJECT = 'site "<script>alert(1)</script>"'
 

@@ -76,7 +76,7 @@ def test_weather_writes_four_files_and_a_usable_table(tmp_path):
     )
     assert rc == 0, stderr
     assert {p.name for p in out.iterdir()} == OUTPUTS | {".siting-output"}
-    classes, table_summary, _ = read_frequency_table(out / "frequency_table.csv")
+    classes, table_summary = read_frequency_table(out / "frequency_table.csv")
     assert_allclose(classes.frequency_fraction.sum(), 1.0, rtol=1e-12)
     assert table_summary["sectors"] == 12
     record = json.loads((out / "summary.json").read_text(encoding="utf-8"))
@@ -191,7 +191,7 @@ def test_naive_times_need_utc_offset(tmp_path):
 def test_demo_hourly_flag_is_parsed():
     """`siting demo --hourly` selects the hourly demo (the run itself is timed by hand)."""
     args = build_parser().parse_args(["demo", "--hourly"])
-    assert args.hourly is True and args.out is None
+    assert args.hourly is True and args.out_dir is None
 
 
 @pytest.mark.parametrize(

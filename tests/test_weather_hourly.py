@@ -8,7 +8,7 @@ import pandas as pd
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.errors import InputError
+from siting.errors import InputError, collect_warnings
 from siting.physics.plume import STABILITY_CLASSES
 from siting.readers.frequency_table import read_frequency_table
 from siting.readers.hourly_record import (
@@ -48,7 +48,7 @@ def test_frequency_table_from_hourly_counts_and_reads_back(tmp_path):
         f"{_stamp(4)},90,12.0,C",
         f"{_stamp(5)},270,1.2,F",
     ]
-    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    weather, summary = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
     table = frequency_table_from_hourly(weather, n_sectors=12)
     assert len(table) == 12 * 6 * 6  # every sector x speed class x class A-F (complete table)
     assert table["hours"].sum() == 6 and table["frequency"].sum() == pytest.approx(1.0)
@@ -73,7 +73,9 @@ def test_frequency_table_from_hourly_counts_and_reads_back(tmp_path):
 
     path = tmp_path / "table.csv"
     table.to_csv(path, index=False)
-    classes, table_summary, warnings = read_frequency_table(path)
+    with collect_warnings(reissue=False) as found:
+        classes, table_summary = read_frequency_table(path)
+    warnings = found.messages
     assert warnings == [] and table_summary["frequencies_given_as"] == "fractions"
     assert_allclose(classes.frequency_fraction.sum(), 1.0, rtol=1e-12)
     # cross-check: the table's mean speed equals the record's (class means keep the sum)
@@ -86,9 +88,11 @@ def test_missing_hours_counted_and_gaps_listed(tmp_path):
     """Absent rows (3 h) and an empty value (1 h) are missing, never filled; gaps longest first."""
     present = [h for h in range(24) if h not in (5, 6, 7)]  # hours 5-7 absent
     rows = [f"{_stamp(h)},200,{'' if h == 12 else '4.0'},D" for h in present]  # 12 empty
-    weather, summary, warnings = read_hourly_record(
-        _hourly(tmp_path, rows), LAT, LON, max_missing_percent=20.0
-    )
+    with collect_warnings(reissue=False) as found:
+        weather, summary = read_hourly_record(
+            _hourly(tmp_path, rows), LAT, LON, max_missing_percent=20.0
+        )
+    warnings = found.messages
     assert summary["hours_expected"] == 24  # first to last time, hourly (analytic)
     assert summary["hours_used"] == weather.n_hours == 20
     assert summary["hours_missing"] == 4
@@ -117,7 +121,7 @@ def test_calm_rule_applied_and_reported(tmp_path):
         f"{_stamp(6)},,0.0,F",  # calm, empty: last non-calm is hour 5 (250)
         f"{_stamp(7)},360,5.0,D",
     ]  # 360 = north, stored as 0
-    weather, summary, _ = read_hourly_record(
+    weather, summary = read_hourly_record(
         _hourly(tmp_path, rows), LAT, LON, calm_threshold_m_s=0.5, min_wind_speed_m_s=1.0
     )
     assert_allclose(weather.direction_deg, [200, 200, 200, 200, 90, 250, 250, 0])
@@ -132,7 +136,9 @@ def test_calm_rule_applied_and_reported(tmp_path):
 def test_many_calms_warn(tmp_path):
     """More than 10 % calms is legal but doubtful: a warning names the share."""
     rows = [f"{_stamp(h)},200,{0.0 if h % 3 == 0 else 4.0},D" for h in range(12)]
-    _, summary, warnings = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    with collect_warnings(reissue=False) as found:
+        _, summary = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    warnings = found.messages
     assert summary["calm_percent"] == pytest.approx(100 * 4 / 12)
     assert any("33.3 % of the hours used are calm" in w for w in warnings)
 
@@ -145,9 +151,9 @@ def test_iso_offset_and_naive_plus_offset_give_the_same_utc(tmp_path):
     local = [f"{_stamp(h, '')},200,4.0,D" for h in range(3)]
     with_offset = [f"{_stamp(h, '+01:00')},200,4.0,D" for h in range(3)]
     as_utc = [f"{_stamp(h - 1, 'Z')},200,4.0,D" for h in range(3)]
-    a, sa, _ = read_hourly_record(_hourly(tmp_path, with_offset, name="a.csv"), LAT, LON)
-    b, _, _ = read_hourly_record(_hourly(tmp_path, local, name="b.csv"), LAT, LON, utc_offset_h=1.0)
-    c, _, _ = read_hourly_record(_hourly(tmp_path, as_utc, name="c.csv"), LAT, LON)
+    a, sa = read_hourly_record(_hourly(tmp_path, with_offset, name="a.csv"), LAT, LON)
+    b, _ = read_hourly_record(_hourly(tmp_path, local, name="b.csv"), LAT, LON, utc_offset_h=1.0)
+    c, _ = read_hourly_record(_hourly(tmp_path, as_utc, name="c.csv"), LAT, LON)
     assert (a.time_utc == b.time_utc).all() and (a.time_utc == c.time_utc).all()
     assert a.time_utc[0] == np.datetime64("2025-02-28T23:00:00")
     assert sa["first_time_utc"] == "2025-02-28T23:00Z"
@@ -174,7 +180,7 @@ def test_clear_summer_noon_is_unstable_and_overcast_is_neutral(tmp_path):
     -> A; 8 oktas with a 3000 ft ceiling (< 7000 ft) -> NRI 0 -> D at any speed.
     """
     rows = ["2025-06-21T12:00Z,200,2.0,0,", "2025-06-21T13:00Z,200,2.0,8,3000"]
-    weather, summary, _ = read_hourly_record(
+    weather, summary = read_hourly_record(
         _hourly(tmp_path, rows, header="time,direction_deg,speed_m_s,cloud_oktas,ceiling_ft"),
         LAT,
         LON,
@@ -187,7 +193,7 @@ def test_clear_summer_noon_is_unstable_and_overcast_is_neutral(tmp_path):
 def test_given_stability_is_used_as_is(tmp_path):
     """A stability column is taken as given (lower case accepted), not recomputed."""
     rows = ["2025-06-21T12:00Z,200,2.0,f", "2025-06-21T13:00Z,200,9.0,A"]
-    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    weather, summary = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
     assert [STABILITY_CLASSES[i] for i in weather.stability_index] == ["F", "A"]
     assert summary["stability_method"] == "given"
     assert summary["stability_share"]["F"] == pytest.approx(0.5)
@@ -200,7 +206,7 @@ def test_several_files_join_in_time_order_and_must_not_overlap(tmp_path):
     """
     late = _hourly(tmp_path, [f"{_stamp(h)},200,4.0,D" for h in (3, 4)], name="late.csv")
     early = _hourly(tmp_path, [f"{_stamp(h)},200,4.0,D" for h in (0, 1)], name="early.csv")
-    weather, summary, _ = read_hourly_record([late, early], LAT, LON, max_missing_percent=20.0)
+    weather, summary = read_hourly_record([late, early], LAT, LON, max_missing_percent=20.0)
     assert summary["files"] == ["early.csv", "late.csv"]
     assert weather.n_hours == 4 and summary["hours_missing"] == 1  # hour 2
     overlap = _hourly(tmp_path, [f"{_stamp(h)},200,4.0,D" for h in (1, 2)], name="overlap.csv")
@@ -211,7 +217,7 @@ def test_several_files_join_in_time_order_and_must_not_overlap(tmp_path):
 def test_temperature_summary(tmp_path):
     """temperature_c is carried hour by hour; min/mean/max over the hours used."""
     rows = [f"{_stamp(h)},200,4.0,D,{t}" for h, t in enumerate(("1.5", "", "4.5"))]
-    weather, summary, _ = read_hourly_record(
+    weather, summary = read_hourly_record(
         _hourly(tmp_path, rows, header=HOURLY_HEADER + ",temperature_c"), LAT, LON
     )
     assert_allclose(weather.temperature_c, [1.5, np.nan, 4.5])
@@ -315,7 +321,7 @@ def test_missing_share_limit_is_a_setting(tmp_path):
     rows = [f"{_stamp(h)},200,4.0,D" for h in range(24) if h not in (3, 4, 5, 6)]
     with pytest.raises(InputError, match="16.7 % of the 24 expected hours"):
         read_hourly_record(_hourly(tmp_path, rows), LAT, LON, max_missing_percent=10.0)
-    _, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON, max_missing_percent=20.0)
+    _, summary = read_hourly_record(_hourly(tmp_path, rows), LAT, LON, max_missing_percent=20.0)
     assert summary["hours_missing"] == 4
 
 
@@ -350,7 +356,9 @@ def test_demo_hourly_record_reads_as_described():
     One year, two gaps of 7 and 3 h, about 3 % calms, prevailing south-westerly (regression on
     the output of data_demo/make_demo.py, seed 20240612, made with this change).
     """
-    weather, summary, warnings = read_hourly_record(demo_dir() / "hourly_weather.csv", 52.4, 9.0)
+    with collect_warnings(reissue=False) as found:
+        weather, summary = read_hourly_record(demo_dir() / "hourly_weather.csv", 52.4, 9.0)
+    warnings = found.messages
     assert summary["hours_expected"] == 8760 and summary["hours_missing"] == 10
     assert [g["hours"] for g in summary["gaps"]] == [7, 3]
     assert 2.0 < summary["calm_percent"] < 4.0
@@ -367,7 +375,7 @@ def test_demo_hourly_record_reads_as_described():
 def test_direction_step_inferred_from_a_ten_degree_record(tmp_path):
     """Directions all multiples of 10 (not of 22.5): step 10 inferred, the plume spread over it."""
     rows = [f"{_stamp(h)},{(h * 70) % 360 or 10},4.0,D" for h in range(24)]
-    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    weather, summary = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
     # by definition of direction_step_deg(): 70 h mod 360 are multiples of 10, 70 is not of 22.5
     assert summary["direction_step_deg"] == 10.0
     assert summary["direction_spread_deg"] == 10.0 and weather.direction_step_deg == 10.0
@@ -381,11 +389,11 @@ def test_direction_step_inferred_from_a_ten_degree_record(tmp_path):
 def test_fine_record_is_used_as_exact(tmp_path):
     """Whole-degree directions: step 1 inferred, not spread (documented rule: <= 1 deg is exact)."""
     rows = [f"{_stamp(h)},{200 + h},4.0,D" for h in range(24)]
-    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    weather, summary = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
     assert summary["direction_step_deg"] == 1.0  # by definition of direction_step_deg()
     assert summary["direction_spread_deg"] == 0.0 and weather.direction_step_deg == 0.0
     rows = [f"{_stamp(h)},{200.3 + h},4.0,D" for h in range(24)]  # no step at all
-    weather, summary, _ = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
+    weather, summary = read_hourly_record(_hourly(tmp_path, rows), LAT, LON)
     assert summary["direction_step_deg"] == 0.0 and weather.direction_step_deg == 0.0
 
 
@@ -393,15 +401,21 @@ def test_given_direction_step_is_honoured(tmp_path):
     """A given step overrides the inferred one, 0 included; one the directions miss warns."""
     rows = [f"{_stamp(h)},{(h * 70) % 360 or 10},4.0,D" for h in range(24)]
     path = _hourly(tmp_path, rows)
-    weather, summary, warnings = read_hourly_record(path, LAT, LON, direction_step_deg=0)
+    with collect_warnings(reissue=False) as found:
+        weather, summary = read_hourly_record(path, LAT, LON, direction_step_deg=0)
+    warnings = found.messages
     assert weather.direction_step_deg == 0.0 and summary["direction_spread_deg"] == 0.0
     assert "used as exact" in summary["direction_rule"]
     assert not any("direction_step_deg" in w for w in warnings)
-    weather, summary, warnings = read_hourly_record(path, LAT, LON, direction_step_deg=5.0)
+    with collect_warnings(reissue=False) as found:
+        weather, summary = read_hourly_record(path, LAT, LON, direction_step_deg=5.0)
+    warnings = found.messages
     assert weather.direction_step_deg == 5.0 and summary["direction_step_deg"] == 5.0
     assert "5-degree interval" in summary["direction_rule"]
     assert not any("direction_step_deg" in w for w in warnings)  # 10 deg data are in 5 deg steps
-    _, _, warnings = read_hourly_record(path, LAT, LON, direction_step_deg=20.0)
+    with collect_warnings(reissue=False) as found:
+        _, _ = read_hourly_record(path, LAT, LON, direction_step_deg=20.0)
+    warnings = found.messages
     assert any("not every direction is a multiple of 20" in w for w in warnings)
 
 

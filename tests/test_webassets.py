@@ -1,4 +1,8 @@
-"""Tests of siting.presentation.webassets: map.html is one self-contained file that works offline."""
+"""Tests of siting.presentation.webassets: map.html is one self-contained file that works offline.
+
+folium is configured (each element's default_js / default_css) to write the vendored files
+inline; these tests check the page folium renders, and that nothing else is needed to run it.
+"""
 
 from __future__ import annotations
 
@@ -13,8 +17,8 @@ from shapely.geometry import Point, box
 
 import siting.presentation.webassets
 from siting.errors import AssetError, SitingError
-from siting.presentation.webassets import inline_assets
-from siting.presentation.webmap import write_screen_map
+from siting.presentation.webassets import render_offline
+from siting.presentation.webmap import render_screen_map
 
 CRS = "EPSG:32632"
 WEST_M, NORTH_M, CELL_M = 500_000.0, 5_700_000.0, 50.0
@@ -26,8 +30,8 @@ LEAFLET_COPYRIGHT = "(c) 2010-2023 Vladimir Agafonkin, (c) 2010-2011 CloudMade"
 JQUERY_BANNER = "jQuery v3.7.1"
 
 
-def _folium_page(*extra_head: str) -> str:
-    """A small folium page with the kinds of layers webmap draws, rendered but not inlined."""
+def _folium_map() -> folium.Map:
+    """A small folium map with the kinds of layers webmap draws, not yet rendered."""
     fmap = folium.Map(location=[51.4, 9.0], zoom_start=13, tiles=None, control_scale=True)
     folium.TileLayer("OpenStreetMap", name="background").add_to(fmap)
     marker = folium.CircleMarker([51.4, 9.0], radius=7)
@@ -35,13 +39,11 @@ def _folium_page(*extra_head: str) -> str:
     folium.Tooltip("tip").add_to(marker)
     marker.add_to(fmap)
     folium.LayerControl(collapsed=False).add_to(fmap)
-    for element in extra_head:
-        fmap.get_root().header.add_child(folium.Element(element))
-    return fmap.get_root().render()
+    return fmap
 
 
-def _write_small_map(path) -> str:
-    """Write a 10 x 12 cell map with one site and one source; return its HTML."""
+def _small_map_arguments() -> dict:
+    """Arguments of a 10 x 12 cell map with one site and one source."""
     rows, cols = np.mgrid[0:10, 0:12]
     grid = 5.0 * np.exp(-np.hypot(rows - 5, cols - 6) / 3.0)  # synthetic, not physics
     centre_x, centre_y = WEST_M + 6 * CELL_M, NORTH_M - 5 * CELL_M
@@ -55,33 +57,44 @@ def _write_small_map(path) -> str:
         geometry=[Point(centre_x, centre_y)],
         crs=CRS,
     )
-    write_screen_map(
-        path,
-        title="offline test",
-        crs=CRS,
-        west_m=WEST_M,
-        north_m=NORTH_M,
-        cell_m=CELL_M,
-        deposition_kg_n_ha_yr=grid,
-        sites=sites,
-        sources=sources,
-        contours=[(1.0, "1 kg N/ha/yr")],
-        cautions=["screening only"],
-        version="0.1.0",
-        run_time="2024-05-01T12:00:00Z",
-    )
-    return path.read_text(encoding="utf-8")
+    return {
+        "title": "offline test",
+        "crs": CRS,
+        "west_m": WEST_M,
+        "north_m": NORTH_M,
+        "cell_m": CELL_M,
+        "deposition_kg_n_ha_yr": grid,
+        "sites": sites,
+        "sources": sources,
+        "contours": [(1.0, "1 kg N/ha/yr")],
+        "cautions": ["screening only"],
+        "version": "0.1.0",
+        "run_time": "2024-05-01T12:00:00Z",
+    }
 
 
 @pytest.fixture(scope="module")
-def map_html(tmp_path_factory) -> str:
-    """A map written once by write_screen_map for the read-only checks."""
-    return _write_small_map(tmp_path_factory.mktemp("offline") / "map.html")
+def map_html() -> str:
+    """A map rendered once by render_screen_map for the read-only checks."""
+    return render_screen_map(**_small_map_arguments())
 
 
 def test_folium_still_links_cdn_assets():
     """The premise: folium's own page links scripts from the network (else this module is moot)."""
-    assert re.search(r'<script src="https://[^"]*leaflet[^"]*\.js"', _folium_page())
+    page = _folium_map().get_root().render()
+    assert re.search(r'<script src="https://[^"]*leaflet[^"]*\.js"', page)
+
+
+def test_folium_defaults_are_left_alone():
+    """The assets are configured on the map instance: folium's class-wide lists, which every
+    other map in the process starts from, still name the CDN files afterwards."""
+    from folium.folium import _default_css, _default_js
+
+    before = (list(folium.Map.default_js), list(folium.Map.default_css))
+    render_offline(_folium_map())
+    assert (folium.Map.default_js, folium.Map.default_css) == before
+    assert folium.Map.default_js is _default_js and folium.Map.default_css is _default_css
+    assert any("leaflet" in url for _name, url in _default_js)
 
 
 def test_written_map_links_no_script_or_style_sheet(map_html):
@@ -110,15 +123,15 @@ def test_licence_notices_reach_the_page(map_html):
 
 
 def test_unneeded_assets_are_dropped():
-    """Bootstrap, icon fonts and awesome-markers, linked by folium, leave no trace."""
-    page = inline_assets(_folium_page())
+    """Bootstrap, icon fonts and awesome-markers, declared by folium, leave no trace."""
+    page = render_offline(_folium_map())
     for name in ("bootstrap", "fontawesome", "awesome-markers", "glyphicons", "awesome.rotate"):
         assert name not in page.lower()
 
 
 def test_css_images_become_data_urls():
     """leaflet.css refers to no image file: layers.png is inline, the marker image is dropped."""
-    page = inline_assets(_folium_page())
+    page = render_offline(_folium_map())
     assert "url(images/" not in page
     assert 'url("data:image/png;base64,' in page
 
@@ -139,38 +152,86 @@ def _default_urls() -> list[str]:
     ]
 
 
+def _declaring(url: str) -> folium.Map:
+    """A map whose own asset lists (on the instance) declare only ``url``."""
+    fmap = folium.Map(location=[51.4, 9.0], tiles=None)
+    fmap.default_js = [("declared", url)] if url.endswith(".js") else []
+    fmap.default_css = [] if url.endswith(".js") else [("declared", url)]
+    return fmap
+
+
 @pytest.mark.parametrize("url", _default_urls())
 def test_every_default_folium_link_is_known(url):
-    """Each script or style sheet folium links by default is either inlined or left out."""
-    tag = f'<script src="{url}"></script>' if url.endswith(".js") else f'<link href="{url}"/>'
-    page = inline_assets(f"<html><head>{tag}</head><body></body></html>")
+    """Each script or style sheet folium declares by default is either inlined or left out."""
+    page = render_offline(_declaring(url))
     assert url not in page
     assert not re.search(r"<(script|link)\b[^>]*\b(src|href)=", page)
 
 
+def test_an_asset_declared_twice_is_written_once():
+    """Leaflet declared by the map and again, under another name, by an element on it (as
+    plugins declare the library they extend) is written once."""
+    from folium.elements import JSCSSMixin
+
+    class _NeedsLeaflet(JSCSSMixin):
+        default_js = [("leaflet_for_plugin", folium.Map.default_js[0][1])]
+
+    fmap = _folium_map()
+    _NeedsLeaflet().add_to(fmap)
+    page = render_offline(fmap)
+    assert page.count(LEAFLET_BANNER) == 1
+
+
 @pytest.mark.parametrize(
-    ("element", "url"),
+    "url",
     [
-        (
-            '<script src="https://cdn.example.org/extra.js"></script>',
-            "https://cdn.example.org/extra.js",
-        ),
-        (
-            '<link rel="stylesheet" href="//cdn.example.org/extra.css"/>',
-            "//cdn.example.org/extra.css",
-        ),
-        ('<link rel="stylesheet" href="local.css">', "local.css"),
-        (
-            '<script src="https://cdn.jsdelivr.net/npm/leaflet@2.0.0/dist/leaflet.js"></script>',
-            "leaflet@2.0.0",
-        ),
+        "https://cdn.example.org/extra.js",
+        "//cdn.example.org/extra.css",
+        "local.css",
+        "https://cdn.jsdelivr.net/npm/leaflet@2.0.0/dist/leaflet.js",
     ],
 )
-def test_unknown_asset_raises_naming_the_url(element, url):
-    """A link siting does not vendor (a new host, a local file, a new major version) is refused."""
-    page = _folium_page(element)
+def test_unknown_asset_raises_naming_the_url(url):
+    """A declared asset siting does not vendor (a new host, a local file, a new major version)
+    is refused, named."""
+    fmap = _folium_map()
+    if url.endswith(".js"):
+        fmap.default_js = [*fmap.default_js, ("extra", url)]
+    else:
+        fmap.default_css = [*fmap.default_css, ("extra", url)]
     with pytest.raises(AssetError, match=re.escape(url)):
-        inline_assets(page)
+        render_offline(fmap)
+
+
+def test_a_plugins_own_asset_is_refused():
+    """An element below the map declaring its own CDN files (folium's Fullscreen plugin) is
+    found and refused, naming its URL."""
+    from folium.plugins import Fullscreen
+
+    fmap = _folium_map()
+    Fullscreen().add_to(fmap)
+    url = Fullscreen.default_js[0][1]
+    with pytest.raises(AssetError, match=re.escape(url)):
+        render_offline(fmap)
+
+
+def test_a_link_added_while_rendering_is_refused():
+    """A script folium links although the map was configured (an element added to the page
+    while it renders) is caught before the page is returned."""
+    from branca.element import JavascriptLink, MacroElement
+
+    class _LateLink(MacroElement):
+        """Adds a CDN script to the page's header only when rendered."""
+
+        def render(self, **kwargs):
+            url = "https://cdn.jsdelivr.net/npm/leaflet@1.9.3/dist/leaflet.js"
+            self.get_root().header.add_child(JavascriptLink(url), name="late")
+            super().render(**kwargs)
+
+    fmap = _folium_map()
+    _LateLink().add_to(fmap)
+    with pytest.raises(AssetError, match="leaflet@1.9.3"):
+        render_offline(fmap)
 
 
 def test_asset_error_is_a_siting_error():
@@ -183,15 +244,39 @@ def test_awesome_marker_is_refused():
     fmap = folium.Map(tiles=None)
     folium.Marker([51.4, 9.0], icon=folium.Icon(color="red")).add_to(fmap)
     with pytest.raises(AssetError, match="awesome-markers"):
-        inline_assets(fmap.get_root().render())
+        render_offline(fmap)
+
+
+def test_awesome_marker_of_a_geojson_is_refused():
+    """An Icon held by a GeoJson's point marker (outside the element's children) is found."""
+    fmap = folium.Map(tiles=None)
+    folium.GeoJson(
+        {"type": "Point", "coordinates": [9.0, 51.4]},
+        marker=folium.Marker(icon=folium.Icon(color="red")),
+    ).add_to(fmap)
+    with pytest.raises(AssetError, match="awesome-markers"):
+        render_offline(fmap)
+
+
+def test_geojson_loaded_over_the_network_is_refused(tmp_path):
+    """GeoJson(embed=False) fetches its data with $.ajax, which the slim jQuery lacks."""
+    data = tmp_path / "sites.geojson"
+    data.write_text('{"type": "FeatureCollection", "features": []}', encoding="utf-8")
+    fmap = folium.Map(tiles=None)
+    folium.GeoJson(str(data), embed=False).add_to(fmap)
+    with pytest.raises(AssetError, match=r"embed=False"):
+        render_offline(fmap)
 
 
 def test_nothing_written_when_an_asset_is_unknown(tmp_path, monkeypatch):
-    """With no known assets, write_screen_map raises AssetError and writes no file."""
+    """With no known assets, the output layer's write_screen_map raises AssetError and writes
+    no file."""
+    from siting.output.screen import write_screen_map
+
     monkeypatch.setattr(siting.presentation.webassets, "_ASSETS", ())
     path = tmp_path / "map.html"
     with pytest.raises(AssetError, match="leaflet"):
-        _write_small_map(path)
+        write_screen_map(path, **_small_map_arguments())
     assert not path.exists()
 
 

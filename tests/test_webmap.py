@@ -1,4 +1,5 @@
-"""Tests of siting.presentation.webmap: map.html content, escaping of user text, overlay, legend, contours."""
+"""Tests of siting.presentation.webmap (and the modules it is split into): map.html content,
+escaping of user text, overlay, legend, contours; the placement map."""
 
 from __future__ import annotations
 
@@ -13,7 +14,7 @@ import pytest
 from shapely.geometry import Point, box
 
 from siting.errors import InputError
-from siting.presentation.webmap import SITE_CLASS, escape_text, write_screen_map
+from siting.presentation.webmap import SITE_CLASS, escape_text, render_screen_map
 
 CRS = "EPSG:32632"
 WEST_M, NORTH_M, CELL_M = 500_000.0, 5_700_000.0, 25.0
@@ -99,8 +100,8 @@ def _sources() -> gpd.GeoDataFrame:
     )
 
 
-def _write(path, contours=((1.0, "1 kg N/ha/yr"),), **overrides) -> str:
-    """Write a map with the synthetic inputs and return its HTML."""
+def _arguments(contours=((1.0, "1 kg N/ha/yr"),), **overrides) -> dict:
+    """The keyword arguments of a map of the synthetic inputs, with ``overrides``."""
     arguments = {
         "title": "Farm <Nord> & `test`",
         "crs": CRS,
@@ -116,8 +117,12 @@ def _write(path, contours=((1.0, "1 kg N/ha/yr"),), **overrides) -> str:
         "run_time": "2024-05-01T12:00:00Z",
     }
     arguments.update(overrides)
-    write_screen_map(path, **arguments)
-    return path.read_text(encoding="utf-8")
+    return arguments
+
+
+def _render(contours=((1.0, "1 kg N/ha/yr"),), **overrides) -> str:
+    """The HTML of a map of the synthetic inputs (render_screen_map)."""
+    return render_screen_map(**_arguments(contours, **overrides))
 
 
 def _geojson_layers(text: str) -> list[dict]:
@@ -146,9 +151,9 @@ def _site_properties(text: str) -> list[dict]:
 
 
 @pytest.fixture(scope="module")
-def map_html(tmp_path_factory) -> str:
-    """The map written once for the read-only checks."""
-    return _write(tmp_path_factory.mktemp("map") / "map.html")
+def map_html() -> str:
+    """The map rendered once for the read-only checks."""
+    return _render()
 
 
 def test_escape_text_neutralises_html_and_template_literals():
@@ -168,11 +173,15 @@ def test_escape_text_handles_missing_and_numbers():
 
 
 def test_map_file_is_written(tmp_path):
-    """write_screen_map writes an HTML file with a Leaflet map."""
+    """The output layer's write_screen_map writes the rendered page, a Leaflet map, as UTF-8."""
+    from siting.output.screen import write_screen_map
+
     path = tmp_path / "map.html"
-    text = _write(path)
-    assert path.exists() and path.stat().st_size > 0
+    write_screen_map(path, **_arguments())
+    text = path.read_text(encoding="utf-8")
+    assert path.stat().st_size > 0
     assert "L.map(" in text
+    assert "Farm &lt;Nord&gt; &amp; &#96;test&#96;" in text  # the title, non-ASCII-safe
 
 
 def test_hostile_site_names_never_appear_raw(map_html):
@@ -222,16 +231,16 @@ def test_title_block_carries_cautions_version_and_time(map_html):
     assert "2024-05-01T12:00:00Z" in map_html
 
 
-def test_contours_appear_for_a_level_in_range(tmp_path):
+def test_contours_appear_for_a_level_in_range():
     """A contour level inside the data range gives a polyline with its label as tooltip."""
-    text = _write(tmp_path / "map.html", contours=[(1.0, "one <kg>")])
+    text = _render(contours=[(1.0, "one <kg>")])
     assert "L.polyline(" in text
     assert "one &lt;kg&gt;" in text and "one <kg>" not in text
 
 
-def test_no_contour_lines_without_levels(tmp_path):
+def test_no_contour_lines_without_levels():
     """Without contour levels no contour line is drawn (the grid edge is the only polyline)."""
-    text = _write(tmp_path / "map.html", contours=[])
+    text = _render(contours=[])
     assert text.count("L.polyline(") == 1 and "siting-grid-edge" in text
 
 
@@ -256,18 +265,20 @@ def test_map_bounds_follow_the_grid(map_html):
     assert 51.4 < lat_s < lat_n < 51.5
 
 
-def test_all_nan_grid_still_writes(tmp_path):
+def test_all_nan_grid_still_renders():
     """A grid with no data gives a map with a fully transparent overlay, without error."""
-    text = _write(tmp_path / "map.html", deposition_kg_n_ha_yr=np.full((5, 6), np.nan))
+    text = _render(deposition_kg_n_ha_yr=np.full((5, 6), np.nan))
     assert "data:image/png;base64," in text
 
 
 def test_bad_crs_and_grid_raise_input_error(tmp_path):
     """A geographic CRS or a 1-D grid is refused before anything is written."""
+    from siting.output.screen import write_screen_map
+
     with pytest.raises(InputError, match="projected"):
-        _write(tmp_path / "a.html", crs="EPSG:4326")
+        write_screen_map(tmp_path / "a.html", **_arguments(crs="EPSG:4326"))
     with pytest.raises(InputError, match="2-D"):
-        _write(tmp_path / "b.html", deposition_kg_n_ha_yr=np.ones(5))
+        write_screen_map(tmp_path / "b.html", **_arguments(deposition_kg_n_ha_yr=np.ones(5)))
     assert not (tmp_path / "a.html").exists() and not (tmp_path / "b.html").exists()
 
 
@@ -281,14 +292,14 @@ def test_popups_hold_formatted_figures(map_html):
     assert html.escape("1500 kg NH3/yr") in map_html
 
 
-def test_overlay_keeps_north_up_and_no_data_transparent(tmp_path):
+def test_overlay_keeps_north_up_and_no_data_transparent():
     """The NaN strip in row 0 (north-west) is transparent in the top-left of the overlay PNG."""
     import base64
     import io
 
     from matplotlib.image import imread
 
-    text = _write(tmp_path / "map.html")
+    text = _render()
     # the overlay's PNG, not the layer-control icon inlined with leaflet.css
     encoded = re.search(
         r'L\.imageOverlay\(\s*"data:image/png;base64,([A-Za-z0-9+/=]+)"', text
@@ -300,11 +311,11 @@ def test_overlay_keeps_north_up_and_no_data_transparent(tmp_path):
     assert rgba[rgba.shape[0] // 2, rgba.shape[1] // 2, 3] > 0  # the peak is coloured
 
 
-def test_pandas_na_shows_as_blank(tmp_path):
+def test_pandas_na_shows_as_blank():
     """A pandas NA in a text column is treated as missing, not shown as '<NA>'."""
     sites = _sites().astype({"designation": "string"})
     sites.loc[0, "designation"] = pd.NA
-    text = _write(tmp_path / "map.html", sites=sites)
+    text = _render(sites=sites)
     assert "&lt;NA&gt;" not in text and "<NA>" not in text
 
 
@@ -345,11 +356,11 @@ def _many_sites(n: int) -> gpd.GeoDataFrame:
     )
 
 
-def test_many_sites_are_one_layer_with_a_feature_each(tmp_path):
+def test_many_sites_are_one_layer_with_a_feature_each():
     """200 sites make one GeoJson layer of 200 features, not 200 layers (one layer keeps the
     page small and quick to write; common practice, no source)."""
     n = 200
-    text = _write(tmp_path / "map.html", sites=_many_sites(n))
+    text = _render(sites=_many_sites(n))
     layers = _site_layers(text)
     assert len(layers) == 1
     assert len(layers[0]["features"]) == n
@@ -376,11 +387,11 @@ def test_site_style_is_keyed_on_the_verdict(map_html):
     assert SITE_CLASS in styler.group(1)
 
 
-def test_place_map_draws_the_sites_as_one_escaped_layer(tmp_path):
+def test_place_map_draws_the_sites_as_one_escaped_layer():
     """The placement map reuses the screening map's single site layer: one GeoJson of every
     site, the stable CSS class, only designation and habitat in the popup, hostile text
     escaped (common practice, no source)."""
-    from siting.presentation.webmap import write_place_map
+    from siting.presentation.webmap_place import render_place_map
 
     centre_x = WEST_M + N_COLS * CELL_M / 2
     centre_y = NORTH_M - N_ROWS * CELL_M / 2
@@ -404,9 +415,7 @@ def test_place_map_draws_the_sites_as_one_escaped_layer(tmp_path):
         geometry=[Point(centre_x, centre_y)],
         crs=CRS,
     )
-    path = tmp_path / "map.html"
-    write_place_map(
-        path,
+    text = render_place_map(
         title="Farm <Nord>",
         crs=CRS,
         west_m=WEST_M,
@@ -421,7 +430,6 @@ def test_place_map_draws_the_sites_as_one_escaped_layer(tmp_path):
         version="0.1.0",
         run_time="2024-05-01T12:00:00Z",
     )
-    text = path.read_text(encoding="utf-8")
     layers = [  # the holding outlines are features without properties
         layer
         for layer in _geojson_layers(text)
@@ -447,10 +455,10 @@ def test_site_popup_shows_the_habitat_name_where_known():
     the frame has no name column (our own display rule, common practice, no source)."""
     import pandas as pd
 
-    from siting.presentation.webmap import _SITE_POPUP_ROWS, _site_popup_values
+    from siting.presentation.webmap_sites import SITE_POPUP_ROWS, site_popup_values
 
-    row = [label for label, _, _ in _SITE_POPUP_ROWS].index("Habitat")
+    row = [label for label, _, _ in SITE_POPUP_ROWS].index("Habitat")
     named = pd.DataFrame({"habitat": ["dry_heath"], "habitat_name": ["Dry heath"]})
-    assert _site_popup_values(named)[0][row] == "Dry heath"
+    assert site_popup_values(named)[0][row] == "Dry heath"
     bare = pd.DataFrame({"habitat": ["dry_heath"]})
-    assert _site_popup_values(bare)[0][row] == "dry_heath"
+    assert site_popup_values(bare)[0][row] == "dry_heath"

@@ -12,10 +12,11 @@ from __future__ import annotations
 
 import importlib
 import sys
+import warnings
 
-from siting.cli.options import build_parser
-from siting.cli.terminal import EXIT_BAD_INPUT, EXIT_INTERNAL
-from siting.errors import SitingError
+from siting.cli.options import build_parser, flags_by_parameter
+from siting.cli.terminal import EXIT_BAD_INPUT, EXIT_INTERNAL, with_flags
+from siting.errors import SitingError, SitingWarning
 from siting.output.folder import InterruptedAfterWriting
 
 
@@ -53,9 +54,14 @@ def main(argv: list[str] | None = None) -> int:
         # the command's own module, imported only now: `siting --help` or a bad option costs
         # no import of the numerical stack (start-up time), and a command loads only its own
         command = importlib.import_module(f"siting.cli.{args.command_module}")
-        return command.run(args)
+        with warnings.catch_warnings():
+            # a run keeps its warnings on its result and the command prints them in its
+            # summary (with the options they name); Python's display would repeat them
+            warnings.simplefilter("ignore", SitingWarning)
+            return command.run(args)
     except SitingError as exc:
-        print(f"siting: error: {exc}", file=sys.stderr)
+        message = with_flags(exc, flags_by_parameter(args.command))
+        print(f"siting: error: {message}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except InterruptedAfterWriting as exc:
         print(

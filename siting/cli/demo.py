@@ -13,5 +13,7 @@ def run(args) -> int:
     name, scenario = (
         ("demo_hourly", "scenario_hourly.toml") if args.hourly else ("demo", "scenario.toml")
     )
-    out = Path(args.out) if args.out else Path("maps") / name
-    return screen_scenario(demo_dir() / scenario, out, args.overwrite, False, args.quiet)
+    out = Path(args.out_dir) if args.out_dir else Path("maps") / name
+    return screen_scenario(
+        demo_dir() / scenario, out, args.overwrite, False, args.quiet, command="demo"
+    )

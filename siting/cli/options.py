@@ -2,11 +2,16 @@
 
 argparse only, so `siting --help` and a bad option cost no import of the numerical stack.
 Each sub-parser records its command's name; ``siting.cli.main`` runs the module of that name.
+
+An option's ``dest`` is the name of the Python parameter it sets (``--spacing`` ->
+``spacing_m``, ``--out`` -> ``out_dir``): library messages name parameters, never options, and
+:func:`flags_by_parameter` gives the command line's own name for each.
 """
 
 from __future__ import annotations
 
 import argparse
+import functools
 
 from siting._version import __version__
 from siting.cli.terminal import EXIT_BAD_INPUT
@@ -61,7 +66,9 @@ def _add_screen(sub: argparse._SubParsersAction, common: argparse.ArgumentParser
         description="Full screening assessment of a scenario (TOML).",
     )
     p.add_argument("scenario", help="scenario file (TOML)")
-    p.add_argument("--out", help="output folder (default: maps/<scenario file name>)")
+    p.add_argument(
+        "--out", dest="out_dir", help="output folder (default: maps/<scenario file name>)"
+    )
     p.add_argument(
         "--fail-on-exceed",
         action="store_true",
@@ -78,7 +85,9 @@ def _add_demo(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) 
         help="run the bundled invented demo",
         description="Run the invented demo scenario into ./maps/demo/.",
     )
-    p.add_argument("--out", help="output folder (default: maps/demo, or maps/demo_hourly)")
+    p.add_argument(
+        "--out", dest="out_dir", help="output folder (default: maps/demo, or maps/demo_hourly)"
+    )
     p.add_argument(
         "--hourly",
         action="store_true",
@@ -109,14 +118,22 @@ def _add_weather(sub: argparse._SubParsersAction, common: argparse.ArgumentParse
     )
     p.add_argument(
         "--lat",
+        dest="latitude_deg",
         type=float,
         required=True,
         help="site latitude [deg north], -90..90 (sets the sun for Turner's method)",
     )
-    p.add_argument("--lon", type=float, required=True, help="site longitude [deg east], -180..180")
-    p.add_argument("--out", required=True, help="output folder")
+    p.add_argument(
+        "--lon",
+        dest="longitude_deg",
+        type=float,
+        required=True,
+        help="site longitude [deg east], -180..180",
+    )
+    p.add_argument("--out", dest="out_dir", required=True, help="output folder")
     p.add_argument(
         "--utc-offset",
+        dest="utc_offset_h",
         type=float,
         default=None,
         metavar="H",
@@ -125,12 +142,14 @@ def _add_weather(sub: argparse._SubParsersAction, common: argparse.ArgumentParse
     )
     p.add_argument(
         "--sectors",
+        dest="n_sectors",
         type=int,
         default=12,
         help="direction sectors of the frequency table (default 12)",
     )
     p.add_argument(
         "--calm-threshold",
+        dest="calm_threshold_m_s",
         type=float,
         default=0.5,
         metavar="M_S",
@@ -138,6 +157,7 @@ def _add_weather(sub: argparse._SubParsersAction, common: argparse.ArgumentParse
     )
     p.add_argument(
         "--min-speed",
+        dest="min_wind_speed_m_s",
         type=float,
         default=1.0,
         metavar="M_S",
@@ -152,6 +172,7 @@ def _add_weather(sub: argparse._SubParsersAction, common: argparse.ArgumentParse
     )
     p.add_argument(
         "--anemometer-height",
+        dest="anemometer_height_m",
         type=float,
         default=10.0,
         metavar="M",
@@ -173,13 +194,17 @@ def _add_place(sub: argparse._SubParsersAction, common: argparse.ArgumentParser)
     p.add_argument("scenario", help="scenario file (TOML) with a [holding] table")
     p.add_argument(
         "--house",
+        dest="house_id",
         required=True,
         metavar="ID",
         help="id of the [[source]] to place (its x/y are ignored)",
     )
-    p.add_argument("--out", help="output folder (default: maps/<scenario>_place_<ID>)")
+    p.add_argument(
+        "--out", dest="out_dir", help="output folder (default: maps/<scenario>_place_<ID>)"
+    )
     p.add_argument(
         "--spacing",
+        dest="spacing_m",
         type=float,
         metavar="M",
         help="candidate spacing in metres (default: holding.spacing_m)",
@@ -215,10 +240,13 @@ def _add_verify(sub: argparse._SubParsersAction, common: argparse.ArgumentParser
         "submission",
         help="output folder of `siting screen`, or a scenario file (then give --results)",
     )
-    p.add_argument("--out", required=True, help="folder for verify.html and findings.json")
+    p.add_argument(
+        "--out", dest="out_dir", required=True, help="folder for verify.html and findings.json"
+    )
     p.add_argument("--results", help="the applicant's sites.csv (with a scenario file)")
     p.add_argument(
         "--habitats",
+        dest="reference_habitats",
         help="reference habitat layer: flags sites within the search "
         "distance left out of the submission",
     )
@@ -228,6 +256,7 @@ def _add_verify(sub: argparse._SubParsersAction, common: argparse.ArgumentParser
     )
     p.add_argument(
         "--weather",
+        dest="weather_files",
         action="append",
         default=[],
         metavar="FILE",
@@ -254,17 +283,21 @@ def _add_region(sub: argparse._SubParsersAction, common: argparse.ArgumentParser
     p.add_argument("farms", metavar="FARMS", help="farms layer (any vector format geopandas reads)")
     p.add_argument(
         "--weather",
+        dest="weather_path",
         required=True,
         metavar="TABLE.csv",
         help="weather frequency table: direction_deg,speed_m_s,stability,frequency",
     )
     p.add_argument(
         "--habitats",
+        dest="habitats_path",
         metavar="FILE",
         help="habitat sites layer, fields as in a scenario's [habitats]; without "
         "it only the grids are written",
     )
-    p.add_argument("--out", help="output folder (default: maps/<FARMS name>_region)")
+    p.add_argument(
+        "--out", dest="out_dir", help="output folder (default: maps/<FARMS name>_region)"
+    )
     _add_region_run_options(p)
     _add_region_field_options(p)
     _add_region_model_options(p)
@@ -276,6 +309,7 @@ def _add_region_run_options(p: argparse.ArgumentParser) -> None:
     contributors listed."""
     p.add_argument(
         "--spacing",
+        dest="spacing_m",
         type=float,
         default=100.0,
         metavar="M",
@@ -283,6 +317,7 @@ def _add_region_run_options(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument(
         "--margin",
+        dest="margin_m",
         type=float,
         default=2000.0,
         metavar="M",
@@ -382,6 +417,7 @@ def _add_region_model_options(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument(
         "--anemometer-height",
+        dest="anemometer_height_m",
         type=float,
         default=10.0,
         metavar="M",
@@ -409,9 +445,40 @@ def _add_region_model_options(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument(
         "--near-field",
+        dest="near_field_cells",
         type=int,
         default=10,
         metavar="CELLS",
         help="cells around each farm where the grid is made the direct sum at the "
         "farm's true position (default 10; 0 = none)",
     )
+
+
+@functools.cache
+def flags_by_parameter(command: str) -> dict[str, str]:
+    """{parameter: option} of one command: each option's ``dest`` (the Python parameter it
+    sets) and its long option string, from the definitions above; positionals left out.
+
+    Parameters
+    ----------
+    command : str
+        A sub-command's name ("screen", "region", ...).
+
+    Returns
+    -------
+    dict of str to str
+        E.g. ``{"spacing_m": "--spacing", "out_dir": "--out", ...}``; empty for no such command.
+    """
+    commands = next(
+        action.choices
+        for action in build_parser()._actions  # argparse keeps its options only here
+        if isinstance(action, argparse._SubParsersAction)
+    )
+    parser = commands.get(command)
+    if parser is None:
+        return {}
+    return {
+        action.dest: max(action.option_strings, key=len)
+        for action in parser._actions
+        if action.option_strings and not isinstance(action, argparse._HelpAction)
+    }

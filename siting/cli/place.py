@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+from siting.cli.options import flags_by_parameter
 from siting.cli.terminal import EXIT_OK, plain, print_warnings
 from siting.errors import InputError
 from siting.output.folder import check_output_dir
@@ -16,14 +17,20 @@ from siting.runs.placing import place
 
 def run(args) -> int:
 
-    if args.spacing is not None and not 0 < args.spacing <= 500:
-        raise InputError(f"--spacing must be in (0, 500] m, got {args.spacing:g}")
+    if args.spacing_m is not None and not 0 < args.spacing_m <= 500:
+        raise InputError(f"--spacing must be in (0, 500] m, got {args.spacing_m:g}")
     if args.top < 1:
         raise InputError(f"--top must be >= 1, got {args.top}")
     scenario = load_scenario(args.scenario)
-    out_dir = Path(args.out) if args.out else Path("maps") / f"{scenario.name}_place_{args.house}"
+    out_dir = (
+        Path(args.out_dir)
+        if args.out_dir
+        else Path("maps") / f"{scenario.name}_place_{args.house_id}"
+    )
     check_output_dir(out_dir.resolve(), args.overwrite, input_paths(scenario, holding=True))
-    result = place(scenario, args.house, spacing_m=args.spacing, in_combination=args.in_combination)
+    result = place(
+        scenario, args.house_id, spacing_m=args.spacing_m, in_combination=args.in_combination
+    )
     written = write_place_outputs(result, out_dir, overwrite=args.overwrite, top=args.top)
     if not args.quiet:
         _print_place_summary(result, written, args.top)
@@ -75,7 +82,7 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
         f"{passing:,} of {len(result.positions):,} positions pass every site's "
         "threshold with the house as described."
     )
-    print_warnings(console, result.warnings)
+    print_warnings(console, result.warnings, flags_by_parameter("place"))
     console.print(f"Outputs in {out_dir} (map.html, positions.csv, suitability.tif).")
     console.print(
         "Screening estimate only; local rules and the competent authority decide.", style="dim"

@@ -6,6 +6,7 @@ import sys
 import warnings
 from pathlib import Path
 
+from siting.cli.options import flags_by_parameter
 from siting.cli.terminal import EXIT_OK, plain, print_warnings
 from siting.output.folder import check_output_dir
 from siting.output.region import write_region_outputs
@@ -15,8 +16,8 @@ from siting.runs.regional import FarmFields, RegionOptions, region
 def run(args) -> int:
 
     options = RegionOptions(
-        spacing_m=args.spacing,
-        margin_m=args.margin,
+        spacing_m=args.spacing_m,
+        margin_m=args.margin_m,
         tile_size=args.tile_size,
         memory_mb=args.memory_mb,
         scheduler=None if args.scheduler.lower() == "none" else args.scheduler,
@@ -24,21 +25,18 @@ def run(args) -> int:
         reach_m=args.reach_m,
         top=args.top,
         land_type=args.land_type,
-        anemometer_height_m=args.anemometer_height,
+        anemometer_height_m=args.anemometer_height_m,
         plume_depletion=args.depletion and not args.no_depletion,
-        near_field_cells=args.near_field,
+        near_field_cells=args.near_field_cells,
         critical_load_end=args.critical_load_end,
         critical_load_review=args.critical_load_review,
         wind_below_anemometer=args.wind_below_anemometer,
     )
     options.check()
     farms = Path(args.farms)
-    out_dir = Path(args.out) if args.out else Path("maps") / f"{farms.stem}_region"
-    check_output_dir(
-        out_dir.resolve(),
-        args.overwrite,
-        [farms, Path(args.weather), Path(args.habitats) if args.habitats else None],
-    )
+    out_dir = Path(args.out_dir) if args.out_dir else Path("maps") / f"{farms.stem}_region"
+    habitats = Path(args.habitats_path) if args.habitats_path else None
+    check_output_dir(out_dir.resolve(), args.overwrite, [farms, Path(args.weather_path), habitats])
     fields = FarmFields(
         id_field=args.id_field,
         emission_field=args.emission_field,
@@ -49,8 +47,8 @@ def run(args) -> int:
         warnings.simplefilter("ignore", RuntimeWarning)
         result = region(
             farms,
-            Path(args.weather),
-            Path(args.habitats) if args.habitats else None,
+            Path(args.weather_path),
+            habitats,
             options,
             fields,
             crs=args.crs,
@@ -113,7 +111,7 @@ def _print_region_summary(result, out_dir: Path) -> None:
                 top,
             )
         console.print(table)
-    print_warnings(console, result.warnings)
+    print_warnings(console, result.warnings, flags_by_parameter("region"))
     console.print(
         f"Outputs in {out_dir} (deposition.tif, concentration.tif, sites.csv, "
         "contributors.csv, farms.csv, run.json)."

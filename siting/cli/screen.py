@@ -6,6 +6,7 @@ import sys
 import warnings
 from pathlib import Path
 
+from siting.cli.options import flags_by_parameter
 from siting.cli.terminal import (
     EXIT_EXCEEDS,
     EXIT_OK,
@@ -105,7 +106,7 @@ def _print_flips(console, result) -> None:
         )
 
 
-def _print_summary(result, out_dir: Path, quiet: bool) -> None:
+def _print_summary(result, out_dir: Path, quiet: bool, command: str = "screen") -> None:
     """The screen summary: a table of at most :data:`SUMMARY_MAX_SITES` sites, the counts by
     verdict when some are left out, the first warnings and verdict flips, where the outputs are."""
     from rich.console import Console
@@ -122,7 +123,7 @@ def _print_summary(result, out_dir: Path, quiet: bool) -> None:
             + ", ".join(f"{n} {plain(v)}" for v, n in counts.items())
             + "."
         )
-    print_warnings(console, result.warnings[:SUMMARY_MAX_WARNINGS])
+    print_warnings(console, result.warnings[:SUMMARY_MAX_WARNINGS], flags_by_parameter(command))
     if len(result.warnings) > SUMMARY_MAX_WARNINGS:
         console.print(
             f"[yellow]warning:[/] and {len(result.warnings) - SUMMARY_MAX_WARNINGS} "
@@ -137,7 +138,12 @@ def _print_summary(result, out_dir: Path, quiet: bool) -> None:
 
 
 def screen_scenario(
-    scenario_path: Path, out: Path | None, overwrite: bool, fail_on_exceed: bool, quiet: bool
+    scenario_path: Path,
+    out: Path | None,
+    overwrite: bool,
+    fail_on_exceed: bool,
+    quiet: bool,
+    command: str = "screen",
 ) -> int:
 
     scenario = load_scenario(scenario_path)
@@ -152,7 +158,7 @@ def screen_scenario(
         warnings.simplefilter("ignore", RuntimeWarning)
         result = screen(scenario, progress=not quiet and sys.stderr.isatty())
     written = write_outputs(result, out_dir, overwrite=overwrite)
-    _print_summary(result, written, quiet)
+    _print_summary(result, written, quiet, command)
     if fail_on_exceed and not result.sites["assessed"].any():
         print(
             "siting: --fail-on-exceed: no habitat site could be assessed, so none is shown "
@@ -168,7 +174,7 @@ def screen_scenario(
 def run(args) -> int:
     return screen_scenario(
         Path(args.scenario),
-        Path(args.out) if args.out else None,
+        Path(args.out_dir) if args.out_dir else None,
         args.overwrite,
         args.fail_on_exceed,
         args.quiet,

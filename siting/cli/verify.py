@@ -5,7 +5,8 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from siting.cli.terminal import plain
+from siting.cli.options import flags_by_parameter
+from siting.cli.terminal import plain, print_warnings
 from siting.output.folder import check_output_dir
 from siting.output.verify import write_verify_outputs
 from siting.runs.verification import verify
@@ -13,17 +14,17 @@ from siting.runs.verification import verify
 
 def run(args) -> int:
 
-    out_dir = Path(args.out)
+    out_dir = Path(args.out_dir)
     submission = Path(args.submission)
     read = [submission] + (list(submission.rglob("*")) if submission.is_dir() else [])
-    read += [Path(p) for p in (args.results, args.habitats, *args.weather) if p]
+    read += [Path(p) for p in (args.results, args.reference_habitats, *args.weather_files) if p]
     check_output_dir(out_dir.resolve(), args.overwrite, read)
     result = verify(
         Path(args.submission),
         results=Path(args.results) if args.results else None,
-        reference_habitats=Path(args.habitats) if args.habitats else None,
+        reference_habitats=Path(args.reference_habitats) if args.reference_habitats else None,
         name_field=args.name_field,
-        weather_files=[Path(p) for p in args.weather],
+        weather_files=[Path(p) for p in args.weather_files],
     )
     written = write_verify_outputs(result, out_dir, overwrite=args.overwrite)
     if not args.quiet:
@@ -68,4 +69,5 @@ def _print_verify_summary(result, out_dir: Path) -> None:
             f"[yellow]verdict flips[/] at {plain(row.site)}: {plain(row.flipping_variants)}",
             markup=True,
         )
+    print_warnings(console, result.warnings, flags_by_parameter("verify"))
     console.print(f"Outputs in {out_dir} (verify.html, findings.json).")

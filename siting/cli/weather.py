@@ -5,8 +5,9 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+from siting.cli.options import flags_by_parameter
 from siting.cli.terminal import EXIT_OK, print_warnings
-from siting.errors import InputError
+from siting.errors import InputError, collect_warnings
 from siting.output.folder import check_output_dir
 from siting.output.weather import write_weather_outputs
 from siting.readers.hourly_record import read_hourly_record
@@ -66,7 +67,7 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
             f"{t['min']:.1f} / {t['mean']:.1f} / {t['max']:.1f} deg C (min / mean / max)",
         )
     console.print(table)
-    print_warnings(console, warnings_, soft_wrap=False)
+    print_warnings(console, warnings_, flags_by_parameter("weather"), soft_wrap=False)
     console.print(
         f"Outputs in {out_dir} (frequency_table.csv, wind_rose.png, "
         "stability_by_speed.png, summary.json)."
@@ -75,31 +76,32 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
 
 def run(args) -> int:
 
-    if not -90.0 <= args.lat <= 90.0:
-        raise InputError(f"--lat must be within -90..90 (degrees north), got {args.lat}")
-    if not -180.0 <= args.lon <= 180.0:
-        raise InputError(f"--lon must be within -180..180 (degrees east), got {args.lon}")
-    if not 4 <= args.sectors <= 360:
-        raise InputError(f"--sectors must be within 4..360, got {args.sectors}")
-    out_dir = Path(args.out).resolve()
+    if not -90.0 <= args.latitude_deg <= 90.0:
+        raise InputError(f"--lat must be within -90..90 (degrees north), got {args.latitude_deg}")
+    if not -180.0 <= args.longitude_deg <= 180.0:
+        raise InputError(f"--lon must be within -180..180 (degrees east), got {args.longitude_deg}")
+    if not 4 <= args.n_sectors <= 360:
+        raise InputError(f"--sectors must be within 4..360, got {args.n_sectors}")
+    out_dir = Path(args.out_dir).resolve()
     paths = [Path(p) for p in args.hourly]
     check_output_dir(out_dir, args.overwrite, paths)
-    weather, summary, warnings_ = read_hourly_record(
-        paths,
-        args.lat,
-        args.lon,
-        anemometer_height_m=args.anemometer_height,
-        utc_offset_h=args.utc_offset,
-        calm_threshold_m_s=args.calm_threshold,
-        min_wind_speed_m_s=args.min_speed,
-        max_missing_percent=args.max_missing_percent,
-    )
+    with collect_warnings() as reading:  # the record's warnings, for the summary and its file
+        weather, summary = read_hourly_record(
+            paths,
+            args.latitude_deg,
+            args.longitude_deg,
+            anemometer_height_m=args.anemometer_height_m,
+            utc_offset_h=args.utc_offset_h,
+            calm_threshold_m_s=args.calm_threshold_m_s,
+            min_wind_speed_m_s=args.min_wind_speed_m_s,
+            max_missing_percent=args.max_missing_percent,
+        )
     written, warnings_ = write_weather_outputs(
         out_dir,
         weather,
         summary,
-        warnings_,
-        n_sectors=args.sectors,
+        reading.messages,
+        n_sectors=args.n_sectors,
         overwrite=args.overwrite,
         input_paths=paths,
     )

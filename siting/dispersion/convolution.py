@@ -86,7 +86,14 @@ class ReleaseClass:
     footprint_side_m: float = 0.0
 
     def elements(self) -> list[ReleaseElement]:
-        """The class's release element, at the origin, carrying the whole emission."""
+        """The class's release element, at the origin, carrying the whole emission.
+
+        Returns
+        -------
+        list of ReleaseElement
+            One element: a point at the class's height, or a volume source with sigma_y0 = side / 4.3,
+            sigma_z0 = height / 2.15 and receptors kept side / 2 away.
+        """
         if self.kind == "point":
             return [ReleaseElement(0.0, 0.0, self.release_height_m)]
         side = self.footprint_side_m
@@ -103,6 +110,7 @@ class ReleaseClass:
 
     @property
     def label(self) -> str:
+        """The class in words, for farms.csv and run.json ("point, 6 m")."""
         if self.kind == "point":
             return f"point, {self.release_height_m:g} m"
         return f"volume {self.footprint_side_m:.3g} m square, {self.release_height_m:g} m"
@@ -121,6 +129,11 @@ def release_class(
         Release height [m], >= 0.
     footprint_area_m2 : float
         Footprint area of a volume source [m2], > 0 (ignored for points).
+
+    Returns
+    -------
+    ReleaseClass
+        The rounded height [m] and, for a volume source, the ladder's side [m].
 
     Raises
     ------
@@ -152,6 +165,15 @@ class UnitKernel:
     the receptor ``d_row`` rows south and ``d_col`` columns east of the source (grids are
     north-up, row 0 north), i.e. at dx = d_col cell_m, dy = -d_row cell_m. Zero beyond
     ``reach_m`` when one is set.
+
+    Attributes
+    ----------
+    values : ndarray, (2 half_rows + 1, 2 half_cols + 1)
+        Concentration per unit emission [g m-3 per g s-1].
+    cell_m : float
+        Grid spacing the offsets are on [m].
+    reach_m : float, optional
+        Distance beyond which the kernel is zero [m]; None when not truncated.
     """
 
     values: np.ndarray
@@ -160,21 +182,39 @@ class UnitKernel:
 
     @property
     def half_rows(self) -> int:
+        """Largest row offset held [cells]."""
         return (self.values.shape[0] - 1) // 2
 
     @property
     def half_cols(self) -> int:
+        """Largest column offset held [cells]."""
         return (self.values.shape[1] - 1) // 2
 
     @property
     def nbytes(self) -> int:
+        """Memory of the values [bytes]."""
         return int(self.values.nbytes)
 
 
 def kernel_half_size(
     n_rows: int, n_cols: int, cell_m: float, reach_m: float | None = None
 ) -> tuple[int, int]:
-    """Half sizes (rows, cols) of the kernel a grid needs: every offset it holds, or the reach."""
+    """Half sizes (rows, cols) of the kernel a grid needs: every offset it holds, or the reach.
+
+    Parameters
+    ----------
+    n_rows, n_cols : int
+        The grid's size [cells].
+    cell_m : float
+        Grid spacing [m], > 0.
+    reach_m : float, optional
+        Truncation distance of the kernel [m]; None keeps every offset of the grid.
+
+    Returns
+    -------
+    tuple of int
+        (half_rows, half_cols) [cells], >= 0.
+    """
     half_rows, half_cols = n_rows - 1, n_cols - 1
     if reach_m is not None:
         cells = math.ceil(reach_m / cell_m)
@@ -197,14 +237,16 @@ def offset_concentration_g_m3_per_g_s(
         Receptor coordinates relative to the source's reference point [m] (east, north).
     elements : list of ReleaseElement
         The source's elements, positioned relative to the same reference point.
-    weather, settings :
-        As for ``longterm.source_concentration_g_m3_per_g_s``.
+    weather : WeatherClasses
+        The frequency table, as for :func:`siting.dispersion.sector.source_concentration_g_m3_per_g_s`.
+    settings : DispersionSettings
+        Dispersion settings, as there.
 
     Returns
     -------
     concentration : ndarray
         Shape of dx_m. A value depends on its own offset only, never on the other offsets of
-        the call (longterm.py's profile nodes are fixed), so batches, tiles and tasks agree.
+        the call (the sector engine's profile nodes are fixed), so batches, tiles and tasks agree.
     """
     dx = np.asarray(dx_m, dtype=float)
     dy = np.asarray(dy_m, dtype=float)
@@ -225,7 +267,20 @@ class OffsetLattice:
     ``radius_m`` holds the distinct offset distances [m]; for offset n (row-major over the
     kernel) ``flat0[n]`` and ``flat1[n]`` index a (n_sectors, n_radii) profile table, flattened,
     at the two sectors bracketing the offset's bearing and at its distance; ``w1[n]`` is the
-    weight of the second sector (``longterm.sector_position``).
+    weight of the second sector (:func:`siting.dispersion.sector.sector_position`).
+
+    Attributes
+    ----------
+    half_rows, half_cols : int
+        Largest row and column offsets [cells].
+    cell_m : float
+        Grid spacing [m].
+    radius_m : ndarray
+        The distinct offset distances [m], increasing.
+    flat0, flat1 : ndarray of int
+        Flat indices into the (n_sectors, n_radii) profile table, one per offset.
+    w1 : ndarray
+        Weight of the second sector per offset [-], in [0, 1).
     """
 
     half_rows: int
@@ -238,10 +293,12 @@ class OffsetLattice:
 
     @property
     def shape(self) -> tuple[int, int]:
+        """(rows, cols) of the kernel the lattice is for [cells]."""
         return 2 * self.half_rows + 1, 2 * self.half_cols + 1
 
     @property
     def nbytes(self) -> int:
+        """Memory of the lattice's arrays [bytes]."""
         return int(self.radius_m.nbytes + self.flat0.nbytes + self.flat1.nbytes + self.w1.nbytes)
 
 
@@ -254,7 +311,21 @@ def offset_lattice(
 ) -> OffsetLattice:
     """Distances and sector weights of a kernel's offsets (built once per grid and weather).
 
-    ``strip_offsets`` bounds the offsets handled at once (temporaries of about 80 bytes each).
+    Parameters
+    ----------
+    half_rows, half_cols : int
+        Largest row and column offsets [cells], >= 0.
+    cell_m : float
+        Grid spacing [m], > 0.
+    weather : WeatherClasses
+        The frequency table (its sector centres set the bearings' weights).
+    strip_offsets : int
+        Bounds the offsets handled at once (temporaries of about 80 bytes each).
+
+    Returns
+    -------
+    OffsetLattice
+        The offsets' distinct distances and sector indices and weights.
     """
     a = np.arange(half_rows + 1, dtype=np.int64)
     b = np.arange(half_cols + 1, dtype=np.int64)
@@ -300,9 +371,25 @@ def centre_line_profiles(
 ) -> np.ndarray:
     """A_k(r): each sector's centre-line field of one element at the given distances.
 
-    Returns an array (n_sectors, n_radii) [g m-3 per g s-1]: A_k(r) = sum_js f[k, j, s] g_js(r),
-    read off the engine's own radial profiles (``longterm.radial_profiles``) with the engine's
-    interpolation, receptors closer than the element's min_distance_m taken at it.
+    A_k(r) = sum_js f[k, j, s] g_js(r), read off the engine's own radial profiles
+    (:func:`siting.dispersion.sector.radial_profiles`) with the engine's interpolation, receptors
+    closer than the element's min_distance_m taken at it.
+
+    Parameters
+    ----------
+    element : ReleaseElement
+        One release element (its position is ignored: distances are from it).
+    weather : WeatherClasses
+        The frequency table.
+    settings : DispersionSettings
+        Dispersion settings.
+    radius_m : ndarray
+        Distances from the element [m], >= 0.
+
+    Returns
+    -------
+    ndarray, (n_sectors, n_radii)
+        Concentration per unit emission on each sector's centre line [g m-3 per g s-1].
     """
     radius_m = np.maximum(np.asarray(radius_m, dtype=float), element.min_distance_m)
     if radius_m.size == 0:
@@ -413,6 +500,17 @@ class CellValues:
     source's emission]. ``source`` is the index of the source each entry came from. Entries are
     in source order and :meth:`block` sums them in that order, so a cell gets the same
     floating-point value whichever block of the grid is built.
+
+    Attributes
+    ----------
+    rows, cols : ndarray of int
+        Cell of each entry (row 0 north).
+    values : ndarray
+        The value of each entry (g s-1 for emissions, g m-3 for corrections).
+    source : ndarray of int
+        Index of the source each entry came from.
+    n_rows, n_cols : int
+        Size of the grid [cells].
     """
 
     rows: np.ndarray
@@ -423,7 +521,20 @@ class CellValues:
     n_cols: int
 
     def block(self, row_range: tuple[int, int], col_range: tuple[int, int]) -> np.ndarray:
-        """Dense raster of a block of the grid (rows r0:r1, cols c0:c1)."""
+        """Dense raster of a block of the grid (rows r0:r1, cols c0:c1).
+
+        Parameters
+        ----------
+        row_range : tuple of int
+            (r0, r1), rows of the block (end excluded).
+        col_range : tuple of int
+            (c0, c1), columns of the block (end excluded).
+
+        Returns
+        -------
+        ndarray, (r1 - r0, c1 - c0)
+            The sum of the entries in each cell, in the unit of ``values``.
+        """
         (r0, r1), (c0, c1) = row_range, col_range
         out = np.zeros((r1 - r0, c1 - c0))
         inside = (self.rows >= r0) & (self.rows < r1) & (self.cols >= c0) & (self.cols < c1)
@@ -431,11 +542,28 @@ class CellValues:
         return out
 
     def raster(self) -> np.ndarray:
-        """Dense raster of the whole grid."""
+        """Dense raster of the whole grid.
+
+        Returns
+        -------
+        ndarray, (n_rows, n_cols)
+            The sum of the entries in each cell, in the unit of ``values``.
+        """
         return self.block((0, self.n_rows), (0, self.n_cols))
 
     def occupied_blocks(self, block_rows: int, block_cols: int) -> set[tuple[int, int]]:
-        """(row block, col block) indices that hold at least one non-zero entry."""
+        """(row block, col block) indices that hold at least one non-zero entry.
+
+        Parameters
+        ----------
+        block_rows, block_cols : int
+            Size of a block [cells], >= 1.
+
+        Returns
+        -------
+        set of tuple of int
+            The occupied blocks' (row block, col block) indices.
+        """
         keep = self.values != 0
         return set(
             zip((self.rows[keep] // block_rows).tolist(), (self.cols[keep] // block_cols).tolist())
@@ -443,6 +571,7 @@ class CellValues:
 
     @property
     def nbytes(self) -> int:
+        """Memory of the entries' arrays [bytes]."""
         return int(self.rows.nbytes + self.cols.nbytes + self.values.nbytes + self.source.nbytes)
 
 
@@ -556,13 +685,17 @@ def near_field_correction(
     placed : CellValues
         The same sources as placed on the cells.
     kernel : UnitKernel
-        The sources' kernel; ``elements`` the release element(s) it was made from.
+        The sources' kernel.
+    elements : list of ReleaseElement
+        The release element(s) the kernel was made from, at the origin.
     weather, settings :
         As for the kernel.
     west_m, north_m : float
         The grid's west and north edges [m]; the cell size is the kernel's.
     window_cells : int
         Half width w of the corrected window [cells], >= 1.
+    sources_per_batch : int
+        Sources whose windows are computed in one call of the engine (bounds the memory).
 
     Returns
     -------
@@ -700,8 +833,19 @@ def tile_concentration(
 def convolve_emissions(emission_g_s: np.ndarray, kernel: UnitKernel) -> np.ndarray:
     """Concentration [g m-3] on a grid from an emission raster [g s-1 per cell], one FFT.
 
-    ``emission_g_s`` is (n_rows, n_cols) on the grid the kernel was made for (its half sizes
-    at least n_rows - 1 and n_cols - 1, or its reach). C[i, j] = sum_pq E[p, q] K[i - p, j - q].
+    C[i, j] = sum_pq E[p, q] K[i - p, j - q].
+
+    Parameters
+    ----------
+    emission_g_s : ndarray, (n_rows, n_cols)
+        Emission per cell [g s-1] on the grid the kernel was made for.
+    kernel : UnitKernel
+        The kernel, its half sizes at least n_rows - 1 and n_cols - 1, or its reach.
+
+    Returns
+    -------
+    ndarray, (n_rows, n_cols)
+        Concentration [g m-3], >= 0 (FFT rounding below zero is cut).
     """
     e = np.asarray(emission_g_s, dtype=float)
     rows = (-(e.shape[0] - 1), e.shape[0])
@@ -716,6 +860,18 @@ def tile_working_bytes(tile_rows: int, tile_cols: int, block_rows: int, block_co
     The output tile, the emission block, the kernel slice (tile + block - 1 per axis) and, on
     the FFT length, two half spectra (complex) and the inverse (real): about 6 float64 arrays
     of the FFT size, plus the tile and block.
+
+    Parameters
+    ----------
+    tile_rows, tile_cols : int
+        Size of the output tile [cells].
+    block_rows, block_cols : int
+        Size of the emission block [cells].
+
+    Returns
+    -------
+    int
+        Bytes.
     """
     fr = sp_fft.next_fast_len(tile_rows + block_rows - 1, real=True)
     fc = sp_fft.next_fast_len(tile_cols + block_cols - 1, real=True)

@@ -83,14 +83,30 @@ class HourlyWeather:
 
     @property
     def n_hours(self) -> int:
+        """Number of hours in the record (after missing hours are left out)."""
         return int(self.direction_deg.size)
 
 
 def group_identical_hours(weather: HourlyWeather, hour_weights=None):
     """Unique (direction, speed, stability) hours and the summed weight of each group.
 
-    Directions are compared to 0.01 deg and speeds to 0.001 m/s. Returns
-    (direction_deg, speed_m_s, stability_index, weight) arrays, one entry per group.
+    Directions are compared to 0.01 deg and speeds to 0.001 m/s.
+
+    Parameters
+    ----------
+    weather : HourlyWeather
+        The hours.
+    hour_weights : ndarray, optional
+        Weight of each hour [-] (emission weights); None weighs every hour 1.
+
+    Returns
+    -------
+    direction_deg, speed_m_s : ndarray
+        Each group's direction [deg, from north] and speed [m s-1].
+    stability_index : ndarray of int
+        Each group's Pasquill class, 0..5 for A..F.
+    weight : ndarray
+        The summed weight of each group's hours [-].
     """
     weights = np.ones(weather.n_hours) if hour_weights is None else np.asarray(hour_weights, float)
     key = np.stack(
@@ -354,7 +370,26 @@ def source_hourly_mean_g_m3_per_g_s(
     settings: DispersionSettings,
     hour_weights=None,
 ) -> np.ndarray:
-    """Hour-by-hour mean per unit (mean) emission of a source made of elements."""
+    """Hour-by-hour mean per unit (mean) emission of a source made of elements.
+
+    Parameters
+    ----------
+    receptor_x_m, receptor_y_m : ndarray
+        Receptor coordinates [m].
+    elements : list of ReleaseElement
+        The source's elements; each carries its share of the emission.
+    weather : HourlyWeather
+        The hours.
+    settings : DispersionSettings
+        Dispersion settings.
+    hour_weights : ndarray, optional
+        Emission weight of each hour [-], mean 1; None: every hour emits alike.
+
+    Returns
+    -------
+    ndarray
+        Annual mean concentration per unit emission [g m-3 per g s-1], the receptors' shape.
+    """
     total = np.zeros(np.shape(receptor_x_m), dtype=float)
     for element in elements:
         total += element.share_fraction * element_hourly_mean_g_m3_per_g_s(

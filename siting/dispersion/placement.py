@@ -25,6 +25,15 @@ class PolarKernel:
     ``values[i, j]`` is the field at radius ``radius_m[i]`` and bearing ``bearing_rad[j]``
     (clockwise from north, evenly spaced over [0, 2 pi), periodic). Inside the smallest radius
     the field is taken as its value there; beyond the largest, as zero.
+
+    Attributes
+    ----------
+    radius_m : ndarray, (n_radius,)
+        Radii [m], geometric steps, increasing.
+    bearing_rad : ndarray, (n_bearing,)
+        Bearings [rad], clockwise from north.
+    values : ndarray, (n_radius, n_bearing)
+        The field, in the unit it was computed in (e.g. ug m-3 per g s-1).
     """
 
     radius_m: np.ndarray
@@ -35,7 +44,26 @@ class PolarKernel:
     def offsets(
         min_radius_m: float, max_radius_m: float, n_radius: int = 240, n_bearing: int = 1440
     ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """Radii, bearings and the x/y offsets [m] (n_radius, n_bearing) to evaluate a kernel on."""
+        """Radii, bearings and the x/y offsets [m] (n_radius, n_bearing) to evaluate a kernel on.
+
+        Parameters
+        ----------
+        min_radius_m, max_radius_m : float
+            Smallest and largest radius [m], 0 < min < max.
+        n_radius : int
+            Radii, in geometric steps.
+        n_bearing : int
+            Bearings, evenly spaced over the full circle.
+
+        Returns
+        -------
+        radius_m : ndarray, (n_radius,)
+            Radii [m].
+        bearing_rad : ndarray, (n_bearing,)
+            Bearings [rad], clockwise from north.
+        dx_m, dy_m : ndarray, (n_radius, n_bearing)
+            East and north offsets of every (radius, bearing) node [m].
+        """
         radius_m = np.geomspace(min_radius_m, max_radius_m, n_radius)
         bearing_rad = np.arange(n_bearing) * (2 * np.pi / n_bearing)
         rr, bb = np.meshgrid(radius_m, bearing_rad, indexing="ij")
@@ -76,7 +104,25 @@ def site_maxima(
 ) -> np.ndarray:
     """Per candidate and site, the maximum of the kernel over that site's points.
 
-    Returns an array (n_candidates, n_sites) in the kernel's units.
+    Parameters
+    ----------
+    kernel : PolarKernel
+        The house's field around itself (called with x/y offsets [m]).
+    candidate_x_m, candidate_y_m : ndarray
+        Candidate positions of the house [m].
+    point_x_m, point_y_m : ndarray
+        The sites' receptor points [m].
+    point_site : ndarray of int
+        Site of each point, 0..n_sites-1.
+    n_sites : int
+        Number of sites.
+    chunk : int
+        Candidates evaluated at once (bounds the memory).
+
+    Returns
+    -------
+    ndarray, (n_candidates, n_sites)
+        In the kernel's units; 0 for a site with no point.
     """
     cx = np.asarray(candidate_x_m, dtype=float)
     cy = np.asarray(candidate_y_m, dtype=float)
@@ -98,7 +144,20 @@ def site_maxima(
 
 
 def share_of_threshold(pct_of_level, pct_of_load, threshold_percent) -> np.ndarray:
-    """max(% of level, % of load) / threshold, per site [-]: 1 means exactly at the threshold."""
+    """max(% of level, % of load) / threshold, per site [-]: 1 means exactly at the threshold.
+
+    Parameters
+    ----------
+    pct_of_level, pct_of_load : float or ndarray
+        Process contribution as a share of the critical level and load [%].
+    threshold_percent : float or ndarray
+        Screening threshold [%], > 0.
+
+    Returns
+    -------
+    ndarray
+        The worse share over the threshold [-].
+    """
     worst = np.maximum(np.asarray(pct_of_level, float), np.asarray(pct_of_load, float))
     return worst / np.asarray(threshold_percent, dtype=float)
 
@@ -137,6 +196,22 @@ def max_places(places: float, house_share, other_share=0.0, effective_reduction_
     ``house_share`` is for the house as described (``places`` places, with its own abatement
     if any already applied); ``effective_reduction_percent`` an extra reduction to apply on top
     (an abatement option). Whole places, rounded down.
+
+    Parameters
+    ----------
+    places : float
+        Places of the house as described.
+    house_share : ndarray, (..., n_sites)
+        The house's share of each site's threshold (:func:`share_of_threshold`) [-].
+    other_share : float or ndarray, (n_sites,)
+        The other sources' share of each threshold [-] (in-combination), 0 without.
+    effective_reduction_percent : float
+        Extra reduction of the house's emission [%].
+
+    Returns
+    -------
+    ndarray
+        Whole places, >= 0 (inf where the house adds nothing to any site).
     """
     house = np.asarray(house_share, dtype=float)
     room = 1.0 - np.broadcast_to(np.asarray(other_share, dtype=float), house.shape[-1:])

@@ -69,6 +69,7 @@ class WeatherClasses:
 
     @property
     def sector_width_deg(self) -> float:
+        """Width of one direction sector [deg], 360 / n_sectors."""
         return 360.0 / len(self.sector_centres_deg)
 
 
@@ -85,6 +86,27 @@ class ReleaseElement:
     plume.gep_stack_height_m). ``stack_tip_downwash``: the release height is lowered where the
     exit velocity is below 1.5 times the wind speed (plume.stack_tip_downwash_height_m). Both
     off by default: no rise is the cautious choice.
+
+    Attributes
+    ----------
+    x_m, y_m : float
+        Position [m] in the run's projected CRS.
+    release_height_m : float
+        Release height [m], >= 0.
+    sigma_y0_m, sigma_z0_m : float
+        Initial lateral and vertical spread [m] (volume elements), >= 0.
+    diameter_m : float
+        Outlet diameter [m] (point sources with rise or downwash).
+    exit_velocity_m_s : float
+        Outlet exit velocity [m s-1].
+    share_fraction : float
+        The element's part of its source's emission [-].
+    min_distance_m : float
+        Receptors closer than this are evaluated at it [m], > 0.
+    plume_rise : bool
+        Add momentum plume rise.
+    stack_tip_downwash : bool
+        Lower the release height by stack-tip downwash.
     """
 
     x_m: float
@@ -106,12 +128,37 @@ class DispersionSettings:
 
     ``wind_exponents`` holds the power-law exponent p per stability class A..F;
     ``depletion_velocity_m_s`` is the deposition velocity used to deplete the plume along its
-    path (None, the default, switches depletion off); ``depletion_table_points`` the nodes of each depletion
-    integral table; ``profile_log_step`` the spacing of the sector engine's centre-line profile
-    nodes in ln(distance) (0.002: nodes 0.2 % apart); ``memory_budget_mb`` bounds the engines'
-    working arrays (receptors are evaluated in chunks that fit it). ``wind_below_anemometer``,
+    path (None, the default, switches depletion off); ``depletion_table_points`` the nodes of each
+    depletion integral table; ``profile_log_step`` the spacing of the sector engine's centre-line
+    profile nodes in ln(distance) (0.002: nodes 0.2 % apart); ``memory_budget_mb`` bounds the
+    engines' working arrays (receptors are evaluated in chunks that fit it). ``wind_below_anemometer``,
     ``wind_profile_min_height_m`` and ``min_wind_speed_m_s`` say how the wind at a release
     height below the anemometer is found (plume.wind_speed_at_height_m_s).
+
+    Attributes
+    ----------
+    scheme : SigmaScheme
+        The dispersion coefficients.
+    wind_exponents : ndarray, (6,)
+        Power-law wind-profile exponent per class A..F [-].
+    mixing_height_m : float, optional
+        Height of a reflecting lid [m]; None for none.
+    depletion_velocity_m_s : float, optional
+        Deposition velocity depleting the plume [m s-1]; None for no depletion.
+    depletion_table_points : int
+        Nodes of each depletion integral table.
+    profile_log_step : float
+        Spacing of the centre-line profile nodes in ln(distance [m]) [-].
+    memory_budget_mb : float
+        Working memory of the engines [MB].
+    wind_below_anemometer : {"power_law", "unchanged"}
+        The rule for the wind below the anemometer height.
+    wind_profile_min_height_m : float
+        Lowest height the power law is taken down to [m].
+    min_wind_speed_m_s : float
+        Floor of the wind speed at release height [m s-1].
+    extra : dict
+        Not read by the engines (free for a caller's notes).
     """
 
     scheme: SigmaScheme
@@ -150,6 +197,26 @@ def rectangle_elements(
     dimensions, line source of adjacent volumes; from memory), and its receptors are kept at
     least half a side away. This integrates the area numerically rather than lumping it at one
     point.
+
+    Parameters
+    ----------
+    x_m, y_m : float
+        Centre of the rectangle [m].
+    width_m, length_m : float
+        Its sides [m], > 0.
+    angle_deg : float
+        Direction of the length axis [deg clockwise from north].
+    release_height_m : float
+        Release height [m], >= 0.
+    element_size_m : float
+        Largest side of an element [m], > 0.
+    sigma_z0_m : float
+        Initial vertical spread of every element [m], >= 0.
+
+    Returns
+    -------
+    list of ReleaseElement
+        The elements, their shares summing to 1.
     """
     n_len = max(1, int(np.ceil(length_m / element_size_m)))
     n_wid = max(1, int(np.ceil(width_m / element_size_m)))
@@ -180,7 +247,20 @@ _TABLE_START_M = 0.01
 
 
 def depletion_table_m(max_distance_m: float, n_points: int) -> np.ndarray:
-    """Distances of a depletion table [m]: 0, then log-spaced from 1 cm to just past max."""
+    """Distances of a depletion table [m]: 0, then log-spaced from 1 cm to just past max.
+
+    Parameters
+    ----------
+    max_distance_m : float
+        Farthest distance the table must span [m].
+    n_points : int
+        Log-spaced nodes after the leading 0.
+
+    Returns
+    -------
+    ndarray, (n_points + 1,)
+        Distances [m], increasing.
+    """
     return np.concatenate(
         ([0.0], np.geomspace(_TABLE_START_M, max(max_distance_m, 1.0) * 1.01, n_points))
     )
@@ -190,7 +270,21 @@ def table_position(distance_m, max_distance_m: float, n_points: int):
     """Index and weight of each distance in the table of :func:`depletion_table_m`.
 
     The table is log-spaced, so the position is computed, not searched for: the same linear
-    interpolation as np.interp, without its binary search. Returns (i0, weight of i0 + 1).
+    interpolation as np.interp, without its binary search.
+
+    Parameters
+    ----------
+    distance_m : float or ndarray
+        Distances [m], >= 0.
+    max_distance_m, n_points : float, int
+        As given to :func:`depletion_table_m`.
+
+    Returns
+    -------
+    i0 : ndarray of int
+        Node below each distance.
+    weight : ndarray
+        Weight of node i0 + 1 [-], in [0, 1].
     """
     x = np.asarray(distance_m, dtype=float)
     end = max(max_distance_m, 1.0) * 1.01
@@ -214,7 +308,28 @@ def depletion_integral_table(
     max_distance_m: float,
     n_points: int,
 ):
-    """Distance table [m] and I(x) for one stability class and effective height."""
+    """Distance table [m] and I(x) for one stability class and effective height.
+
+    Parameters
+    ----------
+    sigma_z_of : callable
+        sigma_z [m] of distance [m] for the class (virtual distance included).
+    release_height_m : float
+        Effective release height [m].
+    mixing_height_m : float or None
+        Height of a reflecting lid [m]; None for none.
+    max_distance_m : float
+        Farthest distance the table must span [m].
+    n_points : int
+        Log-spaced nodes (:func:`depletion_table_m`).
+
+    Returns
+    -------
+    distance_m : ndarray
+        The table's distances [m].
+    integral : ndarray
+        I(x) at those distances [-] (:func:`siting.physics.deposition.cumulative_depletion_integral_m0`).
+    """
     table_m = depletion_table_m(max_distance_m, n_points)
     density = ground_vertical_density_per_m(
         np.maximum(sigma_z_of(table_m), 1e-6), release_height_m, mixing_height_m
@@ -225,7 +340,22 @@ def depletion_integral_table(
 def virtual_distances_m(
     element: ReleaseElement, scheme: SigmaScheme, s: int
 ) -> tuple[float, float]:
-    """Lateral and vertical virtual distances [m] of an element for stability class s."""
+    """Lateral and vertical virtual distances [m] of an element for stability class s.
+
+    Parameters
+    ----------
+    element : ReleaseElement
+        The element (its initial spreads sigma_y0_m, sigma_z0_m).
+    scheme : SigmaScheme
+        The dispersion coefficients.
+    s : int
+        Pasquill class, 0..5 for A..F.
+
+    Returns
+    -------
+    xy_m, xz_m : float
+        Lateral and vertical virtual distances [m] (0 for a point element).
+    """
     xy_m = virtual_distance_m(element.sigma_y0_m, lambda x: scheme.sigma_y_m(x, s))
     xz_m = virtual_distance_m(element.sigma_z0_m, lambda x: scheme.sigma_z_m(x, s))
     return xy_m, xz_m
@@ -245,6 +375,28 @@ def release_wind_and_height(
     settings' rule below the anemometer); stack-tip downwash then lowers the height where the
     element has it, and momentum rise is added where the element is allowed rise
     ([EPA1995] Sect. 1.1.2-1.1.4: rise from the downwash-corrected height).
+
+    Parameters
+    ----------
+    element : ReleaseElement
+        The element.
+    speed_ref_m_s : float
+        Wind speed at the anemometer [m s-1].
+    anemometer_height_m : float
+        Anemometer height [m].
+    exponent : float
+        Power-law exponent of the class [-].
+    s : int
+        Pasquill class, 0..5 for A..F.
+    settings : DispersionSettings
+        The wind rule below the anemometer and the minimum wind speed.
+
+    Returns
+    -------
+    speed_m_s : float
+        Wind speed at the release height [m s-1].
+    height_m : float
+        Effective release height [m].
     """
     u = float(
         wind_speed_at_height_m_s(
@@ -270,7 +422,17 @@ def release_wind_and_height(
 
 
 class DepletionTables:
-    """Depletion integrals I(x) of one element and stability class, cached by release height."""
+    """Depletion integrals I(x) of one element and stability class, cached by release height.
+
+    Parameters
+    ----------
+    sigma_z_of : callable
+        sigma_z [m] of distance [m] for the class (virtual distance included).
+    settings : DispersionSettings
+        The depletion velocity (None: no depletion), lid and table size.
+    max_distance_m : float
+        Farthest receptor distance the tables must span [m].
+    """
 
     def __init__(self, sigma_z_of: Callable, settings: DispersionSettings, max_distance_m: float):
         self._sigma_z_of = sigma_z_of
@@ -281,7 +443,19 @@ class DepletionTables:
     def integral(self, height_m: float, distance_m, position=None) -> np.ndarray | None:
         """I(x) at the distances for a release height [-]; None without depletion.
 
-        ``position`` is table_position(distance_m, ...) when the caller has it already.
+        Parameters
+        ----------
+        height_m : float
+            Effective release height [m] (tables are cached by it, to 1e-6 m).
+        distance_m : ndarray
+            Receptor distances [m].
+        position : tuple of ndarray, optional
+            ``table_position(distance_m, ...)`` when the caller has it already.
+
+        Returns
+        -------
+        ndarray or None
+            I(x) [-], the shape of ``distance_m``; None when depletion is off.
         """
         if not self._settings.depletion_velocity_m_s:
             return None
@@ -305,7 +479,22 @@ class DepletionTables:
         return integral[i0] + weight * (integral[i0 + 1] - integral[i0])
 
     def fraction(self, height_m: float, wind_speed_m_s: float, distance_m) -> np.ndarray:
-        """Share of the emission still airborne at the distances [-] (1 without depletion)."""
+        """Share of the emission still airborne at the distances [-] (1 without depletion).
+
+        Parameters
+        ----------
+        height_m : float
+            Effective release height [m].
+        wind_speed_m_s : float
+            Wind speed carrying the plume [m s-1], > 0.
+        distance_m : ndarray
+            Receptor distances [m].
+
+        Returns
+        -------
+        ndarray
+            Q(x) / Q0 in (0, 1], the shape of ``distance_m``.
+        """
         integral = self.integral(height_m, distance_m)
         if integral is None:
             return np.ones_like(np.asarray(distance_m, dtype=float))
@@ -323,6 +512,15 @@ class RadialProfiles:
     repeats row 0 so the sector after the last needs no wrap. Zero values are held as -1e300
     (exp gives exactly 0). The nodes sit on a fixed lattice in ln(distance), so a node's value
     does not depend on which receptors asked for it.
+
+    Attributes
+    ----------
+    log_value : ndarray, (n_sectors + 1, n_nodes)
+        ln of the centre-line values [ln(g m-3 per g s-1)].
+    first_node : int
+        Lattice index of the first node held.
+    log_step : float
+        Node spacing in ln(distance [m]) [-].
     """
 
     log_value: np.ndarray
@@ -331,6 +529,7 @@ class RadialProfiles:
 
     @property
     def n_nodes(self) -> int:
+        """Number of distance nodes held."""
         return self.log_value.shape[1]
 
     def position(self, distance_m):
@@ -339,6 +538,18 @@ class RadialProfiles:
         The weight is taken from the distance's place on the fixed lattice, not relative to
         the first node held, so it is the same whichever nodes a call holds. Distances must be
         > 0; outside the nodes held they take the end node's value.
+
+        Parameters
+        ----------
+        distance_m : ndarray
+            Distances [m], > 0 (a float array; it is overwritten).
+
+        Returns
+        -------
+        i0 : ndarray of int
+            Node below each distance, among those held.
+        w : ndarray
+            Weight of node i0 + 1 [-], in [0, 1].
         """
         at = np.log(distance_m)
         at *= 1.0 / self.log_step
@@ -358,6 +569,16 @@ class RadialProfiles:
 
         The engine's own interpolation (log-linear in distance), so a kernel assembled from
         these in angle equals the engine at every offset to rounding.
+
+        Parameters
+        ----------
+        distance_m : ndarray, (n,)
+            Distances [m], > 0.
+
+        Returns
+        -------
+        ndarray, (n_sectors, n)
+            Concentration per unit emission [g m-3 per g s-1].
         """
         i0, weight = self.position(np.asarray(distance_m, dtype=float).copy())
         return _exp_of_log_lerp(self.log_value[:-1, i0], self.log_value[:-1, i0 + 1], weight)
@@ -397,6 +618,22 @@ def radial_profiles(
     vertical density over the same nodes, extended down to 1 cm (0.2 % steps: its error, ~h^2/12
     of I, is ~3e-7). A node's value therefore depends on the element, the weather and the
     settings only, never on which receptors asked for it.
+
+    Parameters
+    ----------
+    element : ReleaseElement
+        The element.
+    weather : WeatherClasses
+        The frequency table.
+    settings : DispersionSettings
+        Dispersion settings (the node spacing among them).
+    min_distance_m, max_distance_m : float
+        Nearest and farthest distance the profiles must cover [m].
+
+    Returns
+    -------
+    RadialProfiles
+        The profiles on the nodes covering that range.
     """
     step = settings.profile_log_step
     lo = max(min_distance_m, _TABLE_START_M)
@@ -458,6 +695,20 @@ def sector_position(dx_m, dy_m, weather: WeatherClasses):
     The wind that carries a plume from the source to a receptor at bearing b (clockwise from
     north) blows from b + 180 deg, the bearing from the receptor back to the source; between
     two sector centre lines the field is interpolated linearly in that angle.
+
+    Parameters
+    ----------
+    dx_m, dy_m : ndarray
+        Receptor offsets from the source [m] (east, north).
+    weather : WeatherClasses
+        The frequency table (its sector centres).
+
+    Returns
+    -------
+    k0 : ndarray of int
+        Index of the sector below each receptor's angle.
+    w1 : ndarray
+        Weight of sector k0 + 1 [-], in [0, 1].
     """
     n = len(weather.sector_centres_deg)
     pos = np.arctan2(-np.asarray(dx_m, dtype=float), -np.asarray(dy_m, dtype=float))
@@ -516,12 +767,38 @@ def element_concentration_g_m3_per_g_s(
 
 
 def receptor_reach_m(rx, ry, element: ReleaseElement) -> float:
-    """Farthest receptor distance [m]: the depletion tables span it, for every chunk alike."""
+    """Farthest receptor distance [m]: the depletion tables span it, for every chunk alike.
+
+    Parameters
+    ----------
+    rx, ry : ndarray
+        Receptor coordinates [m].
+    element : ReleaseElement
+        The element.
+
+    Returns
+    -------
+    float
+        The farthest distance plus the element's min_distance_m [m].
+    """
     return receptor_range_m(rx, ry, element)[1]
 
 
 def receptor_range_m(rx, ry, element: ReleaseElement) -> tuple[float, float]:
-    """Nearest and farthest receptor distance [m] as the engine sees them (>= min_distance_m)."""
+    """Nearest and farthest receptor distance [m] as the engine sees them (>= min_distance_m).
+
+    Parameters
+    ----------
+    rx, ry : ndarray
+        Receptor coordinates [m].
+    element : ReleaseElement
+        The element.
+
+    Returns
+    -------
+    nearest_m, farthest_m : float
+        Distances [m]; (1, 1) when there is no receptor.
+    """
     if rx.size == 0:
         return 1.0, 1.0
     squared = (rx - element.x_m) ** 2 + (ry - element.y_m) ** 2
@@ -558,6 +835,22 @@ def source_concentration_g_m3_per_g_s(
     """Annual mean concentration per unit emission of a source made of elements [g m-3 per g s-1].
 
     The elements' shares are applied, so the result is for 1 g s-1 emitted by the whole source.
+
+    Parameters
+    ----------
+    receptor_x_m, receptor_y_m : ndarray
+        Receptor coordinates [m].
+    elements : list of ReleaseElement
+        The source's elements.
+    weather : WeatherClasses
+        The frequency table.
+    settings : DispersionSettings
+        Dispersion settings.
+
+    Returns
+    -------
+    ndarray
+        Concentration per unit emission [g m-3 per g s-1], the receptors' shape.
     """
     total = np.zeros(np.shape(receptor_x_m), dtype=float)
     for element in elements:

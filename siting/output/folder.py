@@ -24,7 +24,7 @@ from siting._version import __version__
 from siting.errors import OutputExistsError
 
 #: Written into every output folder siting makes (by staged_folder): only a folder holding it
-#: (or the run record of an older version) may be replaced with --overwrite.
+#: (or the run record of an older version) may be replaced with ``overwrite``.
 OUTPUT_MARKER = ".siting-output"
 
 
@@ -37,7 +37,18 @@ _LEGACY_RECORDS = (
 
 
 def is_siting_output(folder: Path) -> bool:
-    """Whether ``folder`` is an output folder written by siting (its marker or run record)."""
+    """Whether ``folder`` is an output folder written by siting (its marker or run record).
+
+    Parameters
+    ----------
+    folder : Path
+        The folder.
+
+    Returns
+    -------
+    bool
+        True when it holds the ``.siting-output`` marker or an older version's run record.
+    """
     folder = Path(folder)
     if (folder / OUTPUT_MARKER).is_file():
         return True
@@ -75,8 +86,12 @@ def _lock_owner(out_dir: Path):
 def _busy_message(out_dir: Path, pid) -> str:
     return (
         f"{out_dir}: another siting run (process {pid}) is writing this folder now; wait "
-        "for it to finish or choose another --out"
+        "for it to finish or choose another out_dir"
     )
+
+
+#: The parameters the refusals below name (messages say "out_dir", "overwrite").
+_NAMED = ("out_dir", "overwrite")
 
 
 @contextmanager
@@ -92,14 +107,14 @@ def _writing_lock(out_dir: Path) -> Iterator[None]:
         except FileExistsError:
             pid = _lock_owner(out_dir)
             if pid is not None:
-                raise OutputExistsError(_busy_message(out_dir, pid)) from None
+                raise OutputExistsError(_busy_message(out_dir, pid), parameters=_NAMED) from None
             lock.unlink(missing_ok=True)  # a dead run's lock
             continue
         with os.fdopen(fd, "wb") as handle:
             handle.write(body)
         break
     else:
-        raise OutputExistsError(_busy_message(out_dir, "unknown"))
+        raise OutputExistsError(_busy_message(out_dir, "unknown"), parameters=_NAMED)
     try:
         yield
     finally:
@@ -116,7 +131,8 @@ def _check_space(folder: Path, need_bytes: int, out_dir: Path) -> None:
         raise OutputExistsError(
             f"{out_dir}: not enough free space in {folder} (about "
             f"{need / 1e6:,.0f} MB needed, {free / 1e6:,.0f} MB free); "
-            "free some space or choose another --out"
+            "free some space or choose another out_dir",
+            parameters=_NAMED,
         )
 
 
@@ -128,6 +144,22 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int 
     and never one that holds any of the run's ``inputs`` (paths). Its parent must be a folder
     we may write in, with room for ``need_bytes`` (the run's estimate) plus MIN_FREE_BYTES,
     and no other run may be writing it now. Each refusal names why.
+
+    Parameters
+    ----------
+    out_dir : Path
+        The output folder.
+    overwrite : bool
+        Whether an existing folder may be replaced.
+    inputs : iterable of Path
+        The run's input files and folders (None entries are skipped).
+    need_bytes : int
+        The run's estimate of what it writes [bytes].
+
+    Raises
+    ------
+    OutputExistsError
+        One of the refusals above, naming why.
     """
     out_dir = Path(out_dir).resolve()
     size = len(out_dir.name.encode("utf-8"))
@@ -135,12 +167,13 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int 
         raise OutputExistsError(
             f"{out_dir.name[:40]}...: output folder name is too long "
             f"({size} bytes; at most {MAX_NAME_BYTES}, which leaves room for "
-            "the staging folder's name beside it); choose a shorter --out"
+            "the staging folder's name beside it); choose a shorter out_dir",
+            parameters=_NAMED,
         )
     recover_interrupted(out_dir)
     pid = _lock_owner(out_dir)
     if pid is not None:
-        raise OutputExistsError(_busy_message(out_dir, pid))
+        raise OutputExistsError(_busy_message(out_dir, pid), parameters=_NAMED)
     if not out_dir.exists():
         parent = out_dir.parent
         while not parent.exists():
@@ -149,23 +182,28 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int 
             raise OutputExistsError(f"{out_dir}: {parent} is a file, not a folder")
         if not os.access(parent, os.W_OK | os.X_OK):
             raise OutputExistsError(
-                f"{out_dir}: cannot write in {parent} (no permission); choose another --out"
+                f"{out_dir}: cannot write in {parent} (no permission); choose another out_dir",
+                parameters=_NAMED,
             )
         _check_space(parent, need_bytes, out_dir)
         return
     if not os.access(out_dir.parent, os.W_OK | os.X_OK):
         raise OutputExistsError(
-            f"{out_dir}: cannot write in {out_dir.parent} (no permission); choose another --out"
+            f"{out_dir}: cannot write in {out_dir.parent} (no permission); choose another out_dir",
+            parameters=_NAMED,
         )
     if not overwrite:
-        raise OutputExistsError(f"{out_dir}: output folder exists; pass --overwrite to replace it")
+        raise OutputExistsError(
+            f"{out_dir}: output folder exists; pass overwrite to replace it", parameters=_NAMED
+        )
     if not out_dir.is_dir():
         raise OutputExistsError(f"{out_dir}: exists and is not a folder")
     cwd = Path.cwd().resolve()
     if out_dir == cwd or out_dir in cwd.parents:
         raise OutputExistsError(
             f"{out_dir}: is the current folder or one of its parents; "
-            "--overwrite never replaces it: choose a new --out folder"
+            "overwrite never replaces it: choose a new out_dir",
+            parameters=_NAMED,
         )
     for path in inputs:
         if path is None:
@@ -174,13 +212,15 @@ def check_output_dir(out_dir: Path, overwrite: bool, inputs=(), need_bytes: int 
         if resolved == out_dir or out_dir in resolved.parents:
             raise OutputExistsError(
                 f"{out_dir}: holds an input of this run ({resolved.name}); "
-                "--overwrite never replaces it: choose another --out folder"
+                "overwrite never replaces it: choose another out_dir",
+                parameters=_NAMED,
             )
     if not is_siting_output(out_dir):
         raise OutputExistsError(
             f"{out_dir}: is not a folder siting wrote (no {OUTPUT_MARKER} "
-            "or run record in it); --overwrite replaces only siting's own "
-            "output folders: choose another --out folder"
+            "or run record in it); overwrite replaces only siting's own "
+            "output folders: choose another out_dir",
+            parameters=_NAMED,
         )
     _check_space(out_dir.parent, need_bytes, out_dir)  # the old result stays until the swap
 
@@ -232,6 +272,16 @@ def recover_interrupted(out_dir: Path) -> list[str]:
     the previous result (``.<name>.<random>.old``) whose run is gone is put back as ``out_dir``
     when the swap never finished (``out_dir`` missing), else deleted (the new result is in
     place). Folders of runs still going are left alone.
+
+    Parameters
+    ----------
+    out_dir : Path
+        The output folder.
+
+    Returns
+    -------
+    list of str
+        One line per thing tidied; empty when nothing was left.
     """
     out_dir = Path(out_dir)
     parent = out_dir.parent
@@ -341,7 +391,8 @@ def _staged(out_dir: Path, overwrite: bool) -> Iterator[Path]:
                     "written_by": "siting",
                     "version": __version__,
                     "pid": os.getpid(),
-                    "note": "an output folder of siting: --overwrite may replace it",
+                    "note": "an output folder of siting: a run asked to overwrite it may "
+                    "replace it",
                 }
             )
             + "\n",

@@ -53,7 +53,21 @@ def _finite(values: np.ndarray) -> np.ndarray:
 def write_geotiff(
     path: Path, grid: GridSpec, values: np.ndarray, description: str, units: str
 ) -> None:
-    """Write one float32 band with CRS, transform, nodata, description and units."""
+    """Write one float32 band with CRS, transform, nodata, description and units.
+
+    Parameters
+    ----------
+    path : Path
+        The file to write.
+    grid : GridSpec
+        The grid (its CRS and transform).
+    values : ndarray, (n_rows, n_cols)
+        The band, row 0 north; non-finite values become nodata.
+    description : str
+        What the band is, in words.
+    units : str
+        Its unit ("ug/m3", "kg N/ha/yr", ...).
+    """
     import rasterio
 
     tiled = grid.n_cols >= BLOCK and grid.n_rows >= BLOCK
@@ -68,6 +82,21 @@ def write_large_geotiff(
     """Float32 GeoTIFF of ``values x scale``: tiled, deflate, overviews 2-16 (average).
 
     Written in strips of block rows, so no full-size copy of the grid is made (regional runs).
+
+    Parameters
+    ----------
+    path : Path
+        The file to write.
+    grid : GridSpec
+        The grid (its CRS and transform).
+    values : ndarray, (n_rows, n_cols)
+        The band before scaling, row 0 north; non-finite values become nodata.
+    description : str
+        What the band is, in words.
+    units : str
+        The unit of ``values x scale``.
+    scale : float
+        Factor applied strip by strip (e.g. concentration -> deposition).
     """
     import rasterio
     from rasterio.enums import Resampling

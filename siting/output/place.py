@@ -15,17 +15,64 @@ from siting.output.folder import check_output_dir, staged_folder
 from siting.output.geotiff import write_geotiff
 from siting.output.records import package_inputs, run_record_base
 from siting.output.tables import write_csv
-from siting.presentation.webmap import write_place_map
+from siting.presentation.webmap_place import render_place_map
 from siting.readers.tables import default_reduction_percent
 
 #: How many of the best positions the map marks.
 TOP_POSITIONS = 10
 
 
+def write_place_map(path: Path, **map_arguments) -> None:
+    """Write the placement map (map.html of ``siting place``): the page is rendered whole, then written.
+
+    Parameters
+    ----------
+    path : Path
+        File to write (the caller makes the output folder atomic).
+    **map_arguments
+        The keyword arguments of :func:`siting.presentation.webmap_place.render_place_map`.
+
+    Raises
+    ------
+    InputError, AssetError
+        As the renderer raises them; the page is rendered before the file is opened, so a
+        refused map leaves no file.
+    """
+    Path(path).write_bytes(render_place_map(**map_arguments).encode("utf-8"))
+
+
 def write_place_outputs(
     result, out_dir: Path, overwrite: bool = False, top: int = TOP_POSITIONS
 ) -> Path:
-    """Write the placement outputs atomically into ``out_dir``; returns it."""
+    """Write the placement outputs atomically into ``out_dir``; returns it.
+
+    Files: suitability.tif, positions.csv, run.json and map.html, written into a staging folder
+    and moved into place when complete (:func:`siting.output.folder.staged_folder`).
+
+    Parameters
+    ----------
+    result : PlaceResult
+        From :func:`siting.runs.placing.place`.
+    out_dir : str or Path
+        The output folder.
+    overwrite : bool
+        Replace an existing output folder of siting.
+    top : int
+        Best positions shown on the map.
+
+    Returns
+    -------
+    Path
+        ``out_dir``, absolute.
+
+    Raises
+    ------
+    OutputExistsError
+        ``out_dir`` exists without ``overwrite``, is not a folder siting wrote, holds an input,
+        is being written by another run, or its parent cannot be written or lacks the room.
+    InterruptedAfterWriting
+        Interrupted after the new folder was in place (the result is whole).
+    """
     import geopandas as gpd
     import shapely
 

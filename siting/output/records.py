@@ -11,16 +11,26 @@ import hashlib
 import json
 import platform
 import shutil
+from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
-
-import numpy as np
-import pandas as pd
 
 from siting._version import __version__
 from siting.output.folder import OUTPUT_MARKER
 
 
 def sha256_of(path: Path) -> str:
+    """SHA-256 of a file's bytes, read in blocks of 1 MiB.
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+
+    Returns
+    -------
+    str
+        The digest, 64 hex digits.
+    """
     digest = hashlib.sha256()
     with open(path, "rb") as handle:
         for block in iter(lambda: handle.read(1 << 20), b""):
@@ -29,7 +39,20 @@ def sha256_of(path: Path) -> str:
 
 
 def input_paths(scenario, holding: bool = False) -> list[Path]:
-    """Every file a scenario run reads (for :func:`check_output_dir`), config tables included."""
+    """Every file a scenario run reads (for :func:`check_output_dir`), config tables included.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The scenario.
+    holding : bool
+        Include the holding and exclusion layers (a placement run).
+
+    Returns
+    -------
+    list of Path
+        The files, and the scenario's own config folder when it names one.
+    """
     paths = list(_input_files(scenario, holding).values())
     if scenario.assessment.config_dir is not None:
         paths.append(scenario.assessment.config_dir)
@@ -68,13 +91,22 @@ def _input_files(scenario, holding: bool = False) -> dict[str, Path]:
 
 def run_record_base(run, run_time: str, holding: bool = False) -> dict:
     """The part of run.json every command shares: inputs and tables with SHA-256, parameters,
-    weather summary, cautions and versions. ``run`` has .scenario, .tables, .weather_summary,
-    .cautions (a ScreenResult or a screen.Prepared)."""
-    import folium
-    import geopandas
-    import rasterio
-    import shapely
+    weather summary, cautions and versions.
 
+    Parameters
+    ----------
+    run : ScreenResult or Prepared
+        Anything with .scenario, .tables, .weather_summary and .cautions.
+    run_time : str
+        Time of the run, ISO 8601 UTC.
+    holding : bool
+        Hash the holding layers too (a placement run).
+
+    Returns
+    -------
+    dict
+        The shared part of the run record.
+    """
     inputs = {
         key: {"path": str(path), "sha256": sha256_of(path)}
         for key, path in _input_files(run.scenario, holding).items()
@@ -94,16 +126,29 @@ def run_record_base(run, run_time: str, holding: bool = False) -> dict:
         "parameters": json.loads(run.scenario.model_dump_json(by_alias=True)),
         "weather_summary": run.weather_summary,
         "cautions": list(run.cautions),
-        "versions": {
-            "python": platform.python_version(),
-            "numpy": np.__version__,
-            "pandas": pd.__version__,
-            "geopandas": geopandas.__version__,
-            "shapely": shapely.__version__,
-            "rasterio": rasterio.__version__,
-            "folium": folium.__version__,
-        },
+        "versions": {"python": platform.python_version(), **_library_versions()},
     }
+
+
+#: The libraries whose versions run.json records, in this order.
+_RECORDED_LIBRARIES = ("numpy", "pandas", "geopandas", "shapely", "rasterio", "folium")
+
+
+def _library_versions() -> dict[str, str]:
+    """The installed version of each of :data:`_RECORDED_LIBRARIES`, by name.
+
+    Read from the installed packages' metadata, not from ``module.__version__``: importing
+    folium, rasterio or geopandas only to read a string costs up to a second of start-up,
+    and a command that writes no map never needs folium. A library that is not installed
+    reads "not installed".
+    """
+    versions = {}
+    for name in _RECORDED_LIBRARIES:
+        try:
+            versions[name] = version(name)
+        except PackageNotFoundError:
+            versions[name] = "not installed"
+    return versions
 
 
 PACKAGE_FOLDER = "inputs"
@@ -122,8 +167,20 @@ def package_inputs(run, folder: Path) -> dict:
     finds them unchanged); files elsewhere go to ``inputs/_external/<key>/``; the config tables
     used go to ``inputs/_config/``. The holding layers are packed whenever the scenario names
     them (the packed scenario must load), though only a placement run hashes them in run.json's
-    inputs. Returns the package map written into run.json:
-    {"files": {key: path under inputs/}, "config": "_config"}.
+    inputs.
+
+    Parameters
+    ----------
+    run : ScreenResult
+        The run (its scenario and tables).
+    folder : Path
+        The (staging) output folder.
+
+    Returns
+    -------
+    dict
+        The package map written into run.json: {"files": {key: path under inputs/},
+        "config": "_config"}.
     """
 
     scenario = run.scenario
@@ -150,8 +207,20 @@ def package_inputs(run, folder: Path) -> dict:
 
 
 def output_hashes(folder: Path) -> dict[str, dict]:
-    """{relative path: {"sha256", "bytes"}} of every output file in ``folder`` except run.json,
-    the marker and the packed inputs/."""
+    """{relative path: {"sha256", "bytes"}} of every output file in ``folder``.
+
+    run.json, the marker and the packed inputs/ are left out.
+
+    Parameters
+    ----------
+    folder : Path
+        The (staging) output folder.
+
+    Returns
+    -------
+    dict of str to dict
+        Each file's SHA-256 and size [bytes], by its path relative to ``folder``.
+    """
     hashes = {}
     for path in sorted(Path(folder).rglob("*")):
         relative = path.relative_to(folder).as_posix()

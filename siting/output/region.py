@@ -84,7 +84,20 @@ ACCURACY_NOTE = (
 
 
 def region_record(result: RegionResult, run_time: str) -> dict:
-    """What run.json holds: inputs and tables with SHA-256, options, grid, plan, classes."""
+    """What run.json holds: inputs and tables with SHA-256, options, grid, plan, classes.
+
+    Parameters
+    ----------
+    result : RegionResult
+        The regional run.
+    run_time : str
+        Time of the run, ISO 8601 UTC.
+
+    Returns
+    -------
+    dict
+        The run record, ready for JSON.
+    """
     import dask
     import rasterio
     import scipy
@@ -148,7 +161,30 @@ def write_region_outputs(
     result: RegionResult, out_dir: str | Path, overwrite: bool = False
 ) -> Path:
     """Write deposition.tif, concentration.tif, sites.csv, contributors.csv, farms.csv, run.json
-    atomically into ``out_dir``; returns it."""
+    atomically into ``out_dir``; returns it.
+
+    Parameters
+    ----------
+    result : RegionResult
+        From :func:`siting.runs.regional.region`.
+    out_dir : str or Path
+        The output folder.
+    overwrite : bool
+        Replace an existing output folder of siting.
+
+    Returns
+    -------
+    Path
+        ``out_dir``, absolute.
+
+    Raises
+    ------
+    OutputExistsError
+        ``out_dir`` exists without ``overwrite``, is not a folder siting wrote, holds an input,
+        is being written by another run, or its parent cannot be written or lacks the room.
+    InterruptedAfterWriting
+        Interrupted after the new folder was in place (the result is whole).
+    """
 
     out_dir = Path(out_dir).resolve()
     run_time = datetime.now(UTC).replace(microsecond=0).isoformat()

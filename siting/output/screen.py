@@ -20,16 +20,15 @@ from siting.output.folder import check_output_dir, staged_folder
 from siting.output.geotiff import write_geotiff
 from siting.output.records import input_paths, output_hashes, package_inputs, run_record_base
 from siting.output.tables import write_csv
-from siting.presentation.figures import (
-    deposition_figure,
-    pc_vs_distance_figure,
-    stability_by_speed_png,
-    wind_rose_from_table_png,
-    wind_rose_png,
-)
+from siting.presentation.figures import deposition_figure, figure_png, pc_vs_distance_figure
 from siting.presentation.notes import METHOD_NOTES, cautious_choices
-from siting.presentation.report import write_report
-from siting.presentation.webmap import write_screen_map
+from siting.presentation.report import render_report
+from siting.presentation.weather_figures import (
+    stability_by_speed_figure,
+    wind_rose_figure,
+    wind_rose_from_table_figure,
+)
+from siting.presentation.webmap import render_screen_map
 
 SITE_COLUMNS = [
     "site_id",
@@ -88,7 +87,20 @@ UNDEPLETED_COLUMNS = [
 
 
 def run_record(result, run_time: str) -> dict:
-    """What a screening run's run.json holds: the shared part plus grid, timings, warnings."""
+    """What a screening run's run.json holds: the shared part plus grid, timings, warnings.
+
+    Parameters
+    ----------
+    result : ScreenResult
+        The screening run.
+    run_time : str
+        Time of the run, ISO 8601 UTC.
+
+    Returns
+    -------
+    dict
+        The run record, ready for JSON (the output hashes are added when the folder is done).
+    """
     record = run_record_base(result, run_time)
     record.update(
         {
@@ -175,8 +187,22 @@ def _write_tables(result, folder: Path) -> pd.DataFrame:
     return table
 
 
+def write_report(path: Path, **report) -> None:
+    """Write report.html: the page rendered from ``report``; nothing is written if it fails.
+
+    Parameters
+    ----------
+    path : Path
+        File to write (the caller makes the output folder atomic).
+    **report
+        The keyword arguments of :func:`siting.presentation.report.render_report`.
+    """
+    Path(path).write_text(render_report(**report), encoding="utf-8")
+
+
 def _report_figures(result, sources_gdf, contours) -> tuple[dict, dict]:
-    """(the report's result figures, its weather figures), each title -> PNG bytes."""
+    """(the report's result figures, its weather figures), each title -> PNG bytes: each
+    figure drawn by the presentation layer, then rendered (:func:`figure_png`)."""
 
     grid, sites = result.grid, result.sites
     figures = {
@@ -197,16 +223,38 @@ def _report_figures(result, sources_gdf, contours) -> tuple[dict, dict]:
     weather_figures = {}  # shown in the report's weather part, after the summary table
     if isinstance(result.weather, HourlyWeather):
         weather_figures["Wind rose of the hourly record (direction the wind blows from)"] = (
-            wind_rose_png(result.weather)
+            wind_rose_figure(result.weather)
         )
         weather_figures["Stability class by wind speed (Turner's method or as given)"] = (
-            stability_by_speed_png(result.weather)
+            stability_by_speed_figure(result.weather)
         )
     elif isinstance(result.weather, WeatherClasses):
         weather_figures["Wind rose of the frequency table (direction the wind blows from)"] = (
-            wind_rose_from_table_png(result.weather)
+            wind_rose_from_table_figure(result.weather)
         )
-    return figures, weather_figures
+    return (
+        {title: figure_png(fig) for title, fig in figures.items()},
+        {title: figure_png(fig) for title, fig in weather_figures.items()},
+    )
+
+
+def write_screen_map(path: Path, **map_arguments) -> None:
+    """Write map.html of a screening run: the page is rendered whole, then written.
+
+    Parameters
+    ----------
+    path : Path
+        File to write (the caller makes the output folder atomic).
+    **map_arguments
+        The keyword arguments of :func:`siting.presentation.webmap.render_screen_map`.
+
+    Raises
+    ------
+    InputError, AssetError
+        As the renderer raises them; the page is rendered before the file is opened, so a
+        refused map leaves no file.
+    """
+    Path(path).write_bytes(render_screen_map(**map_arguments).encode("utf-8"))
 
 
 def _write_all(result, folder: Path, run_time: str) -> None:
@@ -265,10 +313,22 @@ def _write_all(result, folder: Path, run_time: str) -> None:
 
 
 def estimate_screen_bytes(scenario) -> int:
-    """A generous estimate of a screening run's output folder [bytes], known before any work:
-    three float32 GeoTIFFs and the map's image of the grid (uncompressed, 4 bytes a cell),
+    """A generous estimate of a screening run's output folder [bytes], known before any work.
+
+    Three float32 GeoTIFFs and the map's image of the grid (uncompressed, 4 bytes a cell),
     and four times the inputs (their packaged copy, and the habitat sites again in
-    sites.gpkg, the map and the report)."""
+    sites.gpkg, the map and the report).
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The scenario (its sources, grid and input files).
+
+    Returns
+    -------
+    int
+        [bytes].
+    """
 
     grid = grid_around(
         [s.x for s in scenario.sources],
@@ -287,7 +347,35 @@ def estimate_screen_bytes(scenario) -> int:
 
 
 def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
-    """Write every output of a screening run atomically into ``out_dir``; returns it."""
+    """Write every output of a screening run atomically into ``out_dir``; returns it.
+
+    The files of ``siting screen``: sites.csv and sites.gpkg, receptors.csv, sources.csv,
+    sensitivity.csv, the GeoTIFFs, report.html, map.html, run.json and the packed inputs/,
+    written into a staging folder and moved into place when complete
+    (:func:`siting.output.folder.staged_folder`).
+
+    Parameters
+    ----------
+    result : ScreenResult
+        From :func:`siting.runs.screening.screen`.
+    out_dir : str or Path
+        The output folder.
+    overwrite : bool
+        Replace an existing output folder of siting.
+
+    Returns
+    -------
+    Path
+        ``out_dir``, absolute.
+
+    Raises
+    ------
+    OutputExistsError
+        ``out_dir`` exists without ``overwrite``, is not a folder siting wrote, holds an input,
+        is being written by another run, or its parent cannot be written or lacks the room.
+    InterruptedAfterWriting
+        Interrupted after the new folder was in place (the result is whole).
+    """
     out_dir = Path(out_dir).resolve()
     check_output_dir(
         out_dir,

@@ -17,8 +17,17 @@ COORDINATE_COLUMNS = ("x", "y", "x_m", "y_m")
 
 
 def write_csv(frame: pd.DataFrame, path: Path) -> None:
-    """CSV with 6 significant figures, except coordinates, which keep centimetres; text cells
-    are made spreadsheet-safe (:func:`spreadsheet_safe`)."""
+    """CSV with 6 significant figures, except coordinates, which keep centimetres.
+
+    Text cells are made spreadsheet-safe (:func:`spreadsheet_safe`).
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        The table.
+    path : Path
+        The file to write.
+    """
     out = frame.copy()
     for col in out.columns:
         if pd.api.types.is_object_dtype(out[col]) or pd.api.types.is_string_dtype(out[col]):

@@ -10,14 +10,50 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from siting.output.folder import check_output_dir, staged_folder
-from siting.presentation.verify_report import write_verify_report
+from siting.presentation.verify_report import render_verify_report
 
 if TYPE_CHECKING:  # the type only: a run's result is written here, never computed
     from siting.runs.verification import VerifyResult
 
 
+def write_verify_report(path: Path, **report) -> None:
+    """Write verify.html: the page rendered from ``report``; nothing is written if it fails.
+
+    Parameters
+    ----------
+    path : Path
+        File to write (the caller makes the output folder atomic).
+    **report
+        The keyword arguments of :func:`siting.presentation.verify_report.render_verify_report`.
+    """
+    Path(path).write_text(render_verify_report(**report), encoding="utf-8")
+
+
 def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = False) -> Path:
-    """findings.json and verify.html, written atomically into ``out_dir``."""
+    """findings.json and verify.html, written atomically into ``out_dir``.
+
+    Parameters
+    ----------
+    result : VerifyResult
+        From :func:`siting.runs.verification.verify`.
+    out_dir : str or Path
+        The output folder.
+    overwrite : bool
+        Replace an existing output folder of siting.
+
+    Returns
+    -------
+    Path
+        ``out_dir``, absolute.
+
+    Raises
+    ------
+    OutputExistsError
+        ``out_dir`` exists without ``overwrite``, is not a folder siting wrote, is being written
+        by another run, or its parent cannot be written or lacks the room.
+    InterruptedAfterWriting
+        Interrupted after the new folder was in place (the result is whole).
+    """
     out_dir = Path(out_dir).resolve()
     check_output_dir(out_dir, overwrite)
     run_time = datetime.now(UTC).replace(microsecond=0).isoformat()

@@ -2,9 +2,10 @@
 
 An adapter of the output layer (like ``place_outputs`` and ``region_outputs``): the hourly
 record is read and binned by ``weather_hourly`` (which writes nothing), the charts are drawn by
-``figures``, and everything goes through ``outputs.staged_folder``. Functions of those modules
-are called through the module (``weather_hourly.frequency_table_from_hourly``), so a test can
-stand one in.
+``weather_figures`` and rendered to PNG by ``figure_png``, and everything goes through
+``outputs.staged_folder``. Functions of those modules are called through the module
+(``weather_hourly.frequency_table_from_hourly``, ``weather_figures.stability_by_speed_figure``),
+so a test can stand one in.
 """
 
 from __future__ import annotations
@@ -16,29 +17,12 @@ from pathlib import Path
 
 from siting._version import __version__
 from siting.dispersion.hourly import HourlyWeather
+from siting.errors import collect_warnings, unique_messages
 from siting.output.folder import check_output_dir, staged_folder
 from siting.output.records import sha256_of
-from siting.presentation import figures
+from siting.presentation import weather_figures
+from siting.presentation.figure_parts import figure_png
 from siting.readers import hourly_record as weather_hourly
-
-
-def _sector_note(weather: HourlyWeather, n_sectors: int) -> str | None:
-    """A warning when reported directions fall unevenly into the table's sectors."""
-    step = weather_hourly.direction_step_deg(weather.direction_deg)
-
-    def even(n: int) -> bool:
-        ratio = 360.0 / n / step
-        return abs(ratio - round(ratio)) < 1e-9
-
-    if step <= 0 or even(n_sectors):
-        return None
-    better = [str(n) for n in (8, 12, 16, 18, 24, 36) if even(n)]
-    return (
-        f"directions are reported in {step:g} deg steps, which do not divide the "
-        f"{360.0 / n_sectors:g} deg sectors evenly, so some sectors of frequency_table.csv "
-        f"hold more reported directions than others; {' or '.join(better)} sectors avoid "
-        "that"
-    )
 
 
 def write_weather_outputs(
@@ -59,21 +43,45 @@ def write_weather_outputs(
     folder beside ``out_dir`` and moved into place when complete; an existing ``out_dir`` is
     replaced only with ``overwrite`` (``outputs.staged_folder``, as for ``siting screen``).
 
+    Parameters
+    ----------
+    out_dir : str or Path
+        The output folder.
+    weather : HourlyWeather
+        The hours (:func:`siting.readers.hourly_record.read_hourly_record`).
+    summary : dict
+        The record's summary, from the same call.
+    warnings : list of str
+        The record's warnings, from the same call.
+    n_sectors : int
+        Direction sectors of the frequency table, 4..360.
+    overwrite : bool
+        Replace an existing output folder of siting.
+    input_paths : sequence of Path
+        The record's files, hashed into summary.json.
+
     Returns
     -------
     out_dir : Path
         The folder written (absolute).
     warnings : list of str
-        The warnings given plus any about the table's sectors.
+        The warnings given plus any the binning into sectors raised (WeatherWarning: the
+        directions fall unevenly into the sectors), each message once.
+
+    Raises
+    ------
+    OutputExistsError
+        ``out_dir`` exists without ``overwrite``, is not a folder siting wrote, holds an input,
+        is being written by another run, or its parent cannot be written or lacks the room.
+    InterruptedAfterWriting
+        Interrupted after the new folder was in place (the result is whole).
     """
 
     out_dir = Path(out_dir).resolve()
     check_output_dir(out_dir, overwrite)
-    table = weather_hourly.frequency_table_from_hourly(weather, n_sectors)
-    warnings = list(warnings)
-    note = _sector_note(weather, n_sectors)
-    if note:
-        warnings.append(note)
+    with collect_warnings() as binning:
+        table = weather_hourly.frequency_table_from_hourly(weather, n_sectors)
+    warnings = unique_messages([*warnings, *binning.messages])
     record = {
         "tool": "siting weather",
         "version": __version__,
@@ -95,8 +103,12 @@ def write_weather_outputs(
     }
     with staged_folder(out_dir, overwrite) as staging:
         table.to_csv(staging / "frequency_table.csv", index=False, float_format="%.10g")
-        (staging / "wind_rose.png").write_bytes(figures.wind_rose_png(weather))
-        (staging / "stability_by_speed.png").write_bytes(figures.stability_by_speed_png(weather))
+        (staging / "wind_rose.png").write_bytes(
+            figure_png(weather_figures.wind_rose_figure(weather))
+        )
+        (staging / "stability_by_speed.png").write_bytes(
+            figure_png(weather_figures.stability_by_speed_figure(weather))
+        )
         (staging / "summary.json").write_text(
             json.dumps(record, indent=2, default=str), encoding="utf-8"
         )

@@ -44,12 +44,42 @@ def site_max_and_mean(values, site_index, interior, n_sites: int):
 
 
 def percent_of(value, critical):
-    """Share of a critical level or load [%]: 100 x value / critical."""
+    """Share of a critical level or load [%]: 100 x value / critical.
+
+    Parameters
+    ----------
+    value : float or ndarray
+        Process contribution, in the unit of ``critical`` (ug m-3 or kg N ha-1 yr-1).
+    critical : float or ndarray
+        Critical level or load in the same unit, > 0.
+
+    Returns
+    -------
+    ndarray
+        100 x value / critical [%], broadcast shape of the inputs.
+    """
     return 100.0 * np.asarray(value, dtype=float) / np.asarray(critical, dtype=float)
 
 
 def verdict(pct_of_level, pct_of_load, threshold_percent, assessed=True):
-    """'below threshold' when both shares are at or under the threshold, else 'above threshold'."""
+    """'below threshold' when both shares are at or under the threshold, else 'above threshold'.
+
+    Parameters
+    ----------
+    pct_of_level : float or ndarray
+        Process contribution as a share of the critical level [%].
+    pct_of_load : float or ndarray
+        Process contribution as a share of the critical load [%].
+    threshold_percent : float or ndarray
+        The site's screening threshold [%].
+    assessed : bool or ndarray of bool
+        False where a site could not be assessed (it gets 'not assessed').
+
+    Returns
+    -------
+    ndarray of object
+        One of ``VERDICT_BELOW``, ``VERDICT_ABOVE``, ``VERDICT_NOT_ASSESSED`` per site.
+    """
     pct_of_level = np.atleast_1d(pct_of_level)
     pct_of_load = np.atleast_1d(pct_of_load)
     worst = np.maximum(pct_of_level, pct_of_load)

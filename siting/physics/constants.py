@@ -34,7 +34,18 @@ KG_YR_TO_G_S = G_PER_KG / SECONDS_PER_YEAR
 
 
 def kg_per_year_to_g_s(emission_kg_yr):
-    """Annual emission [kg yr-1] -> mean source strength [g s-1] over a 365-day year."""
+    """Annual emission [kg yr-1] -> mean source strength [g s-1] over a 365-day year.
+
+    Parameters
+    ----------
+    emission_kg_yr : float or ndarray
+        Annual emission [kg yr-1].
+
+    Returns
+    -------
+    float or ndarray
+        Mean source strength [g s-1].
+    """
     return emission_kg_yr * KG_YR_TO_G_S
 
 
@@ -42,10 +53,33 @@ def deposition_kg_n_ha_yr(concentration_ug_m3, deposition_velocity_m_s):
     """Dry deposition flux of NH3 expressed as nitrogen [kg N ha-1 yr-1].
 
     flux = v_d * C, with C [ug NH3 m-3] and v_d [m s-1], converted with the factor above.
+
+    Parameters
+    ----------
+    concentration_ug_m3 : float or ndarray
+        Ground-level NH3 concentration [ug m-3].
+    deposition_velocity_m_s : float or ndarray
+        Dry deposition velocity [m s-1].
+
+    Returns
+    -------
+    float or ndarray
+        Deposition [kg N ha-1 yr-1].
     """
     return concentration_ug_m3 * deposition_velocity_m_s * UG_NH3_M2_S_TO_KG_N_HA_YR
 
 
 def kg_n_to_mol_n(value_kg_n):
-    """kg N -> mol N (works for fluxes per ha per yr too)."""
+    """kg N -> mol N (works for fluxes per ha per yr too).
+
+    Parameters
+    ----------
+    value_kg_n : float or ndarray
+        Nitrogen [kg N], or a flux [kg N ha-1 yr-1].
+
+    Returns
+    -------
+    float or ndarray
+        The same in mol N (or mol N ha-1 yr-1).
+    """
     return value_kg_n * MOL_N_PER_KG_N

@@ -28,6 +28,20 @@ def ground_vertical_density_per_m(sigma_z_m, release_height_m, mixing_height_m=N
     g = V(z = 0) / (sqrt(2 pi) sz). Without a lid this is sqrt(2/pi) exp(-H^2 / 2 sz^2) / sz, the
     integrand of the source-depletion equation [VanderHoven1968]. The crosswind-integrated
     ground-level concentration of a plume carrying Q [g s-1] is Q g / u.
+
+    Parameters
+    ----------
+    sigma_z_m : float or ndarray
+        Vertical spread [m], > 0.
+    release_height_m : float
+        Effective release height H [m], >= 0.
+    mixing_height_m : float, optional
+        Height of a reflecting lid [m]; None for no lid.
+
+    Returns
+    -------
+    ndarray
+        g [m-1], the shape of ``sigma_z_m``.
     """
     sz = np.asarray(sigma_z_m, dtype=float)
     return vertical_term(sz, release_height_m, 0.0, mixing_height_m) / (_SQRT_2PI * sz)
@@ -38,6 +52,18 @@ def cumulative_depletion_integral_m0(distance_m, density_per_m):
 
     Trapezoid rule on the given table; the first node's share is g(x0) x0 (the integrand is
     negligible there for elevated or volume sources, and the table should start close to 0).
+
+    Parameters
+    ----------
+    distance_m : ndarray
+        Increasing downwind distances [m], > 0.
+    density_per_m : ndarray
+        g(x) at those distances from :func:`ground_vertical_density_per_m` [m-1].
+
+    Returns
+    -------
+    ndarray
+        I(x) at every node [-].
     """
     x = np.asarray(distance_m, dtype=float)
     g = np.asarray(density_per_m, dtype=float)
@@ -71,5 +97,18 @@ def source_depletion_fraction(deposition_velocity_m_s, wind_speed_m_s, depletion
 
 
 def dry_deposition_flux_g_m2_s(concentration_g_m3, deposition_velocity_m_s):
-    """Dry deposition flux F = v_d C [g m-2 s-1] of ground-level concentration [g m-3]."""
+    """Dry deposition flux F = v_d C [g m-2 s-1] of ground-level concentration [g m-3].
+
+    Parameters
+    ----------
+    concentration_g_m3 : float or ndarray
+        Ground-level concentration [g m-3].
+    deposition_velocity_m_s : float or ndarray
+        Dry deposition velocity [m s-1].
+
+    Returns
+    -------
+    ndarray
+        Flux [g m-2 s-1].
+    """
     return np.asarray(concentration_g_m3) * deposition_velocity_m_s

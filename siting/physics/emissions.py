@@ -21,9 +21,30 @@ from siting.physics.constants import N_PER_NH3_MASS_RATIO, kg_per_year_to_g_s
 class EmissionDerivation:
     """Every step from factor (or direct figure) to source strength.
 
-    Attributes (units in the names): factor_nh3_kg_per_place_yr and places are None for a
-    direct figure; reduction_percent is the technique's reduction of the air it treats;
-    effective_reduction_percent the reduction of the house's total emission.
+    Attributes
+    ----------
+    factor_nh3_kg_per_place_yr : float or None
+        Emission factor [kg NH3 place-1 yr-1]; None for a direct figure.
+    places : float or None
+        Animal places; None for a direct figure.
+    nh3_unabated_kg_yr : float
+        Emission before abatement [kg NH3 yr-1].
+    reduction_percent : float
+        The technique's reduction of the air it treats [%].
+    treated_air_fraction : float
+        Share of the house's ammonia that passes the technique [-].
+    effective_reduction_percent : float
+        Reduction of the house's total emission [%].
+    nh3_kg_yr : float
+        Emission after abatement [kg NH3 yr-1].
+    emission_g_s : float
+        Mean source strength [g s-1].
+    nh3_removed_kg_yr : float
+        Ammonia removed by the technique [kg NH3 yr-1].
+    n_captured_kg_yr : float or None
+        Nitrogen captured in a scrubber's effluent [kg N yr-1]; None without a scrubber.
+    effluent_m3_yr : float or None
+        Effluent volume [m3 yr-1]; None when the technique states no N content.
     """
 
     factor_nh3_kg_per_place_yr: float | None
@@ -39,6 +60,13 @@ class EmissionDerivation:
     effluent_m3_yr: float | None
 
     def as_dict(self) -> dict:
+        """Every field by name, for sources.csv and the run record.
+
+        Returns
+        -------
+        dict
+            Field name -> value (units in the names).
+        """
         return asdict(self)
 
 

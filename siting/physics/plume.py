@@ -48,6 +48,21 @@ class SigmaScheme:
     holding (a, b, c) per class [Briggs1973].
     ``kind == "pasquill_gifford"``: ``y`` holds (c, d) per class; ``z_bands`` per class a
     tuple of (upper_km, a, b) rows [EPA1995] Tables 1-1/1-2.
+
+    Attributes
+    ----------
+    name : str
+        Label of the scheme (land type and kind), for the run record.
+    kind : {"briggs", "pasquill_gifford"}
+        Which formula the coefficients belong to.
+    y : ndarray
+        Lateral coefficients per class, (6, 3) for Briggs (sigma_y [m] of x [m]) or (6, 2) for
+        Pasquill-Gifford (degrees, of x [km]).
+    z : ndarray, optional
+        Vertical Briggs coefficients per class, (6, 3); None for Pasquill-Gifford.
+    z_bands : tuple, optional
+        Pasquill-Gifford sigma_z bands per class, rows of (upper end [km], a, b); None for
+        Briggs.
     """
 
     name: str
@@ -57,7 +72,20 @@ class SigmaScheme:
     z_bands: tuple | None = None
 
     def sigma_y_m(self, distance_m, stability_index: int) -> np.ndarray:
-        """Lateral spread sigma_y [m] at downwind distance [m] for one stability class."""
+        """Lateral spread sigma_y [m] at downwind distance [m] for one stability class.
+
+        Parameters
+        ----------
+        distance_m : float or ndarray
+            Downwind distance [m], >= 0.
+        stability_index : int
+            Pasquill class, 0..5 for A..F.
+
+        Returns
+        -------
+        ndarray
+            sigma_y [m], the shape of ``distance_m``.
+        """
         x = np.asarray(distance_m, dtype=float)
         if self.kind == "briggs":
             a, b, c = self.y[stability_index]
@@ -68,7 +96,20 @@ class SigmaScheme:
         return 465.11628 * x_km * np.tan(theta_rad)
 
     def sigma_z_m(self, distance_m, stability_index: int) -> np.ndarray:
-        """Vertical spread sigma_z [m] at downwind distance [m] for one stability class."""
+        """Vertical spread sigma_z [m] at downwind distance [m] for one stability class.
+
+        Parameters
+        ----------
+        distance_m : float or ndarray
+            Downwind distance [m], >= 0.
+        stability_index : int
+            Pasquill class, 0..5 for A..F.
+
+        Returns
+        -------
+        ndarray
+            sigma_z [m], the shape of ``distance_m`` (Pasquill-Gifford: at most 5000 m).
+        """
         x = np.asarray(distance_m, dtype=float)
         if self.kind == "briggs":
             a, b, c = self.z[stability_index]
@@ -95,6 +136,11 @@ def virtual_distance_m(sigma0_m: float, sigma_of_distance, max_distance_m: float
         Monotone sigma(x) [m] of distance x [m].
     max_distance_m : float
         Upper end of the search [m].
+
+    Returns
+    -------
+    float
+        The virtual distance [m] (log-log interpolation on a table of 1 % steps).
     """
     if sigma0_m <= 0.0:
         return 0.0
@@ -170,6 +216,16 @@ def gep_stack_height_m(building_height_m: float, building_width_m: float | None 
         Height of the building the outlet stands on or beside [m], > 0.
     building_width_m : float, optional
         Its greatest projected width (crosswind) [m], > 0; None when not known.
+
+    Returns
+    -------
+    float
+        Hg [m].
+
+    Raises
+    ------
+    ValueError
+        If ``building_height_m`` is not above 0.
     """
     if building_height_m <= 0:
         raise ValueError(f"building_height_m must be > 0, got {building_height_m}")
@@ -183,6 +239,22 @@ def stack_tip_downwash_height_m(stack_height_m, diameter_m, exit_velocity_m_s, w
     h' = hs + 2 D (vs / us - 1.5) where the exit velocity vs is below 1.5 times the wind speed
     us at the outlet, else hs: a slow jet is pulled down into the outlet's own wake. Never
     below 0 (the ground).
+
+    Parameters
+    ----------
+    stack_height_m : float or ndarray
+        Outlet height hs [m], >= 0.
+    diameter_m : float or ndarray
+        Outlet diameter D [m], >= 0.
+    exit_velocity_m_s : float or ndarray
+        Exit velocity vs [m s-1], >= 0.
+    wind_speed_m_s : float or ndarray
+        Wind speed at the outlet us [m s-1], > 0.
+
+    Returns
+    -------
+    ndarray
+        h' [m], in [0, hs].
     """
     lowered = stack_height_m + 2.0 * diameter_m * (exit_velocity_m_s / wind_speed_m_s - 1.5)
     return np.clip(lowered, 0.0, stack_height_m)
@@ -195,6 +267,22 @@ def momentum_plume_rise_m(diameter_m, exit_velocity_m_s, wind_speed_m_s, stabili
     1.5 (F_m / (u sqrt(s)))^(1/3) with F_m = w^2 d^2 / 4 and s = g / T_a * dtheta/dz.
     Livestock house outlets exhaust air near ambient temperature, so buoyancy is neglected.
     Formulas from memory; a source without exit velocity has no rise (the caller passes 0).
+
+    Parameters
+    ----------
+    diameter_m : float or ndarray
+        Outlet diameter d [m], >= 0.
+    exit_velocity_m_s : float or ndarray
+        Exit velocity w [m s-1], >= 0.
+    wind_speed_m_s : float or ndarray
+        Wind speed at the outlet u [m s-1], > 0.
+    stability_index : int
+        Pasquill class, 0..5 for A..F.
+
+    Returns
+    -------
+    float or ndarray
+        Plume rise dh [m].
     """
     rise_neutral_m = 3.0 * diameter_m * exit_velocity_m_s / wind_speed_m_s
     dtheta_dz = _STABLE_DTHETA_DZ_K_M[stability_index]
@@ -217,6 +305,24 @@ def vertical_term(
     mixing lid L when given ([EPA1995] Eq. 1-50, summed over +-n_images reflections); where
     sz > 1.6 L the plume is taken as well mixed: V = sqrt(2 pi) sz / L ([EPA1995], from memory).
     The concentration is then Q V / (2 pi u sy sz) times the lateral term.
+
+    Parameters
+    ----------
+    sigma_z_m : float or ndarray
+        Vertical spread sz [m], > 0.
+    release_height_m : float or ndarray
+        Effective release height H [m], >= 0.
+    receptor_height_m : float
+        Receptor height z [m], >= 0.
+    mixing_height_m : float, optional
+        Height of a reflecting lid L [m]; None for no lid.
+    n_images : int
+        Reflections at the lid summed each way.
+
+    Returns
+    -------
+    ndarray
+        V [-], broadcast shape of the inputs.
     """
     sz = np.asarray(sigma_z_m, dtype=float)
     h = release_height_m
@@ -320,6 +426,11 @@ def sector_average_concentration_g_m3(
         Vertical spread [m].
     vertical : ndarray
         Vertical term V from :func:`vertical_term` [-].
+
+    Returns
+    -------
+    ndarray
+        Concentration [g m-3], broadcast shape of the inputs.
     """
     return (
         emission_g_s

@@ -39,6 +39,11 @@ def temperature_emission_weights(
     coefficient_per_k : float
         Relative change of emission per kelvin [K-1], >= 0; 0 gives a flat profile.
 
+    Returns
+    -------
+    ndarray
+        One weight per hour [-], mean 1.
+
     Raises
     ------
     ValueError
@@ -62,6 +67,27 @@ def ventilation_fraction(
     """Ventilation rate as a share of the maximum rate, by outside temperature [-].
 
     r = min_fraction for T <= ramp_start_c, 1 for T >= ramp_end_c, linear between.
+
+    Parameters
+    ----------
+    temperature_c : float or ndarray
+        Outside air temperature [deg C].
+    min_fraction : float
+        Winter minimum rate / maximum rate, in (0, 1].
+    ramp_start_c : float
+        Temperature below which the minimum rate runs [deg C].
+    ramp_end_c : float
+        Temperature from which the maximum rate runs [deg C], above ``ramp_start_c``.
+
+    Returns
+    -------
+    ndarray
+        r in [min_fraction, 1], the shape of ``temperature_c``.
+
+    Raises
+    ------
+    ValueError
+        If ``min_fraction`` is outside (0, 1] or the ramp ends at or below its start.
     """
     if not 0 < min_fraction <= 1:
         raise ValueError(f"min_fraction must be in (0, 1], got {min_fraction}")
@@ -85,6 +111,16 @@ def treated_ammonia_share(
         Scrubber capacity / maximum ventilation rate, in [0, 1].
     emission_weights : ndarray, optional
         Hourly emission weights (default equal): hours emitting more count more.
+
+    Returns
+    -------
+    float
+        sum_h e_h min(r_h, D) / r_h / sum_h e_h, in [0, 1].
+
+    Raises
+    ------
+    ValueError
+        If ``design_share`` is outside [0, 1] or a ventilation fraction outside (0, 1].
     """
     r = np.asarray(ventilation_fraction_of_max, dtype=float)
     if not 0.0 <= design_share <= 1.0:

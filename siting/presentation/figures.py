@@ -1,30 +1,35 @@
-"""The matplotlib figures of the screening report, rendered to PNG bytes.
+"""The report's figures, drawn as matplotlib Figures.
 
 Two report figures: the deposition grid in log classes with site outlines, sources and contours
-(:func:`deposition_figure`), and each site's maximum process contribution against its distance from
-the sources (:func:`pc_vs_distance_figure`); and the weather charts: a wind rose of an hourly
-record (:func:`wind_rose_png`, also used by ``siting weather``) or of a frequency table
-(:func:`wind_rose_from_table_png`), drawn alike, and the stability classes of an hourly record by
-wind speed (:func:`stability_by_speed_png`). All are drawn with the Agg canvas
-(:func:`figure_png`), never through pyplot's global state, and text from user files (site names,
-contour labels) is drawn as plain text, never as mathtext. A habitat layer may hold thousands of
-sites: every site is drawn (outlines as one line collection, points as one scatter), but only the
+(:func:`deposition_figure`), and each site's maximum process contribution against its distance
+from the sources (:func:`pc_vs_distance_figure`); the weather charts are in
+:mod:`siting.presentation.weather_figures`. Each draws into the Axes it is given (``ax``) or,
+without one, into a Figure of its own, and returns that Figure; the PNG bytes report.html
+inlines are made from it by :func:`figure_png` (from
+:mod:`siting.presentation.figure_parts`, named here too), called by the output layer. No
+pyplot state is used or left behind, and text from user files (site names, contour labels) is
+drawn as plain text, never as mathtext. A habitat layer may hold thousands of sites: every site
+is drawn (outlines as one line collection, points as one scatter), but only the
 :data:`MAX_LABELLED_SITES` most affected are named
-(:func:`siting.presentation.formats.most_affected_order`), and the figure then says so. No physics
-lives here: every number plotted was computed elsewhere. The deposition classes, the verdict
-colours and the number formats come from :mod:`siting.presentation.formats`; inlining the PNGs in
-report.html is the job of :mod:`siting.presentation.report`."""
+(:func:`siting.presentation.formats.most_affected_order`), and the figure then says so. No
+physics lives here: every number plotted was computed elsewhere. The deposition classes, the
+verdict colours and the number formats come from :mod:`siting.presentation.formats`."""
 
 from __future__ import annotations
 
-import io
 from collections.abc import Sequence
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from siting.errors import InputError
-from siting.physics.plume import STABILITY_CLASSES
+from siting.presentation.figure_parts import (
+    MAX_LABELLED_SITES,
+    figure_and_axes,
+    figure_png,
+    label_sites,
+    labels_note,
+)
 from siting.presentation.formats import (
     VERDICT_COLOURS,
     deposition_class_colours,
@@ -33,34 +38,20 @@ from siting.presentation.formats import (
     is_missing,
     most_affected_order,
 )
-from siting.readers.hourly_record import (
-    DEFAULT_SPEED_EDGES_M_S,
-    direction_step_deg,
-    hours_by_sector,
-    speed_class_index,
-    speed_class_labels,
-)
 
 if TYPE_CHECKING:  # imported for annotations only; the module does not need them at run time
     import geopandas as gpd
     import pandas as pd
+    from matplotlib.axes import Axes
     from matplotlib.figure import Figure
-
-    from siting.dispersion.sector import WeatherClasses
 
 __all__ = [
     "MAX_LABELLED_SITES",
     "deposition_figure",
+    "figure_and_axes",
     "figure_png",
     "pc_vs_distance_figure",
-    "stability_by_speed_png",
-    "wind_rose_from_table_png",
-    "wind_rose_png",
 ]
-
-#: Most site names drawn in one figure; more overlap into an unreadable smear and cost seconds
-#: each (text extents are measured one by one). Common practice, no source.
-MAX_LABELLED_SITES = 15
 
 #: Above this many sites the deposition figure draws their outlines thin and half transparent,
 #: or they would hide the grid they lie on. Our own choice.
@@ -79,29 +70,9 @@ _SOURCE_MARKERS = {
     "other": ("s", "#ffffff"),
 }
 
-
-def figure_png(fig: Figure, dpi: int = 110) -> bytes:
-    """Render a matplotlib Figure to PNG bytes with the Agg canvas (no pyplot, no display).
-
-    Parameters
-    ----------
-    fig : matplotlib.figure.Figure
-        The figure; a FigureCanvasAgg is attached when it has none of that kind.
-    dpi : int, optional
-        Resolution [dots per inch].
-
-    Returns
-    -------
-    png : bytes
-        The PNG file contents.
-    """
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-
-    if not isinstance(fig.canvas, FigureCanvasAgg):
-        FigureCanvasAgg(fig)
-    buffer = io.BytesIO()
-    fig.savefig(buffer, format="png", dpi=dpi, bbox_inches="tight")
-    return buffer.getvalue()
+#: Size of each report figure drawn into a Figure of its own [inches].
+_DEPOSITION_SIZE_IN = (7.5, 6.5)
+_DISTANCE_SIZE_IN = (7.5, 4.8)
 
 
 def _site_outlines(geometries: Any) -> list[np.ndarray]:
@@ -128,89 +99,6 @@ def _site_outlines(geometries: Any) -> list[np.ndarray]:
     return [part for part in np.split(coords, starts) if len(part) > 1]
 
 
-def _numeric(values: Any) -> Any:
-    """Numbers of a column; text that is not a number becomes NaN (pandas imported lazily)."""
-    import pandas as pd
-
-    return pd.to_numeric(values, errors="coerce")
-
-
-def _label_sites(ax: Any, xy: np.ndarray, names: Sequence[str], **text_options: Any) -> bool:
-    """Name sites at their points, most affected first; True when some names were left out.
-
-    Parameters
-    ----------
-    ax : matplotlib Axes
-        With its limits, scales and aspect already set (label boxes are measured in pixels).
-    xy : ndarray, shape (n, 2)
-        Anchor of each name in data coordinates, in the order to name them (most affected
-        first, :func:`siting.presentation.formats.most_affected_order`).
-    names : sequence of str
-        The names, drawn as plain text (never mathtext).
-    **text_options
-        Passed to ``Axes.annotate`` (font size, alignment, offset).
-
-    Notes
-    -----
-    Up to :data:`MAX_LABELLED_SITES` sites every one is named, as drawn before there were
-    many. With more, names are placed in order while fewer than the cap are shown, skipping
-    one whose box would overlap a name already placed (the most affected are often
-    neighbours), and looking at no more than ten times the cap.
-    """
-    from matplotlib.patheffects import withStroke
-
-    # a light halo keeps a name readable over outlines, points and the coloured grid
-    text_options = {
-        "path_effects": [withStroke(linewidth=2.0, foreground="#ffffff", alpha=0.8)],
-        **text_options,
-    }
-    if len(names) <= MAX_LABELLED_SITES:
-        for (x, y), name in zip(xy, names):
-            ax.annotate(str(name), (x, y), parse_math=False, **text_options)
-        return False
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-
-    fig = ax.get_figure()
-    if not isinstance(fig.canvas, FigureCanvasAgg):
-        FigureCanvasAgg(fig)
-    renderer = fig.canvas.get_renderer()
-    ax.apply_aspect()  # final axes box, so the data -> pixel transform is the drawn one
-    placed: list[Any] = []
-    for (x, y), name in list(zip(xy, names))[: 10 * MAX_LABELLED_SITES]:
-        text = ax.annotate(str(name), (x, y), parse_math=False, **text_options)
-        box = text.get_window_extent(renderer)
-        if any(box.overlaps(other) for other in placed):
-            text.remove()
-            continue
-        placed.append(box)
-        if len(placed) == MAX_LABELLED_SITES:
-            break
-    return True
-
-
-def _labels_note(ax: Any, n_drawn: int) -> None:
-    """Say under the x-axis label that only the most affected of the ``n_drawn`` sites drawn
-    are named."""
-    note = (
-        f"Only the most affected sites are named: up to {MAX_LABELLED_SITES}, by PC as a share "
-        f"of the screening threshold,\noverlapping names skipped. {n_drawn} sites drawn; "
-        "every site is listed in sites.csv."
-    )
-    ax.annotate(
-        note,
-        xy=(0.5, 0.0),
-        xycoords=ax.xaxis.label,
-        xytext=(0, -3),
-        textcoords="offset points",
-        ha="center",
-        va="top",
-        fontsize=7,
-        color="#505050",
-        annotation_clip=False,
-        parse_math=False,
-    )
-
-
 def deposition_figure(
     deposition_kg_n_ha_yr: np.ndarray,
     *,
@@ -221,8 +109,9 @@ def deposition_figure(
     sources: gpd.GeoDataFrame | None = None,
     contours: Sequence[tuple[float, str]] = (),
     crs_label: str = "",
-) -> bytes:
-    """PNG of the deposition grid in log classes, with site outlines, sources and contours.
+    ax: Axes | None = None,
+) -> Figure:
+    """The deposition grid in log classes, with site outlines, sources and contours.
 
     Parameters
     ----------
@@ -242,11 +131,14 @@ def deposition_figure(
         Contour levels [kg N ha-1 yr-1] and their labels.
     crs_label : str, optional
         Shown in the axis labels, e.g. ``"EPSG:32632"``.
+    ax : matplotlib Axes, optional
+        Draw into this Axes (its colour bar takes room beside it in its figure); by default
+        into a new Figure of its own.
 
     Returns
     -------
-    png : bytes
-        The figure as PNG.
+    fig : matplotlib.figure.Figure
+        The figure drawn in.
 
     Raises
     ------
@@ -261,8 +153,6 @@ def deposition_figure(
     (:func:`_draw_sources`, :func:`_map_legend`), the axes (:func:`_style_map_axes`) and last
     the site names (:func:`_name_sites_on_map`), measured against the final axes.
     """
-    from matplotlib.figure import Figure
-
     grid = np.asarray(deposition_kg_n_ha_yr, dtype=float)
     if grid.ndim != 2:
         raise InputError(f"deposition figure: grid must be 2-D, got shape {grid.shape}")
@@ -271,8 +161,7 @@ def deposition_figure(
     n_rows, n_cols = grid.shape
     extent_m = (west_m, west_m + n_cols * cell_m, north_m - n_rows * cell_m, north_m)
 
-    fig = Figure(figsize=(7.5, 6.5))
-    ax = fig.add_subplot()
+    fig, ax = figure_and_axes(ax, figsize=_DEPOSITION_SIZE_IN)
     _draw_deposition_classes(ax, grid, extent_m)
     _draw_contours(ax, grid, contours, west_m=west_m, north_m=north_m, cell_m=cell_m)
     has_sites = sites is not None and len(sites) > 0
@@ -284,7 +173,7 @@ def deposition_figure(
     _style_map_axes(ax, extent_m, crs_label)
     if has_sites and "name" in sites:
         _name_sites_on_map(ax, sites)
-    return figure_png(fig)
+    return fig
 
 
 def _draw_deposition_classes(
@@ -467,12 +356,12 @@ def _name_sites_on_map(ax: Any, sites: gpd.GeoDataFrame) -> None:
     inside = shapely.point_on_surface(geoms[order[: 10 * MAX_LABELLED_SITES]])
     xy = shapely.get_coordinates(inside)
     names = sites["name"].to_numpy(dtype=object)[order[: len(xy)]]
-    if _label_sites(ax, xy, names, fontsize=7, ha="center", color="#3a0d05"):
-        _labels_note(ax, len(sites))
+    if label_sites(ax, xy, names, fontsize=7, ha="center", color="#3a0d05"):
+        labels_note(ax, len(sites))
 
 
-def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
-    """PNG of each site's maximum PC deposition against its distance from the sources.
+def pc_vs_distance_figure(sites: pd.DataFrame, *, ax: Axes | None = None) -> Figure:
+    """Each site's maximum PC deposition against its distance from the sources.
 
     Parameters
     ----------
@@ -482,11 +371,13 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
         ``threshold_percent`` and ``critical_load_used_kg_n_ha_yr`` are present each site's
         screening threshold (threshold % of its critical load) is marked with a bar, and
         ``verdict`` colours the points. Rows without a positive deposition are left out (log y).
+    ax : matplotlib Axes, optional
+        Draw into this Axes; by default into a new Figure of its own.
 
     Returns
     -------
-    png : bytes
-        The figure as PNG.
+    fig : matplotlib.figure.Figure
+        The figure drawn in.
 
     Raises
     ------
@@ -500,8 +391,6 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     the log axes (:func:`_style_distance_axes`) and last the site names
     (:func:`_name_sites_by_distance`), measured against the final limits.
     """
-    from matplotlib.figure import Figure
-
     missing = [c for c in ("name", "distance_m", "pc_dep_max_kg_n_ha_yr") if c not in sites]
     if missing:
         raise InputError(f"PC-distance figure: sites table lacks column(s) {', '.join(missing)}")
@@ -509,11 +398,10 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     dep_kg_n_ha_yr = np.asarray(sites["pc_dep_max_kg_n_ha_yr"], dtype=float)
     keep = np.isfinite(distance_m) & np.isfinite(dep_kg_n_ha_yr) & (dep_kg_n_ha_yr > 0)
 
-    fig = Figure(figsize=(7.5, 4.8))
-    ax = fig.add_subplot()
+    fig, ax = figure_and_axes(ax, figsize=_DISTANCE_SIZE_IN)
     if not keep.any():
         _say_nothing_to_plot(ax)
-        return figure_png(fig)
+        return fig
     idx = np.flatnonzero(keep)
     many = idx.size > _LEGEND_INSIDE_MAX_POINTS
     verdicts = list(sites["verdict"]) if "verdict" in sites else [None] * len(sites)
@@ -522,7 +410,7 @@ def pc_vs_distance_figure(sites: pd.DataFrame) -> bytes:
     _verdict_legend(ax, verdicts, many)
     _style_distance_axes(ax)
     _name_sites_by_distance(ax, sites, keep, distance_m, dep_kg_n_ha_yr)
-    return figure_png(fig)
+    return fig
 
 
 def _say_nothing_to_plot(ax: Any) -> None:
@@ -671,7 +559,7 @@ def _name_sites_by_distance(
     nameable = keep & np.array([not is_missing(n) for n in names], dtype=bool)
     order = np.array([i for i in most_affected_order(sites) if nameable[i]], dtype=int)
     ax.autoscale_view()  # final limits before the name boxes are measured
-    if order.size and _label_sites(
+    if order.size and label_sites(
         ax,
         np.column_stack([distance_m[order], dep_kg_n_ha_yr[order]]),
         names[order],
@@ -679,282 +567,4 @@ def _name_sites_by_distance(
         xytext=(5, 4),
         fontsize=7,
     ):
-        _labels_note(ax, int(keep.sum()))
-
-
-#: Fill of each Pasquill class A..F in the weather charts: warm (unstable) to cool (stable),
-#: neutral D grey. Our own choice.
-_STABILITY_COLOURS = ("#c8402a", "#e8885a", "#f2c77e", "#b9b9b4", "#7fa8c9", "#2f5f8f")
-#: Fill of the speed classes in the wind rose, light (calm) to dark (strong); our own choice.
-_SPEED_COLOURS = ("#e7efd6", "#b9d69a", "#7fb86c", "#478f4e", "#24643a", "#0f3b22")
-
-
-def _record_span(weather) -> str:
-    """'2024-12-31 23:00 - 2025-12-31 22:00 UTC' of an hourly record."""
-    if weather.n_hours == 0:
-        return "no hours"
-    first = str(np.datetime64(weather.time_utc[0], "m")).replace("T", " ")
-    last = str(np.datetime64(weather.time_utc[-1], "m")).replace("T", " ")
-    return f"{first} - {last} UTC"
-
-
-def _colours(palette: Sequence[str], n: int) -> list[str]:
-    """n colours from a palette, repeating its last colour when there are more classes."""
-    return [palette[min(i, len(palette) - 1)] for i in range(n)]
-
-
-def _rose_png(
-    percent: np.ndarray,
-    sector_centres_deg: np.ndarray,
-    labels: Sequence[str],
-    title: str,
-    note: str,
-    legend_title: str = "wind speed",
-) -> bytes:
-    """PNG of a wind rose drawn from shares already binned by speed class and direction sector.
-
-    Parameters
-    ----------
-    percent : ndarray, shape (n_classes, n_sectors)
-        Share of the time in each speed class and direction sector [%].
-    sector_centres_deg : ndarray, shape (n_sectors,)
-        Direction the wind blows FROM at each sector centre [deg clockwise from north], evenly
-        spaced.
-    labels : sequence of str
-        Legend label of each speed class, without the unit.
-    title, note : str
-        Title above the rose and a small note below it.
-    legend_title : str, optional
-        Title of the speed legend.
-
-    Returns
-    -------
-    png : bytes
-        North up, directions clockwise, bars stacked from the lowest speed class outwards;
-        radial axis in %; legend in m/s. Both roses of this module are drawn here, so a
-        frequency-table run and an hourly run look alike.
-    """
-    from matplotlib.figure import Figure
-
-    fig = Figure(figsize=(6.4, 6.0))
-    ax = fig.add_subplot(projection="polar")
-    ax.set_theta_zero_location("N")
-    ax.set_theta_direction(-1)  # clockwise, as on a compass
-    n_sectors = len(sector_centres_deg)
-    width_rad = 2 * np.pi / n_sectors
-    theta = np.deg2rad(np.asarray(sector_centres_deg, dtype=float))
-    bottom = np.zeros(n_sectors)
-    for row, label, colour in zip(percent, labels, _colours(_SPEED_COLOURS, len(labels))):
-        ax.bar(
-            theta,
-            row,
-            width=width_rad * 0.92,
-            bottom=bottom,
-            color=colour,
-            edgecolor="#404040",
-            linewidth=0.4,
-            label=f"{label} m/s",
-            align="center",
-        )
-        bottom += row
-    ax.set_xticks(np.deg2rad(np.arange(0, 360, 45)))
-    ax.set_xticklabels(["N", "NE", "E", "SE", "S", "SW", "W", "NW"])
-    ax.yaxis.set_major_formatter(lambda value, _: f"{value:g} %")
-    ax.tick_params(axis="y", labelsize=7)
-    ax.set_rlabel_position(112.5)
-    ax.legend(
-        title=legend_title,
-        fontsize=7,
-        title_fontsize=8,
-        loc="upper left",
-        bbox_to_anchor=(1.05, 1.0),
-        framealpha=0.9,
-    )
-    ax.set_title(title, fontsize=10)
-    fig.text(0.5, 0.01, note, ha="center", fontsize=7, color="#505050")
-    return figure_png(fig)
-
-
-def wind_rose_png(
-    weather, n_sectors: int = 16, *, speed_edges_m_s: Sequence[float] | None = None
-) -> bytes:
-    """PNG wind rose of an hourly record: % of hours by direction sector, stacked by speed.
-
-    Parameters
-    ----------
-    weather : siting.dispersion.hourly.HourlyWeather
-        The hours used (calms already raised to the floor speed, so they sit in the lowest
-        class with the direction the calm rule gave them).
-    n_sectors : int, optional
-        Direction sectors, centred on north, >= 4.
-    speed_edges_m_s : sequence of float, optional
-        Lower edges of the speed classes [m s-1] (default
-        ``weather_hourly.DEFAULT_SPEED_EDGES_M_S``).
-
-    Returns
-    -------
-    png : bytes
-        North up, directions clockwise, bars pointing to where the wind blows FROM; radial axis
-        in % of the hours used; legend in m/s.
-
-    Notes
-    -----
-    Directions reported in steps (10 deg) are spread evenly over their step before binning
-    (``weather_hourly.hours_by_sector``), so 16 sectors from 10 deg data do not alternate in height.
-    """
-    from matplotlib.figure import Figure
-
-    if n_sectors < 4:
-        raise InputError(f"wind rose: n_sectors must be >= 4, got {n_sectors}")
-    edges = DEFAULT_SPEED_EDGES_M_S if speed_edges_m_s is None else speed_edges_m_s
-    labels = speed_class_labels(edges)
-    n = weather.n_hours
-    title = f"Wind rose: direction the wind blows from\n{n} hours, {_record_span(weather)}"
-    if n == 0:
-        fig = Figure(figsize=(6.4, 6.0))
-        ax = fig.add_subplot(projection="polar")
-        ax.set_title(title, fontsize=10)
-        return figure_png(fig)
-    step = direction_step_deg(weather.direction_deg)
-    classes = speed_class_index(weather.speed_m_s, edges)
-    percent = np.array(
-        [
-            100.0 * hours_by_sector(weather.direction_deg[classes == c], n_sectors, step) / n
-            for c in range(len(labels))
-        ]
-    )
-    note = f"{n_sectors} sectors; % of hours used"
-    if step > 0:
-        note += f"; directions reported in {step:g} deg steps, spread over each step"
-    return _rose_png(percent, np.arange(n_sectors) * 360.0 / n_sectors, labels, title, note)
-
-
-def wind_rose_from_table_png(weather: WeatherClasses) -> bytes:
-    """PNG wind rose of a frequency table: % of the time by direction sector, stacked by speed.
-
-    Parameters
-    ----------
-    weather : siting.dispersion.sector.WeatherClasses
-        The table as used by the model (class speeds below the minimum wind speed already
-        raised to it, so such classes merge into the lowest one).
-
-    Returns
-    -------
-    png : bytes
-        The same look as :func:`wind_rose_png`: north up, directions clockwise, one bar per
-        sector of the table pointing to where the wind blows FROM, stacked by the table's own
-        speed classes (labelled by their class speed), radial axis in % of the time (the
-        frequencies summed over the stability classes, :func:`_table_rose_percent`).
-
-    Raises
-    ------
-    InputError
-        If ``frequency_fraction`` is not shaped (sectors, speeds, stability classes) or the
-        table has fewer than 4 sectors.
-    """
-    percent = _table_rose_percent(weather)
-    centres_deg = np.asarray(weather.sector_centres_deg, dtype=float)
-    labels = [format_number(u) for u in np.asarray(weather.speeds_m_s, dtype=float)]
-    title = (
-        f"Wind rose: direction the wind blows from\nfrequency table, {centres_deg.size} "
-        f"sectors of {360.0 / centres_deg.size:g} deg"
-    )
-    note = (
-        f"% of the time; stacked by the table's class speeds at the anemometer "
-        f"({format_number(weather.anemometer_height_m)} m)"
-    )
-    return _rose_png(percent, centres_deg, labels, title, note, legend_title="class speed")
-
-
-def _table_rose_percent(weather: WeatherClasses) -> np.ndarray:
-    """Share of the time in each speed class and sector of a frequency table [%].
-
-    Returns an array of shape (n_speeds, n_sectors): ``frequency_fraction`` summed over the
-    stability classes, normalised to 100 % in total (all zeros stay zeros).
-    """
-    centres_deg = np.asarray(weather.sector_centres_deg, dtype=float)
-    speeds_m_s = np.asarray(weather.speeds_m_s, dtype=float)
-    frequency = np.asarray(weather.frequency_fraction, dtype=float)
-    if frequency.ndim != 3 or frequency.shape[:2] != (centres_deg.size, speeds_m_s.size):
-        raise InputError(
-            f"wind rose: frequency_fraction must have shape (sectors {centres_deg.size}, "
-            f"speeds {speeds_m_s.size}, stability classes), got {frequency.shape}"
-        )
-    if centres_deg.size < 4:
-        raise InputError(f"wind rose: need at least 4 sectors, got {centres_deg.size}")
-    by_sector_speed = frequency.sum(axis=2)
-    total = by_sector_speed.sum()
-    share = by_sector_speed / total if total > 0 else by_sector_speed
-    return 100.0 * share.T
-
-
-def stability_by_speed_png(weather, *, speed_edges_m_s: Sequence[float] | None = None) -> bytes:
-    """PNG stacked bars: share of hours in each Pasquill class A-F within each speed class.
-
-    Parameters
-    ----------
-    weather : siting.dispersion.hourly.HourlyWeather
-        The hours used.
-    speed_edges_m_s : sequence of float, optional
-        Lower edges of the speed classes [m s-1] (default
-        ``weather_hourly.DEFAULT_SPEED_EDGES_M_S``).
-
-    Returns
-    -------
-    png : bytes
-        One bar per speed class summing to 100 % (empty classes left blank), the number of
-        hours in the class written above it.
-    """
-    from matplotlib.figure import Figure
-
-    edges = DEFAULT_SPEED_EDGES_M_S if speed_edges_m_s is None else speed_edges_m_s
-    labels = speed_class_labels(edges)
-    n_classes, n_stab = len(labels), len(STABILITY_CLASSES)
-    classes = speed_class_index(weather.speed_m_s, edges)
-    counts = np.zeros((n_classes, n_stab))
-    np.add.at(counts, (classes, np.asarray(weather.stability_index, dtype=int)), 1.0)
-    per_class = counts.sum(axis=1)
-    share = 100.0 * counts / np.maximum(per_class, 1.0)[:, None]
-
-    fig = Figure(figsize=(7.0, 4.4))
-    ax = fig.add_subplot()
-    x = np.arange(n_classes)
-    bottom = np.zeros(n_classes)
-    for s, (name, colour) in enumerate(zip(STABILITY_CLASSES, _STABILITY_COLOURS)):
-        ax.bar(
-            x,
-            share[:, s],
-            bottom=bottom,
-            color=colour,
-            edgecolor="#404040",
-            linewidth=0.4,
-            label=name,
-            width=0.7,
-        )
-        bottom += share[:, s]
-    for i, hours in enumerate(per_class):
-        ax.annotate(
-            f"{int(hours)} h",
-            (x[i], 100.0),
-            textcoords="offset points",
-            xytext=(0, 3),
-            ha="center",
-            fontsize=7,
-        )
-    ax.set_xticks(x)
-    ax.set_xticklabels(labels)
-    ax.set_xlabel("Wind speed at the anemometer [m/s]")
-    ax.set_ylabel("Share of the hours in the speed class [%]")
-    ax.set_ylim(0, 108)
-    ax.legend(
-        title="Pasquill class",
-        fontsize=7,
-        title_fontsize=8,
-        loc="upper left",
-        bbox_to_anchor=(1.01, 1.0),
-    )
-    ax.set_title(
-        f"Stability by wind speed: {weather.n_hours} hours, {_record_span(weather)}", fontsize=10
-    )
-    ax.grid(True, axis="y", linewidth=0.4, alpha=0.5)
-    return figure_png(fig)
+        labels_note(ax, int(keep.sum()))

@@ -1,47 +1,58 @@
-"""Small HTML building blocks shared by report.html and verify.html.
+"""What report.html and verify.html share: the template environment and the plain values they show.
 
-What lives here: the pieces that the screening report (:mod:`siting.presentation.report`) and the
-verification report (:mod:`siting.presentation.verify_report`) both use, so that the two pages read alike.
-That is the shared stylesheet (:data:`SHARED_CSS`, which verify.html extends with rules of its
-own), HTML escaping, identifier text that may wrap and the contents of a header cell, readable
-labels made from column and key names (their unit suffix in brackets), the display of one value
-of a key/value listing, bullet lists, and the CSS class and hint of each screening verdict. Each
-is a small function of plain values returning an HTML fragment as a string; text is escaped
-wherever it enters one.
+Both pages are laid out by jinja2 templates in ``siting/presentation/templates/``: the page shell
+(``page.html``, with the shared stylesheet ``shared.css``) and the macros both pages use
+(``parts.html``: header cells, identifiers that may wrap, the display of one value, key/value
+tables, bullet lists, verdict badges, figures, sections). This module holds the environment that
+renders them (:func:`render`: autoescape on, an undefined name fails loudly) and the helpers that
+turn values into what the templates show, as plain text or small plain structures, never HTML:
+readable labels made from column and key names (their unit suffix in brackets), the display of
+one value of a key/value listing (:func:`display_value`: text, or a small table of shares or of
+records), the text shown for any value (:func:`text`) and the CSS class and hint of each
+screening verdict.
 
-Also the page shell both use (:func:`page_html`, :func:`sections_html`) and the two-column
-key/value table. What does not live here: the sections and the tables specific to one page,
-which stay in :mod:`siting.presentation.report` and :mod:`siting.presentation.verify_report`. Number
-formatting (significant digits, percentages, the text shown for a missing value) belongs to
-:mod:`siting.presentation.formats`, which this module calls; no checking or physics happens here.
+What does not live here: the sections and the tables specific to one page, which are prepared in
+:mod:`siting.presentation.report` and :mod:`siting.presentation.verify_report` and laid out by
+their own templates. Number formatting (significant digits, percentages, the text shown for a
+missing value) belongs to :mod:`siting.presentation.formats`, which this module calls; no checking
+or physics happens here.
 """
 
 from __future__ import annotations
 
 import html
 from collections.abc import Mapping, Sequence
-from typing import Any
+from dataclasses import dataclass
+from functools import lru_cache
+from typing import TYPE_CHECKING, Any, NamedTuple
 
+import jinja2
 import numpy as np
 
 from siting.presentation.formats import MISSING_TEXT, format_for_column, format_percent, is_missing
 
+if TYPE_CHECKING:
+    import pandas as pd
+
 __all__ = [
     "NOT_APPLICABLE",
-    "SHARED_CSS",
     "UNIT_SUFFIXES",
     "VERDICT_STYLE",
-    "bullet_list",
-    "code_html",
+    "Cell",
+    "Joined",
+    "MiniTable",
+    "Verdict",
     "display_value",
-    "esc",
-    "header_html",
+    "filled",
     "is_number",
     "is_share",
-    "key_value_table",
-    "page_html",
+    "key_values",
+    "macro",
+    "number_cell",
     "plain_label",
-    "sections_html",
+    "render",
+    "text",
+    "verdict",
 ]
 
 #: CSS class and plain-words hint per verdict (styling of a verdict cell or badge).
@@ -75,118 +86,131 @@ UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
     ("_s", "s"),
 )
 
-#: The stylesheet of report.html; verify.html appends rules of its own.
-SHARED_CSS = """
-:root { --ink: #1d2430; --muted: #5a6472; --rule: #c9ced6; --band: #f3f5f8; --accent: #23436b;
-        --warn-bg: #fbe0d8; --warn-ink: #7f1d0b; --warn-rule: #c2543a; }
-* { box-sizing: border-box; }
-body { font-family: "Segoe UI", "Helvetica Neue", Arial, sans-serif; color: var(--ink);
-       margin: 0 auto; max-width: 1200px; padding: 1.2rem 1.6rem 3rem; line-height: 1.45; }
-h1 { font-size: 1.6rem; margin: 0.4rem 0 0.2rem; color: var(--accent); }
-h2 { font-size: 1.25rem; margin-top: 2rem; border-bottom: 2px solid var(--accent);
-     padding-bottom: 0.2rem; color: var(--accent); }
-h3 { font-size: 1.05rem; margin-top: 1.4rem; }
-h4 { font-size: 0.95rem; margin: 1rem 0 0.2rem; }
-.meta { color: var(--muted); font-size: 0.9rem; margin: 0 0 0.8rem; }
-.note { color: var(--muted); font-size: 0.9em; margin: 0.2rem 0 0.8rem; }
-.caution-line { background: #fff4d6; border: 1px solid #d9a400; border-left: 6px solid #d9a400;
-                padding: 0.5rem 0.8rem; font-weight: 600; margin: 0.6rem 0 1rem; }
-.cautions { background: #fff4d6; border: 2px solid #d9a400; padding: 0.6rem 1.2rem;
-            font-size: 1.02rem; }
-.cautions li { margin: 0.3rem 0; }
-nav.toc { font-size: 0.92rem; }
-nav.toc ol { margin: 0.2rem 0 0; padding-left: 1.4rem; }
-table { border-collapse: collapse; margin: 0.6rem 0 1rem; font-size: 0.9rem; max-width: 100%; }
-th, td { border: 1px solid var(--rule); padding: 0.28rem 0.5rem; vertical-align: top; }
-th { background: #e4e8ee; text-align: left; }
-thead th { vertical-align: bottom; }
-th .unit { display: block; font-weight: 400; font-size: 0.9em; color: var(--muted);
-           white-space: nowrap; }
-th.group { text-align: center; border-bottom-color: var(--accent); }
-td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
-td.na { color: var(--muted); text-align: center; }
-td.over { color: var(--warn-ink); font-weight: 700; }
-tbody tr:nth-child(even) { background: var(--band); }
-.table-wrap { overflow-x: auto; }
-.sub { display: block; font-size: 0.87em; color: var(--muted); }
-.cite { font-size: 0.85em; line-height: 1.3; color: #3b4452; overflow-wrap: anywhere; }
-.mono { font-family: "DejaVu Sans Mono", Consolas, "Liberation Mono", monospace;
-        font-size: 0.87em; overflow-wrap: anywhere; }
-sup.ref { font-size: 0.78em; color: var(--accent); margin-left: 0.15em; }
-table.fit { width: 100%; }
-table.summary th { font-size: 0.92em; }
-table.summary td.site { min-width: 8em; }
-table.summary .site-name { font-weight: 600; }
-table.derivation { width: 100%; table-layout: fixed; }
-table.derivation col.label { width: 16em; }
-table.derivation tbody th { font-weight: 600; background: #eef1f5; }
-tr.step-group th { background: #d5dce6; color: var(--accent); font-size: 0.9em;
-                   text-transform: uppercase; letter-spacing: 0.03em; }
-table.derivation tr.result td { font-weight: 700; }
-table.derivation td { overflow-wrap: anywhere; }
-td.flag { background: var(--warn-bg); color: var(--warn-ink); font-weight: 700;
-          border: 2px solid var(--warn-rule); }
-th.flagged { background: var(--warn-bg); color: var(--warn-ink); }
-table.mini { margin: 0; font-size: 0.95em; }
-table.mini th, table.mini td { padding: 0.1rem 0.45rem; text-align: center; }
-table.compact td, table.compact th { padding: 0.18rem 0.5rem; }
-ol.cite-list { font-size: 0.9em; color: #3b4452; padding-left: 2.2rem; }
-ol.cite-list li { margin: 0.15rem 0; }
-.verdict { font-weight: 700; padding: 0.1rem 0.45rem; border-radius: 0.25rem; white-space: nowrap;
-           display: inline-block; }
-.verdict-above { background: var(--warn-bg); color: var(--warn-ink);
-                 border: 1px solid var(--warn-rule); }
-.verdict-below { background: #dbe9f6; color: #0b3c6e; border: 1px solid #4a7fb5; }
-.verdict-none { background: #ececec; color: #3d3d3d; border: 1px dashed #8a8a8a; }
-.verdict-hint { display: block; font-size: 0.83em; color: var(--muted); font-weight: 400; }
-.empty { color: var(--muted); font-style: italic; }
-figure { margin: 1rem 0 1.6rem; }
-figure img { max-width: 100%; height: auto; border: 1px solid var(--rule); }
-figcaption { color: var(--muted); font-size: 0.9rem; margin-top: 0.3rem; }
-details { margin: 0.8rem 0; }
-details summary { cursor: pointer; color: var(--accent); }
-pre.record { background: var(--band); border: 1px solid var(--rule); padding: 0.6rem;
-             font-size: 0.78rem; white-space: pre-wrap; word-break: break-all; }
-tr, img, figure { page-break-inside: avoid; break-inside: avoid; }
-thead { display: table-header-group; }
-table.keyval > tbody > tr > th { min-width: 13em; }
-@page { size: A4 portrait; margin: 14mm 12mm; }
-@media print {
-  body { max-width: none; padding: 0; font-size: 9.5pt; }
-  table { font-size: 8pt; }
-  th, td { padding: 0.12rem 0.25rem; }
-  h1, h2, h3, h4 { page-break-after: avoid; break-after: avoid; }
-  tr.step-group { page-break-after: avoid; break-after: avoid; }
-  .table-wrap { overflow: visible; }
-  nav.toc { display: none; }
-  a { color: inherit; text-decoration: none; }
-  figure { margin: 0.6rem 0 1rem; }
-  figure img { max-height: 100mm; width: auto; }
-  figcaption { page-break-before: avoid; break-before: avoid; }
-  .cautions, .caution-line, table.mini, li { page-break-inside: avoid; break-inside: avoid; }
-  #run-record table { page-break-inside: avoid; break-inside: avoid; }
-  .cautions, .caution-line, .verdict, td.flag, th.flagged, tr.step-group th {
-    -webkit-print-color-adjust: exact; print-color-adjust: exact; }
-}
-"""
+
+# --------------------------------------------------------------------------------------------
+# Plain structures the templates lay out (parts.html knows each of them)
+# --------------------------------------------------------------------------------------------
 
 
-def esc(value: Any) -> str:
-    """HTML-escaped text of any value (None/NaN -> 'n/a')."""
+@dataclass(frozen=True, slots=True)
+class MiniTable:
+    """A small table inside a value: header texts and rows of values (text or nested views)."""
+
+    head: tuple[str, ...]
+    rows: tuple[tuple[Any, ...], ...]
+
+
+@dataclass(frozen=True, slots=True)
+class Joined:
+    """Values shown one after the other with `sep` between them (used only when one of them is
+    a :class:`MiniTable`; all-text lists are joined into one text)."""
+
+    parts: tuple[Any, ...]
+    sep: str
+
+
+class Cell(NamedTuple):
+    """One table cell: what it shows (text or a value view), its CSS class, and whether its
+    text is an identifier that may wrap after underscores (``partly_<wbr>slatted``). A tuple, so
+    that a template can unpack it in a loop (quicker than reading attributes, over thousands of
+    rows)."""
+
+    text: Any
+    css: str = ""
+    wrap: bool = False
+
+
+class Verdict(NamedTuple):
+    """A screening verdict as shown: its text, the CSS class of its badge, its hint ('' none)."""
+
+    text: str
+    css: str
+    hint: str
+
+
+# --------------------------------------------------------------------------------------------
+# The template environment
+# --------------------------------------------------------------------------------------------
+
+
+class _Escaped(str):
+    """Text already escaped: the ``__html__`` protocol tells autoescape to output it as it is."""
+
+    __slots__ = ()
+
+    def __html__(self) -> str:
+        return str(self)
+
+
+def _escaped(value: Any) -> Any:
+    """Each ``{{ value }}`` before it is output: text escaped as the pages always were.
+
+    With autoescape on, jinja2 would escape plain text itself, but with markupsafe's entities
+    (``&#34;``, ``&#39;``); escaping here with :func:`html.escape` keeps the pages' text as it
+    was before they moved to templates (``&quot;``, ``&#x27;``), byte for byte, and autoescape
+    passes the result through. None and NaN show as ``n/a`` (text is prepared with :func:`text`
+    anyway; this is the backstop), an empty string stays empty (a CSS class may be ''); markup
+    from a template (a macro's output) passes unchanged; an undefined name still fails loudly.
+    """
+    if isinstance(value, jinja2.Undefined) or hasattr(value, "__html__"):
+        return value
+    if value is None or (isinstance(value, float) and value != value):
+        return MISSING_TEXT
+    if type(value) in (str, int):  # the same texts recur over thousands of rows: remembered
+        return _escaped_text(value)
+    return _Escaped(html.escape(str(value), quote=True))
+
+
+@lru_cache(maxsize=1 << 16, typed=True)
+def _escaped_text(value: str | int) -> _Escaped:
+    """:func:`_escaped` of a str or int, remembered."""
+    return _Escaped(html.escape(str(value), quote=True))
+
+
+@lru_cache(maxsize=1)
+def _environment() -> jinja2.Environment:
+    """The one environment of both pages (templates are compiled once per process)."""
+    environment = jinja2.Environment(
+        loader=jinja2.PackageLoader("siting.presentation", "templates"),
+        autoescape=True,
+        undefined=jinja2.StrictUndefined,
+        finalize=_escaped,
+        trim_blocks=True,  # block tags on lines of their own leave no blank lines
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+    )
+    environment.tests["mini_table"] = lambda value: isinstance(value, MiniTable)
+    environment.tests["joined"] = lambda value: isinstance(value, Joined)
+    return environment
+
+
+def render(template: str, /, **context: Any) -> str:
+    """Render one template of ``siting/presentation/templates/`` with `context` (plain values).
+
+    Raises
+    ------
+    jinja2.UndefinedError
+        If the template uses a name that `context` does not give.
+    """
+    return _environment().get_template(template).render(**context)
+
+
+def macro(template: str, name: str, /, *args: Any) -> str:
+    """Render one macro of a template on its own (a part of a page, e.g. for a check of it)."""
+    return str(getattr(_environment().get_template(template).module, name)(*args))
+
+
+# --------------------------------------------------------------------------------------------
+# Values as text
+# --------------------------------------------------------------------------------------------
+
+
+def text(value: Any) -> str:
+    """The text shown for any value: ``n/a`` for None/NaN, else ``str(value)`` (not escaped:
+    the templates escape)."""
     if is_missing(value):
         return MISSING_TEXT
-    return html.escape(str(value), quote=True)
-
-
-def code_html(value: Any) -> str:
-    """Escaped identifier-like text that may wrap after underscores (``partly_<wbr>slatted``)."""
-    return esc(value).replace("_", "_<wbr>")
-
-
-def header_html(label: str, unit: str = "") -> str:
-    """Contents of a header cell: the label, and the unit on a second, muted line."""
-    unit_html = f'<span class="unit">{html.escape(unit)}</span>' if unit else ""
-    return f"{html.escape(label)}{unit_html}"
+    return str(value)
 
 
 def plain_label(key: str) -> str:
@@ -211,50 +235,6 @@ def is_share(key: str) -> bool:
     return name.endswith(("_fraction", "_share")) or name.startswith("share")
 
 
-def _compass(direction_deg: float) -> str:
-    """16-point compass name of a direction [deg clockwise from north]."""
-    points = ("N", "NNE", "NE", "ENE", "E", "ESE", "SE", "SSE",
-              "S", "SSW", "SW", "WSW", "W", "WNW", "NW", "NNW")  # fmt: skip
-    return points[int(round(float(direction_deg) / 22.5)) % 16]
-
-
-def display_value(key: str, value: Any) -> str:
-    """HTML of one value of a key/value listing, formatted by what its key names.
-
-    Shares and fractions become percentages, lists are joined with ", ", a mapping of shares
-    becomes a small row of percentages, other mappings "key: value" pairs, and a prevailing
-    direction gets its compass point. Text is escaped.
-    """
-    if isinstance(value, Mapping):
-        if value and is_share(key) and all(is_number(v) for v in value.values()):
-            head = "".join(f"<th>{esc(k)}</th>" for k in value)
-            cells = "".join(
-                f"<td>{html.escape(format_percent(100.0 * float(v)))} %</td>"
-                for v in value.values()
-            )
-            return (
-                f'<table class="mini"><thead><tr>{head}</tr></thead>'
-                f"<tbody><tr>{cells}</tr></tbody></table>"
-            )
-        return ", ".join(f"{esc(k)}: {display_value(str(k), v)}" for k, v in value.items())
-    if isinstance(value, (list, tuple)) and value and all(isinstance(v, Mapping) for v in value):
-        columns = list(dict.fromkeys(k for row in value for k in row))
-        head = "".join(f"<th>{esc(plain_label(c))}</th>" for c in columns)
-        body = "".join(
-            "<tr>" + "".join(f"<td>{display_value(c, row.get(c))}</td>" for c in columns) + "</tr>"
-            for row in value
-        )
-        return f'<table class="mini"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
-    if isinstance(value, (list, tuple, np.ndarray)):
-        return ", ".join(display_value(key, v) for v in value) or NOT_APPLICABLE
-    if is_share(key) and is_number(value):
-        return html.escape(format_percent(100.0 * float(value)))
-    text = html.escape(format_for_column(value, key))
-    if str(key).endswith("from_deg") and is_number(value):
-        text += f" ({_compass(float(value))})"
-    return text
-
-
 def is_number(value: Any) -> bool:
     """True for a real number, finite or infinite (bool excluded), that is not missing."""
     return (
@@ -264,45 +244,71 @@ def is_number(value: Any) -> bool:
     )
 
 
-def bullet_list(items: Sequence[str], empty_text: str, css_class: str = "") -> str:
-    """An escaped <ul>, or a muted paragraph when the list is empty."""
-    if not items:
-        return f'<p class="empty">{html.escape(empty_text)}</p>'
-    cls = f' class="{css_class}"' if css_class else ""
-    return f"<ul{cls}>" + "".join(f"<li>{esc(item)}</li>" for item in items) + "</ul>"
+def _compass(direction_deg: float) -> str:
+    """16-point compass name of a direction [deg clockwise from north]."""
+    points = ("N", "NNE", "NE", "ENE", "E", "ESE", "SE", "SSE",
+              "S", "SSW", "SW", "WSW", "W", "WNW", "NW", "NNW")  # fmt: skip
+    return points[int(round(float(direction_deg) / 22.5)) % 16]
 
 
-def key_value_table(
-    mapping: Mapping[str, Any], labels: Mapping[str, str], empty_text: str, css: str = ""
-) -> str:
-    """Two-column table of a mapping: plain-words label, then the value formatted by its key."""
-    if not mapping:
-        return f'<p class="empty">{html.escape(empty_text)}</p>'
-    rows = []
-    for key, value in mapping.items():
-        label = labels.get(str(key), plain_label(str(key)))
-        rows.append(
-            f'<tr><th scope="row">{html.escape(label)}</th>'
-            f"<td>{display_value(str(key), value)}</td></tr>"
+def _joined(parts: Sequence[Any], sep: str) -> Any:
+    """`parts` one after the other: one text when all are text, else a :class:`Joined`."""
+    if all(isinstance(part, str) for part in parts):
+        return sep.join(parts)
+    return Joined(tuple(parts), sep)
+
+
+def display_value(key: str, value: Any) -> Any:
+    """One value of a key/value listing as shown, formatted by what its key names.
+
+    Shares and fractions become percentages, lists are joined with ", ", a mapping of shares
+    becomes a small row of percentages (a :class:`MiniTable`), a list of mappings a small table
+    of them, other mappings "key: value" pairs, and a prevailing direction gets its compass
+    point. Returns text, or a :class:`MiniTable` / :class:`Joined` where a table is part of it;
+    nothing is escaped (the template ``parts.html`` shows it with the macro ``value``).
+    """
+    if isinstance(value, Mapping):
+        if value and is_share(key) and all(is_number(v) for v in value.values()):
+            cells = tuple(f"{format_percent(100.0 * float(v))} %" for v in value.values())
+            return MiniTable(head=tuple(text(k) for k in value), rows=(cells,))
+        pairs = [_joined([f"{text(k)}: ", display_value(str(k), v)], "") for k, v in value.items()]
+        return _joined(pairs, ", ")
+    if isinstance(value, (list, tuple)) and value and all(isinstance(v, Mapping) for v in value):
+        columns = list(dict.fromkeys(k for row in value for k in row))
+        return MiniTable(
+            head=tuple(plain_label(c) for c in columns),
+            rows=tuple(tuple(display_value(c, row.get(c)) for c in columns) for row in value),
         )
-    cls = f' class="{css}"' if css else ""
-    return f"<table{cls}><tbody>{''.join(rows)}</tbody></table>"
+    if isinstance(value, (list, tuple, np.ndarray)):
+        return _joined([display_value(key, v) for v in value], ", ") or NOT_APPLICABLE
+    if is_share(key) and is_number(value):
+        return format_percent(100.0 * float(value))
+    shown = format_for_column(value, key)
+    if str(key).endswith("from_deg") and is_number(value):
+        shown += f" ({_compass(float(value))})"
+    return shown
 
 
-def sections_html(sections: Sequence[tuple[str, str, str]]) -> str:
-    """<section> elements from (anchor, heading, content HTML); headings escaped."""
-    return "".join(
-        f'<section id="{anchor}"><h2>{html.escape(heading)}</h2>{content}</section>'
-        for anchor, heading, content in sections
-    )
+def key_values(mapping: Mapping[str, Any], labels: Mapping[str, str]) -> list[tuple[str, Any]]:
+    """The rows of a key/value table: (plain-words label, the value as shown) per entry."""
+    return [
+        (labels.get(str(key), plain_label(str(key))), display_value(str(key), value))
+        for key, value in mapping.items()
+    ]
 
 
-def page_html(title: str, css: str, body: str) -> str:
-    """A whole self-contained page: UTF-8, viewport, escaped title, inline stylesheet, body."""
-    return (
-        "<!DOCTYPE html>\n"
-        '<html lang="en"><head><meta charset="utf-8">'
-        '<meta name="viewport" content="width=device-width, initial-scale=1">'
-        f"<title>{esc(title)}</title><style>{css}</style></head><body>"
-        f"{body}</body></html>\n"
-    )
+def verdict(value: Any) -> Verdict:
+    """A screening verdict as shown: its text (``n/a`` when missing), badge class and hint."""
+    shown = "" if is_missing(value) else str(value)
+    css, hint = VERDICT_STYLE.get(shown.strip().lower(), ("verdict-none", ""))
+    return Verdict(shown or MISSING_TEXT, css, hint)
+
+
+def filled(frame: pd.DataFrame, column: str) -> bool:
+    """True when `frame` has `column` and some value in it is not missing."""
+    return column in frame and any(not is_missing(v) for v in frame[column])
+
+
+def number_cell(value: Any, column: str, css: str = "") -> Cell:
+    """A right-aligned table cell of a number formatted by its column name."""
+    return Cell(format_for_column(value, column), " ".join(c for c in ("num", css) if c))

@@ -1,29 +1,166 @@
-"""The run record and model settings as report.html shows them (sections 2 and 8).
+"""The inputs and the run record as report.html shows them (sections 2 and 8), as plain values.
 
-Formatting only: the run record (run.json: inputs and tables with SHA-256, grid, versions,
-timings) becomes small tables plus the raw JSON in a collapsed block, and the scenario's
-settings a table grouped by scenario section. The page around them is :mod:`siting.presentation.report`.
+Formatting only: the sources' emission derivation (transposed, one column per source, in blocks
+that fit the page), the weather summary, the habitats with their critical values (citations as
+numbered notes), the screening thresholds used and the scenario's settings (section 2); and the
+run record (run.json: inputs and tables with SHA-256, grid, versions, timings) as small tables
+plus the raw JSON (section 8). Each function returns plain values (text, rows, labels); the
+templates ``report_inputs.html`` and ``report_record.html`` lay them out. The page around them
+is :mod:`siting.presentation.report`.
 """
 
 from __future__ import annotations
 
-import html
 import json
 from collections.abc import Mapping
 from pathlib import PurePath
 from typing import Any
 
-from siting.presentation.formats import is_missing
+import pandas as pd
+
+from siting.presentation.formats import format_for_column, format_percent, is_missing
 from siting.presentation.html_parts import (
     NOT_APPLICABLE,
-    code_html,
+    Cell,
     display_value,
-    esc,
-    key_value_table,
+    filled,
+    is_number,
+    is_share,
+    key_values,
+    number_cell,
     plain_label,
+    text,
 )
 
-__all__ = ["run_record_html", "settings_table"]
+__all__ = ["flag_count", "inputs_view", "run_record_view"]
+
+#: Transposed sources table: (group heading, ((column in `sources`, row label), ...)), in the
+#: order of the derivation. Rows empty for every source are left out, and so is a group whose
+#: rows all are; columns not listed here are shown at the end under a label made from the name.
+_DERIVATION_ROWS: tuple[tuple[str, tuple[tuple[str, str], ...]], ...] = (
+    (
+        "Kind, role and release",
+        (
+            ("kind", "Kind of source"),
+            ("role", "Role"),
+            ("x_m", "Position x (easting) [m]"),
+            ("y_m", "Position y (northing) [m]"),
+            ("height_m", "Release height [m]"),
+            ("plume_rise", "Plume rise"),
+            ("plume_rise_basis", "Why (building wake)"),
+        ),
+    ),
+    (
+        "Emission before abatement",
+        (
+            ("livestock", "Livestock"),
+            ("housing", "Housing"),
+            ("places", "Animal places"),
+            ("factor_nh3_kg_per_place_yr", "Emission factor [kg NH3/place/yr]"),
+            ("factor_source", "Where the factor comes from"),
+            ("nh3_unabated_kg_yr", "NH3 before abatement [kg/yr]"),
+        ),
+    ),
+    (
+        "Abatement",
+        (
+            ("abatement", "Abatement technique"),
+            ("reduction_percent", "Reduction by the technique [%]"),
+            ("reduction_range_percent", "Published range of the reduction [%]"),
+            ("reduction_basis", "Basis of the reduction"),
+            ("reduction_flag", "Check of the reduction"),
+            ("reduction_source", "Where the reduction comes from"),
+            ("scrubber_design_share", "Scrubber sized for [% of maximum ventilation]"),
+            ("treated_air_fraction", "Share of the ammonia treated over the year [%]"),
+            ("effective_reduction_percent", "Effective reduction [%]"),
+        ),
+    ),
+    (
+        "Emission used in the model",
+        (
+            ("nh3_kg_yr", "NH3 emitted [kg/yr]"),
+            ("emission_g_s", "Source strength [g/s]"),
+        ),
+    ),
+    (
+        "Captured by abatement",
+        (
+            ("nh3_removed_kg_yr", "NH3 removed [kg/yr]"),
+            ("n_captured_kg_yr", "N captured in the effluent [kg N/yr]"),
+            ("effluent_m3_yr", "Effluent [m³/yr]"),
+        ),
+    ),
+)
+
+#: Rows of the derivation table shown as citations (small wrapping text) and as a warning.
+_CITATION_ROWS = frozenset({"factor_source", "reduction_source"})
+_FLAG_ROWS = frozenset({"reduction_flag"})
+#: Rows of the derivation table shown in bold: the figures the model uses.
+_RESULT_ROWS = frozenset({"nh3_kg_yr", "emission_g_s"})
+
+#: Habitat table value columns: (header, unit, value column(s) joined by "–", citation column).
+_HABITAT_VALUE_COLUMNS: tuple[tuple[str, str, tuple[str, ...], str | None], ...] = (
+    ("Deposition velocity", "m/s", ("deposition_velocity_m_s",), "deposition_velocity_source"),
+    (
+        "Critical load range",
+        "kg N/ha/yr",
+        ("critical_load_min_kg_n_ha_yr", "critical_load_max_kg_n_ha_yr"),
+        "critical_load_source",
+    ),
+    ("Critical load used", "kg N/ha/yr", ("critical_load_used_kg_n_ha_yr",), None),
+    ("Critical level", "µg NH3/m³", ("critical_level_ug_m3",), "critical_level_source"),
+)
+
+#: Most sources side by side in one block of the transposed table (fits A4 portrait).
+_SOURCES_PER_BLOCK = 6
+
+#: Plain-words labels of the weather summary keys (unknown keys get a label from their name).
+_WEATHER_LABELS = {
+    "file": "Frequency table file",
+    "station": "Station",
+    "sectors": "Wind direction sectors",
+    "sector_width_deg": "Sector width [deg]",
+    "speed_classes_m_s": "Wind speed classes [m/s]",
+    "mean_speed_m_s": "Mean wind speed [m/s]",
+    "stability_share": "Share of each stability class (Pasquill A-F)",
+    "prevailing_from_deg": "Prevailing wind from [deg]",
+    "share_raised_to_min_speed": "Share of the record raised to the minimum wind speed [%]",
+    "anemometer_height_m": "Anemometer height [m]",
+    "rows": "Rows in the table",
+    "frequencies_given_as": "Frequencies given as",
+    # hourly records
+    "files": "Hourly record file(s)",
+    "latitude_deg": "Site latitude [deg]",
+    "longitude_deg": "Site longitude [deg]",
+    "first_time_utc": "First hour (UTC)",
+    "last_time_utc": "Last hour (UTC)",
+    "time_offsets": "Time offsets",
+    "years_covered": "Calendar years covered",
+    "record_years": "Length of record [years]",
+    "hours_expected": "Hours in the period",
+    "hours_used": "Hours used",
+    "hours_missing": "Hours missing (not filled)",
+    "missing_percent": "Missing [% of hours]",
+    "gap_count": "Gaps",
+    "gaps": "Longest gaps",
+    "calm_threshold_m_s": "Calm below [m/s]",
+    "min_wind_speed_m_s": "Minimum wind speed used [m/s]",
+    "calm_hours": "Calm hours",
+    "calm_percent": "Calms [% of hours used]",
+    "calm_direction_filled_hours": "Calm hours given the last wind direction",
+    "raised_to_min_speed_percent": "Raised to the minimum speed [% of hours used]",
+    "mean_observed_speed_m_s": "Mean observed wind speed [m/s]",
+    "prevailing_from_words": "Prevailing wind",
+    "direction_step_deg": "Reported direction step [deg]",
+    "direction_spread_deg": "Each hour's plume spread over [deg]",
+    "direction_rule": "Rule for hourly directions",
+    "stability_method": "Stability class from",
+    "temperature_c": "Air temperature [deg C]",
+    "calm_rule": "Rule for calms",
+    "missing_rule": "Rule for missing hours",
+    "scrubber_treated_share": "Partial scrubbing: share of the year's ammonia treated",
+    "emission_profile": "Hourly emission profile",
+}
 
 #: Keys of the run record shown elsewhere in the report (not repeated in section 7's tables).
 _RECORD_SHOWN_ELSEWHERE = {
@@ -57,10 +194,187 @@ _SETTING_LABELS = {
 }
 
 
-def settings_table(parameters: Mapping[str, Any]) -> str:
-    """The scenario's settings as read (defaults filled in), grouped by scenario table.
+class _Notes:
+    """Numbered citation notes: the same text gets the same number, in order of first use."""
 
-    Sources (section 2's derivation) and the title are left out; unset values read "not set".
+    def __init__(self) -> None:
+        self._numbers: dict[str, int] = {}
+
+    def ref(self, note: Any) -> int | None:
+        """The number of the note `note` (None for missing text: no reference shown)."""
+        if is_missing(note):
+            return None
+        return self._numbers.setdefault(str(note).strip(), len(self._numbers) + 1)
+
+    def texts(self) -> list[str]:
+        """The notes' texts, in the order of their numbers."""
+        return list(self._numbers)
+
+
+# --------------------------------------------------------------------------------------------
+# Section 2: sources, habitats, thresholds, settings
+# --------------------------------------------------------------------------------------------
+
+
+def flag_count(sources: pd.DataFrame) -> int:
+    """How many sources carry a flag on their abatement reduction (outside its range)."""
+    return sum(1 for c in _FLAG_ROWS if c in sources for v in sources[c] if not is_missing(v))
+
+
+def _source_ids(sources: pd.DataFrame) -> list[str]:
+    """Column headers of the transposed sources table: source_id, else id, else 1, 2, ..."""
+    for column in ("source_id", "id"):
+        if column in sources:
+            return [
+                str(v) if not is_missing(v) else f"#{i + 1}" for i, v in enumerate(sources[column])
+            ]
+    return [f"#{i + 1}" for i in range(len(sources))]
+
+
+def _derivation_cell(column: str, value: Any) -> Cell:
+    """One cell of the transposed sources table, styled by what the row holds."""
+    if is_missing(value):
+        return Cell(NOT_APPLICABLE, "na")
+    if column in _FLAG_ROWS:
+        return Cell(f"⚠ {text(value)}", "flag")
+    if column in _CITATION_ROWS:
+        return Cell(text(value), "cite")
+    if is_share(column) and is_number(value):
+        return Cell(format_percent(100.0 * float(value)), "num")
+    if is_number(value):
+        return number_cell(value, column)
+    if isinstance(value, str) and len(value) > 40:
+        return Cell(text(value), "cite")
+    return Cell(text(value), wrap=True)
+
+
+def _source_blocks(sources: pd.DataFrame) -> list[dict[str, Any]]:
+    """The emission derivation, transposed: one column per source, one row per step.
+
+    Split into blocks of at most ``_SOURCES_PER_BLOCK`` sources so that it fits the page; each
+    block holds its column heads (id, flagged) and its groups of rows.
+    """
+    ids = _source_ids(sources)
+    listed = {column for _, rows in _DERIVATION_ROWS for column, _ in rows}
+    skip = listed | {"source_id", "id", "geometry"}
+    extra = tuple((c, plain_label(c)) for c in map(str, sources.columns) if c not in skip)
+    groups = list(_DERIVATION_ROWS) + ([("Other", extra)] if extra else [])
+    shown = [(h, [(c, label) for c, label in rows if filled(sources, c)]) for h, rows in groups]
+    flagged = [
+        any(not is_missing(sources[c].iloc[i]) for c in _FLAG_ROWS if c in sources)
+        for i in range(len(sources))
+    ]
+    blocks = []
+    for start in range(0, len(sources), _SOURCES_PER_BLOCK):
+        part = range(start, min(start + _SOURCES_PER_BLOCK, len(sources)))
+        block_groups = [
+            {
+                "heading": heading,
+                "rows": [
+                    {
+                        "label": label,
+                        "result": column in _RESULT_ROWS,
+                        "cells": [_derivation_cell(column, sources[column].iloc[i]) for i in part],
+                    }
+                    for column, label in rows
+                ],
+            }
+            for heading, rows in shown
+            if rows
+        ]
+        heads = [(ids[i], flagged[i]) for i in part]
+        blocks.append({"heads": heads, "span": len(part) + 1, "groups": block_groups})
+    return blocks
+
+
+def _habitat_columns(values: pd.DataFrame) -> tuple[list, list[str], list[str]]:
+    """The habitat table's value columns (header, unit, columns, citation column), and the
+    other filled columns: values shown by their name, and further ``*_source`` columns."""
+    specs = [s for s in _HABITAT_VALUE_COLUMNS if any(filled(values, c) for c in s[2])]
+    if not any(s[2] == _HABITAT_VALUE_COLUMNS[1][2] for s in specs):  # no range: cite on "used"
+        specs = [
+            (h, u, c, "critical_load_source" if c == ("critical_load_used_kg_n_ha_yr",) else s)
+            for h, u, c, s in specs
+        ]
+    known = {"habitat", "habitat_name", "source", "land_cover", "geometry"}
+    known |= {c for s in _HABITAT_VALUE_COLUMNS for c in (*s[2], s[3]) if c}
+    extra = [str(c) for c in values.columns if str(c) not in known and filled(values, str(c))]
+    extra_sources = [c for c in extra if c.endswith("_source")]
+    return specs, [c for c in extra if c not in extra_sources], extra_sources
+
+
+def _habitats(values: pd.DataFrame) -> dict[str, Any] | None:
+    """Habitats and their critical values, one row per habitat; citations as numbered notes
+    (numbered in the order the table cites them). None when there is no habitat."""
+    if not len(values):
+        return None
+    specs, extra_values, extra_sources = _habitat_columns(values)
+    land_cover = filled(values, "land_cover")
+    notes = _Notes()
+    rows = []
+    for _, record in values.iterrows():
+        get = record.get
+        name, code = get("habitat_name"), get("habitat")
+        row: dict[str, Any] = {
+            "main": Cell(text(name)) if not is_missing(name) else Cell(text(code), wrap=True),
+            "ref": notes.ref(get("source")),
+            "sub": text(code) if not is_missing(name) and not is_missing(code) else None,
+            "land_cover": text(get("land_cover")) if land_cover else None,
+        }
+        row["values"] = [
+            (
+                "–".join(format_for_column(get(c), c) for c in value_columns),
+                notes.ref(get(source_column)) if source_column else None,
+            )
+            for _, _, value_columns, source_column in specs
+        ]
+        row["extras"] = [
+            number_cell(get(c), c) if is_number(get(c)) else Cell(display_value(c, get(c)))
+            for c in extra_values
+        ]
+        row["source_refs"] = [notes.ref(get(c)) for c in extra_sources]
+        rows.append(row)
+    return {
+        "land_cover": land_cover,
+        "heads": [(label, unit) for label, unit, _, _ in specs],
+        "extra_heads": [plain_label(c) for c in extra_values],
+        "other_sources": bool(extra_sources),
+        "rows": rows,
+        "notes": notes.texts(),
+    }
+
+
+def _thresholds(sites: pd.DataFrame) -> dict[str, Any] | None:
+    """The screening threshold of each designation used, with its source (None if not known)."""
+    if "threshold_percent" not in sites or not len(sites):
+        return None
+    columns = [c for c in ("designation", "tier", "threshold_percent", "threshold_source")
+               if c in sites]  # fmt: skip
+    labels = {
+        "designation": ("Designation", ""),
+        "tier": ("Tier", ""),
+        "threshold_percent": ("Threshold", "% of CLe and CL"),
+        "threshold_source": ("Where the threshold comes from", ""),
+    }
+    rows = []
+    for _, record in pd.DataFrame(sites[columns]).drop_duplicates().iterrows():
+        cells = []
+        for c in columns:
+            if c == "threshold_percent":
+                cells.append(number_cell(record[c], c))
+            elif c == "threshold_source":
+                cells.append(Cell(text(record[c]), "cite"))
+            else:
+                cells.append(Cell(text(record[c]), wrap=True))
+        rows.append(cells)
+    return {"heads": [labels[c] for c in columns], "rows": rows}
+
+
+def _settings(parameters: Mapping[str, Any]) -> list[tuple[str, list[tuple[str, Any]]]]:
+    """The scenario's settings as read (defaults filled in), grouped by scenario table:
+    (heading, [(label, value as shown, None for "not set")]) per group with entries.
+
+    Sources (section 2's derivation) and the title are left out.
     """
     groups: list[tuple[str, dict[str, Any]]] = [("General", {})]
     for key, value in parameters.items():
@@ -72,32 +386,50 @@ def settings_table(parameters: Mapping[str, Any]) -> str:
             continue  # a list of tables, e.g. sources: shown elsewhere
         else:
             groups[0][1][key] = value
-    rows = []
-    for heading, entries in groups:
-        if not entries:
-            continue
-        rows.append(f'<tr class="step-group"><th colspan="2">{html.escape(heading)}</th></tr>')
-        for key, value in entries.items():
-            shown = (
-                '<span class="empty">not set</span>'
-                if value is None
-                else display_value(str(key), value)
-            )
-            label = _SETTING_LABELS.get(str(key), plain_label(str(key)))
-            rows.append(f'<tr><th scope="row">{html.escape(label)}</th><td>{shown}</td></tr>')
-    if not rows:
-        return ""
-    return (
-        "<h3>Model settings</h3>"
-        '<p class="note">As read from the scenario file, with defaults filled in.</p>'
-        f'<table class="compact settings"><tbody>{"".join(rows)}</tbody></table>'
-    )
+    return [
+        (
+            heading,
+            [
+                (
+                    _SETTING_LABELS.get(str(key), plain_label(str(key))),
+                    None if value is None else display_value(str(key), value),
+                )
+                for key, value in entries.items()
+            ],
+        )
+        for heading, entries in groups
+        if entries
+    ]
 
 
-def _file_hash_table(files: Mapping[str, Any], first_header: str) -> str:
-    """Input files as a table: key, file name (folder below), SHA-256 in monospace.
+def inputs_view(
+    sources: pd.DataFrame,
+    weather_summary: Mapping[str, Any],
+    habitat_values: pd.DataFrame,
+    sites: pd.DataFrame,
+    parameters: Any,
+) -> dict[str, Any]:
+    """Section 2 of report.html as plain values: the sources' derivation blocks (None when no
+    source), the weather rows, the habitats (None when none), the thresholds used (None when
+    not known) and the model settings groups ([] when the record has no parameters)."""
+    return {
+        "source_blocks": _source_blocks(sources) if len(sources) else None,
+        "weather": key_values(weather_summary, _WEATHER_LABELS),
+        "habitats": _habitats(habitat_values),
+        "thresholds": _thresholds(sites),
+        "settings": _settings(parameters) if isinstance(parameters, Mapping) else [],
+    }
 
-    The key column is left out when every key is just the file's name.
+
+# --------------------------------------------------------------------------------------------
+# Section 8: the run record
+# --------------------------------------------------------------------------------------------
+
+
+def _file_hashes(files: Mapping[str, Any], heading: str, first_header: str) -> dict[str, Any]:
+    """Input files as table values: key, file name and folder (None when no path), SHA-256.
+
+    The key column is left out (``show_key`` False) when every key is just the file's name.
     """
     entries = {k: (e if isinstance(e, Mapping) else {"sha256": e}) for k, e in files.items()}
     show_key = any(
@@ -107,83 +439,63 @@ def _file_hash_table(files: Mapping[str, Any], first_header: str) -> str:
     rows = []
     for key, entry in entries.items():
         path = entry.get("path")
-        if is_missing(path):
-            file_html = f'<td class="na">{NOT_APPLICABLE}</td>'
-        else:
+        file = None
+        if not is_missing(path):
             pure = PurePath(str(path))
-            folder = str(pure.parent) if str(pure.parent) not in ("", ".") else ""
-            folder_html = f'<span class="sub mono">{esc(folder)}</span>' if folder else ""
-            file_html = f"<td>{esc(pure.name)}{folder_html}</td>"
-        key_html = f"<td>{code_html(key)}</td>" if show_key else ""
-        rows.append(
-            f'<tr>{key_html}{file_html}<td class="mono">{esc(entry.get("sha256"))}</td></tr>'
-        )
-    key_head = f"<th>{html.escape(first_header)}</th>" if show_key else ""
-    return (
-        f'<table class="compact"><thead><tr>{key_head}<th>File</th>'
-        f"<th>SHA-256</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"
-    )
+            file = (text(pure.name), str(pure.parent) if str(pure.parent) not in ("", ".") else "")
+        rows.append((text(key), file, text(entry.get("sha256"))))
+    return {"heading": heading, "first_header": first_header, "show_key": show_key, "rows": rows}
 
 
-def run_record_html(record: Mapping[str, Any]) -> str:
-    """Section 7: the run record as tables (files and hashes, grid, versions) plus raw JSON."""
-    parts = []
+def run_record_view(record: Mapping[str, Any]) -> dict[str, Any]:
+    """Section 8: the run record as table values (files and hashes, grid, versions, timings,
+    other entries; each None when the record lacks it), a note on what is shown elsewhere and
+    the raw JSON."""
     done = set()
     overview = {k: v for k, v in record.items() if not isinstance(v, (Mapping, list, tuple))}
+    done |= set(overview)
     labels = {"tool": "Tool", "version": "Version", "run_time_utc": "Run time (UTC)",
               "title": "Title"}  # fmt: skip
-    if overview:
-        parts.append(key_value_table(overview, labels, "", css="compact"))
-        done |= set(overview)
+    files = []
     for key, heading, first in (
         ("inputs", "Input files", "Input"),
         ("config_tables", "Configuration tables", "Table"),
     ):
         if isinstance(record.get(key), Mapping) and record[key]:
-            parts.append(f"<h4>{heading}</h4>" + _file_hash_table(record[key], first))
+            files.append(_file_hashes(record[key], heading, first))
             done.add(key)
+    grid = None
     if isinstance(record.get("grid"), Mapping):
         grid_labels = {"west_m": "West edge [m]", "north_m": "North edge [m]",
                        "cell_m": "Cell size [m]", "n_cols": "Columns", "n_rows": "Rows",
                        "crs": "Coordinate reference system"}  # fmt: skip
-        parts.append(
-            "<h4>Receptor grid</h4>"
-            + key_value_table(record["grid"], grid_labels, "", css="compact")
-        )
+        grid = key_values(record["grid"], grid_labels)
         done.add("grid")
+    versions = None
     if isinstance(record.get("versions"), Mapping) and record["versions"]:
-        versions = record["versions"]
-        head = "".join(f"<th>{esc(k)}</th>" for k in versions)
-        cells = "".join(f'<td class="mono">{esc(v)}</td>' for v in versions.values())
-        parts.append(
-            "<h4>Software versions</h4>"
-            f'<table class="compact"><thead><tr>{head}</tr></thead>'
-            f"<tbody><tr>{cells}</tr></tbody></table>"
-        )
+        versions = [(text(k), text(v)) for k, v in record["versions"].items()]
         done.add("versions")
+    timings = None
     if isinstance(record.get("timings_s"), Mapping) and record["timings_s"]:
         timing_labels = {k: plain_label(k) for k in record["timings_s"]}
         timing_labels["receptors"] = "Receptor points computed"
-        parts.append(
-            "<h4>Timings</h4>"
-            + key_value_table(record["timings_s"], timing_labels, "", css="compact")
-        )
+        timings = key_values(record["timings_s"], timing_labels)
         done.add("timings_s")
     elsewhere = [(k, where) for k, where in _RECORD_SHOWN_ELSEWHERE.items() if k in record]
     done |= {k for k, _ in elsewhere} | {"parameters"}
     rest = {k: v for k, v in record.items() if k not in done}
-    if rest:
-        parts.append("<h4>Other entries</h4>" + key_value_table(rest, {}, "", css="compact"))
     notes = []
     if "parameters" in record:
         notes.append("model settings: see section 2 (and the raw record below)")
     notes += [f"{plain_label(k).lower()}: see {where}" for k, where in elsewhere]
-    if notes:
-        text = "; ".join(notes)
-        parts.append(f'<p class="note">{html.escape(text[:1].upper() + text[1:])}.</p>')
-    raw = json.dumps(record, indent=2, default=str, ensure_ascii=False)
-    parts.append(
-        "<details><summary>Complete run record (as in run.json)</summary>"
-        f'<pre class="record">{html.escape(raw)}</pre></details>'
-    )
-    return "".join(parts)
+    note = "; ".join(notes)
+    return {
+        "overview": key_values(overview, labels) if overview else None,
+        "files": files,
+        "grid": grid,
+        "versions": versions,
+        "timings": timings,
+        "rest": key_values(rest, {}) if rest else None,
+        "note": f"{note[:1].upper()}{note[1:]}." if note else None,
+        "raw": json.dumps(record, indent=2, default=str, ensure_ascii=False),
+    }

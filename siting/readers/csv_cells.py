@@ -21,14 +21,36 @@ def _is_number(text: str) -> bool:
 
 
 def spreadsheet_safe(value):
-    """A text cell that a spreadsheet would evaluate, made literal with a leading apostrophe."""
+    """A text cell that a spreadsheet would evaluate, made literal with a leading apostrophe.
+
+    Parameters
+    ----------
+    value : object
+        A cell's value.
+
+    Returns
+    -------
+    object
+        ``"'" + value`` for text starting with = + - @ (not a number), else the value itself.
+    """
     if isinstance(value, str) and value.startswith(FORMULA_STARTS) and not _is_number(value):
         return "'" + value
     return value
 
 
 def spreadsheet_text(value):
-    """The inverse of :func:`spreadsheet_safe`, for reading our own CSV tables back."""
+    """The inverse of :func:`spreadsheet_safe`, for reading our own CSV tables back.
+
+    Parameters
+    ----------
+    value : object
+        A cell's value as read.
+
+    Returns
+    -------
+    object
+        The text without the apostrophe :func:`spreadsheet_safe` added, else the value itself.
+    """
     if (
         isinstance(value, str)
         and value.startswith("'")

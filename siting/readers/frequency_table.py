@@ -1,4 +1,4 @@
-"""Weather input: a joint frequency table CSV -> :class:`WeatherClasses`, a summary, warnings.
+"""Weather input: a joint frequency table CSV -> :class:`WeatherClasses` and a summary.
 
 An adapter: reads, checks and converts; the physics is elsewhere (the sector-averaged plumes of
 ``longterm.py``). What lives here is :func:`read_frequency_table`, the reader of the table a
@@ -17,13 +17,14 @@ rows of zero frequency are allowed. Other columns (such as ``hours``) are ignore
 
 from __future__ import annotations
 
+import warnings
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from siting.dispersion.sector import WeatherClasses
-from siting.errors import InputError
+from siting.errors import InputError, WeatherWarning
 from siting.physics.plume import STABILITY_CLASSES
 
 COLUMNS = ("direction_deg", "speed_m_s", "stability", "frequency")
@@ -35,16 +36,34 @@ FRACTION_SUM_TOLERANCE = 0.01
 
 def read_frequency_table(
     path: Path, anemometer_height_m: float = 10.0, min_wind_speed_m_s: float = 1.0
-) -> tuple[WeatherClasses, dict, list[str]]:
+) -> tuple[WeatherClasses, dict]:
     """Read and check a frequency table.
+
+    Class speeds below ``min_wind_speed_m_s`` are raised to it, with a WeatherWarning.
+
+    Parameters
+    ----------
+    path : str or Path
+        CSV with columns ``direction_deg,speed_m_s,stability,frequency`` (direction the wind
+        blows FROM [deg clockwise from north], class speed [m s-1], Pasquill class A-F, share of
+        the time or a count).
+    anemometer_height_m : float
+        Height of the wind measurement [m].
+    min_wind_speed_m_s : float
+        Floor of the class speeds [m s-1]: slower classes are raised to it, with a warning.
 
     Returns
     -------
     weather : WeatherClasses
+        The table as arrays (frequencies normalised to a sum of 1).
     summary : dict
         Sectors, speed classes, share by stability class, mean speed, raised share.
-    warnings : list of str
-        Legal but doubtful content (speeds raised to the floor).
+
+    Raises
+    ------
+    InputError
+        The file is missing or not a readable CSV, a column is missing, a value is not a finite
+        number or out of range, or the directions are not evenly spaced sectors.
     """
     name = Path(path).name
     table, as_written, lines = _read_table(path, name)
@@ -52,13 +71,14 @@ def read_frequency_table(
     stability, direction, speed, freq = _checked_values(table, lines, name)
     total, counts = _frequency_total(freq, name)
     sectors = _sectors(direction, name)
-    warnings = []
     raised = speed < min_wind_speed_m_s
     raised_share = float(freq[raised].sum() / total)
     if raised.any():
-        warnings.append(
+        warnings.warn(
             f"{name}: {raised_share:.1%} of the time has class speeds below "
-            f"{min_wind_speed_m_s} m/s; raised to that floor (plume formula needs u > 0)"
+            f"{min_wind_speed_m_s} m/s; raised to that floor (plume formula needs u > 0)",
+            WeatherWarning,
+            stacklevel=2,
         )
     speed = np.maximum(speed, min_wind_speed_m_s)
     speeds = np.unique(speed)
@@ -83,7 +103,7 @@ def read_frequency_table(
         "rows": int(len(table)),
         "frequencies_given_as": "counts (normalised)" if counts else "fractions",
     }
-    return weather, summary, warnings
+    return weather, summary
 
 
 def _read_table(path: Path, name: str):

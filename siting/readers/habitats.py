@@ -12,13 +12,14 @@ nearest each source, and an interior lattice) so a small site between grid nodes
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 import shapely
 
-from siting.errors import InputError, InputFileError
+from siting.errors import AccuracyWarning, InputError, InputFileError, InputWarning
 from siting.readers.scenario import HabitatsSection
 from siting.readers.tables import Tables, suggest
 
@@ -26,8 +27,29 @@ MAX_POINTS_PER_SITE = 1500
 
 
 def read_vector_layer(path, layer: str | None, what: str):
-    """Read a vector layer geopandas can read; refuse one that is unreadable, empty or has no
-    CRS. ``what`` names it in messages (e.g. "habitats.file")."""
+    """Read a vector layer geopandas can read; refuse one that is unreadable, empty or has no CRS.
+
+    Parameters
+    ----------
+    path : Path
+        The file (any vector format geopandas reads).
+    layer : str or None
+        The layer of a multi-layer file; None for the first.
+    what : str
+        Names the layer in messages (e.g. "habitats.file").
+
+    Returns
+    -------
+    geopandas.GeoDataFrame
+        The features, in the layer's own CRS.
+
+    Raises
+    ------
+    InputFileError
+        The file does not exist.
+    InputError
+        It cannot be read as a vector layer, has no features or has no CRS.
+    """
     import geopandas as gpd
 
     name = path.name
@@ -102,6 +124,29 @@ def critical_level_for(
     1 ug/m3 (lichens and bryophytes) unless the habitat layer's field or the scenario states
     they are absent: they grow on most sites unless shown otherwise, so the cautious level is
     the default whatever the habitat type ([UNECE2007]; critical_levels.toml).
+
+    Parameters
+    ----------
+    habitat : dict
+        The site's row of critical_loads.toml.
+    levels : dict
+        Rows of critical_levels.toml by id ("lichens_bryophytes", "higher_plants").
+    absent : bool or None
+        The habitat layer's field: True when lichens and bryophytes are stated absent, False when
+        present, None when not stated.
+    absent_by_scenario : bool
+        The scenario's ``lichens_bryophytes_absent`` names the site.
+    field : str or None
+        Name of the habitat layer's field, for the basis in words.
+
+    Returns
+    -------
+    level_ug_m3 : float
+        The critical level [ug m-3].
+    basis : str
+        Why that level, in words.
+    source : str
+        The level's source (critical_levels.toml).
     """
     stated = f"habitat layer field {field}: lichens and bryophytes"
     if absent is True:
@@ -125,6 +170,22 @@ def critical_load_range(habitat: dict, review: str) -> tuple[float, float, str, 
     ``review`` "2022" (Bobbink et al. 2022, the default) or "2011" (Bobbink & Hettelingh
     2011). A row without 2022 values (a user's older table) falls back to 2011; the returned
     review says which was used.
+
+    Parameters
+    ----------
+    habitat : dict
+        The habitat's row of critical_loads.toml.
+    review : {"2022", "2011"}
+        The review asked for.
+
+    Returns
+    -------
+    min_kg_n_ha_yr, max_kg_n_ha_yr : float
+        The critical-load range [kg N ha-1 yr-1].
+    review : str
+        The review used.
+    source : str
+        The range's source.
     """
     if review == "2022" and "critical_load_2022_min_kg_n_ha_yr" in habitat:
         return (
@@ -150,12 +211,39 @@ def read_habitats(
 ):
     """Read the habitat layer and attach each site's critical values and threshold.
 
+    Parameters
+    ----------
+    section : HabitatsSection
+        The scenario's ``[habitats]`` table (file, layer, field names, stated absences).
+    crs : str
+        The run's projected CRS; the layer is reprojected to it.
+    tables : Tables
+        The lookup tables (critical loads and levels, thresholds).
+    critical_load_end : {"lower", "middle", "upper"}
+        Which end of each habitat's critical-load range is used.
+    critical_load_review : {"2022", "2011"}
+        Which review's ranges are used.
+
     Returns
     -------
     sites : GeoDataFrame
         One row per feature, in ``crs``, with the columns listed in DESIGN.md's sites table
         that describe the site (not yet the results).
-    warnings : list of str
+
+    Warns
+    -----
+    InputWarning
+        Legal but doubtful content (an unknown designation given the strictest tier, a name
+        in ``lichens_bryophytes_absent`` that is no site, an invalid polygon repaired, a
+        habitat without a range of the review asked for).
+
+    Raises
+    ------
+    InputFileError
+        The layer's file does not exist.
+    InputError
+        The layer cannot be read, lacks a named field, repeats a site name, or a site's
+        habitat or value is unknown or out of range.
     """
     gdf = read_vector_layer(section.file, section.layer, "habitats.file")
     fields = _named_fields(section)
@@ -164,7 +252,7 @@ def read_habitats(
     names = gdf[section.name_field].astype(str).str.strip()
     _check_unique_names(names, section.file.name)
     context = _Context.build(section, tables, critical_load_end, critical_load_review)
-    warnings = _unknown_absent_names(context, names)
+    _warn_unknown_absent_names(context, names)
     fallback: set[str] = set()
     # plain lists, not itertuples: no per-row pandas overhead, and a field name need not be
     # a Python identifier ("site name")
@@ -172,14 +260,17 @@ def read_habitats(
     rows = []
     for i, (geom, *values) in enumerate(zip(gdf.geometry.to_numpy(), *columns.values()), start=1):
         feature = dict(zip(columns, values))
-        rows.append(_site_row(i, feature, geom, context, warnings, fallback))
-    warnings += [
-        f'critical_loads.toml, habitat "{key}": no 2022 range in the table; the 2011 range is used'
-        for key in sorted(fallback)
-    ]
+        rows.append(_site_row(i, feature, geom, context, fallback))
+    for key in sorted(fallback):
+        warnings.warn(
+            f'critical_loads.toml, habitat "{key}": no 2022 range in the table; the 2011 '
+            "range is used",
+            InputWarning,
+            stacklevel=2,
+        )
     import geopandas as gpd
 
-    return gpd.GeoDataFrame(rows, geometry="geometry", crs=crs), warnings
+    return gpd.GeoDataFrame(rows, geometry="geometry", crs=crs)
 
 
 _OPTIONAL_FIELDS = (
@@ -257,19 +348,23 @@ class _Context:
         )
 
 
-def _unknown_absent_names(context: _Context, names: pd.Series) -> list[str]:
-    """Warnings for names in habitats.lichens_bryophytes_absent that match no site."""
+def _warn_unknown_absent_names(context: _Context, names: pd.Series) -> None:
+    """An InputWarning for each name in habitats.lichens_bryophytes_absent that matches no
+    site."""
     known = set(names.str.lower())
-    return [
-        f'habitats.lichens_bryophytes_absent: "{missing}" is not a site name in '
-        f"{context.section.file.name}; it is ignored"
-        for missing in sorted(context.absent_names - known)
-    ]
+    for missing in sorted(context.absent_names - known):
+        warnings.warn(
+            f'habitats.lichens_bryophytes_absent: "{missing}" is not a site name in '
+            f"{context.section.file.name}; it is ignored",
+            InputWarning,
+            stacklevel=3,
+        )
 
 
-def _site_geometry(geom, where: str, warnings: list[str]):
+def _site_geometry(geom, where: str):
     """One feature's polygon: refuse an empty or non-polygon geometry, repair an invalid
-    polygon (with a warning), refuse one that cannot be repaired into a polygon of some area."""
+    polygon (with an InputWarning), refuse one that cannot be repaired into a polygon of some
+    area."""
     if geom is None or geom.is_empty:
         raise InputError(f"{where}: empty geometry")
     if geom.geom_type not in ("Polygon", "MultiPolygon"):
@@ -283,13 +378,15 @@ def _site_geometry(geom, where: str, warnings: list[str]):
         raise InputError(
             f"{where}: invalid polygon that cannot be repaired ({shapely.is_valid_reason(geom)})"
         )
-    warnings.append(f"{where}: invalid polygon repaired ({shapely.is_valid_reason(geom)})")
+    warnings.warn(
+        f"{where}: invalid polygon repaired ({shapely.is_valid_reason(geom)})",
+        InputWarning,
+        stacklevel=3,
+    )
     return repaired
 
 
-def _site_row(
-    i: int, feature: dict, geom, context: _Context, warnings: list[str], fallback: set[str]
-) -> dict:
+def _site_row(i: int, feature: dict, geom, context: _Context, fallback: set[str]) -> dict:
     """The sites-table row of feature ``i`` (1-based; ``feature`` maps layer field to value).
 
     The checks run in this order, and the first one to fail is the error reported (the
@@ -300,11 +397,11 @@ def _site_row(
     section = context.section
     site_name = str(feature[section.name_field])
     where = f'habitats.file {section.file.name}, feature {i} ("{site_name}")'
-    geom = _site_geometry(geom, where, warnings)
+    geom = _site_geometry(geom, where)
     habitat_key = _habitat_key(feature[section.habitat_field], where, context)
     habitat = context.tables.critical_loads[habitat_key]
     designation = str(feature[section.designation_field]).strip()
-    tier = _tier(designation, where, context, warnings)
+    tier = _tier(designation, where, context)
     lo, hi, review, used, load_source = _critical_load(habitat, feature, where, context)
     if review != context.load_review:
         fallback.add(habitat_key)
@@ -355,16 +452,18 @@ def _habitat_key(raw, where: str, context: _Context) -> str:
     return key
 
 
-def _tier(designation: str, where: str, context: _Context, warnings: list[str]) -> dict:
+def _tier(designation: str, where: str, context: _Context) -> dict:
     """The thresholds.toml tier listing a designation (case-insensitive); the strictest tier,
-    with a warning, for a designation no tier lists."""
+    with an InputWarning, for a designation no tier lists."""
     tier = context.tier_by_designation.get(designation.lower())
     if tier is None:
         tier = context.tiers[0]
-        warnings.append(
+        warnings.warn(
             f'{where}: designation "{designation}" matches no tier in '
             f'thresholds.toml; the strictest tier "{tier["id"]}" '
-            f"({tier['threshold_percent']:g} %) is used"
+            f"({tier['threshold_percent']:g} %) is used",
+            InputWarning,
+            stacklevel=3,
         )
     return tier
 
@@ -419,9 +518,27 @@ def site_sample_points(geometries, source_x_m, source_y_m, spacing_m: float):
     and a lattice of points inside at ``spacing_m`` (coarsened so no site gets more than
     MAX_POINTS_PER_SITE lattice points, nor tests more than MAX_LATTICE_CANDIDATES candidate
     points of its bounding box: a very long thin site gets a sparser lattice, see
-    :func:`coarsened_sites`). Returns (site_index, x_m, y_m, is_interior) arrays; the interior
-    lattice (and representative point) gives the site mean, all points its maximum. Vectorised
-    over sites (shapely 2 array functions), so 10,000 sites take well under a second.
+    :func:`coarsened_sites`). The interior lattice (and representative point) gives the site
+    mean, all points its maximum. Vectorised over sites (shapely 2 array functions), so 10,000
+    sites take well under a second.
+
+    Parameters
+    ----------
+    geometries : sequence of shapely geometry
+        The sites' polygons, in the run's CRS [m].
+    source_x_m, source_y_m : sequence of float
+        The sources' positions [m].
+    spacing_m : float
+        Lattice spacing inside the sites [m], > 0.
+
+    Returns
+    -------
+    site_index : ndarray of int
+        Site of each point.
+    x_m, y_m : ndarray
+        Point coordinates [m].
+    is_interior : ndarray of bool
+        Whether a point belongs to the interior sample (used for the mean).
     """
     geoms = np.asarray(list(geometries), dtype=object)
     n = geoms.size
@@ -449,7 +566,20 @@ _CANDIDATES_PER_BATCH = 2_000_000  # bounds the memory of one vectorised contain
 
 def lattice_step_m(geoms, spacing_m: float) -> np.ndarray:
     """Lattice step of each site [m]: ``spacing_m``, widened so that a site gets at most
-    MAX_POINTS_PER_SITE points and its bounding box at most MAX_LATTICE_CANDIDATES."""
+    MAX_POINTS_PER_SITE points and its bounding box at most MAX_LATTICE_CANDIDATES.
+
+    Parameters
+    ----------
+    geoms : ndarray of shapely geometry
+        The sites' polygons [m].
+    spacing_m : float
+        The spacing asked for [m], > 0.
+
+    Returns
+    -------
+    ndarray
+        One step per site [m], >= ``spacing_m``.
+    """
     bounds = shapely.bounds(geoms).reshape(-1, 4)
     box_area = (bounds[:, 2] - bounds[:, 0]) * (bounds[:, 3] - bounds[:, 1])
     return np.maximum.reduce(
@@ -522,8 +652,22 @@ def site_boundary_points(geometries, spacing_m: float):
     """Points along every ring of each site, every ``spacing_m`` (at least 8 per ring, at most
     MAX_BOUNDARY_POINTS_PER_SITE per site: see :func:`coarsened_sites`).
 
-    Returns (site_index, x_m, y_m). Any point outside a site then has its nearest boundary
-    point within spacing_m / 2 of a sample, wherever the source is.
+    Any point outside a site then has its nearest boundary point within spacing_m / 2 of a
+    sample, wherever the source is.
+
+    Parameters
+    ----------
+    geometries : sequence of shapely geometry
+        The sites' polygons [m].
+    spacing_m : float
+        Spacing along the boundary [m], > 0.
+
+    Returns
+    -------
+    site_index : ndarray of int
+        Site of each point.
+    x_m, y_m : ndarray
+        Point coordinates [m].
     """
     geoms = np.asarray(list(geometries), dtype=object)
     if not geoms.size:
@@ -538,9 +682,25 @@ def site_boundary_points(geometries, spacing_m: float):
 
 
 def grid_nodes_in_sites(geometries, grid) -> tuple[np.ndarray, np.ndarray]:
-    """(node, site) pairs of the grid nodes (flat row-major index of ``grid.centres()``)
-    strictly inside each site. Each site tests only the nodes of its bounding box, in batches,
-    so 10,000 sites on a 2-million-node grid take about a second."""
+    """(node, site) pairs of the grid nodes strictly inside each site.
+
+    A node is the flat row-major index of ``grid.centres()``. Each site tests only the nodes of
+    its bounding box, in batches, so 10,000 sites on a 2-million-node grid take about a second.
+
+    Parameters
+    ----------
+    geometries : sequence of shapely geometry
+        The sites' polygons [m].
+    grid : GridSpec
+        The receptor grid.
+
+    Returns
+    -------
+    node : ndarray of int
+        Flat index of each node inside a site.
+    site : ndarray of int
+        The site it is inside.
+    """
     geoms = np.asarray(list(geometries), dtype=object)
     if not geoms.size:
         return np.zeros(0, int), np.zeros(0, int)
@@ -565,8 +725,31 @@ def grid_nodes_in_sites(geometries, grid) -> tuple[np.ndarray, np.ndarray]:
 
 
 def coarsened_sites(geometries, names, spacing_m: float, boundary_spacing_m: float) -> list[str]:
-    """Warnings for sites whose sample points were spaced wider than asked (very large or
-    very long polygons), so the bounded number of points is never silent."""
+    """The sites whose sample points were spaced wider than asked (very large or very long
+    polygons), with an AccuracyWarning naming them, so the bounded number of points is never
+    silent.
+
+    Parameters
+    ----------
+    geometries : sequence of shapely geometry
+        The sites' polygons [m].
+    names : sequence of str
+        The sites' names, for the warning.
+    spacing_m : float
+        Lattice spacing asked for inside the sites [m].
+    boundary_spacing_m : float
+        Spacing asked for along the boundaries [m].
+
+    Returns
+    -------
+    list of str
+        The names of those sites (empty when there are none).
+
+    Warns
+    -----
+    AccuracyWarning
+        One, naming up to five of those sites.
+    """
     geoms = np.asarray(list(geometries), dtype=object)
     if not geoms.size:
         return []
@@ -580,18 +763,36 @@ def coarsened_sites(geometries, names, spacing_m: float, boundary_spacing_m: flo
         return []
     listed = ", ".join(f'"{name}"' for name in names[wide][:5])
     more = f" and {int(wide.sum()) - 5} more" if wide.sum() > 5 else ""
-    return [
+    warnings.warn(
         f"{int(wide.sum())} very large or long site(s) ({listed}{more}): their sample "
         f"points are spaced wider than asked (at most {MAX_POINTS_PER_SITE} inside and "
         f"{MAX_BOUNDARY_POINTS_PER_SITE} on the boundary per site); the point nearest each "
-        "source and the grid nodes inside them still count"
-    ]
+        "source and the grid nodes inside them still count",
+        AccuracyWarning,
+        stacklevel=2,
+    )
+    return [str(name) for name in names[wide]]
 
 
 def site_outline_points(geometries, spacing_m: float):
-    """Receptor points on each site for positions not known in advance (placement search):
-    the boundary every ``spacing_m`` plus the interior lattice of :func:`site_sample_points`.
-    Returns (site_index, x_m, y_m)."""
+    """Receptor points on each site for positions not known in advance (placement search).
+
+    The boundary every ``spacing_m`` plus the interior lattice of :func:`site_sample_points`.
+
+    Parameters
+    ----------
+    geometries : sequence of shapely geometry
+        The sites' polygons [m].
+    spacing_m : float
+        Spacing along the boundary and of the interior lattice [m], > 0.
+
+    Returns
+    -------
+    site_index : ndarray of int
+        Site of each point.
+    x_m, y_m : ndarray
+        Point coordinates [m].
+    """
     b_index, bx, by = site_boundary_points(geometries, spacing_m)
     lattice_index, lx, ly, interior = site_sample_points(geometries, [], [], spacing_m)
     return (

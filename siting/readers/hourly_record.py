@@ -56,6 +56,7 @@ overlap between files are an error.
 from __future__ import annotations
 
 import csv
+import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 from itertools import pairwise
@@ -65,7 +66,7 @@ import numpy as np
 import pandas as pd
 
 from siting.dispersion.hourly import HourlyWeather
-from siting.errors import InputError, InputFileError
+from siting.errors import InputError, InputFileError, WeatherWarning
 from siting.physics.plume import STABILITY_CLASSES
 from siting.physics.solar import is_night, solar_elevation_deg
 from siting.physics.stability import turner_stability_index
@@ -367,9 +368,10 @@ def _parse_times(
         if utc_offset_h is None:
             raise InputError(
                 f"{_where(name, lines[0])}: time {texts[0]!r} has no UTC offset; "
-                "write times as 2025-01-01T00:00+01:00, or give utc_offset_h "
-                "(scenario [weather] utc_offset_h, or --utc-offset on the command "
-                "line), the offset of the file's clock from UTC in hours"
+                "write times as 2025-01-01T00:00+01:00, or give utc_offset_h, the offset "
+                "of the file's clock from UTC in hours (in a scenario: [weather] "
+                "utc_offset_h)",
+                parameters=("utc_offset_h",),
             )
         return local - np.timedelta64(round(utc_offset_h * 60), "m"), set()
     offsets = parts["offset"].to_numpy(dtype=object)
@@ -389,8 +391,9 @@ def _parse_times(
     return local - shift, set(distinct)
 
 
-def _read_hourly_file(path: Path, utc_offset_h: float | None) -> tuple[_RawFile, list[str]]:
-    """Read one hourly CSV, parse its times and check they increase; warnings for the file."""
+def _read_hourly_file(path: Path, utc_offset_h: float | None) -> _RawFile:
+    """Read one hourly CSV, parse its times and check they increase; a WeatherWarning for
+    ignored columns, an unused utc_offset_h and an unused ceiling_ft."""
     name = path.name
     header, rows, lines, header_line, ignored = _read_rows(path)
     if not rows:
@@ -419,26 +422,31 @@ def _read_hourly_file(path: Path, utc_offset_h: float | None) -> tuple[_RawFile,
             f"line {line_numbers[i - 1]} ({columns['time'][i - 1]!r}); rows must be "
             "in increasing time order without duplicates"
         )
-    warnings = []
     if ignored:
-        warnings.append(
+        _warn(
             f"{name}: column(s) {', '.join(ignored)} ignored (known columns: "
             f"{', '.join(HOURLY_REQUIRED + HOURLY_OPTIONAL)})"
         )
     if offsets and utc_offset_h is not None:
         given = {_offset_minutes(o) for o in offsets}
         if given != {round(utc_offset_h * 60)}:
-            warnings.append(
+            _warn(
                 f"{name}: the times carry their own UTC offsets "
-                f"({', '.join(sorted(offsets))}); utc_offset_h = {utc_offset_h:g} "
-                "is not used for this file"
+                f"({', '.join(sorted(offsets))}); the utc_offset_h given ({utc_offset_h:g}) "
+                "is not used for this file",
+                parameters=("utc_offset_h",),
             )
     if "ceiling_ft" in columns and "stability" in columns:
-        warnings.append(
+        _warn(
             f"{name}: ceiling_ft is used only with cloud_oktas; ignored because "
             "the stability class is given"
         )
-    return _RawFile(name, columns, line_numbers, time_utc, offsets), warnings
+    return _RawFile(name, columns, line_numbers, time_utc, offsets)
+
+
+def _warn(message: str, parameters: tuple[str, ...] = ()) -> None:
+    """Issue a WeatherWarning about the record (shown at the reader's caller's call)."""
+    warnings.warn(WeatherWarning(message, parameters=parameters), stacklevel=3)
 
 
 def _join_files(files: list[_RawFile]) -> list[_RawFile]:
@@ -541,13 +549,35 @@ def _gaps(valid_index: np.ndarray, n_expected: int, t0) -> list[dict]:
 
 
 def compass_words(direction_deg: float) -> str:
-    """'from the south-west (225 deg)': the nearest of the 16 compass points, in words."""
+    """'from the south-west (225 deg)': the nearest of the 16 compass points, in words.
+
+    Parameters
+    ----------
+    direction_deg : float
+        Direction the wind blows from [deg clockwise from north].
+
+    Returns
+    -------
+    str
+        The compass point and the direction.
+    """
     k = int(np.floor((direction_deg % 360.0) / 22.5 + 0.5)) % 16
     return f"from the {COMPASS_POINTS[k]} ({direction_deg % 360.0:g} deg)"
 
 
 def direction_step_deg(direction_deg) -> float:
-    """Reporting resolution of directions [deg]: 22.5, 10, 5 or 1 if all are multiples, else 0."""
+    """Reporting resolution of directions [deg]: 22.5, 10, 5 or 1 if all are multiples, else 0.
+
+    Parameters
+    ----------
+    direction_deg : ndarray
+        The record's directions [deg].
+
+    Returns
+    -------
+    float
+        The coarsest of those steps all directions are multiples of [deg]; 0 for none.
+    """
     d = np.asarray(direction_deg, dtype=float)
     for step in _DIRECTION_STEPS_DEG:
         if _all_multiples(d, step):
@@ -600,7 +630,25 @@ def hours_by_sector(
 def speed_class_index(
     speed_m_s, speed_edges_m_s: Sequence[float] = DEFAULT_SPEED_EDGES_M_S
 ) -> np.ndarray:
-    """Speed class of each hour: i where edge[i] <= u < edge[i+1]; the last class is open."""
+    """Speed class of each hour: i where edge[i] <= u < edge[i+1]; the last class is open.
+
+    Parameters
+    ----------
+    speed_m_s : ndarray
+        Hourly wind speeds [m s-1].
+    speed_edges_m_s : sequence of float
+        Lower edges of the classes [m s-1], from 0, increasing.
+
+    Returns
+    -------
+    ndarray of int
+        Class of each hour.
+
+    Raises
+    ------
+    InputError
+        The edges do not start at 0 and increase.
+    """
     edges = _checked_edges(speed_edges_m_s)
     return np.clip(
         np.searchsorted(edges, np.asarray(speed_m_s, float), side="right") - 1, 0, edges.size - 1
@@ -608,7 +656,23 @@ def speed_class_index(
 
 
 def speed_class_labels(speed_edges_m_s: Sequence[float] = DEFAULT_SPEED_EDGES_M_S) -> list[str]:
-    """'< 1.5', '1.5-3', ..., '>= 11' [m/s], one per class of :func:`speed_class_index`."""
+    """'< 1.5', '1.5-3', ..., '>= 11' [m/s], one per class of :func:`speed_class_index`.
+
+    Parameters
+    ----------
+    speed_edges_m_s : sequence of float
+        Lower edges of the classes [m s-1], from 0, increasing.
+
+    Returns
+    -------
+    list of str
+        One label per class.
+
+    Raises
+    ------
+    InputError
+        The edges do not start at 0 and increase.
+    """
     edges = _checked_edges(speed_edges_m_s)
     labels = [f"{a:g}-{b:g}" for a, b in pairwise(edges)] + [f">= {edges[-1]:g}"]
     labels[0] = f"< {edges[1]:g}" if edges.size > 1 and edges[0] == 0 else labels[0]
@@ -633,7 +697,7 @@ def read_hourly_record(  # > 80 lines only for its docstring (~70); the body is 
     min_wind_speed_m_s: float = 1.0,
     max_missing_percent: float = 10.0,
     direction_step_deg: float | None = None,
-) -> tuple[HourlyWeather, dict, list[str]]:
+) -> tuple[HourlyWeather, dict]:
     """Read, check and prepare an hourly weather record (one or several CSV files).
 
     Parameters
@@ -676,7 +740,10 @@ def read_hourly_record(  # > 80 lines only for its docstring (~70); the body is 
         (A..F fractions of the hours used), stability_method, temperature_c (min, mean, max,
         hours_without, or None), years_covered (calendar years as written), record_years,
         anemometer_height_m, calm_rule, missing_rule.
-    warnings : list of str
+
+    Warns
+    -----
+    WeatherWarning
         Legal but doubtful content: calms above 10 %, a record shorter than a year, gaps
         longer than 24 h, ignored columns, very high speeds, directions that are not
         multiples of a given direction step.
@@ -700,7 +767,7 @@ def read_hourly_record(  # > 80 lines only for its docstring (~70); the body is 
         max_missing_percent,
     )
     given_step = _checked_direction_step(direction_step_deg)
-    files, warnings = _read_files(paths, utc_offset_h)
+    files = _read_files(paths, utc_offset_h)
     rows = _joined_rows(files)
     hour_index, n_expected = _hour_index(rows)
     timeline = _usable_hours(rows, hour_index, n_expected, calm_threshold_m_s, max_missing_percent)
@@ -709,7 +776,7 @@ def read_hourly_record(  # > 80 lines only for its docstring (~70); the body is 
     times_s = rows.time_utc[used].astype("datetime64[s]")
     stability_index = _stability_index(rows, used, times_s, latitude_deg, longitude_deg)
     used_direction = direction[used].astype(float)
-    step, spread, step_warnings = _direction_step_and_spread(used_direction, given_step, rows)
+    step, spread = _direction_step_and_spread(used_direction, given_step, rows)
     weather = HourlyWeather(
         times_s,
         used_direction,
@@ -733,28 +800,23 @@ def read_hourly_record(  # > 80 lines only for its docstring (~70); the body is 
         min_wind_speed_m_s=min_wind_speed_m_s,
         anemometer_height_m=anemometer_height_m,
     )
-    warnings += step_warnings
-    warnings += _record_warnings(summary, rows, timeline, calm_threshold_m_s, min_wind_speed_m_s)
-    return weather, summary, warnings
+    _warn_about_record(summary, rows, timeline, calm_threshold_m_s, min_wind_speed_m_s)
+    return weather, summary
 
 
-def _read_files(paths, utc_offset_h: float | None) -> tuple[list[_RawFile], list[str]]:
+def _read_files(paths, utc_offset_h: float | None) -> list[_RawFile]:
     """Read every file of the record and join them.
 
     Each file is read, its header and times checked (:func:`_read_hourly_file`), in the order
     given; then the files are put in time order and checked for overlaps (:func:`_join_files`).
-    Returns the files in time order and the files' warnings (in the order the files were given).
+    Returns the files in time order (their warnings are issued in the order the files were
+    given).
     """
     paths = [Path(paths)] if isinstance(paths, (str, Path)) else [Path(p) for p in paths]
     if not paths:
         raise InputError("hourly weather: no file given")
-    warnings: list[str] = []
-    files = []
-    for path in paths:
-        raw, file_warnings = _read_hourly_file(path, utc_offset_h)
-        files.append(raw)
-        warnings += file_warnings
-    return _join_files(files), warnings
+    files = [_read_hourly_file(path, utc_offset_h) for path in paths]
+    return _join_files(files)
 
 
 def _joined_rows(files: list[_RawFile]) -> _Rows:
@@ -897,27 +959,26 @@ def _stability_index(
 
 def _direction_step_and_spread(
     used_direction: np.ndarray, given_step: float | None, rows: _Rows
-) -> tuple[float, float, list[str]]:
+) -> tuple[float, float]:
     """The direction step of the record and the spread of each hour's plume.
 
     Returns the reporting step [deg] (given, or inferred from the used directions by
-    :func:`direction_step_deg`), the spread [deg] (an inferred step of 1 deg or finer is not
-    spread; a given step always is) and a warning when the directions are not all multiples
-    of a given step.
+    :func:`direction_step_deg`) and the spread [deg] (an inferred step of 1 deg or finer is not
+    spread; a given step always is); a WeatherWarning when the directions are not all
+    multiples of a given step.
     """
-    warnings = []
     if given_step is None:
         step = direction_step_deg(used_direction)
         spread = step if step > _EXACT_STEP_DEG else 0.0
     else:
         step = spread = given_step
         if step > 0 and not _all_multiples(used_direction, step):
-            warnings.append(
+            _warn(
                 f"{rows.names}: direction_step_deg = {step:g} is given, but not every "
                 f"direction is a multiple of {step:g} deg; each hour is still "
                 "spread over +-half the step around its direction"
             )
-    return step, spread, warnings
+    return step, spread
 
 
 def _summary(
@@ -999,19 +1060,18 @@ def _temperature_summary(temperature_c: np.ndarray) -> dict | None:
     }
 
 
-def _record_warnings(
+def _warn_about_record(
     summary: dict,
     rows: _Rows,
     timeline: _Timeline,
     calm_threshold_m_s: float,
     min_wind_speed_m_s: float,
-) -> list[str]:
-    """Warnings on the record as a whole, in this order: many calms, shorter than a
+) -> None:
+    """WeatherWarnings on the record as a whole, in this order: many calms, shorter than a
     year, long gaps, a speed so high it suggests the wrong unit."""
     names = rows.names
-    warnings = []
     if summary["calm_percent"] > _CALM_WARN_PERCENT:
-        warnings.append(
+        _warn(
             f"{names}: {summary['calm_percent']:.1f} % of the hours used are calm "
             f"(< {calm_threshold_m_s:g} m/s), more than {_CALM_WARN_PERCENT:g} %; "
             f"they were raised to {min_wind_speed_m_s:g} m/s with the direction of "
@@ -1019,13 +1079,13 @@ def _record_warnings(
             "its anemometer threshold"
         )
     if timeline.n_expected < HOURS_PER_YEAR:
-        warnings.append(
+        _warn(
             f"{names}: the record covers {timeline.n_expected} h, less than a year "
             f"({HOURS_PER_YEAR} h); seasons are not equally represented"
         )
     long_gaps = [g for g in timeline.gaps if g["hours"] > _LONG_GAP_H]
     if long_gaps:
-        warnings.append(
+        _warn(
             f"{names}: {len(long_gaps)} gap(s) longer than {_LONG_GAP_H} h, the "
             f"longest {long_gaps[0]['hours']} h from {long_gaps[0]['start_utc']}; "
             "missing hours are not filled, so that part of the year counts less"
@@ -1033,12 +1093,11 @@ def _record_warnings(
     observed = rows.speed_m_s[timeline.used]
     if observed.max() > _FAST_SPEED_M_S:
         i = timeline.used[int(np.argmax(observed))]
-        warnings.append(
+        _warn(
             f"{rows.where(i)}: speed_m_s "
             f"{observed.max():g} is above {_FAST_SPEED_M_S:g} m/s; check the unit "
             "(knots?)"
         )
-    return warnings
 
 
 def _checked_direction_step(direction_step_deg) -> float | None:
@@ -1122,6 +1181,25 @@ def _check_options(
 # --- products of an hourly record ----------------------------------------------------------------
 
 
+def _warn_uneven_sectors(weather: HourlyWeather, n_sectors: int) -> None:
+    """A WeatherWarning when reported directions fall unevenly into the table's sectors."""
+    step = direction_step_deg(weather.direction_deg)
+
+    def even(n: int) -> bool:
+        ratio = 360.0 / n / step
+        return abs(ratio - round(ratio)) < 1e-9
+
+    if step <= 0 or even(n_sectors):
+        return
+    better = [str(n) for n in (8, 12, 16, 18, 24, 36) if even(n)]
+    _warn(
+        f"directions are reported in {step:g} deg steps, which do not divide the "
+        f"{360.0 / n_sectors:g} deg sectors evenly, so some sectors of the frequency table "
+        f"hold more reported directions than others; {' or '.join(better)} sectors avoid "
+        "that"
+    )
+
+
 def frequency_table_from_hourly(
     weather: HourlyWeather,
     n_sectors: int = 12,
@@ -1156,6 +1234,12 @@ def frequency_table_from_hourly(
     ------
     InputError
         If n_sectors or the speed edges are invalid, or the record has no hours.
+
+    Warns
+    -----
+    WeatherWarning
+        When the directions' reporting step does not divide the sectors evenly (some sectors
+        then hold more reported directions than others).
     """
     if isinstance(n_sectors, bool) or int(n_sectors) != n_sectors or not 4 <= n_sectors <= 360:
         raise InputError(f"n_sectors must be a whole number 4..360, got {n_sectors!r}")
@@ -1163,6 +1247,7 @@ def frequency_table_from_hourly(
     edges = _checked_edges(speed_edges_m_s)
     if weather.n_hours == 0:
         raise InputError("frequency table: the hourly record has no hours")
+    _warn_uneven_sectors(weather, n_sectors)
     width = 360.0 / n_sectors
     sector = np.floor((weather.direction_deg % 360.0) / width + 0.5).astype(int) % n_sectors
     speed_class = speed_class_index(weather.speed_m_s, edges)

@@ -22,10 +22,22 @@ def _bundled(name: str) -> Path:
 
 
 def config_dir() -> Path:
-    """Folder holding the bundled lookup tables (emission factors, abatement, critical loads...)."""
+    """Folder holding the bundled lookup tables (emission factors, abatement, critical loads...).
+
+    Returns
+    -------
+    Path
+        ``siting/_bundled/config`` in an installed wheel, ``config/`` in a checkout.
+    """
     return _bundled("config")
 
 
 def demo_dir() -> Path:
-    """Folder holding the invented demo scenario."""
+    """Folder holding the invented demo scenario.
+
+    Returns
+    -------
+    Path
+        ``siting/_bundled/data_demo`` in an installed wheel, ``data_demo/`` in a checkout.
+    """
     return _bundled("data_demo")

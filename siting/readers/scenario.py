@@ -38,7 +38,39 @@ class _Section(BaseModel):
 
 
 class WeatherSection(_Section):
-    """[weather]: the weather behind the long-term means."""
+    """[weather]: the weather behind the long-term means.
+
+    Attributes
+    ----------
+    frequency_table : Path, optional
+        A joint frequency table CSV (give it or ``hourly``, not both).
+    hourly : Path or list of Path, optional
+        One or more hourly station records (CSV).
+    utc_offset_h : float, optional
+        UTC offset of naive times in the hourly record [h], -14..14.
+    calm_threshold_m_s : float
+        Hours below this speed are calms [m s-1], 0..3 (default 0.5).
+    max_missing_percent : float
+        Most missing hours allowed [%] (default 10).
+    anemometer_height_m : float
+        Height of the wind measurement [m], (0, 300] (default 10).
+    land_type : {"rural", "urban"}
+        Dispersion coefficients of Briggs (1973) for open country or towns.
+    sigma_scheme : {"briggs", "pasquill_gifford"}
+        The dispersion-coefficient formulas (Pasquill-Gifford rural only).
+    mixing_height_m : float, optional
+        Height of a reflecting lid [m], (10, 5000]; None for none.
+    min_wind_speed_m_s : float
+        Lighter winds are raised to this [m s-1], (0, 5] (default 1).
+    station_latitude_deg, station_longitude_deg : float, optional
+        The weather station's position [deg], for its distance in ``siting verify``.
+    wind_below_anemometer : {"power_law", "unchanged"}
+        The wind at a release height below the anemometer: power law (cautious) or as measured.
+    wind_profile_min_height_m : float
+        Lowest height the power law is taken down to [m], (0, 10] (default 1).
+    direction_step_deg : float, optional
+        The step hourly directions were reported in [deg], 0..45; None infers it, 0 is exact.
+    """
 
     frequency_table: FilePath | None = None
     hourly: FilePath | list[FilePath] | None = None
@@ -73,8 +105,20 @@ class WeatherSection(_Section):
 class SeasonalSection(_Section):
     """[seasonal]: hour-by-hour emission weights and ventilation (hourly records only).
 
-    The defaults are common practice with no published source (siting/seasonal.py); replace
-    them with the house's own figures where known.
+    The defaults are common practice with no published source (siting/physics/seasonal.py);
+    replace them with the house's own figures where known.
+
+    Attributes
+    ----------
+    temperature_dependent_emission : bool, optional
+        None (default): on for sources with a scrubber_design_share, off for the others;
+        True / False: for every source.
+    emission_coefficient_per_k : float
+        Relative change of emission per kelvin [K-1], 0..0.3 (default 0.05).
+    min_ventilation_fraction : float
+        Winter minimum ventilation / maximum rate [-], (0, 1] (default 0.1).
+    ventilation_ramp_start_c, ventilation_ramp_end_c : float
+        Temperatures between which ventilation rises to its maximum [deg C] (default 10, 25).
     """
 
     # None (default): on for sources with a scrubber_design_share (their treated share is a
@@ -93,7 +137,17 @@ class SeasonalSection(_Section):
 
 
 class GridSection(_Section):
-    """[grid]: the regular receptor grid around the sources."""
+    """[grid]: the regular receptor grid around the sources.
+
+    Attributes
+    ----------
+    spacing_m : float
+        Cell size [m], (0, 1000] (default 25).
+    margin_m : float
+        Distance added round the sources' bounding box [m], 0..50,000 (default 3000).
+    memory_mb : float
+        Working memory of the engines [MB], 16..65,536 (default 256).
+    """
 
     spacing_m: float = Field(25.0, gt=0, le=1000)
     margin_m: float = Field(3000.0, ge=0, le=50_000)
@@ -101,14 +155,32 @@ class GridSection(_Section):
 
 
 class DepositionSection(_Section):
-    """[deposition]: dry deposition settings."""
+    """[deposition]: dry deposition settings.
+
+    Attributes
+    ----------
+    plume_depletion : bool
+        Deplete the plume by what it deposits upwind (default off: the cautious choice).
+    depletion_land_cover : str
+        Land cover (deposition_velocities.toml id) whose velocity depletes the plume.
+    """
 
     plume_depletion: StrictBool = False  # off by default: no depletion is the cautious choice
     depletion_land_cover: str = "short_vegetation"
 
 
 class AssessmentSection(_Section):
-    """[assessment]: how figures are judged (our own optional section)."""
+    """[assessment]: how figures are judged (our own optional section).
+
+    Attributes
+    ----------
+    critical_load_end : {"lower", "middle", "upper"}
+        Which end of each critical-load range is used (default lower).
+    critical_load_review : {"2022", "2011"}
+        Which review's empirical critical loads (default 2022).
+    config_dir : Path, optional
+        A folder with the user's own copy of the lookup tables.
+    """
 
     critical_load_end: Literal["lower", "middle", "upper"] = "lower"
     # which review's empirical critical loads: "2022" (Bobbink et al. 2022, default) or "2011"
@@ -117,7 +189,26 @@ class AssessmentSection(_Section):
 
 
 class HabitatsSection(_Section):
-    """[habitats]: the protected-site layer and which attribute holds what."""
+    """[habitats]: the protected-site layer and which attribute holds what.
+
+    Attributes
+    ----------
+    file : Path
+        The habitat layer (any vector format geopandas reads).
+    layer : str, optional
+        Its layer, in a multi-layer file.
+    name_field, habitat_field, designation_field : str
+        Fields holding each site's name, habitat (critical_loads.toml id or name) and
+        designation (matched to thresholds.toml).
+    critical_level_field, critical_load_field : str, optional
+        Fields overriding the critical level [ug m-3] and load [kg N ha-1 yr-1] per site.
+    background_deposition_field, background_concentration_field : str, optional
+        Fields of the background [kg N ha-1 yr-1, ug m-3], for the predicted environmental total.
+    lichens_bryophytes_field : str, optional
+        Field stating lichens and bryophytes present or absent per site.
+    lichens_bryophytes_absent : list of str
+        Sites stated free of lichens and bryophytes (else 1 ug m-3 everywhere).
+    """
 
     file: FilePath
     layer: str | None = None
@@ -135,13 +226,31 @@ class HabitatsSection(_Section):
 
 
 class ReceptorsSection(_Section):
-    """[receptors]: named points, CSV with id,x,y[,land_cover]."""
+    """[receptors]: named points, CSV with id,x,y[,land_cover].
+
+    Attributes
+    ----------
+    file : Path
+        The CSV (coordinates in the scenario's CRS [m]).
+    """
 
     file: FilePath
 
 
 class ExclusionSpec(_Section):
-    """[[holding.exclusion]]: a layer of places the new house must keep away from."""
+    """[[holding.exclusion]]: a layer of places the new house must keep away from.
+
+    Attributes
+    ----------
+    file : Path
+        The layer (points, lines or polygons).
+    layer : str, optional
+        Its layer, in a multi-layer file.
+    buffer_m : float
+        Distance the house keeps from its features [m], 0..5000.
+    name : str, optional
+        What the layer is, in words (at most 80 characters).
+    """
 
     file: FilePath
     layer: str | None = None
@@ -150,7 +259,25 @@ class ExclusionSpec(_Section):
 
 
 class HoldingSection(_Section):
-    """[holding]: where on the farm a new house could go (``siting place``)."""
+    """[holding]: where on the farm a new house could go (``siting place``).
+
+    Attributes
+    ----------
+    file : Path
+        The holding boundary (a polygon layer).
+    layer : str, optional
+        Its layer, in a multi-layer file.
+    spacing_m : float
+        Spacing of the candidate positions [m], (0, 500] (default 10).
+    boundary_buffer_m : float
+        Distance the house keeps inside the boundary [m], 0..1000.
+    min_distance_to_existing_m : float
+        Distance the house keeps from the other sources [m], 0..5000.
+    in_combination : bool
+        Add the other sources' contribution at each site.
+    exclusion : list of ExclusionSpec
+        Layers of places to keep away from.
+    """
 
     file: FilePath
     layer: str | None = None
@@ -162,7 +289,45 @@ class HoldingSection(_Section):
 
 
 class SourceSpec(_Section):
-    """One [[source]]: where and how ammonia is released, and how much."""
+    """One [[source]]: where and how ammonia is released, and how much.
+
+    Attributes
+    ----------
+    id : str
+        Unique name of the source (1 to 80 characters).
+    kind : {"point", "volume", "area"}
+        A point outlet, a volume (a naturally ventilated house) or an area.
+    x, y : float
+        Position [m] in the scenario's CRS (the centre of a volume or area).
+    height_m : float
+        Release height [m], 0..100.
+    role : {"proposed", "existing", "removed", "other"}
+        Whose the source is: the installation's new or existing, removed, or another farm's.
+    diameter_m, exit_velocity_m_s : float, optional
+        Outlet diameter [m] and exit velocity [m s-1] of a point source.
+    width_m, length_m : float, optional
+        Footprint of a volume or area source [m].
+    angle_deg : float
+        Direction of the length axis [deg clockwise from north].
+    building_height_m, building_width_m : float, optional
+        The building's height and width [m]: plume rise only for an outlet clear of its wake.
+    nh3_kg_per_year : float, optional
+        Direct annual emission before abatement [kg NH3 yr-1] (instead of livestock/places).
+    livestock, housing : str, optional
+        Row of emission_factors.toml.
+    places : float, optional
+        Animal places.
+    abatement : str, optional
+        Technique id of abatement.toml.
+    reduction_percent : float, optional
+        A claimed reduction [%] (else the lower end of the technique's range).
+    reduction_basis : str, optional
+        What supports the claimed reduction.
+    treated_air_fraction : float, optional
+        Share of the house's air the technique treats [-], 0..1.
+    scrubber_design_share : float, optional
+        Scrubber capacity / maximum ventilation [-], 0..1 (hourly records).
+    """
 
     id: str = Field(min_length=1, max_length=80)
     kind: Literal["point", "volume", "area"] = "point"
@@ -236,7 +401,35 @@ class SourceSpec(_Section):
 
 
 class Scenario(_Section):
-    """A whole scenario file, validated. Paths are absolute after :func:`load_scenario`."""
+    """A whole scenario file, validated. Paths are absolute after :func:`load_scenario`.
+
+    Attributes
+    ----------
+    title : str
+        Title shown in every output.
+    crs : str
+        Projected CRS in metres; every x/y of the file is in it.
+    weather : WeatherSection
+        [weather].
+    grid : GridSection
+        [grid].
+    deposition : DepositionSection
+        [deposition].
+    assessment : AssessmentSection
+        [assessment].
+    seasonal : SeasonalSection
+        [seasonal].
+    habitats : HabitatsSection
+        [habitats].
+    receptors : ReceptorsSection, optional
+        [receptors].
+    holding : HoldingSection, optional
+        [holding] (``siting place``).
+    sources, source : list of SourceSpec
+        The [[source]] tables (attribute ``sources``; ``source`` in the file).
+    path : Path, optional
+        The scenario file.
+    """
 
     title: str = Field(min_length=1, max_length=200)
     crs: str
@@ -263,6 +456,7 @@ class Scenario(_Section):
 
     @property
     def folder(self) -> Path:
+        """The scenario file's folder (the current folder when there is no file)."""
         return self.path.parent if self.path else Path.cwd()
 
     @property
@@ -362,10 +556,33 @@ _PLAIN_TYPES = (
 _CRS_FIX = "give a projected CRS in metres, e.g. the UTM zone of the site (EPSG:326xx north)"
 
 
-def projected_crs(crs, where: str, fix: str = _CRS_FIX) -> str:
+def projected_crs(
+    crs, where: str, fix: str = _CRS_FIX, *, key: str = "crs", parameters: tuple[str, ...] = ()
+) -> str:
     """The CRS as text if it is projected in metres, else an InputError naming ``where``.
 
-    ``fix`` is the advice given when the CRS is geographic (degrees).
+    Parameters
+    ----------
+    crs : str or object
+        Anything pyproj's ``CRS.from_user_input`` takes ("EPSG:32632", WKT, a CRS).
+    where : str
+        Names the input in messages.
+    fix : str
+        The advice given when the CRS is geographic (degrees).
+    key : str
+        What the message calls the CRS before its value (default "crs", the scenario key).
+    parameters : tuple of str
+        The Python parameters the messages name (the error's ``parameters``).
+
+    Returns
+    -------
+    str
+        The CRS as pyproj writes it.
+
+    Raises
+    ------
+    InputError
+        The CRS is unknown, geographic, or not in metres.
     """
     from pyproj import CRS
     from pyproj.exceptions import CRSError
@@ -373,13 +590,20 @@ def projected_crs(crs, where: str, fix: str = _CRS_FIX) -> str:
     try:
         parsed = CRS.from_user_input(crs)
     except CRSError as exc:
-        raise InputError(f'{where}: crs "{crs}" is not a CRS pyproj knows: {exc}') from exc
+        raise InputError(
+            f'{where}: {key} "{crs}" is not a CRS pyproj knows: {exc}', parameters=parameters
+        ) from exc
     label = parsed.to_string()
     if not parsed.is_projected:
-        raise InputError(f'{where}: crs "{label}" is geographic (degrees); {fix}')
+        raise InputError(
+            f'{where}: {key} "{label}" is geographic (degrees); {fix}', parameters=parameters
+        )
     units = {axis.unit_name for axis in parsed.axis_info}
     if units - {"metre", "meter"}:
-        raise InputError(f'{where}: crs "{label}" has units {sorted(units)}; need metres')
+        raise InputError(
+            f'{where}: {key} "{label}" has units {sorted(units)}; need metres',
+            parameters=parameters,
+        )
     return label
 
 
@@ -399,8 +623,18 @@ def _resolve(
 def load_scenario(path: str | Path, moved: dict[str, Path] | None = None) -> Scenario:
     """Read, validate and resolve a scenario file.
 
-    ``moved`` maps a file's original absolute path to where it is now (a packed submission
-    whose scenario named files outside its own folder); other paths resolve as written.
+    Parameters
+    ----------
+    path : str or Path
+        The scenario TOML file.
+    moved : dict of str to Path, optional
+        A file's original absolute path -> where it is now (a packed submission whose
+        scenario named files outside its own folder); other paths resolve as written.
+
+    Returns
+    -------
+    Scenario
+        Every key checked, every path absolute and existing.
 
     Raises
     ------

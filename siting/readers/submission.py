@@ -20,7 +20,25 @@ from siting.readers.csv_cells import spreadsheet_text
 
 @dataclass
 class Submission:
-    """What was submitted: its folder, run record, tables and the packed scenario."""
+    """What was submitted: its folder, run record, tables and the packed scenario.
+
+    Attributes
+    ----------
+    folder : Path
+        The submitted output folder (or the scenario file's folder).
+    record : dict or None
+        The run record (run.json); None for a scenario with a sites table.
+    sites : pandas.DataFrame
+        The submitted sites table (sites.csv, or the ``results`` table given).
+    receptors : pandas.DataFrame or None
+        The submitted receptors table, where there is one.
+    scenario_path : Path
+        The scenario to re-run (the packed copy in ``inputs/``).
+    moved : dict of str to Path
+        Each packed input's original absolute path -> where it is now.
+    config_dir : Path or None
+        The packed config tables; None to use the scenario's own.
+    """
 
     folder: Path
     record: dict | None
@@ -31,13 +49,15 @@ class Submission:
     config_dir: Path | None
 
 
-def _read_csv(path: Path, what: str) -> pd.DataFrame:
+def _read_csv(path: Path, what: str, parameters: tuple[str, ...] = ()) -> pd.DataFrame:
     try:
         table = pd.read_csv(path, dtype={"id": str, "site_id": str, "name": str})
     except FileNotFoundError as exc:
-        raise InputFileError(f"{what}: {path} not found") from exc
+        raise InputFileError(f"{what}: {path} not found", parameters=parameters) from exc
     except Exception as exc:  # pandas raises many types
-        raise InputError(f"{what}: {path.name} cannot be read as CSV: {exc}") from exc
+        raise InputError(
+            f"{what}: {path.name} cannot be read as CSV: {exc}", parameters=parameters
+        ) from exc
     for col in table.columns:  # text made spreadsheet-safe by outputs.write_csv, read back
         if pd.api.types.is_object_dtype(table[col]) or pd.api.types.is_string_dtype(table[col]):
             table[col] = table[col].map(spreadsheet_text)
@@ -45,17 +65,38 @@ def _read_csv(path: Path, what: str) -> pd.DataFrame:
 
 
 def load_submission(path: Path, results: Path | None = None) -> Submission:
-    """Read a submission: an output folder of `screen`, or a scenario file plus a sites table."""
+    """Read a submission: an output folder of `screen`, or a scenario file plus a sites table.
+
+    Parameters
+    ----------
+    path : str or Path
+        An output folder of ``siting screen`` (with run.json and inputs/), or a scenario file.
+    results : Path, optional
+        The applicant's sites table, needed with a scenario file (ignored for a folder).
+
+    Returns
+    -------
+    Submission
+        The folder, run record, tables and where the packed inputs are.
+
+    Raises
+    ------
+    InputFileError
+        No such folder or file, or a folder without run.json.
+    InputError
+        A scenario without a sites table, an unreadable run record or table, or a record
+        without the package map of the packed inputs.
+    """
     path = Path(path)
     if path.is_file():
         if results is None:
             raise InputError(
-                f"{path.name}: a scenario file needs the applicant's sites table "
-                "(--results sites.csv)"
+                f"{path.name}: a scenario file needs the applicant's sites table, given as "
+                "results (their sites.csv)",
+                parameters=("results",),
             )
-        return Submission(
-            path.parent, None, _read_csv(results, "--results"), None, path.resolve(), {}, None
-        )
+        sites = _read_csv(results, "results", parameters=("results",))
+        return Submission(path.parent, None, sites, None, path.resolve(), {}, None)
     if not path.is_dir():
         raise InputFileError(f"{path}: no such submission folder or scenario file")
     record_path = path / "run.json"

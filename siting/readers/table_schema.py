@@ -44,17 +44,65 @@ class _Row(_Strict):
 
 
 class FactorRow(_Row):
+    """A [[factor]] row of emission_factors.toml: the ammonia emitted per animal place.
+
+    Attributes
+    ----------
+    livestock, housing : str
+        The animal category and housing system the factor is for (a unique pair).
+    nh3_kg_per_place_yr : float
+        Emission factor [kg NH3 place-1 yr-1], >= 0.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     livestock: Text
     housing: Text
     nh3_kg_per_place_yr: NonNegative
 
 
 class Uncertainty(_Strict):
+    """The [uncertainty] table of emission_factors.toml: the sensitivity's +-u on every factor.
+
+    Attributes
+    ----------
+    emission_factor_percent : float
+        Relative uncertainty of the factors [%], in (0, 100).
+    source : str
+        Where the figure comes from; never empty.
+    """
+
     emission_factor_percent: Annotated[float, Field(gt=0, lt=100)]
     source: Text
 
 
 class TechniqueRow(_Row):
+    """A [[technique]] row of abatement.toml: an abatement technique and its published range.
+
+    An older table's ``reduction_percent_default`` is read as ``reduction_percent_typical``;
+    without either, the typical figure is the range's lower end.
+
+    Attributes
+    ----------
+    id, name : str
+        The technique's id (as a scenario names it) and its name in words.
+    kind : {"scrubber", "housing_measure"}
+        A scrubber (its removed ammonia ends in the effluent) or a housing measure.
+    reduction_percent_min, reduction_percent_max : float
+        The published range of the reduction [%], min <= max <= 100; the min is used when a
+        scenario states no reduction.
+    reduction_percent_typical : float, optional
+        A typical figure [%], for information, within the range.
+    effluent_kg_n_per_m3 : float, optional
+        Nitrogen content of a scrubber's effluent [kg N m-3], >= 0.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     id: Text
     name: Text
     kind: Literal["scrubber", "housing_measure"]
@@ -87,6 +135,28 @@ class TechniqueRow(_Row):
 
 
 class HabitatRow(_Row):
+    """A [[habitat]] row of critical_loads.toml: a habitat type and its critical-load ranges.
+
+    Attributes
+    ----------
+    id, name : str
+        The habitat's id (as a habitat layer names it) and its name in words.
+    critical_load_min_kg_n_ha_yr, critical_load_max_kg_n_ha_yr : float
+        The 2011 review's range [kg N ha-1 yr-1], > 0, min <= max.
+    land_cover : str
+        Land cover (deposition_velocities.toml id) giving the site's deposition velocity.
+    lichens_bryophytes : bool
+        Whether lichens and bryophytes are important in the habitat (the level's wording only).
+    critical_load_2022_min_kg_n_ha_yr, critical_load_2022_max_kg_n_ha_yr : float, optional
+        The 2022 review's range [kg N ha-1 yr-1]; both with ``source_2022`` or none.
+    source_2022 : str, optional
+        The 2022 range's source.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     id: Text
     name: Text
     critical_load_min_kg_n_ha_yr: Positive
@@ -124,11 +194,41 @@ class HabitatRow(_Row):
 
 
 class LevelRow(_Row):
+    """A [[level]] row of critical_levels.toml: an ammonia critical level.
+
+    Attributes
+    ----------
+    id : str
+        "lichens_bryophytes" or "higher_plants".
+    critical_level_ug_m3 : float
+        The annual-mean critical level [ug NH3 m-3], > 0.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     id: Text
     critical_level_ug_m3: Positive
 
 
 class LandCoverRow(_Row):
+    """A [[land_cover]] row of deposition_velocities.toml: a dry deposition velocity and its range.
+
+    Attributes
+    ----------
+    id : str
+        The land cover's id.
+    deposition_velocity_m_s : float
+        The screening value [m s-1], > 0.
+    deposition_velocity_min_m_s, deposition_velocity_max_m_s : float
+        The range the sensitivity looks across [m s-1], min <= value <= max.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     id: Text
     deposition_velocity_m_s: Positive
     deposition_velocity_min_m_s: Positive
@@ -150,6 +250,24 @@ class LandCoverRow(_Row):
 
 
 class TierRow(_Row):
+    """A [[tier]] row of thresholds.toml: a screening threshold and the designations it applies to.
+
+    Attributes
+    ----------
+    id : str
+        The tier's id ("international", "national", "local", ...).
+    name : str, optional
+        The tier in words.
+    threshold_percent : float
+        Screening threshold [% of the critical level or load], in (0, 100].
+    designations : list of str
+        Designation names found in habitat layers (matched case-insensitively); at least one.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     id: Text
     name: Text | None = None
     threshold_percent: Annotated[float, Field(gt=0, le=100)]
@@ -157,12 +275,36 @@ class TierRow(_Row):
 
 
 class Coefficients(_Strict):
+    """Briggs coefficients (a, b, c) of sigma = a x (1 + b x)^c, x in metres.
+
+    Attributes
+    ----------
+    a, b, c : float
+        a [-], b [m-1], c [-].
+    """
+
     a: Number
     b: Number
     c: Number
 
 
 class BriggsRow(_Row):
+    """A [[briggs]] row of dispersion.toml: Briggs (1973) sigma coefficients for one class.
+
+    Attributes
+    ----------
+    land_type : {"rural", "urban"}
+        The land type the row is for.
+    stability : {"A", "B", "C", "D", "E", "F"}
+        The Pasquill class.
+    sigma_y, sigma_z : Coefficients
+        The lateral and vertical coefficients.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     land_type: Literal["rural", "urban"]
     stability: STABILITY
     sigma_y: Coefficients
@@ -170,11 +312,38 @@ class BriggsRow(_Row):
 
 
 class PasquillSigmaY(_Strict):
+    """Pasquill-Gifford sigma_y curve fit (c, d) of one class: theta = c - d ln(x [km]) [deg].
+
+    Attributes
+    ----------
+    c : float
+        [deg], > 0.
+    d : float
+        [deg].
+    """
+
     c: Positive
     d: Number
 
 
 class PasquillGiffordRow(_Row):
+    """A [[pasquill_gifford]] row of dispersion.toml: the rural curve fits of one class.
+
+    Attributes
+    ----------
+    stability : {"A", "B", "C", "D", "E", "F"}
+        The Pasquill class.
+    sigma_y : PasquillSigmaY
+        The lateral curve fit.
+    sigma_z_bands : list of list of float
+        Bands of [upper end of the band's distance range [km], a, b] of sigma_z = a x^b [m],
+        x [km]; at least one.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     stability: STABILITY
     sigma_y: PasquillSigmaY
     # each band: [upper end of the band's distance range in km, a, b] of sigma_z = a x^b
@@ -184,37 +353,115 @@ class PasquillGiffordRow(_Row):
 
 
 class WindExponentRow(_Row):
+    """A [[wind_exponent]] row of dispersion.toml: power-law wind-profile exponents of one class.
+
+    Attributes
+    ----------
+    stability : {"A", "B", "C", "D", "E", "F"}
+        The Pasquill class.
+    rural, urban : float
+        The exponent p [-] for each land type, 0..1.
+    source : str
+        The publication (short key, table or page) and its status; never empty.
+    **extra_data
+        Other keys of the row, for people (a description, a EUNIS code): kept, not checked.
+    """
+
     stability: STABILITY
     rural: Annotated[float, Field(ge=0, le=1)]
     urban: Annotated[float, Field(ge=0, le=1)]
 
 
 class EmissionFactorsFile(_Strict):
+    """emission_factors.toml: the emission factors and their uncertainty.
+
+    Attributes
+    ----------
+    factor : list of FactorRow
+        One or more rows; each livestock and housing pair once.
+    uncertainty : Uncertainty, optional
+        The factors' relative uncertainty, for the sensitivity.
+    """
+
     factor: Annotated[list[FactorRow], Field(min_length=1)]
     uncertainty: Uncertainty | None = None
 
 
 class AbatementFile(_Strict):
+    """abatement.toml: the abatement techniques.
+
+    Attributes
+    ----------
+    technique : list of TechniqueRow
+        One or more rows, unique ids.
+    """
+
     technique: Annotated[list[TechniqueRow], Field(min_length=1)]
 
 
 class CriticalLoadsFile(_Strict):
+    """critical_loads.toml: the habitat types and their critical loads.
+
+    Attributes
+    ----------
+    habitat : list of HabitatRow
+        One or more rows, unique ids.
+    """
+
     habitat: Annotated[list[HabitatRow], Field(min_length=1)]
 
 
 class CriticalLevelsFile(_Strict):
+    """critical_levels.toml: the ammonia critical levels.
+
+    Attributes
+    ----------
+    level : list of LevelRow
+        One or more rows, unique ids.
+    """
+
     level: Annotated[list[LevelRow], Field(min_length=1)]
 
 
 class DepositionVelocitiesFile(_Strict):
+    """deposition_velocities.toml: the dry deposition velocities by land cover.
+
+    Attributes
+    ----------
+    land_cover : list of LandCoverRow
+        One or more rows, unique ids.
+    """
+
     land_cover: Annotated[list[LandCoverRow], Field(min_length=1)]
 
 
 class ThresholdsFile(_Strict):
+    """thresholds.toml: the screening thresholds by designation tier.
+
+    Attributes
+    ----------
+    tier : list of TierRow
+        One or more rows, unique ids.
+    """
+
     tier: Annotated[list[TierRow], Field(min_length=1)]
 
 
 class DispersionFile(_Strict):
+    """dispersion.toml: dispersion coefficients and wind-profile exponents.
+
+    Every section covers the six classes A-F (the Briggs rows for both land types).
+
+    Attributes
+    ----------
+    briggs : list of BriggsRow
+        Briggs (1973) coefficients, rural and urban.
+    pasquill_gifford : list of PasquillGiffordRow
+        Pasquill-Gifford curve fits (rural).
+    wind_exponent : list of WindExponentRow
+        Wind-profile exponents.
+    """
+
     briggs: Annotated[list[BriggsRow], Field(min_length=1)]
     pasquill_gifford: Annotated[list[PasquillGiffordRow], Field(min_length=1)]
     wind_exponent: Annotated[list[WindExponentRow], Field(min_length=1)]
@@ -327,8 +574,31 @@ def _first_repeat(keys) -> int | None:
 
 
 def validate_table(name: str, raw: dict, filename: str) -> dict:
-    """The table's data checked and normalised (rows as plain dicts, whole numbers as floats,
-    optional keys that are absent left out), or an InputError naming file, row and key."""
+    """The table's data checked and normalised, or an InputError naming file, row and key.
+
+    Rows come back as plain dicts, whole numbers as floats, optional keys that are absent left
+    out.
+
+    Parameters
+    ----------
+    name : str
+        The table's name, a key of ``SCHEMAS`` ("emission_factors", "abatement", ...).
+    raw : dict
+        The table as read from its TOML file.
+    filename : str
+        The file's name, for messages.
+
+    Returns
+    -------
+    dict
+        Section name -> list of rows (or a table), as the model dumps it.
+
+    Raises
+    ------
+    InputError
+        A missing section, row or key, a wrong type, NaN or inf, a value out of range, an
+        empty source, or a repeated id (or livestock and housing pair).
+    """
     _, model, id_key = SCHEMAS[name]
     try:
         table = model.model_validate(raw)

@@ -34,7 +34,20 @@ TABLE_FILES = {
 
 
 def suggest(name: str, choices) -> str:
-    """'; did you mean "x"?' for the closest choice, or an empty string."""
+    """'; did you mean "x"?' for the closest choice, or an empty string.
+
+    Parameters
+    ----------
+    name : str
+        What the user wrote.
+    choices : iterable
+        The known names.
+
+    Returns
+    -------
+    str
+        The suggestion, ready to append to a message; "" when nothing is close.
+    """
     close = difflib.get_close_matches(str(name), [str(c) for c in choices], n=1, cutoff=0.6)
     return f'; did you mean "{close[0]}"?' if close else ""
 
@@ -51,7 +64,31 @@ def _read_toml(path: Path) -> dict:
 
 @dataclass(frozen=True)
 class Tables:
-    """All lookup tables of a run, with the file each came from and its SHA-256."""
+    """All lookup tables of a run, with the file each came from and its SHA-256.
+
+    Attributes
+    ----------
+    folder : Path
+        The folder the tables were read from.
+    emission_factors : list of dict
+        Rows of emission_factors.toml [[factor]].
+    abatement : dict of str to dict
+        Rows of abatement.toml by technique id.
+    critical_loads : dict of str to dict
+        Rows of critical_loads.toml by habitat id.
+    critical_levels : dict of str to dict
+        Rows of critical_levels.toml by id.
+    deposition_velocities : dict of str to dict
+        Rows of deposition_velocities.toml by land-cover id.
+    thresholds : list of dict
+        Rows of thresholds.toml [[tier]].
+    dispersion : dict
+        dispersion.toml, checked.
+    files_sha256 : dict of str to str
+        SHA-256 of each table file, by file name.
+    emission_factor_uncertainty : dict, optional
+        emission_factors.toml [uncertainty]: {"emission_factor_percent", "source"}, or None.
+    """
 
     folder: Path
     emission_factors: list[dict]
@@ -66,7 +103,25 @@ class Tables:
     emission_factor_uncertainty: dict | None = None
 
     def factor(self, livestock: str, housing: str, where: str) -> dict:
-        """The emission-factor row for a livestock category and housing system."""
+        """The emission-factor row for a livestock category and housing system.
+
+        Parameters
+        ----------
+        livestock, housing : str
+            The category and system, as a scenario names them.
+        where : str
+            Names the source in messages.
+
+        Returns
+        -------
+        dict
+            The [[factor]] row (``nh3_kg_per_place_yr`` [kg NH3 place-1 yr-1], source).
+
+        Raises
+        ------
+        InputError
+            Unknown livestock, or a housing system not listed for it (with a suggestion).
+        """
         categories = sorted({r["livestock"] for r in self.emission_factors})
         if livestock not in categories:
             raise InputError(
@@ -83,6 +138,25 @@ class Tables:
         )
 
     def technique(self, technique_id: str, where: str) -> dict:
+        """The abatement row of a technique id.
+
+        Parameters
+        ----------
+        technique_id : str
+            As a scenario names it.
+        where : str
+            Names the source in messages.
+
+        Returns
+        -------
+        dict
+            The [[technique]] row (reduction range [%], kind, source).
+
+        Raises
+        ------
+        InputError
+            Unknown technique (with a suggestion).
+        """
         if technique_id not in self.abatement:
             raise InputError(
                 f'{where}: unknown abatement "{technique_id}"'
@@ -92,11 +166,35 @@ class Tables:
         return self.abatement[technique_id]
 
     def sigma_scheme(self, land_type: str, kind: str = "briggs") -> SigmaScheme:
-        """Dispersion coefficients of this run's dispersion table."""
+        """Dispersion coefficients of this run's dispersion table.
+
+        Parameters
+        ----------
+        land_type : {"rural", "urban"}
+            The land type.
+        kind : {"briggs", "pasquill_gifford"}
+            The formulas.
+
+        Returns
+        -------
+        SigmaScheme
+            As :func:`sigma_scheme` gives it.
+        """
         return sigma_scheme(self.dispersion, land_type, kind)
 
     def wind_exponents(self, land_type: str) -> np.ndarray:
-        """Power-law exponents A..F of this run's dispersion table."""
+        """Power-law exponents A..F of this run's dispersion table.
+
+        Parameters
+        ----------
+        land_type : {"rural", "urban"}
+            The land type.
+
+        Returns
+        -------
+        ndarray, (6,)
+            The exponents p [-].
+        """
         return wind_exponents(self.dispersion, land_type)
 
 
@@ -105,6 +203,20 @@ def sigma_scheme(dispersion: dict, land_type: str, kind: str = "briggs") -> Sigm
 
     kind "briggs" takes the Briggs (1973) rows of ``land_type``; kind "pasquill_gifford" the
     rural Pasquill-Gifford curve fits.
+
+    Parameters
+    ----------
+    dispersion : dict
+        A checked dispersion table (:func:`load_dispersion`).
+    land_type : {"rural", "urban"}
+        The land type (Briggs only).
+    kind : {"briggs", "pasquill_gifford"}
+        The formulas.
+
+    Returns
+    -------
+    SigmaScheme
+        The coefficients per class A..F.
     """
     if kind == "briggs":
         rows = {r["stability"]: r for r in dispersion["briggs"] if r["land_type"] == land_type}
@@ -118,13 +230,44 @@ def sigma_scheme(dispersion: dict, land_type: str, kind: str = "briggs") -> Sigm
 
 
 def wind_exponents(dispersion: dict, land_type: str) -> np.ndarray:
-    """Power-law wind-profile exponents p for classes A..F."""
+    """Power-law wind-profile exponents p for classes A..F.
+
+    Parameters
+    ----------
+    dispersion : dict
+        A checked dispersion table.
+    land_type : {"rural", "urban"}
+        The land type.
+
+    Returns
+    -------
+    ndarray, (6,)
+        The exponents p [-].
+    """
     rows = {r["stability"]: r for r in dispersion["wind_exponent"]}
     return np.array([float(rows[s][land_type]) for s in STABILITY_CLASSES])
 
 
 def load_dispersion(folder: Path | None = None) -> dict:
-    """The dispersion table alone (checked), for users of the physics without a scenario."""
+    """The dispersion table alone (checked), for users of the physics without a scenario.
+
+    Parameters
+    ----------
+    folder : Path, optional
+        A folder holding dispersion.toml; default the bundled config/.
+
+    Returns
+    -------
+    dict
+        The checked table (:func:`siting.readers.table_schema.validate_table`).
+
+    Raises
+    ------
+    InputFileError
+        dispersion.toml is missing.
+    InputError
+        The table is not valid TOML or fails its checks.
+    """
     path = (Path(folder) if folder is not None else config_dir()) / TABLE_FILES["dispersion"][0]
     return validate_table("dispersion", _read_toml(path), path.name)
 
@@ -134,20 +277,64 @@ def default_reduction_percent(technique: dict) -> float:
 
     The cautious reading of a range: a higher figure is the user's claim, to be stated with its
     basis (``reduction_percent`` with ``reduction_basis``) and checked by ``siting verify``.
+
+    Parameters
+    ----------
+    technique : dict
+        The technique's row of abatement.toml.
+
+    Returns
+    -------
+    float
+        ``reduction_percent_min`` [%].
     """
     return float(technique["reduction_percent_min"])
 
 
 def is_claimed_reduction(reduction_percent: float | None, technique: dict) -> bool:
-    """Whether a stated reduction lies above the range's lower end: the user's claim, shown with
-    its basis and raised by ``siting verify`` (None, no stated figure, is no claim)."""
+    """Whether a stated reduction lies above the range's lower end.
+
+    Such a figure is the user's claim, shown with its basis and raised by ``siting verify``
+    (None, no stated figure, is no claim).
+
+    Parameters
+    ----------
+    reduction_percent : float or None
+        The scenario's reduction [%], or None.
+    technique : dict
+        The technique's row of abatement.toml.
+
+    Returns
+    -------
+    bool
+        True for a figure above the range's lower end.
+    """
     return reduction_percent is not None and reduction_percent > default_reduction_percent(
         technique
     )
 
 
 def load_tables(folder: Path | None = None) -> Tables:
-    """Read and check every lookup table from ``folder`` (default: the bundled config/)."""
+    """Read and check every lookup table from ``folder`` (default: the bundled config/).
+
+    Parameters
+    ----------
+    folder : Path, optional
+        A folder holding all seven tables; default the bundled config/.
+
+    Returns
+    -------
+    Tables
+        Every table checked, with the SHA-256 of its file.
+
+    Raises
+    ------
+    InputFileError
+        A table file is missing.
+    InputError
+        A table fails its checks, or the tables disagree (a habitat's land cover without a
+        deposition velocity, a missing critical level).
+    """
     folder = Path(folder) if folder is not None else config_dir()
     data, hashes = {}, {}
     for name, (filename, _) in TABLE_FILES.items():

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import math
 import time
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -31,7 +32,7 @@ from siting.dispersion.placement import (
     share_of_threshold,
     site_maxima,
 )
-from siting.errors import InputError
+from siting.errors import InputError, InputWarning, collecting_warnings
 from siting.physics.constants import KG_YR_TO_G_S, UG_NH3_M2_S_TO_KG_N_HA_YR
 from siting.readers.habitats import read_vector_layer, site_outline_points
 from siting.readers.scenario import Scenario, load_scenario
@@ -43,7 +44,36 @@ MAX_CANDIDATES = 200_000
 
 @dataclass
 class PlaceResult:
-    """Everything a placement search produced, in memory."""
+    """Everything a placement search produced, in memory.
+
+    Attributes
+    ----------
+    prepared : Prepared
+        The scenario's inputs, read and checked.
+    house_id : str
+        The source placed.
+    positions : pandas.DataFrame
+        Every allowed position, best first (positions.csv): x, y [m], worst site, worst % of
+        critical load and level, required reduction [%], max places.
+    grid : GridSpec
+        The grid of candidate positions.
+    suitability_pct_load : ndarray, (n_rows, n_cols)
+        Worst % of critical load by house position; NaN where it may not go.
+    share_of_threshold : ndarray, (n_rows, n_cols)
+        Worst share of a site's threshold by house position [-]; NaN where it may not go.
+    allowed_area : shapely geometry
+        Where the house's centre may go.
+    holding : shapely geometry
+        The holding boundary.
+    options : list of dict
+        The abatement options of abatement.toml, for the max-places columns.
+    by_site : dict of str to ndarray
+        Per position (ranked order) and site: % of critical level and load.
+    warnings : list of str
+        Legal but doubtful input.
+    timings_s : dict
+        Seconds by phase, and counts (positions, site points).
+    """
 
     prepared: Prepared
     house_id: str
@@ -68,7 +98,7 @@ def _read_polygons(path: Path, layer: str | None, crs: str, what: str):
     return shapely.make_valid(shapely.union_all(geoms.to_numpy())), gdf
 
 
-def _allowed_area(scenario: Scenario, house_id: str, prep: Prepared, warnings: list[str]):
+def _allowed_area(scenario: Scenario, house_id: str, prep: Prepared):
     import shapely
 
     cfg = scenario.holding
@@ -153,7 +183,10 @@ def _house_of(scenario: Scenario, house_id: str):
         )
     ids = [s.id for s in scenario.sources]
     if house_id not in ids:
-        raise InputError(f'--house "{house_id}": no such source (sources: {", ".join(ids)})')
+        raise InputError(
+            f'house_id "{house_id}": no such source (sources: {", ".join(ids)})',
+            parameters=("house_id",),
+        )
     return scenario.sources[ids.index(house_id)]
 
 
@@ -186,7 +219,7 @@ def _other_sources_ug_m3(prep: Prepared, house_id: str, px, py, p_site) -> np.nd
     return other_conc
 
 
-def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy, warnings):
+def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy):
     """The candidate positions with their worst sites, required reduction, most places and
     whether they pass as described, best first; and the per-site % of level and load (rows
     in the table's order) and each position's largest share of its threshold."""
@@ -229,9 +262,11 @@ def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy, warnin
                 house.places, unabated_share, other_share, default_reduction_percent(option)
             )
     else:
-        warnings.append(
+        warnings.warn(
             f'source "{house.id}" gives nh3_kg_per_year, not places: the '
-            "max-places columns are left out"
+            "max-places columns are left out",
+            InputWarning,
+            stacklevel=2,
         )
     table["limiting_site"] = names[limiting]
     table["limiting_share_of_threshold"] = share[rows, limiting]
@@ -244,6 +279,7 @@ def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy, warnin
     return table, by_site, pct_load.max(axis=1), share.max(axis=1)
 
 
+@collecting_warnings
 def place(
     scenario: Scenario | str | Path,
     house_id: str,
@@ -253,9 +289,33 @@ def place(
 ) -> PlaceResult:
     """Search the holding for positions of source ``house_id`` (its x/y are ignored).
 
+    The Python call behind ``siting place``; write its files with
+    :func:`siting.output.place.write_place_outputs`.
+
     The steps: the house and the allowed area (:func:`_allowed_area`), candidate positions,
     each site's maximum from the house anywhere (:func:`_unit_site_maxima`) and from the other
     sources (:func:`_other_sources_ug_m3`), and the table of positions (:func:`_position_table`).
+
+    Parameters
+    ----------
+    scenario : Scenario, str or Path
+        A loaded scenario with a [holding] table, or its file.
+    house_id : str
+        The [[source]] to place; its footprint must fit inside the allowed area.
+    spacing_m : float, optional
+        Spacing of the candidate positions [m]; default the holding's ``spacing_m``.
+    in_combination : bool, optional
+        Add the other sources' contribution; default the holding's ``in_combination``.
+
+    Returns
+    -------
+    PlaceResult
+        Every allowed position ranked, the suitability surface and warnings.
+
+    Raises
+    ------
+    InputError
+        No [holding] table, no such source, no allowed position, or a fault in an input.
     """
     clock = {"start": time.perf_counter()}
     if not isinstance(scenario, Scenario):
@@ -265,8 +325,7 @@ def place(
     spacing_m = spacing_m or cfg.spacing_m
     in_combination = cfg.in_combination if in_combination is None else in_combination
     prep = prepare(scenario)
-    warnings = list(prep.warnings)
-    holding, allowed = _allowed_area(scenario, house_id, prep, warnings)
+    holding, allowed = _allowed_area(scenario, house_id, prep)
     origin_house = house.model_copy(update={"x": 0.0, "y": 0.0})
     elements0, shape0 = _source_elements(origin_house)
     cx, cy, grid, row, col = _candidates(allowed, shape0, spacing_m, house_id)
@@ -283,7 +342,7 @@ def place(
         else np.zeros(len(prep.sites))
     )
     table, by_site, worst_load, worst_share = _position_table(
-        prep, house, unit_conc, other_conc, cx, cy, warnings
+        prep, house, unit_conc, other_conc, cx, cy
     )
     surface = np.full((grid.n_rows, grid.n_cols), np.nan)
     surface[row, col] = worst_load
@@ -309,6 +368,6 @@ def place(
         holding,
         list(prep.tables.abatement.values()),
         by_site,
-        warnings,
+        [],  # filled by @collecting_warnings
         timings,
     )

@@ -34,6 +34,7 @@ from __future__ import annotations
 import math
 import os
 import time
+import warnings
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -54,7 +55,14 @@ from siting.dispersion.convolution import (
 )
 from siting.dispersion.grid import GridSpec, grid_around
 from siting.dispersion.sector import DispersionSettings
-from siting.errors import InputError, InputFileError, SitingError
+from siting.errors import (
+    AccuracyWarning,
+    InputError,
+    InputFileError,
+    InputWarning,
+    SitingError,
+    collecting_warnings,
+)
 from siting.output.records import _layer_files
 from siting.physics import assess
 from siting.physics.constants import UG_PER_G, deposition_kg_n_ha_yr, kg_per_year_to_g_s
@@ -162,46 +170,77 @@ class RegionOptions:
     wind_below_anemometer: str = "power_law"
 
     def check(self) -> None:
-        """Raise InputError for a value out of range (names the CLI option)."""
-        if not 0 < self.spacing_m <= 5000:
-            raise InputError(f"--spacing must be in (0, 5000] m, got {self.spacing_m:g}")
-        if not self.spacing_m <= self.margin_m <= 100_000:
-            raise InputError(
-                f"--margin must be at least the spacing ({self.spacing_m:g} m) and "
-                f"at most 100000 m, got {self.margin_m:g}"
-            )
-        if self.tile_size is not None and self.tile_size < 16:
-            raise InputError(f"--tile-size must be >= 16 cells, got {self.tile_size}")
-        if not 0 < self.memory_mb < math.inf:
-            raise InputError(f"--memory-mb must be a finite number > 0, got {self.memory_mb:g}")
+        """Raise InputError for a value out of range (naming the option, in ``parameters``)."""
         physical = _physical_memory_mb()
-        if physical and self.memory_mb > physical:
-            raise InputError(
-                f"--memory-mb {self.memory_mb:g} is more than this machine has "
-                f"({physical:,.0f} MB); give at most that"
-            )
-        if self.workers is not None and self.workers < 1:
-            raise InputError(f"--workers must be >= 1, got {self.workers}")
-        if self.reach_m is not None and not self.spacing_m <= self.reach_m < math.inf:
-            raise InputError(
-                f"--reach-m must be a finite distance at least the spacing, got {self.reach_m:g}"
-            )
-        if self.top < 1:
-            raise InputError(f"--top must be >= 1, got {self.top}")
-        if not 0 < self.anemometer_height_m <= 300:  # NaN and inf fail too
-            raise InputError(
-                f"--anemometer-height must be in (0, 300] m, got {self.anemometer_height_m:g}"
-            )
-        if not 0 < self.min_wind_speed_m_s <= 5:
-            raise InputError(
-                f"minimum wind speed must be in (0, 5] m/s, got {self.min_wind_speed_m_s:g}"
-            )
-        if self.land_type not in ("rural", "urban"):
-            raise InputError(f"--land-type must be rural or urban, got {self.land_type!r}")
-        if self.placement not in ("bilinear", "nearest"):
-            raise InputError(f"placement must be bilinear or nearest, got {self.placement!r}")
-        if not 0 <= self.near_field_cells <= 100:
-            raise InputError(f"--near-field must be in 0..100 cells, got {self.near_field_cells}")
+        checks = (
+            (
+                "spacing_m",
+                0 < self.spacing_m <= 5000,
+                f"must be in (0, 5000] m, got {self.spacing_m:g}",
+            ),
+            (
+                "margin_m",
+                self.spacing_m <= self.margin_m <= 100_000,
+                f"must be at least the spacing ({self.spacing_m:g} m) and at most 100000 m, "
+                f"got {self.margin_m:g}",
+            ),
+            (
+                "tile_size",
+                self.tile_size is None or self.tile_size >= 16,
+                f"must be >= 16 cells, got {self.tile_size}",
+            ),
+            (
+                "memory_mb",
+                0 < self.memory_mb < math.inf,
+                f"must be a finite number > 0, got {self.memory_mb:g}",
+            ),
+            (
+                "memory_mb",
+                not physical or self.memory_mb <= physical,
+                f"{self.memory_mb:g} is more than this machine has ({physical or 0:,.0f} MB); "
+                "give at most that",
+            ),
+            (
+                "workers",
+                self.workers is None or self.workers >= 1,
+                f"must be >= 1, got {self.workers}",
+            ),
+            (
+                "reach_m",
+                self.reach_m is None or self.spacing_m <= self.reach_m < math.inf,
+                "must be a finite distance at least the spacing, got "
+                + (f"{self.reach_m:g}" if self.reach_m is not None else ""),
+            ),
+            ("top", self.top >= 1, f"must be >= 1, got {self.top}"),
+            (
+                "anemometer_height_m",
+                0 < self.anemometer_height_m <= 300,  # NaN and inf fail too
+                f"must be in (0, 300] m, got {self.anemometer_height_m:g}",
+            ),
+            (
+                "min_wind_speed_m_s",
+                0 < self.min_wind_speed_m_s <= 5,
+                f"must be in (0, 5] m/s, got {self.min_wind_speed_m_s:g}",
+            ),
+            (
+                "land_type",
+                self.land_type in ("rural", "urban"),
+                f"must be rural or urban, got {self.land_type!r}",
+            ),
+            (
+                "placement",
+                self.placement in ("bilinear", "nearest"),
+                f"must be bilinear or nearest, got {self.placement!r}",
+            ),
+            (
+                "near_field_cells",
+                0 <= self.near_field_cells <= 100,
+                f"must be in 0..100 cells, got {self.near_field_cells}",
+            ),
+        )
+        for name, ok, wrong in checks:  # in this order: the first fault is the one reported
+            if not ok:
+                raise InputError(f"{name} {wrong}", parameters=(name,))
 
 
 def _physical_memory_mb() -> float | None:
@@ -214,7 +253,19 @@ def _physical_memory_mb() -> float | None:
 
 @dataclass(frozen=True)
 class FarmFields:
-    """Which attribute of the farms layer holds what (None: the default name if present)."""
+    """Which attribute of the farms layer holds what (None: the default name if present).
+
+    Attributes
+    ----------
+    id_field : str, optional
+        The farm's id (default ``id``; else the feature number).
+    emission_field : str, optional
+        Annual emission before abatement [kg NH3 yr-1] (default ``nh3_kg_per_year``).
+    height_field : str, optional
+        Release height [m] (default ``height_m``).
+    layer : str, optional
+        The layer of a multi-layer file.
+    """
 
     id_field: str | None = None
     emission_field: str | None = None
@@ -226,7 +277,7 @@ class FarmFields:
 
 
 _CRS_FIX = (
-    "give --crs with a projected CRS in metres, e.g. the UTM zone of the region (EPSG:326xx north)"
+    "give crs with a projected CRS in metres, e.g. the UTM zone of the region (EPSG:326xx north)"
 )
 
 
@@ -256,7 +307,7 @@ def _numbers(
 
 def read_farms(
     path: Path, tables: Tables, fields: FarmFields = FarmFields(), crs: str | None = None
-) -> tuple[pd.DataFrame, str, list[str]]:
+) -> tuple[pd.DataFrame, str]:
     """Read the farms layer: one source per feature, with its emission and release class.
 
     Parameters
@@ -282,7 +333,11 @@ def read_farms(
         farm_id, kind, x_m, y_m, release_height_m, footprint_area_m2, nh3_kg_yr, emission_g_s,
         emission_from, release_class (a ReleaseClass).
     crs : str
-    warnings : list of str
+
+    Warns
+    -----
+    InputWarning
+        The layer has no id field (farms are named by feature number).
 
     Raises
     ------
@@ -295,21 +350,21 @@ def read_farms(
     gdf, crs = _open_farms(path, name, fields.layer, crs)
     columns = [c for c in gdf.columns if c != "geometry"]
     # the checks run in this order, so the first fault reported stays the same
-    id_col = _field_name(name, columns, "--id-field", fields.id_field, "id")
-    ids, warnings = _farm_ids(gdf, id_col, name)
+    id_col = _field_name(name, columns, "id_field", fields.id_field, "id")
+    ids = _farm_ids(gdf, id_col, name)
     frame = _farm_positions(gdf, ids, name)
     nh3_kg_yr, emission_from = _farm_emissions(gdf, ids, name, columns, tables, fields)
     frame["nh3_kg_yr"] = nh3_kg_yr
     frame["emission_from"] = emission_from
     frame["emission_g_s"] = kg_per_year_to_g_s(frame["nh3_kg_yr"].to_numpy(float))
-    height_col = _field_name(name, columns, "--height-field", fields.height_field, "height_m")
+    height_col = _field_name(name, columns, "height_field", fields.height_field, "height_m")
     heights = _release_heights(gdf, frame["kind"], ids, name, height_col)
     frame["release_height_m"] = heights
     frame["release_class"] = [
         release_class(k, h, a)
         for k, h, a in zip(frame["kind"], heights, frame["footprint_area_m2"])
     ]
-    return frame, crs, warnings
+    return frame, crs
 
 
 def _open_farms(path: Path, name: str, layer: str | None, crs: str | None):
@@ -322,9 +377,9 @@ def _open_farms(path: Path, name: str, layer: str | None, crs: str | None):
         raise InputFileError(f"{name}: not found ({path})")
     gdf = read_vector_layer(path, layer, "farms layer")
     if crs is None:
-        crs = projected_crs(gdf.crs, name, _CRS_FIX)
+        crs = projected_crs(gdf.crs, name, _CRS_FIX, key="CRS", parameters=("crs",))
     else:
-        crs = projected_crs(crs, "--crs", _CRS_FIX)
+        crs = projected_crs(crs, "crs", _CRS_FIX, key="CRS", parameters=("crs",))
         gdf = gdf.to_crs(crs)
     return gdf, crs
 
@@ -332,25 +387,29 @@ def _open_farms(path: Path, name: str, layer: str | None, crs: str | None):
 def _field_name(
     name: str, columns: list[str], option: str, given: str | None, default: str
 ) -> str | None:
-    """The layer field an option names (InputError if there is no such field), else the
-    default name where the layer has it, else None."""
+    """The layer field an option (a FarmFields parameter) names (InputError if there is no
+    such field), else the default name where the layer has it, else None."""
     if given is not None and given not in columns:
         raise InputError(
             f'{name}: {option} "{given}": no such field{suggest(given, columns)} '
-            f"(fields: {', '.join(columns) or 'none'})"
+            f"(fields: {', '.join(columns) or 'none'})",
+            parameters=(option,),
         )
     return given if given is not None else (default if default in columns else None)
 
 
-def _farm_ids(gdf, id_col: str | None, name: str) -> tuple[list[str], list[str]]:
-    """Each farm's id (from ``id_col``, else F1, F2, ... with a warning) and the warnings.
+def _farm_ids(gdf, id_col: str | None, name: str) -> list[str]:
+    """Each farm's id (from ``id_col``, else F1, F2, ... with an InputWarning).
 
     Raises InputError for an id used twice.
     """
-    warnings: list[str] = []
     if id_col is None:
         ids = [f"F{i}" for i in range(1, len(gdf) + 1)]
-        warnings.append(f'{name}: no "id" field; farms are named by feature number (F1, F2, ...)')
+        warnings.warn(
+            f'{name}: no "id" field; farms are named by feature number (F1, F2, ...)',
+            InputWarning,
+            stacklevel=3,
+        )
     else:
         ids = [str(v) for v in gdf[id_col]]
         seen: set[str] = set()
@@ -358,7 +417,7 @@ def _farm_ids(gdf, id_col: str | None, name: str) -> tuple[list[str], list[str]]
             if farm_id in seen:
                 raise InputError(f'{name}: duplicate farm id "{farm_id}" in field {id_col}')
             seen.add(farm_id)
-    return ids, warnings
+    return ids
 
 
 def _farm_positions(gdf, ids: list[str], name: str) -> pd.DataFrame:
@@ -411,15 +470,16 @@ def _farm_emissions(
     has neither, or a farm has no emission, or a value is out of range.
     """
     emission_col = _field_name(
-        name, columns, "--emission-field", fields.emission_field, "nh3_kg_per_year"
+        name, columns, "emission_field", fields.emission_field, "nh3_kg_per_year"
     )
     can_derive = all(f in columns for f in DERIVATION_FIELDS)
     if emission_col is None and not can_derive:
         raise InputError(
             f'{name}: no emission field "{fields.emission_field or "nh3_kg_per_year"}"'
             " and no livestock, housing and places fields to derive one; give "
-            "--emission-field (kg NH3 per year) "
-            f"(fields: {', '.join(columns) or 'none'})"
+            "emission_field (kg NH3 per year) "
+            f"(fields: {', '.join(columns) or 'none'})",
+            parameters=("emission_field",),
         )
     given = (
         _numbers(gdf, emission_col, name, ids, 0.0, None, True)
@@ -509,7 +569,25 @@ def _read_sites(
 
 @dataclass(frozen=True)
 class TilePlan:
-    """How the grid is cut and what that needs in memory [bytes]."""
+    """How the grid is cut and what that needs in memory [bytes].
+
+    Attributes
+    ----------
+    tile_rows, tile_cols : int
+        Size of a tile [cells].
+    n_tiles : int
+        Tiles of the grid.
+    concurrent : int
+        Tasks running at once.
+    held_bytes : int
+        Held through the run: kernels, offset lattice, near-field corrections [bytes].
+    grid_bytes : int
+        One concentration grid, float64 [bytes].
+    tile_bytes : int
+        Working memory of one tile task [bytes].
+    task_bytes : int
+        Working memory of one kernel or site-point task [bytes].
+    """
 
     tile_rows: int
     tile_cols: int
@@ -532,8 +610,22 @@ class TilePlan:
 
 
 def engine_budget_mb(memory_mb: float, concurrent: int) -> float:
-    """Working memory of one engine call [MB] (DispersionSettings.memory_budget_mb): a tenth of
-    the budget shared by the tasks running at once, between 1 and 256 MB."""
+    """Working memory of one engine call [MB] (DispersionSettings.memory_budget_mb).
+
+    A tenth of the budget shared by the tasks running at once, between 1 and 256 MB.
+
+    Parameters
+    ----------
+    memory_mb : float
+        The run's memory budget [MB].
+    concurrent : int
+        Tasks running at once.
+
+    Returns
+    -------
+    float
+        [MB].
+    """
     return float(min(256.0, max(1.0, memory_mb / (10 * max(1, concurrent)))))
 
 
@@ -561,6 +653,32 @@ def plan_tiles(
     call and our own arrays). In the tile phase the concentration grid is held twice (tiles as
     returned, assembled grid). The whole grid is one tile when it fits; else the largest of
     TILE_SIZES that fits.
+
+    Parameters
+    ----------
+    n_rows, n_cols : int
+        Size of the grid [cells].
+    n_kernels : int
+        Release classes (one kernel each).
+    half_rows, half_cols : int
+        Half sizes of a kernel [cells].
+    budget_bytes : float
+        The run's memory budget [bytes].
+    concurrent : int
+        Tasks running at once.
+    engine_bytes : float
+        Working memory of one engine call [bytes].
+    tile_size : int, optional
+        A tile side asked for [cells]; None picks one.
+    n_farms : int
+        Farms (their near-field corrections are held).
+    window_cells : int
+        Half width of each farm's near-field window [cells].
+
+    Returns
+    -------
+    TilePlan
+        The tile size and the memory figures.
 
     Raises
     ------
@@ -598,13 +716,14 @@ def plan_tiles(
             return plan
     mb = 1e6
     raise InputError(
-        f"--memory-mb {budget_bytes / mb:g} is too small for this grid ({n_cols} x {n_rows} "
+        f"memory_mb {budget_bytes / mb:g} is too small for this grid ({n_cols} x {n_rows} "
         f"cells, {n_kernels} release class(es)): kernels and corrections {held / mb:.0f} MB, "
         f"grid {2 * grid / mb:.0f} MB, and {plan.concurrent} task(s) at once of "
         f"{max(plan.tile_bytes, plan.task_bytes) / mb:.0f} MB each (tiles of "
         f"{plan.tile_rows} x {plan.tile_cols} cells); need about {plan.peak_bytes / mb:.0f} "
-        "MB. Raise --memory-mb, use a coarser --spacing, fewer --workers, or --reach-m to "
-        "shorten the kernels"
+        "MB. Raise memory_mb, use a coarser spacing_m, fewer workers, or reach_m to "
+        "shorten the kernels",
+        parameters=("memory_mb", "spacing_m", "workers", "reach_m"),
     )
 
 
@@ -613,7 +732,35 @@ def plan_tiles(
 
 @dataclass
 class RegionInputs:
-    """Everything read and checked before any dispersion."""
+    """Everything read and checked before any dispersion.
+
+    Attributes
+    ----------
+    farms : pandas.DataFrame
+        One row per farm (:func:`read_farms`).
+    classes : list of ReleaseClass
+        The farms' distinct release classes.
+    crs : str
+        The projected CRS of the run.
+    grid : GridSpec
+        The regional grid.
+    weather : WeatherClasses
+        The frequency table.
+    weather_summary : dict
+        Its summary (:func:`siting.readers.frequency_table.read_frequency_table`).
+    settings : DispersionSettings
+        Dispersion settings.
+    sites : geopandas.GeoDataFrame or None
+        The habitat sites with their critical values; None without a habitat layer.
+    tables : Tables
+        The lookup tables.
+    options : RegionOptions
+        The run's settings.
+    input_files : dict of str to Path
+        Each input file by role, for the run record.
+    warnings : list of str
+        The messages of the SitingWarnings the reading raised, in order, each once.
+    """
 
     farms: pd.DataFrame
     classes: list[ReleaseClass]
@@ -630,16 +777,38 @@ class RegionInputs:
 
     @property
     def grid_land_cover(self) -> str:
+        """Land cover whose deposition velocity the grid cells use."""
         return LAND_COVER_GRID
 
     @property
     def grid_deposition_velocity_m_s(self) -> float:
+        """Deposition velocity of the grid cells [m s-1]."""
         return float(self.tables.deposition_velocities[LAND_COVER_GRID]["deposition_velocity_m_s"])
 
 
 @dataclass
 class RegionResult:
-    """A regional run in memory (see write_region_outputs)."""
+    """A regional run in memory (see write_region_outputs).
+
+    Attributes
+    ----------
+    inputs : RegionInputs
+        What was read.
+    concentration_ug_m3 : ndarray, (n_rows, n_cols)
+        Annual mean NH3 concentration of all farms together [ug m-3].
+    sites : geopandas.GeoDataFrame or None
+        Each site's figures (max and mean concentration and deposition, % of critical level
+        and load, verdict); None without a habitat layer.
+    contributors : pandas.DataFrame
+        Per site, the top farms at its point of maximum deposition.
+    plan : TilePlan
+        How the grid was tiled.
+    timings_s : dict
+        Seconds by phase, and counts (farms, release classes, tiles, workers).
+    warnings : list of str
+        The messages of the SitingWarnings the run raised (its inputs' first), in order, each
+        once.
+    """
 
     inputs: RegionInputs
     concentration_ug_m3: np.ndarray  # (n_rows, n_cols)
@@ -651,19 +820,23 @@ class RegionResult:
 
     @property
     def cautions(self) -> list[str]:
+        """The cautions every output of a regional run carries."""
         return list(CAUTIONS)
 
     @property
     def grid(self) -> GridSpec:
+        """The regional grid."""
         return self.inputs.grid
 
     @property
     def deposition_kg_n_ha_yr(self) -> np.ndarray:
+        """Dry deposition on the grid [kg N ha-1 yr-1]."""
         return deposition_kg_n_ha_yr(
             self.concentration_ug_m3, self.inputs.grid_deposition_velocity_m_s
         )
 
 
+@collecting_warnings
 def prepare_region(
     farms_path: str | Path,
     weather_path: str | Path,
@@ -677,21 +850,54 @@ def prepare_region(
     habitat_field: str = "habitat",
     designation_field: str = "designation",
 ) -> RegionInputs:
-    """Read and check the farms, weather and habitats of a regional run (no dispersion)."""
+    """Read and check the farms, weather and habitats of a regional run (no dispersion).
+
+    Parameters
+    ----------
+    farms_path : str or Path
+        The farms layer (points or house footprints), projected in metres or with ``crs``.
+    weather_path : str or Path
+        A frequency table CSV.
+    habitats_path : str or Path, optional
+        The habitat layer; None for the grid alone.
+    options : RegionOptions
+        The run's settings (checked here).
+    fields : FarmFields
+        The farms layer's attribute names.
+    crs : str, optional
+        Projected CRS to work in; default the farms layer's own.
+    tables : Tables, optional
+        The lookup tables; default the bundled config/.
+    habitats_layer : str, optional
+        The habitat layer's layer, in a multi-layer file.
+    name_field, habitat_field, designation_field : str
+        The habitat layer's fields, as in a scenario's [habitats].
+
+    Returns
+    -------
+    RegionInputs
+        Everything read and checked.
+
+    Raises
+    ------
+    InputFileError
+        A file does not exist.
+    InputError
+        An option out of range, or a fault in the farms, weather or habitat layer (named).
+    """
 
     options.check()
     tables = tables if tables is not None else load_tables()
-    farms, crs, warnings = read_farms(Path(farms_path), tables, fields, crs)
+    farms, crs = read_farms(Path(farms_path), tables, fields, crs)
     weather_path = Path(weather_path)
-    weather, weather_summary, weather_warnings = _read_weather(weather_path, options)
-    warnings += weather_warnings
+    weather, weather_summary = _read_weather(weather_path, options)
     classes = _release_classes(farms)
     grid = grid_around(farms["x_m"], farms["y_m"], options.margin_m, options.spacing_m, crs)
     sites = None
     files = dict(_layer_files("farms", Path(farms_path).resolve()))
     files["weather"] = weather_path.resolve()
     if habitats_path is not None:
-        sites, site_warnings = _read_sites(
+        sites = _read_sites(
             Path(habitats_path),
             crs,
             tables,
@@ -701,9 +907,8 @@ def prepare_region(
             habitat_field,
             designation_field,
         )
-        warnings += site_warnings
         files.update(_layer_files("habitats", Path(habitats_path).resolve()))
-        warnings += _sites_off_grid(sites, grid)
+        _warn_sites_off_grid(sites, grid)
     settings = _dispersion_settings(tables, options)
     return RegionInputs(
         farms,
@@ -717,15 +922,18 @@ def prepare_region(
         tables,
         options,
         files,
-        warnings,
+        [],  # filled by @collecting_warnings
     )
 
 
 def _read_weather(weather_path: Path, options: RegionOptions):
-    """The frequency table (``--weather``): (WeatherClasses, summary, warnings)."""
+    """The frequency table (``weather_path``): (WeatherClasses, summary)."""
 
     if not weather_path.exists():
-        raise InputFileError(f"--weather {weather_path.name}: not found ({weather_path})")
+        raise InputFileError(
+            f"weather_path {weather_path.name}: not found ({weather_path})",
+            parameters=("weather_path",),
+        )
     return read_frequency_table(
         weather_path, options.anemometer_height_m, options.min_wind_speed_m_s
     )
@@ -738,19 +946,19 @@ def _release_classes(farms: pd.DataFrame) -> list[ReleaseClass]:
     )
 
 
-def _sites_off_grid(sites, grid: GridSpec) -> list[str]:
-    """A warning for each site that does not touch the grid (it is still assessed)."""
+def _warn_sites_off_grid(sites, grid: GridSpec) -> None:
+    """An AccuracyWarning for each site that does not touch the grid (it is still assessed)."""
     import shapely
 
-    warnings = []
     extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
     for name, geom in zip(sites["name"], sites.geometry):
         if not geom.intersects(extent):
-            warnings.append(
+            warnings.warn(
                 f'site "{name}" lies outside the grid: not on the maps, but '
-                "assessed at its own points"
+                "assessed at its own points",
+                AccuracyWarning,
+                stacklevel=3,
             )
-    return warnings
 
 
 def _dispersion_settings(tables: Tables, options: RegionOptions) -> DispersionSettings:
@@ -840,8 +1048,9 @@ class _Runner:
                 from distributed import Client
             except ImportError as exc:
                 raise SitingError(
-                    "--scheduler with an address needs dask.distributed: "
-                    "pip install 'siting[region]'"
+                    "scheduler with an address needs dask.distributed: "
+                    "pip install 'siting[region]'",
+                    parameters=("scheduler",),
                 ) from exc
             try:
                 self.client = Client(
@@ -849,7 +1058,8 @@ class _Runner:
                 )
             except Exception as exc:  # OSError, TimeoutError...
                 raise InputError(
-                    f"--scheduler {scheduler}: cannot reach a dask scheduler there ({exc})"
+                    f"scheduler {scheduler}: cannot reach a dask scheduler there ({exc})",
+                    parameters=("scheduler",),
                 ) from exc
 
     @property
@@ -895,8 +1105,25 @@ def _site_points(sites, spacing_m: float):
     )
 
 
+@collecting_warnings
 def compute_region(inputs: RegionInputs) -> RegionResult:
-    """Concentration and deposition over the grid, and every site's figures and contributors."""
+    """Concentration and deposition over the grid, and every site's figures and contributors.
+
+    Parameters
+    ----------
+    inputs : RegionInputs
+        From :func:`prepare_region`.
+
+    Returns
+    -------
+    RegionResult
+        The grid, the sites' figures and contributors, timings and warnings.
+
+    Raises
+    ------
+    InputError
+        When no tile size fits the memory budget.
+    """
     clock = {"start": time.perf_counter()}
     opt, grid = inputs.options, inputs.grid
     workers = opt.workers or os.cpu_count() or 1
@@ -1217,6 +1444,7 @@ def _contributors(sites, farms, conc_at_max, top: int) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=CONTRIBUTOR_COLUMNS)
 
 
+@collecting_warnings
 def region(
     farms_path,
     weather_path,
@@ -1226,7 +1454,41 @@ def region(
     crs: str | None = None,
     **habitat_fields,
 ) -> RegionResult:
-    """A regional run from files: :func:`prepare_region`, then :func:`compute_region`."""
+    """A regional run from files: :func:`prepare_region`, then :func:`compute_region`.
+
+    The Python call behind ``siting region``; write its files with
+    :func:`siting.output.region.write_region_outputs`.
+
+    Parameters
+    ----------
+    farms_path : str or Path
+        The farms layer (points or house footprints).
+    weather_path : str or Path
+        A frequency table CSV.
+    habitats_path : str or Path, optional
+        The habitat layer; None for the grid alone.
+    options : RegionOptions
+        The run's settings (grid spacing [m], margin [m], memory [MB], scheduler, ...).
+    fields : FarmFields
+        The farms layer's attribute names.
+    crs : str, optional
+        Projected CRS to work in; default the farms layer's own.
+    **habitat_fields
+        ``tables``, ``habitats_layer``, ``name_field``, ``habitat_field``,
+        ``designation_field``, as for :func:`prepare_region`.
+
+    Returns
+    -------
+    RegionResult
+        The grid, the sites' figures and contributors, timings and warnings.
+
+    Raises
+    ------
+    InputFileError
+        A file does not exist.
+    InputError
+        An option out of range, a fault in an input (named), or no tile size fits.
+    """
     return compute_region(
         prepare_region(
             farms_path, weather_path, habitats_path, options, fields, crs, **habitat_fields

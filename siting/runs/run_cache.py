@@ -21,6 +21,20 @@ class RunCache:
         self._store: dict[bytes, object] = {}
 
     def get(self, key_parts: tuple, compute):
+        """The cached value of ``key_parts``, computed by ``compute()`` the first time.
+
+        Parameters
+        ----------
+        key_parts : tuple
+            Everything the value depends on (picklable); hashed to the key.
+        compute : callable
+            Makes the value when it is not cached.
+
+        Returns
+        -------
+        object
+            The value.
+        """
         key = hashlib.blake2b(pickle.dumps(key_parts, protocol=5), digest_size=20).digest()
         if key not in self._store:
             self._store[key] = compute()

@@ -14,6 +14,7 @@ from __future__ import annotations
 import dataclasses
 import math
 import time
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -28,7 +29,13 @@ from siting.dispersion.sector import (
     rectangle_elements,
     source_concentration_g_m3_per_g_s,
 )
-from siting.errors import InputError
+from siting.errors import (
+    AccuracyWarning,
+    InputError,
+    InputWarning,
+    collect_warnings,
+    collecting_warnings,
+)
 from siting.physics import assess
 from siting.physics.constants import KEQ_PER_KG_N, UG_PER_G, deposition_kg_n_ha_yr, kg_n_to_mol_n
 from siting.physics.emissions import derive_emission
@@ -73,7 +80,42 @@ CAUTIONS = [
 
 @dataclass
 class ScreenResult:
-    """Everything a screening run produced, in memory (see outputs.write_outputs)."""
+    """Everything a screening run produced, in memory (see :func:`siting.output.screen.write_outputs`).
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The scenario run.
+    tables : Tables
+        The lookup tables used.
+    grid : GridSpec
+        The receptor grid.
+    weather_summary : dict
+        The weather's summary (sectors, speeds, stability shares, hours used, ...).
+    sources : pandas.DataFrame
+        One row per source: its emission derivation [kg NH3 yr-1, g s-1], plume rise and why.
+    source_geometries : list
+        Each source's shapely geometry (point or footprint), for the map.
+    sites : geopandas.GeoDataFrame
+        One row per habitat site: critical values, max and mean PC [ug m-3, kg N ha-1 yr-1],
+        % of critical level and load, verdict (the columns of sites.csv).
+    receptors : pandas.DataFrame
+        The named points' figures (receptors.csv).
+    fields : dict of str to ndarray
+        Grids (n_rows, n_cols): pc_conc_ug_m3 [ug m-3], pc_dep_kg_n_ha_yr,
+        incomb_dep_kg_n_ha_yr and net_dep_kg_n_ha_yr [kg N ha-1 yr-1]; (0, 0) with
+        ``with_grid=False``.
+    warnings : list of str
+        Legal but doubtful input, in the order raised.
+    timings_s : dict of str to float
+        Seconds by phase.
+    weather : WeatherClasses or HourlyWeather
+        The weather used, for the weather figures.
+    sensitivity : pandas.DataFrame, optional
+        One row per (site, variant) of the two-sided sensitivity (sensitivity.csv).
+    sensitivity_summary : pandas.DataFrame, optional
+        One row per site: the range of its figures and whether a variant flips its verdict.
+    """
 
     scenario: Scenario
     tables: Tables
@@ -92,6 +134,7 @@ class ScreenResult:
 
     @property
     def cautions(self) -> list[str]:
+        """The cautions every output of a screening run carries."""
         return list(CAUTIONS)
 
 
@@ -103,6 +146,18 @@ def outlet_rise(src: SourceSpec) -> tuple[bool, str]:
     from ``building_height_m`` and ``building_width_m``; with the height alone the width is
     taken no smaller than the height). Without building dimensions an outlet is taken to be a
     fan or scrubber outlet on or beside a house roof, in its wake: no rise (cautious).
+
+    Parameters
+    ----------
+    src : SourceSpec
+        The source.
+
+    Returns
+    -------
+    rise : bool
+        Whether momentum rise is added.
+    why : str
+        The reason in words ("" for a volume or area source).
     """
     if src.kind != "point":
         return False, ""
@@ -204,6 +259,20 @@ def reduction_basis(src: SourceSpec, technique: dict) -> tuple[str, str]:
     is the user's claim: accepted, with its stated ``reduction_basis`` (certificate,
     measurement) shown; without one it is accepted with a warning. ``siting verify`` raises
     either as a finding to check.
+
+    Parameters
+    ----------
+    src : SourceSpec
+        The source.
+    technique : dict
+        Its technique's row of abatement.toml.
+
+    Returns
+    -------
+    basis : str
+        The reduction's basis in words.
+    warning : str
+        A warning for a claim without a basis, else "".
     """
     lo = default_reduction_percent(technique)
     if src.reduction_percent is None:
@@ -232,11 +301,10 @@ class _Abatement:
     flag: str = ""
 
 
-def _abatement_of(src: SourceSpec, tables: Tables, treated_shares: dict, where: str,
-                  warnings: list[str]) -> _Abatement:  # fmt: skip
+def _abatement_of(src: SourceSpec, tables: Tables, treated_shares: dict, where: str) -> _Abatement:
     """The reduction a source's abatement gives: the stated figure or the range's lower end,
-    over the treated share (the hourly record's for a partial scrubber); warnings for a
-    claimed figure and for one outside the published range."""
+    over the treated share (the hourly record's for a partial scrubber); an InputWarning for
+    a claimed figure without basis and for one outside the published range."""
     if not src.abatement:
         return _Abatement()
     technique = tables.technique(src.abatement, where)
@@ -247,7 +315,7 @@ def _abatement_of(src: SourceSpec, tables: Tables, treated_shares: dict, where: 
     )
     basis, claim_warning = reduction_basis(src, technique)
     if claim_warning:
-        warnings.append(f"{where}: {claim_warning}")
+        warnings.warn(f"{where}: {claim_warning}", InputWarning, stacklevel=2)
     treated = src.treated_air_fraction if src.treated_air_fraction is not None else 1.0
     if src.scrubber_design_share is not None:
         if technique["kind"] != "scrubber":
@@ -263,7 +331,7 @@ def _abatement_of(src: SourceSpec, tables: Tables, treated_shares: dict, where: 
             f"reduction {reduction:g} % is outside the published range "
             f"{lo:g}-{hi:g} % for {technique['name']}"
         )
-        warnings.append(f"{where}: {flag}")
+        warnings.warn(f"{where}: {flag}", InputWarning, stacklevel=2)
     return _Abatement(technique, reduction, treated, basis, flag)
 
 
@@ -313,20 +381,41 @@ def _source_row(src: SourceSpec, factor_row: dict | None, ab: _Abatement, d) -> 
 
 def derive_sources(
     scenario: Scenario, tables: Tables, treated_shares: dict[str, float] | None = None
-) -> tuple[pd.DataFrame, list[str]]:
+) -> pd.DataFrame:
     """One row per source: the emission derivation down to g/s, with range flags.
 
-    ``treated_shares`` holds, for sources with a scrubber_design_share, the share of the year's
-    ammonia the scrubber treats, computed over the hourly record (seasonal.treated_ammonia_share).
+    A reduction claimed without a basis, or outside the technique's published range, is used
+    with an InputWarning.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The scenario.
+    tables : Tables
+        The lookup tables (emission factors, abatement).
+    treated_shares : dict of str to float, optional
+        For sources with a scrubber_design_share, the share of the year's ammonia the scrubber
+        treats [-], computed over the hourly record (seasonal.treated_ammonia_share).
+
+    Returns
+    -------
+    pandas.DataFrame
+        The columns of sources.csv (factor, places, reduction [%] and its basis, kg NH3 yr-1,
+        g s-1, N captured [kg N yr-1], ...).
+
+    Raises
+    ------
+    InputError
+        An unknown livestock, housing or technique.
     """
-    rows, warnings = [], []
+    rows = []
     treated_shares = treated_shares or {}
     for src in scenario.sources:
         where = f'source "{src.id}"'
         factor_row = None
         if src.nh3_kg_per_year is None:
             factor_row = tables.factor(src.livestock, src.housing, where)
-        ab = _abatement_of(src, tables, treated_shares, where, warnings)
+        ab = _abatement_of(src, tables, treated_shares, where)
         technique = ab.technique
         d = derive_emission(
             nh3_unabated_kg_yr=src.nh3_kg_per_year,
@@ -338,11 +427,22 @@ def derive_sources(
             captures_in_effluent=bool(technique) and technique["kind"] == "scrubber",
         )
         rows.append(_source_row(src, factor_row, ab, d))
-    return pd.DataFrame(rows), warnings
+    return pd.DataFrame(rows)
 
 
 def site_lat_lon(scenario: Scenario) -> tuple[float, float]:
-    """Latitude and longitude [deg] of the sources' centre, from the scenario CRS."""
+    """Latitude and longitude [deg] of the sources' centre, from the scenario CRS.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The scenario (its sources and CRS).
+
+    Returns
+    -------
+    latitude_deg, longitude_deg : float
+        WGS 84 [deg].
+    """
     from pyproj import Transformer
 
     x = float(np.mean([src.x for src in scenario.sources]))
@@ -523,7 +623,31 @@ def _habitats_key(scenario: Scenario, tables: Tables) -> tuple:
 
 @dataclass
 class Prepared:
-    """What every run of a scenario needs before any dispersion: inputs read and checked."""
+    """What every run of a scenario needs before any dispersion: inputs read and checked.
+
+    Attributes
+    ----------
+    scenario : Scenario
+        The scenario.
+    tables : Tables
+        The lookup tables.
+    weather : WeatherClasses or HourlyWeather
+        The weather.
+    weather_summary : dict
+        Its summary.
+    hour_weights : dict
+        Hourly emission weights by source id [-] (hourly records with [seasonal]).
+    sources : pandas.DataFrame
+        The sources' emission derivation (:func:`derive_sources`).
+    sites : geopandas.GeoDataFrame
+        The habitat sites with their critical values and thresholds.
+    settings : DispersionSettings
+        Dispersion settings.
+    warnings : list of str
+        Legal but doubtful input.
+    cache : RunCache, optional
+        Shared by the re-runs of one scenario (a sensitivity).
+    """
 
     scenario: Scenario
     tables: Tables
@@ -538,10 +662,12 @@ class Prepared:
 
     @property
     def cautions(self) -> list[str]:
+        """The cautions every output of a screening run carries."""
         return list(CAUTIONS)
 
     @property
     def default_deposition_velocity_m_s(self) -> float:
+        """Deposition velocity of the depletion land cover [m s-1] (grid cells and named points)."""
         land_cover = self.scenario.deposition.depletion_land_cover
         return self.tables.deposition_velocities[land_cover]["deposition_velocity_m_s"]
 
@@ -555,8 +681,21 @@ class Prepared:
     ) -> np.ndarray:
         """Annual mean concentration [ug m-3] per 1 g s-1 (annual mean) of one source.
 
-        ``settings`` replaces the run's dispersion settings (the undepleted twin of a run with
-        depletion).
+        Parameters
+        ----------
+        source_id : str
+            The source (its hourly emission weights, and the cache key).
+        elements : list of ReleaseElement
+            Its release elements.
+        receptor_x_m, receptor_y_m : ndarray
+            Receptor coordinates [m].
+        settings : DispersionSettings, optional
+            Replaces the run's dispersion settings (the undepleted twin of a run with depletion).
+
+        Returns
+        -------
+        ndarray
+            [ug m-3 per g s-1], the receptors' shape.
         """
         settings = settings or self.settings
         if self.cache is not None:
@@ -604,7 +743,24 @@ class Prepared:
         settings: DispersionSettings | None = None,
         advance=None,
     ) -> dict[str, np.ndarray]:
-        """Annual mean concentration [ug m-3] of each role's sources at the receptors."""
+        """Annual mean concentration [ug m-3] of each role's sources at the receptors.
+
+        Parameters
+        ----------
+        elements_of_sources : list of list of ReleaseElement
+            Each source's elements, in the scenario's order.
+        receptor_x_m, receptor_y_m : ndarray
+            Receptor coordinates [m].
+        settings : DispersionSettings, optional
+            Replaces the run's dispersion settings.
+        advance : callable, optional
+            Called after each source (a progress bar).
+
+        Returns
+        -------
+        dict of str to ndarray
+            Role ("proposed", "existing", "removed", "other") -> concentration [ug m-3].
+        """
         by_role = {role: np.zeros(np.size(receptor_x_m)) for role in ROLES}
         for src, elements, emission_g_s in zip(
             self.scenario.sources, elements_of_sources, self.sources["emission_g_s"]
@@ -618,13 +774,36 @@ class Prepared:
         return by_role
 
 
+@collecting_warnings
 def prepare(
     scenario: Scenario | str | Path, tables: Tables | None = None, cache: RunCache | None = None
 ) -> Prepared:
     """Read and check a scenario's tables, weather, sources and habitats (no dispersion).
 
     ``tables`` replaces the lookup tables the scenario names (a sensitivity run); ``cache``
-    is shared by the re-runs of one scenario (see RunCache).
+    is shared by the re-runs of one scenario (see RunCache). The warnings the reading raised
+    are on the result (``Prepared.warnings``) and issued on.
+
+    Parameters
+    ----------
+    scenario : Scenario, str or Path
+        A loaded scenario or its file.
+    tables : Tables, optional
+        Replaces the scenario's lookup tables.
+    cache : RunCache, optional
+        Shared by the re-runs of one scenario.
+
+    Returns
+    -------
+    Prepared
+        The inputs, read and checked.
+
+    Raises
+    ------
+    InputFileError
+        A file the scenario names does not exist.
+    InputError
+        A fault in the scenario, a table, the weather or the habitat layer (named).
     """
     if not isinstance(scenario, Scenario):
         scenario = load_scenario(scenario)
@@ -636,33 +815,35 @@ def prepare(
             f" is not in deposition_velocities.toml"
         )
     if scenario.weather.hourly is None:
-        weather, weather_summary, warnings = read_frequency_table(
+        weather, weather_summary = read_frequency_table(
             scenario.weather.frequency_table,
             scenario.weather.anemometer_height_m,
             scenario.weather.min_wind_speed_m_s,
         )
         hour_weights = treated_shares = {}
     else:
-        weather, weather_summary, warnings = _read_hourly(scenario)
+        weather, weather_summary = _read_hourly(scenario)
         hour_weights, treated_shares = _hourly_emission_weights(
             scenario, tables, weather, weather_summary
         )
-    sources, source_warnings = derive_sources(scenario, tables, treated_shares)
-    warnings += source_warnings
+    sources = derive_sources(scenario, tables, treated_shares)
 
     def habitats():
-        return read_habitats(
-            scenario.habitats,
-            scenario.crs,
-            tables,
-            scenario.assessment.critical_load_end,
-            scenario.assessment.critical_load_review,
-        )
+        # the layer's warnings are kept with it in the cache and issued on every use
+        with collect_warnings(reissue=False) as raised:
+            sites = read_habitats(
+                scenario.habitats,
+                scenario.crs,
+                tables,
+                scenario.assessment.critical_load_end,
+                scenario.assessment.critical_load_review,
+            )
+        return sites, raised
 
-    sites, habitat_warnings = (
+    sites, raised = (
         cache.get(_habitats_key(scenario, tables), habitats) if cache is not None else habitats()
     )
-    warnings += habitat_warnings
+    raised.reissue()
     default_vd = tables.deposition_velocities[scenario.deposition.depletion_land_cover][
         "deposition_velocity_m_s"
     ]
@@ -685,7 +866,7 @@ def prepare(
         sources,
         sites,
         settings,
-        warnings,
+        [],  # filled by @collecting_warnings
         cache,
     )
 
@@ -740,20 +921,22 @@ def _screen_grid(scenario: Scenario) -> GridSpec:
     return grid
 
 
-def _assessed_sites(sites, grid: GridSpec, warnings: list[str]) -> np.ndarray:
-    """Which sites touch the grid (a warning names each one that does not)."""
+def _assessed_sites(sites, grid: GridSpec) -> np.ndarray:
+    """Which sites touch the grid (an AccuracyWarning names each one that does not)."""
     import shapely
 
     extent = shapely.box(grid.west_m, grid.south_m, grid.east_m, grid.north_m)
     assessed = np.asarray(shapely.intersects(sites.geometry.values, extent), dtype=bool)
     for name in sites.loc[~assessed, "name"]:
-        warnings.append(
-            f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)'
+        warnings.warn(
+            f'site "{name}" lies outside the grid; not assessed (increase grid.margin_m)',
+            AccuracyWarning,
+            stacklevel=2,
         )
     return assessed
 
 
-def _site_points(scenario: Scenario, sites, assessed_idx: np.ndarray, warnings: list[str]):
+def _site_points(scenario: Scenario, sites, assessed_idx: np.ndarray):
     """(site index, x, y, interior) of the assessed sites' sample points: the boundary point
     nearest each source, the interior lattice and the boundary every BOUNDARY_SPACING_M."""
     geometries = sites.geometry.iloc[assessed_idx]
@@ -765,7 +948,7 @@ def _site_points(scenario: Scenario, sites, assessed_idx: np.ndarray, warnings: 
         scenario.grid.spacing_m,
     )
     b_index, b_x, b_y = site_boundary_points(geometries, boundary_spacing_m)
-    warnings += coarsened_sites(
+    coarsened_sites(  # an AccuracyWarning names the sites sampled wider than asked
         geometries, sites["name"].iloc[assessed_idx], scenario.grid.spacing_m, boundary_spacing_m
     )
     s_index = np.concatenate([s_index, b_index])
@@ -778,8 +961,9 @@ def _site_points(scenario: Scenario, sites, assessed_idx: np.ndarray, warnings: 
     )
 
 
-def _receptors(prep: Prepared, grid: GridSpec, named, assessed: np.ndarray, with_grid: bool,
-               warnings: list[str]) -> _Receptors:  # fmt: skip
+def _receptors(
+    prep: Prepared, grid: GridSpec, named, assessed: np.ndarray, with_grid: bool
+) -> _Receptors:
     """Every receptor of the run, its deposition velocity and which site it belongs to.
 
     A grid node inside two overlapping sites takes the higher of their deposition velocities
@@ -788,7 +972,7 @@ def _receptors(prep: Prepared, grid: GridSpec, named, assessed: np.ndarray, with
     sites = prep.sites
     gx, gy = grid.centres() if with_grid else (np.empty((0, 0)), np.empty((0, 0)))
     assessed_idx = np.flatnonzero(assessed)
-    s_index, s_x, s_y, s_interior = _site_points(prep.scenario, sites, assessed_idx, warnings)
+    s_index, s_x, s_y, s_interior = _site_points(prep.scenario, sites, assessed_idx)
     rx = np.concatenate([gx.ravel(), named["x"].to_numpy(float), s_x])
     ry = np.concatenate([gy.ravel(), named["y"].to_numpy(float), s_y])
     n_grid, n_named = gx.size, len(named)
@@ -864,7 +1048,6 @@ def _site_table(
     rec: _Receptors,
     source_shapes,
     assessed: np.ndarray,
-    warnings: list[str],
 ):
     """The sites with their figures: PC, net change and in-combination maxima and means, % of
     critical level and load, the undepleted twin where depleted, the predicted environmental
@@ -909,7 +1092,11 @@ def _site_table(
         out["distance_m"] = shapely.distance(sites.geometry.values, union)
     else:
         out["distance_m"] = np.nan
-        warnings.append("no proposed or existing source: the installation's PC is zero")
+        warnings.warn(
+            "no proposed or existing source: the installation's PC is zero",
+            InputWarning,
+            stacklevel=2,
+        )
     out["assessed"] = assessed
     out["verdict"] = assess.verdict(
         out["pc_pct_level"].to_numpy(),
@@ -938,6 +1125,7 @@ def _named_point_table(named, combos: dict, dep: dict, rec: _Receptors):
     return receptors
 
 
+@collecting_warnings
 def screen(
     scenario: Scenario | str | Path,
     *,
@@ -949,27 +1137,53 @@ def screen(
 ) -> ScreenResult:
     """Run a full screening assessment of a scenario (a file path or a loaded Scenario).
 
-    ``tables`` replaces the scenario's lookup tables (used by sensitivity runs);
-    ``with_grid=False`` computes the sites and named points only (the fields are then empty:
-    site figures come from their own points, so only a site's grid nodes are missing).
-    ``sensitivity`` (with the grid) adds the two-sided sensitivity of every site
-    (sensitivity.py): the same assumptions varied both ways, re-run at the sites' points.
-    ``cache`` is shared by the re-runs of one scenario (a sensitivity; see RunCache).
+    The Python call behind ``siting screen``; write its files with
+    :func:`siting.output.screen.write_outputs`.
 
     The steps: read and check the inputs (:func:`prepare`), place the receptors
     (:func:`_receptors`), disperse (:func:`_disperse`), combine the roles, and tabulate the
     sites (:func:`_site_table`) and the named points (:func:`_named_point_table`).
+    The warnings the run raised (SitingWarning) are on the result, in the order raised, each
+    once, and issued on; those of the sensitivity's re-runs are not.
+
+    Parameters
+    ----------
+    scenario : Scenario, str or Path
+        A loaded scenario (:func:`siting.readers.scenario.load_scenario`) or its file.
+    progress : bool
+        Show a progress bar on the terminal.
+    tables : Tables, optional
+        Replaces the scenario's lookup tables (used by sensitivity runs).
+    with_grid : bool
+        False computes the sites and named points only (the fields are then empty: site
+        figures come from their own points, so only a site's grid nodes are missing).
+    sensitivity : bool
+        With the grid, add the two-sided sensitivity of every site (sensitivity.py): the same
+        assumptions varied both ways, re-run at the sites' points.
+    cache : RunCache, optional
+        Shared by the re-runs of one scenario (a sensitivity; see RunCache).
+
+    Returns
+    -------
+    ScreenResult
+        Sites, named points, sources, grids, sensitivity, warnings and timings.
+
+    Raises
+    ------
+    InputFileError
+        A file the scenario names does not exist.
+    InputError
+        A fault in the scenario, a table, the weather or the habitat layer (named).
     """
     import geopandas as gpd
 
     clock = {"start": time.perf_counter()}
     prep = prepare(scenario, tables, cache)
     scenario = prep.scenario
-    warnings = list(prep.warnings)
     named = _read_named_receptors(scenario, prep.tables)
     grid = _screen_grid(scenario)
-    assessed = _assessed_sites(prep.sites, grid, warnings)
-    rec = _receptors(prep, grid, named, assessed, with_grid, warnings)
+    assessed = _assessed_sites(prep.sites, grid)
+    rec = _receptors(prep, grid, named, assessed, with_grid)
     elements_and_shapes = [_source_elements(s) for s in scenario.sources]
     element_lists = [elements for elements, _ in elements_and_shapes]
     source_shapes = [shape for _, shape in elements_and_shapes]
@@ -984,7 +1198,7 @@ def screen(
     }
     combos["incomb"] = combos["pc"] + conc_by_role["other"]
     dep = {k: deposition_kg_n_ha_yr(v, rec.vd_m_s) for k, v in combos.items()}
-    out = _site_table(prep, combos, undepleted_pc, rec, source_shapes, assessed, warnings)
+    out = _site_table(prep, combos, undepleted_pc, rec, source_shapes, assessed)
     receptors = _named_point_table(named, combos, dep, rec)
     shape = (grid.n_rows, grid.n_cols) if with_grid else (0, 0)
     fields = {
@@ -1010,7 +1224,7 @@ def screen(
         gpd.GeoDataFrame(out, geometry="geometry", crs=scenario.crs),
         receptors,
         fields,
-        warnings,
+        [],  # filled by @collecting_warnings
         timings,
         prep.weather,
     )

@@ -10,10 +10,12 @@ beyond what ``screen`` reads.
 from __future__ import annotations
 
 import dataclasses
+import warnings
 from pathlib import Path
 
 import pandas as pd
 
+from siting.errors import SitingWarning
 from siting.physics import assess
 from siting.readers.tables import is_claimed_reduction
 from siting.runs.run_cache import RunCache
@@ -83,14 +85,17 @@ class _Variants:
         )
 
     def rerun(self, variant: str, scenario=None, tables=None) -> None:
-        """A variant that needs dispersion again: re-run at the sites' own points."""
-        run = self.run(
-            scenario or self.scenario,
-            tables=tables,
-            with_grid=False,
-            sensitivity=False,
-            cache=self.cache,
-        )
+        """A variant that needs dispersion again: re-run at the sites' own points. Its
+        warnings are not the run's: a variant is a what-if, not the inputs given."""
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", SitingWarning)
+            run = self.run(
+                scenario or self.scenario,
+                tables=tables,
+                with_grid=False,
+                sensitivity=False,
+                cache=self.cache,
+            )
         self.add(variant, run.sites)
 
     def section(self, name: str, **changes):

@@ -27,7 +27,7 @@ from pathlib import Path
 import pandas as pd
 
 from siting._version import __version__
-from siting.errors import InputError, SitingError
+from siting.errors import InputError, SitingError, collecting_warnings
 from siting.output.records import sha256_of
 from siting.readers.scenario import load_scenario
 from siting.readers.submission import Submission, load_submission
@@ -74,7 +74,21 @@ SEVERITY_ORDER = {"high": 0, "medium": 1, "low": 2, "info": 3}
 
 @dataclass
 class Finding:
-    """One result of the review: code, severity, subject, message and its evidence."""
+    """One result of the review: code, severity, subject, message and its evidence.
+
+    Attributes
+    ----------
+    code : str
+        Stable identifier of the kind of finding (e.g. "REDUCTION_CLAIMED", "OUTPUT_CHANGED").
+    severity : {"high", "medium", "low", "info"}
+        How much it matters; a high one makes the submission not consistent.
+    subject : str
+        What it is about (a source, a site, a file).
+    message : str
+        The finding in words, with the range or table value it is judged against.
+    evidence : dict
+        The figures behind it.
+    """
 
     code: str
     severity: str
@@ -83,12 +97,42 @@ class Finding:
     evidence: dict = field(default_factory=dict)
 
     def as_dict(self) -> dict:
+        """The finding as a plain dict (findings.json).
+
+        Returns
+        -------
+        dict
+            code, severity, subject, message, evidence.
+        """
         return dataclasses.asdict(self)
 
 
 @dataclass
 class VerifyResult:
-    """Everything a verification found (see module docstring)."""
+    """Everything a verification found: integrity, differences, findings, sensitivity.
+
+    Attributes
+    ----------
+    submission : Submission
+        What was submitted.
+    integrity : list of dict
+        Each recorded input and table against its packed copy (key, file, expected and actual
+        SHA-256, status "ok", "changed" or "missing").
+    differences : list of dict
+        Each figure differing beyond the tolerance (table, id, column, submitted, recomputed,
+        relative difference, what explains it).
+    findings : list of Finding
+        The review's findings, the most severe first.
+    sensitivity : pandas.DataFrame
+        One row per (site, variant): % of critical load and level and verdict.
+    sensitivity_summary : pandas.DataFrame
+        One row per site: its range and whether a variant flips its verdict.
+    submitted_version, this_version : str
+        The siting version that wrote the submission and the one that checked it.
+    warnings : list of str
+        The messages of the SitingWarnings the verification raised (the re-run's among them;
+        not the sensitivity variants'), in order, each once.
+    """
 
     submission: Submission
     integrity: list[dict]
@@ -98,17 +142,21 @@ class VerifyResult:
     sensitivity_summary: pd.DataFrame
     submitted_version: str
     this_version: str
+    warnings: list[str] = field(default_factory=list)
 
     @property
     def cautions(self) -> list[str]:
+        """The cautions the verification's outputs carry."""
         return list(CAUTIONS)
 
     @property
     def tolerance_text(self) -> str:
+        """The comparison's tolerance in words (0.1 % relative)."""
         return TOLERANCE_TEXT
 
     @property
     def consistent(self) -> bool:
+        """True when no figure differs, no finding is high-severity and every input is intact."""
         return (
             not self.differences
             and not any(f.severity == "high" for f in self.findings)
@@ -117,11 +165,23 @@ class VerifyResult:
 
     @property
     def exit_code(self) -> int:
+        """The CLI's exit code: 0 when consistent, else 1."""
         return 0 if self.consistent else 1
 
 
 def check_integrity(sub: Submission) -> list[dict]:
-    """Each recorded input and table against its packed copy: ok, changed or missing."""
+    """Each recorded input and table against its packed copy: ok, changed or missing.
+
+    Parameters
+    ----------
+    sub : Submission
+        The submission.
+
+    Returns
+    -------
+    list of dict
+        key, file, expected_sha256, actual_sha256, status; empty without a run record.
+    """
     if sub.record is None:
         return []
     rows = []
@@ -159,8 +219,20 @@ def check_integrity(sub: Submission) -> list[dict]:
 
 
 def check_outputs(sub: Submission) -> list[Finding]:
-    """Each output the run recorded (run.json "outputs") against the file in the folder: an
-    edited, truncated or deleted output is a finding (records of older versions have none)."""
+    """Each output the run recorded (run.json "outputs") against the file in the folder.
+
+    An edited, truncated or deleted output is a finding (records of older versions have none).
+
+    Parameters
+    ----------
+    sub : Submission
+        The submission.
+
+    Returns
+    -------
+    list of Finding
+        OUTPUT_MISSING and OUTPUT_CHANGED findings (high severity).
+    """
     if sub.record is None or "outputs" not in sub.record:
         return []
     findings = []
@@ -211,7 +283,22 @@ def _differs(a, b) -> tuple[bool, float | None]:
 
 
 def compare_figures(sub: Submission, result, explanation: str) -> list[dict]:
-    """Submitted vs recomputed figures: one row per figure beyond the tolerance."""
+    """Submitted vs recomputed figures: one row per figure beyond the tolerance.
+
+    Parameters
+    ----------
+    sub : Submission
+        The submission (its sites and receptors tables).
+    result : ScreenResult
+        The re-run.
+    explanation : str
+        What explains a difference (a changed input, a version change), copied to every row.
+
+    Returns
+    -------
+    list of dict
+        table, id, column, submitted, recomputed, relative_difference, explained_by.
+    """
     rows = []
     recomputed = pd.DataFrame(result.sites.drop(columns="geometry")).set_index("name")
     submitted = sub.sites.set_index("name") if "name" in sub.sites else sub.sites
@@ -298,7 +385,26 @@ def review(
     reference_habitats: Path | None = None,
     name_field: str | None = None,
 ) -> list[Finding]:
-    """Plausibility findings, each judged against this version's tables or a stated range."""
+    """Plausibility findings, each judged against this version's tables or a stated range.
+
+    Parameters
+    ----------
+    sub : Submission
+        The submission.
+    result : ScreenResult
+        The re-run (its scenario and the tables it used).
+    this_tables : Tables
+        This version's lookup tables, the reference.
+    reference_habitats : Path, optional
+        A reference habitat layer: its sites within the search distance left out are findings.
+    name_field : str, optional
+        The reference layer's name field (default the scenario's).
+
+    Returns
+    -------
+    list of Finding
+        The most severe first.
+    """
     findings: list[Finding] = []
     scenario = result.scenario
     used = result.tables
@@ -694,7 +800,10 @@ def _missing_sites(scenario, result, reference: Path, name_field: str | None) ->
     try:
         ref = gpd.read_file(reference).to_crs(scenario.crs)
     except Exception as exc:
-        raise InputError(f"--habitats {reference}: cannot read as a vector layer: {exc}") from exc
+        raise InputError(
+            f"reference_habitats {reference}: cannot read as a vector layer: {exc}",
+            parameters=("reference_habitats",),
+        ) from exc
     field_name = name_field or scenario.habitats.name_field
     designation_field = scenario.habitats.designation_field
     tier_of = {
@@ -736,6 +845,7 @@ def _missing_sites(scenario, result, reference: Path, name_field: str | None) ->
     return findings
 
 
+@collecting_warnings
 def verify(
     submission: Path,
     *,
@@ -744,7 +854,39 @@ def verify(
     name_field: str | None = None,
     weather_files=(),
 ) -> VerifyResult:
-    """Verify a submission (see module docstring). Raises SitingError if it cannot be read."""
+    """Check a submitted screening run: its inputs' hashes, a re-run, a review, a sensitivity.
+
+    The four steps of the module docstring: integrity of every packed input and output, the
+    re-run compared figure by figure, the plausibility review, and the two-sided sensitivity.
+
+    The Python call behind ``siting verify``; write its files with
+    :func:`siting.output.verify.write_verify_outputs`.
+
+    Parameters
+    ----------
+    submission : str or Path
+        An output folder of ``siting screen`` (inputs packed, run.json), or a scenario file
+        with ``results``.
+    results : Path, optional
+        The applicant's sites table, with a scenario file.
+    reference_habitats : Path, optional
+        A reference habitat layer, to find sites left out.
+    name_field : str, optional
+        The reference layer's name field.
+    weather_files : sequence of Path
+        Other weather years, each a sensitivity variant.
+
+    Returns
+    -------
+    VerifyResult
+        Integrity, differences, findings and the sensitivity; ``consistent`` and ``exit_code``
+        sum them up.
+
+    Raises
+    ------
+    SitingError
+        The submission cannot be read (InputFileError, InputError).
+    """
 
     sub = load_submission(Path(submission), results)
     integrity = check_integrity(sub)
@@ -763,9 +905,9 @@ def verify(
 
 def _rerun(sub: Submission):
     """The packed scenario, read with its files where the package now holds them and its
-    packed tables (when there are), and screened again without the sensitivity (verify runs
-    its own, with --weather). Returns (scenario, result); a SitingError of either step becomes
-    one InputError, "the submission cannot be re-run: ..."."""
+    packed tables (when there are), and screened again without the sensitivity (verify
+    runs its own, with the other weather files). Returns (scenario, result); a SitingError of
+    either step becomes one InputError, "the submission cannot be re-run: ..."."""
 
     try:
         scenario = load_scenario(sub.scenario_path, moved=sub.moved)
@@ -777,9 +919,11 @@ def _rerun(sub: Submission):
                     )
                 }
             )
-        result = screening.screen(scenario, sensitivity=False)  # its own, with --weather, in verify
+        result = screening.screen(scenario, sensitivity=False)  # verify runs its own
     except SitingError as exc:
-        raise InputError(f"the submission cannot be re-run: {exc}") from exc
+        raise InputError(
+            f"the submission cannot be re-run: {exc}", parameters=getattr(exc, "parameters", ())
+        ) from exc
     return scenario, result
 
 
