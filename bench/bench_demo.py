@@ -20,7 +20,8 @@ from siting.output.screen import write_outputs
 from siting.readers.frequency_table import read_frequency_table
 from siting.readers.resources import demo_dir
 from siting.readers.scenario import load_scenario
-from siting.runs.screening import _source_elements, screen
+from siting.runs.screening import screen
+from siting.runs.screening_sources import _source_elements
 
 
 def main() -> None:

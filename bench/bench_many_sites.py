@@ -90,13 +90,13 @@ def main() -> None:
     import geopandas as gpd
 
     from siting.dispersion.grid import grid_around
-    from siting.readers.habitats import (
+    from siting.readers.resources import demo_dir
+    from siting.readers.scenario import load_scenario
+    from siting.readers.site_points import (
         grid_nodes_in_sites,
         site_boundary_points,
         site_sample_points,
     )
-    from siting.readers.resources import demo_dir
-    from siting.readers.scenario import load_scenario
 
     demo = demo_dir()
     with tempfile.TemporaryDirectory() as tmp:

@@ -16,10 +16,12 @@ import time
 
 import numpy as np
 
-from siting.readers.habitats import site_outline_points
 from siting.readers.resources import demo_dir
+from siting.readers.site_points import site_outline_points
 from siting.runs.placing import place
-from siting.runs.screening import BOUNDARY_SPACING_M, _source_elements, prepare
+from siting.runs.screening_inputs import prepare
+from siting.runs.screening_sites import BOUNDARY_SPACING_M
+from siting.runs.screening_sources import _source_elements
 
 
 def naive_seconds_per_position(prep, house_id: str, positions, samples: int) -> float:

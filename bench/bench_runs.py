@@ -41,12 +41,8 @@ import numpy as np
 import reference  # bench/reference.py: the script's folder is first on sys.path
 
 from siting.dispersion.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
-from siting.dispersion.sector import (
-    DispersionSettings,
-    ReleaseElement,
-    WeatherClasses,
-    source_concentration_g_m3_per_g_s,
-)
+from siting.dispersion.inputs import DispersionSettings, ReleaseElement, WeatherClasses
+from siting.dispersion.sector import source_concentration_g_m3_per_g_s
 from siting.readers.tables import load_dispersion, sigma_scheme, wind_exponents
 
 SEED = 20240611
@@ -113,7 +109,7 @@ def make_sources(
     """n sources spread over a square [margin, extent - margin]^2: points, fans, volume sources.
 
     Heights 3-10 m in 0.5 m steps. Volume sources: a house footprint of side 14-40 m (on a
-    sqrt(2) ladder through 10 m, as ``siting.dispersion.convolution`` classes footprints) as
+    sqrt(2) ladder through 10 m, as ``siting.dispersion.kernels`` classes footprints) as
     sigma_y0 = side / 4.3 and sigma_z0 = height / 2.15, kept side / 2 (= 2.15 sigma_y0) from
     receptors ([EPA1992] initial dimensions, from memory). Fan outlets (with ``fans``):
     0.6-1.0 m diameter, 5-10 m/s exit velocity, momentum rise. Emissions 0.02-0.5 g/s (a few
@@ -268,7 +264,7 @@ def regional_fast_path():
     module's building blocks composed here; else (None, "direct", why not).
     """
     try:
-        from siting.dispersion import convolution
+        from siting import dispersion as convolution  # its names: kernels, cells, convolution
     except ImportError as exc:
         return None, "direct", f"siting.dispersion.convolution not importable ({exc})"
     for name in ("regional_deposition", "regional_concentration"):
@@ -311,8 +307,8 @@ def region_pipeline(region, case: Case, elements, emission_g_s) -> np.ndarray:
     """
     import pandas as pd
 
-    from siting.dispersion.convolution import release_class
     from siting.dispersion.grid import GridSpec
+    from siting.dispersion.kernels import release_class
     from siting.physics.constants import UG_PER_G
     from siting.readers.tables import load_tables
 
@@ -376,7 +372,7 @@ NEAR_FIELD_CELLS = 10
 
 
 def convolution_from_blocks(convolution, case: Case, elements, emission_g_s) -> np.ndarray:
-    """Regional field from siting.dispersion.convolution's building blocks, one FFT per release class."""
+    """Regional field from the convolution's building blocks (siting.dispersion), one FFT per class."""
     n_rows, n_cols = case.receptor_x_m.shape
     cell_m = case.cell_m
     west_m, north_m = 0.0, n_rows * cell_m

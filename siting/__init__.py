@@ -58,20 +58,20 @@ __all__, __getattr__, __dir__ = lazy_exports(
         # siting verify
         "verify": "siting.runs.verification",
         "VerifyResult": "siting.runs.verification",
-        "Finding": "siting.runs.verification",
+        "Finding": "siting.runs.findings",
         "write_verify_outputs": "siting.output.verify",
         # siting region
         "region": "siting.runs.regional",
-        "RegionOptions": "siting.runs.regional",
-        "FarmFields": "siting.runs.regional",
+        "RegionOptions": "siting.runs.region_inputs",
+        "FarmFields": "siting.readers.farms",
         "RegionResult": "siting.runs.regional",
         "write_region_outputs": "siting.output.region",
         # siting weather and the weather readers
         "read_hourly_record": "siting.readers.hourly_record",
-        "frequency_table_from_hourly": "siting.readers.hourly_record",
+        "frequency_table_from_hourly": "siting.readers.hourly_table",
         "HourlyWeather": "siting.dispersion.hourly",
         "read_frequency_table": "siting.readers.frequency_table",
-        "WeatherClasses": "siting.dispersion.sector",
+        "WeatherClasses": "siting.dispersion.inputs",
         "write_weather_outputs": "siting.output.weather",
     },
 )

@@ -480,7 +480,7 @@ def stage_removing_backup(ws, mp):
 
 def during_dispersion(ws, mp):
     """In the middle of the computation (the first source's dispersion), before any writing."""
-    wrap(mp, _mod("siting.runs.screening"), "source_concentration_g_m3_per_g_s", after=False)
+    wrap(mp, _mod("siting.runs.screening_inputs"), "source_concentration_g_m3_per_g_s", after=False)
 
 
 def weather_second_chart(ws, mp):
@@ -2891,7 +2891,7 @@ case(
     BUG,
     README_EXIT,
     prior=True,
-    patch=bug_in("siting.runs.screening", "source_concentration_g_m3_per_g_s"),
+    patch=bug_in("siting.runs.screening_inputs", "source_concentration_g_m3_per_g_s"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(
@@ -2911,7 +2911,7 @@ case(
     3,
     BUG,
     README_EXIT,
-    patch=bug_in("siting.readers.hourly_record", "frequency_table_from_hourly"),
+    patch=bug_in("siting.readers.hourly_table", "frequency_table_from_hourly"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(
@@ -2920,7 +2920,7 @@ case(
     3,
     BUG,
     README_EXIT,
-    patch=bug_in("siting.runs.regional", "_task_tile"),
+    patch=bug_in("siting.runs.region_tasks", "_task_tile"),
     check=_traceback_named("RuntimeError: forced for the test"),
 )
 case(

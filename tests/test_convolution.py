@@ -1,4 +1,4 @@
-"""Checks of siting.dispersion.convolution: kernels, placement, FFT convolution and tiling.
+"""Checks of the FFT convolution: kernels (kernels.py), placement (cells.py), FFT and tiles (convolution.py).
 
 Every expected value is a cross-check against the direct per-source sum of the long-term engine
 (``longterm.source_concentration_g_m3_per_g_s`` through ``offset_concentration_g_m3_per_g_s``,
@@ -14,19 +14,17 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.dispersion.convolution import (
+from siting.dispersion.cells import near_field_correction, place_on_cells
+from siting.dispersion.convolution import convolve_emissions, tile_concentration
+from siting.dispersion.inputs import DispersionSettings, WeatherClasses
+from siting.dispersion.kernels import (
     ReleaseClass,
-    convolve_emissions,
     kernel_half_size,
-    near_field_correction,
     offset_concentration_g_m3_per_g_s,
     offset_lattice,
-    place_on_cells,
     release_class,
-    tile_concentration,
     unit_kernel,
 )
-from siting.dispersion.sector import DispersionSettings, WeatherClasses
 from siting.readers.frequency_table import read_frequency_table
 from siting.readers.resources import demo_dir
 
@@ -315,8 +313,8 @@ def test_radial_kernel_from_interpolated_profiles_matches_direct():
     interpolated linearly in log distance to the lattice's distinct distances; measured error
     1.8e-5 relative (where the field exceeds 1e-9 of its peak), largest next to the source.
     """
-    from siting.dispersion.convolution import unit_kernel
-    from siting.dispersion.sector import DispersionSettings, ReleaseElement, WeatherClasses
+    from siting.dispersion.inputs import DispersionSettings, ReleaseElement, WeatherClasses
+    from siting.dispersion.kernels import unit_kernel
     from siting.readers.tables import load_dispersion, sigma_scheme, wind_exponents
 
     table = load_dispersion()

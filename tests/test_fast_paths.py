@@ -17,12 +17,8 @@ from numpy.testing import assert_allclose
 from scipy.special import exp1
 
 from siting.dispersion.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
-from siting.dispersion.sector import (
-    DispersionSettings,
-    ReleaseElement,
-    WeatherClasses,
-    source_concentration_g_m3_per_g_s,
-)
+from siting.dispersion.inputs import DispersionSettings, ReleaseElement, WeatherClasses
+from siting.dispersion.sector import source_concentration_g_m3_per_g_s
 
 _SPEC = importlib.util.spec_from_file_location(
     "bench_reference", Path(__file__).resolve().parents[1] / "bench" / "reference.py"

@@ -20,7 +20,7 @@ from shapely.geometry import MultiPolygon, Point, Polygon, box
 from synthetic import hostile_sites
 
 from siting.dispersion.hourly import HourlyWeather
-from siting.dispersion.sector import WeatherClasses
+from siting.dispersion.inputs import WeatherClasses
 from siting.errors import InputError
 from siting.presentation.figures import (
     MAX_LABELLED_SITES,
@@ -306,7 +306,7 @@ def test_figures_never_touch_pyplot():
         import pandas as pd
         from siting.presentation.figures import figure_png, pc_vs_distance_figure
         from siting.presentation.figures import deposition_figure
-        from siting.dispersion.sector import WeatherClasses
+        from siting.dispersion.inputs import WeatherClasses
         from siting.presentation.weather_figures import wind_rose_from_table_figure
         sites = pd.DataFrame({"name": ["a", "b"], "distance_m": [100.0, 400.0],
                               "pc_dep_max_kg_n_ha_yr": [2.0, 0.5]})

@@ -6,9 +6,10 @@ import pytest
 import shapely
 
 from siting.errors import InputError, collect_warnings
-from siting.readers.habitats import read_habitats, site_sample_points
+from siting.readers.habitats import read_habitats
 from siting.readers.resources import demo_dir
-from siting.readers.scenario import HabitatsSection
+from siting.readers.scenario_sections import HabitatsSection
+from siting.readers.site_points import site_sample_points
 from siting.readers.tables import load_tables
 
 
@@ -331,7 +332,7 @@ def test_sample_points_equal_a_per_site_reference():
     Polygon.contains on each point, one site at a time)."""
     from shapely.ops import nearest_points
 
-    from siting.readers.habitats import lattice_step_m
+    from siting.readers.site_points import lattice_step_m
 
     sites = _mixed_sites()
     sources = [(250.0, 100.0), (-500.0, 600.0)]
@@ -361,7 +362,7 @@ def test_sample_points_equal_a_per_site_reference():
 def test_boundary_points_equal_a_per_ring_reference():
     """Boundary samples: every ring split into max(8, ceil(length / spacing)) equal steps, as
     shapely's line_interpolate_point gives ring by ring (independent reference)."""
-    from siting.readers.habitats import site_boundary_points
+    from siting.readers.site_points import site_boundary_points
 
     sites = _mixed_sites()
     index, x, y = site_boundary_points(sites, 10.0)
@@ -383,7 +384,7 @@ def test_grid_nodes_in_sites_equal_contains_on_every_node():
     """Nodes inside each site (bounding-box candidates) equal shapely.contains_xy over the
     whole grid for that site (independent reference, brute force)."""
     from siting.dispersion.grid import GridSpec
-    from siting.readers.habitats import grid_nodes_in_sites
+    from siting.readers.site_points import grid_nodes_in_sites
 
     grid = GridSpec(-520.0, 620.0, 10.0, 150, 110, "EPSG:32632")
     sites = _mixed_sites()
@@ -398,7 +399,7 @@ def test_very_long_polygon_gets_bounded_points_and_a_warning():
     """A 2,000 km strip 1 m wide (absurd, issue 12 item 9) gets a bounded number of sample
     points, quickly, and a warning naming it; a small site gets none (bounds: the module's
     constants, common practice, no source)."""
-    from siting.readers.habitats import (
+    from siting.readers.site_points import (
         MAX_BOUNDARY_POINTS_PER_SITE,
         MAX_POINTS_PER_SITE,
         coarsened_sites,

@@ -11,12 +11,8 @@ from siting.dispersion.hourly import (
     group_identical_hours,
     spread_lateral_density_per_m,
 )
-from siting.dispersion.sector import (
-    DispersionSettings,
-    ReleaseElement,
-    WeatherClasses,
-    element_concentration_g_m3_per_g_s,
-)
+from siting.dispersion.inputs import DispersionSettings, ReleaseElement, WeatherClasses
+from siting.dispersion.sector import element_concentration_g_m3_per_g_s
 from siting.physics.plume import plume_concentration_g_m3
 
 D = 3

@@ -18,13 +18,11 @@ import pytest
 from numpy.testing import assert_allclose
 
 from siting.dispersion.hourly import element_hourly_mean_g_m3_per_g_s
-from siting.dispersion.sector import (
-    DispersionSettings,
-    ReleaseElement,
-    element_concentration_g_m3_per_g_s,
-)
+from siting.dispersion.inputs import DispersionSettings, ReleaseElement
+from siting.dispersion.sector import element_concentration_g_m3_per_g_s
 from siting.readers.frequency_table import read_frequency_table
-from siting.readers.hourly_record import frequency_table_from_hourly, read_hourly_record
+from siting.readers.hourly_record import read_hourly_record
+from siting.readers.hourly_table import frequency_table_from_hourly
 from siting.readers.resources import demo_dir
 
 HOUSE = ReleaseElement(0.0, 0.0, 4.0, sigma_y0_m=9.3, sigma_z0_m=1.9, min_distance_m=20.0)

@@ -8,12 +8,14 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from siting.dispersion.sector import (
+from siting.dispersion.inputs import (
     DispersionSettings,
     ReleaseElement,
     WeatherClasses,
-    element_concentration_g_m3_per_g_s,
     rectangle_elements,
+)
+from siting.dispersion.sector import (
+    element_concentration_g_m3_per_g_s,
     source_concentration_g_m3_per_g_s,
 )
 from siting.physics.deposition import ground_vertical_density_per_m, source_depletion_fraction

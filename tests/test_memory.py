@@ -7,12 +7,8 @@ import pytest
 from numpy.testing import assert_allclose
 
 from siting.dispersion.hourly import HourlyWeather, element_hourly_mean_g_m3_per_g_s
-from siting.dispersion.sector import (
-    DispersionSettings,
-    ReleaseElement,
-    WeatherClasses,
-    element_concentration_g_m3_per_g_s,
-)
+from siting.dispersion.inputs import DispersionSettings, ReleaseElement, WeatherClasses
+from siting.dispersion.sector import element_concentration_g_m3_per_g_s
 
 RNG = np.random.default_rng(11)
 N_RECEPTORS = 300_000

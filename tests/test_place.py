@@ -81,7 +81,7 @@ def test_max_places_reproduce_the_threshold(demo_place, tmp_path):
 
 def test_positions_respect_exclusions_and_footprint(demo_place):
     """No position whose footprint touches an exclusion zone or leaves the allowed area."""
-    from siting.runs.screening import _source_elements
+    from siting.runs.screening_sources import _source_elements
 
     folder = demo_dir()
     dwellings = gpd.read_file(folder / "dwellings.gpkg").union_all().buffer(100.0)

@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
+from siting.dispersion.inputs import DispersionSettings, ReleaseElement, WeatherClasses
 from siting.dispersion.placement import (
     PolarKernel,
     max_places,
@@ -11,12 +12,7 @@ from siting.dispersion.placement import (
     share_of_threshold,
     site_maxima,
 )
-from siting.dispersion.sector import (
-    DispersionSettings,
-    ReleaseElement,
-    WeatherClasses,
-    source_concentration_g_m3_per_g_s,
-)
+from siting.dispersion.sector import source_concentration_g_m3_per_g_s
 
 RNG = np.random.default_rng(5)
 

@@ -1,4 +1,4 @@
-"""Checks of siting.runs.regional and `siting region`: many farms over a region, tiled, on dask.
+"""Checks of siting.runs.regional (with region_*.py, readers/farms.py) and `siting region`.
 
 Expected values are cross-checks (tiled vs one tile, dask vs no dask, the grid and site figures
 vs the engine's direct per-farm sum), conservation (contributors add up to the site total), the
@@ -18,22 +18,17 @@ from numpy.testing import assert_allclose
 from shapely.geometry import LineString, Point, box
 
 from siting.cli import main
-from siting.dispersion.convolution import offset_concentration_g_m3_per_g_s
+from siting.dispersion.kernels import offset_concentration_g_m3_per_g_s
 from siting.errors import InputError, InputFileError
 from siting.output.region import SITE_COLUMNS
 from siting.physics.constants import UG_PER_G, kg_per_year_to_g_s
+from siting.readers.farms import FarmFields, read_farms
 from siting.readers.resources import demo_dir
 from siting.readers.tables import load_tables
-from siting.runs.regional import (
-    CONTRIBUTOR_COLUMNS,
-    FarmFields,
-    RegionOptions,
-    compute_region,
-    plan_tiles,
-    prepare_region,
-    read_farms,
-    region,
-)
+from siting.runs.region_inputs import RegionOptions, prepare_region
+from siting.runs.region_sites import CONTRIBUTOR_COLUMNS
+from siting.runs.region_tiles import plan_tiles
+from siting.runs.regional import compute_region, region
 
 CRS = "EPSG:32632"
 CENTRE = (500_000.0, 5_800_000.0)
@@ -182,7 +177,7 @@ def test_distributed_run_is_identical_to_plain(plain, farms_file, weather_csv, h
 def test_unreachable_scheduler_is_a_clear_error(farms_file, weather_csv, monkeypatch):
     """A scheduler address nobody listens on: InputError naming the scheduler parameter."""
     pytest.importorskip("distributed")
-    monkeypatch.setattr("siting.runs.regional.SCHEDULER_CONNECT_TIMEOUT_S", 1.0)
+    monkeypatch.setattr("siting.runs.region_tasks.SCHEDULER_CONNECT_TIMEOUT_S", 1.0)
     with pytest.raises(InputError, match=r"^scheduler "):
         _run(farms_file, weather_csv, None, scheduler="tcp://127.0.0.1:9")
 

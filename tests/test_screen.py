@@ -215,7 +215,7 @@ def test_roof_outlet_in_the_wake_gets_no_rise_a_clear_stack_does(tmp_path):
     51.100(ii), confirmed in a secondary copy): a 9 m outlet beside a 6 m house (wake height
     15 m) gets none and reads like a jet-less outlet; a 20 m stack clear of it gets rise."""
     from siting.readers.scenario import load_scenario
-    from siting.runs.screening import outlet_rise
+    from siting.runs.screening_sources import outlet_rise
 
     rows = {}
     for name, height, building in (

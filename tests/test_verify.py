@@ -333,7 +333,7 @@ def test_edited_truncated_or_deleted_outputs_are_findings(clean, tmp_path, damag
 def test_findings_come_in_a_fixed_order(clean, tmp_path):
     """Findings are listed RESULTS_DIFFER, changed inputs (last recorded first), outputs, then
     the plausibility review by severity (regression: the order before verify.py was split)."""
-    from siting.runs.verification import SEVERITY_ORDER
+    from siting.runs.findings import SEVERITY_ORDER
 
     sub = tmp_path / "sub"
     shutil.copytree(clean, sub)

@@ -239,7 +239,7 @@ def test_a_region_error_names_the_option_on_the_terminal_and_the_parameter_in_py
     tmp_path, capsys
 ):
     """RegionOptions(memory_mb=-1): Python says memory_mb, `siting region` says --memory-mb."""
-    from siting.runs.regional import RegionOptions
+    from siting.runs.region_inputs import RegionOptions
 
     with pytest.raises(InputError, match=r"^memory_mb must be a finite number > 0") as refused:
         RegionOptions(memory_mb=-1.0).check()

@@ -11,11 +11,11 @@ from numpy.testing import assert_allclose
 from siting.errors import InputError, collect_warnings
 from siting.physics.plume import STABILITY_CLASSES
 from siting.readers.frequency_table import read_frequency_table
-from siting.readers.hourly_record import (
+from siting.readers.hourly_record import read_hourly_record
+from siting.readers.hourly_table import (
     compass_words,
     frequency_table_from_hourly,
     hours_by_sector,
-    read_hourly_record,
 )
 from siting.readers.resources import demo_dir
 

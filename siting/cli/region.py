@@ -10,7 +10,9 @@ from siting.cli.options import flags_by_parameter
 from siting.cli.terminal import EXIT_OK, plain, print_warnings
 from siting.output.folder import check_output_dir
 from siting.output.region import write_region_outputs
-from siting.runs.regional import FarmFields, RegionOptions, region
+from siting.readers.farms import FarmFields
+from siting.runs.region_inputs import RegionOptions
+from siting.runs.regional import region
 
 
 def run(args) -> int:

@@ -26,17 +26,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import ndtr
 
-from siting.dispersion.sector import (
-    DepletionTables,
-    DispersionSettings,
-    ReleaseElement,
-    receptor_reach_m,
-    release_wind_and_height,
-    table_position,
-    virtual_distances_m,
-)
+from siting.dispersion.depletion import DepletionTables, table_position
+from siting.dispersion.inputs import DispersionSettings, ReleaseElement
+from siting.dispersion.release import release_wind_and_height, virtual_distances_m
+from siting.dispersion.sector import receptor_reach_m
 from siting.physics.deposition import source_depletion_fraction
 from siting.physics.plume import vertical_term
 
@@ -165,6 +159,11 @@ def spread_lateral_density_per_m(cross_m, along_m, sigma_y_m, step_rad: float):
     gaussian = np.exp(-0.5 * (cross / sy) ** 2) / (_SQRT_2PI * sy)
     if step_rad <= 0:
         return gaussian
+    # Imported here, not at the top: scipy.special costs 0.1-0.4 s to import, and a run on a
+    # frequency table (the demo) imports this module without ever spreading an hour. numpy has
+    # no vectorised erfc, and scipy's ndtr keeps the hourly results as they were.
+    from scipy.special import ndtr
+
     half_width = 0.5 * np.asarray(along_m, dtype=float) * step_rad / sy  # w = x Delta / 2 sy
     centre = cross / sy
     with np.errstate(divide="ignore", invalid="ignore"):

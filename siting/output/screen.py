@@ -15,7 +15,7 @@ import pandas as pd
 from siting._version import __version__
 from siting.dispersion.grid import grid_around
 from siting.dispersion.hourly import HourlyWeather
-from siting.dispersion.sector import WeatherClasses
+from siting.dispersion.inputs import WeatherClasses
 from siting.output.folder import check_output_dir, staged_folder
 from siting.output.geotiff import write_geotiff
 from siting.output.records import input_paths, output_hashes, package_inputs, run_record_base

@@ -22,7 +22,7 @@ from siting.output.folder import check_output_dir, staged_folder
 from siting.output.records import sha256_of
 from siting.presentation import weather_figures
 from siting.presentation.figure_parts import figure_png
-from siting.readers import hourly_record as weather_hourly
+from siting.readers import hourly_table as weather_hourly
 
 
 def write_weather_outputs(

@@ -23,14 +23,14 @@ from siting.errors import InputError
 from siting.physics.plume import STABILITY_CLASSES
 from siting.presentation.figure_parts import figure_and_axes
 from siting.presentation.formats import format_number
-from siting.readers import hourly_record
+from siting.readers import hourly_table as hourly_record  # binning helpers
 
 if TYPE_CHECKING:  # imported for annotations only; the module does not need them at run time
     from matplotlib.axes import Axes
     from matplotlib.figure import Figure
 
     from siting.dispersion.hourly import HourlyWeather
-    from siting.dispersion.sector import WeatherClasses
+    from siting.dispersion.inputs import WeatherClasses
 
 __all__ = ["stability_by_speed_figure", "wind_rose_figure", "wind_rose_from_table_figure"]
 

@@ -23,7 +23,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from siting.dispersion.sector import WeatherClasses
+from siting.dispersion.inputs import WeatherClasses
 from siting.errors import InputError, WeatherWarning
 from siting.physics.plume import STABILITY_CLASSES
 

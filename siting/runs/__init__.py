@@ -15,39 +15,44 @@ from siting._lazy import lazy_exports
 __all__, __getattr__, __dir__ = lazy_exports(
     __name__,
     {
+        # comparison.py: verify's submitted figures against the re-run's, at a tolerance
+        "compare_figures": "siting.runs.comparison",
+        # findings.py: verify's plausibility review, each finding against a table or range
+        "Finding": "siting.runs.findings",
+        "review": "siting.runs.findings",
+        # integrity.py: verify's packed inputs and written outputs against their hashes
+        "check_integrity": "siting.runs.integrity",
+        "check_outputs": "siting.runs.integrity",
         # placing.py: the placement search (``siting place``)
         "PlaceResult": "siting.runs.placing",
         "place": "siting.runs.placing",
+        # region_inputs.py: a regional run's options and its inputs read and checked
+        "RegionOptions": "siting.runs.region_inputs",
+        "RegionInputs": "siting.runs.region_inputs",
+        "prepare_region": "siting.runs.region_inputs",
+        # region_tiles.py: a regional grid's tiles planned against the memory budget
+        "TilePlan": "siting.runs.region_tiles",
+        "engine_budget_mb": "siting.runs.region_tiles",
+        "plan_tiles": "siting.runs.region_tiles",
         # regional.py: many farms over a region, tiled, on dask (``siting region``)
-        "RegionOptions": "siting.runs.regional",
-        "FarmFields": "siting.runs.regional",
-        "read_farms": "siting.runs.regional",
-        "TilePlan": "siting.runs.regional",
-        "engine_budget_mb": "siting.runs.regional",
-        "plan_tiles": "siting.runs.regional",
-        "RegionInputs": "siting.runs.regional",
         "RegionResult": "siting.runs.regional",
-        "prepare_region": "siting.runs.regional",
         "compute_region": "siting.runs.regional",
         "region": "siting.runs.regional",
         # run_cache.py: the cache a screening run's sensitivity re-runs share
         "RunCache": "siting.runs.run_cache",
         # screening.py: the screening run: scenario -> process contribution at every habitat site
         "ScreenResult": "siting.runs.screening",
-        "outlet_rise": "siting.runs.screening",
-        "reduction_basis": "siting.runs.screening",
-        "derive_sources": "siting.runs.screening",
-        "site_lat_lon": "siting.runs.screening",
-        "Prepared": "siting.runs.screening",
-        "prepare": "siting.runs.screening",
         "screen": "siting.runs.screening",
+        # screening_inputs.py: prepare(), a scenario's inputs read and checked; the engines' calls
+        "site_lat_lon": "siting.runs.screening_inputs",
+        "Prepared": "siting.runs.screening_inputs",
+        "prepare": "siting.runs.screening_inputs",
+        # screening_sources.py: release elements, emission derivation, hourly emission weights
+        "outlet_rise": "siting.runs.screening_sources",
+        "reduction_basis": "siting.runs.screening_sources",
+        "derive_sources": "siting.runs.screening_sources",
         # verification.py: a regulator's spot-check of a submitted screening run (``siting verify``)
-        "Finding": "siting.runs.verification",
         "VerifyResult": "siting.runs.verification",
-        "check_integrity": "siting.runs.verification",
-        "check_outputs": "siting.runs.verification",
-        "compare_figures": "siting.runs.verification",
-        "review": "siting.runs.verification",
         "verify": "siting.runs.verification",
     },
 )

@@ -34,10 +34,13 @@ from siting.dispersion.placement import (
 )
 from siting.errors import InputError, InputWarning, collecting_warnings
 from siting.physics.constants import KG_YR_TO_G_S, UG_NH3_M2_S_TO_KG_N_HA_YR
-from siting.readers.habitats import read_vector_layer, site_outline_points
+from siting.readers.habitats import read_vector_layer
 from siting.readers.scenario import Scenario, load_scenario
+from siting.readers.site_points import site_outline_points
 from siting.readers.tables import default_reduction_percent
-from siting.runs.screening import BOUNDARY_SPACING_M, Prepared, _source_elements, prepare
+from siting.runs.screening_inputs import Prepared, prepare
+from siting.runs.screening_sites import BOUNDARY_SPACING_M
+from siting.runs.screening_sources import _source_elements
 
 MAX_CANDIDATES = 200_000
 
