@@ -43,25 +43,16 @@ def print_warnings(console, messages, flags: dict[str, str] | None = None, **opt
         console.print(f"[yellow]warning:[/] {plain(text)}", markup=True, **options)
 
 
+#: Exit codes (README): 0 ok; 1 only with --fail-on-exceed and a site above its threshold;
+#: 2 bad input or an output that may not be written; 3 a bug (traceback file named).
 EXIT_OK = 0
-
-
-EXIT_EXCEEDS = 1  # --fail-on-exceed and a site above its threshold
-
-
+EXIT_EXCEEDS = 1
 EXIT_BAD_INPUT = 2
-
-
 EXIT_INTERNAL = 3
-
 
 #: Most site rows, verdict-flip lines and warnings the screen summary prints; the rest are
 #: counted in one line that names the file holding them all. A terminal shows a screenful;
 #: common practice, no source.
 SUMMARY_MAX_SITES = 25
-
-
 SUMMARY_MAX_FLIPS = 10
-
-
 SUMMARY_MAX_WARNINGS = 10
