@@ -18,7 +18,7 @@ from scipy.special import exp1
 
 from siting.dispersion.hourly import HourlyWeather, source_hourly_mean_g_m3_per_g_s
 from siting.dispersion.inputs import DispersionSettings, ReleaseElement, WeatherClasses
-from siting.dispersion.sector import source_concentration_g_m3_per_g_s
+from siting.dispersion.sector import sector_position, source_concentration_g_m3_per_g_s
 
 _SPEC = importlib.util.spec_from_file_location(
     "bench_reference", Path(__file__).resolve().parents[1] / "bench" / "reference.py"
@@ -231,6 +231,27 @@ def test_reference_sector_weights_interpolate_between_centre_lines():
     assert_allclose(weights[[0, 1], 1], [0.5, 0.5], rtol=1e-12)  # half way between 0 and 30
     assert_allclose(weights[[11, 0], 3], [0.5, 0.5], rtol=1e-12)  # across north
     assert_allclose(weights[[6, 7], 4], [1 / 3, 2 / 3], rtol=1e-12)  # 200 deg: 1/3 of the way
+
+
+@pytest.mark.parametrize("first_centre_deg", [0.0, 5.0, 15.0, 180.0, 345.0, 350.0])
+@pytest.mark.parametrize("n_sectors", [8, 12, 36])
+def test_engine_sector_position_is_the_angle_between_centre_lines(first_centre_deg, n_sectors):
+    """The engine's (k0, w1) place the wind direction between two centre lines, whatever the
+    first centre: checked against the direction the wind blows from (b + 180 deg for a receptor
+    at bearing b, geometry) and the centre lines' own angles, modulo written out here."""
+    rng = np.random.default_rng(3)
+    dx, dy = rng.normal(size=2000), rng.normal(size=2000)
+    dx[:4], dy[:4] = [0.0, 1.0, -1.0, 0.0], [-1.0, 0.0, 0.0, 1.0]  # exactly S, E, W, N
+    width = 360.0 / n_sectors
+    centres = (first_centre_deg + np.arange(n_sectors) * width) % 360.0
+    weather = WeatherClasses(centres, np.array([1.0]), np.full((n_sectors, 1, 1), 1 / n_sectors))
+    k0, w1 = sector_position(dx, dy, weather)
+    assert k0.min() >= 0 and k0.max() <= n_sectors - 1
+    assert w1.min() >= 0.0 and w1.max() <= 1.0
+    wind_from = (np.rad2deg(np.arctan2(dx, dy)) + 180.0) % 360.0
+    placed = (weather.sector_centres_deg[k0] + w1 * width) % 360.0
+    gap = np.abs((placed - wind_from + 180.0) % 360.0 - 180.0)
+    assert gap.max() < 1e-9
 
 
 def test_reference_neighbour_sectors_are_the_non_zero_sector_weights():

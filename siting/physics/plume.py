@@ -328,6 +328,8 @@ def vertical_term(
     h = release_height_m
     z = receptor_height_m
     two_sz2 = 2.0 * sz * sz
+    if mixing_height_m is None and np.ndim(z) == 0 and z == 0:  # at ground: image = plume
+        return 2.0 * np.exp(-(h * h) / two_sz2)
     v = np.exp(-((z - h) ** 2) / two_sz2) + np.exp(-((z + h) ** 2) / two_sz2)
     if mixing_height_m is None:
         return v
