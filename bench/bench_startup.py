@@ -13,8 +13,8 @@ than wall time.
 Python compiles a module it finds no bytecode for (``__pycache__``) at every import. Where
 PYTHONDONTWRITEBYTECODE is set (some checkouts and containers) that is every module of siting
 on every run, which an installed wheel, its bytecode written when it is installed, never pays.
-``--bytecode`` adds the demo run from a copy of the package (in a temporary folder, with the
-bundled config/ and data_demo/) whose bytecode is compiled first, so both figures are shown.
+``--bytecode`` adds the demo run from a copy of the package (in a temporary folder, its
+bundled config/ and data_demo/ inside it) whose bytecode is compiled first, so both figures are shown.
 """
 
 from __future__ import annotations
@@ -59,8 +59,6 @@ def _compiled_copy(folder: Path) -> Path:
     shutil.copytree(
         ROOT / "siting", folder / "siting", ignore=shutil.ignore_patterns("__pycache__")
     )
-    for bundled in ("config", "data_demo"):  # found beside the package, as in a checkout
-        shutil.copytree(ROOT / bundled, folder / bundled)
     if not compileall.compile_dir(folder / "siting", quiet=1):
         raise SystemExit("bench: the copy of the package did not compile")
     return folder

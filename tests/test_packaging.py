@@ -2,8 +2,8 @@
 
 Slow (a wheel build plus a venv with numpy, geopandas, rasterio... from the package index):
 run with ``pytest -m slow tests/test_packaging.py``. The installed ``siting demo`` must find its
-config/ and data_demo/ inside the wheel (siting/_bundled, siting/resources.py), not in this
-checkout, so it runs from an empty folder with a clean environment.
+siting/config/ and siting/data_demo/ inside the installed package (importlib.resources,
+siting/readers/resources.py), not in this checkout, so it runs from an empty folder with a clean environment.
 """
 
 from __future__ import annotations
@@ -21,8 +21,9 @@ import pytest
 
 REPO = Path(__file__).resolve().parents[1]
 BUNDLED = [
-    "siting/_bundled/config/emission_factors.toml",
-    "siting/_bundled/data_demo/scenario.toml",
+    "siting/config/emission_factors.toml",
+    "siting/data_demo/scenario.toml",
+    "siting/data_demo/habitats.gpkg",
 ]
 
 pytestmark = pytest.mark.slow
@@ -90,10 +91,12 @@ def installed(wheel, tmp_path_factory) -> Path:
 
 
 def test_wheel_bundles_config_and_demo(wheel):
-    """The wheel holds the lookup tables and the demo scenario under siting/_bundled."""
+    """The wheel holds the lookup tables and the demo inside the package, and not the demo's
+    generators (tools/, a checkout's own)."""
     names = set(zipfile.ZipFile(wheel).namelist())
     for name in BUNDLED:
         assert name in names
+    assert not any(name.startswith("tools/") or "make_demo" in name for name in names)
 
 
 def test_wheel_carries_the_map_assets(wheel):
@@ -120,5 +123,5 @@ def test_installed_demo_runs_from_an_empty_folder(installed, tmp_path):
     # the demo came from the installed wheel, not from this checkout
     record = json.loads((work / "maps" / "demo" / "run.json").read_text(encoding="utf-8"))
     scenario_path = Path(record["inputs"]["scenario"]["path"])
-    assert "_bundled" in scenario_path.parts
+    assert scenario_path.parts[-3:] == ("siting", "data_demo", "scenario.toml")
     assert REPO not in scenario_path.parents

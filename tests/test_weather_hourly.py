@@ -354,7 +354,7 @@ def test_demo_hourly_record_reads_as_described():
     """The invented demo record reads as data_demo/README.md describes it.
 
     One year, two gaps of 7 and 3 h, about 3 % calms, prevailing south-westerly (regression on
-    the output of data_demo/make_demo.py, seed 20240612, made with this change).
+    the output of tools/make_demo.py, seed 20240612, made with this change).
     """
     with collect_warnings(reissue=False) as found:
         weather, summary = read_hourly_record(demo_dir() / "hourly_weather.csv", 52.4, 9.0)

@@ -1,24 +1,25 @@
-"""Where the bundled config tables and demo data live.
+"""Where the bundled config tables and demo data live: inside the package, found with importlib.resources.
 
-In a wheel they are packed under ``siting/_bundled``; in a source checkout (editable install or
-running from the repo) they are the top-level ``config/`` and ``data_demo/`` folders. Nothing else.
+``siting/config/`` holds the lookup tables and ``siting/data_demo/`` the invented demo scenario,
+in a checkout and in an installed wheel alike. Nothing else.
 """
 
 from __future__ import annotations
 
+from importlib import resources
 from pathlib import Path
-
-_PACKAGE_DIR = Path(__file__).resolve().parent.parent  # siting/
 
 
 def _bundled(name: str) -> Path:
-    packed = _PACKAGE_DIR / "_bundled" / name
-    if packed.is_dir():
-        return packed
-    checkout = _PACKAGE_DIR.parent / name
-    if checkout.is_dir():
-        return checkout
-    raise FileNotFoundError(f"siting installation is incomplete: no {name}/ folder found")
+    folder = resources.files("siting") / name
+    if not isinstance(folder, Path):  # a package imported from a zip archive
+        raise FileNotFoundError(
+            f"siting's bundled {name}/ folder is not on disk ({folder}); install siting as a "
+            "folder (pip install), not inside a zip archive"
+        )
+    if not folder.is_dir():
+        raise FileNotFoundError(f"siting installation is incomplete: no {folder} folder")
+    return folder
 
 
 def config_dir() -> Path:
@@ -27,7 +28,7 @@ def config_dir() -> Path:
     Returns
     -------
     Path
-        ``siting/_bundled/config`` in an installed wheel, ``config/`` in a checkout.
+        ``siting/config`` of the installed package.
     """
     return _bundled("config")
 
@@ -38,6 +39,6 @@ def demo_dir() -> Path:
     Returns
     -------
     Path
-        ``siting/_bundled/data_demo`` in an installed wheel, ``data_demo/`` in a checkout.
+        ``siting/data_demo`` of the installed package.
     """
     return _bundled("data_demo")

@@ -14,7 +14,7 @@ scenario.toml, scenario_hourly.toml and README.md are written by hand; this scri
 that the scenarios' sources lie outside every habitat polygon. The output is the same on every
 run (fixed seeds; the hourly record has its own generator, so adding it changed nothing else).
 
-Run:  python data_demo/make_demo.py
+Run:  python tools/make_demo.py      (writes into siting/data_demo/)
 Needs numpy, shapely, geopandas (with pyogrio).
 """
 
@@ -34,7 +34,7 @@ SEED = 20240611
 CRS = "EPSG:32632"  # WGS 84 / UTM zone 32N, metres
 FARM_X_M = 500_000.0  # centre of the fictional holding
 FARM_Y_M = 5_800_000.0
-HERE = Path(__file__).resolve().parent
+HERE = Path(__file__).resolve().parents[1] / "siting" / "data_demo"  # the bundled demo folder
 
 # --- weather ------------------------------------------------------------------------------------
 
@@ -145,16 +145,26 @@ def make_hourly_weather(rng: np.random.Generator) -> list[list[str]]:
     daytime = np.sin(math.pi * np.clip((hour_of_day - 5.0) / 15.0, 0.0, 1.0))  # 0 at night
     clear_night = (daytime == 0) & (cloud <= 3)
     strength = np.exp(0.45 * _ar1(rng, n, 0.96) - 0.1)
-    speed = (mean_speed * strength * (1.0 - 0.12 * season) * (0.8 + 0.35 * daytime)
-             * np.where(clear_night, 0.5, 1.0))
+    speed = (
+        mean_speed
+        * strength
+        * (1.0 - 0.12 * season)
+        * (0.8 + 0.35 * daytime)
+        * np.where(clear_night, 0.5, 1.0)
+    )
     still = clear_night & (_ar1(rng, n, 0.8) > 0.3)  # spells of still, clear nights
     speed = np.where(still, 0.0, speed)
-    temperature = (9.8 + 7.8 * season
-                   + (2.5 + 1.2 * season) * (1.0 - 0.07 * cloud)
-                   * np.cos(2.0 * math.pi * (hour_of_day - 15.0) / 24.0)
-                   + 2.8 * _ar1(rng, n, 0.985))
-    ceiling = np.clip(np.round(np.exp(rng.normal(math.log(2500.0), 0.8, n)) / 100.0) * 100.0,
-                      200.0, 20000.0)
+    temperature = (
+        9.8
+        + 7.8 * season
+        + (2.5 + 1.2 * season)
+        * (1.0 - 0.07 * cloud)
+        * np.cos(2.0 * math.pi * (hour_of_day - 15.0) / 24.0)
+        + 2.8 * _ar1(rng, n, 0.985)
+    )
+    ceiling = np.clip(
+        np.round(np.exp(rng.normal(math.log(2500.0), 0.8, n)) / 100.0) * 100.0, 200.0, 20000.0
+    )
 
     speed_reported = np.round(speed * 2.0) / 2.0
     direction_reported = (np.round(direction / 10.0) * 10.0) % 360.0
@@ -173,9 +183,16 @@ def make_hourly_weather(rng: np.random.Generator) -> list[list[str]]:
         if i in gap_empty:
             rows.append([stamp, "", "", "", "", ""])
             continue
-        rows.append([stamp, f"{direction_reported[i]:.0f}", f"{speed_reported[i]:.1f}",
-                     str(cloud[i]), f"{ceiling[i]:.0f}" if cloud[i] >= 5 else "",
-                     f"{temperature[i]:.1f}"])
+        rows.append(
+            [
+                stamp,
+                f"{direction_reported[i]:.0f}",
+                f"{speed_reported[i]:.1f}",
+                str(cloud[i]),
+                f"{ceiling[i]:.0f}" if cloud[i] >= 5 else "",
+                f"{temperature[i]:.1f}",
+            ]
+        )
     return rows
 
 
@@ -244,38 +261,38 @@ def make_habitats(rng: np.random.Generator) -> gpd.GeoDataFrame:
     # straddle it; a screening that samples only grid nodes would miss or under-read it.
     mire = meandering_strip(rng, _offset(235.0, 700.0), 115.0, 520.0, 20.0)
     records = [
-        dict(
-            name="Fernwhistle Moss",
-            designation="Special Area of Conservation",
-            habitat="raised_bog",
-            background_dep_kg_n_ha_yr=13.8,
-            background_conc_ug_m3=1.4,
-            geometry=bog,
-        ),
-        dict(
-            name="Gorseburrow Heath",
-            designation="Site of Special Scientific Interest",
-            habitat="dry_heath",
-            background_dep_kg_n_ha_yr=15.6,
-            background_conc_ug_m3=1.9,
-            geometry=heath,
-        ),
-        dict(
-            name="Thimbleden Wood",
-            designation="Ancient Woodland",
-            habitat="broadleaved_woodland",
-            background_dep_kg_n_ha_yr=23.5,
-            background_conc_ug_m3=2.6,
-            geometry=wood,
-        ),
-        dict(
-            name="Peewit Slack",
-            designation="Site of Special Scientific Interest",
-            habitat="valley_mire",
-            background_dep_kg_n_ha_yr=16.9,
-            background_conc_ug_m3=2.1,
-            geometry=mire,
-        ),
+        {
+            "name": "Fernwhistle Moss",
+            "designation": "Special Area of Conservation",
+            "habitat": "raised_bog",
+            "background_dep_kg_n_ha_yr": 13.8,
+            "background_conc_ug_m3": 1.4,
+            "geometry": bog,
+        },
+        {
+            "name": "Gorseburrow Heath",
+            "designation": "Site of Special Scientific Interest",
+            "habitat": "dry_heath",
+            "background_dep_kg_n_ha_yr": 15.6,
+            "background_conc_ug_m3": 1.9,
+            "geometry": heath,
+        },
+        {
+            "name": "Thimbleden Wood",
+            "designation": "Ancient Woodland",
+            "habitat": "broadleaved_woodland",
+            "background_dep_kg_n_ha_yr": 23.5,
+            "background_conc_ug_m3": 2.6,
+            "geometry": wood,
+        },
+        {
+            "name": "Peewit Slack",
+            "designation": "Site of Special Scientific Interest",
+            "habitat": "valley_mire",
+            "background_dep_kg_n_ha_yr": 16.9,
+            "background_conc_ug_m3": 2.1,
+            "geometry": mire,
+        },
     ]
     return gpd.GeoDataFrame(records, geometry="geometry", crs=CRS)
 
@@ -331,7 +348,7 @@ def _check(habitats: gpd.GeoDataFrame, weather: list, receptors: list) -> None:
         far = max(Point(c).distance(farm) for c in row.geometry.exterior.coords)
         area_ha = row.geometry.area / 1e4
         print(f"  {row.name:20s} {row.habitat:22s} {area_ha:6.2f} ha  {near:7.0f}-{far:5.0f} m")
-        assert 300.0 <= near and far <= 2500.0, f"{row.name} outside the 300 m - 2.5 km band"
+        assert near >= 300.0 and far <= 2500.0, f"{row.name} outside the 300 m - 2.5 km band"
         assert 0.9 <= area_ha <= 60.0
     assert abs(sum(r[3] for r in weather) - 1.0) < 1e-12
     for pid, x, y, _ in receptors:
@@ -343,8 +360,10 @@ def _check(habitats: gpd.GeoDataFrame, weather: list, receptors: list) -> None:
         for src in scenario.get("source", []):
             p = Point(src["x"], src["y"])
             assert not habitats.contains(p).any(), f"source {src['id']} lies in a habitat"
-            print(f"  {scenario_path.name}: source {src['id']:3s} {p.distance(farm):7.0f} m "
-                  "from the farm centre")
+            print(
+                f"  {scenario_path.name}: source {src['id']:3s} {p.distance(farm):7.0f} m "
+                "from the farm centre"
+            )
 
 
 def make_holding(habitats: gpd.GeoDataFrame):
@@ -355,17 +374,29 @@ def make_holding(habitats: gpd.GeoDataFrame):
     from shapely.geometry import LineString, Polygon
 
     cx, cy = FARM_X_M, FARM_Y_M
-    boundary = Polygon([(cx - 230, cy - 420), (cx + 520, cy - 470), (cx + 610, cy - 60),
-                        (cx + 540, cy + 230), (cx + 60, cy + 260), (cx - 260, cy + 120)])
+    boundary = Polygon(
+        [
+            (cx - 230, cy - 420),
+            (cx + 520, cy - 470),
+            (cx + 610, cy - 60),
+            (cx + 540, cy + 230),
+            (cx + 60, cy + 260),
+            (cx - 260, cy + 120),
+        ]
+    )
     boundary = boundary.difference(habitats.union_all().buffer(30.0))
     dwellings = [Point(cx - 90, cy + 60), Point(cx + 560, cy - 420)]  # farmhouse, cottage
-    brook = LineString([(cx - 300, cy - 250), (cx + 100, cy - 180), (cx + 400, cy - 260),
-                        (cx + 700, cy - 200)])
+    brook = LineString(
+        [(cx - 300, cy - 250), (cx + 100, cy - 180), (cx + 400, cy - 260), (cx + 700, cy - 200)]
+    )
     crs = habitats.crs
-    return (gpd.GeoDataFrame({"name": ["Hollowmere Farm holding (invented)"]},
-                             geometry=[boundary], crs=crs),
-            gpd.GeoDataFrame({"name": ["farmhouse", "cottage"]}, geometry=dwellings, crs=crs),
-            gpd.GeoDataFrame({"name": ["Hollow Brook"]}, geometry=[brook], crs=crs))
+    return (
+        gpd.GeoDataFrame(
+            {"name": ["Hollowmere Farm holding (invented)"]}, geometry=[boundary], crs=crs
+        ),
+        gpd.GeoDataFrame({"name": ["farmhouse", "cottage"]}, geometry=dwellings, crs=crs),
+        gpd.GeoDataFrame({"name": ["Hollow Brook"]}, geometry=[brook], crs=crs),
+    )
 
 
 def main() -> None:
@@ -392,15 +423,20 @@ def main() -> None:
             out.writerow([pid, f"{x:.1f}", f"{y:.1f}", cover])
     holding, dwellings, brook = make_holding(habitats)
     print(f"holding: {holding.area.iloc[0] / 1e4:.1f} ha")
-    for name, frame in (("holding.gpkg", holding), ("dwellings.gpkg", dwellings),
-                        ("watercourses.gpkg", brook)):
+    for name, frame in (
+        ("holding.gpkg", holding),
+        ("dwellings.gpkg", dwellings),
+        ("watercourses.gpkg", brook),
+    ):
         (HERE / name).unlink(missing_ok=True)
         frame.to_file(HERE / name, driver="GPKG")
     hourly = make_hourly_weather(np.random.default_rng(HOURLY_SEED))
     with open(HERE / "hourly_weather.csv", "w", newline="", encoding="utf-8") as fh:
         csv.writer(fh, lineterminator="\n").writerows(hourly)
-    print(f"wrote weather_table.csv ({len(weather)} rows), hourly_weather.csv "
-          f"({len(hourly) - 1} rows), habitats.gpkg, receptors.csv")
+    print(
+        f"wrote weather_table.csv ({len(weather)} rows), hourly_weather.csv "
+        f"({len(hourly) - 1} rows), habitats.gpkg, receptors.csv"
+    )
 
 
 if __name__ == "__main__":
