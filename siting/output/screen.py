@@ -75,6 +75,17 @@ SITE_COLUMNS = [
     "pec_pct_level",
     "pec_pct_load",
     "verdict",
+    "passes",
+    "deciding_rule",
+    "basis",
+    "rules",
+    "judged_conc_max_ug_m3",
+    "judged_dep_max_kg_n_ha_yr",
+    "judged_pct_level",
+    "judged_pct_load",
+    "judged_incomb_dep_max_kg_n_ha_yr",
+    "judged_incomb_pct_level",
+    "judged_incomb_pct_load",
 ]
 
 #: Written beside the depleted figures when plume depletion is switched on: what depletion took off.
@@ -138,8 +149,10 @@ def _habitat_values(sites) -> pd.DataFrame:
 
 def _contour_levels(sites) -> list[tuple[float, str]]:
     """Deposition contours at each assessed site's threshold share of its critical load."""
-    assessed = sites["assessed"].to_numpy(dtype=bool)
-    threshold = sites["threshold_percent"].to_numpy(dtype=float)[assessed]
+    # sites whose rule set gives no share as its threshold (an absolute rule) draw no contour
+    threshold_all = sites["threshold_percent"].to_numpy(dtype=float)
+    assessed = sites["assessed"].to_numpy(dtype=bool) & np.isfinite(threshold_all)
+    threshold = threshold_all[assessed]
     load = sites["critical_load_used_kg_n_ha_yr"].to_numpy(dtype=float)[assessed]
     levels = {}
     if threshold.size:

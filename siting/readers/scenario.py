@@ -344,6 +344,11 @@ def _check_needs_hourly(scenario: Scenario, filename: str) -> None:
             )
 
 
+def _names_a_file(rules: str) -> bool:
+    """Whether [assessment] rules names a file (a path) rather than a bundled rule set id."""
+    return "/" in rules or "\\" in rules or rules.endswith(".toml")
+
+
 def _resolved_sections(
     scenario: Scenario, folder: Path, filename: str, moved: dict[str, Path] | None
 ) -> dict:
@@ -370,6 +375,9 @@ def _resolved_sections(
                 )
             }
         )
+    if _names_a_file(assessment.rules):
+        rules = _resolve(Path(assessment.rules), folder, "assessment.rules", filename, moved)
+        assessment = assessment.model_copy(update={"rules": str(rules)})
     holding = scenario.holding
     if holding is not None:
         holding = _resolved_holding(holding, folder, filename, moved)

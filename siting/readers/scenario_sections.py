@@ -11,7 +11,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, StrictBool, model_validator
+from pydantic import BaseModel, ConfigDict, Field, StrictBool, StringConstraints, model_validator
 
 FilePath = Annotated[Path, Field(strict=False)]
 
@@ -165,12 +165,16 @@ class AssessmentSection(_Section):
         Which review's empirical critical loads (default 2022).
     config_dir : Path, optional
         A folder with the user's own copy of the lookup tables.
+    rules : str
+        The rule set the sites are judged by: a bundled id (``siting rules`` lists them) or a
+        path to a rule set file (relative to the scenario's folder); default "plain".
     """
 
     critical_load_end: Literal["lower", "middle", "upper"] = "lower"
     # which review's empirical critical loads: "2022" (Bobbink et al. 2022, default) or "2011"
     critical_load_review: Literal["2022", "2011"] = "2022"
     config_dir: FilePath | None = None
+    rules: Annotated[str, StringConstraints(strip_whitespace=True, min_length=1)] = "plain"
 
 
 class HabitatsSection(_Section):

@@ -29,8 +29,10 @@ import pandas as pd
 from siting.dispersion.grid import GridSpec
 from siting.errors import collecting_warnings
 from siting.physics.constants import deposition_kg_n_ha_yr
+from siting.readers.rules import RuleSet
 from siting.readers.scenario import Scenario
 from siting.readers.tables import Tables
+from siting.runs.judging import with_verdicts
 from siting.runs.run_cache import RunCache
 from siting.runs.screening_inputs import CAUTIONS, Prepared, prepare
 from siting.runs.screening_sites import (
@@ -83,6 +85,8 @@ class ScreenResult:
         One row per (site, variant) of the two-sided sensitivity (sensitivity.csv).
     sensitivity_summary : pandas.DataFrame, optional
         One row per site: the range of its figures and whether a variant flips its verdict.
+    rules : RuleSet, optional
+        The rule set the sites were judged by.
     """
 
     scenario: Scenario
@@ -99,6 +103,7 @@ class ScreenResult:
     weather: object = None  # WeatherClasses or HourlyWeather, for the weather figures
     sensitivity: pd.DataFrame | None = None  # one row per (site, variant); see sensitivity.py
     sensitivity_summary: pd.DataFrame | None = None  # one row per site
+    rules: RuleSet | None = None  # the rule set the sites were judged by
 
     @property
     def cautions(self) -> list[str]:
@@ -115,6 +120,7 @@ def screen(
     with_grid: bool = True,
     sensitivity: bool = True,
     cache: RunCache | None = None,
+    rules: RuleSet | str | Path | None = None,
 ) -> ScreenResult:
     """Run a full screening assessment of a scenario (a file path or a loaded Scenario).
 
@@ -144,6 +150,9 @@ def screen(
         assumptions varied both ways, re-run at the sites' points.
     cache : RunCache, optional
         Shared by the re-runs of one scenario (a sensitivity; see RunCache).
+    rules : RuleSet, str or Path, optional
+        Judge the sites by this rule set instead of the scenario's ([assessment] rules): a
+        bundled id, a file, or a loaded RuleSet.
 
     Returns
     -------
@@ -158,7 +167,7 @@ def screen(
         A fault in the scenario, a table, the weather or the habitat layer (named).
     """
     clock = _PhaseClock()
-    prep = prepare(scenario, tables, cache)
+    prep = prepare(scenario, tables, cache, rules)
     layout = _layout(prep, with_grid)
     clock.lap("inputs_s")
     conc_by_role, undepleted_pc = _disperse(prep, layout, with_grid, progress)
@@ -288,8 +297,16 @@ def _assess(
         "net": conc_by_role["proposed"] - conc_by_role["removed"],
     }
     combos["incomb"] = combos["pc"] + conc_by_role["other"]
+    # the contribution the rule set judges, alone and with the other sources
+    combos["judged"] = {
+        "proposal": conc_by_role["proposed"],
+        "installation": combos["pc"],
+        "net": combos["net"],
+    }[prep.rules.basis]
+    combos["judged_incomb"] = combos["judged"] + conc_by_role["other"]
     dep = {k: deposition_kg_n_ha_yr(v, rec.vd_m_s) for k, v in combos.items()}
     sites = _site_table(prep, combos, undepleted_pc, rec, layout.source_shapes, layout.assessed)
+    sites = with_verdicts(sites, prep.rules)
     receptors = _named_point_table(layout.named, combos, dep, rec)
     shape = (grid.n_rows, grid.n_cols) if with_grid else (0, 0)
     fields = {
@@ -311,6 +328,7 @@ def _assess(
         [],  # filled by @collecting_warnings
         {},  # timings, filled by screen()
         prep.weather,
+        rules=prep.rules,
     )
 
 

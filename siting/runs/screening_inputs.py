@@ -25,6 +25,7 @@ from siting.physics.constants import UG_PER_G
 from siting.readers.frequency_table import read_frequency_table
 from siting.readers.habitats import read_habitats
 from siting.readers.hourly_record import read_hourly_record
+from siting.readers.rules import RuleSet, load_rule_set
 from siting.readers.scenario import Scenario, load_scenario
 from siting.readers.scenario_sources import ROLES
 from siting.readers.tables import Tables, load_tables
@@ -67,6 +68,8 @@ class Prepared:
         Legal but doubtful input.
     cache : RunCache, optional
         Shared by the re-runs of one scenario (a sensitivity).
+    rules : RuleSet, optional
+        The rule set the sites are judged by ([assessment] rules, or the caller's).
     """
 
     scenario: Scenario
@@ -79,6 +82,7 @@ class Prepared:
     settings: DispersionSettings
     warnings: list[str]
     cache: RunCache | None = None
+    rules: RuleSet | None = None
 
     @property
     def cautions(self) -> list[str]:
@@ -196,7 +200,10 @@ class Prepared:
 
 @collecting_warnings
 def prepare(
-    scenario: Scenario | str | Path, tables: Tables | None = None, cache: RunCache | None = None
+    scenario: Scenario | str | Path,
+    tables: Tables | None = None,
+    cache: RunCache | None = None,
+    rules: RuleSet | str | Path | None = None,
 ) -> Prepared:
     """Read and check a scenario's tables, weather, sources and habitats (no dispersion).
 
@@ -216,6 +223,9 @@ def prepare(
         Replaces the scenario's lookup tables.
     cache : RunCache, optional
         Shared by the re-runs of one scenario.
+    rules : RuleSet, str or Path, optional
+        Replaces the scenario's rule set ([assessment] rules): a RuleSet, a bundled id or a
+        rule set file.
 
     Returns
     -------
@@ -238,6 +248,9 @@ def prepare(
     sources = derive_sources(scenario, tables, treated_shares)
     sites = _read_sites(scenario, tables, cache)
     settings = _dispersion_settings(scenario, tables)
+    if not isinstance(rules, RuleSet):
+        tier_ids = [tier["id"] for tier in tables.thresholds]
+        rules = load_rule_set(scenario.assessment.rules if rules is None else rules, tier_ids)
     return Prepared(
         scenario,
         tables,
@@ -249,6 +262,7 @@ def prepare(
         settings,
         [],  # filled by @collecting_warnings
         cache,
+        rules,
     )
 
 

@@ -225,7 +225,8 @@ def _site_table(
 ):
     """The sites with their figures: PC, net change and in-combination maxima and means, % of
     critical level and load, the undepleted twin where depleted, the predicted environmental
-    totals, distance from the installation and the verdict (blank where not assessed)."""
+    totals and distance from the installation (blank where not assessed); the verdicts are
+    added by the rule set (judging.with_verdicts)."""
     import shapely
 
     sites, scenario = prep.sites, prep.scenario
@@ -271,14 +272,9 @@ def _site_table(
             InputWarning,
             stacklevel=2,
         )
-    out["assessed"] = assessed
-    out["verdict"] = assess.verdict(
-        out["pc_pct_level"].to_numpy(),
-        out["pc_pct_load"].to_numpy(),
-        out["threshold_percent"].to_numpy(),
-        assessed,
-    )
-    for col in [c for c in out.columns if c.startswith(("pc_", "net_", "incomb_", "pec_"))]:
+    out["assessed"] = assessed  # the verdicts are the rule set's (judging.with_verdicts)
+    prefixes = ("pc_", "net_", "incomb_", "pec_", "judged_")
+    for col in [c for c in out.columns if c.startswith(prefixes)]:
         out.loc[~assessed, col] = np.nan
     return out
 

@@ -18,6 +18,7 @@ import pandas as pd
 from siting.errors import SitingWarning
 from siting.physics import assess
 from siting.readers.tables import is_claimed_reduction
+from siting.runs.judging import judge_sites
 from siting.runs.run_cache import RunCache
 
 
@@ -60,18 +61,20 @@ class _Variants:
         self.cache = RunCache()  # the re-runs share the habitat layer and unchanged dispersion
 
     def add(self, variant: str, frame, load_col="critical_load_used_kg_n_ha_yr", level=None):
-        """One variant's % of load and level and verdict at every site of ``frame``."""
+        """One variant's % of load and level (of the contribution the rule set judges) and
+        verdict at every site of ``frame``."""
         pct_load = assess.percent_of(
-            frame["pc_dep_max_kg_n_ha_yr"].to_numpy(), frame[load_col].to_numpy()
+            frame["judged_dep_max_kg_n_ha_yr"].to_numpy(), frame[load_col].to_numpy()
         )
         pct_level = (
-            frame["pc_pct_level"].to_numpy()
+            frame["judged_pct_level"].to_numpy()
             if level is None
-            else assess.percent_of(frame["pc_conc_max_ug_m3"].to_numpy(), level)
+            else assess.percent_of(frame["judged_conc_max_ug_m3"].to_numpy(), level)
         )
-        verdicts = assess.verdict(
-            pct_level, pct_load, frame["threshold_percent"].to_numpy(), frame["assessed"].to_numpy()
-        )
+        level_used = frame["critical_level_ug_m3"].to_numpy() if level is None else level
+        verdicts = judge_sites(
+            frame, self.result.rules, level=level_used, load=frame[load_col].to_numpy()
+        ).verdict
         self.frames.append(
             pd.DataFrame(
                 {
@@ -95,6 +98,7 @@ class _Variants:
                 with_grid=False,
                 sensitivity=False,
                 cache=self.cache,
+                rules=self.result.rules,
             )
         self.add(variant, run.sites)
 
@@ -133,7 +137,12 @@ class _Variants:
                 lambda c, velocities=velocities: velocities[c]["deposition_velocity_m_s"]
             ).to_numpy(float) / sites["deposition_velocity_m_s"].to_numpy(float)
             scaled = sites.copy()
-            scaled["pc_dep_max_kg_n_ha_yr"] = sites["pc_dep_max_kg_n_ha_yr"].to_numpy() * ratio
+            for column in (
+                "pc_dep_max_kg_n_ha_yr",
+                "judged_dep_max_kg_n_ha_yr",
+                "judged_incomb_dep_max_kg_n_ha_yr",
+            ):
+                scaled[column] = sites[column].to_numpy() * ratio
             self.add(label, scaled)
 
     def model_rules(self) -> None:

@@ -1,0 +1,237 @@
+"""Staged verdicts: a rule set's ordered tests on a site's figures, and the reduction they allow.
+
+Pure arithmetic on arrays; what the tests are comes from a rule set file
+(``siting/readers/rules.py``). A tier's stages are tried in order and the first whose
+conditions all hold gives the site its verdict; the last stage has no condition (it takes every
+site the others did not). Every figure a condition can test is affine in the contribution being
+judged: f(s) = offset + slope x s, where s scales that contribution (s = 1 as described), so
+the largest s that still reaches a passing stage is found exactly (:func:`allowed_scale`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+
+#: The figures a condition may test: name -> (what it is, unit). ``judged`` is the contribution
+#: the rule set's basis names (the proposal, the installation after the change, or the net
+#: change); every figure is a site's maximum unless it says otherwise.
+FIGURES: dict[str, tuple[str, str]] = {
+    "pct_level": ("judged contribution as a share of the critical level", "%"),
+    "pct_load": ("judged contribution as a share of the critical load", "%"),
+    "pct": ("the larger of the judged contribution's shares of critical level and load", "%"),
+    "conc_ug_m3": ("judged contribution to the ammonia concentration", "ug/m3"),
+    "dep_kg_n_ha_yr": ("judged contribution to the nitrogen deposition", "kg N/ha/yr"),
+    "dep_mol_n_ha_yr": ("judged contribution to the nitrogen deposition", "mol N/ha/yr"),
+    "pec_pct_level": ("background plus judged contribution, share of the critical level", "%"),
+    "pec_pct_load": ("background plus judged contribution, share of the critical load", "%"),
+    "incomb_pct_level": ("judged plus other sources in combination, share of critical level", "%"),
+    "incomb_pct_load": ("judged plus other sources in combination, share of critical load", "%"),
+    "incomb_pct": ("the larger of the two in-combination shares", "%"),
+    "incomb_dep_kg_n_ha_yr": ("judged plus other sources, nitrogen deposition", "kg N/ha/yr"),
+    "distance_m": ("distance from the installation's sources to the site", "m"),
+}
+#: Figures that do not depend on the judged contribution's size: the only ones a lower bound
+#: (above, at_least) may test.
+FIXED_FIGURES = frozenset({"distance_m"})
+#: Figures that describe the sources together with others, so a regional run (all farms at
+#: once, no single installation) can test them.
+IN_COMBINATION_FIGURES = frozenset(name for name in FIGURES if name.startswith("incomb_"))
+OPERATORS = {"below": "<", "at_most": "<=", "above": ">", "at_least": ">="}
+
+
+@dataclass(frozen=True)
+class Condition:
+    """One test: ``figure`` compared with ``limit`` by ``operator`` (a key of OPERATORS).
+
+    Attributes
+    ----------
+    figure : str
+        A key of :data:`FIGURES`.
+    operator : {"below", "at_most", "above", "at_least"}
+        The comparison.
+    limit : float
+        The value compared with, in the figure's unit.
+    """
+
+    figure: str
+    operator: str
+    limit: float
+
+    def holds(self, value) -> np.ndarray:
+        """Where the figure's values meet the test (NaN never does)."""
+        value = np.asarray(value, dtype=float)
+        with np.errstate(invalid="ignore"):
+            if self.operator == "below":
+                return value < self.limit
+            if self.operator == "at_most":
+                return value <= self.limit
+            if self.operator == "above":
+                return value > self.limit
+            return value >= self.limit
+
+
+@dataclass(frozen=True)
+class Stage:
+    """A verdict and the conditions that give it (none: every site left over).
+
+    Attributes
+    ----------
+    verdict : str
+        The stage's verdict in the rule set's words.
+    conditions : tuple of Condition
+        All must hold.
+    passes : bool
+        Whether the verdict lets the proposal through without further assessment.
+    rule_id : str
+        The rule's id in its set.
+    source : str
+        Its publication and status.
+    """
+
+    verdict: str
+    conditions: tuple[Condition, ...] = ()
+    passes: bool = False
+    rule_id: str = ""
+    source: str = ""
+
+
+@dataclass(frozen=True)
+class Judgement:
+    """Per site: the verdict, the index of the deciding stage in its tier, and whether it passes.
+
+    Attributes
+    ----------
+    verdict : ndarray of object
+        The deciding stage's verdict, ``missing`` where a site was not judged.
+    stage : ndarray of int
+        Index of the deciding stage in the site's tier, -1 where not judged.
+    passes : ndarray of bool
+        Whether the deciding stage passes.
+    rule_id : ndarray of object
+        The deciding rule's id ("" where not judged).
+    """
+
+    verdict: np.ndarray
+    stage: np.ndarray
+    passes: np.ndarray
+    rule_id: np.ndarray = field(default_factory=lambda: np.array([], dtype=object))
+
+
+def judge(
+    figures: Mapping[str, np.ndarray],
+    tier_of_site: Sequence[str],
+    stages_by_tier: Mapping[str, Sequence[Stage]],
+    judged=True,
+    missing: str = "not assessed",
+    usable: frozenset[str] | None = None,
+) -> Judgement:
+    """The first stage of each site's tier whose conditions all hold.
+
+    Parameters
+    ----------
+    figures : mapping of str to ndarray, (n_sites,)
+        The figures conditions test (keys of :data:`FIGURES`).
+    tier_of_site : sequence of str, (n_sites,)
+        Each site's tier id.
+    stages_by_tier : mapping of str to sequence of Stage
+        The rule set's stages per tier, in order, the last without conditions.
+    judged : bool or ndarray of bool
+        False where a site could not be assessed (verdict ``missing``).
+    missing : str
+        Verdict of a site not judged.
+    usable : frozenset of str, optional
+        Only stages whose every condition tests one of these figures are tried (a regional run:
+        the in-combination figures); a stage with conditions on other figures is skipped. The
+        last stage (no condition) always applies.
+
+    Returns
+    -------
+    Judgement
+    """
+    tiers = np.asarray(tier_of_site, dtype=object)
+    n = tiers.size
+    verdict = np.full(n, missing, dtype=object)
+    stage_at = np.full(n, -1)
+    passes = np.zeros(n, dtype=bool)
+    rule_id = np.full(n, "", dtype=object)
+    open_ = np.broadcast_to(np.asarray(judged, dtype=bool), (n,)).copy()
+    for tier in np.unique(tiers):
+        todo = open_ & (tiers == tier)
+        for k, stage in enumerate(stages_by_tier[tier]):
+            if usable is not None and any(c.figure not in usable for c in stage.conditions):
+                continue
+            met = todo.copy()
+            for condition in stage.conditions:
+                met &= condition.holds(figures[condition.figure])
+            verdict[met], stage_at[met], passes[met], rule_id[met] = (
+                stage.verdict,
+                k,
+                stage.passes,
+                stage.rule_id,
+            )
+            todo &= ~met
+    return Judgement(verdict, stage_at, passes, rule_id)
+
+
+def allowed_scale(
+    offset: Mapping[str, np.ndarray],
+    slope: Mapping[str, np.ndarray],
+    tier_of_site: Sequence[str],
+    stages_by_tier: Mapping[str, Sequence[Stage]],
+) -> np.ndarray:
+    """Largest scale s >= 0 of the judged contribution at which each site reaches a passing stage.
+
+    Each figure is offset + slope x s (s = 1 as described). A passing stage allows the smallest
+    s over its conditions (a condition that never holds allows none); a site may take the
+    largest over its passing stages, since an earlier stage that fails first hands the site on.
+    Inf where every s passes, 0 where none does (even with the contribution gone). Strict
+    comparisons are treated as their limits (the supremum).
+
+    Parameters
+    ----------
+    offset, slope : mapping of str to ndarray, (..., n_sites)
+        Each figure's value without the judged contribution and its change per unit of s.
+    tier_of_site : sequence of str, (n_sites,)
+        Each site's tier id.
+    stages_by_tier : mapping of str to sequence of Stage
+        The rule set's stages.
+
+    Returns
+    -------
+    ndarray, (..., n_sites)
+        The largest s [-].
+    """
+    tiers = np.asarray(tier_of_site, dtype=object)
+    shape = np.broadcast_shapes(*(np.shape(v) for v in slope.values()))
+    best = np.zeros(shape)
+    for tier in np.unique(tiers):
+        at = tiers == tier
+        for stage in stages_by_tier[tier]:
+            if not stage.passes:
+                continue
+            allowed = np.full(shape, np.inf)[..., at]
+            for c in stage.conditions:
+                a = np.broadcast_to(offset[c.figure], shape)[..., at]
+                b = np.broadcast_to(slope[c.figure], shape)[..., at]
+                allowed = np.minimum(allowed, _condition_scale(a, b, c))
+            best[..., at] = np.maximum(best[..., at], allowed)
+    return best
+
+
+def _condition_scale(a: np.ndarray, b: np.ndarray, condition: Condition) -> np.ndarray:
+    """Largest s >= 0 with a + b s meeting the condition (0 where no s >= 0 does).
+
+    An upper bound (below, at_most) on a figure that grows with s allows s up to
+    (limit - a) / b; a lower bound (above, at_least) is only allowed on figures that do not
+    depend on s (the distance; readers/rules.py refuses others), so it allows every s or none.
+    """
+    if condition.operator in ("above", "at_least"):
+        return np.where(condition.holds(a), np.inf, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = (condition.limit - a) / b
+    scale = np.where(b > 0, ratio, np.inf)
+    scale = np.where(a <= condition.limit, np.maximum(scale, 0.0), 0.0)
+    return np.where(np.isnan(scale), 0.0, scale)
