@@ -40,9 +40,40 @@ def build_parser() -> argparse.ArgumentParser:
     )
 
     common = _common_options()
-    for add_command in (_add_screen, _add_demo, _add_weather, _add_place, _add_verify, _add_region):
+    for add_command in (
+        _add_screen,
+        _add_demo,
+        _add_weather,
+        _add_place,
+        _add_verify,
+        _add_region,
+        _add_rules,
+    ):
         add_command(sub, common)
     return parser
+
+
+def _rules_option(p: argparse.ArgumentParser, what: str) -> None:
+    """--rules: the rule set to judge by (a bundled id or a file)."""
+    p.add_argument(
+        "--rules",
+        metavar="ID|FILE",
+        help=f"rule set to judge {what} by: a bundled id (`siting rules` lists them) or a "
+        "rule set file",
+    )
+
+
+def _add_rules(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
+    """`siting rules`: the bundled rule sets listed, or one printed in words."""
+    p = sub.add_parser(
+        "rules",
+        help="list the bundled rule sets, or print one in words",
+        description="Without an id: the bundled rule sets, one per line (id and title). "
+        "With an id or a rule set file: its basis and every stage of every tier in words, "
+        "with sources (the file is checked as a run would check it).",
+    )
+    p.add_argument("rule_set", nargs="?", metavar="ID|FILE", help="a bundled id or a file")
+    p.set_defaults(command_module="rules")
 
 
 def _common_options() -> argparse.ArgumentParser:
@@ -72,8 +103,9 @@ def _add_screen(sub: argparse._SubParsersAction, common: argparse.ArgumentParser
     p.add_argument(
         "--fail-on-exceed",
         action="store_true",
-        help="exit with code 1 when any site is above its screening threshold",
+        help="exit with code 1 when any site's verdict does not pass its rule set",
     )
+    _rules_option(p, "the sites (default: the scenario's [assessment] rules)")
     p.set_defaults(command_module="screen")
 
 
@@ -222,6 +254,7 @@ def _add_place(sub: argparse._SubParsersAction, common: argparse.ArgumentParser)
         metavar="N",
         help="positions listed on the terminal and marked on the map (default 10)",
     )
+    _rules_option(p, "the positions (default: the scenario's [assessment] rules)")
     p.set_defaults(command_module="place")
 
 
@@ -263,6 +296,7 @@ def _add_verify(sub: argparse._SubParsersAction, common: argparse.ArgumentParser
         help="another weather year (frequency table or hourly record) for the "
         "sensitivity analysis; repeatable",
     )
+    _rules_option(p, "the submission by (the regulator's; default: the submission's own rule set)")
     p.set_defaults(command_module="verify")
 
 
@@ -301,6 +335,7 @@ def _add_region(sub: argparse._SubParsersAction, common: argparse.ArgumentParser
     _add_region_run_options(p)
     _add_region_field_options(p)
     _add_region_model_options(p)
+    _rules_option(p, "the in-combination totals (default: plain)")
     p.set_defaults(command_module="region")
 
 

@@ -20,7 +20,9 @@ from siting.output.folder import check_output_dir
 from siting.output.records import input_paths
 from siting.output.screen import estimate_screen_bytes, write_outputs
 from siting.presentation.formats import most_affected_order
+from siting.readers.rules import load_rule_set
 from siting.readers.scenario import load_scenario
+from siting.readers.tables import load_tables
 from siting.runs.screening import screen
 
 
@@ -38,7 +40,12 @@ def _site_table(result, shown, n_more: int):
     """The rich table of the shown sites."""
     from rich.table import Table
 
-    title = f"{result.scenario.title}\nprocess contribution (PC) by site"
+    rules = result.rules
+    title = (
+        f"{result.scenario.title}\njudged by rule set {rules.id} ({rules.title})\n"
+        f"contribution judged: {rules.basis_words}; net kg N: the net change (proposed less "
+        "removed) in kg N/ha/yr"
+    )
     if n_more:
         title += (
             f": the {len(shown)} of {len(result.sites)} with the highest PC as a share "
@@ -48,31 +55,28 @@ def _site_table(result, shown, n_more: int):
     for col, justify in (
         ("site", "left"),
         ("tier", "left"),
-        ("PC ug NH3/m3", "right"),
         ("% level", "right"),
-        ("PC kg N/ha/yr", "right"),
+        ("kg N/ha/yr", "right"),
         ("% load", "right"),
-        ("threshold %", "right"),
-        ("verdict", "left"),
+        ("net kg N", "right"),
+        ("verdict (deciding rule)", "left"),
     ):
-        table.add_column(col, justify=justify, no_wrap=col in ("site", "tier", "verdict"))
+        table.add_column(col, justify=justify, no_wrap=col in ("site", "tier"))
 
     def fmt(v, spec=".3g"):
         return "-" if v != v else format(v, spec)
 
     for row in shown.itertuples():
-        style = {"above threshold": "bold red", "below threshold": "green"}.get(
-            row.verdict, "yellow"
-        )
+        style = "yellow" if not row.assessed else ("green" if row.passes else "bold red")
+        rule = str(row.deciding_rule).split(":", 1)[0].split("/", 1)[-1]
         table.add_row(
             plain(row.name),
             str(row.tier),
-            fmt(row.pc_conc_max_ug_m3),
-            fmt(row.pc_pct_level, ".1f"),
-            fmt(row.pc_dep_max_kg_n_ha_yr),
-            fmt(row.pc_pct_load, ".1f"),
-            f"{row.threshold_percent:g}",
-            f"[{style}]{row.verdict}[/]",
+            fmt(row.judged_pct_level, ".1f"),
+            fmt(row.judged_dep_max_kg_n_ha_yr),
+            fmt(row.judged_pct_load, ".1f"),
+            fmt(row.net_dep_max_kg_n_ha_yr, "+.3g"),
+            f"[{style}]{plain(str(row.verdict))}[/]" + (f" ({plain(rule)})" if rule else ""),
         )
     return table
 
@@ -144,9 +148,16 @@ def screen_scenario(
     fail_on_exceed: bool,
     quiet: bool,
     command: str = "screen",
+    rules: str | None = None,
 ) -> int:
 
     scenario = load_scenario(scenario_path)
+    # the rule set read and checked before any computing: a faulty one stops the run at once
+    tables = load_tables(scenario.assessment.config_dir)
+    rule_set = load_rule_set(
+        scenario.assessment.rules if rules is None else rules,
+        [tier["id"] for tier in tables.thresholds],
+    )
     out_dir = out if out is not None else Path("maps") / scenario.name
     check_output_dir(
         out_dir.resolve(),
@@ -156,17 +167,19 @@ def screen_scenario(
     )
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        result = screen(scenario, progress=not quiet and sys.stderr.isatty())
+        result = screen(
+            scenario, progress=not quiet and sys.stderr.isatty(), tables=tables, rules=rule_set
+        )
     written = write_outputs(result, out_dir, overwrite=overwrite)
     _print_summary(result, written, quiet, command)
     if fail_on_exceed and not result.sites["assessed"].any():
         print(
-            "siting: --fail-on-exceed: no habitat site could be assessed, so none is shown "
-            "below threshold",
+            "siting: --fail-on-exceed: no habitat site could be assessed, so none is shown to pass",
             file=sys.stderr,
         )
         return EXIT_EXCEEDS
-    if fail_on_exceed and (result.sites["verdict"] == "above threshold").any():
+    judged = result.sites["assessed"].to_numpy(bool)
+    if fail_on_exceed and not result.sites["passes"].to_numpy(bool)[judged].all():
         return EXIT_EXCEEDS
     return EXIT_OK
 
@@ -178,4 +191,5 @@ def run(args) -> int:
         args.overwrite,
         args.fail_on_exceed,
         args.quiet,
+        rules=args.rules,
     )

@@ -37,6 +37,12 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "vertical_term": "siting.physics.plume",
         "plume_concentration_g_m3": "siting.physics.plume",
         "sector_average_concentration_g_m3": "siting.physics.plume",
+        # staging.py: a rule set's ordered tests on a site's figures, and the reduction they allow
+        "Condition": "siting.physics.staging",
+        "Stage": "siting.physics.staging",
+        "Judgement": "siting.physics.staging",
+        "judge": "siting.physics.staging",
+        "allowed_scale": "siting.physics.staging",
         # seasonal.py: hour-by-hour emission weights from air temperature, and partial scrubbing
         "temperature_emission_weights": "siting.physics.seasonal",
         "ventilation_fraction": "siting.physics.seasonal",

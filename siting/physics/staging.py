@@ -61,7 +61,17 @@ class Condition:
     limit: float
 
     def holds(self, value) -> np.ndarray:
-        """Where the figure's values meet the test (NaN never does)."""
+        """Where the figure's values meet the test (NaN never does).
+
+        Parameters
+        ----------
+        value : float or ndarray
+            The figure's values, in its unit.
+
+        Returns
+        -------
+        ndarray of bool
+        """
         value = np.asarray(value, dtype=float)
         with np.errstate(invalid="ignore"):
             if self.operator == "below":

@@ -28,6 +28,10 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "wind_rose_figure": "siting.presentation.weather_figures",
         "wind_rose_from_table_figure": "siting.presentation.weather_figures",
         "stability_by_speed_figure": "siting.presentation.weather_figures",
+        # rule_text.py: a rule set in words
+        "condition_words": "siting.presentation.rule_text",
+        "rule_words": "siting.presentation.rule_text",
+        "rule_set_in_words": "siting.presentation.rule_text",
         # report.py, verify_report.py, webmap.py, webmap_place.py: the pages, as HTML text
         "render_report": "siting.presentation.report",
         "render_verify_report": "siting.presentation.verify_report",

@@ -36,6 +36,12 @@ __all__, __getattr__, __dir__ = lazy_exports(
         # resources.py: where the bundled config tables and demo data live
         "config_dir": "siting.readers.resources",
         "demo_dir": "siting.readers.resources",
+        # rules.py: rule sets: the basis and the ordered stages per designation tier
+        "RuleSet": "siting.readers.rules",
+        "bundled_rules_dir": "siting.readers.rules",
+        "list_rule_sets": "siting.readers.rules",
+        "rules_path": "siting.readers.rules",
+        "load_rule_set": "siting.readers.rules",
         # scenario.py: the scenario file: TOML -> validated :class:`Scenario`
         "Scenario": "siting.readers.scenario",
         "projected_crs": "siting.readers.scenario",

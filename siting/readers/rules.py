@@ -119,18 +119,44 @@ class RuleSet:
 
     def first_pass_percent(self, tier: str) -> float:
         """The limit of the tier's first passing stage on a % figure [%]; NaN if it has none
-        (the screening threshold a single number can stand for)."""
+        (the screening threshold a single number can stand for).
+
+        Parameters
+        ----------
+        tier : str
+            A tier id.
+
+        Returns
+        -------
+        float
+        """
         _, condition = self._first_pass_share(tier)
         return float("nan") if condition is None else float(condition.limit)
 
     def first_pass_source(self, tier: str) -> str:
-        """The source of the rule :meth:`first_pass_percent` comes from (else the set's)."""
+        """The source of the rule :meth:`first_pass_percent` comes from (else the set's).
+
+        Parameters
+        ----------
+        tier : str
+            A tier id.
+
+        Returns
+        -------
+        str
+        """
         stage, _ = self._first_pass_share(tier)
         return f"{self.id}: {stage.source}" if stage is not None else f"{self.id}: {self.source}"
 
 
 def bundled_rules_dir() -> Path:
-    """Folder of the bundled rule sets (``siting/config/rules``)."""
+    """Folder of the bundled rule sets.
+
+    Returns
+    -------
+    Path
+        ``siting/config/rules`` of the installed package.
+    """
     return config_dir() / "rules"
 
 

@@ -23,6 +23,10 @@ __all__, __getattr__, __dir__ = lazy_exports(
         # integrity.py: verify's packed inputs and written outputs against their hashes
         "check_integrity": "siting.runs.integrity",
         "check_outputs": "siting.runs.integrity",
+        # judging.py: sites judged by a rule set (figures, verdict, deciding rule)
+        "site_figures": "siting.runs.judging",
+        "judge_sites": "siting.runs.judging",
+        "with_verdicts": "siting.runs.judging",
         # placing.py: the placement search (``siting place``)
         "PlaceResult": "siting.runs.placing",
         "place": "siting.runs.placing",

@@ -13,7 +13,8 @@ import pandas as pd
 
 from siting.physics import assess
 from siting.physics.constants import kg_n_to_mol_n
-from siting.physics.staging import FIGURES, OPERATORS, Condition, Judgement, Stage, judge
+from siting.physics.staging import FIGURES, Judgement, judge
+from siting.presentation.rule_text import rule_words
 from siting.readers.rules import RuleSet
 
 #: The columns sites.csv gains from the judging.
@@ -120,19 +121,3 @@ def with_verdicts(frame: pd.DataFrame, rules: RuleSet) -> pd.DataFrame:
     ]
     out["rules"] = rules.id
     return out
-
-
-def condition_words(condition: Condition) -> str:
-    """A condition in words: 'judged contribution ... at most 4 %'."""
-    what, unit = FIGURES[condition.figure]
-    op = {"below": "below", "at_most": "at most", "above": "above", "at_least": "at least"}
-    assert set(op) == set(OPERATORS)
-    return f"{condition.figure} ({what}) {op[condition.operator]} {condition.limit:g} {unit}"
-
-
-def rule_words(stage: Stage, set_id: str = "") -> str:
-    """The deciding rule in words: '<set>/<rule id>: <conditions> -> <verdict>'."""
-    name = f"{set_id}/{stage.rule_id}" if set_id else stage.rule_id
-    if not stage.conditions:
-        return f"{name}: none of the tier's earlier rules met"
-    return f"{name}: " + " and ".join(condition_words(c) for c in stage.conditions)
