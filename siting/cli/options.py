@@ -242,12 +242,6 @@ def _add_place(sub: argparse._SubParsersAction, common: argparse.ArgumentParser)
         help="candidate spacing in metres (default: holding.spacing_m)",
     )
     p.add_argument(
-        "--in-combination",
-        action="store_true",
-        default=None,
-        help="add the other sources' contribution at each site",
-    )
-    p.add_argument(
         "--top",
         type=int,
         default=10,

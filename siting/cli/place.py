@@ -11,7 +11,9 @@ from siting.errors import InputError
 from siting.output.folder import check_output_dir
 from siting.output.place import write_place_outputs
 from siting.output.records import input_paths
+from siting.readers.rules import load_rule_set
 from siting.readers.scenario import load_scenario
+from siting.readers.tables import load_tables
 from siting.runs.placing import place
 
 
@@ -28,9 +30,11 @@ def run(args) -> int:
         else Path("maps") / f"{scenario.name}_place_{args.house_id}"
     )
     check_output_dir(out_dir.resolve(), args.overwrite, input_paths(scenario, holding=True))
-    result = place(
-        scenario, args.house_id, spacing_m=args.spacing_m, in_combination=args.in_combination
+    tiers = [tier["id"] for tier in load_tables(scenario.assessment.config_dir).thresholds]
+    rules = load_rule_set(  # checked before any computing
+        scenario.assessment.rules if args.rules is None else args.rules, tiers
     )
+    result = place(scenario, args.house_id, spacing_m=args.spacing_m, rules=rules)
     written = write_place_outputs(result, out_dir, overwrite=args.overwrite, top=args.top)
     if not args.quiet:
         _print_place_summary(result, written, args.top)
@@ -43,8 +47,12 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
 
     console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
     t = result.timings_s
+    rules = result.prepared.rules
+    passing = int(result.positions["passes_as_described"].sum())
+    best = "Best positions" if passing else "Least affecting positions (none passes)"
     table = Table(
-        title=f"Best positions for {result.house_id} ({t['positions']:,} positions searched)",
+        title=f"{best} for {result.house_id} ({t['positions']:,} positions searched), judged "
+        f"by rule set {rules.id}; contribution judged: {rules.basis_words}",
         title_justify="left",
     )
     for col in (
@@ -54,9 +62,10 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
         "limiting site",
         "worst % load",
         "worst % level",
-        "share of threshold",
+        "share of what passes",
         "reduction needed %",
         "max places unabated",
+        "verdict at limiting site",
     ):
         table.add_column(
             col,
@@ -72,15 +81,17 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
             plain(row.limiting_site),
             f"{row.worst_pct_load:.1f}",
             f"{row.worst_pct_level:.1f}",
-            f"{row.limiting_share_of_threshold:.2f}",
+            "never"
+            if row.limiting_share_of_threshold == float("inf")
+            else f"{row.limiting_share_of_threshold:.2f}",
             f"{row.required_reduction_percent:.0f}",
             "-" if places != places else f"{places:.0f}",
+            plain(str(row.verdict)),
         )
     console.print(table)
-    passing = int(result.positions["passes_as_described"].sum())
     console.print(
-        f"{passing:,} of {len(result.positions):,} positions pass every site's "
-        "threshold with the house as described."
+        f"{passing:,} of {len(result.positions):,} positions pass at every site under "
+        f"{rules.id} with the house as described."
     )
     print_warnings(console, result.warnings, flags_by_parameter("place"))
     console.print(f"Outputs in {out_dir} (map.html, positions.csv, suitability.tif).")

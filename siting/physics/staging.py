@@ -39,6 +39,11 @@ FIXED_FIGURES = frozenset({"distance_m"})
 #: Figures that describe the sources together with others, so a regional run (all farms at
 #: once, no single installation) can test them.
 IN_COMBINATION_FIGURES = frozenset(name for name in FIGURES if name.startswith("incomb_"))
+#: Figures that are the larger of two others: a condition on one is met where both parts meet it.
+COMPOSITES = {
+    "pct": ("pct_level", "pct_load"),
+    "incomb_pct": ("incomb_pct_level", "incomb_pct_load"),
+}
 OPERATORS = {"below": "<", "at_most": "<=", "above": ">", "at_least": ">="}
 
 
@@ -203,7 +208,8 @@ def allowed_scale(
     Parameters
     ----------
     offset, slope : mapping of str to ndarray, (..., n_sites)
-        Each figure's value without the judged contribution and its change per unit of s.
+        Each figure's value without the judged contribution and its change per unit of s; a
+        composite of COMPOSITES (the larger of two shares) may be left out, its parts given.
     tier_of_site : sequence of str, (n_sites,)
         Each site's tier id.
     stages_by_tier : mapping of str to sequence of Stage
@@ -224,9 +230,14 @@ def allowed_scale(
                 continue
             allowed = np.full(shape, np.inf)[..., at]
             for c in stage.conditions:
-                a = np.broadcast_to(offset[c.figure], shape)[..., at]
-                b = np.broadcast_to(slope[c.figure], shape)[..., at]
-                allowed = np.minimum(allowed, _condition_scale(a, b, c))
+                # the larger of two shares is at most a limit when both are: one each
+                for figure in (
+                    COMPOSITES.get(c.figure, (c.figure,)) if c.figure not in slope else (c.figure,)
+                ):
+                    part = Condition(figure, c.operator, c.limit)
+                    a = np.broadcast_to(offset[figure], shape)[..., at]
+                    b = np.broadcast_to(slope[figure], shape)[..., at]
+                    allowed = np.minimum(allowed, _condition_scale(a, b, part))
             best[..., at] = np.maximum(best[..., at], allowed)
     return best
 

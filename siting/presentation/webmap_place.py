@@ -94,8 +94,9 @@ def _position_popup(rank: int, row: Any) -> str:
     lines = [
         f"<b>Rank {rank}</b>",
         f"x {row.x:.0f}, y {row.y:.0f}",
-        f"limiting site: {escape_text(row.limiting_site)} "
-        f"({row.limiting_share_of_threshold:.2f} of its threshold)",
+        f"limiting site: {escape_text(row.limiting_site)} ({_share_text(row)})",
+        f"verdict there: {escape_text(str(getattr(row, 'verdict', '')))}",
+        f"deciding rule: {escape_text(str(getattr(row, 'deciding_rule', '')))}",
         f"worst % of critical load: {format_number(row.worst_pct_load)} "
         f"({escape_text(row.worst_site)})",
         f"worst % of critical level: {format_number(row.worst_pct_level)}",
@@ -105,6 +106,14 @@ def _position_popup(rank: int, row: Any) -> str:
     if places is not None and not is_missing(places):
         lines.append(f"most places unabated: {places:.0f}")
     return "<br>".join(lines)
+
+
+def _share_text(row: Any) -> str:
+    """The limiting share in words: inf means no emission of the house passes there."""
+    share = float(row.limiting_share_of_threshold)
+    if share == float("inf"):
+        return "no emission of the house passes: the other sources alone fail"
+    return f"{share:.2f} of the most its rule set allows"
 
 
 def _add_positions(group: folium.FeatureGroup, positions_wgs84: gpd.GeoDataFrame) -> None:
@@ -126,16 +135,18 @@ def _add_positions(group: folium.FeatureGroup, positions_wgs84: gpd.GeoDataFrame
         ).add_to(group)
 
 
-def _place_legend_html(edges: np.ndarray, colours: list[str]) -> str:
+def _place_legend_html(edges: np.ndarray, colours: list[str], any_pass: bool = True) -> str:
     """Legend of the placement map: share classes, how to read them, positions, grid edge."""
+    best = "best positions" if any_pass else "least affecting positions: none passes"
     best_row = (
         '<div class="row"><span class="dot" style="background:#ffffff;'
-        'border:2px solid #111111"></span>best positions (rank in popup)</div>'
+        f'border:2px solid #111111"></span>{best} (rank in popup)</div>'
     )
     note = (
-        '<div class="note">House placed at a coloured cell: its process contribution at '
-        "the worst-hit site, as a share of that site's screening threshold. Below 1 it "
-        "passes every site; above 1 it needs abatement or fewer places (see positions.csv)."
+        '<div class="note">House placed at a coloured cell: its emission as described, as a '
+        "share of the most the rule set allows at the worst-hit site (with the farm's other "
+        "sources its basis includes). Below 1 it passes every site; above 1 it needs "
+        "abatement or fewer places (see positions.csv)."
         "</div>"
     )
     return legend_html(
@@ -143,7 +154,7 @@ def _place_legend_html(edges: np.ndarray, colours: list[str]) -> str:
         colours,
         [],
         [],
-        heading="Worst share of a site's threshold (1 = at it)",
+        heading="Share of what the rule set allows (1 = at the limit)",
         unit="",
         extra_rows=[note, best_row, extent_legend_row("edge of the searched area")],
         verdicts=False,
@@ -223,7 +234,11 @@ def render_place_map(
         style=_PLACE_SITE_STYLE,
         highlight=False,
     )
-    _add_positions(layer(fmap, "Best positions"), to_wgs84(positions, projected))
+    any_pass = "passes_as_described" not in positions or bool(
+        positions["passes_as_described"].any()
+    )
+    label = "Best positions" if any_pass else "Least affecting positions (none passes)"
+    _add_positions(layer(fmap, label), to_wgs84(positions, projected))
     add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape, SEARCH_EDGE_TIP)
     title_box = title_html(title, run_time, version, cautions)
-    return finish_page(fmap, bounds, [title_box, _place_legend_html(edges, colours)])
+    return finish_page(fmap, bounds, [title_box, _place_legend_html(edges, colours, any_pass)])

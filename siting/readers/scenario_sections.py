@@ -263,7 +263,8 @@ class HoldingSection(_Section):
     min_distance_to_existing_m : float
         Distance the house keeps from the other sources [m], 0..5000.
     in_combination : bool
-        Add the other sources' contribution at each site.
+        No longer used (accepted for old scenarios, with a warning when true): the rule
+        set's basis and in-combination rules say which sources join the house.
     exclusion : list of ExclusionSpec
         Layers of places to keep away from.
     """

@@ -27,6 +27,12 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "site_figures": "siting.runs.judging",
         "judge_sites": "siting.runs.judging",
         "with_verdicts": "siting.runs.judging",
+        # placing_rules.py: the placement search's positions judged by a rule set
+        "fixed_site_maxima": "siting.runs.placing_rules",
+        "installation_distance_m": "siting.runs.placing_rules",
+        "position_figures": "siting.runs.placing_rules",
+        "figures_at": "siting.runs.placing_rules",
+        "judge_positions": "siting.runs.placing_rules",
         # placing.py: the placement search (``siting place``)
         "PlaceResult": "siting.runs.placing",
         "place": "siting.runs.placing",

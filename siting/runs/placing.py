@@ -3,13 +3,13 @@
 Wires the adapters to the placement arithmetic: reads the holding boundary and exclusion layers,
 lays candidate positions where the house's footprint fits inside the allowed area, computes the
 house's unit-emission field once as an offset kernel (placement.PolarKernel) and reads every
-candidate's site maxima off it. Figures per position: the worst share of critical level and
-load over all sites (with the other sources' contribution when in-combination is asked), the
-reduction an abatement technique would need, and the most animal places that pass unabated and
-with each abatement option of config/abatement.toml.
+candidate's site maxima off it. Each position is judged by the run's rule set
+(placing_rules.py): the house with the farm's other sources its basis names, the verdict at
+every site, the reduction of the house's emission the rules would need, and the most animal
+places that pass unabated and with each abatement option of config/abatement.toml.
 
-In-combination: the other sources' contribution at each site is its maximum over the site, added
-to the house's maximum there; the two maxima may lie at different points, so the sum is an upper
+The other sources' contribution at each site is their maximum over the site, added to the
+house's maximum there; the two maxima may lie at different points, so the sum is an upper
 bound (cautious).
 """
 
@@ -25,19 +25,23 @@ import numpy as np
 import pandas as pd
 
 from siting.dispersion.grid import GridSpec
-from siting.dispersion.placement import (
-    PolarKernel,
-    max_places,
-    required_reduction_percent,
-    share_of_threshold,
-    site_maxima,
-)
+from siting.dispersion.placement import PolarKernel, site_maxima
 from siting.errors import InputError, InputWarning, collecting_warnings
-from siting.physics.constants import KG_YR_TO_G_S, UG_NH3_M2_S_TO_KG_N_HA_YR
+from siting.physics.constants import KG_YR_TO_G_S
+from siting.physics.staging import allowed_scale
+from siting.presentation.rule_text import rule_words
 from siting.readers.habitats import read_vector_layer
+from siting.readers.rules import RuleSet
 from siting.readers.scenario import Scenario, load_scenario
 from siting.readers.site_points import site_outline_points
 from siting.readers.tables import default_reduction_percent
+from siting.runs.placing_rules import (
+    figures_at,
+    fixed_site_maxima,
+    installation_distance_m,
+    judge_positions,
+    position_figures,
+)
 from siting.runs.screening_inputs import Prepared, prepare
 from siting.runs.screening_sites import BOUNDARY_SPACING_M
 from siting.runs.screening_sources import _source_elements
@@ -209,45 +213,30 @@ def _unit_site_maxima(prep: Prepared, house_id: str, elements0, cx, cy, px, py, 
     return site_maxima(kernel, cx, cy, px, py, p_site, n_sites), int(ox.size)
 
 
-def _other_sources_ug_m3(prep: Prepared, house_id: str, px, py, p_site) -> np.ndarray:
-    """Each site's maximum concentration [ug m-3] from the other sources (in combination):
-    every source but the house and those removed."""
-    other_conc = np.zeros(len(prep.sites))
-    for src, emission_g_s in zip(prep.scenario.sources, prep.sources["emission_g_s"]):
-        if src.id == house_id or src.role == "removed" or emission_g_s <= 0:
-            continue
-        elements, _ = _source_elements(src)
-        field_ug = emission_g_s * prep.unit_concentration_ug_m3(src.id, elements, px, py)
-        np.maximum.at(other_conc, p_site, field_ug)
-    return other_conc
-
-
-def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy):
-    """The candidate positions with their worst sites, required reduction, most places and
-    whether they pass as described, best first; and the per-site % of level and load (rows
-    in the table's order) and each position's largest share of its threshold."""
+def _position_table(prep: Prepared, house, unit_conc, fixed, in_combination, distance, cx, cy):
+    """The candidate positions judged by the run's rule set, best first; the per-site % of level
+    and load (rows in the table's order); each position's worst % of load and its described
+    emission as a share of the most the rule set allows (1 = at the limit)."""
+    rules = prep.rules
     sites = prep.sites
     src_row = prep.sources.set_index("source_id").loc[house.id]
     described_g_s = float(src_row["emission_g_s"])
     unabated_g_s = float(src_row["nh3_unabated_kg_yr"]) * KG_YR_TO_G_S
-    level = sites["critical_level_ug_m3"].to_numpy()
-    load = sites["critical_load_used_kg_n_ha_yr"].to_numpy()
-    vd = sites["deposition_velocity_m_s"].to_numpy()
-    threshold = sites["threshold_percent"].to_numpy()
-
-    def shares(emission_g_s, extra_conc=0.0, unit=unit_conc):
-        conc = unit * emission_g_s + extra_conc
-        pct_level = 100.0 * conc / level
-        pct_load = 100.0 * conc * vd * UG_NH3_M2_S_TO_KG_N_HA_YR / load
-        return pct_level, pct_load, share_of_threshold(pct_level, pct_load, threshold)
-
-    _, _, other_share = shares(0.0, other_conc, unit=np.zeros(len(sites)))
-    pct_level, pct_load, share = shares(described_g_s, other_conc)
-    _, _, unabated_share = shares(unabated_g_s)
+    described = described_g_s / unabated_g_s if unabated_g_s > 0 else 0.0
+    offset, slope = position_figures(prep, unit_conc, unabated_g_s, fixed, in_combination, distance)
+    tiers = sites["tier"].to_numpy(object)
+    allowed = allowed_scale(offset, slope, tiers, rules.stages_by_tier)  # (positions, sites)
+    figures = figures_at(offset, slope, described)
+    verdict, passes, stage = judge_positions(figures, tiers, rules)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        share = np.where(allowed > 0, described / allowed, np.inf)
+    share = np.where(described == 0, 0.0, share)
+    pct_level, pct_load = figures["pct_level"], figures["pct_load"]
     names = sites["name"].to_numpy()
     rows = np.arange(cx.size)
     worst_load_site = pct_load.argmax(axis=1)
     limiting = share.argmax(axis=1)
+    most = allowed.min(axis=1)  # the largest s every site allows
     table = pd.DataFrame(
         {
             "x": cx,
@@ -255,15 +244,14 @@ def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy):
             "worst_site": names[worst_load_site],
             "worst_pct_load": pct_load[rows, worst_load_site],
             "worst_pct_level": pct_level.max(axis=1),
-            "required_reduction_percent": required_reduction_percent(unabated_share, other_share),
+            "required_reduction_percent": 100.0 * (1.0 - np.clip(most, 0.0, 1.0)),
         }
     )
     if house.places is not None:
-        table["max_places_unabated"] = max_places(house.places, unabated_share, other_share)
+        table["max_places_unabated"] = _whole_places(house.places, most)
         for option in prep.tables.abatement.values():
-            table[f"max_places_{option['id']}"] = max_places(
-                house.places, unabated_share, other_share, default_reduction_percent(option)
-            )
+            remaining = 1.0 - default_reduction_percent(option) / 100.0
+            table[f"max_places_{option['id']}"] = _whole_places(house.places, most / remaining)
     else:
         warnings.warn(
             f'source "{house.id}" gives nh3_kg_per_year, not places: the '
@@ -273,7 +261,15 @@ def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy):
         )
     table["limiting_site"] = names[limiting]
     table["limiting_share_of_threshold"] = share[rows, limiting]
-    table["passes_as_described"] = share[rows, limiting] <= 1.0
+    table["passes_as_described"] = passes.all(axis=1)
+    table["verdict"] = verdict[rows, limiting]
+    tiers_at = tiers[limiting]
+    table["deciding_rule"] = [
+        rule_words(rules.stages_by_tier[t][k], rules.id)
+        for t, k in zip(tiers_at, stage[rows, limiting])
+    ]
+    table["basis"] = rules.basis
+    table["rules"] = rules.id
     order = np.lexsort(
         (table["worst_pct_load"].to_numpy(), table["limiting_share_of_threshold"].to_numpy())
     )
@@ -282,13 +278,20 @@ def _position_table(prep: Prepared, house, unit_conc, other_conc, cx, cy):
     return table, by_site, pct_load.max(axis=1), share.max(axis=1)
 
 
+def _whole_places(places: float, scale) -> np.ndarray:
+    """Whole places (rounded down) of a house whose unabated emission may be ``scale`` times
+    that of ``places`` places; inf where any number passes."""
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isinf(scale), np.inf, np.floor(places * np.asarray(scale) + 1e-9))
+
+
 @collecting_warnings
 def place(
     scenario: Scenario | str | Path,
     house_id: str,
     *,
     spacing_m: float | None = None,
-    in_combination: bool | None = None,
+    rules: RuleSet | str | Path | None = None,
 ) -> PlaceResult:
     """Search the holding for positions of source ``house_id`` (its x/y are ignored).
 
@@ -307,8 +310,9 @@ def place(
         The [[source]] to place; its footprint must fit inside the allowed area.
     spacing_m : float, optional
         Spacing of the candidate positions [m]; default the holding's ``spacing_m``.
-    in_combination : bool, optional
-        Add the other sources' contribution; default the holding's ``in_combination``.
+    rules : RuleSet, str or Path, optional
+        The rule set the positions are judged by (default: the scenario's [assessment]
+        rules); its basis says which of the farm's other sources join the house.
 
     Returns
     -------
@@ -326,8 +330,14 @@ def place(
     house = _house_of(scenario, house_id)
     cfg = scenario.holding
     spacing_m = spacing_m or cfg.spacing_m
-    in_combination = cfg.in_combination if in_combination is None else in_combination
-    prep = prepare(scenario)
+    if cfg.in_combination:
+        warnings.warn(
+            "holding.in_combination no longer changes the search: the rule set's basis says "
+            "which sources join the house, and its in-combination rules add the other sources",
+            InputWarning,
+            stacklevel=2,
+        )
+    prep = prepare(scenario, rules=rules)
     holding, allowed = _allowed_area(scenario, house_id, prep)
     origin_house = house.model_copy(update={"x": 0.0, "y": 0.0})
     elements0, shape0 = _source_elements(origin_house)
@@ -339,13 +349,10 @@ def place(
     unit_conc, kernel_points = _unit_site_maxima(prep, house_id, elements0, cx, cy, px, py, p_site)
     clock["kernel"] = time.perf_counter()
 
-    other_conc = (
-        _other_sources_ug_m3(prep, house_id, px, py, p_site)
-        if in_combination
-        else np.zeros(len(prep.sites))
-    )
+    fixed, in_combination = fixed_site_maxima(prep, house_id, px, py, p_site, prep.rules.basis)
+    distance = installation_distance_m(prep, house, shape0, cx, cy, prep.rules.basis)
     table, by_site, worst_load, worst_share = _position_table(
-        prep, house, unit_conc, other_conc, cx, cy
+        prep, house, unit_conc, fixed, in_combination, distance, cx, cy
     )
     surface = np.full((grid.n_rows, grid.n_cols), np.nan)
     surface[row, col] = worst_load
