@@ -624,8 +624,14 @@ def _many_site_result(n: int = 200, n_warnings: int = 30):
             "pc_pct_load": i / 10.0,
             "threshold_percent": 1.0,
             "verdict": np.where(i / 10.0 > 1.0, "above threshold", "below threshold"),
+            "passes": i / 10.0 <= 1.0,
+            "assessed": True,
+            "deciding_rule": "synthetic/rule: a made-up rule",
+            "net_dep_max_kg_n_ha_yr": i / 50.0,
         }
     )
+    for figure in ("conc_max_ug_m3", "pct_level", "dep_max_kg_n_ha_yr", "pct_load"):
+        sites[f"judged_{figure}"] = sites[f"pc_{figure}"]
     summary = pd.DataFrame(
         {
             "site": sites["name"],
@@ -635,6 +641,7 @@ def _many_site_result(n: int = 200, n_warnings: int = 30):
     )
     return SimpleNamespace(
         scenario=SimpleNamespace(title="Many sites (synthetic)"),
+        rules=SimpleNamespace(id="synthetic", title="a made-up set", basis_words="PC"),
         sites=sites,
         sensitivity_summary=summary,
         warnings=[f"warning number {k}" for k in range(n_warnings)],

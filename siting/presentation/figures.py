@@ -37,6 +37,7 @@ from siting.presentation.formats import (
     format_number,
     is_missing,
     most_affected_order,
+    verdict_classes,
 )
 
 if TYPE_CHECKING:  # imported for annotations only; the module does not need them at run time
@@ -404,7 +405,7 @@ def pc_vs_distance_figure(sites: pd.DataFrame, *, ax: Axes | None = None) -> Fig
         return fig
     idx = np.flatnonzero(keep)
     many = idx.size > _LEGEND_INSIDE_MAX_POINTS
-    verdicts = list(sites["verdict"]) if "verdict" in sites else [None] * len(sites)
+    verdicts = verdict_classes(sites) if "verdict" in sites else [None] * len(sites)
     _draw_verdict_points(ax, distance_m[idx], dep_kg_n_ha_yr[idx], [verdicts[i] for i in idx], many)
     _draw_threshold_marks(ax, sites, distance_m, idx)
     _verdict_legend(ax, verdicts, many)
@@ -444,7 +445,8 @@ def _draw_verdict_points(
     dep_kg_n_ha_yr : ndarray, shape (n,)
         Its maximum PC deposition [kg N ha-1 yr-1], > 0.
     verdicts : sequence, length n
-        Its verdict; one not in ``VERDICT_COLOURS`` (or None) takes the "not assessed" colour.
+        Its class of verdict (a key of ``VERDICT_COLOURS``); another (or None) takes the
+        "not assessed" colour.
     many : bool
         More than :data:`_LEGEND_INSIDE_MAX_POINTS` sites: smaller points with thinner edges,
         so fewer hide each other.

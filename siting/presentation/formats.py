@@ -22,6 +22,7 @@ __all__ = [
     "DEPOSITION_COLORMAP",
     "MISSING_TEXT",
     "VERDICT_COLOURS",
+    "verdict_classes",
     "deposition_class_colours",
     "deposition_class_edges",
     "format_for_column",
@@ -33,12 +34,44 @@ __all__ = [
 #: Perceptually uniform matplotlib colour map used for the deposition classes (map and report).
 DEPOSITION_COLORMAP = "cividis"
 
-#: Colour of each verdict (map outlines, report figure points); our own choice.
+#: Colour of each class of verdict (map outlines, report figure points); our own choice. A
+#: rule set words its verdicts its own way; what colours them is whether they pass.
 VERDICT_COLOURS = {
-    "below threshold": "#2f6fad",
-    "above threshold": "#c2543a",
+    "passes": "#2f6fad",
+    "does not pass": "#c2543a",
     "not assessed": "#8a8a8a",
 }
+#: The class of the verdict words of tables written before rule sets (no ``passes`` column).
+_OLD_VERDICT_CLASSES = {"below threshold": "passes", "above threshold": "does not pass"}
+
+
+def verdict_classes(frame: Any) -> list[str]:
+    """Each site's class of verdict, a key of VERDICT_COLOURS: from its ``passes`` column, or
+    for a table without one (written before rule sets) from the verdict words.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        A sites table with ``verdict`` (and ``passes``, ``assessed`` when present).
+
+    Returns
+    -------
+    list of str
+    """
+    n = len(frame)
+    verdicts = list(frame["verdict"]) if "verdict" in frame else [None] * n
+    assessed = list(frame["assessed"]) if "assessed" in frame else [True] * n
+    passes = list(frame["passes"]) if "passes" in frame else [None] * n
+    out = []
+    for verdict, judged, ok in zip(verdicts, assessed, passes):
+        if is_missing(verdict) or str(verdict).strip().lower() == "not assessed" or judged is False:
+            out.append("not assessed")
+        elif ok is None or is_missing(ok):
+            out.append(_OLD_VERDICT_CLASSES.get(str(verdict).strip().lower(), "not assessed"))
+        else:
+            out.append("passes" if str(ok).strip().lower() in ("true", "1") else "does not pass")
+    return out
+
 
 #: The 1-3-10 series of class edges [kg N ha-1 yr-1] from which the shown classes are picked.
 _CLASS_EDGE_SERIES_KG_N_HA_YR = tuple(

@@ -57,9 +57,12 @@ __all__ = [
 
 #: CSS class and plain-words hint per verdict (styling of a verdict cell or badge).
 VERDICT_STYLE = {
+    "passes": ("verdict-below", "passes under its rule set"),
+    "does not pass": ("verdict-above", "does not pass: needs further assessment"),
+    "not assessed": ("verdict-none", "no PC figure for this site"),
+    # the words of tables written before rule sets (no passes column)
     "below threshold": ("verdict-below", "insignificant at screening"),
     "above threshold": ("verdict-above", "needs further assessment"),
-    "not assessed": ("verdict-none", "no PC figure for this site"),
 }
 
 #: Shown where a value does not apply: a step that does not apply to a source in a
@@ -297,10 +300,14 @@ def key_values(mapping: Mapping[str, Any], labels: Mapping[str, str]) -> list[tu
     ]
 
 
-def verdict(value: Any) -> Verdict:
-    """A screening verdict as shown: its text (``n/a`` when missing), badge class and hint."""
+def verdict(value: Any, passes: Any = None) -> Verdict:
+    """A screening verdict as shown: its text (``n/a`` when missing), badge class and hint;
+    styled by ``passes`` (the rule set's) when given, else by the words."""
     shown = "" if is_missing(value) else str(value)
-    css, hint = VERDICT_STYLE.get(shown.strip().lower(), ("verdict-none", ""))
+    key = shown.strip().lower()
+    if key != "not assessed" and shown and passes is not None and not is_missing(passes):
+        key = "passes" if str(passes).strip().lower() in ("true", "1") else "does not pass"
+    css, hint = VERDICT_STYLE.get(key, ("verdict-none", ""))
     return Verdict(shown or MISSING_TEXT, css, hint)
 
 

@@ -37,6 +37,7 @@ from siting.errors import InputError
 from siting.presentation.formats import MISSING_TEXT, format_for_column, format_percent, is_missing
 from siting.presentation.html_parts import (
     Cell,
+    Verdict,
     filled,
     is_number,
     macro,
@@ -157,19 +158,24 @@ def _summary(sites: pd.DataFrame) -> dict[str, Any]:
     verdict_view = _cached(verdict)
     habitat_cell = _cached(lambda name, code: Cell(text(name)) if not is_missing(name)
                            else Cell(text(code), wrap=True))  # fmt: skip
+    # the figures the rule set judged (its basis), else (a table without rule sets) the PC
+    judged = "judged" if "judged_pct_load" in sites else "pc"
+    conc, dep = f"{judged}_conc_max_ug_m3", f"{judged}_dep_max_kg_n_ha_yr"
+    level_pct, load_pct = f"{judged}_pct_level", f"{judged}_pct_load"
+    extra = [c for c in ("passes", "deciding_rule", conc, dep, level_pct, load_pct) if c in sites]
     columns = ["name", "designation", "habitat", "habitat_name", "verdict",
-               *(c for c, _ in SUMMARY_COLUMNS), "incomb_pct_load"]  # fmt: skip
+               *(c for c, _ in SUMMARY_COLUMNS), "incomb_pct_load", *extra]  # fmt: skip
     rows = []
     for record in _records(sites, columns):
         get = record.get
         threshold = get("threshold_percent")
         numbers = [
             number(get("critical_level_ug_m3"), "critical_level_ug_m3"),
-            number(get("pc_conc_max_ug_m3"), "pc_conc_max_ug_m3"),
-            _percent_shown(get("pc_pct_level"), "pc_pct_level", threshold),
+            number(get(conc), "pc_conc_max_ug_m3"),
+            _percent_shown(get(level_pct), "pc_pct_level", threshold),
             number(get(_LOAD), _LOAD),
-            number(get("pc_dep_max_kg_n_ha_yr"), "pc_dep_max_kg_n_ha_yr"),
-            _percent_shown(get("pc_pct_load"), "pc_pct_load", threshold),
+            number(get(dep), "pc_dep_max_kg_n_ha_yr"),
+            _percent_shown(get(load_pct), "pc_pct_load", threshold),
         ]
         if show_incomb:
             numbers.append(number(get("incomb_pct_load"), "incomb_pct_load"))
@@ -179,12 +185,37 @@ def _summary(sites: pd.DataFrame) -> dict[str, Any]:
             (
                 text(get("name")),
                 None if is_missing(designation) else str(designation),
-                verdict_view(get("verdict")),
+                _with_rule(verdict_view(get("verdict"), get("passes")), get("deciding_rule")),
                 habitat_cell(get("habitat_name"), get("habitat")),
                 numbers,
             )
         )
-    return {"show_incomb": show_incomb, "rows": rows}
+    return {"show_incomb": show_incomb, "rows": rows, "basis": _basis_note(sites)}
+
+
+_BASIS_WORDS = {
+    "proposal": "the proposed sources alone",
+    "installation": "the installation after the change (proposed + existing sources)",
+    "net": "the net change (proposed sources less those removed)",
+}
+
+
+def _basis_note(sites: pd.DataFrame) -> str:
+    """What the summary's figures are and which rule set judged them, in words."""
+    if "basis" not in sites or not len(sites):
+        return "PC: process contribution of the installation (proposed + existing sources)"
+    basis, rules = str(sites["basis"].iloc[0]), str(sites["rules"].iloc[0])
+    return (
+        f"PC: the contribution rule set {rules} judges, {_BASIS_WORDS.get(basis, basis)}; "
+        f"verdicts and deciding rules are that set's (`siting rules {rules}` prints it)"
+    )
+
+
+def _with_rule(shown: Verdict, rule: Any) -> Verdict:
+    """The verdict with its deciding rule, in words, as its hint (when the table has one)."""
+    if is_missing(rule) or not str(rule).strip():
+        return shown
+    return Verdict(shown.text, shown.css, f"deciding rule {rule}")
 
 
 def _change(sites: pd.DataFrame) -> dict[str, Any] | None:

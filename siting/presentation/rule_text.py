@@ -39,7 +39,7 @@ def rule_words(stage: Stage, set_id: str = "") -> str:
     """
     name = f"{set_id}/{stage.rule_id}" if set_id else stage.rule_id
     if not stage.conditions:
-        return f"{name}: none of the tier's earlier rules met"
+        return f"{name}: otherwise (no earlier rule of its tier met)"
     return f"{name}: " + " and ".join(condition_words(c) for c in stage.conditions)
 
 

@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from siting.presentation.formats import VERDICT_COLOURS, is_missing
+from siting.presentation.formats import VERDICT_COLOURS, verdict_classes
 from siting.presentation.webmap_text import PopupRows, column_values, escape_text, number_texts
 
 if TYPE_CHECKING:  # imported for annotations only
@@ -40,6 +40,7 @@ SITE_POPUP_ROWS: PopupRows = (
     ("Designation", "designation", None),
     ("Habitat", ("habitat_name", "habitat"), None),  # its name where known, as in the report
     ("Verdict", "verdict", None),
+    ("Deciding rule", "deciding_rule", None),
     ("PC max concentration", "pc_conc_max_ug_m3", "µg NH3/m³"),
     ("Critical level", "critical_level_ug_m3", "µg NH3/m³"),
     ("PC as % of level", "pc_pct_level", "%"),
@@ -47,8 +48,14 @@ SITE_POPUP_ROWS: PopupRows = (
     ("Critical load used", "critical_load_used_kg_n_ha_yr", "kg N/ha/yr"),
     ("PC as % of load", "pc_pct_load", "%"),
     ("Screening threshold", "threshold_percent", "%"),
+    ("Judged by the rule set, % of load", "judged_pct_load", "%"),
+    ("Net change in deposition", "net_dep_max_kg_n_ha_yr", "kg N/ha/yr"),
     ("In-combination, % of load", "incomb_pct_load", "%"),
 )
+
+#: Number rows left out (not "n/a") where a site lacks the figure: tables without rule sets or
+#: without other sources.
+_BLANK_WHEN_MISSING = frozenset({"incomb_pct_load", "judged_pct_load", "net_dep_max_kg_n_ha_yr"})
 
 #: Decimal places kept of the site outlines' longitude and latitude: 1e-6 deg is ~0.1 m, well
 #: below a grid cell, and halves the page against full double precision. Our own choice.
@@ -71,11 +78,8 @@ _SITE_SCRIPT = """function (feature, layer) {
 
 
 def _site_verdicts(frame: Any) -> list[str]:
-    """Each site's verdict in lower case, 'not assessed' when missing."""
-    return [
-        str(v).strip().lower() if not is_missing(v) else "not assessed"
-        for v in column_values(frame, "verdict")
-    ]
+    """Each site's class of verdict (passes, does not pass, not assessed): the style key."""
+    return verdict_classes(frame) if "verdict" in frame else ["not assessed"] * len(frame)
 
 
 def site_popup_values(frame: Any, rows: PopupRows = SITE_POPUP_ROWS) -> list[list[str]]:
@@ -92,7 +96,7 @@ def site_popup_values(frame: Any, rows: PopupRows = SITE_POPUP_ROWS) -> list[lis
         elif unit is None:
             texts = [escape_text(v) for v in values]
         else:
-            texts = number_texts(values, unit, blank=column == "incomb_pct_load")
+            texts = number_texts(values, unit, blank=column in _BLANK_WHEN_MISSING)
         columns.append(texts)
     return [list(row) for row in zip(*columns)]
 
@@ -116,7 +120,7 @@ def _site_style(verdict: str) -> dict[str, Any]:
         "weight": 2.5,
         "fillColor": colour,
         "fillOpacity": 0.2,
-        "dashArray": "6 4" if verdict not in ("below threshold", "above threshold") else None,
+        "dashArray": "6 4" if verdict not in ("passes", "does not pass") else None,
         "className": SITE_CLASS,
     }
 
