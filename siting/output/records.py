@@ -80,6 +80,9 @@ def _input_files(scenario, holding: bool = False) -> dict[str, Path]:
     else:
         files["weather"] = scenario.weather.frequency_table
     files.update(_layer_files("habitats", scenario.habitats.file))
+    rules = Path(scenario.assessment.rules)
+    if rules.is_absolute():  # a rule set file (load_scenario resolved it), not a bundled id
+        files["rules"] = rules
     if scenario.receptors is not None:
         files["receptors"] = scenario.receptors.file
     if holding and scenario.holding is not None:
@@ -127,6 +130,22 @@ def run_record_base(run, run_time: str, holding: bool = False) -> dict:
         "weather_summary": run.weather_summary,
         "cautions": list(run.cautions),
         "versions": {"python": platform.python_version(), **_library_versions()},
+        **_rules_record(getattr(run, "rules", None)),
+    }
+
+
+def _rules_record(rules) -> dict:
+    """The rule set the run judged by (it may be the caller's, not the scenario's)."""
+    if rules is None:
+        return {}
+    return {
+        "rules": {
+            "id": rules.id,
+            "title": rules.title,
+            "basis": rules.basis,
+            "path": str(rules.path),
+            "sha256": sha256_of(rules.path),
+        }
     }
 
 
