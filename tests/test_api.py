@@ -147,8 +147,8 @@ def test_region_gives_the_tables_of_siting_region(guide, cli):
     _same_bytes(work / "maps" / "region", out, ["sites.csv", "contributors.csv", "farms.csv"])
     written = pd.read_csv(out / "sites.csv")
     np.testing.assert_allclose(
-        ns["regional"].sites["pc_dep_max_kg_n_ha_yr"],
-        written["pc_dep_max_kg_n_ha_yr"],
+        ns["regional"].sites["incomb_dep_max_kg_n_ha_yr"],
+        written["incomb_dep_max_kg_n_ha_yr"],
         rtol=CSV_RTOL,
     )
 

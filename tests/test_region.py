@@ -144,7 +144,10 @@ def test_tiled_equals_in_memory(plain, farms_file, weather_csv, habitats):
     # cross-check: the same sum split by tiles and blocks; FFT round-off relative to the peak
     assert_allclose(a, b, rtol=1e-12, atol=1e-14 * b.max())
     assert_allclose(
-        tiled.sites["pc_dep_max_kg_n_ha_yr"], plain.sites["pc_dep_max_kg_n_ha_yr"], rtol=0, atol=0
+        tiled.sites["incomb_dep_max_kg_n_ha_yr"],
+        plain.sites["incomb_dep_max_kg_n_ha_yr"],
+        rtol=0,
+        atol=0,
     )  # site figures do not depend on the tiles
 
 
@@ -247,7 +250,9 @@ def test_contributors_add_up_to_the_site_total(plain):
         assert len(group) == 24  # top=100 lists all 24 farms
         # conservation: the total is the sum of the farms' own direct sums at that point
         assert_allclose(
-            group["dep_kg_n_ha_yr"].sum(), sites.loc[site_id, "pc_dep_max_kg_n_ha_yr"], rtol=1e-12
+            group["dep_kg_n_ha_yr"].sum(),
+            sites.loc[site_id, "incomb_dep_max_kg_n_ha_yr"],
+            rtol=1e-12,
         )
         assert_allclose(group["share_of_site_total_percent"].sum(), 100.0, rtol=1e-12)
         assert (np.diff(group["dep_kg_n_ha_yr"]) <= 0).all()  # ranked, largest first
@@ -269,7 +274,7 @@ def test_site_maximum_is_the_direct_sum_of_the_farms(plain):
             )
             total += farm.emission_g_s * unit[0] * UG_PER_G
         # cross-check: the same per-pair values (fixed profile nodes), summed in another order
-        assert_allclose(site.pc_conc_max_ug_m3, total, rtol=1e-12)
+        assert_allclose(site.incomb_conc_max_ug_m3, total, rtol=1e-12)
 
 
 def test_grid_is_the_direct_sum_when_the_near_field_covers_it(weather_csv, tmp_path):

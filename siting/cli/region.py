@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import sys
 import warnings
+from dataclasses import replace
 from pathlib import Path
 
 from siting.cli.options import flags_by_parameter
@@ -11,6 +12,8 @@ from siting.cli.terminal import EXIT_OK, plain, print_warnings
 from siting.output.folder import check_output_dir
 from siting.output.region import write_region_outputs
 from siting.readers.farms import FarmFields
+from siting.readers.rules import DEFAULT_RULES, load_rule_set
+from siting.readers.tables import load_tables
 from siting.runs.region_inputs import RegionOptions
 from siting.runs.regional import region
 
@@ -35,6 +38,11 @@ def run(args) -> int:
         wind_below_anemometer=args.wind_below_anemometer,
     )
     options.check()
+    tiers = [tier["id"] for tier in load_tables().thresholds]
+    rules = load_rule_set(  # read and checked before any computing
+        DEFAULT_RULES if args.rules is None else args.rules, tiers
+    )
+    options = replace(options, rules=rules)
     farms = Path(args.farms)
     out_dir = Path(args.out_dir) if args.out_dir else Path("maps") / f"{farms.stem}_region"
     habitats = Path(args.habitats_path) if args.habitats_path else None
@@ -67,7 +75,6 @@ def run(args) -> int:
 
 def _print_region_summary(result, out_dir: Path) -> None:
     from rich.console import Console
-    from rich.table import Table
 
     console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
     grid, t = result.grid, result.timings_s
@@ -77,42 +84,7 @@ def _print_region_summary(result, out_dir: Path) -> None:
         f"tile(s); {t['total_s']:.1f} s with {t['workers']} worker(s)"
     )
     if result.sites is not None:
-        table = Table(title="All farms together, by habitat site", title_justify="left")
-        for col in (
-            "site",
-            "tier",
-            "kg N/ha/yr",
-            "% load",
-            "% level",
-            "verdict",
-            "largest contributor",
-        ):
-            table.add_column(
-                col,
-                justify="right" if col in ("kg N/ha/yr", "% load", "% level") else "left",
-                no_wrap=col in ("site", "verdict"),
-            )
-        first = result.contributors[result.contributors["rank"] == 1].set_index("site_id")
-        for row in result.sites.itertuples():
-            style = {"above threshold": "bold red", "below threshold": "green"}.get(
-                row.verdict, "yellow"
-            )
-            top = (
-                f"{first.loc[row.site_id, 'farm_id']} "
-                f"({first.loc[row.site_id, 'share_of_site_total_percent']:.0f} %)"
-                if row.site_id in first.index
-                else "-"
-            )
-            table.add_row(
-                plain(row.name),
-                str(row.tier),
-                f"{row.pc_dep_max_kg_n_ha_yr:.3g}",
-                f"{row.pc_pct_load:.1f}",
-                f"{row.pc_pct_level:.1f}",
-                f"[{style}]{row.verdict}[/]",
-                top,
-            )
-        console.print(table)
+        _print_site_table(console, result)
     print_warnings(console, result.warnings, flags_by_parameter("region"))
     console.print(
         f"Outputs in {out_dir} (deposition.tif, concentration.tif, sites.csv, "
@@ -121,3 +93,54 @@ def _print_region_summary(result, out_dir: Path) -> None:
     console.print(
         "Screening estimate only; local rules and the competent authority decide.", style="dim"
     )
+
+
+def _print_site_table(console, result) -> None:
+    """The all-farms (in-combination) figures and verdict of every site, and the rule set."""
+    from rich.table import Table
+
+    rules = result.inputs.rules
+    table = Table(
+        title="All farms together, in combination (incomb_* in sites.csv), by habitat site",
+        title_justify="left",
+    )
+    numbers = ("kg N/ha/yr", "% load", "% level")
+    for col in ("site", "tier", *numbers, "verdict", "largest contributor"):
+        table.add_column(col, justify="right" if col in numbers else "left", no_wrap=col == "site")
+    first = result.contributors[result.contributors["rank"] == 1].set_index("site_id")
+    no_rule = f"no in-combination rule in {rules.id}"
+    for row in result.sites.itertuples():
+        if row.passes:
+            style = "green"
+        elif row.verdict == no_rule:
+            style = "yellow"
+        else:
+            style = "bold red"
+        top = (
+            f"{first.loc[row.site_id, 'farm_id']} "
+            f"({first.loc[row.site_id, 'share_of_site_total_percent']:.0f} %)"
+            if row.site_id in first.index
+            else "-"
+        )
+        table.add_row(
+            plain(row.name),
+            str(row.tier),
+            f"{row.incomb_dep_max_kg_n_ha_yr:.3g}",
+            f"{row.incomb_pct_load:.1f}",
+            f"{row.incomb_pct_level:.1f}",
+            f"[{style}]{plain(row.verdict)}[/]",
+            top,
+        )
+    console.print(table)
+    console.print(
+        f"Verdicts: rule set {rules.id}, its in-combination stages only, on all farms of the "
+        "layer together (deciding rules in sites.csv)."
+    )
+    lacking = sorted(set(result.sites.loc[result.sites["verdict"] == no_rule, "tier"]))
+    if lacking:
+        example = "" if rules.id == "germany-2021" else "; --rules germany-2021 is a set with one"
+        console.print(
+            f"Rule set {rules.id} has no in-combination rule for tier(s) {', '.join(lacking)}: "
+            f"those sites are not judged (`siting rules {rules.id}`{example}).",
+            style="yellow",
+        )

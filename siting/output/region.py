@@ -37,16 +37,19 @@ SITE_COLUMNS = [
     "deposition_velocity_m_s",
     "critical_level_ug_m3",
     "critical_load_used_kg_n_ha_yr",
-    "threshold_percent",
-    "pc_conc_max_ug_m3",
-    "pc_conc_mean_ug_m3",
-    "pc_dep_max_kg_n_ha_yr",
-    "pc_dep_mean_kg_n_ha_yr",
-    "pc_pct_level",
-    "pc_pct_load",
+    "incomb_conc_max_ug_m3",
+    "incomb_conc_mean_ug_m3",
+    "incomb_dep_max_kg_n_ha_yr",
+    "incomb_dep_mean_kg_n_ha_yr",
+    "incomb_pct_level",
+    "incomb_pct_load",
     "max_x_m",
     "max_y_m",
     "verdict",
+    "passes",
+    "deciding_rule",
+    "basis",
+    "rules",
 ]
 FARM_COLUMNS = [
     "farm_id",
@@ -84,7 +87,7 @@ ACCURACY_NOTE = (
 
 
 def region_record(result: RegionResult, run_time: str) -> dict:
-    """What run.json holds: inputs and tables with SHA-256, options, grid, plan, classes.
+    """What run.json holds: inputs, tables and rule set with SHA-256, options, grid, plan, classes.
 
     Parameters
     ----------
@@ -118,7 +121,14 @@ def region_record(result: RegionResult, run_time: str) -> dict:
             name: {"path": str(inputs.tables.folder / name), "sha256": digest}
             for name, digest in inputs.tables.files_sha256.items()
         },
-        "options": asdict(inputs.options),
+        "options": {**asdict(inputs.options), "rules": inputs.rules.id},
+        "rules": {
+            "id": inputs.rules.id,
+            "title": inputs.rules.title,
+            "path": str(inputs.rules.path),
+            "sha256": sha256_of(inputs.rules.path),
+            "judged": "each site's all-farms total, by the set's in-combination stages only",
+        },
         "crs": inputs.crs,
         "grid": {
             "west_m": grid.west_m,

@@ -24,6 +24,7 @@ from siting.output.records import _layer_files
 from siting.readers.farms import FarmFields, read_farms
 from siting.readers.frequency_table import read_frequency_table
 from siting.readers.habitats import read_habitats
+from siting.readers.rules import DEFAULT_RULES, RuleSet, load_rule_set
 from siting.readers.scenario_sections import HabitatsSection
 from siting.readers.tables import Tables, load_tables, sigma_scheme, wind_exponents
 from siting.runs.region_tiles import engine_budget_mb
@@ -74,6 +75,10 @@ class RegionOptions:
         "2022" (default) or "2011": which review's critical load ranges.
     wind_below_anemometer : str
         "power_law" (default) or "unchanged", as in a scenario's [weather].
+    rules : RuleSet, str or Path
+        The rule set each site's all-farms total is judged by (its in-combination stages): a
+        loaded RuleSet, a bundled id or a rule set file; default "plain" (which has no
+        in-combination stage, so every site reads "no in-combination rule in plain").
     """
 
     spacing_m: float = 100.0
@@ -93,6 +98,7 @@ class RegionOptions:
     critical_load_end: str = "lower"
     critical_load_review: str = "2022"
     wind_below_anemometer: str = "power_law"
+    rules: RuleSet | str | Path = DEFAULT_RULES
 
     def check(self) -> None:
         """Raise InputError for a value out of range (naming the option, in ``parameters``)."""
@@ -202,6 +208,8 @@ class RegionInputs:
         The lookup tables.
     options : RegionOptions
         The run's settings.
+    rules : RuleSet
+        The rule set the sites are judged by (``options.rules``, read and checked).
     input_files : dict of str to Path
         Each input file by role, for the run record.
     warnings : list of str
@@ -218,6 +226,7 @@ class RegionInputs:
     sites: object  # GeoDataFrame or None
     tables: Tables
     options: RegionOptions
+    rules: RuleSet
     input_files: dict[str, Path]
     warnings: list[str]
 
@@ -279,11 +288,13 @@ def prepare_region(
     InputFileError
         A file does not exist.
     InputError
-        An option out of range, or a fault in the farms, weather or habitat layer (named).
+        An option out of range, a fault in the rule set (named), or in the farms, weather or
+        habitat layer (named).
     """
 
     options.check()
     tables = tables if tables is not None else load_tables()
+    rules = _rule_set(options.rules, tables)  # read and checked before anything else
     farms, crs = read_farms(Path(farms_path), tables, fields, crs)
     weather_path = Path(weather_path)
     weather, weather_summary = _read_weather(weather_path, options)
@@ -317,9 +328,24 @@ def prepare_region(
         sites,
         tables,
         options,
+        rules,
         files,
         [],  # filled by @collecting_warnings
     )
+
+
+def _rule_set(rules: RuleSet | str | Path, tables: Tables) -> RuleSet:
+    """The rule set of the run, read and checked against the tiers of ``tables``."""
+    tier_ids = [tier["id"] for tier in tables.thresholds]
+    if not isinstance(rules, RuleSet):
+        return load_rule_set(rules, tier_ids)
+    missing = [tier for tier in tier_ids if tier not in rules.stages_by_tier]
+    if missing:
+        raise InputError(
+            f'rules {rules.id}: tier "{missing[0]}" has no rule (tiers: {", ".join(tier_ids)})',
+            parameters=("rules",),
+        )
+    return rules
 
 
 def _read_weather(weather_path: Path, options: RegionOptions):

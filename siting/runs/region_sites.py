@@ -4,6 +4,12 @@ Each site's figures come from its own points (boundary and interior lattice), by
 sum over every farm at those points, not from the grid; at each site's point of maximum
 deposition every farm's own contribution is computed too, which gives the top contributors
 (they add up to the site's total there).
+
+The all-farms total is an in-combination figure (``incomb_*``), so each site is judged by the
+rule set's in-combination stages only (``siting.physics.staging.judge`` with
+``usable=IN_COMBINATION_FIGURES``): a stage testing a single installation's figures is skipped,
+and a tier with no stage on in-combination figures gets the verdict "no in-combination rule in
+<set id>", which does not pass.
 """
 
 from __future__ import annotations
@@ -16,11 +22,16 @@ import pandas as pd
 
 from siting.physics import assess
 from siting.physics.constants import deposition_kg_n_ha_yr
+from siting.physics.staging import IN_COMBINATION_FIGURES, Stage, judge
+from siting.presentation.rule_text import rule_words
+from siting.readers.rules import RuleSet
 from siting.readers.site_points import site_boundary_points, site_sample_points
 from siting.runs.region_inputs import RegionInputs
 from siting.runs.region_tasks import _farms_at_points, _Runner
 
 BOUNDARY_SPACING_M = 25.0  # site boundaries sampled at least this densely
+#: What a regional run's verdicts judge (the ``basis`` column of its sites).
+BASIS = "in combination (all farms of the layer)"
 
 
 CONTRIBUTOR_COLUMNS = [
@@ -72,13 +83,15 @@ def _site_results(runner: _Runner, inputs: RegionInputs, settings, farm, points,
         sites, max_points = _site_figures(
             inputs.sites, points.site_index, points.x_m, points.y_m, points.interior, point_conc
         )
+        sites = _with_in_combination_verdicts(sites, inputs.rules)
         conc_at_max = _farms_at_points(runner, inputs, settings, farm, max_points)
         contributors = _contributors(sites, inputs.farms, conc_at_max, inputs.options.top)
     return sites, contributors
 
 
 def _site_figures(sites, site_index, px, py, interior, point_conc):
-    """Per-site max and mean of the farms' total, % of level and load, verdict, max point."""
+    """Per-site max and mean of the farms' total (in combination), % of level and load, and the
+    point of maximum deposition."""
     n_sites = len(sites)
     vd = sites["deposition_velocity_m_s"].to_numpy(float)
     point_dep = deposition_kg_n_ha_yr(point_conc, vd[site_index])
@@ -89,20 +102,125 @@ def _site_figures(sites, site_index, px, py, interior, point_conc):
         on_site = np.flatnonzero(site_index == i)
         best = on_site[np.argmax(point_dep[on_site])]
         max_points[i] = px[best], py[best]
-    out = sites.copy()
-    out["pc_conc_max_ug_m3"] = c_max
-    out["pc_conc_mean_ug_m3"] = c_mean
-    out["pc_dep_max_kg_n_ha_yr"] = d_max
-    out["pc_dep_mean_kg_n_ha_yr"] = d_mean
-    out["pc_pct_level"] = assess.percent_of(c_max, out["critical_level_ug_m3"].to_numpy())
-    out["pc_pct_load"] = assess.percent_of(d_max, out["critical_load_used_kg_n_ha_yr"].to_numpy())
-    out["max_x_m"], out["max_y_m"] = max_points[:, 0], max_points[:, 1]
-    out["verdict"] = assess.verdict(
-        out["pc_pct_level"].to_numpy(),
-        out["pc_pct_load"].to_numpy(),
-        out["threshold_percent"].to_numpy(),
+    # the single-installation threshold of thresholds.toml does not judge a regional total
+    out = sites.drop(columns=["threshold_percent"], errors="ignore")
+    out["incomb_conc_max_ug_m3"] = c_max
+    out["incomb_conc_mean_ug_m3"] = c_mean
+    out["incomb_dep_max_kg_n_ha_yr"] = d_max
+    out["incomb_dep_mean_kg_n_ha_yr"] = d_mean
+    out["incomb_pct_level"] = assess.percent_of(c_max, out["critical_level_ug_m3"].to_numpy())
+    out["incomb_pct_load"] = assess.percent_of(
+        d_max, out["critical_load_used_kg_n_ha_yr"].to_numpy()
     )
+    out["max_x_m"], out["max_y_m"] = max_points[:, 0], max_points[:, 1]
     return out, max_points
+
+
+def _in_combination_figures(sites: pd.DataFrame) -> dict[str, np.ndarray]:
+    """The in-combination figures a rule set may test, from a regional sites table.
+
+    Parameters
+    ----------
+    sites : pandas.DataFrame
+        With ``incomb_pct_level``, ``incomb_pct_load`` [%] and ``incomb_dep_max_kg_n_ha_yr``
+        [kg N ha-1 yr-1] (the all-farms maxima).
+
+    Returns
+    -------
+    dict of str to ndarray
+        Every figure of ``IN_COMBINATION_FIGURES``; ``incomb_pct`` is the larger share.
+    """
+    figures = {
+        "incomb_pct_level": sites["incomb_pct_level"].to_numpy(float),
+        "incomb_pct_load": sites["incomb_pct_load"].to_numpy(float),
+        "incomb_dep_kg_n_ha_yr": sites["incomb_dep_max_kg_n_ha_yr"].to_numpy(float),
+    }
+    figures["incomb_pct"] = np.fmax(figures["incomb_pct_level"], figures["incomb_pct_load"])
+    assert set(figures) == IN_COMBINATION_FIGURES
+    return figures
+
+
+def _has_in_combination_rule(stages: tuple[Stage, ...]) -> bool:
+    """Whether a tier has a stage whose conditions test in-combination figures only.
+
+    Parameters
+    ----------
+    stages : tuple of Stage
+        One tier's stages.
+
+    Returns
+    -------
+    bool
+        False when only the tier's last (unconditional) stage could judge an in-combination
+        total: the set has no rule for it.
+    """
+    return any(
+        s.conditions and all(c.figure in IN_COMBINATION_FIGURES for c in s.conditions)
+        for s in stages
+    )
+
+
+def _with_in_combination_verdicts(sites: pd.DataFrame, rules: RuleSet) -> pd.DataFrame:
+    """The sites with their verdicts on the all-farms total under ``rules``' in-combination
+    stages: ``verdict``, ``passes``, ``deciding_rule``, ``basis`` and ``rules``.
+
+    Stages testing other figures are skipped; the tier's last stage takes what the others leave.
+    A tier with no in-combination stage (:func:`_has_in_combination_rule`) gives "no
+    in-combination rule in <set id>", which does not pass.
+
+    Parameters
+    ----------
+    sites : pandas.DataFrame
+        With ``tier`` and the figures of :func:`_in_combination_figures`.
+    rules : RuleSet
+        The rule set, with stages for every tier of the sites.
+
+    Returns
+    -------
+    pandas.DataFrame
+        A copy with the columns added.
+    """
+    out = sites.copy()
+    tiers = out["tier"].to_numpy(object)
+    found = judge(
+        _in_combination_figures(out),
+        tiers,
+        rules.stages_by_tier,
+        usable=IN_COMBINATION_FIGURES,
+    )
+    verdict, passes = found.verdict.copy(), found.passes.copy()
+    deciding = []
+    for i, (tier, k) in enumerate(zip(tiers, found.stage)):
+        stages = rules.stages_by_tier[tier]
+        if not _has_in_combination_rule(stages):
+            verdict[i], passes[i] = f"no in-combination rule in {rules.id}", False
+            deciding.append(f"{rules.id}: no rule of tier {tier} tests in-combination figures only")
+        else:
+            deciding.append(_deciding_words(stages, k, rules.id))
+    out["verdict"] = verdict
+    out["passes"] = passes.astype(bool)
+    out["deciding_rule"] = deciding
+    out["basis"] = BASIS
+    out["rules"] = rules.id
+    return out
+
+
+def _deciding_words(stages: tuple[Stage, ...], k: int, set_id: str) -> str:
+    """The deciding stage in words; the last (unconditional) one names the earlier stages that
+    were skipped, not failed, because they test other figures."""
+    if k < 0:
+        return ""
+    words = rule_words(stages[k], set_id)
+    skipped = [
+        s.rule_id
+        for s in stages[:k]
+        if any(c.figure not in IN_COMBINATION_FIGURES for c in s.conditions)
+    ]
+    if not stages[k].conditions and skipped:
+        words += (
+            f"; skipped, as testing figures other than in-combination ones: {', '.join(skipped)}"
+        )
+    return words
 
 
 def _contributors(sites, farms, conc_at_max, top: int) -> pd.DataFrame:

@@ -18,6 +18,9 @@ becomes a list of sources, each in a *release class* (kind, release height round
 - **Deposition.** Grid cells use the short-vegetation deposition velocity (0.02 m/s in the
   bundled config/deposition_velocities.toml); site points use the site's own land cover (as
   ``siting screen`` does). Plume depletion along the path uses the short-vegetation velocity.
+- **Verdicts.** A site's all-farms total is an in-combination figure (``incomb_*``): it is
+  judged by the rule set's in-combination stages only (``region_sites.py``); a tier whose set
+  has none reads "no in-combination rule in <set id>" (not passing).
 
 Tasks (kernels, near-field corrections, tiles, chunks of site points) run on dask: threads on
 this machine by default, a dask.distributed cluster with a scheduler address, or with no dask at
@@ -39,6 +42,7 @@ from __future__ import annotations
 import os
 import time
 from dataclasses import dataclass, field, replace
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -49,6 +53,7 @@ from siting.dispersion.kernels import kernel_half_size, offset_lattice
 from siting.errors import collecting_warnings
 from siting.physics.constants import deposition_kg_n_ha_yr
 from siting.readers.farms import FarmFields
+from siting.readers.rules import RuleSet
 from siting.runs.region_inputs import RegionInputs, RegionOptions, prepare_region
 from siting.runs.region_sites import _all_site_points, _site_results
 from siting.runs.region_tasks import (
@@ -67,6 +72,9 @@ CAUTIONS = [
     "volume source with its release height rounded to 0.5 m.",
     "Grid cells use the short-vegetation deposition velocity; habitat sites their own land "
     "cover. Site figures come from each site's own points, not from the grid.",
+    "Verdicts judge each site's all-farms total by the rule set's in-combination stages only; "
+    "rules on one installation's own contribution are not applied (there is none here), and "
+    "a tier without an in-combination rule is not judged.",
     "Emission figures and deposition velocities carry wide uncertainty. Local rules and the "
     "competent authority decide; for borderline results seek detailed modelling.",
 ]
@@ -83,8 +91,10 @@ class RegionResult:
     concentration_ug_m3 : ndarray, (n_rows, n_cols)
         Annual mean NH3 concentration of all farms together [ug m-3].
     sites : geopandas.GeoDataFrame or None
-        Each site's figures (max and mean concentration and deposition, % of critical level
-        and load, verdict); None without a habitat layer.
+        Each site's all-farms figures (``incomb_*``: max and mean concentration and deposition,
+        % of critical level and load) and its verdict under the rule set's in-combination
+        stages (``verdict``, ``passes``, ``deciding_rule``, ``basis``, ``rules``); None without
+        a habitat layer.
     contributors : pandas.DataFrame
         Per site, the top farms at its point of maximum deposition.
     plan : TilePlan
@@ -227,6 +237,8 @@ def region(
     options: RegionOptions = RegionOptions(),  # noqa: B008 (frozen dataclass: an immutable default)
     fields: FarmFields = FarmFields(),  # noqa: B008 (frozen dataclass: an immutable default)
     crs: str | None = None,
+    *,
+    rules: RuleSet | str | Path | None = None,
     **habitat_fields,
 ) -> RegionResult:
     """A regional run from files: :func:`prepare_region`, then :func:`compute_region`.
@@ -248,6 +260,10 @@ def region(
         The farms layer's attribute names.
     crs : str, optional
         Projected CRS to work in; default the farms layer's own.
+    rules : RuleSet, str or Path, optional
+        The rule set each site's all-farms total is judged by (its in-combination stages),
+        in place of ``options.rules`` (default "plain"): a RuleSet, a bundled id or a file.
+        Read and checked before anything is computed.
     **habitat_fields
         ``tables``, ``habitats_layer``, ``name_field``, ``habitat_field``,
         ``designation_field``, as for :func:`prepare_region`.
@@ -262,8 +278,11 @@ def region(
     InputFileError
         A file does not exist.
     InputError
-        An option out of range, a fault in an input (named), or no tile size fits.
+        An option out of range, a fault in the rule set or an input (named), or no tile size
+        fits.
     """
+    if rules is not None:
+        options = replace(options, rules=rules)
     return compute_region(
         prepare_region(
             farms_path, weather_path, habitats_path, options, fields, crs, **habitat_fields
