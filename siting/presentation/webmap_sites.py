@@ -11,6 +11,7 @@ the page loads. Used by :mod:`siting.presentation.webmap` and
 from __future__ import annotations
 
 import json
+import re
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -53,6 +54,9 @@ SITE_POPUP_ROWS: PopupRows = (
     ("In-combination, % of load", "incomb_pct_load", "%"),
 )
 
+#: The meaning in brackets after each figure name of a deciding rule (rule_text.condition_words).
+_FIGURE_MEANING = re.compile(r" \([^()]*\)")
+
 #: Number rows left out (not "n/a") where a site lacks the figure: tables without rule sets or
 #: without other sources.
 _BLANK_WHEN_MISSING = frozenset({"incomb_pct_load", "judged_pct_load", "net_dep_max_kg_n_ha_yr"})
@@ -93,6 +97,8 @@ def site_popup_values(frame: Any, rows: PopupRows = SITE_POPUP_ROWS) -> list[lis
         values = column_values(frame, column)
         if column == "verdict":
             texts = [f"<strong>{escape_text(v) or 'not assessed'}</strong>" for v in values]
+        elif column == "deciding_rule":  # short: the figures' meanings are in sites.csv
+            texts = [escape_text(_FIGURE_MEANING.sub("", str(v))) for v in values]
         elif unit is None:
             texts = [escape_text(v) for v in values]
         else:
