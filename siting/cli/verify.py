@@ -18,6 +18,8 @@ def run(args) -> int:
     submission = Path(args.submission)
     read = [submission] + (list(submission.rglob("*")) if submission.is_dir() else [])
     read += [Path(p) for p in (args.results, args.reference_habitats, *args.weather_files) if p]
+    if args.rules and ("/" in args.rules or "\\" in args.rules or args.rules.endswith(".toml")):
+        read.append(Path(args.rules))  # a rule set file, not a bundled id
     check_output_dir(out_dir.resolve(), args.overwrite, read)
     result = verify(
         Path(args.submission),
@@ -25,6 +27,7 @@ def run(args) -> int:
         reference_habitats=Path(args.reference_habitats) if args.reference_habitats else None,
         name_field=args.name_field,
         weather_files=[Path(p) for p in args.weather_files],
+        rules=args.rules,
     )
     written = write_verify_outputs(result, out_dir, overwrite=args.overwrite)
     if not args.quiet:
@@ -49,6 +52,7 @@ def _print_verify_summary(result, out_dir: Path) -> None:
         f"inputs: {len(result.integrity) - len(changed)} of {len(result.integrity)} "
         f"intact; figures differing beyond tolerance: {len(result.differences)}"
     )
+    console.print(plain(result.rule_sets_text))
     if result.findings:
         table = Table(title="Findings", title_justify="left")
         for col in ("severity", "code", "subject", "message"):

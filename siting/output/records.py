@@ -16,6 +16,7 @@ from pathlib import Path
 
 from siting._version import __version__
 from siting.output.folder import OUTPUT_MARKER
+from siting.readers.rules import bundled_rules_dir
 
 
 def sha256_of(path: Path) -> str:
@@ -179,6 +180,9 @@ PACKAGE_CONFIG = "_config"
 PACKAGE_EXTERNAL = "_external"
 
 
+PACKAGE_RULES = "_rules"
+
+
 def package_inputs(run, folder: Path) -> dict:
     """Copy every input of a run under ``folder/inputs`` so the output folder stands alone.
 
@@ -199,7 +203,8 @@ def package_inputs(run, folder: Path) -> dict:
     -------
     dict
         The package map written into run.json: {"files": {key: path under inputs/},
-        "config": "_config"}.
+        "config": "_config"}, and "rules": "_rules/<file>" when the run was judged by a rule
+        set file rather than a bundled set.
     """
 
     scenario = run.scenario
@@ -222,7 +227,16 @@ def package_inputs(run, folder: Path) -> dict:
     config.mkdir(parents=True, exist_ok=True)
     for name in run.tables.files_sha256:
         shutil.copy2(run.tables.folder / name, config / name)
-    return {"files": files, "config": PACKAGE_CONFIG}
+    packed = {"files": files, "config": PACKAGE_CONFIG}
+    rules = getattr(run, "rules", None)
+    if rules is not None and rules.path.resolve().parent != bundled_rules_dir().resolve():
+        # a rule set file given to the run (it may not be the scenario's): packed so the
+        # submission can be re-run and judged by the same set
+        target = package / PACKAGE_RULES / rules.path.name
+        target.parent.mkdir(parents=True, exist_ok=True)
+        shutil.copy2(rules.path, target)
+        packed["rules"] = f"{PACKAGE_RULES}/{rules.path.name}"
+    return packed
 
 
 def output_hashes(folder: Path) -> dict[str, dict]:

@@ -71,10 +71,12 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
         "consistent": result.consistent,
         "exit_code": result.exit_code,
         "tolerance": result.tolerance_text,
+        "rule_sets": _rule_sets(result),
         "findings": [f.as_dict() for f in result.findings],
         "integrity": result.integrity,
         "differences": result.differences,
         "sensitivity_summary": result.sensitivity_summary.to_dict(orient="records"),
+        "verdicts": result.verdicts,
     }
     with staged_folder(out_dir, overwrite) as staging:
         (staging / "findings.json").write_text(
@@ -95,8 +97,26 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
             sensitivity=result.sensitivity,
             sensitivity_summary=result.sensitivity_summary,
             cautions=result.cautions,
+            verdicts=result.verdicts,
+            rule_sets=result.rule_sets_text,
         )
     return out_dir
+
+
+def _rule_sets(result: VerifyResult) -> dict:
+    """The rule sets of a verification (findings.json): the submission's and the regulator's
+    (None when none was given), each by id, title and basis, and the line that names them."""
+
+    def described(rules) -> dict | None:
+        if rules is None:
+            return None
+        return {"id": rules.id, "title": rules.title, "basis": rules.basis, "path": str(rules.path)}
+
+    return {
+        "submission": described(result.rules),
+        "regulator": described(result.regulator_rules),
+        "text": result.rule_sets_text,
+    }
 
 
 def _json_default(value):

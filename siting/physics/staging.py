@@ -199,11 +199,12 @@ def allowed_scale(
 ) -> np.ndarray:
     """Largest scale s >= 0 of the judged contribution at which each site reaches a passing stage.
 
-    Each figure is offset + slope x s (s = 1 as described). A passing stage allows the smallest
-    s over its conditions (a condition that never holds allows none); a site may take the
-    largest over its passing stages, since an earlier stage that fails first hands the site on.
-    Inf where every s passes, 0 where none does (even with the contribution gone). Strict
-    comparisons are treated as their limits (the supremum).
+    Each figure is offset + slope x s (s = 1 as described), with slope >= 0. A stage's
+    conditions then hold for s up to some t (t = -inf: never, inf: always), so the stage
+    deciding at s is the first with t >= s; a passing stage decides on (the largest t of the
+    stages before it, its own t]. The result is the largest s of those ranges, 0 where none is
+    left (even with the contribution gone), inf where every s passes. Strict comparisons are
+    treated as their limits (the supremum).
 
     Parameters
     ----------
@@ -225,34 +226,37 @@ def allowed_scale(
     best = np.zeros(shape)
     for tier in np.unique(tiers):
         at = tiers == tier
+        caught = np.full(shape, -np.inf)[..., at]  # the largest t of the stages tried so far
+        reach = np.zeros(shape)[..., at]
         for stage in stages_by_tier[tier]:
-            if not stage.passes:
-                continue
-            allowed = np.full(shape, np.inf)[..., at]
+            t = np.full(shape, np.inf)[..., at]
             for c in stage.conditions:
                 # the larger of two shares is at most a limit when both are: one each
-                for figure in (
-                    COMPOSITES.get(c.figure, (c.figure,)) if c.figure not in slope else (c.figure,)
-                ):
-                    part = Condition(figure, c.operator, c.limit)
+                parts = (c.figure,) if c.figure in slope else COMPOSITES.get(c.figure, (c.figure,))
+                for figure in parts:
                     a = np.broadcast_to(offset[figure], shape)[..., at]
                     b = np.broadcast_to(slope[figure], shape)[..., at]
-                    allowed = np.minimum(allowed, _condition_scale(a, b, part))
-            best[..., at] = np.maximum(best[..., at], allowed)
+                    t = np.minimum(
+                        t, _condition_scale(a, b, Condition(figure, c.operator, c.limit))
+                    )
+            if stage.passes:
+                reach = np.where(t > caught, np.maximum(reach, t), reach)
+            caught = np.maximum(caught, t)
+        best[..., at] = np.maximum(reach, 0.0)
     return best
 
 
 def _condition_scale(a: np.ndarray, b: np.ndarray, condition: Condition) -> np.ndarray:
-    """Largest s >= 0 with a + b s meeting the condition (0 where no s >= 0 does).
+    """Largest s with a + b s meeting the condition: -inf where no s >= 0 does, inf where all do.
 
-    An upper bound (below, at_most) on a figure that grows with s allows s up to
-    (limit - a) / b; a lower bound (above, at_least) is only allowed on figures that do not
-    depend on s (the distance; readers/rules.py refuses others), so it allows every s or none.
+    An upper bound (below, at_most) on a figure that grows with s holds up to (limit - a) / b;
+    a lower bound (above, at_least) is only allowed on figures that do not depend on s (the
+    distance; readers/rules.py refuses others), so it holds for every s or none. NaN never
+    meets a condition (as in :func:`judge`).
     """
     if condition.operator in ("above", "at_least"):
-        return np.where(condition.holds(a), np.inf, 0.0)
+        return np.where(condition.holds(a), np.inf, -np.inf)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = (condition.limit - a) / b
     scale = np.where(b > 0, ratio, np.inf)
-    scale = np.where(a <= condition.limit, np.maximum(scale, 0.0), 0.0)
-    return np.where(np.isnan(scale), 0.0, scale)
+    return np.where(a <= condition.limit, scale, -np.inf)  # a NaN compares False: -inf

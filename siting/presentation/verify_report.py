@@ -2,20 +2,15 @@
 
 This module turns what :mod:`siting.runs.verification` found into the values of one
 self-contained HTML page for the regulator's file; the jinja2 template ``verify.html`` (in
-``siting/presentation/templates/``, on the shell and macros shared with report.html) lays them
-out, and :mod:`siting.output.verify` writes the file. The page has inline CSS, no scripts and no
-links outside the file, so it reads the same offline years later. No checking happens here: the
-verdict, the input hashes, the figure comparison, the plausibility findings and the sensitivity
-runs all arrive as plain data, and this module only orders, counts and formats them. Text that
-may come from the applicant's files (site names, file names, source ids, finding subjects,
-evidence) is escaped by the template (autoescape) wherever it enters the page.
-
-The page reuses the screening report's stylesheet, page shell and value display (the template
-macros and helpers of :mod:`siting.presentation.html_parts`, shared with
-:mod:`siting.presentation.report` so both pages read alike) and the number formatting of
-:mod:`siting.presentation.formats`. It is laid out for A4 portrait, on screen and in print: table
-rows are never split across pages, headings stay with what follows, table headers repeat, and the
-long sensitivity table is printed in full (no collapsed blocks)."""
+``siting/presentation/templates/``, on the shell and macros of
+:mod:`siting.presentation.html_parts` shared with report.html, so both pages read alike) lays
+them out, and :mod:`siting.output.verify` writes the file. The page has inline CSS, no scripts
+and no links outside the file, so it reads the same offline years later. No checking happens
+here: verdicts, hashes, comparison, findings and sensitivity arrive as plain data; this module
+orders, counts and formats them. Text that may come from the applicant's files (site names, file
+names, source ids, finding subjects, evidence) is escaped by the template (autoescape). The page
+is laid out for A4 portrait, on screen and in print: table rows are never split across pages,
+headings stay with what follows, table headers repeat, nothing is collapsed."""
 
 from __future__ import annotations
 
@@ -28,13 +23,7 @@ import pandas as pd
 
 from siting.errors import InputError
 from siting.presentation.formats import MISSING_TEXT, format_number, format_percent, is_missing
-from siting.presentation.html_parts import (
-    display_value,
-    is_number,
-    plain_label,
-    render,
-    text,
-)
+from siting.presentation.html_parts import display_value, is_number, plain_label, render, text
 from siting.presentation.html_parts import verdict as verdict_view
 
 __all__ = ["SENSITIVITY_COLUMNS", "SENSITIVITY_SUMMARY_COLUMNS", "render_verify_report"]
@@ -75,6 +64,9 @@ _MAX_RECEPTOR_ROWS = 200
 
 #: Name of the central (unvaried) run in the sensitivity tables.
 _CENTRAL = "central"
+
+#: The verdicts of a site shown side by side: as submitted, re-run, under the regulator's set.
+_VERDICT_KINDS = ("submitted", "rerun", "regulator")
 
 
 def _plural(count: int, singular: str, plural: str | None = None) -> str:
@@ -208,9 +200,7 @@ def _range_text(low: Any, high: Any) -> str:
     return f"{_percent_text(low)} – {_percent_text(high)}"
 
 
-# --------------------------------------------------------------------------------------------
-# What precedes the sections: the verdict box and the list of checks
-# --------------------------------------------------------------------------------------------
+# --- What precedes the sections: the verdict box and the list of checks ----------------------
 
 
 def _verdict_box(verdict_text: str, exit_code: int, n_high: int, flips: Sequence[str]) -> dict:
@@ -279,9 +269,7 @@ def _checks(
     }
 
 
-# --------------------------------------------------------------------------------------------
-# Sections 1 and 2: findings, inputs intact
-# --------------------------------------------------------------------------------------------
+# --- Sections 1 and 2: findings, inputs intact -----------------------------------------------
 
 
 def _evidence(evidence: Any) -> Any:
@@ -318,6 +306,20 @@ def _findings(findings: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
         "legend": [(_severity_badge(name), meaning) for name, meaning in _SEVERITIES],
         "rows": rows,
     }
+
+
+def _verdicts(rows: Sequence[Mapping[str, Any]] | None, rule_sets: str) -> dict[str, Any] | None:
+    """Section 1's verdicts by rule set (None without rows): the line naming the sets; per site
+    whether the regulator's verdict differs, the site, its _VERDICT_KINDS and deciding rule."""
+    if not rows:
+        return None
+    shown = [
+        (bool(r.get("differs")), text(r.get("site")))
+        + tuple(verdict_view(r.get(f"{k}_verdict"), r.get(f"{k}_passes")) for k in _VERDICT_KINDS)
+        + (text(r.get("regulator_rule")),)
+        for r in rows
+    ]
+    return {"line": text(rule_sets) if rule_sets else None, "rows": shown}
 
 
 def _integrity_row(row: Mapping[str, Any]) -> dict[str, Any]:
@@ -358,9 +360,7 @@ def _integrity(integrity: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
     }
 
 
-# --------------------------------------------------------------------------------------------
-# Section 3: the same numbers with this version?
-# --------------------------------------------------------------------------------------------
+# --- Section 3: the same numbers with this version? ------------------------------------------
 
 
 def _difference_rows(differences: Sequence[Mapping[str, Any]]) -> tuple[list, int]:
@@ -429,9 +429,7 @@ def _figures(
     return {"same_version": same, "lead": lead, "rows": rows, "more": more}
 
 
-# --------------------------------------------------------------------------------------------
-# Section 4: sensitivity
-# --------------------------------------------------------------------------------------------
+# --- Section 4: sensitivity ------------------------------------------------------------------
 
 
 def _summary_rows(summary: pd.DataFrame) -> list[tuple]:
@@ -502,12 +500,10 @@ def _sensitivity(sensitivity: pd.DataFrame, summary: pd.DataFrame) -> dict[str, 
     }
 
 
-# --------------------------------------------------------------------------------------------
-# The page
-# --------------------------------------------------------------------------------------------
+# --- The page --------------------------------------------------------------------------------
 
 
-def render_verify_report(  # over 80 lines only for the docstring of its 13 parameters
+def render_verify_report(  # over 80 lines only for the docstring of its 15 parameters
     *,
     submission: str,
     submitted_version: str,
@@ -522,6 +518,8 @@ def render_verify_report(  # over 80 lines only for the docstring of its 13 para
     sensitivity: pd.DataFrame,
     sensitivity_summary: pd.DataFrame,
     cautions: list[str],
+    verdicts: list[dict] | None = None,
+    rule_sets: str = "",
 ) -> str:
     """verify.html as text: a self-contained, offline-readable verification report.
 
@@ -562,6 +560,11 @@ def render_verify_report(  # over 80 lines only for the docstring of its 13 para
         (``*_pct_load`` [%], ``verdict_flips`` bool); may be empty.
     cautions : list of str
         The cautions every output carries.
+    verdicts : list of dict, optional
+        Per site (``VerifyResult.verdicts``): ``site``, ``differs`` and ``<kind>_verdict``,
+        ``<kind>_passes`` for each kind of _VERDICT_KINDS, and ``regulator_rule``.
+    rule_sets : str
+        Which rule sets were used, in one line.
 
     Returns
     -------
@@ -588,6 +591,7 @@ def render_verify_report(  # over 80 lines only for the docstring of its 13 para
         box=_verdict_box(verdict, exit_code, n_high, _flipping_sites(sensitivity_summary)),
         checks=_checks(findings, integrity, differences, sensitivity_summary),
         findings=_findings(findings) if findings else None,
+        verdicts=_verdicts(verdicts, rule_sets),
         integrity=_integrity(integrity) if integrity else None,
         tolerance=text(tolerance_text),
         figures=_figures(differences, submitted_version, this_version),

@@ -25,7 +25,14 @@ from typing import Annotated, Literal
 from pydantic import BaseModel, ConfigDict, Field, StringConstraints, ValidationError
 
 from siting.errors import InputError, InputFileError, validation_wording
-from siting.physics.staging import FIGURES, FIXED_FIGURES, OPERATORS, Condition, Stage
+from siting.physics.staging import (
+    COMPOSITES,
+    FIGURES,
+    FIXED_FIGURES,
+    OPERATORS,
+    Condition,
+    Stage,
+)
 from siting.readers.resources import config_dir
 
 #: The default rule set: today's single threshold per tier on the installation's contribution.
@@ -320,7 +327,12 @@ def _implies(later: tuple[Condition, ...], earlier: tuple[Condition, ...]) -> bo
 
 
 def _implies_one(lc: Condition, ec: Condition) -> bool:
-    if lc.figure != ec.figure:
+    """Whether meeting ``lc`` implies meeting ``ec``: the same figure, or an upper bound on the
+    larger of two shares (``pct``) and one on either of them."""
+    upper_on_both = lc.operator in ("below", "at_most") and ec.figure in COMPOSITES.get(
+        lc.figure, ()
+    )
+    if lc.figure != ec.figure and not upper_on_both:
         return False
     upper = {"below", "at_most"}
     if (lc.operator in upper) != (ec.operator in upper):

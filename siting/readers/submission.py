@@ -176,6 +176,8 @@ def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
     for key, relative in files.items():
         _inside(inputs, relative, f"package.files.{key}", record_path)
     _inside(inputs, package.get("config", "_config"), "package.config", record_path)
+    if "rules" in package:
+        _inside(inputs, package["rules"], "package.rules", record_path)
     # hashed files: inputs (anywhere, by key), config tables (in inputs/_config), outputs (in
     # the submission folder, by their relative path)
     within = {"inputs": None, "config_tables": inputs / "_config", "outputs": record_path.parent}
