@@ -16,7 +16,7 @@ from pathlib import Path
 
 from siting._version import __version__
 from siting.output.folder import OUTPUT_MARKER
-from siting.readers.rules import bundled_rules_dir
+from siting.readers.resources import config_dir
 
 
 def sha256_of(path: Path) -> str:
@@ -229,7 +229,7 @@ def package_inputs(run, folder: Path) -> dict:
         shutil.copy2(run.tables.folder / name, config / name)
     packed = {"files": files, "config": PACKAGE_CONFIG}
     rules = getattr(run, "rules", None)
-    if rules is not None and rules.path.resolve().parent != bundled_rules_dir().resolve():
+    if rules is not None and rules.path.resolve().parent != (config_dir() / "rules").resolve():
         # a rule set file given to the run (it may not be the scenario's): packed so the
         # submission can be re-run and judged by the same set
         target = package / PACKAGE_RULES / rules.path.name
