@@ -51,3 +51,33 @@ def test_a_site_already_over_with_the_house_gone_allows_nothing():
         Stage("insignificant", (Condition("pct_load", "below", 4.0),), passes=True), Stage("no")
     )
     assert allowed_scale(offset, slope, ["international"], stages) == pytest.approx([0.0])
+
+
+def test_a_missing_share_never_lets_a_site_pass():
+    """A site whose concentration figure is missing (NaN) but whose deposition share is tiny is
+    not passed on the deposition alone: the larger share is then missing, meets no condition,
+    and the tier's last rule decides (cautious; plain's international tier, 4 %)."""
+    import pandas as pd
+
+    from siting.readers.rules import load_rule_set
+    from siting.runs.judging import judge_sites
+
+    frame = pd.DataFrame(
+        {
+            "tier": ["international", "international"],
+            "assessed": [True, True],
+            "critical_level_ug_m3": [1.0, 1.0],
+            "critical_load_used_kg_n_ha_yr": [5.0, 5.0],
+            "judged_conc_max_ug_m3": [np.nan, 0.01],  # 1 % of the level where given
+            "judged_dep_max_kg_n_ha_yr": [0.05, 0.05],  # 1 % of the load
+            "judged_incomb_conc_max_ug_m3": [np.nan, 0.01],
+            "judged_incomb_dep_max_kg_n_ha_yr": [0.05, 0.05],
+            "background_conc_ug_m3": [1.0, 1.0],
+            "background_dep_kg_n_ha_yr": [10.0, 10.0],
+            "distance_m": [500.0, 500.0],
+        }
+    )
+    rules = load_rule_set("plain", ["international", "national", "local"])
+    verdict = judge_sites(frame, rules)
+    assert list(verdict.verdict) == ["above threshold", "below threshold"]
+    assert list(verdict.passes) == [False, True]

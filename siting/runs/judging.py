@@ -59,8 +59,10 @@ def site_figures(frame: pd.DataFrame, level=None, load=None) -> dict[str, np.nda
         "incomb_dep_kg_n_ha_yr": in_dep,
         "distance_m": frame["distance_m"].to_numpy(float),
     }
-    figures["pct"] = np.fmax(figures["pct_level"], figures["pct_load"])
-    figures["incomb_pct"] = np.fmax(figures["incomb_pct_level"], figures["incomb_pct_load"])
+    # np.maximum, not fmax: a missing share leaves the larger one missing, and a missing
+    # figure meets no condition, so such a site falls to its tier's last rule (cautious)
+    figures["pct"] = np.maximum(figures["pct_level"], figures["pct_load"])
+    figures["incomb_pct"] = np.maximum(figures["incomb_pct_level"], figures["incomb_pct_load"])
     assert set(figures) == set(FIGURES)
     return figures
 

@@ -192,8 +192,8 @@ def figures_at(offset: dict, slope: dict, scale) -> dict[str, np.ndarray]:
     dict of str to ndarray
     """
     out = {name: offset[name] + slope[name] * scale for name in offset}
-    out["pct"] = np.fmax(out["pct_level"], out["pct_load"])
-    out["incomb_pct"] = np.fmax(out["incomb_pct_level"], out["incomb_pct_load"])
+    out["pct"] = np.maximum(out["pct_level"], out["pct_load"])
+    out["incomb_pct"] = np.maximum(out["incomb_pct_level"], out["incomb_pct_load"])
     assert set(out) == set(FIGURES)
     return out
 

@@ -135,7 +135,7 @@ def _in_combination_figures(sites: pd.DataFrame) -> dict[str, np.ndarray]:
         "incomb_pct_load": sites["incomb_pct_load"].to_numpy(float),
         "incomb_dep_kg_n_ha_yr": sites["incomb_dep_max_kg_n_ha_yr"].to_numpy(float),
     }
-    figures["incomb_pct"] = np.fmax(figures["incomb_pct_level"], figures["incomb_pct_load"])
+    figures["incomb_pct"] = np.maximum(figures["incomb_pct_level"], figures["incomb_pct_load"])
     assert set(figures) == IN_COMBINATION_FIGURES
     return figures
 
