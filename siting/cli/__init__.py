@@ -1,11 +1,14 @@
 """Command-line interface: argument parsing and reporting only.
 
-Each command is a module of this package (screen, demo, weather, place, verify, region) with a
+Each command is a module of this package (screen, demo, weather, place, verify, region,
+compare, rules) with a
 ``run(args)`` over the Python API; the parser is siting.cli.options. A :class:`~siting.errors.SitingError`
 becomes one line on stderr and exit code 2; nothing is written in that case.
-Exit codes: 0 ok; 1 only with --fail-on-exceed when a site is above its threshold; 2 bad input.
+Exit codes: 0 ok; 1 with --fail-on-exceed when a site's verdict does not pass (verify: a
+difference or a high finding); 2 bad input.
 Commands: screen, demo (optionally on the hourly demo record), weather (products of an hourly
-record), place, verify, region (many farms over a region).
+record), place, verify, region (many farms over a region), compare (runs side by side),
+rules (the bundled rule sets).
 """
 
 from __future__ import annotations

@@ -47,6 +47,7 @@ def build_parser() -> argparse.ArgumentParser:
         _add_place,
         _add_verify,
         _add_region,
+        _add_compare,
         _add_rules,
     ):
         add_command(sub, common)
@@ -74,6 +75,23 @@ def _add_rules(sub: argparse._SubParsersAction, common: argparse.ArgumentParser)
     )
     p.add_argument("rule_set", nargs="?", metavar="ID|FILE", help="a bundled id or a file")
     p.set_defaults(command_module="rules")
+
+
+def _add_compare(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
+    """`siting compare`: separate screening runs side by side against the first."""
+    p = sub.add_parser(
+        "compare",
+        parents=[common],
+        help="compare output folders of separate screening runs",
+        description="Compare output folders of `siting screen` made on one grid with the same "
+        "sites: comparison.csv (every site of every run, with the change against the first "
+        "run) and difference_<run>.tif (each later run's deposition minus the first's).",
+    )
+    p.add_argument(
+        "run_folders", nargs="+", metavar="RUN", help="output folders of `siting screen`"
+    )
+    p.add_argument("--out", dest="out_dir", required=True, help="output folder")
+    p.set_defaults(command_module="compare")
 
 
 def _common_options() -> argparse.ArgumentParser:

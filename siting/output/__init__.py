@@ -10,6 +10,10 @@ from siting._lazy import lazy_exports
 __all__, __getattr__, __dir__ = lazy_exports(
     __name__,
     {
+        # compare.py: the files of ``siting compare``: comparison.csv, difference_<run>.tif, run.json
+        "difference_file_name": "siting.output.compare",
+        "compare_record": "siting.output.compare",
+        "write_compare_outputs": "siting.output.compare",
         # folder.py: output folders: the overwrite rule, staging, the writing lock, recovery
         "is_siting_output": "siting.output.folder",
         "check_output_dir": "siting.output.folder",

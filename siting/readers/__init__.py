@@ -42,6 +42,10 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "list_rule_sets": "siting.readers.rules",
         "rules_path": "siting.readers.rules",
         "load_rule_set": "siting.readers.rules",
+        # run_folders.py: reading the output folders of separate screening runs for ``compare``
+        "check_run_folder": "siting.readers.run_folders",
+        "read_run_sites": "siting.readers.run_folders",
+        "run_folder_version": "siting.readers.run_folders",
         # scenario.py: the scenario file: TOML -> validated :class:`Scenario`
         "Scenario": "siting.readers.scenario",
         "projected_crs": "siting.readers.scenario",

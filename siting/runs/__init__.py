@@ -15,6 +15,10 @@ from siting._lazy import lazy_exports
 __all__, __getattr__, __dir__ = lazy_exports(
     __name__,
     {
+        # comparing.py: separate screening runs compared against the first (``siting compare``)
+        "CompareResult": "siting.runs.comparing",
+        "safe_file_stem": "siting.runs.comparing",
+        "compare": "siting.runs.comparing",
         # comparison.py: verify's submitted figures against the re-run's, at a tolerance
         "compare_figures": "siting.runs.comparison",
         # findings.py: verify's plausibility review, each finding against a table or range
