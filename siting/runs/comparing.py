@@ -176,9 +176,13 @@ def _number(table: pd.DataFrame, column: str) -> np.ndarray:
 
 def _changes(first: pd.DataFrame, other: pd.DataFrame) -> pd.DataFrame:
     """The change columns of ``other`` against ``first`` (same sites, same order)."""
-    basis = (
-        "judged" if all(c in t for t in (first, other) for c in BASIS_COLUMNS["judged"]) else "pc"
-    )
+    # the judged figures only when both runs judged the same contribution (the same basis):
+    # a net change less an installation's PC would be no change at all
+    same_basis = all("basis" in t for t in (first, other)) and set(
+        first["basis"].astype(str)
+    ) == set(other["basis"].astype(str))
+    judged = all(c in t for t in (first, other) for c in BASIS_COLUMNS["judged"])
+    basis = "judged" if judged and same_basis else "pc"
     dep, pct = BASIS_COLUMNS[basis]
     for table in (first, other):
         if dep not in table or pct not in table:
