@@ -185,7 +185,7 @@ def test_hostile_or_shared_folder_names_give_safe_file_names(runs, tmp_path):
 def test_runs_judged_on_different_bases_are_compared_on_their_pc():
     """A run judged on the net change and one judged on the installation: their judged figures
     are different quantities, so the change is taken on the PC both carry (hand-made tables)."""
-    from siting.runs.comparing import _changes
+    from siting.runs.comparing import site_changes
 
     def table(basis, judged, pc):
         return pd.DataFrame(
@@ -198,9 +198,9 @@ def test_runs_judged_on_different_bases_are_compared_on_their_pc():
             }
         )
 
-    mixed = _changes(table("net", 0.1, 1.0), table("installation", 0.9, 0.9))
+    mixed = site_changes(table("net", 0.1, 1.0), table("installation", 0.9, 0.9))
     assert mixed["change_basis"].iloc[0] == "pc"
     assert mixed["change_dep_max_kg_n_ha_yr"].iloc[0] == pytest.approx(0.9 - 1.0)
-    same = _changes(table("net", 0.1, 1.0), table("net", 0.05, 0.9))
+    same = site_changes(table("net", 0.1, 1.0), table("net", 0.05, 0.9))
     assert same["change_basis"].iloc[0] == "judged"
     assert same["change_dep_max_kg_n_ha_yr"].iloc[0] == pytest.approx(0.05 - 0.1)

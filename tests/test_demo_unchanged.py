@@ -41,7 +41,19 @@ ADDED = {
         "judged_incomb_dep_max_kg_n_ha_yr",
         "judged_incomb_pct_level",
         "judged_incomb_pct_load",
-    ]
+    ],
+    # issue 15 item 3: the abatement appraisal of each abated source, appended at the end
+    # (siting.runs.appraisal.APPRAISAL_COLUMNS); every earlier column is unchanged
+    "sources.csv": [
+        "scrubber_capacity_m3_h",
+        "water_m3_yr",
+        "electricity_kwh_yr",
+        "acid_kg_yr",
+        "capital_eur",
+        "annual_cost_eur_yr",
+        "cost_eur_per_kg_nh3",
+        "appraisal_note",
+    ],
 }
 #: Columns whose text changed on purpose: a threshold's source is now the rule of the rule set
 #: that sets it (the default set "plain" keeps the same thresholds).

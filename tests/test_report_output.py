@@ -230,7 +230,8 @@ def test_net_change_table_equals_sites_csv(demo):
     and background + PC columns of sites.csv, each value as formatted by format_for_column."""
     parser, _, sites = demo
     tables = _tables_in(parser, "summary", "summary")
-    assert len(tables) == 2  # the summary, then the net-change table
+    # the summary, the net-change table, then the demo's options side by side
+    assert len(tables) == 3
     table = tables[1]
     shown = [CHANGE_HEADERS[h] for h in (c.text for c in table.head[0][1:]) if h in CHANGE_HEADERS]
     assert len(shown) == len(table.head[0]) - 1  # every header is a known sites.csv column

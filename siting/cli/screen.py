@@ -24,6 +24,7 @@ from siting.readers.rules import load_rule_set
 from siting.readers.scenario import load_scenario
 from siting.readers.tables import load_tables
 from siting.runs.screening import screen
+from siting.runs.screening_sites import screen_grid
 
 
 def _summary_rows(sites):
@@ -81,6 +82,39 @@ def _site_table(result, shown, n_more: int):
     return table
 
 
+def _options_table(result, shown):
+    """The rich table of the shown sites under the base and each option: the judged % of the
+    critical load, ✓ (green) where the site passes, ✗ (red) where it does not, ? (yellow) where
+    it is not assessed; None without options."""
+    from rich.table import Table
+
+    if getattr(result, "options", None) is None:
+        return None
+    runs = {"base": result, **result.options.runs}
+    table = Table(
+        title="options: judged % of critical load; ✓ passes the rule set, ✗ does not "
+        "(options.csv, report section 1)",
+        title_justify="left",
+    )
+    table.add_column("site", no_wrap=True)
+    for name in runs:
+        table.add_column(plain(name), justify="right")
+    for position in shown.index:
+        cells = []
+        for run in runs.values():
+            row = run.sites.loc[position]
+            style, mark = (
+                ("yellow", "?")
+                if not row.assessed
+                else (("green", "✓") if row.passes else ("bold red", "✗"))
+            )
+            value = row.judged_pct_load
+            shown = "-" if value != value else format(value, ".1f")
+            cells.append(f"[{style}]{shown} {mark}[/]")
+        table.add_row(plain(row["name"]), *cells)
+    return table
+
+
 def _print_flips(console, result) -> None:
     """One line per site whose verdict a sensitivity variant flips, at most
     :data:`SUMMARY_MAX_FLIPS` (the most affected sites first when there are more)."""
@@ -120,6 +154,9 @@ def _print_summary(result, out_dir: Path, quiet: bool, command: str = "screen") 
     console = Console(highlight=False, width=None if sys.stdout.isatty() else 110)
     shown, n_more = _summary_rows(result.sites)
     console.print(_site_table(result, shown, n_more))
+    options = _options_table(result, shown)
+    if options is not None:
+        console.print(options)
     if n_more:
         counts = result.sites["verdict"].value_counts()
         console.print(
@@ -135,7 +172,8 @@ def _print_summary(result, out_dir: Path, quiet: bool, command: str = "screen") 
             markup=True,
         )
     _print_flips(console, result)
-    console.print(f"Outputs in {out_dir} (report.html, map.html, sites.csv, GeoTIFFs).")
+    more = ", options.csv" if getattr(result, "options", None) is not None else ""
+    console.print(f"Outputs in {out_dir} (report.html, map.html, sites.csv{more}, GeoTIFFs).")
     console.print(
         "Screening estimate only; local rules and the competent authority decide.", style="dim"
     )
@@ -158,6 +196,7 @@ def screen_scenario(
         scenario.assessment.rules if rules is None else rules,
         [tier["id"] for tier in tables.thresholds],
     )
+    screen_grid(scenario)  # a grid too large is refused before the room for it is looked at
     out_dir = out if out is not None else Path("maps") / scenario.name
     check_output_dir(
         out_dir.resolve(),

@@ -41,6 +41,10 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "write_report": "siting.output.screen",
         "write_screen_map": "siting.output.screen",
         "write_outputs": "siting.output.screen",
+        # screen_options.py: options.csv and difference_<option>.tif of a run with options
+        "options_csv_table": "siting.output.screen_options",
+        "write_option_files": "siting.output.screen_options",
+        "difference_file": "siting.output.screen_options",
         # tables.py: CSV tables that a spreadsheet opens safely
         "write_csv": "siting.output.tables",
         # verify.py: the files of ``siting verify``: findings.json and verify.html, written atomically

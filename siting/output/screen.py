@@ -19,6 +19,7 @@ from siting.dispersion.inputs import WeatherClasses
 from siting.output.folder import check_output_dir, staged_folder
 from siting.output.geotiff import write_geotiff
 from siting.output.records import input_paths, output_hashes, package_inputs, run_record_base
+from siting.output.screen_options import write_option_files
 from siting.output.tables import write_csv
 from siting.presentation.figures import deposition_figure, figure_png, pc_vs_distance_figure
 from siting.presentation.notes import METHOD_NOTES, cautious_choices
@@ -279,6 +280,9 @@ def _write_all(result, folder: Path, run_time: str) -> None:
     _write_rasters(result, folder)
     table = _write_tables(result, folder)
     record = run_record(result, run_time)
+    options_table = None
+    if result.options is not None:
+        record["options"], options_table = write_option_files(result, folder, list(table.columns))
     record["package"] = package_inputs(result, folder)
     sources_gdf = gpd.GeoDataFrame(
         result.sources.copy(), geometry=result.source_geometries, crs=result.scenario.crs
@@ -298,6 +302,9 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         cautions=result.cautions,
         version=__version__,
         run_time=run_time,
+        option_deposition=None
+        if result.options is None
+        else {n: r.fields["pc_dep_kg_n_ha_yr"] for n, r in result.options.runs.items()},
     )
     figures, weather_figures = _report_figures(result, sources_gdf, contours)
     write_report(
@@ -318,6 +325,7 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         weather_figures=weather_figures,
         cautious_choices=cautious_choices(result),
         sensitivity_summary=result.sensitivity_summary,
+        options=options_table,
     )
     # last: every output the run wrote, hashed, so `siting verify` can tell an edited,
     # truncated or deleted one (run.json itself, the marker and the packed inputs aside)
@@ -328,9 +336,9 @@ def _write_all(result, folder: Path, run_time: str) -> None:
 def estimate_screen_bytes(scenario) -> int:
     """A generous estimate of a screening run's output folder [bytes], known before any work.
 
-    Three float32 GeoTIFFs and the map's image of the grid (uncompressed, 4 bytes a cell),
-    and four times the inputs (their packaged copy, and the habitat sites again in
-    sites.gpkg, the map and the report).
+    Three float32 GeoTIFFs and the map's image of the grid, and a difference GeoTIFF and a map
+    image per option (uncompressed, 4 bytes a cell), and four times the inputs (their packaged
+    copy, and the habitat sites again in sites.gpkg, the map and the report).
 
     Parameters
     ----------
@@ -344,8 +352,7 @@ def estimate_screen_bytes(scenario) -> int:
     """
 
     grid = grid_around(
-        [s.x for s in scenario.sources],
-        [s.y for s in scenario.sources],
+        *scenario.layout_points,
         scenario.grid.margin_m,
         scenario.grid.spacing_m,
         scenario.crs,
@@ -356,7 +363,8 @@ def estimate_screen_bytes(scenario) -> int:
             inputs += Path(path).stat().st_size
         except (OSError, TypeError):
             continue
-    return 4 * 4 * grid.size + 4 * inputs
+    rasters = 4 + 2 * len(scenario.options)  # + a difference and a map image per option
+    return 4 * rasters * grid.size + 4 * inputs
 
 
 def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:

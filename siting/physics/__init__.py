@@ -1,5 +1,7 @@
 """Physics on arrays: emission, plume, deposition, stability, sun, season, assessment arithmetic.
 
+Also the arithmetic of the abatement appraisal (appraisal.py).
+
 Nothing here reads or writes a file, prints, or knows a CRS; every formula names its source.
 
 Every public function and class of the subpackage is exported here (``__all__``) and imported
@@ -11,6 +13,13 @@ from siting._lazy import lazy_exports
 __all__, __getattr__, __dir__ = lazy_exports(
     __name__,
     {
+        # appraisal.py: scrubber size, acid, annuity, running cost and cost per kg NH3 abated
+        "scrubber_capacity_m3_h": "siting.physics.appraisal",
+        "sulphuric_acid_kg_yr": "siting.physics.appraisal",
+        "annuity_factor_per_yr": "siting.physics.appraisal",
+        "annuity_eur_yr": "siting.physics.appraisal",
+        "running_cost_eur_yr": "siting.physics.appraisal",
+        "cost_eur_per_kg_nh3": "siting.physics.appraisal",
         # assess.py: per-site statistics, % of critical level and load, verdicts
         "site_max_and_mean": "siting.physics.assess",
         "percent_of": "siting.physics.assess",

@@ -10,6 +10,12 @@ from __future__ import annotations
 MOLAR_MASS_N_G_MOL = 14.0067  # CIAAW standard atomic weight of N (conventional value), IUPAC 2021
 MOLAR_MASS_H_G_MOL = 1.00794  # CIAAW standard atomic weight of H (pre-2009 single value), IUPAC
 MOLAR_MASS_NH3_G_MOL = MOLAR_MASS_N_G_MOL + 3 * MOLAR_MASS_H_G_MOL  # 17.0305 g/mol, derived
+MOLAR_MASS_O_G_MOL = 15.999  # CIAAW standard atomic weight of O (conventional value), IUPAC 2021
+MOLAR_MASS_S_G_MOL = 32.06  # CIAAW standard atomic weight of S (conventional value), IUPAC 2021
+#: H2SO4, 98.072 g/mol, derived
+MOLAR_MASS_H2SO4_G_MOL = 2 * MOLAR_MASS_H_G_MOL + MOLAR_MASS_S_G_MOL + 4 * MOLAR_MASS_O_G_MOL
+#: kg H2SO4 bound per kg NH3 captured, 2 NH3 + H2SO4 -> (NH4)2SO4 (~2.879), derived
+H2SO4_PER_NH3_MASS_RATIO = MOLAR_MASS_H2SO4_G_MOL / (2 * MOLAR_MASS_NH3_G_MOL)
 
 SECONDS_PER_DAY = 86_400.0  # definition of the day in SI seconds
 DAYS_PER_YEAR = 365.0  # calendar year used for annual emissions and deposition (common practice)

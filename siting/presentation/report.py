@@ -45,6 +45,7 @@ from siting.presentation.html_parts import (
     text,
     verdict,
 )
+from siting.presentation.report_options import options_view
 from siting.presentation.report_record import flag_count, inputs_view, run_record_view
 
 __all__ = ["SUMMARY_COLUMNS", "render_report"]
@@ -315,7 +316,7 @@ def _verdict_counts(sites: pd.DataFrame) -> str:
 # --------------------------------------------------------------------------------------------
 
 
-def render_report(  # over 80 lines only for the docstring of its 16 parameters
+def render_report(  # over 80 lines only for the docstring of its 17 parameters
     *,
     title: str,
     version: str,
@@ -333,6 +334,7 @@ def render_report(  # over 80 lines only for the docstring of its 16 parameters
     weather_figures: Mapping[str, bytes] | None = None,
     cautious_choices: list[tuple[str, str, str]] | None = None,
     sensitivity_summary: pd.DataFrame | None = None,
+    options: pd.DataFrame | None = None,
 ) -> str:
     """report.html as text: a self-contained, offline-readable account of one screening run.
 
@@ -384,6 +386,9 @@ def render_report(  # over 80 lines only for the docstring of its 16 parameters
     sensitivity_summary : DataFrame, optional
         One row per site (sensitivity.py): min/max % of critical load and level over the
         variants and the variants that flip its verdict.
+    options : DataFrame, optional
+        options.csv's rows (one per site and option, the base first), shown side by side in
+        section 1 with what each option changes (``run_record["options"]``).
 
     Returns
     -------
@@ -415,6 +420,7 @@ def render_report(  # over 80 lines only for the docstring of its 16 parameters
         n_flags=flag_count(sources),
         summary=_summary(sites),
         change=_change(sites),
+        options=options_view(options, run_record.get("options") or [], sources),
         inputs=inputs_view(sources, weather_summary, habitat_values, sites, parameters),
         weather_figures=_figures(weather_figures or {}),
         method_notes=[text(note) for note in method_notes],

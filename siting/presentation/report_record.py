@@ -90,10 +90,23 @@ _DERIVATION_ROWS: tuple[tuple[str, tuple[tuple[str, str], ...]], ...] = (
             ("effluent_m3_yr", "Effluent [m³/yr]"),
         ),
     ),
+    (
+        "What the abatement takes and costs (prices: the scenario's [appraisal])",
+        (
+            ("scrubber_capacity_m3_h", "Scrubber capacity [m³/h]"),
+            ("water_m3_yr", "Fresh water [m³/yr]"),
+            ("electricity_kwh_yr", "Electricity [kWh/yr]"),
+            ("acid_kg_yr", "Sulphuric acid, as 100 % H2SO4 [kg/yr]"),
+            ("capital_eur", "Investment [EUR]"),
+            ("annual_cost_eur_yr", "Annual cost, annuity and running [EUR/yr]"),
+            ("cost_eur_per_kg_nh3", "Cost per kg NH3 abated [EUR/kg]"),
+            ("appraisal_note", "Note on the appraisal"),
+        ),
+    ),
 )
 
 #: Rows of the derivation table shown as citations (small wrapping text) and as a warning.
-_CITATION_ROWS = frozenset({"factor_source", "reduction_source"})
+_CITATION_ROWS = frozenset({"factor_source", "reduction_source", "appraisal_note"})
 _FLAG_ROWS = frozenset({"reduction_flag"})
 #: Rows of the derivation table shown in bold: the figures the model uses.
 _RESULT_ROWS = frozenset({"nh3_kg_yr", "emission_g_s"})

@@ -364,8 +364,12 @@ def render_screen_map(
     cautions: list[str],
     version: str,
     run_time: str,
+    option_deposition: dict[str, np.ndarray] | None = None,
 ) -> str:
     """map.html of a screening run: the deposition surface, contours, sites and sources.
+
+    With options, each option's deposition is a layer of its own (off when the page opens),
+    coloured in the same classes as the base's.
 
     Parameters
     ----------
@@ -401,6 +405,8 @@ def render_screen_map(
         siting version, shown as "siting <version>".
     run_time : str
         Time of the run as it should be shown.
+    option_deposition : dict of str to ndarray, optional
+        Option name -> its PC deposition [kg N ha-1 yr-1] on the same grid.
 
     Returns
     -------
@@ -415,18 +421,29 @@ def render_screen_map(
         If folium declares a script or style sheet that siting does not vendor.
     """
     grid, projected = check_grid(deposition_kg_n_ha_yr, cell_m, crs)
-    edges = deposition_class_edges(grid)
+    option_deposition = option_deposition or {}
+    edges = deposition_class_edges(np.stack([grid, *option_deposition.values()]))
     colours = deposition_class_colours(edges.size - 1)
     data_url, bounds = overlay(grid, projected, west_m, north_m, cell_m, edges, colours)
     sources_wgs84 = to_wgs84(sources, projected)
     fmap = new_map(title, bounds, zoom_start=13)
-    add_surface(fmap, data_url, bounds, "Deposition, PC (kg N/ha/yr)")
+    base = ", base" if option_deposition else ""
+    add_surface(fmap, data_url, bounds, f"Deposition, PC{base} (kg N/ha/yr)")
+    for name, values in option_deposition.items():
+        image, _ = overlay(values, projected, west_m, north_m, cell_m, edges, colours)
+        add_surface(fmap, image, bounds, f"Option {name}: deposition, PC", show=False)
     if contours:  # no "Contours" layer without levels
         add_contours(layer(fmap, "Contours"), grid, projected, west_m, north_m, cell_m, contours)
     add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape, GRID_EDGE_TIP)
     add_sites(layer(fmap, "Habitat sites"), to_wgs84(sites, projected))
     _add_sources(layer(fmap, "Sources"), sources_wgs84)
     roles = _roles_present(sources_wgs84)
-    legend = legend_html(edges, colours, contours, roles, extra_rows=[extent_legend_row()])
+    extra = [extent_legend_row()]
+    if option_deposition:
+        extra.append(
+            '<div class="note">options: tick one in the layer list (and untick the base) to '
+            "see its deposition in the same classes; contours are the base's</div>"
+        )
+    legend = legend_html(edges, colours, contours, roles, extra_rows=extra)
     title_box = title_html(title, run_time, version, cautions)
     return finish_page(fmap, bounds, [title_box, legend])

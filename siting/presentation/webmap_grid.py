@@ -196,8 +196,11 @@ def to_wgs84(frame: gpd.GeoDataFrame, crs: Any) -> gpd.GeoDataFrame:
     return frame.to_crs("EPSG:4326")
 
 
-def add_surface(fmap: folium.Map, data_url: str, bounds: list[list[float]], name: str) -> None:
-    """The coloured grid from :func:`overlay` as an image overlay named ``name`` (escaped)."""
+def add_surface(
+    fmap: folium.Map, data_url: str, bounds: list[list[float]], name: str, show: bool = True
+) -> None:
+    """The coloured grid from :func:`overlay` as an image overlay named ``name`` (escaped),
+    shown when the page opens unless ``show`` is False (then ticked on in the layer list)."""
     import folium
 
     folium.raster_layers.ImageOverlay(
@@ -208,7 +211,7 @@ def add_surface(fmap: folium.Map, data_url: str, bounds: list[list[float]], name
         interactive=False,
         overlay=True,
         control=True,
-        show=True,
+        show=show,
         pixelated=True,
         class_name=OVERLAY_CLASS,
     ).add_to(fmap)

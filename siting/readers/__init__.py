@@ -50,6 +50,8 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "Scenario": "siting.readers.scenario",
         "projected_crs": "siting.readers.scenario",
         "load_scenario": "siting.readers.scenario",
+        # scenario_appraisal.py: the scenario's optional [appraisal] prices and interest rate
+        "AppraisalSection": "siting.readers.scenario_appraisal",
         # scenario_sections.py: the scenario's sections other than its sources
         "WeatherSection": "siting.readers.scenario_sections",
         "SeasonalSection": "siting.readers.scenario_sections",
@@ -60,6 +62,10 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "ReceptorsSection": "siting.readers.scenario_sections",
         "ExclusionSpec": "siting.readers.scenario_sections",
         "HoldingSection": "siting.readers.scenario_sections",
+        # scenario_options.py: the scenario's [[option]] tables
+        "OptionSpec": "siting.readers.scenario_options",
+        "SourceChange": "siting.readers.scenario_options",
+        "apply_option": "siting.readers.scenario_options",
         # scenario_sources.py: the scenario's [[source]] tables
         "SourceSpec": "siting.readers.scenario_sources",
         # site_points.py: receptor points on habitat sites (boundary, interior lattice, nodes)
@@ -72,6 +78,11 @@ __all__, __getattr__, __dir__ = lazy_exports(
         # submission.py: reading a submitted screening run for ``siting verify``
         "Submission": "siting.readers.submission",
         "load_submission": "siting.readers.submission",
+        # table_appraisal.py: abatement_appraisal.toml's rows and file (pydantic models)
+        "ScrubberCostRow": "siting.readers.table_appraisal",
+        "HousingMeasureCostRow": "siting.readers.table_appraisal",
+        "VentilationRow": "siting.readers.table_appraisal",
+        "AbatementAppraisalFile": "siting.readers.table_appraisal",
         # table_rows.py: the rows of the config/ lookup tables (pydantic models)
         "FactorRow": "siting.readers.table_rows",
         "Uncertainty": "siting.readers.table_rows",

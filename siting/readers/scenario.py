@@ -16,9 +16,17 @@ from __future__ import annotations
 import tomllib
 from pathlib import Path
 
-from pydantic import BaseModel, Field, ValidationError, field_validator
+from pydantic import (
+    BaseModel,
+    Field,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 
 from siting.errors import InputError, InputFileError, validation_wording
+from siting.readers.scenario_appraisal import AppraisalSection
+from siting.readers.scenario_options import OptionSpec, SourceChange, apply_option
 from siting.readers.scenario_sections import (
     AssessmentSection,
     DepositionSection,
@@ -60,8 +68,20 @@ class Scenario(_Section):
         [receptors].
     holding : HoldingSection, optional
         [holding] (``siting place``).
+    appraisal : AppraisalSection
+        [appraisal]: the prices and interest rate of the abatement appraisal (invented
+        placeholders where left out).
     sources, source : list of SourceSpec
-        The [[source]] tables (attribute ``sources``; ``source`` in the file).
+        The [[source]] tables (attribute ``sources``; ``source`` in the file): the base
+        scenario's, or an option's after :meth:`with_option`.
+    option_sources : list of SourceSpec
+        The [[source]] tables with ``options = [...]``: in those options only.
+    options, option : list of OptionSpec
+        The [[option]] tables (attribute ``options``; ``option`` in the file).
+    option_name : str, optional
+        The option these sources are (set by :meth:`with_option`); None for the base.
+    option_base_sources : list of SourceSpec, optional
+        The base's sources, on a scenario made by :meth:`with_option` (not in the file).
     path : Path, optional
         The scenario file.
     """
@@ -76,8 +96,100 @@ class Scenario(_Section):
     habitats: HabitatsSection
     receptors: ReceptorsSection | None = None
     holding: HoldingSection | None = None
+    appraisal: AppraisalSection = AppraisalSection()
     sources: list[SourceSpec] = Field(alias="source", min_length=1)
+    option_sources: list[SourceSpec] = []
+    options: list[OptionSpec] = Field([], alias="option")
+    option_name: str | None = None
     path: FilePath | None = None
+    # the base's sources, on a scenario made by with_option (not part of the file or its dump)
+    option_base_sources: list[SourceSpec] | None = Field(None, exclude=True)
+
+    @model_validator(mode="before")
+    @classmethod
+    def _split_option_sources(cls, raw):
+        # a [[source]] with options = [...] exists in those options only, not in the base
+        if not isinstance(raw, dict):
+            return raw
+        for key in ("option_sources", "option_name", "option_base_sources"):
+            if key in raw:
+                raise ValueError(f"unknown key {key}")
+        listed = raw.get("source")
+        if not isinstance(listed, list):
+            return raw
+        own = [s for s in listed if isinstance(s, dict) and "options" in s]
+        if not own:
+            return raw
+        base = [s for s in listed if not (isinstance(s, dict) and "options" in s)]
+        return {**raw, "source": base, "option_sources": own}
+
+    @model_validator(mode="after")
+    def _options_apply(self):
+        names = [o.name for o in self.options]
+        for name in names:
+            if names.count(name) > 1:
+                raise ValueError(f'duplicate option name "{name}"')
+        seen = {s.id for s in self.sources}
+        for src in self.option_sources:
+            if src.id in seen:
+                raise ValueError(f'duplicate source id "{src.id}"')
+            seen.add(src.id)
+            unknown = [n for n in src.options if n not in names]
+            if unknown:
+                raise ValueError(
+                    f'source "{src.id}": options names no [[option]] "{unknown[0]}" '
+                    f"(options: {', '.join(names) or 'none'})"
+                )
+        for option in self.options:
+            if not apply_option(option, self.sources, self.option_sources):
+                raise ValueError(f'option "{option.name}" leaves no source')
+        return self
+
+    def with_option(self, name: str) -> Scenario:
+        """The scenario as option ``name`` has it: its sources changed, the rest unchanged.
+
+        Parameters
+        ----------
+        name : str
+            An [[option]]'s name.
+
+        Returns
+        -------
+        Scenario
+            ``sources`` are the option's (:func:`apply_option`), ``option_name`` is ``name``;
+            the options themselves stay, so the grid still covers every option's sources.
+
+        Raises
+        ------
+        KeyError
+            No option of that name.
+        """
+        option = next((o for o in self.options if o.name == name), None)
+        if option is None:
+            raise KeyError(name)
+        base = self.base_sources
+        return self.model_copy(
+            update={
+                "sources": apply_option(option, base, self.option_sources),
+                "option_name": name,
+                "option_base_sources": base,
+            }
+        )
+
+    @property
+    def base_sources(self) -> list[SourceSpec]:
+        """The base scenario's sources (also on a scenario made by :meth:`with_option`)."""
+        return self.option_base_sources if self.option_name is not None else self.sources
+
+    @property
+    def layout_points(self) -> tuple[list[float], list[float]]:
+        """x and y [m] of every source of the base and of every option (the grid covers all)."""
+        points = [(s.x, s.y) for s in self.base_sources]
+        for option in self.options:
+            points += [
+                (s.x, s.y) for s in apply_option(option, self.base_sources, self.option_sources)
+            ]
+        return [x for x, _ in points], [y for _, y in points]
 
     @field_validator("sources")
     @classmethod
@@ -100,21 +212,36 @@ class Scenario(_Section):
         return self.path.stem if self.path else "scenario"
 
 
+#: Lists of tables in an error location: key -> (table in the file, label, naming key).
+_LISTS = {
+    "source": ("source", "source", "id"),
+    "option_sources": ("source", "source", "id"),
+    "option": ("option", "option", "name"),
+}
+
+
+def _entries(raw: dict, key: str) -> list[dict]:
+    """The raw tables an error location's list ``key`` indexes (the base's [[source]] tables
+    and those of options are two lists once validated: see Scenario._split_option_sources)."""
+    listed = raw.get("option" if key == "option" else "source") or []
+    tables = [t if isinstance(t, dict) else {} for t in listed]
+    if key == "option":
+        return tables
+    return [t for t in tables if ("options" in t) == (key == "option_sources")]
+
+
 def _where(loc: tuple, raw: dict) -> tuple[str, str]:
     """(section, key) of an error location, e.g. ('source "H2"', 'height_m')."""
     section, keys = [], []
     i = 0
     while i < len(loc):
         key = loc[i]
-        if key == "source" and i + 1 < len(loc) and isinstance(loc[i + 1], int):
+        if key in _LISTS and i + 1 < len(loc) and isinstance(loc[i + 1], int):
+            table, label, name = _LISTS[key]
+            entries = _entries(raw, key)
             idx = loc[i + 1]
-            sources = raw.get("source") or []
-            sid = (
-                sources[idx].get("id")
-                if idx < len(sources) and isinstance(sources[idx], dict)
-                else None
-            )
-            section.append(f'source "{sid}"' if sid else f"[[source]] #{idx + 1}")
+            given = entries[idx].get(name) if idx < len(entries) else None
+            section.append(f'{label} "{given}"' if given else f"[[{table}]] #{idx + 1}")
             i += 2
             continue
         if isinstance(key, str):
@@ -126,11 +253,13 @@ def _where(loc: tuple, raw: dict) -> tuple[str, str]:
     return ".".join(section), ".".join(keys)
 
 
-_SECTIONS = ("weather", "grid", "deposition", "assessment", "habitats", "receptors")
+_SECTIONS = ("weather", "grid", "deposition", "assessment", "habitats", "receptors", "appraisal")
 
 
 def _known_keys(loc: tuple) -> list[str]:
     """Field names allowed where an unknown key was found (for a suggestion)."""
+    if len(loc) >= 2 and loc[0] == "option" and "change" in loc[:-1]:
+        return list(SourceChange.model_fields)
     model = Scenario
     for key in loc[:-1]:
         if isinstance(key, int):

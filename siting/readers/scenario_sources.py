@@ -56,6 +56,9 @@ class SourceSpec(_Section):
         Share of the house's air the technique treats [-], 0..1.
     scrubber_design_share : float, optional
         Scrubber capacity / maximum ventilation [-], 0..1 (hourly records).
+    options : list of str, optional
+        The [[option]] names this source exists in; None (the default) for a source of the
+        base scenario, which every option has unless its change leaves it out.
     """
 
     id: str = Field(min_length=1, max_length=80)
@@ -80,6 +83,7 @@ class SourceSpec(_Section):
     reduction_basis: str | None = Field(None, min_length=1, max_length=300)
     treated_air_fraction: float | None = Field(None, ge=0, le=1)
     scrubber_design_share: float | None = Field(None, ge=0, le=1)
+    options: list[str] | None = Field(None, min_length=1)
 
     @model_validator(mode="after")
     def _consistent(self):

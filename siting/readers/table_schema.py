@@ -7,7 +7,8 @@ section, row key or value of the wrong type is one :class:`~siting.errors.InputE
 the file, the row (number and id) and the key. Rows may carry extra keys for people (a
 description, a EUNIS code): they are kept, not checked. No physics here.
 
-The row models are in ``table_rows.py``; this module holds the files' models (their sections
+The row models are in ``table_rows.py`` (abatement_appraisal.toml's rows and file in
+``table_appraisal.py``); this module holds the files' models (their sections
 and the rules across rows), ``SCHEMAS`` and :func:`validate_table` with its messages.
 """
 
@@ -19,6 +20,7 @@ from typing import Annotated
 from pydantic import BaseModel, Field, ValidationError, model_validator
 
 from siting.errors import InputError, validation_wording
+from siting.readers.table_appraisal import APPRAISAL_FILE, AbatementAppraisalFile
 from siting.readers.table_rows import (
     STABILITY,
     BriggsRow,
@@ -160,6 +162,8 @@ SCHEMAS: dict[str, tuple[str, type[_Strict], str | None]] = {
     "deposition_velocities": ("deposition_velocities.toml", DepositionVelocitiesFile, "id"),
     "thresholds": ("thresholds.toml", ThresholdsFile, "id"),
     "dispersion": ("dispersion.toml", DispersionFile, None),
+    # ids and livestock checked once each by the file's model (its rows have either key)
+    "abatement_appraisal": (APPRAISAL_FILE, AbatementAppraisalFile, None),
 }
 
 

@@ -5,6 +5,10 @@ keys, types, ranges, finite numbers) is checked by the pydantic models of table_
 name the file, the row and the key in any error; here only the checks across tables. Tables are
 read from the bundled config/ folder unless the caller passes another folder (a user may keep a
 copy edited for their jurisdiction). No physics here: rows become plain dicts and small arrays.
+
+abatement_appraisal.toml (the abatement appraisal's costs and ventilation rates) is read when
+the folder has it: a user's copy of config/ made before it existed still screens, its sources
+then left unappraised (``Tables.abatement_appraisal`` None, nothing recorded for it).
 """
 
 from __future__ import annotations
@@ -20,6 +24,7 @@ import numpy as np
 from siting.errors import InputError, InputFileError
 from siting.physics.plume import STABILITY_CLASSES, SigmaScheme
 from siting.readers.resources import config_dir
+from siting.readers.table_appraisal import APPRAISAL_FILE
 from siting.readers.table_schema import validate_table
 
 TABLE_FILES = {
@@ -88,6 +93,10 @@ class Tables:
         SHA-256 of each table file, by file name.
     emission_factor_uncertainty : dict, optional
         emission_factors.toml [uncertainty]: {"emission_factor_percent", "source"}, or None.
+    abatement_appraisal : dict, optional
+        abatement_appraisal.toml, checked: {"technique": rows by technique id (each with its
+        ``kind``, "scrubber" or "housing_measure"), "ventilation": rows by livestock id}; None
+        when the folder has no such file.
     """
 
     folder: Path
@@ -101,6 +110,8 @@ class Tables:
     files_sha256: dict[str, str]
     #: emission_factors.toml [uncertainty]: {"emission_factor_percent", "source"}, or None
     emission_factor_uncertainty: dict | None = None
+    #: abatement_appraisal.toml: {"technique": {id: row}, "ventilation": {livestock: row}}
+    abatement_appraisal: dict | None = None
 
     def factor(self, livestock: str, housing: str, where: str) -> dict:
         """The emission-factor row for a livestock category and housing system.
@@ -320,7 +331,8 @@ def load_tables(folder: Path | None = None) -> Tables:
     Parameters
     ----------
     folder : Path, optional
-        A folder holding all seven tables; default the bundled config/.
+        A folder holding all seven tables (and abatement_appraisal.toml, read when there);
+        default the bundled config/.
 
     Returns
     -------
@@ -333,7 +345,8 @@ def load_tables(folder: Path | None = None) -> Tables:
         A table file is missing.
     InputError
         A table fails its checks, or the tables disagree (a habitat's land cover without a
-        deposition velocity, a missing critical level).
+        deposition velocity, a missing critical level, an appraisal row for a technique or
+        livestock the other tables do not have).
     """
     folder = Path(folder) if folder is not None else config_dir()
     data, hashes = {}, {}
@@ -374,4 +387,43 @@ def load_tables(folder: Path | None = None) -> Tables:
         dispersion=checked["dispersion"],
         files_sha256=hashes,
         emission_factor_uncertainty=checked["emission_factors"].get("uncertainty"),
+        abatement_appraisal=_load_appraisal(folder, hashes, checked),
     )
+
+
+def _load_appraisal(folder: Path, hashes: dict, checked: dict) -> dict | None:
+    """abatement_appraisal.toml of ``folder`` checked, against abatement.toml and
+    emission_factors.toml too, its hash added to ``hashes``; None when the folder has none."""
+    path = folder / APPRAISAL_FILE
+    if not path.is_file():
+        return None
+    hashes[APPRAISAL_FILE] = hashlib.sha256(path.read_bytes()).hexdigest()
+    table = validate_table("abatement_appraisal", _read_toml(path), path.name)
+    kinds = {r["id"]: r["kind"] for r in checked["abatement"]["technique"]}
+    livestock = {r["livestock"] for r in checked["emission_factors"]["factor"]}
+    techniques = {}
+    for section in ("scrubber", "housing_measure"):
+        for i, row in enumerate(table[section], start=1):
+            where = f'{path.name}, [[{section}]] row {i} ("{row["id"]}")'
+            if row["id"] not in kinds:
+                raise InputError(
+                    f'{where}: technique "{row["id"]}" is not in abatement.toml'
+                    f"{suggest(row['id'], kinds)}"
+                )
+            if kinds[row["id"]] != section:
+                raise InputError(
+                    f'{where}: abatement.toml gives "{row["id"]}" kind "{kinds[row["id"]]}"; '
+                    f"move the row to [[{kinds[row['id']]}]]"
+                )
+            techniques[row["id"]] = {**row, "kind": section}
+    for i, row in enumerate(table["ventilation"], start=1):
+        if row["livestock"] not in livestock:
+            raise InputError(
+                f'{path.name}, [[ventilation]] row {i} ("{row["livestock"]}"): livestock '
+                f'"{row["livestock"]}" is not in emission_factors.toml'
+                f"{suggest(row['livestock'], livestock)}"
+            )
+    return {
+        "technique": techniques,
+        "ventilation": {r["livestock"]: r for r in table["ventilation"]},
+    }

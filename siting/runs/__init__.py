@@ -15,9 +15,12 @@ from siting._lazy import lazy_exports
 __all__, __getattr__, __dir__ = lazy_exports(
     __name__,
     {
+        # appraisal.py: each abated source's abatement appraisal (the columns of sources.csv)
+        "appraise_sources": "siting.runs.appraisal",
         # comparing.py: separate screening runs compared against the first (``siting compare``)
         "CompareResult": "siting.runs.comparing",
         "safe_file_stem": "siting.runs.comparing",
+        "site_changes": "siting.runs.comparing",
         "compare": "siting.runs.comparing",
         # comparison.py: verify's submitted figures against the re-run's, at a tolerance
         "compare_figures": "siting.runs.comparison",
@@ -61,6 +64,14 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "site_lat_lon": "siting.runs.screening_inputs",
         "Prepared": "siting.runs.screening_inputs",
         "prepare": "siting.runs.screening_inputs",
+        # screening_sites.py: the receptor grid of a screening run
+        "screen_grid": "siting.runs.screening_sites",
+        # screening_options.py: the scenario's [[option]] tables screened beside the base
+        "OptionRuns": "siting.runs.screening_options",
+        "screen_options": "siting.runs.screening_options",
+        "change_words": "siting.runs.screening_options",
+        "options_table": "siting.runs.screening_options",
+        "difference_fields": "siting.runs.screening_options",
         # screening_sources.py: release elements, emission derivation, hourly emission weights
         "outlet_rise": "siting.runs.screening_sources",
         "reduction_basis": "siting.runs.screening_sources",

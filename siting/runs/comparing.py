@@ -25,10 +25,15 @@ from siting.output.records import sha256_of
 from siting.readers.run_folders import check_run_folder, read_run_sites, run_folder_version
 from siting.runs.screening_inputs import CAUTIONS
 
-#: The change columns and the pair of site columns each basis takes them from.
+#: Each basis's site columns of the figures compared: (deposition, % of load) always, and
+#: (concentration, % of level) where both tables have them.
 BASIS_COLUMNS = {
     "judged": ("judged_dep_max_kg_n_ha_yr", "judged_pct_load"),
     "pc": ("pc_dep_max_kg_n_ha_yr", "pc_pct_load"),
+}
+BASIS_LEVEL_COLUMNS = {
+    "judged": ("judged_conc_max_ug_m3", "judged_pct_level"),
+    "pc": ("pc_conc_max_ug_m3", "pc_pct_level"),
 }
 
 #: What a comparison adds to the screening cautions.
@@ -56,7 +61,8 @@ class CompareResult:
         Each run's name made safe for a file name (letters, digits, ``_`` and ``-`` only).
     table : pandas.DataFrame
         One row per site and run: ``run``, the run's site columns (``name`` first), then
-        ``change_dep_max_kg_n_ha_yr``, ``change_pct_load`` and ``change_basis``.
+        ``change_conc_max_ug_m3``, ``change_dep_max_kg_n_ha_yr``, ``change_pct_level``,
+        ``change_pct_load`` and ``change_basis`` (see :func:`site_changes`).
     differences : dict of str to ndarray
         Each later run's file stem -> its deposition field minus the first's [kg N/ha/yr];
         NaN where either is nodata.
@@ -174,8 +180,27 @@ def _number(table: pd.DataFrame, column: str) -> np.ndarray:
     return pd.to_numeric(table[column], errors="coerce").to_numpy(dtype=float)
 
 
-def _changes(first: pd.DataFrame, other: pd.DataFrame) -> pd.DataFrame:
-    """The change columns of ``other`` against ``first`` (same sites, same order)."""
+def site_changes(first: pd.DataFrame, other: pd.DataFrame) -> pd.DataFrame:
+    """The change of each site's figures in ``other`` against ``first`` (same sites, same order).
+
+    Parameters
+    ----------
+    first, other : pandas.DataFrame
+        Two sites tables (the columns of sites.csv).
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``change_dep_max_kg_n_ha_yr`` [kg N ha-1 yr-1] and ``change_pct_load`` [percentage
+        points], with ``change_conc_max_ug_m3`` [ug m-3] and ``change_pct_level`` where both
+        tables have the concentration, and ``change_basis``: "judged" (the rule set's judged
+        contribution) when both were judged on the same basis, else "pc".
+
+    Raises
+    ------
+    InputError
+        A table lacks the deposition or % of load columns.
+    """
     # the judged figures only when both runs judged the same contribution (the same basis):
     # a net change less an installation's PC would be no change at all
     same_basis = all("basis" in t for t in (first, other)) and set(
@@ -187,13 +212,16 @@ def _changes(first: pd.DataFrame, other: pd.DataFrame) -> pd.DataFrame:
     for table in (first, other):
         if dep not in table or pct not in table:
             raise InputError(f"a sites.csv has no {dep} or {pct} column to compare")
-    return pd.DataFrame(
-        {
-            "change_dep_max_kg_n_ha_yr": _number(other, dep) - _number(first, dep),
-            "change_pct_load": _number(other, pct) - _number(first, pct),
-            "change_basis": basis,
-        }
-    )
+    changes = {}
+    conc, pct_level = BASIS_LEVEL_COLUMNS[basis]
+    if all(c in t for t in (first, other) for c in (conc, pct_level)):
+        changes["change_conc_max_ug_m3"] = _number(other, conc) - _number(first, conc)
+    changes["change_dep_max_kg_n_ha_yr"] = _number(other, dep) - _number(first, dep)
+    if "change_conc_max_ug_m3" in changes:
+        changes["change_pct_level"] = _number(other, pct_level) - _number(first, pct_level)
+    changes["change_pct_load"] = _number(other, pct) - _number(first, pct)
+    changes["change_basis"] = basis
+    return pd.DataFrame(changes)
 
 
 def _check_folders(folders, out_dir) -> list[Path]:
@@ -265,7 +293,7 @@ def compare(run_folders, out_dir: Path | None = None) -> CompareResult:
     rows = []
     for name, table in zip(names, tables):
         columns = ["name", *[c for c in table.columns if c != "name"]]
-        part = pd.concat([table[columns], _changes(tables[0], table)], axis=1)
+        part = pd.concat([table[columns], site_changes(tables[0], table)], axis=1)
         part.insert(0, "run", name)
         rows.append(part)
     first = rasters[0][0]

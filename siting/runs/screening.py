@@ -35,14 +35,15 @@ from siting.readers.tables import Tables
 from siting.runs.judging import with_verdicts
 from siting.runs.run_cache import RunCache
 from siting.runs.screening_inputs import CAUTIONS, Prepared, prepare
+from siting.runs.screening_options import OptionRuns, screen_options
 from siting.runs.screening_sites import (
     _assessed_sites,
     _named_point_table,
     _read_named_receptors,
     _Receptors,
     _receptors,
-    _screen_grid,
     _site_table,
+    screen_grid,
 )
 from siting.runs.screening_sources import _source_elements
 from siting.runs.sensitivity import sensitivity as two_sided
@@ -87,6 +88,9 @@ class ScreenResult:
         One row per site: the range of its figures and whether a variant flips its verdict.
     rules : RuleSet, optional
         The rule set the sites were judged by.
+    options : OptionRuns, optional
+        The scenario's [[option]] runs on the base's grid, their table and differences
+        (None without options).
     """
 
     scenario: Scenario
@@ -104,6 +108,7 @@ class ScreenResult:
     sensitivity: pd.DataFrame | None = None  # one row per (site, variant); see sensitivity.py
     sensitivity_summary: pd.DataFrame | None = None  # one row per site
     rules: RuleSet | None = None  # the rule set the sites were judged by
+    options: OptionRuns | None = None  # the [[option]] runs beside this base
 
     @property
     def cautions(self) -> list[str]:
@@ -121,6 +126,7 @@ def screen(
     sensitivity: bool = True,
     cache: RunCache | None = None,
     rules: RuleSet | str | Path | None = None,
+    options: bool = True,
 ) -> ScreenResult:
     """Run a full screening assessment of a scenario (a file path or a loaded Scenario).
 
@@ -153,6 +159,10 @@ def screen(
     rules : RuleSet, str or Path, optional
         Judge the sites by this rule set instead of the scenario's ([assessment] rules): a
         bundled id, a file, or a loaded RuleSet.
+    options : bool
+        With the grid, also screen each of the scenario's [[option]] tables on the base's grid
+        (``result.options``; screening_options.py), reusing the dispersion of every release
+        an option leaves as it is.
 
     Returns
     -------
@@ -168,6 +178,9 @@ def screen(
     """
     clock = _PhaseClock()
     prep = prepare(scenario, tables, cache, rules)
+    with_options = options and with_grid and bool(prep.scenario.options)
+    if with_options and prep.cache is None and prep.scenario.option_name is None:
+        prep.cache = cache = RunCache()  # shared with the options' runs
     layout = _layout(prep, with_grid)
     clock.lap("inputs_s")
     conc_by_role, undepleted_pc = _disperse(prep, layout, with_grid, progress)
@@ -178,6 +191,10 @@ def screen(
     if sensitivity and with_grid:
         _add_sensitivity(result)
         result.timings_s["sensitivity_s"] = clock.since_last_s()
+    if with_options and prep.scenario.option_name is None:
+        started = time.perf_counter()
+        result.options = screen_options(result, screen, cache=cache, progress=progress)
+        result.timings_s["options_s"] = time.perf_counter() - started
     return result
 
 
@@ -217,7 +234,7 @@ def _layout(prep: Prepared, with_grid: bool) -> _Layout:
     each it misses), place every receptor and split each source into release elements."""
     scenario = prep.scenario
     named = _read_named_receptors(scenario, prep.tables)
-    grid = _screen_grid(scenario)
+    grid = screen_grid(scenario)
     assessed = _assessed_sites(prep.sites, grid)
     receptors = _receptors(prep, grid, named, assessed, with_grid)
     elements_and_shapes = [_source_elements(s) for s in scenario.sources]

@@ -29,6 +29,7 @@ from siting.readers.rules import RuleSet, load_rule_set
 from siting.readers.scenario import Scenario, load_scenario
 from siting.readers.scenario_sources import ROLES
 from siting.readers.tables import Tables, load_tables
+from siting.runs.appraisal import appraise_sources
 from siting.runs.run_cache import RunCache
 from siting.runs.screening_sources import _hourly_emission_weights, derive_sources
 
@@ -59,7 +60,8 @@ class Prepared:
     hour_weights : dict
         Hourly emission weights by source id [-] (hourly records with [seasonal]).
     sources : pandas.DataFrame
-        The sources' emission derivation (:func:`derive_sources`).
+        The sources' emission derivation (:func:`derive_sources`) with their abatement
+        appraisal (:func:`siting.runs.appraisal.appraise_sources`).
     sites : geopandas.GeoDataFrame
         The habitat sites with their critical values and thresholds.
     settings : DispersionSettings
@@ -212,8 +214,9 @@ def prepare(
     are on the result (``Prepared.warnings``) and issued on.
 
     The steps: load the scenario and its tables, check the depletion land cover, read the
-    weather (:func:`_read_weather`), derive the sources (:func:`derive_sources`), read the
-    sites (:func:`_read_sites`) and set the dispersion (:func:`_dispersion_settings`).
+    weather (:func:`_read_weather`), derive the sources (:func:`derive_sources`) and appraise
+    their abatement (:func:`appraise_sources`), read the sites (:func:`_read_sites`) and set
+    the dispersion (:func:`_dispersion_settings`).
 
     Parameters
     ----------
@@ -246,6 +249,7 @@ def prepare(
     _check_depletion_land_cover(scenario, tables)
     weather, weather_summary, hour_weights, treated_shares = _read_weather(scenario, tables)
     sources = derive_sources(scenario, tables, treated_shares)
+    sources = appraise_sources(scenario, tables, sources)  # + the abatement appraisal
     sites = _read_sites(scenario, tables, cache)
     settings = _dispersion_settings(scenario, tables)
     if not isinstance(rules, RuleSet):

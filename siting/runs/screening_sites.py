@@ -1,7 +1,7 @@
 """Where a screening run computes, and what it finds at each site and named point.
 
 * :func:`_read_named_receptors` -- the scenario's named points (receptors.file).
-* :func:`_screen_grid`, :func:`_assessed_sites` -- the receptor grid and the sites it reaches.
+* :func:`screen_grid`, :func:`_assessed_sites` -- the receptor grid and the sites it reaches.
 * :func:`_receptors` -- every receptor in one flat array (:class:`_Receptors`): grid cells,
   named points and the sites' sample points, each with its deposition velocity and site.
 * :func:`_site_table`, :func:`_named_point_table` -- the figures of each site (sites.csv) and
@@ -101,11 +101,26 @@ class _Receptors:
         return slice(self.n_grid, self.n_grid + self.n_named)
 
 
-def _screen_grid(scenario: Scenario) -> GridSpec:
-    """The receptor grid around the sources, refused if it has too many cells."""
+def screen_grid(scenario: Scenario) -> GridSpec:
+    """The receptor grid around every source of the base and of its options.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The scenario (its sources, options and [grid]).
+
+    Returns
+    -------
+    GridSpec
+        The grid.
+
+    Raises
+    ------
+    InputError
+        The grid would have more than MAX_GRID_CELLS cells.
+    """
     grid = grid_around(
-        [s.x for s in scenario.sources],
-        [s.y for s in scenario.sources],
+        *scenario.layout_points,
         scenario.grid.margin_m,
         scenario.grid.spacing_m,
         scenario.crs,
@@ -140,8 +155,7 @@ def _site_points(scenario: Scenario, sites, assessed_idx: np.ndarray):
     boundary_spacing_m = min(scenario.grid.spacing_m, BOUNDARY_SPACING_M)
     s_index, s_x, s_y, s_interior = site_sample_points(
         geometries,
-        [s.x for s in scenario.sources],
-        [s.y for s in scenario.sources],
+        *scenario.layout_points,
         scenario.grid.spacing_m,
     )
     b_index, b_x, b_y = site_boundary_points(geometries, boundary_spacing_m)

@@ -253,7 +253,9 @@ def _rerun(scenario, tables, own: RuleSet):
     without the sensitivity (verify runs its own, with the other weather files); a SitingError
     becomes one InputError, "the submission cannot be re-run: ..."."""
     try:
-        return screening.screen(scenario, tables=tables, sensitivity=False, rules=own)
+        return screening.screen(
+            scenario, tables=tables, sensitivity=False, rules=own, options=False
+        )
     except SitingError as exc:
         raise _cannot_rerun(exc) from exc
 
@@ -322,7 +324,9 @@ def _judged_by_regulator(scenario, tables, result, regulator: RuleSet | None):
     if regulator.basis == result.rules.basis:
         return with_verdicts(result.sites, regulator)
     try:
-        return screening.screen(scenario, tables=tables, sensitivity=False, rules=regulator).sites
+        return screening.screen(
+            scenario, tables=tables, sensitivity=False, rules=regulator, options=False
+        ).sites
     except SitingError as exc:
         raise _cannot_rerun(exc) from exc
 
