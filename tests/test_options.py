@@ -13,6 +13,7 @@ import numpy as np
 import pandas as pd
 import pytest
 import rasterio
+from scenario_text import ONE_HOUSE
 
 from siting.cli import main
 from siting.errors import InputError
@@ -21,19 +22,7 @@ from siting.readers.scenario import load_scenario
 from siting.runs import screening_inputs
 from siting.runs.screening import screen
 
-_H1 = """
-[[source]]
-id = "H1"
-kind = "point"
-x = 500040.0
-y = 5799965.0
-height_m = 7.5
-role = "proposed"
-livestock = "finishing_pig"
-housing = "fully_slatted"
-places = 2400
-abatement = "acid_scrubber"
-"""
+_H1 = ONE_HOUSE
 
 _E1 = """
 [[source]]

@@ -41,6 +41,31 @@ def run(args) -> int:
     return EXIT_OK
 
 
+def _print_what_it_takes(console, positions) -> None:
+    """What it takes to pass at the best position, and the cheapest position (positions.csv's
+    cheapest_option), when the search costed the ways."""
+    if "cheapest_option" not in positions or not len(positions):
+        return
+    first = positions.iloc[0]
+    console.print(
+        f"What it takes at rank 1 ({first.x:.0f}, {first.y:.0f}): "
+        f"{plain(str(first.cheapest_option))}."
+    )
+    costs = positions["cheapest_cost_eur_yr"].astype(float).reset_index(drop=True)
+    at = int(costs.idxmin()) if costs.notna().any() else 0
+    if at > 0:
+        row = positions.iloc[at]
+        console.print(
+            f"Cheapest anywhere, rank {at + 1} ({row.x:.0f}, {row.y:.0f}): "
+            f"{plain(str(row.cheapest_option))}."
+        )
+    console.print(
+        "(techniques at the lower end of their published range, costed at the scenario's "
+        "\\[appraisal] prices; positions.csv has every position's cheapest way)",
+        style="dim",
+    )
+
+
 def _print_place_summary(result, out_dir: Path, top: int) -> None:
     from rich.console import Console
     from rich.table import Table
@@ -93,6 +118,7 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
         f"{passing:,} of {len(result.positions):,} positions pass at every site under "
         f"{rules.id} with the house as described."
     )
+    _print_what_it_takes(console, result.positions)
     print_warnings(console, result.warnings, flags_by_parameter("place"))
     console.print(f"Outputs in {out_dir} (map.html, positions.csv, suitability.tif).")
     console.print(

@@ -122,6 +122,7 @@ def write_place_outputs(
             north_m=result.grid.north_m,
             cell_m=result.grid.cell_m,
             share_of_threshold=result.share_of_threshold,
+            cheapest_cost_eur_yr=result.cheapest_cost,
             allowed_area=gpd.GeoDataFrame(geometry=[result.allowed_area], crs=scenario.crs),
             holding=gpd.GeoDataFrame(geometry=[result.holding], crs=scenario.crs),
             positions=gpd.GeoDataFrame(

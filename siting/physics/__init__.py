@@ -1,6 +1,7 @@
 """Physics on arrays: emission, plume, deposition, stability, sun, season, assessment arithmetic.
 
-Also the arithmetic of the abatement appraisal (appraisal.py).
+Also the arithmetic of the abatement appraisal (appraisal.py) and of what it takes to pass
+(what_it_takes.py).
 
 Nothing here reads or writes a file, prints, or knows a CRS; every formula names its source.
 
@@ -20,6 +21,9 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "annuity_eur_yr": "siting.physics.appraisal",
         "running_cost_eur_yr": "siting.physics.appraisal",
         "cost_eur_per_kg_nh3": "siting.physics.appraisal",
+        # what_it_takes.py: the cheapest technique, share of the air or places that passes
+        "Technique": "siting.physics.what_it_takes",
+        "cheapest_ways": "siting.physics.what_it_takes",
         # assess.py: per-site statistics, % of critical level and load, verdicts
         "site_max_and_mean": "siting.physics.assess",
         "percent_of": "siting.physics.assess",

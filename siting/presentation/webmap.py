@@ -427,8 +427,7 @@ def render_screen_map(
     data_url, bounds = overlay(grid, projected, west_m, north_m, cell_m, edges, colours)
     sources_wgs84 = to_wgs84(sources, projected)
     fmap = new_map(title, bounds, zoom_start=13)
-    base = ", base" if option_deposition else ""
-    add_surface(fmap, data_url, bounds, f"Deposition, PC{base} (kg N/ha/yr)")
+    add_surface(fmap, data_url, bounds, "Deposition, PC (kg N/ha/yr)")  # the base's
     for name, values in option_deposition.items():
         image, _ = overlay(values, projected, west_m, north_m, cell_m, edges, colours)
         add_surface(fmap, image, bounds, f"Option {name}: deposition, PC", show=False)

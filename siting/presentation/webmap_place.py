@@ -48,6 +48,41 @@ _PLACE_SITE_STYLE: dict[str, Any] = {
 }
 
 
+def _cost_edges(cost_eur_yr: np.ndarray) -> np.ndarray:
+    """Class edges of the cheapest annual cost [EUR yr-1]: 0 (nothing to pay), then steps of
+    the 1-2-5 series up to the largest cost, at most eight classes."""
+    top = float(np.nanmax(cost_eur_yr))
+    series = [m * 10.0**e for e in range(9) for m in (1.0, 2.0, 5.0)]
+    upper = [v for v in series if v < top] + [next(v for v in series if v >= top)]
+    return np.array([0.0, *upper[-7:]]) if top > 0 else np.array([0.0, 1.0])
+
+
+def _cost_colours(n: int) -> list[str]:
+    """Sequential colours of the cost classes: light (cheap) to dark (dear)."""
+    from matplotlib import colormaps
+    from matplotlib.colors import to_hex
+
+    cmap = colormaps["YlOrRd"]
+    return [to_hex(cmap(0.1 + 0.85 * i / max(n - 1, 1))) for i in range(n)]
+
+
+def _cost_legend_html(edges: np.ndarray, colours: list[str]) -> str:
+    """The cost surface's legend: one row per class, and how the cost is made."""
+    rows = "".join(
+        f'<div class="row"><span class="swatch" style="background:{c}"></span>'
+        f"EUR {low:,.0f} – {high:,.0f} a year</div>"
+        for low, high, c in zip(edges[:-1], edges[1:], colours)
+    )
+    return (
+        '<div class="siting-box siting-legend siting-cost-legend" style="right:auto;left:10px;bottom:64px;'
+        'max-width:260px"><b>Cheapest annual cost to pass</b> (layer off '
+        f"when the page opens){rows}"
+        '<div class="note">The cheapest of: as planned, each technique at the share of the air '
+        "it needs (lower end of its published range), fewer places, or both, at the "
+        "scenario's [appraisal] prices; uncoloured where no way passes.</div></div>"
+    )
+
+
 def _share_colours() -> list[str]:
     """Diverging colours: blue-greens for passing classes, browns for failing ones."""
     from matplotlib import colormaps
@@ -102,6 +137,9 @@ def _position_popup(rank: int, row: Any) -> str:
         f"worst % of critical level: {format_number(row.worst_pct_level)}",
         f"reduction needed: {row.required_reduction_percent:.0f} %",
     ]
+    way = getattr(row, "cheapest_option", None)
+    if way is not None and not is_missing(way):
+        lines.insert(1, f"<b>{escape_text(str(way))}</b>")
     places = getattr(row, "max_places_unabated", None)
     if places is not None and not is_missing(places):
         lines.append(f"most places unabated: {places:.0f}")
@@ -170,6 +208,7 @@ def render_place_map(
     cell_m: float,
     share_of_threshold: np.ndarray,
     allowed_area: gpd.GeoDataFrame,
+    cheapest_cost_eur_yr: np.ndarray | None = None,
     holding: gpd.GeoDataFrame,
     positions: gpd.GeoDataFrame,
     sites: gpd.GeoDataFrame,
@@ -195,6 +234,9 @@ def render_place_map(
         not go. Row 0 is the north edge of the grid.
     allowed_area, holding : GeoDataFrame
         The allowed area and the holding boundary (polygons).
+    cheapest_cost_eur_yr : ndarray (n_rows, n_cols), optional
+        The cheapest way's annual cost by house position [EUR yr-1], NaN where it may not go
+        or no way passes: a second surface, off when the page opens, with its own legend.
     positions : GeoDataFrame
         The best positions (points) with the columns of positions.csv, best first.
     sites : GeoDataFrame
@@ -226,6 +268,16 @@ def render_place_map(
 
     fmap = new_map(title, bounds, zoom_start=15)
     add_surface(fmap, data_url, bounds, "Worst share of a threshold, by house position")
+    boxes = []
+    if cheapest_cost_eur_yr is not None and np.isfinite(cheapest_cost_eur_yr).any():
+        cost_edges = _cost_edges(cheapest_cost_eur_yr)
+        cost_colours = _cost_colours(cost_edges.size - 1)
+        cost_url, _ = overlay(
+            np.asarray(cheapest_cost_eur_yr, dtype=float),
+            projected, west_m, north_m, cell_m, cost_edges, cost_colours,
+        )  # fmt: skip
+        add_surface(fmap, cost_url, bounds, "Cheapest annual cost to pass (EUR/yr)", show=False)
+        boxes.append(_cost_legend_html(cost_edges, cost_colours))
     _add_holding(layer(fmap, "Holding and allowed area"), holding, allowed_area, projected)
     add_sites(
         layer(fmap, "Habitat sites"),
@@ -241,4 +293,5 @@ def render_place_map(
     _add_positions(layer(fmap, label), to_wgs84(positions, projected))
     add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape, SEARCH_EDGE_TIP)
     title_box = title_html(title, run_time, version, cautions)
-    return finish_page(fmap, bounds, [title_box, _place_legend_html(edges, colours, any_pass)])
+    legend = _place_legend_html(edges, colours, any_pass)
+    return finish_page(fmap, bounds, [title_box, legend, *boxes])

@@ -47,6 +47,10 @@ class AppraisalSection(_Section):
     life_years : float, optional
         Life of every technique's investment [yr], (0, 100]; None (default) takes each
         technique's life from abatement_appraisal.toml.
+    margin_eur_per_place_yr : float
+        What an animal place not kept costs a year, the margin lost [EUR place-1 yr-1],
+        0..10,000 (placeholder 60): the price of "fewer places" when ``siting place`` looks
+        for the cheapest way to pass.
     """
 
     electricity_eur_per_kwh: float = Field(0.25, ge=0, le=10)  # invented placeholder
@@ -55,6 +59,7 @@ class AppraisalSection(_Section):
     effluent_eur_per_m3: float = Field(8.0, ge=0, le=1000)  # invented placeholder
     interest_percent: float = Field(4.0, ge=0, le=50)  # invented placeholder
     life_years: float | None = Field(None, gt=0, le=100)
+    margin_eur_per_place_yr: float = Field(60.0, ge=0, le=10_000)  # invented placeholder
 
     @property
     def placeholder_keys(self) -> list[str]:

@@ -17,6 +17,10 @@ __all__, __getattr__, __dir__ = lazy_exports(
     {
         # appraisal.py: each abated source's abatement appraisal (the columns of sources.csv)
         "appraise_sources": "siting.runs.appraisal",
+        # what_it_takes.py: the cheapest way to pass at each position of ``siting place``
+        "costed_techniques": "siting.runs.what_it_takes",
+        "cheapest_columns": "siting.runs.what_it_takes",
+        "way_words": "siting.runs.what_it_takes",
         # comparing.py: separate screening runs compared against the first (``siting compare``)
         "CompareResult": "siting.runs.comparing",
         "safe_file_stem": "siting.runs.comparing",

@@ -45,6 +45,7 @@ from siting.runs.placing_rules import (
 from siting.runs.screening_inputs import Prepared, prepare
 from siting.runs.screening_sites import BOUNDARY_SPACING_M
 from siting.runs.screening_sources import _source_elements
+from siting.runs.what_it_takes import cheapest_columns
 
 MAX_CANDIDATES = 200_000
 
@@ -68,6 +69,9 @@ class PlaceResult:
         Worst % of critical load by house position; NaN where it may not go.
     share_of_threshold : ndarray, (n_rows, n_cols)
         Worst share of a site's threshold by house position [-]; NaN where it may not go.
+    cheapest_cost : ndarray, (n_rows, n_cols)
+        The cheapest way's annual cost by house position [EUR yr-1] (positions.csv's
+        cheapest_cost_eur_yr); NaN where it may not go or where no way passes.
     allowed_area : shapely geometry
         Where the house's centre may go.
     holding : shapely geometry
@@ -88,6 +92,7 @@ class PlaceResult:
     grid: GridSpec
     suitability_pct_load: np.ndarray
     share_of_threshold: np.ndarray  # same grid: worst share of a site's threshold
+    cheapest_cost: np.ndarray  # same grid: the cheapest way's annual cost [EUR/yr]
     allowed_area: object  # shapely geometry
     holding: object  # shapely geometry
     options: list[dict]
@@ -259,6 +264,8 @@ def _position_table(prep: Prepared, house, unit_conc, fixed, in_combination, dis
             InputWarning,
             stacklevel=2,
         )
+    for column, values in cheapest_columns(prep, house, most, passes.all(axis=1)).items():
+        table[column] = values
     table["limiting_site"] = names[limiting]
     table["limiting_share_of_threshold"] = share[rows, limiting]
     table["passes_as_described"] = passes.all(axis=1)
@@ -273,9 +280,10 @@ def _position_table(prep: Prepared, house, unit_conc, fixed, in_combination, dis
     order = np.lexsort(
         (table["worst_pct_load"].to_numpy(), table["limiting_share_of_threshold"].to_numpy())
     )
+    cost = table["cheapest_cost_eur_yr"].to_numpy(float)  # before ranking: the grid's order
     table = table.iloc[order].reset_index(drop=True)
     by_site = {"pct_level": pct_level[order], "pct_load": pct_load[order]}
-    return table, by_site, pct_load.max(axis=1), share.max(axis=1)
+    return table, by_site, pct_load.max(axis=1), share.max(axis=1), cost
 
 
 def _whole_places(places: float, scale) -> np.ndarray:
@@ -351,13 +359,15 @@ def place(
 
     fixed, in_combination = fixed_site_maxima(prep, house_id, px, py, p_site, prep.rules.basis)
     distance = installation_distance_m(prep, house, shape0, cx, cy, prep.rules.basis)
-    table, by_site, worst_load, worst_share = _position_table(
+    table, by_site, worst_load, worst_share, cost_by_position = _position_table(
         prep, house, unit_conc, fixed, in_combination, distance, cx, cy
     )
     surface = np.full((grid.n_rows, grid.n_cols), np.nan)
     surface[row, col] = worst_load
     share_surface = np.full((grid.n_rows, grid.n_cols), np.nan)
     share_surface[row, col] = worst_share
+    cost_surface = np.full((grid.n_rows, grid.n_cols), np.nan)
+    cost_surface[row, col] = cost_by_position
     clock["assessment"] = time.perf_counter()
     timings = {
         "inputs_s": clock["inputs"] - clock["start"],
@@ -374,6 +384,7 @@ def place(
         grid,
         surface,
         share_surface,
+        cost_surface,
         allowed,
         holding,
         list(prep.tables.abatement.values()),
