@@ -178,8 +178,11 @@ def screen(
     """
     clock = _PhaseClock()
     prep = prepare(scenario, tables, cache, rules)
-    with_options = options and with_grid and bool(prep.scenario.options)
-    if with_options and prep.cache is None and prep.scenario.option_name is None:
+    # the base screens its options; an option's own run (option_name set) does not
+    with_options = (
+        options and with_grid and bool(prep.scenario.options) and prep.scenario.option_name is None
+    )
+    if with_options and prep.cache is None:
         prep.cache = cache = RunCache()  # shared with the options' runs
     layout = _layout(prep, with_grid)
     clock.lap("inputs_s")
@@ -191,7 +194,7 @@ def screen(
     if sensitivity and with_grid:
         _add_sensitivity(result)
         result.timings_s["sensitivity_s"] = clock.since_last_s()
-    if with_options and prep.scenario.option_name is None:
+    if with_options:
         started = time.perf_counter()
         result.options = screen_options(result, screen, cache=cache, progress=progress)
         result.timings_s["options_s"] = time.perf_counter() - started
