@@ -39,6 +39,7 @@ OUTPUTS = [
     "receptors.csv",
     "sources.csv",
     "sensitivity.csv",
+    "what_it_takes.csv",
     "run.json",
     "report.html",
     "map.html",

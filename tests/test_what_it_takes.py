@@ -133,3 +133,86 @@ def test_place_writes_the_cheapest_way_of_every_position(tmp_path):
     page = (out / "map.html").read_text()
     assert "Cheapest annual cost to pass" in page
     assert any(w in page for w in words.head(10))
+
+
+def _one_house(tmp_path, places: float, spacing: str = "100.0"):
+    folder = tmp_path / "in"
+    if not folder.exists():
+        shutil.copytree(demo_dir(), folder)
+    text = (folder / "scenario.toml").read_text()
+    head = text[: text.index("[[source]]")].replace("spacing_m = 25.0", f"spacing_m = {spacing}", 1)
+    path = folder / f"one_{places:g}.toml"
+    path.write_text(head + _H1.replace("places = 2400", f"places = {places:g}"))
+    return path
+
+
+def test_screen_finds_the_largest_emission_that_passes(tmp_path):
+    # check: the limit found is the limit, by separate runs of the house with its places just
+    # below and just above it (every judged figure grows with the places)
+    from siting.runs.screening import screen
+
+    result = screen(_one_house(tmp_path, 2400), sensitivity=False)
+    ways = result.what_it_takes
+    assert list(ways["source_id"]) == ["H1"]
+    scale = float(ways["max_share_of_planned"].iloc[0])
+    assert 0 < scale < 1  # the demo's H1 alone, judged by plain, fails as planned
+    below = screen(_one_house(tmp_path, 2400 * scale * (1 - 2e-3)), sensitivity=False)
+    above = screen(_one_house(tmp_path, 2400 * scale * (1 + 2e-3)), sensitivity=False)
+    judged = below.sites["assessed"]
+    assert below.sites["passes"][judged].all()
+    assert not above.sites["passes"][judged].all()
+    # the cheapest way is the search's over the house's own costed table
+    words = str(ways["cheapest_option"].iloc[0])
+    assert words.startswith("passes with") and ways["cheapest_cost_eur_yr"].iloc[0] > 0
+
+
+def test_screen_writes_what_it_takes(tmp_path):
+    out = tmp_path / "out"
+    assert main(["screen", str(_one_house(tmp_path, 2400)), "--out", str(out), "--quiet"]) == 0
+    table = pd.read_csv(out / "what_it_takes.csv")
+    assert list(table["source_id"]) == ["H1"]
+    report = (out / "report.html").read_text()
+    assert "What it takes for each proposed house to pass" in report
+    assert str(table["cheapest_option"].iloc[0]).split(",")[0] in report
+
+
+def test_side_by_side_equals_separate_searches(tmp_path):
+    # check: at the best positions, "with <technique>" and "half the places" say what a
+    # separate search of the house so changed says at the same position
+    from siting.runs.placing import place
+
+    folder = tmp_path / "in"
+    shutil.copytree(demo_dir(), folder)
+    text = (folder / "scenario.toml").read_text()
+    head = text[: text.index("[[source]]")].replace("spacing_m = 10.0", "spacing_m = 40.0", 1)
+    variants = {
+        "planned": _H1,
+        "with Biological air scrubber (biotrickling filter)": _H1.replace(
+            '"acid_scrubber"', '"biological_scrubber"'
+        ),
+        "with Partly slatted floor with reduced slurry pit": _H1.replace(
+            'abatement = "acid_scrubber"', 'abatement = "reduced_emitting_pit"'
+        ),
+        "half the places": _H1.replace("places = 2400", "places = 1200"),
+    }
+    runs = {}
+    for name, source in variants.items():
+        path = folder / f"{len(runs)}.toml"
+        path.write_text(head + source)
+        runs[name] = place(path, "H1", rules="germany-2021")
+    base = runs.pop("planned")
+    table = base.side_by_side
+    for rank, position in enumerate(base.positions.head(10).itertuples(), start=1):
+        for name, other in runs.items():
+            at = other.positions[
+                (other.positions["x"] == position.x) & (other.positions["y"] == position.y)
+            ]
+            shown = table[(table["rank"] == rank) & (table["way"] == name)]
+            assert len(at) == 1 and len(shown) == 1, name
+            assert bool(shown["passes"].iloc[0]) == bool(at["passes_as_described"].iloc[0]), (
+                rank,
+                name,
+            )
+    assert table["passes"].any() and not table["passes"].all()  # both outcomes are checked
+    planned = table[table["way"] == "as planned"]
+    assert list(planned["passes"]) == list(base.positions["passes_as_described"].head(10))

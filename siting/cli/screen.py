@@ -172,6 +172,12 @@ def _print_summary(result, out_dir: Path, quiet: bool, command: str = "screen") 
             markup=True,
         )
     _print_flips(console, result)
+    ways = getattr(result, "what_it_takes", None)
+    for row in [] if ways is None else ways.itertuples():
+        console.print(
+            f"what it takes for {plain(row.source_id)} to let every site pass: "
+            f"{plain(str(row.cheapest_option))} (what_it_takes.csv)"
+        )
     more = ", options.csv" if getattr(result, "options", None) is not None else ""
     console.print(f"Outputs in {out_dir} (report.html, map.html, sites.csv{more}, GeoTIFFs).")
     console.print(

@@ -46,7 +46,8 @@ def write_place_outputs(
 ) -> Path:
     """Write the placement outputs atomically into ``out_dir``; returns it.
 
-    Files: suitability.tif, positions.csv, run.json and map.html, written into a staging folder
+    Files: suitability.tif, positions.csv, position_ways.csv (the best positions' ways side by
+    side), run.json and map.html, written into a staging folder
     and moved into place when complete (:func:`siting.output.folder.staged_folder`).
 
     Parameters
@@ -91,6 +92,7 @@ def write_place_outputs(
             "% of critical load",
         )
         write_csv(result.positions, staging / "positions.csv")
+        write_csv(result.side_by_side, staging / "position_ways.csv")
         record = run_record_base(prep, run_time, holding=True)
         record.update(
             {
@@ -123,6 +125,7 @@ def write_place_outputs(
             cell_m=result.grid.cell_m,
             share_of_threshold=result.share_of_threshold,
             cheapest_cost_eur_yr=result.cheapest_cost,
+            side_by_side=result.side_by_side,
             allowed_area=gpd.GeoDataFrame(geometry=[result.allowed_area], crs=scenario.crs),
             holding=gpd.GeoDataFrame(geometry=[result.holding], crs=scenario.crs),
             positions=gpd.GeoDataFrame(

@@ -196,6 +196,8 @@ def _write_tables(result, folder: Path) -> pd.DataFrame:
     )
     write_csv(result.receptors, folder / "receptors.csv")
     write_csv(result.sources, folder / "sources.csv")
+    if result.what_it_takes is not None:
+        write_csv(result.what_it_takes, folder / "what_it_takes.csv")
     if result.sensitivity is not None:
         write_csv(result.sensitivity, folder / "sensitivity.csv")
     return table
@@ -326,6 +328,7 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         cautious_choices=cautious_choices(result),
         sensitivity_summary=result.sensitivity_summary,
         options=options_table,
+        what_it_takes=result.what_it_takes,
     )
     # last: every output the run wrote, hashed, so `siting verify` can tell an edited,
     # truncated or deleted one (run.json itself, the marker and the packed inputs aside)

@@ -316,7 +316,7 @@ def _verdict_counts(sites: pd.DataFrame) -> str:
 # --------------------------------------------------------------------------------------------
 
 
-def render_report(  # over 80 lines only for the docstring of its 17 parameters
+def render_report(  # over 80 lines only for the docstring of its 18 parameters
     *,
     title: str,
     version: str,
@@ -335,6 +335,7 @@ def render_report(  # over 80 lines only for the docstring of its 17 parameters
     cautious_choices: list[tuple[str, str, str]] | None = None,
     sensitivity_summary: pd.DataFrame | None = None,
     options: pd.DataFrame | None = None,
+    what_it_takes: pd.DataFrame | None = None,
 ) -> str:
     """report.html as text: a self-contained, offline-readable account of one screening run.
 
@@ -389,6 +390,9 @@ def render_report(  # over 80 lines only for the docstring of its 17 parameters
     options : DataFrame, optional
         options.csv's rows (one per site and option, the base first), shown side by side in
         section 1 with what each option changes (``run_record["options"]``).
+    what_it_takes : DataFrame, optional
+        what_it_takes.csv's rows: per proposed house (``source_id``), the cheapest way to let
+        every site pass in words (``cheapest_option``), shown in section 1.
 
     Returns
     -------
@@ -421,6 +425,12 @@ def render_report(  # over 80 lines only for the docstring of its 17 parameters
         summary=_summary(sites),
         change=_change(sites),
         options=options_view(options, run_record.get("options") or [], sources),
+        ways=[]
+        if what_it_takes is None
+        else [
+            (text(sid), text(words))
+            for sid, words in zip(what_it_takes["source_id"], what_it_takes["cheapest_option"])
+        ],
         inputs=inputs_view(sources, weather_summary, habitat_values, sites, parameters),
         weather_figures=_figures(weather_figures or {}),
         method_notes=[text(note) for note in method_notes],

@@ -124,8 +124,25 @@ def _add_holding(
             ).add_to(group)
 
 
-def _position_popup(rank: int, row: Any) -> str:
-    """Popup HTML of one ranked position (a row of positions.csv); site names escaped."""
+def _ways_html(ways: Any) -> str:
+    """The farmer's comparison of one position as a small popup table: each way, whether it
+    passes (✓ / ✗), its emission as a share of the most that passes there, its annual cost."""
+    rows = "".join(
+        f"<tr><td>{escape_text(way.way)}</td><td>{'✓' if way.passes else '✗'}</td>"
+        f"<td>{'never' if way.share_of_allowed == float('inf') else f'{way.share_of_allowed:.2f}'}"
+        f"</td><td>{format_number(way.cost_eur_yr)}</td></tr>"
+        for way in ways.itertuples()
+    )
+    return (
+        '<table style="font-size:11px;border-collapse:collapse"><tr><th>side by side</th>'
+        "<th>passes</th><th>share of limit</th><th>EUR/yr</th></tr>"
+        f"{rows}</table>"
+    )
+
+
+def _position_popup(rank: int, row: Any, ways: Any = None) -> str:
+    """Popup HTML of one ranked position (a row of positions.csv), with its ways side by side
+    where given; site names escaped."""
     lines = [
         f"<b>Rank {rank}</b>",
         f"x {row.x:.0f}, y {row.y:.0f}",
@@ -143,7 +160,8 @@ def _position_popup(rank: int, row: Any) -> str:
     places = getattr(row, "max_places_unabated", None)
     if places is not None and not is_missing(places):
         lines.append(f"most places unabated: {places:.0f}")
-    return "<br>".join(lines)
+    table = _ways_html(ways) if ways is not None and len(ways) else ""
+    return "<br>".join(lines) + table
 
 
 def _share_text(row: Any) -> str:
@@ -154,12 +172,16 @@ def _share_text(row: Any) -> str:
     return f"{share:.2f} of the most its rule set allows"
 
 
-def _add_positions(group: folium.FeatureGroup, positions_wgs84: gpd.GeoDataFrame) -> None:
-    """The best positions, best first, as white circle markers with their rank."""
+def _add_positions(
+    group: folium.FeatureGroup, positions_wgs84: gpd.GeoDataFrame, side_by_side: Any = None
+) -> None:
+    """The best positions, best first, as white circle markers with their rank (and their
+    ways side by side in the popup, where given)."""
     import folium
 
     for row in positions_wgs84.reset_index(drop=True).itertuples():
         rank = row.Index + 1
+        ways = None if side_by_side is None else side_by_side[side_by_side["rank"] == rank]
         folium.CircleMarker(
             location=[row.geometry.y, row.geometry.x],
             radius=8,
@@ -169,7 +191,7 @@ def _add_positions(group: folium.FeatureGroup, positions_wgs84: gpd.GeoDataFrame
             fill_color="#ffffff",
             fill_opacity=1.0,
             tooltip=folium.Tooltip(f"rank {rank}"),
-            popup=folium.Popup(_position_popup(rank, row), max_width=320),
+            popup=folium.Popup(_position_popup(rank, row, ways), max_width=360),
         ).add_to(group)
 
 
@@ -209,6 +231,7 @@ def render_place_map(
     share_of_threshold: np.ndarray,
     allowed_area: gpd.GeoDataFrame,
     cheapest_cost_eur_yr: np.ndarray | None = None,
+    side_by_side: Any = None,
     holding: gpd.GeoDataFrame,
     positions: gpd.GeoDataFrame,
     sites: gpd.GeoDataFrame,
@@ -237,6 +260,9 @@ def render_place_map(
     cheapest_cost_eur_yr : ndarray (n_rows, n_cols), optional
         The cheapest way's annual cost by house position [EUR yr-1], NaN where it may not go
         or no way passes: a second surface, off when the page opens, with its own legend.
+    side_by_side : DataFrame, optional
+        The best positions' ways side by side (rank, way, passes, share_of_allowed,
+        cost_eur_yr), shown in each position's popup.
     positions : GeoDataFrame
         The best positions (points) with the columns of positions.csv, best first.
     sites : GeoDataFrame
@@ -290,7 +316,7 @@ def render_place_map(
         positions["passes_as_described"].any()
     )
     label = "Best positions" if any_pass else "Least affecting positions (none passes)"
-    _add_positions(layer(fmap, label), to_wgs84(positions, projected))
+    _add_positions(layer(fmap, label), to_wgs84(positions, projected), side_by_side)
     add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape, SEARCH_EDGE_TIP)
     title_box = title_html(title, run_time, version, cautions)
     legend = _place_legend_html(edges, colours, any_pass)

@@ -17,10 +17,12 @@ __all__, __getattr__, __dir__ = lazy_exports(
     {
         # appraisal.py: each abated source's abatement appraisal (the columns of sources.csv)
         "appraise_sources": "siting.runs.appraisal",
-        # what_it_takes.py: the cheapest way to pass at each position of ``siting place``
+        # what_it_takes.py: the cheapest way to pass (place's positions, screen's houses)
         "costed_techniques": "siting.runs.what_it_takes",
         "cheapest_columns": "siting.runs.what_it_takes",
         "way_words": "siting.runs.what_it_takes",
+        "proposal_ways": "siting.runs.what_it_takes",
+        "side_by_side": "siting.runs.what_it_takes",
         # comparing.py: separate screening runs compared against the first (``siting compare``)
         "CompareResult": "siting.runs.comparing",
         "safe_file_stem": "siting.runs.comparing",

@@ -45,7 +45,7 @@ from siting.runs.placing_rules import (
 from siting.runs.screening_inputs import Prepared, prepare
 from siting.runs.screening_sites import BOUNDARY_SPACING_M
 from siting.runs.screening_sources import _source_elements
-from siting.runs.what_it_takes import cheapest_columns
+from siting.runs.what_it_takes import SIDE_BY_SIDE_POSITIONS, cheapest_columns, side_by_side
 
 MAX_CANDIDATES = 200_000
 
@@ -80,6 +80,9 @@ class PlaceResult:
         The abatement options of abatement.toml, for the max-places columns.
     by_site : dict of str to ndarray
         Per position (ranked order) and site: % of critical level and load.
+    side_by_side : pandas.DataFrame
+        The best positions' ways side by side (as planned, each technique, half the places):
+        :func:`siting.runs.what_it_takes.side_by_side`.
     warnings : list of str
         Legal but doubtful input.
     timings_s : dict
@@ -97,6 +100,7 @@ class PlaceResult:
     holding: object  # shapely geometry
     options: list[dict]
     by_site: dict[str, np.ndarray]  # per position (ranked order) and site: pct_level, pct_load
+    side_by_side: pd.DataFrame  # the best positions: as planned, each technique, half places
     warnings: list[str] = field(default_factory=list)
     timings_s: dict = field(default_factory=dict)
 
@@ -264,6 +268,8 @@ def _position_table(prep: Prepared, house, unit_conc, fixed, in_combination, dis
             InputWarning,
             stacklevel=2,
         )
+    with np.errstate(divide="ignore", invalid="ignore"):
+        table["max_share_of_planned"] = np.where(described > 0, most / described, np.inf)
     for column, values in cheapest_columns(prep, house, most, passes.all(axis=1)).items():
         table[column] = values
     table["limiting_site"] = names[limiting]
@@ -389,6 +395,9 @@ def place(
         holding,
         list(prep.tables.abatement.values()),
         by_site,
+        side_by_side(
+            prep, house, table["max_share_of_planned"].head(SIDE_BY_SIDE_POSITIONS).to_numpy()
+        ),
         [],  # filled by @collecting_warnings
         timings,
     )

@@ -47,6 +47,7 @@ from siting.runs.screening_sites import (
 )
 from siting.runs.screening_sources import _source_elements
 from siting.runs.sensitivity import sensitivity as two_sided
+from siting.runs.what_it_takes import proposal_ways
 
 
 @dataclass
@@ -91,6 +92,8 @@ class ScreenResult:
     options : OptionRuns, optional
         The scenario's [[option]] runs on the base's grid, their table and differences
         (None without options).
+    what_it_takes : pandas.DataFrame, optional
+        Per proposed house, the cheapest way to let every site pass (what_it_takes.csv).
     """
 
     scenario: Scenario
@@ -109,6 +112,7 @@ class ScreenResult:
     sensitivity_summary: pd.DataFrame | None = None  # one row per site
     rules: RuleSet | None = None  # the rule set the sites were judged by
     options: OptionRuns | None = None  # the [[option]] runs beside this base
+    what_it_takes: pd.DataFrame | None = None  # per proposed house: the cheapest way to pass
 
     @property
     def cautions(self) -> list[str]:
@@ -127,6 +131,7 @@ def screen(
     cache: RunCache | None = None,
     rules: RuleSet | str | Path | None = None,
     options: bool = True,
+    what_it_takes: bool = True,
 ) -> ScreenResult:
     """Run a full screening assessment of a scenario (a file path or a loaded Scenario).
 
@@ -163,6 +168,10 @@ def screen(
         With the grid, also screen each of the scenario's [[option]] tables on the base's grid
         (``result.options``; screening_options.py), reusing the dispersion of every release
         an option leaves as it is.
+    what_it_takes : bool
+        With the grid, also find for each proposed house the cheapest way to let every site
+        pass (``result.what_it_takes``; runs/what_it_takes.py), re-running the base with the
+        house's places scaled.
 
     Returns
     -------
@@ -182,7 +191,8 @@ def screen(
     with_options = (
         options and with_grid and bool(prep.scenario.options) and prep.scenario.option_name is None
     )
-    if with_options and prep.cache is None:
+    with_ways = what_it_takes and with_grid and prep.scenario.option_name is None
+    if (with_options or with_ways) and prep.cache is None:
         prep.cache = cache = RunCache()  # shared with the options' runs
     layout = _layout(prep, with_grid)
     clock.lap("inputs_s")
@@ -198,6 +208,10 @@ def screen(
         started = time.perf_counter()
         result.options = screen_options(result, screen, cache=cache, progress=progress)
         result.timings_s["options_s"] = time.perf_counter() - started
+    if with_ways:
+        started = time.perf_counter()
+        result.what_it_takes = proposal_ways(result, screen, prep.cache)
+        result.timings_s["what_it_takes_s"] = time.perf_counter() - started
     return result
 
 

@@ -254,7 +254,12 @@ def _rerun(scenario, tables, own: RuleSet):
     becomes one InputError, "the submission cannot be re-run: ..."."""
     try:
         return screening.screen(
-            scenario, tables=tables, sensitivity=False, rules=own, options=False
+            scenario,
+            tables=tables,
+            sensitivity=False,
+            rules=own,
+            options=False,
+            what_it_takes=False,
         )
     except SitingError as exc:
         raise _cannot_rerun(exc) from exc
@@ -325,7 +330,12 @@ def _judged_by_regulator(scenario, tables, result, regulator: RuleSet | None):
         return with_verdicts(result.sites, regulator)
     try:
         return screening.screen(
-            scenario, tables=tables, sensitivity=False, rules=regulator, options=False
+            scenario,
+            tables=tables,
+            sensitivity=False,
+            rules=regulator,
+            options=False,
+            what_it_takes=False,
         ).sites
     except SitingError as exc:
         raise _cannot_rerun(exc) from exc
