@@ -130,6 +130,13 @@ def test_place_writes_the_cheapest_way_of_every_position(tmp_path):
     planned = positions[positions["passes_as_described"]]
     assert len(planned)  # germany-2021 lets some positions through with the acid scrubber
     assert (planned["cheapest_cost_eur_yr"] <= 40_000).all()  # EUR 39,944: the demo's H1 row
+    report = (out / "report.html").read_text()
+    for heading in ("1. Summary", "2. The best positions", "3. Side by side", "4. Cautions"):
+        assert heading in report, heading
+    ways = pd.read_csv(out / "position_ways.csv")
+    assert set(ways["rank"]) == set(range(1, 11))
+    for way in ways["way"].unique():  # every way of position_ways.csv heads a column
+        assert f"<th>{way}</th>" in report.replace("&#39;", "'"), way
     page = (out / "map.html").read_text()
     assert "Cheapest annual cost to pass" in page
     assert any(w in page for w in words.head(10))

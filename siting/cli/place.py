@@ -11,6 +11,7 @@ from siting.errors import InputError
 from siting.output.folder import check_output_dir
 from siting.output.place import write_place_outputs
 from siting.output.records import input_paths
+from siting.presentation.place_report import cheapest_position
 from siting.readers.rules import load_rule_set
 from siting.readers.scenario import load_scenario
 from siting.readers.tables import load_tables
@@ -51,8 +52,7 @@ def _print_what_it_takes(console, positions) -> None:
         f"What it takes at rank 1 ({first.x:.0f}, {first.y:.0f}): "
         f"{plain(str(first.cheapest_option))}."
     )
-    costs = positions["cheapest_cost_eur_yr"].astype(float).reset_index(drop=True)
-    at = int(costs.idxmin()) if costs.notna().any() else 0
+    at = cheapest_position(positions)
     if at > 0:
         row = positions.iloc[at]
         console.print(
@@ -120,7 +120,9 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
     )
     _print_what_it_takes(console, result.positions)
     print_warnings(console, result.warnings, flags_by_parameter("place"))
-    console.print(f"Outputs in {out_dir} (map.html, positions.csv, suitability.tif).")
+    console.print(
+        f"Outputs in {out_dir} (report.html, map.html, positions.csv, position_ways.csv, suitability.tif)."
+    )
     console.print(
         "Screening estimate only; local rules and the competent authority decide.", style="dim"
     )

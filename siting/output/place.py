@@ -15,6 +15,7 @@ from siting.output.folder import check_output_dir, staged_folder
 from siting.output.geotiff import write_geotiff
 from siting.output.records import package_inputs, run_record_base
 from siting.output.tables import write_csv
+from siting.presentation.place_report import render_place_report
 from siting.presentation.webmap_place import render_place_map
 from siting.readers.tables import default_reduction_percent
 
@@ -47,7 +48,7 @@ def write_place_outputs(
     """Write the placement outputs atomically into ``out_dir``; returns it.
 
     Files: suitability.tif, positions.csv, position_ways.csv (the best positions' ways side by
-    side), run.json and map.html, written into a staging folder
+    side), report.html, run.json and map.html, written into a staging folder
     and moved into place when complete (:func:`siting.output.folder.staged_folder`).
 
     Parameters
@@ -93,6 +94,21 @@ def write_place_outputs(
         )
         write_csv(result.positions, staging / "positions.csv")
         write_csv(result.side_by_side, staging / "position_ways.csv")
+        (staging / "report.html").write_text(
+            render_place_report(
+                title=f"{scenario.title}: where could {result.house_id} go?",
+                version=__version__,
+                run_time=run_time,
+                house=result.house_id,
+                rules=prep.rules.id,
+                positions=result.positions,
+                side_by_side=result.side_by_side,
+                cautions=list(prep.cautions),
+                warnings=list(result.warnings),
+                top=top,
+            ),
+            encoding="utf-8",
+        )
         record = run_record_base(prep, run_time, holding=True)
         record.update(
             {

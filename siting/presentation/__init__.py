@@ -32,8 +32,9 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "condition_words": "siting.presentation.rule_text",
         "rule_words": "siting.presentation.rule_text",
         "rule_set_in_words": "siting.presentation.rule_text",
-        # report.py, verify_report.py, webmap.py, webmap_place.py: the pages, as HTML text
+        # report.py, place_report.py, verify_report.py, webmap.py, webmap_place.py: the pages
         "render_report": "siting.presentation.report",
+        "render_place_report": "siting.presentation.place_report",
         "render_verify_report": "siting.presentation.verify_report",
         "render_screen_map": "siting.presentation.webmap",
         "render_place_map": "siting.presentation.webmap_place",
