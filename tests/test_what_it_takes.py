@@ -223,3 +223,18 @@ def test_side_by_side_equals_separate_searches(tmp_path):
     assert table["passes"].any() and not table["passes"].all()  # both outcomes are checked
     planned = table[table["way"] == "as planned"]
     assert list(planned["passes"]) == list(base.positions["passes_as_described"].head(10))
+
+
+def test_where_the_other_sources_alone_fail_the_words_say_so(tmp_path):
+    # the invented demo under plain: the existing farm alone puts Fernwhistle Moss over its
+    # threshold (README), so no emission of H1 passes anywhere, and the words say why
+    from siting.runs.placing import place
+
+    folder = tmp_path / "in"
+    shutil.copytree(demo_dir(), folder)
+    path = folder / "scenario.toml"
+    path.write_text(path.read_text().replace("spacing_m = 10.0", "spacing_m = 40.0", 1))
+    positions = place(path, "H1").positions
+    assert (positions["max_share_of_planned"] == 0).all()
+    assert positions["cheapest_option"].str.endswith("already fail without the house").all()
+    assert positions["cheapest_cost_eur_yr"].isna().all()

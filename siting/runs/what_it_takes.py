@@ -43,6 +43,10 @@ CHEAPEST_COLUMNS = (
 )
 
 
+#: Added to "does not pass" where no emission of the house passes at all.
+OTHERS_FAIL = ": the other sources the rule set counts already fail without the house"
+
+
 def costed_techniques(prep: Prepared, house) -> list[Technique]:
     """Every technique of abatement.toml costed on the house, treating all its air.
 
@@ -131,6 +135,8 @@ def cheapest_columns(prep: Prepared, house, allowed_scale, passes_as_planned) ->
             ways["what"], ways["technique"], ways["share"], ways["places"], ways["cost_eur_yr"]
         )
     ]
+    alone = np.asarray(allowed_scale, dtype=float).ravel() <= 0  # not even an empty house
+    words = [w + OTHERS_FAIL if none else w for w, none in zip(words, alone)]
     return {
         "cheapest_option": np.array(words, dtype=object),
         "cheapest_cost_eur_yr": ways["cost_eur_yr"],
