@@ -202,7 +202,7 @@ def test_cli_writes_options_csv_differences_report_and_map(tmp_path, capsys):
     out = tmp_path / "out"
     assert main(["screen", str(path), "--out", str(out)]) == 0
     printed = capsys.readouterr().out
-    assert "options: judged % of critical load" in printed and "taller" in printed
+    assert "Options: PC % of load (judged)" in printed and "taller" in printed
     sites = pd.read_csv(out / "sites.csv")
     table = pd.read_csv(out / "options.csv")
     assert list(table.columns[: 1 + len(sites.columns)]) == ["option", *sites.columns]

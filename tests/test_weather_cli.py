@@ -215,3 +215,29 @@ def test_infinite_options_exit_2(tmp_path, option, value):
     )
     key = {"--anemometer-height": "anemometer_height_m", "--min-speed": "min_wind_speed_m_s"}
     assert rc == 2 and key[option] in stderr and not (tmp_path / "w").exists()
+
+
+def test_wind_rose_has_the_tables_sectors_and_no_machine_path(tmp_path, monkeypatch):
+    """The wind rose is drawn with the frequency table's sectors (--sectors 8: 8 bars per speed
+    class, as the table has 8 directions), and summary.json names the record without the
+    machine's folders (the issue's check: no absolute path in an output)."""
+    from siting.presentation import weather_figures
+
+    drawn = []
+    original = weather_figures.wind_rose_figure
+
+    def spy(weather, **options):
+        figure = original(weather, **options)
+        bars = figure.axes[0].patches
+        drawn.append(len({round(bar.get_x() + bar.get_width() / 2, 6) for bar in bars}))
+        return figure
+
+    monkeypatch.setattr(weather_figures, "wind_rose_figure", spy)
+    out = tmp_path / "weather"
+    argv = ["weather", str(_record(tmp_path)), "--lat", "52.4", "--lon", "9.0"]
+    rc, _, stderr = _run([*argv, "--out", str(out), "--sectors", "8"])
+    assert rc == 0, stderr
+    assert pd.read_csv(out / "frequency_table.csv")["direction_deg"].nunique() == 8
+    assert drawn == [8]  # bars at 8 distinct directions
+    text = (out / "summary.json").read_text(encoding="utf-8")
+    assert str(tmp_path) not in text and json.loads(text)["inputs"][0]["path"] == "station.csv"

@@ -345,8 +345,8 @@ def test_sectors_from_stepped_directions_are_even():
 
 def test_prevailing_direction_in_words():
     """225 deg is 'from the south-west' on the 16-point compass (definition)."""
-    assert compass_words(225.0) == "from the south-west (225 deg)"
-    assert compass_words(360.0) == "from the north (0 deg)"
+    assert compass_words(225.0) == "from the south-west (225°)"
+    assert compass_words(360.0) == "from the north (0°)"
     assert compass_words(80.0).startswith("from the east ")
 
 
@@ -362,7 +362,7 @@ def test_demo_hourly_record_reads_as_described():
     assert summary["hours_expected"] == 8760 and summary["hours_missing"] == 10
     assert [g["hours"] for g in summary["gaps"]] == [7, 3]
     assert 2.0 < summary["calm_percent"] < 4.0
-    assert summary["prevailing_from_words"] == "from the south-west (225 deg)"
+    assert summary["prevailing_from_words"] == "from the south-west (225°)"
     assert summary["years_covered"] == [2025]
     assert np.isfinite(weather.temperature_c).all()
     assert warnings == []

@@ -17,6 +17,9 @@ from siting.readers.scenario import load_scenario
 from siting.readers.tables import load_tables
 from siting.runs.placing import place
 
+#: The placement table's site column, as the placement report heads it.
+LIMITING = "Limiting site"
+
 
 def run(args) -> int:
 
@@ -80,22 +83,20 @@ def _print_place_summary(result, out_dir: Path, top: int) -> None:
         f"by rule set {rules.id}; contribution judged: {rules.basis_words}",
         title_justify="left",
     )
-    for col in (
-        "rank",
-        "x",
-        "y",
-        "limiting site",
-        "worst % load",
-        "worst % level",
-        "share of what passes",
-        "reduction needed %",
-        "max places unabated",
-        "verdict at limiting site",
+    for col in (  # the words and units of the placement report's table
+        "Rank",
+        "x\n[m]",
+        "y\n[m]",
+        LIMITING,
+        "Worst % of\ncritical load",
+        "Worst % of\ncritical level",
+        "Share of what\npasses",
+        "Reduction\nneeded %",
+        "Places\nunabated",
+        "Verdict\nthere",
     ):
         table.add_column(
-            col,
-            justify="left" if col == "limiting site" else "right",
-            no_wrap=col == "limiting site",
+            col, justify="left" if col == LIMITING else "right", no_wrap=col == LIMITING
         )
     for row in result.positions.head(top).itertuples():
         places = getattr(row, "max_places_unabated", float("nan"))

@@ -26,6 +26,9 @@ from siting.readers.tables import load_tables
 from siting.runs.screening import screen
 from siting.runs.screening_sites import screen_grid
 
+#: The first columns' headers of the site tables, as the report writes them.
+SITE, TIER = "Site", "Tier"
+
 
 def _summary_rows(sites):
     """The sites to print and how many are left out: all in layer order when they fit, else
@@ -44,8 +47,7 @@ def _site_table(result, shown, n_more: int):
     rules = result.rules
     title = (
         f"{result.scenario.title}\njudged by rule set {rules.id} ({rules.title})\n"
-        f"contribution judged: {rules.basis_words}; net kg N: the net change (proposed less "
-        "removed) in kg N/ha/yr"
+        f"contribution judged: {rules.basis_words}; net change: proposed less removed"
     )
     if n_more:
         title += (
@@ -53,16 +55,16 @@ def _site_table(result, shown, n_more: int):
             "of their threshold"
         )
     table = Table(title=title, title_justify="left")
-    for col, justify in (
-        ("site", "left"),
-        ("tier", "left"),
-        ("% level", "right"),
-        ("kg N/ha/yr", "right"),
-        ("% load", "right"),
-        ("net kg N", "right"),
-        ("verdict (deciding rule)", "left"),
+    for col, justify in (  # the words and units of the report's site table
+        (SITE, "left"),
+        (TIER, "left"),
+        ("PC\n% of level", "right"),
+        ("PC max\nkg N/ha/yr", "right"),
+        ("PC\n% of load", "right"),
+        ("Net change\nkg N/ha/yr", "right"),
+        ("Verdict\n(deciding rule)", "left"),
     ):
-        table.add_column(col, justify=justify, no_wrap=col in ("site", "tier"))
+        table.add_column(col, justify=justify, no_wrap=col in (SITE, TIER))
 
     def fmt(v, spec=".3g"):
         return "-" if v != v else format(v, spec)
@@ -92,11 +94,11 @@ def _options_table(result, shown):
         return None
     runs = {"base": result, **result.options.runs}
     table = Table(
-        title="options: judged % of critical load; ✓ passes the rule set, ✗ does not "
+        title="Options: PC % of load (judged); ✓ passes the rule set, ✗ does not "
         "(options.csv, report section 1)",
         title_justify="left",
     )
-    table.add_column("site", no_wrap=True)
+    table.add_column(SITE, no_wrap=True)
     for name in runs:
         table.add_column(plain(name), justify="right")
     for position in shown.index:
@@ -109,8 +111,8 @@ def _options_table(result, shown):
                 else (("green", "✓") if row.passes else ("bold red", "✗"))
             )
             value = row.judged_pct_load
-            shown = "-" if value != value else format(value, ".1f")
-            cells.append(f"[{style}]{shown} {mark}[/]")
+            text = "-" if value != value else format(value, ".1f")
+            cells.append(f"[{style}]{text} {mark}[/]")
         table.add_row(plain(row["name"]), *cells)
     return table
 

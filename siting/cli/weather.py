@@ -64,7 +64,7 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
         t = summary["temperature_c"]
         table.add_row(
             "temperature",
-            f"{t['min']:.1f} / {t['mean']:.1f} / {t['max']:.1f} deg C (min / mean / max)",
+            f"{t['min']:.1f} / {t['mean']:.1f} / {t['max']:.1f} °C (min / mean / max)",
         )
     console.print(table)
     print_warnings(console, warnings_, flags_by_parameter("weather"), soft_wrap=False)

@@ -25,6 +25,16 @@ from siting.presentation.figure_parts import figure_png
 from siting.readers import hourly_table as weather_hourly
 
 
+def _portable(path: Path) -> str:
+    """An input's path as summary.json records it: relative to the current folder where the
+    file lies under it, else its name alone (nothing of the machine's folders)."""
+    resolved = path.resolve()
+    try:
+        return resolved.relative_to(Path.cwd().resolve()).as_posix()
+    except ValueError:
+        return resolved.name
+
+
 def write_weather_outputs(
     out_dir: Path,
     weather: HourlyWeather,
@@ -87,7 +97,7 @@ def write_weather_outputs(
         "version": __version__,
         "run_time_utc": datetime.now(UTC).replace(microsecond=0).isoformat(),
         "inputs": [
-            {"path": str(Path(p).resolve()), "sha256": sha256_of(Path(p))} for p in input_paths
+            {"path": _portable(Path(p)), "sha256": sha256_of(Path(p))} for p in input_paths
         ],
         "frequency_table": {
             "file": "frequency_table.csv",
@@ -104,7 +114,7 @@ def write_weather_outputs(
     with staged_folder(out_dir, overwrite) as staging:
         table.to_csv(staging / "frequency_table.csv", index=False, float_format="%.10g")
         (staging / "wind_rose.png").write_bytes(
-            figure_png(weather_figures.wind_rose_figure(weather))
+            figure_png(weather_figures.wind_rose_figure(weather, n_sectors=n_sectors))
         )
         (staging / "stability_by_speed.png").write_bytes(
             figure_png(weather_figures.stability_by_speed_figure(weather))

@@ -52,7 +52,7 @@ _DIRECTION_STEPS_DEG = (22.5, 10.0, 5.0, 1.0)  # reporting resolutions recognise
 
 
 def compass_words(direction_deg: float) -> str:
-    """'from the south-west (225 deg)': the nearest of the 16 compass points, in words.
+    """'from the south-west (225°)': the nearest of the 16 compass points, in words.
 
     Parameters
     ----------
@@ -65,7 +65,7 @@ def compass_words(direction_deg: float) -> str:
         The compass point and the direction.
     """
     k = int(np.floor((direction_deg % 360.0) / 22.5 + 0.5)) % 16
-    return f"from the {COMPASS_POINTS[k]} ({direction_deg % 360.0:g} deg)"
+    return f"from the {COMPASS_POINTS[k]} ({direction_deg % 360.0:g}°)"
 
 
 def direction_step_deg(direction_deg) -> float:
