@@ -42,7 +42,7 @@ def _print_compare_summary(result, out_dir: Path) -> None:
         ),
         title_justify="left",
     )
-    table.add_column("site", justify="left", no_wrap=True)
+    table.add_column("Site", justify="left", no_wrap=True)
     for name in result.run_names:
         table.add_column(plain(name), justify="right")
     by_run = {

@@ -104,9 +104,13 @@ def _print_site_table(console, result) -> None:
         title="All farms together, in combination (incomb_* in sites.csv), by habitat site",
         title_justify="left",
     )
-    numbers = ("kg N/ha/yr", "% load", "% level")
-    for col in ("site", "tier", *numbers, "verdict", "largest contributor"):
-        table.add_column(col, justify="right" if col in numbers else "left", no_wrap=col == "site")
+    numbers = (
+        "In-combination\nkg N/ha/yr",
+        "In-combination\n% of load",
+        "In-combination\n% of level",
+    )
+    for col in ("Site", "Tier", *numbers, "Verdict", "Largest\ncontributor"):
+        table.add_column(col, justify="right" if col in numbers else "left", no_wrap=col == "Site")
     first = result.contributors[result.contributors["rank"] == 1].set_index("site_id")
     no_rule = f"no in-combination rule in {rules.id}"
     for row in result.sites.itertuples():
