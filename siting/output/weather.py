@@ -96,9 +96,7 @@ def write_weather_outputs(
         "tool": "siting weather",
         "version": __version__,
         "run_time_utc": datetime.now(UTC).replace(microsecond=0).isoformat(),
-        "inputs": [
-            {"path": _portable(Path(p)), "sha256": sha256_of(Path(p))} for p in input_paths
-        ],
+        "inputs": [{"path": _portable(Path(p)), "sha256": sha256_of(Path(p))} for p in input_paths],
         "frequency_table": {
             "file": "frequency_table.csv",
             "sectors": int(n_sectors),
