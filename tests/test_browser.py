@@ -114,8 +114,8 @@ def open_offline(browser):
     """A function that opens a file in a fresh page with the network blocked; pages close after."""
     contexts = []
 
-    def _open(path: Path, overlay: bool = True) -> Visit:
-        context = browser.new_context(viewport=VIEWPORT, service_workers="block")
+    def _open(path: Path, overlay: bool = True, viewport: dict = VIEWPORT) -> Visit:
+        context = browser.new_context(viewport=viewport, service_workers="block")
         contexts.append(context)
         page = context.new_page()
         visit = Visit(page)
@@ -163,6 +163,12 @@ def open_offline(browser):
                 f"{path}: the deposition overlay never loaded; page errors {visit.page_errors}, "
                 f"console errors {visit.unexpected_console_errors()}"
             )
+        # the page script has laid the labels out on the opening view (map.js counts layouts
+        # on the map's element; the view is set without animation)
+        page.wait_for_function(
+            "() => Number(document.querySelector('.leaflet-container').dataset.sitingLayouts) > 0",
+            timeout=10_000,
+        )
         return visit
 
     yield _open
@@ -189,13 +195,18 @@ def _assert_clean(visit: Visit) -> None:
 
 
 def test_demo_map_opens_offline_without_errors(open_offline, demo_output):
-    """The demo map loads with the network blocked: no errors, only tile requests aborted."""
+    """The demo map loads with the network blocked: no errors, and no request at all until
+    the online background is chosen; then only its tiles are asked for, and refused."""
     visit = open_offline(demo_output / "map.html")
     _assert_clean(visit)
-    assert visit.aborted  # the background was asked for and refused: the block was exercised
+    assert visit.aborted == []  # the page opens on the plain background: nothing to fetch
     assert visit.page.evaluate("typeof L") == "object"  # inlined Leaflet ran
     assert visit.page.locator(".leaflet-control-layers").count() == 1
     assert visit.page.locator(".siting-legend").is_visible()
+    visit.page.get_by_label("OpenStreetMap background (needs internet)").check()
+    visit.page.wait_for_function("() => document.querySelector('img.leaflet-tile') !== null")
+    assert visit.aborted  # the tiles were asked for and refused: the block was exercised
+    _assert_clean(visit)
 
 
 def test_demo_map_draws_every_site_source_and_the_overlay(open_offline, demo_output):
@@ -290,14 +301,23 @@ def _show_boxes(page, show: bool) -> None:
     )
 
 
+def _only_overlays(page, keep: set) -> None:
+    """Untick, in the layer control as a user would, every overlay not named in ``keep``."""
+    inputs = page.locator(".leaflet-control-layers-overlays label")
+    for i in range(inputs.count()):
+        label = inputs.nth(i)
+        if label.inner_text().strip() not in keep:
+            label.locator("input").uncheck()
+
+
 def _pixels_with_and_without_overlay(page) -> tuple[np.ndarray, np.ndarray]:
     """The overlay's box on screen, shown and then switched off in the layer control.
 
-    Contours, sites, sources and the grid edge are switched off first and the title, legend and controls
-    hidden, in both shots: they sit on top of the overlay and would add colours of their own.
+    Every other overlay (contours, sites, sources, the farm's layers, the grid edge) is
+    switched off first and the title, legend and controls hidden, in both shots: they sit on
+    top of the overlay and would add colours of their own.
     """
-    for layer in ("Contours", "Habitat sites", "Sources", "Grid edge"):
-        page.get_by_label(layer).uncheck()  # the layer control, as a user would
+    _only_overlays(page, {"Deposition, PC (kg N/ha/yr)"})  # the layer control, as a user would
     region = _overlay_region(page)
     _show_boxes(page, False)
     shown = _pixels(page, region)
@@ -317,7 +337,7 @@ def test_overlay_colours_the_map_in_several_classes(open_offline, demo_output):
     # fraction 0.94, mean difference 111, overlay std 17.3, 5 main colours, background std 0.
     # Controls made by patching webmap by hand: every class painted one colour gives 0.94, 83,
     # 0.3 and 1; an all-NaN grid (transparent PNG) gives 0, 0, 0 and 0. Thresholds sit between.
-    # Switched off, the blocked tiles leave Leaflet's flat grey: the box is one colour.
+    # Switched off, the plain background is left: the box is one colour.
     assert stats["std_hidden"] < 1.0, stats  # 1 of 255: screenshot noise only
     # The coloured classes cover most of the grid's box (the lowest runs to the grid edge); a
     # quarter leaves room for other class edges and still fails a blank or sparse overlay.
@@ -414,8 +434,11 @@ def test_hostile_habitat_text_shows_as_text_and_runs_nothing(open_offline, hosti
     # As a user: hover each site for its tooltip, click it for its popup. A closed popup or
     # tooltip fades out for 200 ms before Leaflet removes it, so wait for both panes to empty.
     hovered, clicked = [], []
+    view = page.evaluate(f"() => {{ const m = {_MAP}; return [m.getCenter(), m.getZoom()]; }}")
     for i in range(sites.count()):
         page.evaluate(f"() => {_MAP}.closePopup()")
+        # back to the opening view: an opened popup pans the map clear of the title block
+        page.evaluate(f"v => {_MAP}.setView(v[0], v[1], {{animate: false}})", view)
         page.mouse.move(1, VIEWPORT["height"] - 1)  # off every site: a tooltip closes
         page.wait_for_function(
             "() => !document.querySelector('.leaflet-popup, .leaflet-tooltip')", timeout=5_000
@@ -465,3 +488,251 @@ def test_hostile_habitat_text_in_the_report_runs_nothing(open_offline, hostile_o
     for name in HOSTILE_NAMES:
         assert name in text, name
     assert HOSTILE_TITLE in text
+
+
+# --- labels, contours, legend, context (issue 16) -------------------------------------------
+
+_VISIBLE_LABELS = """
+() => Array.from(document.querySelectorAll('.siting-label')).filter(e => {
+    const text = e.firstChild, r = text.getBoundingClientRect();
+    return getComputedStyle(e).display !== 'none' && r.width > 0 && r.height > 0
+        && r.right > 0 && r.bottom > 0 && r.left < innerWidth && r.top < innerHeight;
+}).map(e => {
+    const r = e.firstChild.getBoundingClientRect();
+    return {kind: e.className, text: e.textContent, box: [r.left, r.top, r.right, r.bottom]};
+})
+"""
+
+
+def _csv_column(path: Path, column: str) -> list[str]:
+    """The values of one column of a CSV file."""
+    with open(path, newline="", encoding="utf-8") as handle:
+        return [row[column] for row in csv.DictReader(handle)]
+
+
+def _boxes_overlap(a, b, gap: float = 0.0) -> bool:
+    """Whether two (left, top, right, bottom) boxes overlap by more than ``gap`` px."""
+    return a[0] < b[2] - gap and b[0] < a[2] - gap and a[1] < b[3] - gap and b[1] < a[3] - gap
+
+
+def _settled(page) -> list[dict]:
+    """The visible labels as the page script laid them out on the opening view."""
+    return page.evaluate(_VISIBLE_LABELS)
+
+
+def test_site_names_and_source_ids_show_without_hovering(open_offline, demo_output):
+    """At the opening zoom every site name and every source id is a visible label (source ids
+    that would touch are joined in one), and no two visible labels overlap."""
+    visit = open_offline(demo_output / "map.html")
+    labels = _settled(visit.page)
+    texts = [label["text"] for label in labels]
+    for name in _csv_column(demo_output / "sites.csv", "name"):
+        assert name in texts, name
+    source_texts = [t for label, t in zip(labels, texts) if "siting-label-source" in label["kind"]]
+    ids = {i.strip() for t in source_texts for i in t.split(",")}
+    assert ids == set(_csv_column(demo_output / "sources.csv", "source_id"))
+    for i, a in enumerate(labels):
+        for b in labels[i + 1 :]:
+            assert not _boxes_overlap(a["box"], b["box"], gap=0.5), (a["text"], b["text"])
+    _assert_clean(visit)
+
+
+_CONTOUR_STYLE = """
+() => {
+    const seen = {};
+    document.querySelectorAll('path.siting-contour').forEach(p => {
+        const k = Array.from(p.classList).find(c => /^siting-contour-\\d+$/.test(c));
+        const s = getComputedStyle(p);
+        seen[k] = [s.stroke, s.strokeDasharray, s.strokeWidth];
+    });
+    const legend = Array.from(document.querySelectorAll('.siting-legend svg line'))
+        .map(l => [l.getAttribute('stroke'), l.getAttribute('stroke-dasharray'),
+                   l.getAttribute('stroke-width')]);
+    return [seen, legend];
+}
+"""
+
+
+def test_each_contour_is_drawn_in_a_style_of_its_own(open_offline, demo_output):
+    """The demo's three contour levels: three SVG strokes differing in colour and in dash
+    pattern or width, each also drawn so in the legend; each level's value is a visible
+    label on its line."""
+    from matplotlib.colors import to_hex
+
+    visit = open_offline(demo_output / "map.html")
+    drawn, legend = visit.page.evaluate(_CONTOUR_STYLE)
+    assert len(drawn) == 3  # demo: 4 % and 20 % of 5, 100 % of 10 kg N/ha/yr
+    assert len({tuple(v) for v in drawn.values()}) == 3
+    colours = {k: to_hex(tuple(int(c) / 255 for c in re.findall(r"\d+", v[0])[:3]))
+               for k, v in drawn.items()}  # fmt: skip
+    assert len(set(colours.values())) == 3
+    assert len({(v[1], v[2]) for v in drawn.values()}) == 3  # dash and width differ too
+    legend_colours = {row[0] for row in legend}
+    assert set(colours.values()) <= legend_colours  # each style is in the legend as drawn
+    labels = [label["text"] for label in _settled(visit.page)]
+    for level in ("0.2 kg N/ha/yr", "1 kg N/ha/yr", "10 kg N/ha/yr"):
+        assert any(text.endswith(": " + level) for text in labels), level
+
+
+def _map_bounds_of(page, selector: str) -> list[tuple[float, float, float, float]]:
+    """(left, top, right, bottom) px of every element matching ``selector`` on screen."""
+    return [
+        (b["x"], b["y"], b["x"] + b["width"], b["y"] + b["height"])
+        for b in (
+            page.locator(selector).nth(i).bounding_box()
+            for i in range(page.locator(selector).count())
+        )  # fmt: skip
+        if b is not None and b["width"] > 0
+    ]
+
+
+def _assert_legend_clear(page, data_selectors: tuple[str, ...]) -> None:
+    """The legend box covers neither the grid's centre pixel nor any drawn feature of
+    ``data_selectors``; folded, it is a button no wider than its summary."""
+    legend = page.locator(".siting-legend").bounding_box()
+    box = (legend["x"], legend["y"], legend["x"] + legend["width"],
+           legend["y"] + legend["height"])  # fmt: skip
+    overlay = page.locator(f"img.{OVERLAY_CLASS}").bounding_box()
+    centre = (overlay["x"] + overlay["width"] / 2, overlay["y"] + overlay["height"] / 2)
+    assert not (box[0] <= centre[0] <= box[2] and box[1] <= centre[1] <= box[3])
+    for selector in data_selectors:
+        for feature in _map_bounds_of(page, selector):
+            assert not _boxes_overlap(box, feature), (selector, feature)
+    page.locator(".siting-legend > summary").click()
+    assert page.evaluate("() => document.querySelector('.siting-legend').open") is False
+    assert page.locator(".siting-legend").bounding_box()["height"] < 40
+
+
+def test_legend_keeps_clear_of_the_grid_centre_and_the_data(open_offline, demo_output):
+    """On opening, the legend (bottom left) covers no site, no source and not the grid's
+    centre; its button folds it."""
+    page = open_offline(demo_output / "map.html").page
+    _assert_legend_clear(page, (f"path.{SITE_CLASS}", f"path.{SOURCE_CLASS}"))
+
+
+def test_offline_page_shows_the_farm_not_a_grey_void(open_offline, demo_output):
+    """With the deposition switched off and no network, the page still shows the farm: the
+    plain light background (not Leaflet's grey) with the sites, sources, holding, dwellings
+    and brook drawn on it in several colours."""
+    page = open_offline(demo_output / "map.html").page
+    page.get_by_label("Deposition, PC (kg N/ha/yr)").uncheck()
+    background = page.evaluate(
+        "() => getComputedStyle(document.querySelector('.leaflet-container')).backgroundColor"
+    )
+    assert background == "rgb(246, 244, 238)"  # webmap._PLAIN_BACKGROUND, not #dddddd
+    for name in ("Holding boundary", "Dwellings", "Watercourses"):
+        assert page.locator("path.siting-context").count() >= 3, name
+    _show_boxes(page, False)
+    pixels = _pixels(page, (0, 0, VIEWPORT["width"], VIEWPORT["height"]))
+    colours = _main_colours(pixels, tolerance=12, min_share=0.0005)
+    # the background, plus at least the sites' outlines, the sources and the context lines:
+    # a uniform grey page would give one colour (regression: the demo gives more than 8)
+    assert len(colours) >= 5, colours
+    assert max(np.abs(np.array(c) - (221, 221, 221)).max() for c in colours) > 30
+
+
+# --- the placement map and the regional map -------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def place_output(tmp_path_factory) -> Path:
+    """`siting place` on the demo for H2 at a 25 m spacing (seconds)."""
+    out = tmp_path_factory.mktemp("place") / "out"
+    code = main(
+        ["place", str(demo_dir() / "scenario.toml"), "--house", "H2", "--spacing", "25",
+         "--out", str(out), "--quiet"]
+    )  # fmt: skip
+    assert code == 0
+    return out
+
+
+def test_place_map_numbers_ten_distinct_positions_visibly(open_offline, place_output):
+    """Ten numbered markers, visible at the opening zoom without overlapping, carrying ranks
+    of positions.csv (rank 1 among them); dwellings, brook and existing houses labelled."""
+    visit = open_offline(place_output / "map.html")
+    page = visit.page
+    ranks = page.locator(".siting-rank-icon .siting-rank")
+    assert ranks.count() == 10
+    numbers = [int(ranks.nth(i).inner_text()) for i in range(10)]
+    assert 1 in numbers and len(set(numbers)) == 10
+    assert max(numbers) <= _rows(place_output / "positions.csv")
+    boxes = _map_bounds_of(page, ".siting-rank-icon .siting-rank")
+    assert len(boxes) == 10
+    for i, a in enumerate(boxes):
+        assert a[0] >= 0 and a[2] <= VIEWPORT["width"] and a[1] >= 0 and a[3] <= VIEWPORT["height"]
+        for b in boxes[i + 1 :]:
+            assert not _boxes_overlap(a, b), (a, b)
+    texts = [label["text"] for label in page.evaluate(_VISIBLE_LABELS)]
+    for name in ("cottage", "Hollow Brook", "E1"):  # the demo's dwellings, brook, sow house
+        assert any(name in t for t in texts), (name, texts)
+    _assert_clean(visit)
+
+
+def test_place_popup_says_whether_the_house_passes_and_clears_the_title(open_offline, place_output):
+    """Rank 1's popup says in words that the house as described does not pass (the demo:
+    the farm's other sources already fail), and its top is below the title block."""
+    page = open_offline(place_output / "map.html").page
+    page.locator(".siting-rank.first").click()
+    popup = page.locator(".leaflet-popup")
+    popup.wait_for(state="visible", timeout=5_000)
+    page.wait_for_timeout(400)  # the auto-pan
+    assert "The house as described does not pass here" in popup.inner_text()
+    title = page.locator(".siting-title").bounding_box()
+    assert popup.bounding_box()["y"] >= title["y"] + title["height"]
+
+
+@pytest.fixture(scope="module")
+def region_output(tmp_path_factory) -> Path:
+    """`siting region` on the invented regional demo at a 250 m spacing (seconds)."""
+    demo = demo_dir()
+    out = tmp_path_factory.mktemp("region") / "out"
+    code = main(
+        ["region", str(demo / "region_farms.gpkg"), "--weather", str(demo / "weather_table.csv"),
+         "--habitats", str(demo / "region_habitats.gpkg"), "--spacing", "250", "--top", "3",
+         "--out", str(out), "--quiet"]
+    )  # fmt: skip
+    assert code == 0
+    return out
+
+
+def test_region_map_opens_offline_with_sites_farms_and_contributions(open_offline, region_output):
+    """The regional map: clean offline, one path per site and per contributor row, farms
+    drawn, site labels laid out without overlap, the legend clear of the grid's centre."""
+    visit = open_offline(region_output / "map.html")
+    page = visit.page
+    _assert_clean(visit)
+    assert visit.aborted == []
+    assert page.locator(f"path.{SITE_CLASS}").count() == _rows(region_output / "sites.csv") == 8
+    assert page.locator("path.siting-contribution").count() == _rows(
+        region_output / "contributors.csv"
+    )
+    assert page.locator("path.siting-farm").count() == _rows(region_output / "farms.csv")
+    labels = [label for label in _settled(page) if "siting-label-site" in label["kind"]]
+    names = set(_csv_column(region_output / "sites.csv", "name"))
+    assert {label["text"] for label in labels} <= names
+    assert len(labels) >= 6  # demo: 8 sites, three of them close together (regression: 8)
+    for i, a in enumerate(labels):
+        for b in labels[i + 1 :]:
+            assert not _boxes_overlap(a["box"], b["box"], gap=0.5), (a["text"], b["text"])
+    _assert_legend_clear(page, (f"path.{SITE_CLASS}",))
+
+
+def test_small_screen_opens_with_legend_and_lists_folded(open_offline, demo_output):
+    """On a phone-sized screen the legend, the cautions list and the layer list start folded,
+    their buttons still showing (the cautions' summary says what the map is), and the site
+    names still show."""
+    phone = {"width": 390, "height": 740}
+    visit = open_offline(demo_output / "map.html", viewport=phone)
+    page = visit.page
+    assert page.evaluate("() => document.querySelector('.siting-legend').open") is False
+    assert page.locator(".siting-legend > summary").is_visible()
+    assert page.evaluate("() => document.querySelector('.siting-title details').open") is False
+    assert (
+        "screening estimate, not a decision" in page.locator(".siting-title summary").inner_text()
+    )
+    assert page.locator(".leaflet-control-layers-expanded").count() == 0  # the icon only
+    texts = [label["text"] for label in page.evaluate(_VISIBLE_LABELS)]
+    assert sum(name in texts for name in _csv_column(demo_output / "sites.csv", "name")) >= 3
+    page.locator(".siting-legend > summary").click()
+    assert page.evaluate("() => document.querySelector('.siting-legend').open") is True
+    _assert_clean(visit)

@@ -252,17 +252,32 @@ def test_map_has_layer_control_scale_and_osm_option(map_html):
     assert "tile.openstreetmap.org" in map_html
 
 
-def test_map_bounds_follow_the_grid(map_html):
-    """The map is fitted to the grid's lat/lon bounds (UTM 32N near 51.4 N, 9 E)."""
+def _opening_view(text: str) -> tuple[float, float, float, float]:
+    """(lat_s, lon_w, lat_n, lon_e) of the view the page opens on (its sitingMap.fit call)."""
     match = re.search(
-        r"map_\w+\.fitBounds\(\s*\[\[([-\d.]+),\s*([-\d.]+)\],\s*\[([-\d.]+),\s*([-\d.]+)\]\]",
-        map_html,
-    )  # the map's own call, not the fitWorld inside the inlined Leaflet code
+        r"sitingMap\.fit\(map_\w+, \[\[([-\d.]+), ([-\d.]+)\], \[([-\d.]+), ([-\d.]+)\]\]\)",
+        text,
+    )
     assert match
-    lat_s, lon_w, lat_n, lon_e = map(float, match.groups())
+    return tuple(map(float, match.groups()))
+
+
+def test_map_opens_on_the_sites_and_sources_within_the_grid(map_html):
+    """The page opens on the sites and sources (UTM 32N near 51.4 N, 9 E), inside the grid."""
+    lat_s, lon_w, lat_n, lon_e = _opening_view(map_html)
     # analytic: x = 500 000 m lies on the 9 E central meridian; 5 700 000 m N is ~51.4 N
-    assert 8.99 < lon_w < 9.01 and lon_w < lon_e < 9.03
+    assert 8.99 < lon_w < lon_e < 9.03
     assert 51.4 < lat_s < lat_n < 51.5
+    for frame in (_sites(), _sources()):
+        west, south, east, north = frame.to_crs("EPSG:4326").total_bounds
+        assert lon_w < west and east < lon_e and lat_s < south and north < lat_n
+    grid = re.search(
+        r'L\.imageOverlay\(\s*"data:[^"]+",\s*\[\[([-\d.]+),\s*([-\d.]+)\],\s*'
+        r"\[([-\d.]+),\s*([-\d.]+)\]\]",
+        map_html,
+    )
+    g_s, g_w, g_n, g_e = map(float, grid.groups())
+    assert g_s <= lat_s and g_w <= lon_w and lat_n <= g_n and lon_e <= g_e  # within the grid
 
 
 def test_all_nan_grid_still_renders():
@@ -462,3 +477,402 @@ def test_site_popup_shows_the_habitat_name_where_known():
     assert site_popup_values(named)[0][row] == "Dry heath"
     bare = pd.DataFrame({"habitat": ["dry_heath"]})
     assert site_popup_values(bare)[0][row] == "dry_heath"
+
+
+# --- offline context, labels, contours, legend, names (issue 16) ----------------------------
+
+
+def _context():
+    """A holding and two exclusion layers (points and a line) with hostile feature names."""
+    from shapely.geometry import LineString
+
+    from siting.readers.map_context import ContextLayer, MapContext
+
+    centre_x = WEST_M + N_COLS * CELL_M / 2
+    centre_y = NORTH_M - N_ROWS * CELL_M / 2
+    holding = gpd.GeoDataFrame(
+        {"label": ["Farm <b>holding</b>"]},
+        geometry=[box(centre_x - 200, centre_y - 150, centre_x + 200, centre_y + 150)],
+        crs=CRS,
+    )
+    dwellings = gpd.GeoDataFrame(
+        {"label": [NASTY_SCRIPT, ""]},
+        geometry=[Point(centre_x - 120, centre_y + 60), Point(centre_x + 90, centre_y - 80)],
+        crs=CRS,
+    )
+    brook = gpd.GeoDataFrame(
+        {"label": ["Mill ${brook}"]},
+        geometry=[LineString([(centre_x - 300, centre_y - 20), (centre_x + 300, centre_y + 10)])],
+        crs=CRS,
+    )
+    return MapContext(
+        ContextLayer("holding boundary", holding),
+        (ContextLayer("dwellings", dwellings, 100.0), ContextLayer("watercourses", brook, 20.0)),
+    )
+
+
+def _label_calls(text: str) -> list[tuple[str, list]]:
+    """(kind, items) of every sitingMap.labels call of the page, its JSON decoded."""
+    decoder = json.JSONDecoder()
+    calls = []
+    for match in re.finditer(r'sitingMap\.labels\(map_\w+, \w+, "(\w+)", ', text):
+        calls.append((match.group(1), decoder.raw_decode(text, match.end())[0]))
+    return calls
+
+
+def _labels_of(text: str, kind: str) -> list[str]:
+    """The html of every label of one kind, in the order given."""
+    return [item[2] for k, items in _label_calls(text) if k == kind for item in items]
+
+
+@pytest.fixture(scope="module")
+def context_html() -> str:
+    """The map with the context layers, three contour levels and the bundled tables."""
+    from siting.readers.tables import load_tables
+
+    sources = _sources()
+    sources.loc[2, "housing"] = "fully_slatted"  # OLD: a pair the bundled table knows
+    return _render(
+        contours=[(0.05, "1 % of 5 kg N/ha/yr"), (1.0, "20 % of 5 kg N/ha/yr"), (10.0, "x")],
+        context=_context(),
+        tables=load_tables(),
+        sources=sources,
+    )
+
+
+def test_background_tiles_are_an_option_off_when_the_page_opens(map_html):
+    """The plain background is the base layer shown; the online tiles are listed, not added."""
+    tiles = re.search(r"var (tile_layer_\w+) = L\.tileLayer\(", map_html).group(1)
+    assert f"{tiles}.addTo(" not in map_html  # folium adds a shown base layer; this one is off
+    assert '"OpenStreetMap background (needs internet)" : ' + tiles in map_html
+    plain = re.search(r'"Plain background \(works offline\)" : (feature_group_\w+)', map_html)
+    assert plain and f"{plain.group(1)}.addTo(" in map_html
+    assert "div.leaflet-container { background: #f6f4ee; }" in map_html  # not Leaflet's grey
+
+
+def test_context_layers_are_drawn_labelled_and_in_the_layer_control(context_html):
+    """Holding, dwellings and brook: each a named layer; every feature labelled, escaped."""
+    for name in (
+        "Holding boundary",
+        "Dwellings (a new house keeps 100 m away)",
+        "Watercourses (a new house keeps 20 m away)",
+    ):
+        assert f'"{name}" : feature_group_' in context_html, name
+    assert _labels_of(context_html, "context") == ["Farm &lt;b&gt;holding&lt;/b&gt;"]
+    # a feature without a name is labelled with its layer's name
+    assert _labels_of(context_html, "exclusion") == [
+        escape_text(NASTY_SCRIPT),
+        "dwellings",
+        "Mill &#36;&#123;brook&#125;",
+    ]
+    assert "Mill ${brook}" not in context_html and NASTY_SCRIPT not in context_html
+    assert "siting-context" in context_html  # the features' CSS class
+
+
+def test_site_and_source_labels_are_escaped_most_affected_first(map_html):
+    """Sites are labelled by name, most affected first; sources by id, proposed first."""
+    sites = _labels_of(map_html, "site")
+    # _sites(): pc_pct_load 250 (threshold 1 %), 0.4 (1 %), not assessed last
+    assert sites == [escape_text(NASTY_SCRIPT), escape_text(NASTY_TEMPLATE), escape_text(NASTY_IMG)]
+    assert _labels_of(map_html, "source") == ["H1&lt;i&gt;", "STORE", "OLD"]  # by role order
+    script = map_html[map_html.index("sitingMap.labels(") :]
+    assert "</script" not in script.split("</script>")[0]  # the JSON cannot end its script
+
+
+def _polyline_options(text: str) -> list[dict]:
+    """The options of every L.polyline of the page (JSON after its list of points)."""
+    decoder = json.JSONDecoder()
+    found = []
+    for match in re.finditer(r"L\.polyline\(\s*", text):
+        _points, end = decoder.raw_decode(text, match.end())
+        start = text.index("{", end)
+        found.append(decoder.raw_decode(text, start)[0])
+    return found
+
+
+def test_each_contour_level_has_its_own_style_and_a_value_label(context_html):
+    """Three levels: three colours, dash patterns and weights, each legend row drawn alike, and
+    each line labelled '<label>: <level> kg N/ha/yr' (escaped)."""
+    from siting.presentation.webmap_grid import CONTOUR_STYLES
+
+    lines = [o for o in _polyline_options(context_html) if "siting-contour " in o["className"]]
+    styles = {}
+    for options in lines:
+        index = int(options["className"].rsplit("-", 1)[1])
+        styles.setdefault(index, set()).add(
+            (options["color"], options["weight"], options["dashArray"])
+        )
+    assert sorted(styles) == [0, 1, 2]
+    for index, seen in styles.items():
+        expected = CONTOUR_STYLES[index]
+        assert seen == {(expected["color"], expected["weight"], expected["dash_array"])}
+        legend_line = f'stroke="{expected["color"]}" stroke-width="{expected["weight"]:g}"'
+        assert legend_line in context_html  # the legend draws the line as the map does
+    assert len({next(iter(seen)) for seen in styles.values()}) == 3  # all three differ
+    for a in range(3):
+        for b in range(a + 1, 3):  # each pair differs in colour and in dash pattern or weight
+            sa, sb = CONTOUR_STYLES[a], CONTOUR_STYLES[b]
+            assert sa["color"] != sb["color"]
+            assert (sa["dash_array"], sa["weight"]) != (sb["dash_array"], sb["weight"])
+    assert _labels_of(context_html, "contour") == [
+        "1 % of 5 kg N/ha/yr: 0.05 kg N/ha/yr",
+        "20 % of 5 kg N/ha/yr: 1 kg N/ha/yr",
+        "x: 10 kg N/ha/yr",
+    ]
+
+
+def test_contour_labels_offer_places_along_their_line(context_html):
+    """A contour label carries other places on its own line, first the one it starts at."""
+    for kind, items in _label_calls(context_html):
+        if kind != "contour":
+            continue
+        for lat, lon, _html, _css, places in items:
+            assert len(places) > 3
+            assert places[0] == pytest.approx([lat, lon], abs=1e-6)  # 6 decimals kept
+
+
+def test_source_popups_name_housing_and_technique_as_the_tables_do(context_html):
+    """With the run's tables the popup shows their words, the ids beside them."""
+    from siting.readers.tables import load_tables
+
+    tables = load_tables()
+    factor = tables.factor("finishing_pig", "fully_slatted", "test")
+    assert "fully slatted floor" in factor["description"]  # config/emission_factors.toml
+    assert escape_text(factor["description"]) in context_html
+    assert escape_text(tables.abatement["acid_scrubber"]["name"]) in context_html
+    # _sources() H1: housing "slatted" is not in the table: the ids alone, no invented name
+    assert "finishing_pig / slatted" in context_html
+
+
+def test_legend_folds_and_draws_footprints_as_rectangles(map_html):
+    """The legend is a <details> box with a summary button; sources with a footprint get a
+    rectangle, outlets a circle, as on the map."""
+    legend = re.search(r'<details class="siting-box siting-legend[^"]*" open>(.*?)</details>',
+                       map_html, re.S)  # fmt: skip
+    assert legend and "<summary" in legend.group(1)
+    body = legend.group(1)
+    assert re.search(r"<rect [^>]*/></svg>existing: house or store", body)  # STORE: area
+    assert re.search(r"<circle [^>]*/></svg>proposed: outlet or stack", body)  # H1: point
+
+
+def test_labels_reject_an_unknown_kind():
+    """A label kind the page script does not know is refused (programming error)."""
+    import folium
+
+    from siting.presentation.webmap_labels import add_labels
+
+    with pytest.raises(ValueError, match="unknown kind 'sign'"):
+        add_labels(folium.FeatureGroup(), "sign", [[51.0, 9.0, "x", ""]])
+
+
+# --- the placement map ----------------------------------------------------------------------
+
+
+def _ranked_positions(n_side: int = 12, spacing_m: float = 10.0) -> gpd.GeoDataFrame:
+    """A lattice of positions ranked best first by distance from its south-west corner, the
+    best ones adjacent cells (synthetic)."""
+    centre_x = WEST_M + N_COLS * CELL_M / 2
+    centre_y = NORTH_M - N_ROWS * CELL_M / 2
+    ii, jj = np.meshgrid(np.arange(n_side), np.arange(n_side))
+    x = centre_x - 60 + spacing_m * ii.ravel()
+    y = centre_y - 60 + spacing_m * jj.ravel()
+    order = np.argsort(np.hypot(ii.ravel(), jj.ravel()), kind="stable")
+    x, y = x[order], y[order]
+    share = np.linspace(0.5, 3.0, x.size)  # the best pass, the rest do not (synthetic)
+    return gpd.GeoDataFrame(
+        {
+            "x": x,
+            "y": y,
+            "limiting_site": ["Gorse <heath>"] * x.size,
+            "limiting_share_of_threshold": share,
+            "passes_as_described": share <= 1.0,
+            "worst_pct_load": share * 4.0,
+            "worst_site": ["Gorse <heath>"] * x.size,
+            "worst_pct_level": share,
+            "required_reduction_percent": np.clip(100 * (1 - 1 / share), 0, None),
+        },
+        geometry=[Point(a, b) for a, b in zip(x, y)],
+        crs=CRS,
+    )
+
+
+def _place_html(positions, **overrides) -> str:
+    """The placement map of the synthetic grid with the given positions."""
+    from siting.presentation.webmap_place import render_place_map
+
+    centre_x = WEST_M + N_COLS * CELL_M / 2
+    centre_y = NORTH_M - N_ROWS * CELL_M / 2
+    arguments = {
+        "title": "Farm <Nord>",
+        "crs": CRS,
+        "west_m": WEST_M,
+        "north_m": NORTH_M,
+        "cell_m": 10.0,
+        "share_of_threshold": _grid() / 20.0,
+        "allowed_area": gpd.GeoDataFrame(
+            geometry=[box(centre_x - 100, centre_y - 100, centre_x + 100, centre_y + 100)],
+            crs=CRS,
+        ),
+        "holding": gpd.GeoDataFrame(
+            geometry=[box(centre_x - 150, centre_y - 150, centre_x + 150, centre_y + 150)],
+            crs=CRS,
+        ),
+        "positions": positions,
+        "sites": _sites(),
+        "cautions": CAUTIONS,
+        "version": "0.1.0",
+        "run_time": "2024-05-01T12:00:00Z",
+    }
+    arguments.update(overrides)
+    return render_place_map(**arguments)
+
+
+def test_numbered_positions_are_distinct_places_with_their_ranks():
+    """Adjacent best cells: the numbers mark positions at least separation_m apart, each with
+    its rank among all positions, the best first (rank 1 is the best position)."""
+    from siting.presentation.webmap_place import _distinct_positions, separation_m
+
+    positions = _ranked_positions()
+    gap = separation_m(10.0)
+    assert gap == 40.0  # four 10 m cells, the 40 m floor (our own rule)
+    picked = _distinct_positions(positions, 10, gap)
+    assert picked[0] == 0 and list(picked) == sorted(picked)
+    xy = positions[["x", "y"]].to_numpy()[picked]
+    distances = np.hypot(*(xy[:, None, :] - xy[None, :, :]).transpose(2, 0, 1))
+    assert (distances[~np.eye(len(picked), dtype=bool)] >= gap).all()
+    # every position left out is within gap of a better numbered one (greedy, by construction)
+    for i in range(picked[-1]):
+        if i not in picked:
+            better = xy[picked < i]
+            assert np.hypot(*(better - positions[["x", "y"]].to_numpy()[i]).T).min() < gap
+    text = _place_html(positions)
+    numbers = [int(n) for n in re.findall(r'siting-rank[^"\\]*\\"\\u003e(\d+)\\u003c', text)]
+    assert sorted(numbers) == sorted(int(i) + 1 for i in picked)
+
+
+def test_position_popup_says_in_words_whether_the_house_passes():
+    """Passing, failing and never-passing positions each get their sentence, names escaped."""
+    from types import SimpleNamespace
+
+    from siting.presentation.webmap_place import position_words
+
+    def row(share, passes=None):
+        return SimpleNamespace(
+            limiting_site="Gorse <heath>", limiting_share_of_threshold=share,
+            passes_as_described=passes,
+        )  # fmt: skip
+
+    passes, words = position_words(row(0.43, True))
+    assert passes and words.startswith("The house as described passes every site here")
+    assert "Gorse &lt;heath&gt;, takes 43 % of what its rule set allows" in words
+    passes, words = position_words(row(1.43, False))
+    assert not passes
+    assert words == (
+        "The house as described does not pass here: Gorse &lt;heath&gt; at 143 % of what "
+        "its rule set allows."
+    )
+    passes, words = position_words(row(float("inf"), False))
+    assert not passes and "already fail without it" in words
+    assert position_words(row(0.9))[0] and not position_words(row(1.1))[0]  # no column: share
+
+
+def test_never_passing_cells_have_their_own_colour():
+    """Cells of +inf (the other sources alone fail) are painted NEVER_COLOUR, not left clear."""
+    import base64
+    import io
+
+    from matplotlib.colors import to_rgba
+    from matplotlib.image import imread
+
+    from siting.presentation.webmap_place import NEVER_COLOUR
+
+    share = np.full((N_ROWS, N_COLS), np.inf)
+    share[:, : N_COLS // 2] = 0.5
+    text = _place_html(_ranked_positions(), share_of_threshold=share)
+    encoded = re.search(r'L\.imageOverlay\(\s*"data:image/png;base64,([^"]+)"', text).group(1)
+    rgba = imread(io.BytesIO(base64.b64decode(encoded)), format="png")
+    east = rgba[rgba.shape[0] // 2, -2]
+    assert np.allclose(east, to_rgba(NEVER_COLOUR), atol=1 / 255)
+    assert "never: the other sources alone already fail" in text
+
+
+def test_place_map_draws_exclusions_and_other_houses_labelled():
+    """Dwellings, brook and the farm's other houses are drawn and labelled on the placement
+    map, with the distance kept from each exclusion outlined."""
+    text = _place_html(_ranked_positions(), context=_context(), sources=_sources())
+    assert _labels_of(text, "exclusion")[1:] == ["dwellings", "Mill &#36;&#123;brook&#125;"]
+    assert _labels_of(text, "source") == ["H1&lt;i&gt;", "STORE", "OLD"]
+    assert '"Other houses and stores" : feature_group_' in text
+    assert "m keep-away line" in text
+    assert '"Holding boundary" : ' not in text  # the holding is the map's own outline layer
+
+
+# --- the regional map -----------------------------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def region_run():
+    """The invented regional demo on a coarse 250 m grid (seconds)."""
+    from siting.readers.resources import demo_dir
+    from siting.runs.region_inputs import RegionOptions
+    from siting.runs.regional import region
+
+    demo = demo_dir()
+    return region(
+        demo / "region_farms.gpkg",
+        demo / "weather_table.csv",
+        demo / "region_habitats.gpkg",
+        RegionOptions(spacing_m=250.0, margin_m=1000.0, scheduler=None, top=3),
+    )
+
+
+def test_region_map_shows_sites_by_verdict_and_their_top_farms(region_run):
+    """One site feature per site, coloured by verdict class, its popup listing its top farms;
+    a line per contributor row; every farm a feature."""
+    from siting.presentation.webmap_region import render_region_map
+
+    grid = region_run.grid
+    text = render_region_map(
+        title="Region <x>",
+        crs=region_run.inputs.crs,
+        west_m=grid.west_m,
+        north_m=grid.north_m,
+        cell_m=grid.cell_m,
+        deposition_kg_n_ha_yr=region_run.deposition_kg_n_ha_yr,
+        sites=region_run.sites,
+        farms=region_run.inputs.farms,
+        contributors=region_run.contributors,
+        cautions=CAUTIONS,
+        version="0.1.0",
+        run_time="2024-05-01T12:00:00Z",
+    )
+    sites = _site_properties(text)
+    assert len(sites) == len(region_run.sites) == 8  # the demo's eight invented sites
+    first = region_run.contributors.sort_values("rank").groupby("site_id").head(1)
+    for props in sites:
+        top_farms = props["popup"][-1]
+        assert top_farms.startswith("<ol><li>") and top_farms.count("<li>") == 3  # top=3
+    for farm_id in first["farm_id"]:
+        assert any(f"<li>{farm_id}: " in p["popup"][-1] for p in sites)
+    layers = _geojson_layers(text)
+    lines = [f for layer in layers for f in layer.get("features", [])
+             if f["geometry"]["type"] == "LineString"]  # fmt: skip
+    assert len(lines) == len(region_run.contributors) == 8 * 3
+    points = [f for layer in layers for f in layer.get("features", [])
+              if f["geometry"]["type"] == "Point"]  # fmt: skip
+    assert len(points) == len(region_run.inputs.farms) == 200
+    assert "Region &lt;x&gt;" in text and "Region <x>" not in text
+    assert '"Deposition, all farms (kg N/ha/yr)"' in text
+
+
+def test_region_outputs_write_the_map_and_hash_it(region_run, tmp_path):
+    """`write_region_outputs` writes map.html and records its SHA-256 in run.json."""
+    import hashlib
+
+    from siting.output.region import write_region_outputs
+
+    out = write_region_outputs(region_run, tmp_path / "region")
+    record = json.loads((out / "run.json").read_text(encoding="utf-8"))
+    digest = hashlib.sha256((out / "map.html").read_bytes()).hexdigest()
+    assert record["outputs"]["map.html"]["sha256"] == digest
+    assert "sites.csv" in record["outputs"] and "run.json" not in record["outputs"]

@@ -17,6 +17,7 @@ from siting.output.records import package_inputs, run_record_base
 from siting.output.tables import write_csv
 from siting.presentation.place_report import render_place_report
 from siting.presentation.webmap_place import render_place_map
+from siting.readers.map_context import read_map_context, source_footprints
 from siting.readers.tables import default_reduction_percent
 
 #: How many of the best positions the map marks.
@@ -131,7 +132,7 @@ def write_place_outputs(
         (staging / "run.json").write_text(
             json.dumps(record, indent=2, default=str), encoding="utf-8"
         )
-        best = result.positions.head(top)
+        ranked = result.positions  # the map numbers `top` distinct ones of them
         write_place_map(
             staging / "map.html",
             title=f"{scenario.title}: where could {result.house_id} go?",
@@ -145,11 +146,15 @@ def write_place_outputs(
             allowed_area=gpd.GeoDataFrame(geometry=[result.allowed_area], crs=scenario.crs),
             holding=gpd.GeoDataFrame(geometry=[result.holding], crs=scenario.crs),
             positions=gpd.GeoDataFrame(
-                best.copy(), geometry=shapely.points(best["x"], best["y"]), crs=scenario.crs
+                ranked.copy(), geometry=shapely.points(ranked["x"], ranked["y"]), crs=scenario.crs
             ),
             sites=prep.sites,
             cautions=list(prep.cautions),
             version=__version__,
             run_time=run_time,
+            top=top,
+            sources=source_footprints(scenario, prep.sources, leave_out=result.house_id),
+            context=read_map_context(scenario),
+            tables=prep.tables,
         )
     return out_dir

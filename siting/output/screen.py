@@ -1,4 +1,4 @@
-"""The files of ``siting screen``: tables, GeoTIFFs, run.json, report.html and map.html.
+"""The files of ``siting screen``: tables, results.gpkg, GeoTIFFs, run.json, report.html, map.html.
 
 Written into a staging folder and moved into place when whole (siting.output.folder).
 """
@@ -17,6 +17,7 @@ from siting.dispersion.grid import grid_around
 from siting.dispersion.hourly import HourlyWeather
 from siting.dispersion.inputs import WeatherClasses
 from siting.output.folder import check_output_dir, staged_folder
+from siting.output.geopackage import write_results_gpkg
 from siting.output.geotiff import write_geotiff
 from siting.output.records import input_paths, output_hashes, package_inputs, run_record_base
 from siting.output.screen_options import write_option_files
@@ -30,6 +31,7 @@ from siting.presentation.weather_figures import (
     wind_rose_from_table_figure,
 )
 from siting.presentation.webmap import render_screen_map
+from siting.readers.map_context import read_map_context
 
 SITE_COLUMNS = [
     "site_id",
@@ -181,19 +183,14 @@ def _write_rasters(result, folder: Path) -> None:
 
 
 def _write_tables(result, folder: Path) -> pd.DataFrame:
-    """sites.csv and sites.gpkg (the undepleted figures beside the depleted ones),
-    receptors.csv, sources.csv and sensitivity.csv; returns the sites table as written."""
-    import geopandas as gpd
-
+    """sites.csv (the undepleted figures beside the depleted ones), receptors.csv, sources.csv
+    and sensitivity.csv; returns the sites table as written (results.gpkg repeats it)."""
     sites = result.sites
     columns = list(SITE_COLUMNS)
     at = columns.index("pc_pct_load") + 1  # beside the depleted figures
     columns[at:at] = [c for c in UNDEPLETED_COLUMNS if c in sites.columns]
     table = pd.DataFrame(sites[columns])
     write_csv(table, folder / "sites.csv")
-    gpd.GeoDataFrame(table, geometry=sites.geometry, crs=sites.crs).to_file(
-        folder / "sites.gpkg", layer="sites", driver="GPKG"
-    )
     write_csv(result.receptors, folder / "receptors.csv")
     write_csv(result.sources, folder / "sources.csv")
     if result.what_it_takes is not None:
@@ -290,6 +287,9 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         result.sources.copy(), geometry=result.source_geometries, crs=result.scenario.crs
     )
     contours = _contour_levels(sites)
+    context = read_map_context(result.scenario)
+    # sites, sources, footprints, receptors, the map's contour lines and the holding, styled
+    write_results_gpkg(folder / "results.gpkg", result, table, contours, context, run_time)
     write_screen_map(
         folder / "map.html",
         title=result.scenario.title,
@@ -307,6 +307,8 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         option_deposition=None
         if result.options is None
         else {n: r.fields["pc_dep_kg_n_ha_yr"] for n, r in result.options.runs.items()},
+        tables=result.tables,
+        context=context,
     )
     figures, weather_figures = _report_figures(result, sources_gdf, contours)
     write_report(
@@ -341,7 +343,7 @@ def estimate_screen_bytes(scenario) -> int:
 
     Three float32 GeoTIFFs and the map's image of the grid, and a difference GeoTIFF and a map
     image per option (uncompressed, 4 bytes a cell), and four times the inputs (their packaged
-    copy, and the habitat sites again in sites.gpkg, the map and the report).
+    copy, and the habitat sites again in results.gpkg, the map and the report).
 
     Parameters
     ----------
@@ -373,7 +375,7 @@ def estimate_screen_bytes(scenario) -> int:
 def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
     """Write every output of a screening run atomically into ``out_dir``; returns it.
 
-    The files of ``siting screen``: sites.csv and sites.gpkg, receptors.csv, sources.csv,
+    The files of ``siting screen``: sites.csv and results.gpkg, receptors.csv, sources.csv,
     sensitivity.csv, the GeoTIFFs, report.html, map.html, run.json and the packed inputs/,
     written into a staging folder and moved into place when complete
     (:func:`siting.output.folder.staged_folder`).

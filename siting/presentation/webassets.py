@@ -15,8 +15,10 @@ A URL this module does not know, a folium feature whose asset is left out, or a 
 reaches the page raises :class:`~siting.errors.AssetError` naming it: better no map than one
 that is blank offline. Tile URLs inside scripts are data, not assets, and stay; the map shows
 without them. Each inlined block starts with a comment naming the npm package and version it
-came from and the full licence text of that library. What is drawn on the map lives in
-:mod:`siting.presentation.webmap`.
+came from and the full licence text of that library. Last in the ``<head>`` comes siting's own
+page script, ``_assets/siting/map.js`` (labels that make room for each other, popups kept clear
+of the title block, the legend folded on small screens), inline like the rest. What is drawn on
+the map lives in :mod:`siting.presentation.webmap`.
 """
 
 from __future__ import annotations
@@ -51,6 +53,8 @@ class _Library:
 
 
 _LEAFLET = _Library("leaflet", "leaflet@1.9.4", "BSD-2-Clause", "LICENSE")
+#: siting's own page script (not vendored): see its header comment.
+_OWN_SCRIPT = "siting/map.js"
 _JQUERY = _Library("jquery", "jquery@3.7.1", "MIT", "LICENSE.txt")
 
 
@@ -268,6 +272,16 @@ def _use_vendored_assets(fmap: folium.Map) -> None:
         element.default_css = []
 
 
+@cache
+def _own_script_block() -> str:
+    """The <script> element holding siting's own page script (``_assets/siting/map.js``)."""
+    text = _read(_OWN_SCRIPT).decode("utf-8")
+    if _UNSAFE_INLINE.search(text):
+        raise AssetError(f"map: {_OWN_SCRIPT!r} cannot be inlined in HTML safely")
+    banner = f"/*! siting: its own page script, siting/_assets/{_OWN_SCRIPT} */"
+    return f"<script>\n{banner}\n{text.strip()}\n</script>"
+
+
 def render_offline(fmap: folium.Map) -> str:
     """The map's page, self-contained: vendored Leaflet and jQuery inline, nothing linked.
 
@@ -280,8 +294,9 @@ def render_offline(fmap: folium.Map) -> str:
     -------
     page_html : str
         The page as folium renders it, with each needed Leaflet or jQuery file in an inline
-        ``<script>`` or ``<style>`` carrying the vendored file and its licence, and none of the
-        assets the map does not need. ``data:`` URLs stay; so do tile URLs inside scripts.
+        ``<script>`` or ``<style>`` carrying the vendored file and its licence, siting's own
+        page script after them, and none of the assets the map does not need. ``data:`` URLs
+        stay; so do tile URLs inside scripts.
 
     Raises
     ------
@@ -296,6 +311,8 @@ def render_offline(fmap: folium.Map) -> str:
 
     _use_vendored_assets(fmap)
     root = fmap.get_root()
+    # after Leaflet, which it extends; keyed, so a map rendered twice holds it once
+    root.header.add_child(_inline_element(_own_script_block()), name="siting_own_map_js")
     page = root.render()
     # folium adds a declared asset to the header as a branca Link while rendering; after the
     # configuration above none may be there.

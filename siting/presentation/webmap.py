@@ -1,33 +1,41 @@
-"""The interactive screening map (map.html), built with folium, and the steps both maps share.
+"""The interactive screening map (map.html), built with folium, and the steps every map shares.
 
 This adapter draws results computed elsewhere: the deposition grid reprojected to Web Mercator
-and coloured in log classes (an image overlay that needs no tile server), contour lines, habitat
-sites coloured by verdict with popups of their figures, the sources styled by role with their
-emission derivation, a legend, a title block with the cautions, a scale bar and a north arrow.
-An OpenStreetMap background is offered in the layer control, but everything we draw shows
-without it. The page is one self-contained file: folium is configured to write the vendored
-Leaflet and jQuery inline instead of its CDN links
+and coloured in log classes (an image overlay that needs no tile server), the contour lines
+(each level in its own style, its value written on the line), habitat sites coloured by verdict
+with popups of their figures, the sources drawn as their footprints and styled by role with
+their emission derivation in words, the holding and its exclusion layers (dwellings,
+watercourses) from the scenario, permanent labels (site names, source ids, feature names) that
+make room for each other, a collapsible legend whose symbols are drawn as on the map, a title
+block with the cautions, a scale bar and a north arrow. The page opens on a plain light
+background: everything it needs to be read is drawn from the run's own data, and an
+OpenStreetMap background is offered, off, in the layer control for those online. The page is
+one self-contained file: folium is configured to write the vendored Leaflet and jQuery and our
+page script inline instead of CDN links
 (:func:`siting.presentation.webassets.render_offline`). No physics lives here, and no file is
 written: the pages are returned as text, and the output layer writes them.
 
 The map is split by what it draws: :mod:`~siting.presentation.webmap_grid` (the coloured grid,
 contours, the grid's edge), :mod:`~siting.presentation.webmap_sites` (the habitat sites, one
-GeoJSON layer), :mod:`~siting.presentation.webmap_text` (escaping of user text, popup tables)
-and :mod:`~siting.presentation.webmap_place` (the placement search's map). Every text that comes
-from a user file goes through :func:`escape_text` before it reaches the page. The sources are
-added one by one, with only their geometry in the GeoJSON.
+GeoJSON layer), :mod:`~siting.presentation.webmap_layers` (sources, holding, exclusions),
+:mod:`~siting.presentation.webmap_labels` (permanent labels),
+:mod:`~siting.presentation.webmap_text` (escaping of user text, popup tables, names) and the
+pages of the placement search
+(:mod:`~siting.presentation.webmap_place`) and of a regional run
+(:mod:`~siting.presentation.webmap_region`). Every text that comes from a user file goes through
+:func:`escape_text` before it reaches the page.
 
-:func:`render_screen_map` (map.html of a screening run) and
-:func:`siting.presentation.webmap_place.render_place_map` are short sequences of the same steps:
-:func:`new_map` (page title, style sheet, background), the coloured grid, their own layers, the
-grid's outline, and :func:`finish_page` (title block, legend, north arrow, layer control,
-vendored assets, the page).
+:func:`render_screen_map` and the other pages are short sequences of the same steps:
+:func:`new_map` (page title, style sheet, backgrounds), the coloured grid, their own layers, the
+grid's outline, and :func:`finish_page` (title block, legend, north arrow, layer control, the
+view, vendored assets, the page). The legend is assembled from sections (:func:`legend_html`).
 """
 
 from __future__ import annotations
 
+import json
 from collections.abc import Sequence
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -36,10 +44,10 @@ from siting.presentation.formats import (
     deposition_class_colours,
     deposition_class_edges,
     format_number,
-    is_missing,
 )
 from siting.presentation.webassets import render_offline
 from siting.presentation.webmap_grid import (
+    CONTOUR_STYLES,
     GRID_EDGE_TIP,
     OVERLAY_CLASS,
     OVERLAY_OPACITY,
@@ -47,71 +55,97 @@ from siting.presentation.webmap_grid import (
     add_extent_outline,
     add_surface,
     check_grid,
+    contour_legend_rows,
     extent_legend_row,
     overlay,
     to_wgs84,
 )
-from siting.presentation.webmap_sites import POPUP_OPTIONS, SITE_CLASS, add_sites
-from siting.presentation.webmap_text import (
-    escape_text,
-    number_or_blank,
-    number_text,
-    popup_table,
+from siting.presentation.webmap_labels import LABEL_CLASS
+from siting.presentation.webmap_layers import (
+    ROLE_STYLES,
+    SOURCE_CLASS,
+    add_context,
+    add_sources,
+    context_legend_rows,
+    source_legend_rows,
 )
+from siting.presentation.webmap_sites import SITE_CLASS, add_sites
+from siting.presentation.webmap_text import escape_text
 
 if TYPE_CHECKING:  # imported for annotations only
     import folium
     import geopandas as gpd
 
+    from siting.readers.map_context import MapContext
+    from siting.readers.tables import Tables
+
 __all__ = [
+    "LABEL_CLASS",
+    "LEGEND_CLASS",
     "OVERLAY_CLASS",
     "ROLE_STYLES",
     "SITE_CLASS",
     "SOURCE_CLASS",
+    "data_bounds",
     "escape_text",
     "finish_page",
     "layer",
     "legend_html",
+    "legend_section",
     "new_map",
     "render_screen_map",
+    "surface_legend_rows",
     "title_html",
+    "verdict_legend_rows",
 ]
 
-#: Marker and outline style of each source role (our own palette).
-ROLE_STYLES: dict[str, dict[str, Any]] = {
-    "proposed": {"color": "#5c0a33", "fill_color": "#d81b60", "dash_array": None},
-    "existing": {"color": "#101820", "fill_color": "#455a64", "dash_array": None},
-    "removed": {"color": "#616161", "fill_color": "#ffffff", "dash_array": "4 3"},
-    "other": {"color": "#3e2723", "fill_color": "#a1887f", "dash_array": None},
-}
+#: CSS class of the legend box (a <details> element): a stable hook for the browser tests.
+LEGEND_CLASS = "siting-legend"
 
-#: CSS class on the sources' SVG paths: a stable hook for the browser tests
-#: (tests/test_browser.py) and for anyone restyling the page; keep it when refactoring. The
-#: sites' and the overlay's classes: webmap_sites.SITE_CLASS, webmap_grid.OVERLAY_CLASS.
-SOURCE_CLASS = "siting-source"
+#: Colour of the plain background the page opens on (our own choice: light, warm, not grey).
+_PLAIN_BACKGROUND = "#f6f4ee"
+#: Names of the two backgrounds in the layer control.
+PLAIN_BACKGROUND_LAYER = "Plain background (works offline)"
+ONLINE_BACKGROUND_LAYER = "OpenStreetMap background (needs internet)"
+#: A screen this small starts with the legend, the cautions list and the layer list folded
+#: (the same media query as _assets/siting/map.js).
+_SMALL_SCREEN = "(max-width: 700px), (max-height: 560px)"
 
-_MAP_CSS = """
+_CONTOUR_LABEL_CSS = "".join(
+    f".siting-contour-label-{i} .siting-label-text {{ color: {s['color']}; "
+    f"border-color: {s['color']}; }}\n"
+    for i, s in enumerate(CONTOUR_STYLES)
+)
+
+_MAP_CSS = (
+    """
 <style>
-.siting-box { position: fixed; z-index: 1000; background: rgba(255,255,255,0.94);
+div.leaflet-container { background: %(background)s; }
+.siting-box { position: fixed; z-index: 1000; background: rgba(255,255,255,0.95);
   border: 1px solid #8c96a3; border-radius: 4px; padding: 6px 10px; color: #1d2430;
   font: 12px/1.35 "Segoe UI", "Helvetica Neue", Arial, sans-serif;
   box-shadow: 0 1px 4px rgba(0,0,0,0.25); }
-.siting-title { top: 10px; left: 56px; max-width: 430px; }
+.siting-title { top: 10px; left: 56px; max-width: min(430px, calc(100vw - 124px)); }
 .siting-title h1 { font-size: 15px; margin: 0 0 2px; color: #23436b; }
 .siting-title .meta { color: #5a6472; margin-bottom: 4px; }
 .siting-title details { margin-top: 2px; }
 .siting-title summary { cursor: pointer; font-weight: 600; color: #7a5600; }
 .siting-title ul { margin: 3px 0 0; padding-left: 16px; }
-.siting-legend { bottom: 26px; right: 10px; max-width: 250px; max-height: 70vh;
-  overflow-y: auto; }
-.siting-legend h2 { font-size: 12px; margin: 6px 0 3px; }
-.siting-legend h2:first-child { margin-top: 0; }
+.siting-legend { bottom: 52px; left: 10px; width: 272px; max-width: calc(100vw - 40px);
+  max-height: calc(100vh - 320px); min-height: 0; overflow-y: auto; padding: 0; }
+.siting-legend > summary { cursor: pointer; font-weight: 700; padding: 6px 10px;
+  position: sticky; top: 0; background: #eef2f7; border-radius: 4px; list-style: none; }
+.siting-legend > summary::-webkit-details-marker { display: none; }
+.siting-legend > summary::after { content: " \\25be"; }
+.siting-legend:not([open]) > summary::after { content: " \\25b8"; }
+.siting-legend .body { padding: 2px 10px 8px; }
+.siting-legend h2 { font-size: 12px; margin: 7px 0 3px; }
 .siting-legend .row { display: flex; align-items: center; gap: 6px; margin: 1px 0; }
 .siting-legend .swatch { width: 18px; height: 12px; border: 1px solid #555; flex: none; }
-.siting-legend .dot { width: 12px; height: 12px; border-radius: 50%; border: 2px solid #000;
-  flex: none; }
-.siting-legend .line { width: 22px; height: 0; border-top: 2px dashed #111; flex: none; }
-.siting-legend .note { color: #5a6472; font-size: 11px; }
+.siting-legend .sample { flex: none; }
+.siting-legend .note { color: #5a6472; font-size: 11px; margin: 2px 0; }
+.leaflet-control-layers { font: 12px/1.4 "Segoe UI", "Helvetica Neue", Arial, sans-serif; }
+.leaflet-control-layers label { font-size: 12px; margin: 1px 0; }
 .siting-north { top: 92px; left: 10px; padding: 2px 4px; text-align: center; }
 .siting-popup { font-size: 12px; line-height: 1.35; }
 .siting-popup table { border-collapse: collapse; }
@@ -119,8 +153,45 @@ _MAP_CSS = """
   vertical-align: top; }
 .siting-popup td { padding: 1px 0; }
 .siting-popup .head { font-size: 13px; font-weight: 700; margin-bottom: 4px; }
-</style>
-"""
+.siting-popup .code { color: #6b7480; font-size: 11px; }
+.siting-popup .words { margin: 0 0 5px; font-weight: 600; }
+.siting-popup .words.fails { color: #8a2b12; }
+.siting-popup .words.passes { color: #1d4f7a; }
+.siting-popup ol { margin: 2px 0 0; padding-left: 18px; }
+.siting-label { background: none; border: none; }
+.siting-label-text { position: absolute; display: inline-block; white-space: nowrap;
+  transform: translate(-50%%, -50%%); padding: 0 3px; border-radius: 3px;
+  font: 600 11px/1.3 "Segoe UI", "Helvetica Neue", Arial, sans-serif; color: #1d2430;
+  background: rgba(255,255,255,0.82); border: 1px solid rgba(29,36,48,0.35);
+  pointer-events: none; }
+.leaflet-container .siting-label.siting-label-hidden { display: none; }
+.siting-label-site .siting-label-text { font-size: 12px; font-weight: 700; }
+.siting-verdict-does-not-pass .siting-label-text { color: #7a2814; border-color: #c2543a; }
+.siting-verdict-passes .siting-label-text { color: #1d4f7a; border-color: #2f6fad; }
+.siting-label-source .siting-label-text { transform: translate(8px, -50%%);
+  background: rgba(255,255,255,0.9); }
+.siting-role-proposed .siting-label-text { color: #5c0a33; border-color: #d81b60; }
+.siting-label-contour .siting-label-text { font-weight: 700; font-size: 10.5px;
+  background: rgba(255,255,255,0.9); border-width: 1.5px; }
+.siting-label-exclusion .siting-label-text { transform: translate(8px, -50%%);
+  font-weight: 400; font-style: italic; }
+.siting-label-context .siting-label-text { font-weight: 400; color: #2b2b2b; }
+.siting-label-farm .siting-label-text { transform: translate(7px, -50%%); font-weight: 400;
+  font-size: 10px; }
+.siting-rank-icon { background: none; border: none; }
+.siting-rank { display: inline-block; box-sizing: border-box; min-width: 22px; height: 22px;
+  padding: 0 4px; border-radius: 11px; background: #ffffff; border: 2px solid #111111;
+  color: #111111; text-align: center; font: 700 12px/18px Arial, sans-serif;
+  box-shadow: 0 1px 3px rgba(0,0,0,0.45); white-space: nowrap; }
+.siting-rank-icon .siting-rank { position: absolute; left: 50%%; top: 50%%;
+  transform: translate(-50%%, -50%%); }
+.siting-rank.passes { background: #0f5f5c; border-color: #07302e; color: #ffffff; }
+.siting-rank.first { min-width: 28px; height: 28px; border-radius: 14px; font-size: 14px;
+  line-height: 24px; border-width: 2.5px; }
+%(contours)s</style>
+"""  # noqa: UP031 (the sheet's own braces would all need doubling in .format or an f-string)
+    % {"background": _PLAIN_BACKGROUND, "contours": _CONTOUR_LABEL_CSS}
+)
 
 _NORTH_ARROW = (
     '<div class="siting-box siting-north" title="North is up">'
@@ -132,175 +203,83 @@ _NORTH_ARROW = (
 )
 
 
-def _source_popup(row: Any) -> str:
-    """Popup HTML of one source: its release and emission derivation; user values escaped."""
-    fields = [
-        ("Kind", escape_text(row.get("kind"))),
-        ("Role", escape_text(row.get("role"))),
-        ("Release height", number_text(row.get("height_m"), "m")),
-        ("Livestock", escape_text(row.get("livestock"))),
-        ("Housing", escape_text(row.get("housing"))),
-        ("Places", number_or_blank(row.get("places"))),
-        (
-            "Emission factor",
-            number_or_blank(row.get("factor_nh3_kg_per_place_yr"), "kg NH3/place/yr"),
-        ),
-        ("Abatement", escape_text(row.get("abatement"))),
-        ("Stated reduction", number_or_blank(row.get("reduction_percent"), "%")),
-        ("Effective reduction", number_or_blank(row.get("effective_reduction_percent"), "%")),
-        ("Reduction check", escape_text(row.get("reduction_flag"))),
-        ("Emission", number_text(row.get("nh3_kg_yr"), "kg NH3/yr")),
-        ("Source strength", number_text(row.get("emission_g_s"), "g/s")),
-    ]
-    rows = [(label, value) for label, value in fields if value]
-    if is_missing(row.get("places")) or is_missing(row.get("factor_nh3_kg_per_place_yr")):
-        rows.append(("Derivation", "emission given directly in the scenario"))
-    else:
-        reduction = row.get("effective_reduction_percent")
-        less = (
-            f", less {number_text(reduction, '%')} effective reduction"
-            if not is_missing(reduction)
-            else ""
-        )
-        rows.append(
-            (
-                "Derivation",
-                f"{number_text(row.get('places'))} places × "
-                f"{number_text(row.get('factor_nh3_kg_per_place_yr'), 'kg NH3/place/yr')}{less} "
-                f"→ {number_text(row.get('nh3_kg_yr'), 'kg NH3/yr')}",
-            )
-        )
-    return popup_table("Source " + (escape_text(row.get("source_id")) or "(no id)"), rows)
+# --- the legend ------------------------------------------------------------------------------
 
 
-def legend_html(
-    edges: np.ndarray,
-    colours: list[str],
-    contours: Sequence[tuple[float, str]],
-    roles_present: Sequence[str],
-    heading: str = "Deposition (PC), kg N/ha/yr",
-    unit: str = "kg N/ha/yr",
-    extra_rows: Sequence[str] = (),
-    verdicts: bool = True,
-) -> str:
-    """Legend box: surface classes (in ``unit``), verdicts, source roles, contours, and
-    ``extra_rows`` (ready-made HTML rows, e.g. the grid edge)."""
-    parts = ['<div class="siting-box siting-legend">', f"<h2>{escape_text(heading)}</h2>"]
-    for i in range(len(colours) - 1, -1, -1):  # high classes on top
+def surface_legend_rows(edges: np.ndarray, colours: list[str], unit: str) -> list[str]:
+    """Legend rows of a coloured grid's classes (high classes on top, in ``unit``, escaped),
+    swatches at the overlay's opacity, and a note on the uncoloured values below the first
+    edge."""
+    rows = []
+    for i in range(len(colours) - 1, -1, -1):
         low, high = format_number(edges[i]), format_number(edges[i + 1])
         label = f"{low} – {high}" if i < len(colours) - 1 else f"≥ {low}"
-        parts.append(
+        rows.append(
             f'<div class="row"><span class="swatch" style="background:{colours[i]};'
-            f'opacity:{OVERLAY_OPACITY}"></span>{escape_text(label)} {escape_text(unit)}</div>'
+            f'opacity:{OVERLAY_OPACITY}"></span>{escape_text(f"{label} {unit}".strip())}</div>'
         )
     if edges[0] > 0:
-        parts.append(
+        rows.append(
             f'<div class="note">below {escape_text(format_number(edges[0]))} '
             f"{escape_text(unit)}: not coloured</div>"
         )
-    parts.extend(extra_rows)
-    for verdict, colour in VERDICT_COLOURS.items() if verdicts else ():
-        if verdict == next(iter(VERDICT_COLOURS)):
-            parts.append("<h2>Habitat sites, verdict</h2>")
-        dash = "dashed" if verdict == "not assessed" else "solid"
-        parts.append(
-            f'<div class="row"><span class="swatch" style="background:{colour}33;'
-            f'border:2px {dash} {colour}"></span>{escape_text(verdict)}</div>'
+    return rows
+
+
+def verdict_legend_rows() -> list[str]:
+    """Legend rows of the sites' classes of verdict, outlined and filled as on the map."""
+    rows = []
+    for verdict, colour in VERDICT_COLOURS.items():
+        dash = ' stroke-dasharray="6 4"' if verdict == "not assessed" else ""
+        rows.append(
+            '<div class="row"><svg class="sample" width="34" height="14" aria-hidden="true">'
+            f'<rect x="2" y="2" width="28" height="10" fill="{colour}" fill-opacity="0.2" '
+            f'stroke="{colour}" stroke-width="2.5"{dash}/></svg>{escape_text(verdict)}</div>'
         )
-    if roles_present:
-        parts.append("<h2>Sources, role</h2>")
-        for role in roles_present:
-            style = ROLE_STYLES.get(role, ROLE_STYLES["other"])
-            dash = "dashed" if style["dash_array"] else "solid"
-            parts.append(
-                f'<div class="row"><span class="dot" style="background:{style["fill_color"]};'
-                f'border:2px {dash} {style["color"]}"></span>{escape_text(role)}</div>'
-            )
-    if contours:
-        parts.append("<h2>Contours</h2>")
-        for level, label in contours:
-            parts.append(
-                f'<div class="row"><span class="line"></span>{escape_text(label)} '
-                f"({escape_text(format_number(level))} kg N/ha/yr)</div>"
-            )
-    parts.append("</div>")
-    return "".join(parts)
+    return rows
+
+
+def legend_section(heading: str, rows: Sequence[str]) -> str:
+    """A legend section: its heading (escaped) over ready-made rows; empty without rows."""
+    if not rows:
+        return ""
+    return f"<h2>{escape_text(heading)}</h2>" + "".join(rows)
+
+
+def legend_html(sections: Sequence[str], note: str = "") -> str:
+    """The legend box: a <details> element, open (folded on small screens by the page
+    script), whose summary is the button that folds it; ``sections`` are ready-made HTML
+    (:func:`legend_section`), ``note`` a ready-made closing note."""
+    return (
+        f'<details class="siting-box {LEGEND_CLASS} siting-fold-small" open>'
+        '<summary title="Show or hide the legend">Legend</summary><div class="body">'
+        + "".join(sections)
+        + note
+        + "</div></details>"
+    )
 
 
 def title_html(title: str, run_time: str, version: str, cautions: Sequence[str]) -> str:
-    """Title block: title, run time, version and the cautions (open, collapsible)."""
+    """Title block: title, run time, version and the cautions (open; folded on a small screen,
+    its summary still saying what the map is)."""
     items = "".join(f"<li>{escape_text(c)}</li>" for c in cautions)
     return (
         '<div class="siting-box siting-title">'
         f"<h1>{escape_text(title)}</h1>"
         f'<div class="meta">Ammonia screening map · {escape_text(run_time)} · '
         f"siting {escape_text(version)}</div>"
-        f"<details open><summary>Cautions: screening estimate, not a decision</summary>"
-        f"<ul>{items}</ul></details></div>"
+        '<details open class="siting-fold-small"><summary>Cautions: screening estimate, not a '
+        f"decision</summary><ul>{items}</ul></details></div>"
     )
 
 
-def _add_sources(group: folium.FeatureGroup, sources_wgs84: gpd.GeoDataFrame) -> None:
-    """Sources styled by role: points as circle markers, footprints as outlines."""
-    import folium
-
-    for _, row in sources_wgs84.iterrows():
-        geometry = row.geometry
-        if geometry is None or geometry.is_empty:
-            continue
-        role = str(row.get("role")).strip().lower() if not is_missing(row.get("role")) else "other"
-        style = ROLE_STYLES.get(role, ROLE_STYLES["other"])
-        popup = folium.Popup(_source_popup(row), **POPUP_OPTIONS)
-        tooltip = folium.Tooltip(
-            "Source " + (escape_text(row.get("source_id")) or "(no id)") + f" ({escape_text(role)})"
-        )
-        if geometry.geom_type == "Point":
-            marker = folium.CircleMarker(
-                location=[geometry.y, geometry.x],
-                radius=7,
-                color=style["color"],
-                weight=2,
-                fill=True,
-                fill_color=style["fill_color"],
-                fill_opacity=0.95,
-                dash_array=style["dash_array"],
-            )
-            # set directly: folium 0.15's path_options drops a class_name argument
-            marker.options["className"] = SOURCE_CLASS
-        else:
-            leaflet_style = {
-                "color": style["color"],
-                "weight": 2,
-                "fillColor": style["fill_color"],
-                "fillOpacity": 0.6,
-                "dashArray": style["dash_array"],
-                "className": SOURCE_CLASS,
-            }
-            marker = folium.GeoJson(
-                data={"type": "Feature", "properties": {}, "geometry": geometry.__geo_interface__},
-                style_function=lambda _feature, s=leaflet_style: s,
-                zoom_on_click=False,
-                control=False,
-            )
-        popup.add_to(marker)
-        tooltip.add_to(marker)
-        marker.add_to(group)
-
-
-def _roles_present(sources_wgs84: gpd.GeoDataFrame) -> list[str]:
-    """The sources' roles for the legend: ours in :data:`ROLE_STYLES` order, then others sorted."""
-    if "role" not in sources_wgs84:
-        return []
-    seen = {str(r).strip().lower() for r in sources_wgs84["role"] if not is_missing(r)}
-    return [r for r in ROLE_STYLES if r in seen] + sorted(seen - set(ROLE_STYLES))
-
-
-# --- steps shared by both maps -------------------------------------------------------------
+# --- steps shared by every map ---------------------------------------------------------------
 
 
 def new_map(title: str, bounds: list[list[float]], zoom_start: int) -> folium.Map:
     """A map centred on ``bounds`` ([[lat_s, lon_w], [lat_n, lon_e]]) with the page title
-    (escaped), our style sheet and the optional OpenStreetMap background."""
+    (escaped), our style sheet and two backgrounds: the plain light one, shown, and the
+    OpenStreetMap tiles, off until chosen in the layer control (they need a network)."""
     import folium
 
     (lat_s, lon_w), (lat_n, lon_e) = bounds
@@ -309,45 +288,94 @@ def new_map(title: str, bounds: list[list[float]], zoom_start: int) -> folium.Ma
         zoom_start=zoom_start,
         tiles=None,
         control_scale=True,
+        zoomSnap=0.25,  # the opening view fits the data snugly in the room the boxes leave
     )
     root = fmap.get_root()
     root.header.add_child(folium.Element(f"<title>{escape_text(title)} · siting map</title>"))
     root.header.add_child(folium.Element(_MAP_CSS))
+    folium.FeatureGroup(
+        name=escape_text(PLAIN_BACKGROUND_LAYER), overlay=False, control=True, show=True
+    ).add_to(fmap)
     folium.TileLayer(
         "OpenStreetMap",
-        name=escape_text("OpenStreetMap background (needs internet)"),
+        name=escape_text(ONLINE_BACKGROUND_LAYER),
         overlay=False,
         control=True,
-        show=True,
+        show=False,
     ).add_to(fmap)
     return fmap
 
 
-def layer(fmap: folium.Map, name: str) -> folium.FeatureGroup:
-    """A new overlay group named ``name`` (escaped), already on the map, to draw into."""
+def layer(fmap: folium.Map, name: str, show: bool = True) -> folium.FeatureGroup:
+    """A new overlay group named ``name`` (escaped), already on the map, to draw into; shown
+    when the page opens unless ``show`` is False."""
     import folium
 
-    group = folium.FeatureGroup(name=escape_text(name), overlay=True)
+    group = folium.FeatureGroup(name=escape_text(name), overlay=True, show=show)
     group.add_to(fmap)
     return group
 
 
+def data_bounds(
+    frames: Sequence[gpd.GeoDataFrame | None],
+    limit: list[list[float]] | None,
+    margin: float = 0.12,
+) -> list[list[float]]:
+    """The view to open on: the lat/lon box of the features of ``frames`` (EPSG:4326), grown by
+    ``margin`` of its size on each side and kept within ``limit`` (the grid's bounds, or None);
+    ``limit`` itself when there are no features."""
+    boxes = [f.total_bounds for f in frames if f is not None and len(f) and not f.is_empty.all()]
+    if not boxes:
+        return limit
+    (lat_s, lon_w), (lat_n, lon_e) = limit or [[-90.0, -180.0], [90.0, 180.0]]
+    west, south = min(b[0] for b in boxes), min(b[1] for b in boxes)
+    east, north = max(b[2] for b in boxes), max(b[3] for b in boxes)
+    grow_x = max(east - west, 1e-4) * margin
+    grow_y = max(north - south, 1e-4) * margin
+    return [
+        [max(lat_s, south - grow_y), max(lon_w, west - grow_x)],
+        [min(lat_n, north + grow_y), min(lon_e, east + grow_x)],
+    ]
+
+
 def finish_page(fmap: folium.Map, bounds: list[list[float]], boxes: list[str]) -> str:
     """Finish the map and return its page: the ready-made ``boxes`` (title block, legend), the
-    north arrow, the layer control and the view fitted to ``bounds``; folium writes the
-    vendored assets inline (:func:`siting.presentation.webassets.render_offline`), so an asset
-    siting does not vendor raises AssetError before any page exists."""
+    north arrow, the layer control (folded on a small screen) and the view fitted to
+    ``bounds`` in the room the title block and the legend leave; folium writes the vendored
+    assets and our page script inline (:func:`siting.presentation.webassets.render_offline`),
+    so an asset siting does not vendor raises AssetError before any page exists."""
     import folium
+    from folium.utilities import JsCode
 
     root = fmap.get_root()
     for box in [*boxes, _NORTH_ARROW]:
         root.html.add_child(folium.Element(box))
-    folium.LayerControl(collapsed=False).add_to(fmap)
-    fmap.fit_bounds(bounds)
+    folium.LayerControl(collapsed=JsCode(f"window.matchMedia({_SMALL_SCREEN!r}).matches")).add_to(
+        fmap
+    )
+    fmap.add_child(_fit_element(bounds))
     return render_offline(fmap)
 
 
-# --- the screening map ---------------------------------------------------------------------
+def _fit_element(bounds: list[list[float]]):
+    """The opening view: ``sitingMap.fit`` (_assets/siting/map.js) fits ``bounds`` into the
+    room the title block and the legend leave free on the screen the page is opened on."""
+    from branca.element import MacroElement
+    from jinja2 import Template
+
+    element = MacroElement()
+    element._name = "SitingFit"
+    element._template = Template(
+        "{% macro script(this, kwargs) %}\n"
+        "sitingMap.fit({{ this._parent.get_name() }}, {{ this.bounds }});\n"
+        "{% endmacro %}"
+    )
+    (lat_s, lon_w), (lat_n, lon_e) = bounds
+    element.bounds = json.dumps([[float(lat_s), float(lon_w)], [float(lat_n), float(lon_e)]])
+    return element
+
+
+# --- the screening map -----------------------------------------------------------------------
 
 
 def render_screen_map(
@@ -365,11 +393,13 @@ def render_screen_map(
     version: str,
     run_time: str,
     option_deposition: dict[str, np.ndarray] | None = None,
+    tables: Tables | None = None,
+    context: MapContext | None = None,
 ) -> str:
-    """map.html of a screening run: the deposition surface, contours, sites and sources.
+    """map.html of a screening run: the deposition surface, contours, sites, sources, farm.
 
     With options, each option's deposition is a layer of its own (off when the page opens),
-    coloured in the same classes as the base's.
+    coloured in the same classes as the base's. The page opens on the sites and sources.
 
     Parameters
     ----------
@@ -386,19 +416,20 @@ def render_screen_map(
         the classes of :func:`siting.presentation.formats.deposition_class_edges`, reprojected
         nearest-neighbour so each coloured pixel keeps a value of the grid.
     sites : GeoDataFrame
-        Habitat sites (polygons) with columns site_id, name, designation, habitat, verdict
-        ("below threshold" | "above threshold" | "not assessed"), pc_pct_level [%],
-        pc_pct_load [%], pc_conc_max_ug_m3 [ug m-3], pc_dep_max_kg_n_ha_yr [kg N ha-1 yr-1],
+        Habitat sites (polygons) with columns site_id, name, designation, habitat (and
+        habitat_name), verdict, passes, deciding_rule, pc_pct_level [%], pc_pct_load [%],
+        pc_conc_max_ug_m3 [ug m-3], pc_dep_max_kg_n_ha_yr [kg N ha-1 yr-1],
         critical_level_ug_m3 [ug m-3], critical_load_used_kg_n_ha_yr [kg N ha-1 yr-1],
         threshold_percent [%], incomb_pct_load [%]; missing columns show as "n/a".
     sources : GeoDataFrame
-        Sources (points or polygons) with columns source_id, kind, role
-        (proposed | existing | removed | other), height_m [m], livestock, housing, places,
-        factor_nh3_kg_per_place_yr [kg NH3 place-1 yr-1], abatement, reduction_percent [%],
-        effective_reduction_percent [%], reduction_flag, nh3_kg_yr [kg NH3 yr-1],
-        emission_g_s [g s-1]; blank or NaN values are left out of the popup.
+        Sources (points or footprint polygons) with columns source_id, kind (point | volume |
+        area), role (proposed | existing | removed | other), height_m [m], livestock,
+        housing, places, factor_nh3_kg_per_place_yr [kg NH3 place-1 yr-1], abatement,
+        reduction_percent [%], effective_reduction_percent [%], reduction_flag, nh3_kg_yr
+        [kg NH3 yr-1], emission_g_s [g s-1]; blank or NaN values are left out of the popup.
     contours : list of (float, str)
-        Contour levels [kg N ha-1 yr-1] with their labels (tooltip text, escaped).
+        Contour levels [kg N ha-1 yr-1], lowest first, with their labels (escaped); each
+        level is drawn in a style of its own with "<label>: <level> kg N/ha/yr" on the line.
     cautions : list of str
         Cautions shown in the title block.
     version : str
@@ -407,6 +438,12 @@ def render_screen_map(
         Time of the run as it should be shown.
     option_deposition : dict of str to ndarray, optional
         Option name -> its PC deposition [kg N ha-1 yr-1] on the same grid.
+    tables : Tables, optional
+        The run's lookup tables: the sources' popups name the housing system and technique
+        as the tables do (else the ids alone).
+    context : MapContext, optional
+        The scenario's holding boundary and exclusion layers
+        (:func:`siting.readers.map_context.read_map_context`), drawn and labelled.
 
     Returns
     -------
@@ -426,23 +463,38 @@ def render_screen_map(
     colours = deposition_class_colours(edges.size - 1)
     data_url, bounds = overlay(grid, projected, west_m, north_m, cell_m, edges, colours)
     sources_wgs84 = to_wgs84(sources, projected)
+    sites_wgs84 = to_wgs84(sites, projected)
     fmap = new_map(title, bounds, zoom_start=13)
     add_surface(fmap, data_url, bounds, "Deposition, PC (kg N/ha/yr)")  # the base's
     for name, values in option_deposition.items():
         image, _ = overlay(values, projected, west_m, north_m, cell_m, edges, colours)
         add_surface(fmap, image, bounds, f"Option {name}: deposition, PC", show=False)
+    view = data_bounds(
+        [sites_wgs84, sources_wgs84, None if context is None or context.holding is None
+         else to_wgs84(context.holding.frame, projected)],
+        bounds,
+    )  # fmt: skip
+    add_context(fmap, context, projected)
     if contours:  # no "Contours" layer without levels
         add_contours(layer(fmap, "Contours"), grid, projected, west_m, north_m, cell_m, contours)
     add_extent_outline(fmap, projected, west_m, north_m, cell_m, grid.shape, GRID_EDGE_TIP)
-    add_sites(layer(fmap, "Habitat sites"), to_wgs84(sites, projected))
-    _add_sources(layer(fmap, "Sources"), sources_wgs84)
-    roles = _roles_present(sources_wgs84)
-    extra = [extent_legend_row()]
-    if option_deposition:
-        extra.append(
-            '<div class="note">options: tick one in the layer list (and untick the base) to '
-            "see its deposition in the same classes; contours are the base's</div>"
-        )
-    legend = legend_html(edges, colours, contours, roles, extra_rows=extra)
+    add_sites(layer(fmap, "Habitat sites"), sites_wgs84)
+    add_sources(layer(fmap, "Sources"), sources_wgs84, tables)
+    sections = [
+        legend_section(
+            "Deposition (PC), kg N/ha/yr",
+            [*surface_legend_rows(edges, colours, "kg N/ha/yr"), extent_legend_row()],
+        ),
+        legend_section("Contours: share of a site's critical load", contour_legend_rows(contours)),
+        legend_section("Habitat sites, verdict", verdict_legend_rows()),
+        legend_section("Sources, role", source_legend_rows(sources_wgs84)),
+        legend_section("The farm", context_legend_rows(context)),
+    ]
+    note = (
+        '<div class="note">Options: tick one in the layer list (and untick the base) to see its '
+        "deposition in the same classes; contours are the base's.</div>"
+        if option_deposition
+        else ""
+    )
     title_box = title_html(title, run_time, version, cautions)
-    return finish_page(fmap, bounds, [title_box, legend])
+    return finish_page(fmap, view, [title_box, legend_html(sections, note)])

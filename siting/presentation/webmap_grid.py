@@ -1,10 +1,13 @@
 """The computed grid on the web maps: the coloured image, its contour lines and its edge.
 
-The grid (deposition on the screening map, the worst share of a threshold on the placement
-map) is reprojected to Web Mercator and coloured in classes into a PNG data URL, shown as an
-image overlay that needs no tile server. Contour lines and a dotted outline of the grid's edge
-(so the edge is not read as the edge of the plume) are drawn as polylines. Used by
-:mod:`siting.presentation.webmap` and :mod:`siting.presentation.webmap_place`; no physics.
+The grid (deposition on the screening and regional maps, the worst share of a threshold on the
+placement map) is reprojected to Web Mercator and coloured in classes into a PNG data URL,
+shown as an image overlay that needs no tile server. Contour lines, each level in a style of
+its own (:data:`CONTOUR_STYLES`: colour, weight and dash pattern, over a white casing) with its
+value written on the line, and a dotted outline of the grid's edge (so the edge is not read as
+the edge of the plume) are drawn as polylines. Used by :mod:`siting.presentation.webmap`,
+:mod:`siting.presentation.webmap_place` and :mod:`siting.presentation.webmap_region`; no
+physics.
 """
 
 from __future__ import annotations
@@ -19,6 +22,7 @@ import numpy as np
 
 from siting.errors import InputError
 from siting.presentation.formats import format_number
+from siting.presentation.webmap_labels import add_labels
 from siting.presentation.webmap_text import escape_text
 
 if TYPE_CHECKING:  # imported for annotations only
@@ -26,6 +30,8 @@ if TYPE_CHECKING:  # imported for annotations only
     import geopandas as gpd
 
 __all__ = [
+    "CONTOUR_CLASS",
+    "CONTOUR_STYLES",
     "GRID_EDGE_CLASS",
     "GRID_EDGE_LAYER",
     "GRID_EDGE_TIP",
@@ -36,6 +42,9 @@ __all__ = [
     "add_extent_outline",
     "add_surface",
     "check_grid",
+    "contour_legend_rows",
+    "contour_style",
+    "contour_text",
     "extent_legend_row",
     "overlay",
     "to_wgs84",
@@ -48,7 +57,27 @@ OVERLAY_OPACITY = 0.7
 #: and for anyone restyling the page; keep it when refactoring.
 OVERLAY_CLASS = "siting-deposition"
 
-_CONTOUR_COLOUR = "#111111"
+#: CSS class on every contour line's SVG path (each also gets ``<CONTOUR_CLASS>-<i>``, i its
+#: style): a stable hook for the browser tests (tests/test_browser.py); keep it.
+CONTOUR_CLASS = "siting-contour"
+
+#: Styles of the contour levels, lowest level first: colour, weight [px] and SVG dash pattern
+#: (None: solid) differ from one to the next, so each line reads apart in colour and in grey.
+#: Each line lies over a white casing 3 px wider. Our own choice; more levels than styles
+#: reuse them in order.
+CONTOUR_STYLES: tuple[dict[str, Any], ...] = (
+    {"color": "#111111", "weight": 3.0, "dash_array": None},
+    {"color": "#b0006d", "weight": 3.0, "dash_array": "10 6"},
+    {"color": "#0b5d7a", "weight": 3.5, "dash_array": "1 6"},
+    {"color": "#d35400", "weight": 2.5, "dash_array": "14 5 3 5"},
+    {"color": "#4a148c", "weight": 2.0, "dash_array": "5 3"},
+    {"color": "#6d4c1f", "weight": 4.0, "dash_array": "3 8"},
+)
+#: Bearings [deg clockwise from north] between which the contours' value labels are spread,
+#: one level a bearing: east to south-south-east, clear of the title block (top left), the
+#: layer list (top right) and the legend (bottom left). Our own choice.
+_LABEL_BEARINGS_DEG = (100.0, 165.0)
+
 _EXTENT_COLOUR = "#555555"
 #: Layer-control name and CSS class of the grid's outline.
 GRID_EDGE_LAYER = "Grid edge"
@@ -116,9 +145,11 @@ def _to_mercator(
     return mercator, dst_transform
 
 
-def _class_png(values: np.ndarray, edges: np.ndarray, colours: list[str]) -> str:
+def _class_png(
+    values: np.ndarray, edges: np.ndarray, colours: list[str], infinite_colour: str | None = None
+) -> str:
     """PNG data URL of ``values`` coloured by class; NaN and values below the first edge are
-    transparent."""
+    transparent, and so is +inf unless ``infinite_colour`` is given."""
     from matplotlib.colors import to_rgba
     from matplotlib.image import imsave
 
@@ -131,6 +162,8 @@ def _class_png(values: np.ndarray, edges: np.ndarray, colours: list[str]) -> str
     palette = (np.array([to_rgba(c) for c in colours]) * 255).round().astype(np.uint8)
     rgba[shown] = palette[classes[shown]]
     rgba[~shown, 3] = 0
+    if infinite_colour is not None:
+        rgba[np.isposinf(values)] = (np.array(to_rgba(infinite_colour)) * 255).round()
     buffer = io.BytesIO()
     imsave(buffer, rgba, format="png")
     return "data:image/png;base64," + base64.b64encode(buffer.getvalue()).decode("ascii")
@@ -144,16 +177,18 @@ def overlay(
     cell_m: float,
     edges: np.ndarray,
     colours: list[str],
+    infinite_colour: str | None = None,
 ) -> tuple[str, list[list[float]]]:
     """Reproject the grid to EPSG:3857, colour it by class; PNG data URL and lat/lon bounds.
 
     The nearest-neighbour resampling keeps a value of the grid in each coloured pixel. Bounds
-    are ``[[lat_s, lon_w], [lat_n, lon_e]]`` of the reprojected image.
+    are ``[[lat_s, lon_w], [lat_n, lon_e]]`` of the reprojected image. Cells of +inf take
+    ``infinite_colour`` when given (else they are transparent, like NaN).
     """
     from pyproj import Transformer
 
     mercator, transform = _to_mercator(grid, projected, west_m, north_m, cell_m)
-    data_url = _class_png(mercator, edges, colours)
+    data_url = _class_png(mercator, edges, colours, infinite_colour)
     dst_rows, dst_cols = mercator.shape
     left, top = transform.c, transform.f
     right = left + dst_cols * transform.a
@@ -217,6 +252,36 @@ def add_surface(
     ).add_to(fmap)
 
 
+def contour_style(index: int) -> dict[str, Any]:
+    """The style of the ``index``-th contour level (lowest first) from :data:`CONTOUR_STYLES`."""
+    return CONTOUR_STYLES[index % len(CONTOUR_STYLES)]
+
+
+#: Most places offered for one contour's value label (the page script takes the first that is
+#: on screen and clear of the boxes). Our own choice: enough to follow a ring, few bytes.
+_LABEL_CANDIDATES = 160
+
+
+def _label_candidates(lines: list[np.ndarray], index: int, n_levels: int) -> np.ndarray:
+    """Places for the value label of a level, best first: vertices of its lines ordered by how
+    far out they lie along the level's own bearing (levels spread over
+    :data:`_LABEL_BEARINGS_DEG`, so nested rings carry their labels apart); at most
+    :data:`_LABEL_CANDIDATES`, spread along the lines. Shape (n, 2), projected x, y [m]."""
+    if not lines:
+        return np.zeros((0, 2))
+    every = np.concatenate(lines)
+    vertices = every[:: max(1, int(np.ceil(len(every) / _LABEL_CANDIDATES)))]
+    low, high = _LABEL_BEARINGS_DEG
+    bearing = np.radians(low + (high - low) * (index / (n_levels - 1) if n_levels > 1 else 0.5))
+    along = (vertices - every.mean(axis=0)) @ np.array([np.sin(bearing), np.cos(bearing)])
+    return vertices[np.argsort(-along, kind="stable")]
+
+
+def contour_text(level: float, label: str) -> str:
+    """The value label of a contour line, escaped: "<label>: <level> kg N/ha/yr"."""
+    return f"{escape_text(label)}: {escape_text(format_number(level))} kg N/ha/yr"
+
+
 def add_contours(
     group: folium.FeatureGroup,
     grid: np.ndarray,
@@ -226,32 +291,72 @@ def add_contours(
     cell_m: float,
     contours: Sequence[tuple[float, str]],
 ) -> None:
-    """Dashed lines of the grid at each level [kg N ha-1 yr-1] into ``group``, each with its
-    label as tooltip (escaped)."""
+    """The grid's lines at each level [kg N ha-1 yr-1] into ``group``: level ``i`` (in the
+    order given, lowest first) in :func:`contour_style` ``i`` over a white casing, its label
+    (escaped) as tooltip and, on the line, its value as a permanent label that the page
+    script moves along the line to where it is on screen (:func:`_label_candidates`)."""
     import folium
     from pyproj import Transformer
 
     to_lonlat = Transformer.from_crs(projected, "EPSG:4326", always_xy=True)
-    for level, label in contours:
-        for line in _contour_lines(grid, west_m, north_m, cell_m, float(level)):
+    labels = []
+    for index, (level, label) in enumerate(contours):
+        style = contour_style(index)
+        lines = _contour_lines(grid, west_m, north_m, cell_m, float(level))
+        text = contour_text(level, label)
+        for line in lines:
             lon, lat = to_lonlat.transform(line[:, 0], line[:, 1])
+            locations = np.column_stack([lat, lon]).tolist()
             folium.PolyLine(
-                locations=np.column_stack([lat, lon]).tolist(),
-                color=_CONTOUR_COLOUR,
-                weight=2,
-                opacity=0.9,
-                dash_array="6 4",
-                tooltip=folium.Tooltip(
-                    f"{escape_text(label)} ({escape_text(format_number(level))} kg N/ha/yr)"
-                ),
+                locations=locations,
+                color="#ffffff",
+                weight=style["weight"] + 3.0,
+                opacity=0.85,
+                interactive=False,
+                class_name=f"{CONTOUR_CLASS}-casing",
             ).add_to(group)
+            folium.PolyLine(
+                locations=locations,
+                color=style["color"],
+                weight=style["weight"],
+                opacity=1.0,
+                dash_array=style["dash_array"],
+                class_name=f"{CONTOUR_CLASS} {CONTOUR_CLASS}-{index % len(CONTOUR_STYLES)}",
+                tooltip=folium.Tooltip(text),
+            ).add_to(group)
+        places = _label_candidates(lines, index, len(contours))
+        if len(places):
+            lon, lat = to_lonlat.transform(places[:, 0], places[:, 1])
+            others = np.round(np.column_stack([lat, lon]), 6).tolist()
+            css = f"{CONTOUR_CLASS}-label-{index % len(CONTOUR_STYLES)}"
+            labels.append([lat[0], lon[0], text, css, others])
+    add_labels(group, "contour", labels)
+
+
+def contour_legend_rows(contours: Sequence[tuple[float, str]]) -> list[str]:
+    """Legend rows of the contour levels, each a short line drawn in its own style (an inline
+    SVG with the line's colour, weight and dash pattern) with its label (escaped)."""
+    rows = []
+    for index, (level, label) in enumerate(contours):
+        style = contour_style(index)
+        dash = f' stroke-dasharray="{style["dash_array"]}"' if style["dash_array"] else ""
+        rows.append(
+            '<div class="row"><svg class="sample" width="34" height="12" aria-hidden="true">'
+            f'<line x1="2" y1="6" x2="32" y2="6" stroke="#ffffff" '
+            f'stroke-width="{style["weight"] + 3.0:g}" stroke-linecap="round"/>'
+            f'<line x1="2" y1="6" x2="32" y2="6" stroke="{style["color"]}" '
+            f'stroke-width="{style["weight"]:g}" stroke-linecap="round"{dash}/></svg>'
+            f"{contour_text(level, label)}</div>"
+        )
+    return rows
 
 
 def extent_legend_row(label: str = "edge of the computed grid") -> str:
-    """Legend row of the grid's dotted outline (label escaped)."""
+    """Legend row of the grid's dotted outline (label escaped), drawn as on the map."""
     return (
-        f'<div class="row"><span class="line" style="border-top:2px dotted {_EXTENT_COLOUR}">'
-        f"</span>{escape_text(label)}</div>"
+        '<div class="row"><svg class="sample" width="34" height="12" aria-hidden="true">'
+        f'<line x1="2" y1="6" x2="32" y2="6" stroke="{_EXTENT_COLOUR}" stroke-width="2" '
+        f'stroke-dasharray="2 5" stroke-linecap="round"/></svg>{escape_text(label)}</div>'
     )
 
 

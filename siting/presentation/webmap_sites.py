@@ -4,7 +4,9 @@ The sites, which may number thousands, are one GeoJSON layer on both maps (:func
 each feature carries its verdict and its popup and tooltip texts, every user value among them
 already escaped by :func:`~siting.presentation.webmap_text.escape_text`, so no raw user
 property is ever embedded in the page; a short script of ours binds them to each feature when
-the page loads. Used by :mod:`siting.presentation.webmap` and
+the page loads. Each site's name is also a permanent label
+(:mod:`~siting.presentation.webmap_labels`), the most affected sites first, so their labels win
+where two would touch. Used by :mod:`siting.presentation.webmap` and
 :mod:`siting.presentation.webmap_place`; no physics.
 """
 
@@ -12,11 +14,13 @@ from __future__ import annotations
 
 import json
 import re
+from collections.abc import Sequence
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from siting.presentation.formats import VERDICT_COLOURS, verdict_classes
+from siting.presentation.formats import VERDICT_COLOURS, most_affected_order, verdict_classes
+from siting.presentation.webmap_labels import add_labels, label_point
 from siting.presentation.webmap_text import PopupRows, column_values, escape_text, number_texts
 
 if TYPE_CHECKING:  # imported for annotations only
@@ -29,9 +33,10 @@ __all__ = ["POPUP_OPTIONS", "SITE_CLASS", "SITE_POPUP_ROWS", "add_sites", "site_
 #: (tests/test_browser.py) and for anyone restyling the page; keep it when refactoring.
 SITE_CLASS = "siting-site"
 
-#: Popup options: an opened popup is panned clear of the title block (top left, ~215 px tall
-#: with the cautions open), which sits above the map panes.
-POPUP_OPTIONS: dict[str, Any] = {"max_width": 380, "auto_pan_padding_top_left": [10, 240]}
+#: Options of every popup on the maps. Where an opened popup pans to, clear of the title block
+#: (top left, above the map panes), and how tall it may grow are set by the page script
+#: (_assets/siting/map.js), which measures the block.
+POPUP_OPTIONS: dict[str, Any] = {"max_width": 380}
 
 #: Rows of a site's popup: (label, column, unit); unit None for text. A row whose value is empty
 #: text is left out; numbers show "n/a" when missing. The in-combination row (last) is shown
@@ -107,14 +112,12 @@ def site_popup_values(frame: Any, rows: PopupRows = SITE_POPUP_ROWS) -> list[lis
     return [list(row) for row in zip(*columns)]
 
 
-def _site_script(rows: PopupRows = SITE_POPUP_ROWS) -> str:
-    """The feature script: our own labels of ``rows`` (escaped) and the popup options as
-    JavaScript literals."""
+def _site_script(rows: PopupRows = SITE_POPUP_ROWS, extra_labels: Sequence[str] = ()) -> str:
+    """The feature script: our own labels of ``rows`` and ``extra_labels`` (escaped) and the
+    popup options as JavaScript literals."""
     labels = [escape_text(label) for label, _column, _unit in rows]
-    options = {
-        "maxWidth": POPUP_OPTIONS["max_width"],
-        "autoPanPaddingTopLeft": POPUP_OPTIONS["auto_pan_padding_top_left"],
-    }
+    labels += [escape_text(label) for label in extra_labels]
+    options = {"maxWidth": POPUP_OPTIONS["max_width"]}
     return _SITE_SCRIPT % {"labels": json.dumps(labels), "options": json.dumps(options)}
 
 
@@ -132,14 +135,16 @@ def _site_style(verdict: str) -> dict[str, Any]:
 
 
 def _site_features(
-    sites_wgs84: gpd.GeoDataFrame, rows: PopupRows = SITE_POPUP_ROWS
+    sites_wgs84: gpd.GeoDataFrame,
+    rows: PopupRows = SITE_POPUP_ROWS,
+    extra: Sequence[tuple[str, Sequence[str]]] = (),
 ) -> list[dict[str, Any]]:
     """One GeoJSON feature per drawable site: rounded outline, verdict, escaped texts.
 
     Properties: ``verdict`` (lower case; the style key), ``name`` (escaped, 'Unnamed site'
     when blank) and ``popup`` (the escaped values of ``rows``, by default
-    :data:`SITE_POPUP_ROWS`). Sites without a geometry are left out; ``id`` is the site's row
-    position.
+    :data:`SITE_POPUP_ROWS`, then each site's ready-made HTML of ``extra``). Sites without a
+    geometry are left out; ``id`` is the site's row position.
     """
     import shapely
     from shapely.geometry import mapping
@@ -151,6 +156,9 @@ def _site_features(
     verdicts = _site_verdicts(sites_wgs84)
     names = [escape_text(n) or "Unnamed site" for n in column_values(sites_wgs84, "name")]
     popups = site_popup_values(sites_wgs84, rows)
+    for _label, values in extra:
+        for popup, value in zip(popups, values):
+            popup.append(str(value))
     return [
         {
             "type": "Feature",
@@ -169,8 +177,12 @@ def add_sites(
     rows: PopupRows = SITE_POPUP_ROWS,
     style: dict[str, Any] | None = None,
     highlight: bool = True,
+    labels: bool = True,
+    extra: Sequence[tuple[str, Sequence[str]]] = (),
 ) -> None:
-    """All sites as one GeoJson layer, with a popup and tooltip per feature.
+    """All sites as one GeoJson layer, with a popup and tooltip per feature, and with
+    ``labels`` each site's name as a permanent label (most affected first). ``extra`` adds
+    popup rows: (label, one ready-made, escaped HTML value per site, '' to leave it out).
 
     One layer instead of one per site keeps map.html small and quick to write for thousands
     of sites. Each feature is styled by its ``verdict`` property (:func:`_site_style`), or
@@ -181,7 +193,7 @@ def add_sites(
     import folium
     from folium.utilities import JsCode
 
-    features = _site_features(sites_wgs84, rows)
+    features = _site_features(sites_wgs84, rows, extra)
     if not features:
         return
     folium.GeoJson(
@@ -194,7 +206,24 @@ def add_sites(
         highlight_function=(
             (lambda _feature: {"weight": 4, "fillOpacity": 0.35}) if highlight else None
         ),
-        on_each_feature=JsCode(_site_script(rows)),
+        on_each_feature=JsCode(_site_script(rows, [label for label, _values in extra])),
         zoom_on_click=False,
         control=False,
     ).add_to(group)
+    if labels:
+        add_labels(group, "site", _site_labels(sites_wgs84))
+
+
+def _site_labels(sites_wgs84: gpd.GeoDataFrame) -> list[list]:
+    """[lat, lon, escaped name, css class] of each drawable site, most affected first
+    (:func:`~siting.presentation.formats.most_affected_order`), its class of verdict as class."""
+    names = column_values(sites_wgs84, "name")
+    verdicts = _site_verdicts(sites_wgs84)
+    geometries = list(sites_wgs84.geometry)
+    labels = []
+    for i in most_affected_order(sites_wgs84):
+        point = label_point(geometries[i])
+        if point is not None:
+            css = "siting-verdict-" + verdicts[i].replace(" ", "-")
+            labels.append([*point, escape_text(names[i]) or "Unnamed site", css])
+    return labels

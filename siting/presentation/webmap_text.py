@@ -19,9 +19,12 @@ import numpy as np
 from siting.presentation.formats import format_number, is_missing
 
 __all__ = [
+    "KIND_WORDS",
     "PopupRows",
     "column_values",
     "escape_text",
+    "housing_name",
+    "technique_name",
     "number_or_blank",
     "number_text",
     "number_texts",
@@ -39,6 +42,13 @@ _JS_TEMPLATE_REPLACEMENTS = (
 
 #: Control characters, including the JavaScript line terminators U+2028 and U+2029.
 _CONTROL_CHARACTERS = re.compile("[\x00-\x1f\x7f\u2028\u2029]")
+
+#: What each kind of source is, in words, for popups and legends (our own wording).
+KIND_WORDS = {
+    "point": "outlet or stack (point source)",
+    "volume": "house (volume source)",
+    "area": "store or yard (area source)",
+}
 
 #: (label, column, unit) rows of a popup table; unit None for text. A column may be a tuple of
 #: names: the first the frame has is shown.
@@ -115,3 +125,50 @@ def column_values(frame: Any, column: str | tuple[str, ...]) -> list:
         if name in frame:
             return frame[name].tolist()
     return [None] * len(frame)
+
+
+def housing_name(tables: Any, livestock: Any, housing: Any) -> str:
+    """The emission-factor table's words for a livestock category and housing system.
+
+    The ``description`` of the row of config/emission_factors.toml (e.g. "Finishing pig >
+    30 kg, fully slatted floor over a slurry pit"), or ``""`` without tables, ids or a
+    matching row. Not escaped.
+
+    Parameters
+    ----------
+    tables : Tables or None
+        The run's lookup tables.
+    livestock, housing : str or None
+        The ids, as the scenario names them.
+
+    Returns
+    -------
+    name : str
+    """
+    if tables is None or is_missing(livestock) or is_missing(housing):
+        return ""
+    for row in tables.emission_factors:
+        if row.get("livestock") == livestock and row.get("housing") == housing:
+            return str(row.get("description") or "")
+    return ""
+
+
+def technique_name(tables: Any, technique: Any) -> str:
+    """The abatement table's name of a technique (config/abatement.toml ``name``, e.g. "Acid
+    (chemical) air scrubber"), or ``""`` without tables, id or row. Not escaped.
+
+    Parameters
+    ----------
+    tables : Tables or None
+        The run's lookup tables.
+    technique : str or None
+        The technique id, as the scenario names it.
+
+    Returns
+    -------
+    name : str
+    """
+    if tables is None or is_missing(technique):
+        return ""
+    row = tables.abatement.get(str(technique)) or {}
+    return str(row.get("name") or "")

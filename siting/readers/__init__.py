@@ -33,6 +33,11 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "speed_class_index": "siting.readers.hourly_table",
         "speed_class_labels": "siting.readers.hourly_table",
         "frequency_table_from_hourly": "siting.readers.hourly_table",
+        # map_context.py: holding, exclusion layers and source footprints: the maps' context
+        "ContextLayer": "siting.readers.map_context",
+        "MapContext": "siting.readers.map_context",
+        "read_map_context": "siting.readers.map_context",
+        "source_footprints": "siting.readers.map_context",
         # resources.py: where the bundled config tables and demo data live
         "config_dir": "siting.readers.resources",
         "demo_dir": "siting.readers.resources",
