@@ -20,12 +20,19 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "recover_interrupted": "siting.output.folder",
         "staged_folder": "siting.output.folder",
         "InterruptedAfterWriting": "siting.output.folder",
+        # geopackage.py: results.gpkg of ``siting screen``: the run's layers and their styles
+        "results_layers": "siting.output.geopackage",
+        "write_layer_styles": "siting.output.geopackage",
+        "write_results_gpkg": "siting.output.geopackage",
         # geotiff.py: GeoTIFF output: one profile shared by every output raster
         "write_geotiff": "siting.output.geotiff",
         "write_large_geotiff": "siting.output.geotiff",
         # place.py: the files of ``siting place``: suitability.tif, positions.csv, run.json, map
         "write_place_map": "siting.output.place",
         "write_place_outputs": "siting.output.place",
+        # portable.py: paths as the outputs name them, nothing of the machine's folders
+        "portable_record": "siting.output.portable",
+        "relative_name": "siting.output.portable",
         # records.py: the run record's shared parts: input files, their hashes, packed inputs
         "sha256_of": "siting.output.records",
         "input_paths": "siting.output.records",
@@ -39,6 +46,7 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "run_record": "siting.output.screen",
         "estimate_screen_bytes": "siting.output.screen",
         "write_report": "siting.output.screen",
+        "write_report_pdf": "siting.output.screen",
         "write_screen_map": "siting.output.screen",
         "write_outputs": "siting.output.screen",
         # screen_options.py: options.csv and difference_<option>.tif of a run with options

@@ -1,4 +1,4 @@
-"""Files of a regional run (``siting region``): GeoTIFFs, tables and run.json.
+"""Files of a regional run (``siting region``): GeoTIFFs, tables, report.html and run.json.
 
 Written into a staging folder and moved into place when complete (``outputs.staged_folder``).
 The run itself is ``region.py``.
@@ -19,9 +19,11 @@ import pandas as pd
 from siting._version import __version__
 from siting.output.folder import staged_folder
 from siting.output.geotiff import write_large_geotiff
-from siting.output.records import sha256_of
+from siting.output.records import output_hashes, sha256_of
 from siting.output.tables import write_csv
 from siting.physics.constants import deposition_kg_n_ha_yr
+from siting.presentation.region_report import render_region_report
+from siting.presentation.webmap_region import render_region_map
 
 if TYPE_CHECKING:  # the type only: a run's result is written, never computed, here
     from siting.runs.regional import RegionResult
@@ -71,6 +73,21 @@ def _farm_table(farms: pd.DataFrame) -> pd.DataFrame:
     out["class_release_height_m"] = [c.release_height_m for c in farms["release_class"]]
     out["class_footprint_side_m"] = [c.footprint_side_m for c in farms["release_class"]]
     return out[FARM_COLUMNS]
+
+
+def _region_report(result: RegionResult, record: dict, out_dir: Path) -> str:
+    """report.html of the run (:func:`siting.presentation.region_report.render_region_report`):
+    input paths shown relative to ``out_dir``, the final folder (not the staging one)."""
+    return render_region_report(
+        title=f"Farms of {result.inputs.input_files['farms'].name}, all together",
+        sites=None if result.sites is None else pd.DataFrame(result.sites.drop(columns="geometry")),
+        contributors=result.contributors,
+        farms=result.inputs.farms,
+        record=record,
+        cautions=result.cautions,
+        warnings=result.warnings,
+        out_dir=out_dir,
+    )
 
 
 ACCURACY_NOTE = (
@@ -167,11 +184,30 @@ def region_record(result: RegionResult, run_time: str) -> dict:
     }
 
 
+def _region_map(result: RegionResult, run_time: str) -> str:
+    """map.html of the run (:func:`siting.presentation.webmap_region.render_region_map`)."""
+    grid = result.grid
+    return render_region_map(
+        title=f"Farms of {result.inputs.input_files['farms'].name}, all together",
+        crs=result.inputs.crs,
+        west_m=grid.west_m,
+        north_m=grid.north_m,
+        cell_m=grid.cell_m,
+        deposition_kg_n_ha_yr=result.deposition_kg_n_ha_yr,
+        sites=result.sites,
+        farms=result.inputs.farms,
+        contributors=result.contributors,
+        cautions=result.cautions,
+        version=__version__,
+        run_time=run_time,
+    )
+
+
 def write_region_outputs(
     result: RegionResult, out_dir: str | Path, overwrite: bool = False
 ) -> Path:
-    """Write deposition.tif, concentration.tif, sites.csv, contributors.csv, farms.csv, run.json
-    atomically into ``out_dir``; returns it.
+    """Write deposition.tif, concentration.tif, sites.csv, contributors.csv, farms.csv,
+    report.html, run.json atomically into ``out_dir``; returns it.
 
     Parameters
     ----------
@@ -227,7 +263,11 @@ def write_region_outputs(
             write_csv(table, staging / "sites.csv")
             write_csv(result.contributors, staging / "contributors.csv")
         write_csv(_farm_table(result.inputs.farms), staging / "farms.csv")
+        (staging / "map.html").write_bytes(_region_map(result, run_time).encode("utf-8"))
         record = region_record(result, run_time)
+        # the report shows the record so far (its version, time, inputs); hashed with the rest
+        (staging / "report.html").write_text(_region_report(result, record, out_dir), "utf-8")
+        record["outputs"] = output_hashes(staging)  # every file above, hashed
         (staging / "run.json").write_text(
             json.dumps(record, indent=2, default=str), encoding="utf-8"
         )

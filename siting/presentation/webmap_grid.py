@@ -199,14 +199,32 @@ def overlay(
     return data_url, [[lat_s, lon_w], [lat_n, lon_e]]
 
 
-def _contour_lines(
+def contour_lines(
     grid: np.ndarray,
     west_m: float,
     north_m: float,
     cell_m: float,
     level_kg_n_ha_yr: float,
 ) -> list[np.ndarray]:
-    """Contour lines of the grid at one level, as (n, 2) arrays of projected x, y [m]."""
+    """Contour lines of the grid at one level: the map's lines, and results.gpkg's.
+
+    Parameters
+    ----------
+    grid : ndarray, shape (rows, columns)
+        Deposition at the cell centres, north row first [kg N ha-1 yr-1].
+    west_m, north_m : float
+        The grid's west and north edges, projected [m].
+    cell_m : float
+        Cell size [m].
+    level_kg_n_ha_yr : float
+        The level traced [kg N ha-1 yr-1]; no line for a level that is not finite.
+
+    Returns
+    -------
+    list of ndarray
+        Each line as an (n, 2) array of projected x, y [m], traced by contourpy through the
+        cell centres (linear between them).
+    """
     import contourpy
 
     n_rows, n_cols = grid.shape
@@ -302,7 +320,7 @@ def add_contours(
     labels = []
     for index, (level, label) in enumerate(contours):
         style = contour_style(index)
-        lines = _contour_lines(grid, west_m, north_m, cell_m, float(level))
+        lines = contour_lines(grid, west_m, north_m, cell_m, float(level))
         text = contour_text(level, label)
         for line in lines:
             lon, lat = to_lonlat.transform(line[:, 0], line[:, 1])
