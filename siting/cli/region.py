@@ -87,8 +87,8 @@ def _print_region_summary(result, out_dir: Path) -> None:
         _print_site_table(console, result)
     print_warnings(console, result.warnings, flags_by_parameter("region"))
     console.print(
-        f"Outputs in {out_dir} (deposition.tif, concentration.tif, sites.csv, "
-        "contributors.csv, farms.csv, run.json)."
+        f"Outputs in {out_dir} (report.html, map.html, deposition.tif, concentration.tif, "
+        "sites.csv, contributors.csv, farms.csv, run.json)."
     )
     console.print(
         "Screening estimate only; local rules and the competent authority decide.", style="dim"
