@@ -26,6 +26,7 @@ Where each expectation comes from is the case's ``source``:
 
 from __future__ import annotations
 
+import datetime
 import errno
 import hashlib
 import json
@@ -71,6 +72,8 @@ def _toml_value(value) -> str:
         return repr(value)
     if isinstance(value, str):
         return json.dumps(value, ensure_ascii=False)
+    if isinstance(value, datetime.date):  # a TOML date (the demo's [project] date)
+        return value.isoformat()
     if isinstance(value, list):
         return "[" + ", ".join(_toml_value(v) for v in value) + "]"
     if isinstance(value, dict):

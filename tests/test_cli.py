@@ -35,13 +35,14 @@ OUTPUTS = [
     "deposition.tif",
     "deposition_in_combination.tif",
     "sites.csv",
-    "sites.gpkg",
+    "results.gpkg",
     "receptors.csv",
     "sources.csv",
     "sensitivity.csv",
     "what_it_takes.csv",
     "run.json",
     "report.html",
+    "report.pdf",  # issue 16: the report laid out for print, beside report.html
     "map.html",
     "inputs",
 ]  # inputs/: the copies that make the folder a complete package
@@ -148,8 +149,8 @@ def test_sites_csv_columns_and_rows(sites):
 
 
 def test_sites_gpkg_matches_sites_csv(demo, sites):
-    """sites.gpkg: EPSG:32632, the same sites and figures as sites.csv."""
-    gpkg = gpd.read_file(demo["out"] / "sites.gpkg")
+    """results.gpkg, layer sites: EPSG:32632, the same sites and figures as sites.csv."""
+    gpkg = gpd.read_file(demo["out"] / "results.gpkg", layer="sites")
     assert gpkg.crs.to_epsg() == 32632
     assert list(gpkg["site_id"]) == list(sites["site_id"])
     assert list(gpkg["name"]) == list(sites["name"])
@@ -194,8 +195,10 @@ def test_run_json_hashes_inputs_and_tables(demo):
     assert set(record["inputs"]) == set(expected_inputs)
     for key, filename in expected_inputs.items():
         entry = record["inputs"][key]
-        assert Path(entry["path"]) == (demo_dir() / filename).resolve()
-        assert entry["sha256"] == hashlib.sha256(Path(entry["path"]).read_bytes()).hexdigest()
+        # relative to the scenario's folder: no folder of the machine in run.json (issue 16)
+        assert entry["path"] == filename
+        digest = hashlib.sha256((demo_dir() / filename).read_bytes()).hexdigest()
+        assert entry["sha256"] == digest
     tables = {p.name: p for p in config_dir().glob("*.toml")}
     assert set(record["config_tables"]) == set(tables)
     for name, entry in record["config_tables"].items():
@@ -277,6 +280,7 @@ def test_fail_on_exceed_returns_1_for_the_demo(sites, tmp_path):
             str(out),
             "--fail-on-exceed",
             "--quiet",
+            "--no-pdf",  # report.pdf is checked on the demo run; here it would only cost time
         ]
     )
     assert rc == 1  # DESIGN.md: exit 1 only where asked (--fail-on-exceed)
@@ -336,12 +340,12 @@ def h1_runs(tmp_path_factory) -> dict:
         scenario = _h1_only_scenario(folder, abated)
         out = folder / f"out_{label}"
         extra = ["--fail-on-exceed"] if abated else []
-        rc, _ = _run(["screen", str(scenario), "--out", str(out), "--quiet", *extra])
+        rc, _ = _run(["screen", str(scenario), "--out", str(out), "--quiet", "--no-pdf", *extra])
         runs[label] = {
             "rc": rc,
             "scenario": scenario,
             "out": out,
-            "sites": gpd.read_file(out / "sites.gpkg"),
+            "sites": gpd.read_file(out / "results.gpkg", layer="sites"),
         }  # full double precision
     return runs
 
@@ -426,7 +430,9 @@ def test_user_text_in_the_terminal_is_shown_as_itself(tmp_path, capsys):
         )
         .replace("spacing_m = 25.0", "spacing_m = 100.0", 1)
     )
-    assert main(["screen", str(scenario), "--out", str(tmp_path / "out"), "--quiet"]) == 0
+    assert (
+        main(["screen", str(scenario), "--out", str(tmp_path / "out"), "--quiet", "--no-pdf"]) == 0
+    )
     assert "<b>cert</b>" not in (tmp_path / "out" / "report.html").read_text()
     capsys.readouterr()
     main(["verify", str(tmp_path / "out"), "--out", str(tmp_path / "v")])
@@ -466,7 +472,7 @@ def test_overwrite_never_deletes_inputs_or_unrelated_folders(tmp_path, monkeypat
         sub = tmp_path / "sub"
         text = scenario.read_text().replace("spacing_m = 25.0", "spacing_m = 100.0", 1)
         scenario.write_text(text)
-        assert main(["screen", str(scenario), "--out", str(sub), "--quiet"]) == 0
+        assert main(["screen", str(scenario), "--out", str(sub), "--quiet", "--no-pdf"]) == 0
         target, argv = sub, ["verify", str(sub), "--out", str(sub), "--overwrite", "--quiet"]
     elif case == "weather record folder":
         target = demo
@@ -561,7 +567,15 @@ def test_fail_on_exceed_with_no_site_assessed_does_not_pass(tmp_path, capsys):
     sites["geometry"] = [affinity.translate(g, 100_000.0, 0.0) for g in sites.geometry]
     sites.to_file(layer)  # 100 km east: outside the grid
     rc = main(
-        ["screen", str(scenario), "--out", str(tmp_path / "out"), "--quiet", "--fail-on-exceed"]
+        [
+            "screen",
+            str(scenario),
+            "--out",
+            str(tmp_path / "out"),
+            "--quiet",
+            "--fail-on-exceed",
+            "--no-pdf",
+        ]
     )
     assert rc == 1
     assert "no habitat site could be assessed" in capsys.readouterr().err

@@ -30,7 +30,7 @@ def _screen(base, name, spacing_m=100.0, places=None):
         text = text.replace("places = 2400", f"places = {places}")
     scenario.write_text(text)
     out = base / name
-    assert main(["screen", str(scenario), "--out", str(out), "--quiet"]) == 0
+    assert main(["screen", str(scenario), "--out", str(out), "--quiet", "--no-pdf"]) == 0
     return out
 
 

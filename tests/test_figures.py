@@ -398,3 +398,50 @@ def test_report_figures_are_cut_like_the_tight_box():
         tight_width, tight_height = _tight_size(fig)
         assert abs(width - tight_width) <= CROP_TOLERANCE_PX
         assert abs(height - tight_height) <= CROP_TOLERANCE_PX
+
+
+def test_deposition_figure_outlines_each_site_by_its_verdict():
+    """Each site's rings take its class of verdict's colour (formats.VERDICT_COLOURS, the map's
+    and the PC-distance points' too) and a line style of its own, solid for one that does not
+    pass, dashed for one that passes, dotted for one not assessed, so a grey print tells them
+    apart; the legend names each class drawn with that colour and style (our own choice).
+    The class of each site is read from its own columns (formats.verdict_classes)."""
+    from matplotlib.colors import to_rgba
+
+    from siting.presentation.formats import VERDICT_COLOURS, verdict_classes
+
+    two_parts = MultiPolygon([box(0, 0, 100, 100), box(300, 0, 400, 100)])
+    with_hole = Polygon([(0, 300), (300, 300), (300, 600), (0, 600)],
+                        [[(100, 400), (200, 400), (200, 500), (100, 500)]])  # fmt: skip
+    sites = gpd.GeoDataFrame(
+        {
+            "name": ["Fails in two parts", "Passes with a hole", "Not judged", "Fails too"],
+            "verdict": ["above threshold", "below threshold", "not assessed", "above threshold"],
+            "passes": [False, True, False, False],
+            "assessed": [True, True, False, True],
+            "pc_pct_load": [50.0, 1.0, np.nan, 30.0],
+            "threshold_percent": [20.0, 20.0, 20.0, 20.0],
+        },
+        geometry=[two_parts, with_hole, box(600, 0, 700, 100), box(600, 300, 700, 400)],
+    )
+    fig = _deposition_of(sites)
+    (outlines,) = [c for c in fig.axes[0].collections if isinstance(c, LineCollection)]
+    kinds = verdict_classes(sites)
+    rings_per_site = [2, 2, 1, 1]  # the parts, and the exterior and the hole
+    ring_kinds = [k for k, n in zip(kinds, rings_per_site) for _ in range(n)]
+    colours, styles = outlines.get_colors(), outlines.get_linestyles()
+    assert len(outlines.get_segments()) == len(ring_kinds)
+    for i, kind in enumerate(ring_kinds):
+        assert_allclose(colours[i], to_rgba(VERDICT_COLOURS[kind]), err_msg=kind)
+    dashes = {kind: styles[ring_kinds.index(kind)][1] for kind in set(ring_kinds)}
+    assert dashes["does not pass"] is None  # solid
+    assert dashes["passes"] is not None and dashes["not assessed"] is not None
+    assert tuple(dashes["passes"]) != tuple(dashes["not assessed"])
+    assert not np.allclose(to_rgba(VERDICT_COLOURS["passes"]),
+                           to_rgba(VERDICT_COLOURS["does not pass"]))  # fmt: skip
+    legend = fig.axes[0].get_legend()
+    entries = {t.get_text(): h for t, h in zip(legend.get_texts(), legend.legend_handles)}
+    for kind in ("does not pass", "passes", "not assessed"):
+        (label,) = [t for t in entries if t.startswith(f"site that {kind}") or t == f"site {kind}"]
+        assert_allclose(to_rgba(entries[label].get_color()), to_rgba(VERDICT_COLOURS[kind]))
+    assert "above threshold" in next(t for t in entries if t.startswith("site that does not"))

@@ -242,7 +242,7 @@ def test_sections_cautions_and_print_css(report_html):
         "8. Run record",
     ):
         assert f">{heading}</h2>" in report_html
-    assert report_html.index('class="caution-line"') < report_html.index("<h1>")
+    assert report_html.index('class="caution-line"') < report_html.index("<h1")
     for caution in CAUTIONS:
         assert html.escape(caution) in report_html
     assert "tr, img, figure { page-break-inside: avoid; break-inside: avoid; }" in report_html
@@ -282,9 +282,19 @@ def test_sources_table_formats_by_column_meaning(report_html):
 
 
 def test_sources_table_citations_wrap_and_flag_stands_out(report_html):
-    """Citations sit in small wrapping cells; a reduction flag is a warning cell and a notice."""
+    """A citation is a numbered mark in its cell, its text listed once under the table (issue
+    16: status notes such as "from memory" as footnotes); a reduction flag is a warning cell
+    and a notice."""
     (table,) = _derivation_tables(report_html)
-    assert f'<td class="cite">{html.escape(LONG_CITATION)}</td>' in table
+    row = _row(table, "Where the factor comes from")
+    assert re.findall(r'<td class="note-mark"><sup class="ref">\[(\d+)\]</sup></td>', row) == [
+        "1",
+        "2",
+    ]
+    assert "from memory" not in table  # the status stands in the note, not in the cell
+    notes = _between(report_html, '</table>\n<div class="table-notes">', "</ol>")
+    items = re.findall(r"<li>(.*?)</li>", notes)
+    assert items == [html.escape(LONG_CITATION), "given in scenario"]
     assert f'<td class="flag">⚠ {html.escape(FLAG)}</td>' in table
     assert '<th class="flagged" scope="col">H1 ⚠</th>' in table
     summary = _between(report_html, 'id="summary"', 'id="inputs"')
@@ -328,9 +338,13 @@ def test_thresholds_and_model_settings_are_shown(report_html):
     inputs = _between(report_html, 'id="inputs"', 'id="method"')
     assert "<h3>Screening thresholds used</h3>" in inputs
     settings = _between(inputs, "<h3>Model settings</h3>", "</table>")
-    assert "Land type (dispersion coefficients)" in settings and ">rural<" in settings
-    assert "Mixing height [m]" in settings and "not set" in settings
-    assert "Plume depletion by deposition" in settings and ">yes<" in settings
+    # labels in words with units; a value left at its default says so, a none says what it
+    # means; "not set" is never shown (issue 16 items 2 and 3)
+    assert re.search(r"Land type of the dispersion coefficients</th><td>rural <span[^>]*>"
+                     r"\(default\)", settings)  # fmt: skip
+    assert re.search(r"Mixing height: a reflecting lid \[m\]</th><td>none: no lid <span", settings)
+    assert re.search(r"Plume depleted by what it deposits</th><td>yes</td>", settings)  # set
+    assert "not set" not in settings
     assert ">H1<" not in settings  # sources are section 2's derivation, not repeated
 
 
@@ -440,3 +454,21 @@ def test_remembered_cells_keep_types_apart():
     cell = _cached(lambda value: calls.append(value) or type(value).__name__)
     assert [cell(True), cell(1), cell(1.0), cell(1.0)] == ["bool", "int", "float", "float"]
     assert len(calls) == 3  # the second 1.0 was remembered
+
+
+def test_threshold_sources_are_numbered_notes(tmp_path):
+    """Each designation's threshold cites its source by a numbered mark; a source shared by
+    two designations is one note, listed once under the table with its status words."""
+    sites = hostile_sites()
+    shared = "rule set key, Table 1 (from memory)"
+    sites["tier"] = ["international", "national", "local", "international"]
+    sites["designation"] = ["SAC", "SSSI", "local", "SPA"]
+    sites["threshold_source"] = [shared, "another key, p. 4 (confirmed)", "", shared]
+    text = _write(tmp_path / "report.html", sites=sites)
+    part = _between(text, "<h3>Screening thresholds used</h3>", "<h3>Model settings</h3>")
+    table = part[: part.index("</table>")]
+    marks = re.findall(r'<td class="note-mark"><sup class="ref">\[(\d+)\]</sup></td>', table)
+    assert marks == ["1", "2", "1"]  # SAC, SSSI, SPA; the local tier has no source
+    assert "from memory" not in table and "confirmed" not in table
+    notes = re.findall(r"<li>(.*?)</li>", part[part.index('<div class="table-notes">') :])
+    assert notes == [shared, "another key, p. 4 (confirmed)"]

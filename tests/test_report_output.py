@@ -148,15 +148,21 @@ class _ReportParser(HTMLParser):
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    """The table-mode demo run once: (parsed report.html, its raw text, sites.csv)."""
+def demo_out(tmp_path_factory):
+    """The table-mode demo run once (report.pdf too): its output folder."""
     out = tmp_path_factory.mktemp("report_output") / "demo"
     assert main(["demo", "--out", str(out), "--quiet"]) == 0
-    text = (out / "report.html").read_text(encoding="utf-8")
+    return out
+
+
+@pytest.fixture(scope="module")
+def demo(demo_out):
+    """The demo's (parsed report.html, its raw text, sites.csv)."""
+    text = (demo_out / "report.html").read_text(encoding="utf-8")
     parser = _ReportParser()
     parser.feed(text)
     parser.close()
-    return parser, text, pd.read_csv(out / "sites.csv")
+    return parser, text, pd.read_csv(demo_out / "sites.csv")
 
 
 def _tables_in(parser: _ReportParser, section: str, css: str) -> list[_Table]:
@@ -270,3 +276,89 @@ def test_no_external_urls(demo):
         assert not url.lower().startswith(("http://", "https://", "//")), url
         assert url.startswith(("#", "data:")), url
     assert "<script" not in text.lower()
+
+
+class _Headings(HTMLParser):
+    """The text of every <h2> and <h3> of a page, and of its cautions list."""
+
+    def __init__(self) -> None:
+        super().__init__(convert_charrefs=True)
+        self.headings: list[str] = []
+        self.cautions: list[str] = []
+        self._in: str | None = None
+        self._in_cautions = False
+
+    def handle_starttag(self, tag, attrs):
+        """Open a heading, or a caution inside the cautions box."""
+        if tag in ("h2", "h3"):
+            self._in = tag
+            self.headings.append("")
+        elif tag == "div" and dict(attrs).get("class") == "cautions":
+            self._in_cautions = True
+        elif tag == "li" and self._in_cautions:
+            self._in = "li"
+            self.cautions.append("")
+
+    def handle_endtag(self, tag):
+        """Close what was open."""
+        if tag == self._in:
+            self._in = None
+        elif tag == "div":
+            self._in_cautions = False
+
+    def handle_data(self, data):
+        """Text of the open heading or caution."""
+        if self._in in ("h2", "h3"):
+            self.headings[-1] += data
+        elif self._in == "li":
+            self.cautions[-1] += data
+
+
+def _words(text: str) -> str:
+    """Text with every run of whitespace one space (a PDF breaks lines where it likes)."""
+    return " ".join(text.split())
+
+
+def test_report_pdf_is_the_report_laid_out_for_print(demo_out, demo):
+    """report.pdf (read with pypdf) opens, has pages, holds every section heading and caution
+    of report.html (read from the page, not written out here), "Page 1 of N" at the foot and
+    the [project] reference of the demo scenario at the head of later pages."""
+    import tomllib
+
+    from pypdf import PdfReader
+
+    from siting.readers.resources import demo_dir
+
+    _, text, _ = demo
+    page = _Headings()
+    page.feed(text)
+    assert len(page.headings) > 8 and page.cautions
+    reader = PdfReader(demo_out / "report.pdf")
+    n = len(reader.pages)
+    assert n >= 2
+    pages = [_words(p.extract_text()) for p in reader.pages]
+    whole = " ".join(pages)
+    for heading in page.headings:
+        assert _words(heading) in whole, heading
+    for caution in page.cautions:
+        assert _words(caution) in whole, caution
+    for i, shown in enumerate(pages, start=1):
+        assert f"Page {i} of {n}" in shown
+    with open(demo_dir() / "scenario.toml", "rb") as handle:
+        reference = tomllib.load(handle)["project"]["reference"]
+    assert reference in pages[0]  # the cover
+    assert all(reference in shown for shown in pages[1:])  # the running header
+    assert '"sha256":' not in whole  # the raw run record (collapsed on screen) is left out
+
+
+def test_the_pdf_is_hashed_in_run_json(demo_out):
+    """report.pdf is written before run.json, which records its SHA-256 and size."""
+    import hashlib
+    import json
+
+    record = json.loads((demo_out / "run.json").read_text(encoding="utf-8"))
+    data = (demo_out / "report.pdf").read_bytes()
+    assert record["outputs"]["report.pdf"] == {
+        "sha256": hashlib.sha256(data).hexdigest(),
+        "bytes": len(data),
+    }

@@ -9,6 +9,7 @@ names what was wrong, the value received and where it came from), not published 
 
 from __future__ import annotations
 
+import hashlib
 import json
 import os
 import re
@@ -493,11 +494,16 @@ def test_screen_from_another_folder_reads_the_scenario_folder(demo_copy, elsewhe
         "receptors.csv",
         "weather_table.csv",
     ]
+    # run.json names the files relative to the scenario's folder (nothing of the machine's
+    # folders), and their hashes are those of the files beside the scenario, not the decoys
     inputs = json.loads((out / "run.json").read_text(encoding="utf-8"))["inputs"]
     folder = demo_copy.parent.resolve()
-    assert Path(inputs["weather"]["path"]) == folder / "weather_table.csv"
-    assert Path(inputs["habitats"]["path"]) == folder / "habitats.gpkg"
-    assert Path(inputs["receptors"]["path"]) == folder / "receptors.csv"
+    for key, name in (("weather", "weather_table.csv"), ("habitats", "habitats.gpkg"),
+                      ("receptors", "receptors.csv")):  # fmt: skip
+        assert inputs[key]["path"] == name
+        digest = hashlib.sha256((folder / name).read_bytes()).hexdigest()
+        assert inputs[key]["sha256"] == digest
+        assert digest != hashlib.sha256((elsewhere / name).read_bytes()).hexdigest()
 
 
 # --------------------------------------------------------------------------------------------

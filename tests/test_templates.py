@@ -109,7 +109,7 @@ def test_markup_in_a_site_name_is_escaped_in_the_screening_report():
     assert "<script" not in page.lower()
     summary = page[page.index('<table class="summary') : page.index("</table>")]
     assert f'<span class="site-name">{ESCAPED_NAME}</span>' in summary
-    assert f"<h1>Farm {ESCAPED_NAME}</h1>" in page
+    assert f'<h1 class="doc-title">Farm {ESCAPED_NAME}</h1>' in page
     assert f"<title>Farm {ESCAPED_NAME} · siting report</title>" in page
 
 

@@ -26,7 +26,8 @@ def _screen(tmp_path, name="sub", edit=None, habitats=None):
     if habitats is not None:
         habitats(folder / "habitats.gpkg")
     out = tmp_path / name
-    assert main(["screen", str(scenario), "--out", str(out), "--quiet"]) == 0
+    # --no-pdf: report.pdf is no input of verify, and each PDF costs seconds
+    assert main(["screen", str(scenario), "--out", str(out), "--quiet", "--no-pdf"]) == 0
     return out
 
 

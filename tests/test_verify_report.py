@@ -268,3 +268,57 @@ def test_page_parts_come_in_reading_order(tmp_path):
     assert positions == sorted(positions)  # regression: order of the page before the split
     footer = page[page.index("<footer>") :]
     assert "siting 0.4.0" in footer and "siting 0.3.2" in footer and "exit code 1" in footer
+
+
+def _changes() -> dict:
+    """What changed: the scenario (one key, a hostile source id), and a truncated output."""
+    return {
+        "files": [{"input": "scenario", "file": "inputs/scenario.toml", "status": "changed",
+                   "compared": "the values the run read against the packed file", "n_keys": 1,
+                   "note": "changed after the run: 1 key(s) differ"}],
+        "keys": [{"input": "scenario", "file": "scenario.toml",
+                  "key": "source <H1> reduction_percent", "change": "changed", "old": 90,
+                  "new": 98, "item": {"list": "source", "identity": {"id": "<H1>"}},
+                  "effect": [{"source": "<H1>", "submitted_kg_yr": 675.12,
+                              "rerun_kg_yr": 135.024, "differs": True}],
+                  "effect_note": None}],
+        "keys_left_out": 0,
+        "emissions": [{"source": "<H1>", "submitted_kg_yr": 675.12, "rerun_kg_yr": 135.024,
+                       "relative_difference": 0.8, "differs": True},
+                      {"source": "E1", "submitted_kg_yr": 1323.0, "rerun_kg_yr": 1323.0,
+                       "relative_difference": 0.0, "differs": False}],
+        "outputs": [{"code": "OUTPUT_CHANGED", "severity": "high",
+                     "subject": "output deposition.tif",
+                     "message": "deposition.tif is not the file the run wrote: truncated",
+                     "evidence": {"file": "deposition.tif", "change": "truncated",
+                                  "expected_bytes": 207108, "found_bytes": 500,
+                                  "expected_sha256": "e" * 64, "found_sha256": "f" * 64}}],
+        "notes": [],
+    }  # fmt: skip
+
+
+def test_what_changed_comes_first_with_key_values_and_emissions(tmp_path):
+    """Section 1 lists the key (escaped), both values, the emission before -> after at 4
+    significant digits (675.1 and 135.0, shown 135: trailing zeros trimmed), the truncated
+    output with both sizes and hashes; it comes before the findings, and the check list says
+    what changed."""
+    page = _write(tmp_path, changes=_changes())
+    section = page[page.index('id="changes"') : page.index('id="findings"')]
+    assert "source &lt;H1&gt; reduction_percent" in section and "<H1>" not in section
+    assert ">90<" in section and ">98<" in section
+    assert "&lt;H1&gt;: 675.1 → 135 kg NH3/yr" in section
+    assert "-80.0" in section  # (135.024 - 675.12) / 675.12 = -80 %
+    assert "1 other source(s) agree" in section  # E1
+    assert "deposition.tif" in section and "truncated" in section
+    assert "207 108 bytes" in section and "500 bytes" in section
+    assert "e" * 64 in section and "f" * 64 in section
+    checks = page[page.index('id="checks"') : page.index('id="changes"')]
+    assert "1 key(s) differ" in checks
+
+
+def test_nothing_changed_says_so(tmp_path):
+    """No changed file, key, emission or output: one sentence, no tables in section 1."""
+    page = _write(tmp_path, changes={"files": [], "keys": [], "emissions": [], "outputs": [],
+                                     "notes": [], "keys_left_out": 0})  # fmt: skip
+    section = page[page.index('id="changes"') : page.index('id="findings"')]
+    assert "Nothing changed since the run" in section and "<table" not in section

@@ -59,7 +59,7 @@ def submission(tmp_path_factory):
     scenario = folder / "scenario.toml"
     scenario.write_text(scenario.read_text().replace("spacing_m = 25.0", "spacing_m = 100.0", 1))
     out = base / "sub"
-    assert main(["screen", str(scenario), "--out", str(out), "--quiet"]) == 0
+    assert main(["screen", str(scenario), "--out", str(out), "--quiet", "--no-pdf"]) == 0
     return out
 
 
@@ -255,7 +255,8 @@ def test_a_rule_set_file_given_to_the_run_is_packed_and_reused_by_verify(tmp_pat
     text = (bundled_rules_dir() / "plain.toml").read_text(encoding="utf-8")
     own.write_text(text.replace('id = "plain"', 'id = "our-office-2026"', 1), encoding="utf-8")
     out = tmp_path / "out"
-    assert main(["screen", str(scenario), "--out", str(out), "--rules", str(own), "--quiet"]) == 0
+    argv = ["screen", str(scenario), "--out", str(out), "--rules", str(own), "--quiet"]
+    assert main([*argv, "--no-pdf"]) == 0
     assert (out / "inputs" / "_rules" / "our_rules.toml").read_bytes() == own.read_bytes()
     record = json.loads((out / "run.json").read_text(encoding="utf-8"))
     assert record["package"]["rules"] == "_rules/our_rules.toml"

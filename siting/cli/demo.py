@@ -15,5 +15,5 @@ def run(args) -> int:
     )
     out = Path(args.out_dir) if args.out_dir else Path("maps") / name
     return screen_scenario(
-        demo_dir() / scenario, out, args.overwrite, False, args.quiet, command="demo"
+        demo_dir() / scenario, out, args.overwrite, False, args.quiet, command="demo", pdf=args.pdf
     )

@@ -124,7 +124,18 @@ def _add_screen(sub: argparse._SubParsersAction, common: argparse.ArgumentParser
         help="exit with code 1 when any site's verdict does not pass its rule set",
     )
     _rules_option(p, "the sites (default: the scenario's [assessment] rules)")
+    _pdf_option(p)
     p.set_defaults(command_module="screen")
+
+
+def _pdf_option(p: argparse.ArgumentParser) -> None:
+    """--no-pdf: leave report.pdf out (it adds a few seconds to a run)."""
+    p.add_argument(
+        "--no-pdf",
+        dest="pdf",
+        action="store_false",
+        help="write report.html only, not report.pdf beside it (a few seconds quicker)",
+    )
 
 
 def _add_demo(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:
@@ -144,6 +155,7 @@ def _add_demo(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) 
         help="run the demo on its invented hourly weather record "
         "(scenario_hourly.toml) into maps/demo_hourly",
     )
+    _pdf_option(p)
     p.set_defaults(command_module="demo")
 
 

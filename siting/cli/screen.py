@@ -195,6 +195,7 @@ def screen_scenario(
     quiet: bool,
     command: str = "screen",
     rules: str | None = None,
+    pdf: bool = True,
 ) -> int:
 
     scenario = load_scenario(scenario_path)
@@ -217,7 +218,7 @@ def screen_scenario(
         result = screen(
             scenario, progress=not quiet and sys.stderr.isatty(), tables=tables, rules=rule_set
         )
-    written = write_outputs(result, out_dir, overwrite=overwrite)
+    written = write_outputs(result, out_dir, overwrite=overwrite, pdf=pdf)
     _print_summary(result, written, quiet, command)
     if fail_on_exceed and not result.sites["assessed"].any():
         print(
@@ -239,4 +240,5 @@ def run(args) -> int:
         args.fail_on_exceed,
         args.quiet,
         rules=args.rules,
+        pdf=args.pdf,
     )

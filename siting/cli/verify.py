@@ -9,6 +9,7 @@ from siting.cli.options import flags_by_parameter
 from siting.cli.terminal import plain, print_warnings
 from siting.output.folder import check_output_dir
 from siting.output.verify import write_verify_outputs
+from siting.presentation.verify_changes import change_lines
 from siting.runs.verification import verify
 
 
@@ -53,6 +54,7 @@ def _print_verify_summary(result, out_dir: Path) -> None:
         f"intact; figures differing beyond tolerance: {len(result.differences)}"
     )
     console.print(plain(result.rule_sets_text))
+    _print_changes(console, result.changes.as_dict())
     if result.findings:
         table = Table(title="Findings", title_justify="left")
         for col in ("severity", "code", "subject", "message"):
@@ -75,3 +77,22 @@ def _print_verify_summary(result, out_dir: Path) -> None:
         )
     print_warnings(console, result.warnings, flags_by_parameter("verify"))
     console.print(f"Outputs in {out_dir} (verify.html, findings.json).")
+
+
+#: Most lines of "what changed" printed; the rest are counted (verify.html lists them all).
+_CHANGE_LINES = 10
+
+
+def _print_changes(console, changes: dict) -> None:
+    """What changed since the run: the first lines, and how many more verify.html lists."""
+    lines = change_lines(changes)
+    if not lines:
+        console.print("what changed since the run: nothing (inputs, outputs and emissions)")
+        return
+    console.print(f"[bold]What changed since the run[/] ({len(lines)}):", markup=True)
+    for line in lines[:_CHANGE_LINES]:
+        console.print(f"  {plain(line)}")
+    if len(lines) > _CHANGE_LINES:
+        console.print(f"  ... and {len(lines) - _CHANGE_LINES} more (verify.html, findings.json)")
+    for note in changes.get("notes") or ():
+        console.print(f"  note: {plain(note)}")

@@ -13,6 +13,7 @@ from pathlib import Path
 from siting._version import __version__
 from siting.output.folder import check_output_dir, staged_folder
 from siting.output.geotiff import write_geotiff
+from siting.output.portable import portable_record
 from siting.output.records import package_inputs, run_record_base
 from siting.output.tables import write_csv
 from siting.presentation.place_report import render_place_report
@@ -129,6 +130,7 @@ def write_place_outputs(
             }
         )
         record["package"] = package_inputs(prep, staging)
+        record = portable_record(record, prep)  # no folder of the machine in run.json
         (staging / "run.json").write_text(
             json.dumps(record, indent=2, default=str), encoding="utf-8"
         )

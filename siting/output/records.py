@@ -2,7 +2,9 @@
 
 ``run.json`` of every command starts from :func:`run_record_base`; the inputs are copied into
 the output folder's ``inputs/`` (:func:`package_inputs`) so ``siting verify`` can re-run them,
-and every output is hashed (:func:`output_hashes`).
+and every output is hashed (:func:`output_hashes`). The record is built with the files' own
+(absolute) paths, which the run may still read; what is written or shown names them without
+the machine's folders (:func:`siting.output.portable.portable_record`).
 """
 
 from __future__ import annotations
@@ -125,6 +127,7 @@ def run_record_base(run, run_time: str, holding: bool = False) -> dict:
         "version": __version__,
         "run_time_utc": run_time,
         "title": run.scenario.title,
+        **_project_record(run.scenario),
         "inputs": inputs,
         "config_tables": tables,
         "parameters": json.loads(run.scenario.model_dump_json(by_alias=True)),
@@ -133,6 +136,14 @@ def run_record_base(run, run_time: str, holding: bool = False) -> dict:
         "versions": {"python": platform.python_version(), **_library_versions()},
         **_rules_record(getattr(run, "rules", None)),
     }
+
+
+def _project_record(scenario) -> dict:
+    """The scenario's [project] table as given (the date as ISO text); nothing without one."""
+    project = getattr(scenario, "project", None)
+    if project is None:
+        return {}
+    return {"project": json.loads(project.model_dump_json(exclude_none=True))}
 
 
 def _rules_record(rules) -> dict:

@@ -6,6 +6,7 @@ Written into a staging folder and moved into place when whole (siting.output.fol
 from __future__ import annotations
 
 import json
+import warnings
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -16,15 +17,18 @@ from siting._version import __version__
 from siting.dispersion.grid import grid_around
 from siting.dispersion.hourly import HourlyWeather
 from siting.dispersion.inputs import WeatherClasses
+from siting.errors import AccuracyWarning, WarningText
 from siting.output.folder import check_output_dir, staged_folder
 from siting.output.geopackage import write_results_gpkg
 from siting.output.geotiff import write_geotiff
+from siting.output.portable import portable_record
 from siting.output.records import input_paths, output_hashes, package_inputs, run_record_base
 from siting.output.screen_options import write_option_files
 from siting.output.tables import write_csv
 from siting.presentation.figures import deposition_figure, figure_png, pc_vs_distance_figure
 from siting.presentation.notes import METHOD_NOTES, cautious_choices
 from siting.presentation.report import render_report
+from siting.presentation.report_pdf import pdf_unavailable, report_pdf
 from siting.presentation.weather_figures import (
     stability_by_speed_figure,
     wind_rose_figure,
@@ -32,6 +36,7 @@ from siting.presentation.weather_figures import (
 )
 from siting.presentation.webmap import render_screen_map
 from siting.readers.map_context import read_map_context
+from siting.readers.toml_values import recorded_toml_values
 
 SITE_COLUMNS = [
     "site_id",
@@ -200,7 +205,7 @@ def _write_tables(result, folder: Path) -> pd.DataFrame:
     return table
 
 
-def write_report(path: Path, **report) -> None:
+def write_report(path: Path, **report) -> str:
     """Write report.html: the page rendered from ``report``; nothing is written if it fails.
 
     Parameters
@@ -209,8 +214,51 @@ def write_report(path: Path, **report) -> None:
         File to write (the caller makes the output folder atomic).
     **report
         The keyword arguments of :func:`siting.presentation.report.render_report`.
+
+    Returns
+    -------
+    str
+        The page written (report.pdf is laid out from it, :func:`write_report_pdf`).
     """
-    Path(path).write_text(render_report(**report), encoding="utf-8")
+    page = render_report(**report)
+    Path(path).write_text(page, encoding="utf-8")
+    return page
+
+
+def write_report_pdf(path: Path, page: str) -> None:
+    """Write report.pdf: the report page laid out for print (A4, page numbers, running head),
+    offline; the PDF is made whole before the file is opened.
+
+    Parameters
+    ----------
+    path : Path
+        File to write (the caller makes the output folder atomic).
+    page : str
+        report.html's text (:func:`write_report`).
+
+    Raises
+    ------
+    OSError, ImportError
+        WeasyPrint cannot be loaded (ask :func:`siting.presentation.report_pdf.pdf_unavailable`
+        first).
+    """
+    Path(path).write_bytes(report_pdf(page))
+
+
+def _pdf_warning(result, pdf: bool) -> bool:
+    """Whether report.pdf can be written; when it was asked for and cannot, one
+    AccuracyWarning says what is missing, and the run's warnings (result.warnings, so the
+    report, run.json and the printed summary) list it."""
+    if not pdf:
+        return False
+    missing = pdf_unavailable()
+    if missing is None:
+        return True
+    message = f"report.pdf not written: {missing}"
+    warnings.warn(AccuracyWarning(message), stacklevel=3)
+    if message not in result.warnings:
+        result.warnings.append(WarningText(message, AccuracyWarning))
+    return False
 
 
 def _report_figures(result, sources_gdf, contours) -> tuple[dict, dict]:
@@ -270,10 +318,14 @@ def write_screen_map(path: Path, **map_arguments) -> None:
     Path(path).write_bytes(render_screen_map(**map_arguments).encode("utf-8"))
 
 
-def _write_all(result, folder: Path, run_time: str) -> None:
+def _write_all(result, folder: Path, run_time: str, pdf: bool = True) -> None:
     """Every output of a screening run into ``folder`` (the staging folder): rasters, tables,
-    the packed inputs, map.html, report.html and, last, run.json with every output hashed."""
+    the packed inputs, map.html, report.html, report.pdf (``pdf``, when WeasyPrint loads) and,
+    last, run.json with every output hashed. What is shown or written names the files without
+    the machine's folders (:func:`siting.output.portable.portable_record`)."""
     import geopandas as gpd
+
+    make_pdf = _pdf_warning(result, pdf)  # first, so that every output lists the warning
 
     grid, sites = result.grid, result.sites
     _write_rasters(result, folder)
@@ -311,12 +363,13 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         context=context,
     )
     figures, weather_figures = _report_figures(result, sources_gdf, contours)
-    write_report(
+    shown = portable_record(record, result)  # the record as run.json will name its files
+    page = write_report(
         folder / "report.html",
         title=result.scenario.title,
         version=__version__,
         run_time=run_time,
-        scenario_file=str(result.scenario.path),
+        scenario_file=str(shown["parameters"].get("path") or result.scenario.name),
         sites=table,
         sources=result.sources,
         weather_summary=result.weather_summary,
@@ -324,7 +377,7 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         warnings=result.warnings,
         cautions=result.cautions,
         method_notes=METHOD_NOTES,
-        run_record=record,
+        run_record=shown,
         figures=figures,
         weather_figures=weather_figures,
         cautious_choices=cautious_choices(result),
@@ -332,9 +385,15 @@ def _write_all(result, folder: Path, run_time: str) -> None:
         options=options_table,
         what_it_takes=result.what_it_takes,
     )
+    if make_pdf:  # laid out from the page just written, and hashed with the other outputs
+        write_report_pdf(folder / "report.pdf", page)
     # last: every output the run wrote, hashed, so `siting verify` can tell an edited,
     # truncated or deleted one (run.json itself, the marker and the packed inputs aside)
     record["outputs"] = output_hashes(folder)
+    # the values of the TOML inputs and tables as read, so verify can say which key changed
+    # (after the report, whose run record section they would only lengthen)
+    record["toml_values"] = recorded_toml_values(record["inputs"], record["config_tables"])
+    record = portable_record(record, result)  # no folder of the machine in run.json
     (folder / "run.json").write_text(json.dumps(record, indent=2, default=str), encoding="utf-8")
 
 
@@ -372,12 +431,12 @@ def estimate_screen_bytes(scenario) -> int:
     return 4 * rasters * grid.size + 4 * inputs
 
 
-def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
+def write_outputs(result, out_dir: Path, overwrite: bool = False, pdf: bool = True) -> Path:
     """Write every output of a screening run atomically into ``out_dir``; returns it.
 
     The files of ``siting screen``: sites.csv and results.gpkg, receptors.csv, sources.csv,
-    sensitivity.csv, the GeoTIFFs, report.html, map.html, run.json and the packed inputs/,
-    written into a staging folder and moved into place when complete
+    sensitivity.csv, the GeoTIFFs, report.html, report.pdf, map.html, run.json and the packed
+    inputs/, written into a staging folder and moved into place when complete
     (:func:`siting.output.folder.staged_folder`).
 
     Parameters
@@ -388,6 +447,11 @@ def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
         The output folder.
     overwrite : bool
         Replace an existing output folder of siting.
+    pdf : bool
+        Write report.pdf beside report.html (default; it adds a few seconds). Where WeasyPrint
+        cannot be loaded (no Pango library) the rest is written and one AccuracyWarning says
+        what is missing; the warning is added to ``result.warnings`` too, so the report,
+        run.json and a summary printed afterwards list it.
 
     Returns
     -------
@@ -411,5 +475,5 @@ def write_outputs(result, out_dir: Path, overwrite: bool = False) -> Path:
     )
     run_time = datetime.now(UTC).replace(microsecond=0).isoformat()
     with staged_folder(out_dir, overwrite) as staging:
-        _write_all(result, staging, run_time)
+        _write_all(result, staging, run_time, pdf=pdf)
     return out_dir

@@ -72,6 +72,7 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
         "exit_code": result.exit_code,
         "tolerance": result.tolerance_text,
         "rule_sets": _rule_sets(result),
+        "changes": result.changes.as_dict(),
         "findings": [f.as_dict() for f in result.findings],
         "integrity": result.integrity,
         "differences": result.differences,
@@ -99,6 +100,7 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
             cautions=result.cautions,
             verdicts=result.verdicts,
             rule_sets=result.rule_sets_text,
+            changes=result.changes.as_dict(),
         )
     return out_dir
 

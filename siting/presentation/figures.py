@@ -82,22 +82,35 @@ def _site_outlines(geometries: Any) -> list[np.ndarray]:
     Vectorised over the geometries with shapely 2, so thousands of sites cost milliseconds;
     None and empty geometries give nothing.
     """
+    return _site_rings(geometries)[0]
+
+
+def _site_rings(geometries: Any) -> tuple[list[np.ndarray], np.ndarray]:
+    """The boundary lines of :func:`_site_outlines`, and for each the row of the geometry (the
+    site) it outlines."""
     import shapely
 
     geoms = np.asarray(list(geometries), dtype=object)
+    rows = np.arange(geoms.size)
     if geoms.size == 0:
-        return []
-    geoms = geoms[~shapely.is_missing(geoms)]
-    geoms = geoms[~shapely.is_empty(geoms)]
+        return [], rows
+    keep = ~shapely.is_missing(geoms)
+    keep[keep] = ~shapely.is_empty(geoms[keep])
+    geoms, rows = geoms[keep], rows[keep]
     if geoms.size == 0:
-        return []
-    lines = shapely.get_parts(shapely.boundary(geoms))  # a hole or a part is a line of its own
-    lines = lines[~shapely.is_empty(lines)]
+        return [], rows
+    # a hole or a part is a line of its own
+    lines, owner = shapely.get_parts(shapely.boundary(geoms), return_index=True)
+    drawn = ~shapely.is_empty(lines)
+    lines, owner = lines[drawn], rows[owner[drawn]]
     coords, index = shapely.get_coordinates(lines, return_index=True)
     if not len(coords):
-        return []
+        return [], np.zeros(0, dtype=int)
     starts = np.flatnonzero(np.diff(index)) + 1
-    return [part for part in np.split(coords, starts) if len(part) > 1]
+    parts = np.split(coords, starts)
+    line_of_part = index[np.concatenate([[0], starts])]
+    kept = [i for i, part in enumerate(parts) if len(part) > 1]
+    return [parts[i] for i in kept], owner[line_of_part[kept]]
 
 
 def deposition_figure(
@@ -262,19 +275,69 @@ def _draw_contours(
         text.set_parse_math(False)  # user labels may contain "$"
 
 
-def _draw_site_outlines(ax: Any, sites: gpd.GeoDataFrame) -> None:
-    """Draw every site's outline as one line collection, and its "habitat site" legend entry.
+#: How each class of verdict outlines its sites in the deposition figure: line style and width
+#: (the colour is VERDICT_COLOURS'). Solid for a site that does not pass, dashed for one that
+#: passes, dotted for one not assessed, so a grey print still tells them apart; our own choice.
+_OUTLINE_STYLES = {
+    "does not pass": ("solid", 1.5),
+    "passes": ((0, (4.0, 2.0)), 1.3),
+    "not assessed": ((0, (1.0, 1.5)), 1.1),
+}
 
-    Above :data:`_THIN_OUTLINES_ABOVE` sites the outlines are thin and half transparent, so
-    the deposition shows between them; the legend entry keeps the full line either way.
+#: Words of each class of verdict in the deposition figure's legend.
+_OUTLINE_LEGEND = {
+    "does not pass": "site that does not pass",
+    "passes": "site that passes",
+    "not assessed": "site not assessed",
+}
+
+
+def _outline_legend_label(kind: str, words: list[str]) -> str:
+    """A legend entry: the class of verdict, and the rule set's own words for it when they
+    differ (``site that does not pass (above threshold)``)."""
+    own = [w for w in dict.fromkeys(words) if w and w != kind][:2]
+    return f"{_OUTLINE_LEGEND[kind]} ({', '.join(own)})" if own else _OUTLINE_LEGEND[kind]
+
+
+def _draw_site_outlines(ax: Any, sites: gpd.GeoDataFrame) -> None:
+    """Draw every site's outline as one line collection, coloured and dashed by its verdict,
+    with a legend entry per class of verdict drawn.
+
+    Each site takes the colour of its class of verdict (:data:`VERDICT_COLOURS`: passes, does
+    not pass, not assessed; :func:`verdict_classes`) and the line style of
+    :data:`_OUTLINE_STYLES`, over a thin white halo that keeps it visible on the dark
+    classes. Above :data:`_THIN_OUTLINES_ABOVE` sites the outlines are thin, half transparent
+    and without halo, so the deposition shows between them; the legend keeps the full line.
     """
     from matplotlib.collections import LineCollection
+    from matplotlib.patheffects import withStroke
 
-    outlines = _site_outlines(sites.geometry)
-    width, alpha = (1.0, 1.0) if len(sites) <= _THIN_OUTLINES_ABOVE else (0.4, 0.6)
+    kinds = verdict_classes(sites)
+    outlines, owner = _site_rings(sites.geometry)
+    many = len(sites) > _THIN_OUTLINES_ABOVE
     if outlines:
-        ax.add_collection(LineCollection(outlines, colors="#8a1c0a", linewidths=width, alpha=alpha))
-    ax.plot([], [], color="#8a1c0a", linewidth=1.0, label="habitat site")
+        ring_kinds = [kinds[i] for i in owner]
+        styles = [_OUTLINE_STYLES.get(k, _OUTLINE_STYLES["not assessed"]) for k in ring_kinds]
+        widths = [0.4 if many else width for _, width in styles]
+        collection = LineCollection(
+            outlines,
+            colors=[VERDICT_COLOURS.get(k, VERDICT_COLOURS["not assessed"]) for k in ring_kinds],
+            linestyles=[style for style, _ in styles],
+            linewidths=widths,
+            alpha=0.6 if many else 1.0,
+        )
+        if not many:
+            collection.set_path_effects(
+                [withStroke(linewidth=max(widths) + 2.0, foreground="#ffffff", alpha=0.85)]
+            )
+        ax.add_collection(collection)
+    words = [str(v) if not is_missing(v) else "" for v in sites.get("verdict", [""] * len(sites))]
+    for kind in _OUTLINE_STYLES:  # the legend: each class drawn, worst first
+        if kind in kinds:
+            style, width = _OUTLINE_STYLES[kind]
+            label = _outline_legend_label(kind, [w for w, k in zip(words, kinds) if k == kind])
+            ax.plot([], [], color=VERDICT_COLOURS[kind], linestyle=style, linewidth=width,
+                    label=label)  # fmt: skip
 
 
 def _source_roles(sources: gpd.GeoDataFrame) -> list[str]:

@@ -19,10 +19,14 @@ The page is laid out to fit an A4 or Letter page, on screen and in print: no tab
 the page (the sources table is transposed, one column per source, and split into blocks of a few
 sources), long citations wrap in a smaller font or become numbered notes, and table rows are
 never split across pages. In print (A4 portrait) table headers repeat on each page, headings stay
-with what follows them, figures, list items and the run record's small tables are kept whole,
-and figures are capped in height so that two fit on a page. The weather charts (wind rose,
-stability by wind speed) sit in section 2 right after the weather summary; the other figures
-in section 5.
+with what follows them, figures and list items are kept whole, and figures are capped in height
+so that two fit on a page; every page but the first is headed by the title and the [project]
+reference, and footed by "Page n of N"; the contents and the collapsed raw run record are left
+out (run.json holds it). report.pdf is laid out from this very page by
+:mod:`siting.presentation.report_pdf`. Status notes of the sources' and thresholds' citations
+("from memory", "confirmed") are numbered notes under their tables, as the habitats' are. The
+weather charts (wind rose, stability by wind speed) sit in section 2 right after the weather
+summary; the other figures in section 5.
 """
 
 from __future__ import annotations
@@ -311,6 +315,30 @@ def _verdict_counts(sites: pd.DataFrame) -> str:
     return "; ".join(f"{n} {k}" for k, n in counts.items()) or "no sites"
 
 
+#: The [project] keys shown on the report's cover, in this order, with their labels.
+_PROJECT_LABELS = (
+    ("applicant", "Applicant"),
+    ("site", "Site"),
+    ("reference", "Reference"),
+    ("author", "Prepared by"),
+    ("date", "Date"),
+)
+
+
+def _project(project: Any) -> tuple[list[tuple[str, str, bool]], str | None]:
+    """The cover's project rows (label, text, whether it is the reference) of the keys given,
+    and the reference alone (for the running header); ([], None) without a [project]."""
+    if not isinstance(project, Mapping):
+        return [], None
+    rows = [
+        (label, text(project[key]), key == "reference")
+        for key, label in _PROJECT_LABELS
+        if not is_missing(project.get(key))
+    ]
+    reference = project.get("reference")
+    return rows, None if is_missing(reference) else text(reference)
+
+
 # --------------------------------------------------------------------------------------------
 # The page
 # --------------------------------------------------------------------------------------------
@@ -376,7 +404,10 @@ def render_report(  # over 80 lines only for the docstring of its 18 parameters
         Method and assumption statements for section 3.
     run_record : dict
         Version, time, inputs with SHA-256 and parameters; shown as tables, and in full as
-        indented JSON in a collapsed block.
+        indented JSON in a collapsed block. Its ``project`` ([project]: applicant, site,
+        reference, author, date) heads the page, the reference also every printed page; its
+        ``command`` ("screen" when absent) says which settings apply. Paths are shown as
+        given: the writer passes them relative (:func:`siting.output.portable.portable_record`).
     figures : dict of str to bytes
         Caption -> PNG bytes, inlined as data URLs in that order (section 5).
     weather_figures : mapping of str to bytes, optional
@@ -412,10 +443,14 @@ def render_report(  # over 80 lines only for the docstring of its 18 parameters
         )
     parameters = run_record.get("parameters")
     end = str((parameters or {}).get("assessment", {}).get("critical_load_end", "lower"))
+    command = str(run_record.get("command", "screen"))
+    project, reference = _project(run_record.get("project"))
     return render(
         "report.html",
         page_title=f"{title} · siting report",
         title=text(title),
+        project=project,
+        reference=reference,
         version=text(version),
         run_time=text(run_time),
         scenario_file=text(scenario_file),
@@ -431,7 +466,7 @@ def render_report(  # over 80 lines only for the docstring of its 18 parameters
             (text(sid), text(words))
             for sid, words in zip(what_it_takes["source_id"], what_it_takes["cheapest_option"])
         ],
-        inputs=inputs_view(sources, weather_summary, habitat_values, sites, parameters),
+        inputs=inputs_view(sources, weather_summary, habitat_values, sites, parameters, command),
         weather_figures=_figures(weather_figures or {}),
         method_notes=[text(note) for note in method_notes],
         cautious=_cautious(cautious_choices, sites, sensitivity_summary, end),

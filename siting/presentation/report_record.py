@@ -31,6 +31,7 @@ from siting.presentation.html_parts import (
     plain_label,
     text,
 )
+from siting.presentation.settings_view import settings_groups
 
 __all__ = ["flag_count", "inputs_view", "run_record_view"]
 
@@ -175,35 +176,12 @@ _WEATHER_LABELS = {
     "emission_profile": "Hourly emission profile",
 }
 
-#: Keys of the run record shown elsewhere in the report (not repeated in section 7's tables).
+#: Keys of the run record shown elsewhere in the report (not repeated in section 8's tables).
 _RECORD_SHOWN_ELSEWHERE = {
+    "project": "the top of the report",
     "weather_summary": "section 2",
     "warnings": "section 6",
     "cautions": "section 7",
-}
-
-#: Scenario parameters not repeated in the model settings table (shown elsewhere).
-_SETTINGS_SHOWN_ELSEWHERE = frozenset({"title", "source", "sources"})
-
-#: Labels of scenario parameters whose names alone read poorly.
-_SETTING_LABELS = {
-    "crs": "Coordinate reference system",
-    "path": "Scenario file",
-    "hourly": "Hourly weather file",
-    "land_type": "Land type (dispersion coefficients)",
-    "sigma_scheme": "Dispersion coefficient scheme",
-    "min_wind_speed_m_s": "Minimum wind speed [m/s]",
-    "plume_depletion": "Plume depletion by deposition",
-    "depletion_land_cover": "Land cover used for depletion",
-    "critical_load_end": "End of the critical load range used",
-    "critical_load_review": "Critical load review used",
-    "wind_below_anemometer": "Wind below the anemometer height",
-    "wind_profile_min_height_m": "Lowest height of the wind profile [m]",
-    "direction_step_deg": "Reporting step of hourly wind directions [deg]",
-    "temperature_dependent_emission": "Temperature-dependent hourly emission",
-    "lichens_bryophytes_field": "Field saying whether lichens and bryophytes are present",
-    "lichens_bryophytes_absent": "Sites stated free of lichens and bryophytes",
-    "config_dir": "Own configuration tables folder",
 }
 
 
@@ -244,14 +222,16 @@ def _source_ids(sources: pd.DataFrame) -> list[str]:
     return [f"#{i + 1}" for i in range(len(sources))]
 
 
-def _derivation_cell(column: str, value: Any) -> Cell:
-    """One cell of the transposed sources table, styled by what the row holds."""
+def _derivation_cell(column: str, value: Any, notes: _Notes) -> Cell:
+    """One cell of the transposed sources table, styled by what the row holds; a citation
+    (where a figure comes from, and how sure it is) becomes the number of its note in
+    ``notes`` (css "note"), listed under the table."""
     if is_missing(value):
         return Cell(NOT_APPLICABLE, "na")
     if column in _FLAG_ROWS:
         return Cell(f"⚠ {text(value)}", "flag")
     if column in _CITATION_ROWS:
-        return Cell(text(value), "cite")
+        return Cell(notes.ref(value), "note")
     if is_share(column) and is_number(value):
         return Cell(format_percent(100.0 * float(value)), "num")
     if is_number(value):
@@ -265,7 +245,8 @@ def _source_blocks(sources: pd.DataFrame) -> list[dict[str, Any]]:
     """The emission derivation, transposed: one column per source, one row per step.
 
     Split into blocks of at most ``_SOURCES_PER_BLOCK`` sources so that it fits the page; each
-    block holds its column heads (id, flagged) and its groups of rows.
+    block holds its column heads (id, flagged), its groups of rows and the notes its citation
+    cells refer to by number (each distinct text once, numbered down the rows and across).
     """
     ids = _source_ids(sources)
     listed = {column for _, rows in _DERIVATION_ROWS for column, _ in rows}
@@ -280,6 +261,7 @@ def _source_blocks(sources: pd.DataFrame) -> list[dict[str, Any]]:
     blocks = []
     for start in range(0, len(sources), _SOURCES_PER_BLOCK):
         part = range(start, min(start + _SOURCES_PER_BLOCK, len(sources)))
+        notes = _Notes()
         block_groups = [
             {
                 "heading": heading,
@@ -287,7 +269,9 @@ def _source_blocks(sources: pd.DataFrame) -> list[dict[str, Any]]:
                     {
                         "label": label,
                         "result": column in _RESULT_ROWS,
-                        "cells": [_derivation_cell(column, sources[column].iloc[i]) for i in part],
+                        "cells": [
+                            _derivation_cell(column, sources[column].iloc[i], notes) for i in part
+                        ],
                     }
                     for column, label in rows
                 ],
@@ -296,7 +280,14 @@ def _source_blocks(sources: pd.DataFrame) -> list[dict[str, Any]]:
             if rows
         ]
         heads = [(ids[i], flagged[i]) for i in part]
-        blocks.append({"heads": heads, "span": len(part) + 1, "groups": block_groups})
+        blocks.append(
+            {
+                "heads": heads,
+                "span": len(part) + 1,
+                "groups": block_groups,
+                "notes": notes.texts(),
+            }
+        )
     return blocks
 
 
@@ -358,7 +349,8 @@ def _habitats(values: pd.DataFrame) -> dict[str, Any] | None:
 
 
 def _thresholds(sites: pd.DataFrame) -> dict[str, Any] | None:
-    """The screening threshold of each designation used, with its source (None if not known)."""
+    """The screening threshold of each designation used, its source as a numbered note under
+    the table (None if not known)."""
     if "threshold_percent" not in sites or not len(sites):
         return None
     columns = [c for c in ("designation", "tier", "threshold_percent", "threshold_source")
@@ -367,52 +359,22 @@ def _thresholds(sites: pd.DataFrame) -> dict[str, Any] | None:
         "designation": ("Designation", ""),
         "tier": ("Tier", ""),
         "threshold_percent": ("Threshold", "% of CLe and CL"),
-        "threshold_source": ("Where the threshold comes from", ""),
+        "threshold_source": ("Source", "note below"),
     }
     rows = []
+    notes = _Notes()
     for _, record in pd.DataFrame(sites[columns]).drop_duplicates().iterrows():
         cells = []
         for c in columns:
             if c == "threshold_percent":
                 cells.append(number_cell(record[c], c))
-            elif c == "threshold_source":
-                cells.append(Cell(text(record[c]), "cite"))
+            elif c == "threshold_source":  # the number of its note under the table
+                number = notes.ref(record[c])
+                cells.append(Cell(number, "note") if number else Cell(NOT_APPLICABLE, "na"))
             else:
                 cells.append(Cell(text(record[c]), wrap=True))
         rows.append(cells)
-    return {"heads": [labels[c] for c in columns], "rows": rows}
-
-
-def _settings(parameters: Mapping[str, Any]) -> list[tuple[str, list[tuple[str, Any]]]]:
-    """The scenario's settings as read (defaults filled in), grouped by scenario table:
-    (heading, [(label, value as shown, None for "not set")]) per group with entries.
-
-    Sources (section 2's derivation) and the title are left out.
-    """
-    groups: list[tuple[str, dict[str, Any]]] = [("General", {})]
-    for key, value in parameters.items():
-        if key in _SETTINGS_SHOWN_ELSEWHERE:
-            continue
-        if isinstance(value, Mapping):
-            groups.append((plain_label(key), dict(value)))
-        elif isinstance(value, (list, tuple)) and any(isinstance(v, Mapping) for v in value):
-            continue  # a list of tables, e.g. sources: shown elsewhere
-        else:
-            groups[0][1][key] = value
-    return [
-        (
-            heading,
-            [
-                (
-                    _SETTING_LABELS.get(str(key), plain_label(str(key))),
-                    None if value is None else display_value(str(key), value),
-                )
-                for key, value in entries.items()
-            ],
-        )
-        for heading, entries in groups
-        if entries
-    ]
+    return {"heads": [labels[c] for c in columns], "rows": rows, "notes": notes.texts()}
 
 
 def inputs_view(
@@ -421,16 +383,19 @@ def inputs_view(
     habitat_values: pd.DataFrame,
     sites: pd.DataFrame,
     parameters: Any,
+    command: str = "screen",
 ) -> dict[str, Any]:
     """Section 2 of report.html as plain values: the sources' derivation blocks (None when no
-    source), the weather rows, the habitats (None when none), the thresholds used (None when
-    not known) and the model settings groups ([] when the record has no parameters)."""
+    source) with their numbered notes, the weather rows, the habitats (None when none), the
+    thresholds used (None when not known) and the settings that apply to the run (``command``
+    made it; [] when the record has no parameters,
+    :func:`siting.presentation.settings_view.settings_groups`)."""
     return {
         "source_blocks": _source_blocks(sources) if len(sources) else None,
         "weather": key_values(weather_summary, _WEATHER_LABELS),
         "habitats": _habitats(habitat_values),
         "thresholds": _thresholds(sites),
-        "settings": _settings(parameters) if isinstance(parameters, Mapping) else [],
+        "settings": settings_groups(parameters, command) if isinstance(parameters, Mapping) else [],
     }
 
 
@@ -439,10 +404,14 @@ def inputs_view(
 # --------------------------------------------------------------------------------------------
 
 
-def _file_hashes(files: Mapping[str, Any], heading: str, first_header: str) -> dict[str, Any]:
+def _file_hashes(
+    files: Mapping[str, Any], heading: str, first_header: str, version: str
+) -> dict[str, Any]:
     """Input files as table values: key, file name and folder (None when no path), SHA-256.
 
-    The key column is left out (``show_key`` False) when every key is just the file's name.
+    The key column is left out (``show_key`` False) when every key is just the file's name. A
+    file bundled with siting (its entry marked ``bundled``) says so after its folder, with
+    the version of siting that made the run (``version``).
     """
     entries = {k: (e if isinstance(e, Mapping) else {"sha256": e}) for k, e in files.items()}
     show_key = any(
@@ -455,7 +424,10 @@ def _file_hashes(files: Mapping[str, Any], heading: str, first_header: str) -> d
         file = None
         if not is_missing(path):
             pure = PurePath(str(path))
-            file = (text(pure.name), str(pure.parent) if str(pure.parent) not in ("", ".") else "")
+            folder = str(pure.parent) if str(pure.parent) not in ("", ".") else ""
+            if entry.get("bundled") is True:
+                folder = f"{folder} (bundled with siting {version})".lstrip()
+            file = (text(pure.name), folder)
         rows.append((text(key), file, text(entry.get("sha256"))))
     return {"heading": heading, "first_header": first_header, "show_key": show_key, "rows": rows}
 
@@ -475,7 +447,7 @@ def run_record_view(record: Mapping[str, Any]) -> dict[str, Any]:
         ("config_tables", "Configuration tables", "Table"),
     ):
         if isinstance(record.get(key), Mapping) and record[key]:
-            files.append(_file_hashes(record[key], heading, first))
+            files.append(_file_hashes(record[key], heading, first, text(record.get("version"))))
             done.add(key)
     grid = None
     if isinstance(record.get("grid"), Mapping):

@@ -7,7 +7,9 @@ self-contained HTML page for the regulator's file; the jinja2 template ``verify.
 them out, and :mod:`siting.output.verify` writes the file. The page has inline CSS, no scripts
 and no links outside the file, so it reads the same offline years later. No checking happens
 here: verdicts, hashes, comparison, findings and sensitivity arrive as plain data; this module
-orders, counts and formats them. Text that may come from the applicant's files (site names, file
+orders, counts and formats them; the first section (what changed since the run) is built by
+:mod:`siting.presentation.verify_changes` and the sensitivity section by
+:mod:`siting.presentation.verify_sensitivity`. Text that may come from the applicant's files (site names, file
 names, source ids, finding subjects, evidence) is escaped by the template (autoescape). The page
 is laid out for A4 portrait, on screen and in print: table rows are never split across pages,
 headings stay with what follows, table headers repeat, nothing is collapsed."""
@@ -25,6 +27,8 @@ from siting.errors import InputError
 from siting.presentation.formats import MISSING_TEXT, format_number, format_percent, is_missing
 from siting.presentation.html_parts import display_value, is_number, plain_label, render, text
 from siting.presentation.html_parts import verdict as verdict_view
+from siting.presentation.verify_changes import changes_view
+from siting.presentation.verify_sensitivity import flipping_sites, sensitivity_view
 
 __all__ = ["SENSITIVITY_COLUMNS", "SENSITIVITY_SUMMARY_COLUMNS", "render_verify_report"]
 
@@ -62,9 +66,6 @@ _INTEGRITY_STYLE = {
 #: Most receptor rows listed in the differences table; beyond that the largest are listed.
 _MAX_RECEPTOR_ROWS = 200
 
-#: Name of the central (unvaried) run in the sensitivity tables.
-_CENTRAL = "central"
-
 #: The verdicts of a site shown side by side: as submitted, re-run, under the regulator's set.
 _VERDICT_KINDS = ("submitted", "rerun", "regulator")
 
@@ -83,18 +84,6 @@ def _is_percent_column(column: str) -> bool:
     """True when a column name says it holds a percentage (``pc_pct_load``, ``*_percent``)."""
     name = str(column).lower()
     return name.endswith(("_percent", "_pct")) or "_pct_" in name or name.startswith("pct_")
-
-
-def _percent_text(value: Any, decimals: int | None = None) -> str:
-    """A percentage without the sign: 2 decimals below 100 %, 1 from there (or `decimals`)."""
-    if not is_number(value):
-        return format_number(value)
-    number = float(value)
-    if not np.isfinite(number):
-        return format_number(number)
-    if decimals is None:
-        decimals = 2 if abs(number) < 100.0 else 1
-    return format_percent(number, decimals)
 
 
 def _pair_texts(first: Any, second: Any, column: str) -> tuple[str, str]:
@@ -137,15 +126,6 @@ def _severity_badge(severity: str) -> tuple[str, str]:
     return css, text(severity or "unrated")
 
 
-def _truthy(value: Any) -> bool:
-    """A flag from a table cell: True, 1, "true", "yes" are true; missing is false."""
-    if is_missing(value):
-        return False
-    if isinstance(value, str):
-        return value.strip().lower() in {"true", "yes", "1", "y"}
-    return bool(value)
-
-
 def _check_columns(table: pd.DataFrame, columns: Sequence[str], name: str) -> None:
     """Raise InputError naming the missing columns of a non-empty table."""
     if table is None or not len(table):
@@ -186,20 +166,6 @@ def _integrity_problem_text(bad: Sequence[Mapping[str, Any]]) -> str:
     return ", ".join(f"{n} {status}" for status, n in counts.items())
 
 
-def _flipping_sites(summary: pd.DataFrame) -> list[str]:
-    """Names of the sites whose verdict flips in some variant."""
-    if summary is None or not len(summary) or "verdict_flips" not in summary:
-        return []
-    return [
-        str(row.get("site")) for _, row in summary.iterrows() if _truthy(row.get("verdict_flips"))
-    ]
-
-
-def _range_text(low: Any, high: Any) -> str:
-    """``"0.84 – 1.12"`` (2 decimals below 100 %)."""
-    return f"{_percent_text(low)} – {_percent_text(high)}"
-
-
 # --- What precedes the sections: the verdict box and the list of checks ----------------------
 
 
@@ -208,11 +174,11 @@ def _verdict_box(verdict_text: str, exit_code: int, n_high: int, flips: Sequence
     the exit codes and their meaning)."""
     attention = []
     if n_high:
-        attention.append(f"{_plural(n_high, 'high-severity finding')} (section 1)")
+        attention.append(f"{_plural(n_high, 'high-severity finding')} (section 2)")
     if flips:
         attention.append(
             f"{_plural(len(flips), 'site')} whose verdict flips in the sensitivity analysis "
-            "(section 4)"
+            "(section 5)"
         )
     return {
         "css": {0: "pass", 1: "fail"}.get(int(exit_code), "unknown"),
@@ -226,8 +192,10 @@ def _checks(
     integrity: Sequence[Mapping[str, Any]],
     differences: Sequence[Mapping[str, Any]],
     summary: pd.DataFrame,
+    changes: Mapping[str, Any] | None = None,
 ) -> dict[str, tuple[str, str]]:
-    """The outcome of each check, (text, "good", "bad" or "" for neither), by section."""
+    """The outcome of each check, (text, "good", "bad" or "" for neither), by section
+    (``changes``: the view of :func:`changes_view`, None when nothing was compared)."""
     by_severity = _severity_counts(findings)
     n_serious = by_severity.get("high", 0) + by_severity.get("medium", 0)
     finding_text = (
@@ -250,7 +218,7 @@ def _checks(
         "tolerance"
         + (f", {unexplained} of them unexplained." if unexplained else ", all explained.")
     )
-    flips = _flipping_sites(summary)
+    flips = flipping_sites(summary)
     n_sites = len(summary) if summary is not None else 0
     sensitivity_text = (
         "No sensitivity analysis was run."
@@ -261,7 +229,13 @@ def _checks(
             else f"No verdict flips for any of the {_plural(n_sites, 'site')}."
         )
     )
+    changes_check = (
+        ("Nothing recorded to compare with.", "")
+        if changes is None
+        else (changes["lead"], "good" if changes["nothing"] else "bad")
+    )
     return {
+        "changes": changes_check,
         "findings": (finding_text, "bad" if n_serious else "good"),
         "integrity": (integrity_text, "bad" if bad_files else "good"),
         "figures": (difference_text, "bad" if unexplained else ("" if differences else "good")),
@@ -429,81 +403,10 @@ def _figures(
     return {"same_version": same, "lead": lead, "rows": rows, "more": more}
 
 
-# --- Section 4: sensitivity ------------------------------------------------------------------
-
-
-def _summary_rows(summary: pd.DataFrame) -> list[tuple]:
-    """Per site: whether its verdict flips and under which variants (None when not given), the
-    site, its central verdict and % of critical load, and the two ranges over the variants."""
-    rows = []
-    for _, row in summary.iterrows():
-        variants = row.get("flipping_variants")
-        rows.append(
-            (
-                _truthy(row.get("verdict_flips")),
-                None if is_missing(variants) else text(variants),
-                text(row.get("site")),
-                verdict_view(row.get("central_verdict")),
-                _percent_text(row.get("central_pct_load")),
-                _range_text(row.get("min_pct_load"), row.get("max_pct_load")),
-                _range_text(row.get("min_pct_level"), row.get("max_pct_level")),
-            )
-        )
-    return rows
-
-
-def _variant_groups(sensitivity: pd.DataFrame) -> list[tuple[str, list[tuple]]]:
-    """Every (site, variant) run, grouped by site: (row class, variant, % of load, % of level,
-    verdict); a row whose verdict differs from the site's central verdict has the class
-    ``flips``, the central run ``central``."""
-    groups = []
-    for site, group in sensitivity.groupby("site", sort=False, dropna=False):
-        central = [
-            r["verdict"] for _, r in group.iterrows()
-            if str(r["variant"]).strip().lower() == _CENTRAL
-        ]  # fmt: skip
-        central_verdict = None if not central else str(central[0]).strip().lower()
-        rows = []
-        for _, r in group.iterrows():
-            is_central = str(r["variant"]).strip().lower() == _CENTRAL
-            shown = "" if is_missing(r["verdict"]) else str(r["verdict"]).strip().lower()
-            flips = central_verdict is not None and not is_central and shown != central_verdict
-            css = "flips" if flips else ("central" if is_central else "")
-            rows.append((css, text(r["variant"]), _percent_text(r["pct_load"]),
-                         _percent_text(r["pct_level"]), verdict_view(r["verdict"])))  # fmt: skip
-        groups.append((text(site), rows))
-    return groups
-
-
-def _sensitivity(sensitivity: pd.DataFrame, summary: pd.DataFrame) -> dict[str, Any] | None:
-    """Section 4: the per-site summary (with its lead sentence), then every variant by site;
-    None when no sensitivity analysis was run."""
-    has_summary = summary is not None and len(summary)
-    has_long = sensitivity is not None and len(sensitivity)
-    if not has_summary and not has_long:
-        return None
-    lead, rows = None, None
-    if has_summary:
-        flips = _flipping_sites(summary)
-        lead = (
-            f"The verdict flips for {len(flips)} of {_plural(len(summary), 'site')}: "
-            + ", ".join(flips)
-            + "."
-            if flips
-            else f"The verdict holds across every variant for all {_plural(len(summary), 'site')}."
-        )
-        rows = _summary_rows(summary)
-    return {
-        "lead": lead,
-        "rows": rows,
-        "groups": _variant_groups(sensitivity) if has_long else None,
-    }
-
-
 # --- The page --------------------------------------------------------------------------------
 
 
-def render_verify_report(  # over 80 lines only for the docstring of its 15 parameters
+def render_verify_report(  # over 80 lines only for the docstring of its 16 parameters
     *,
     submission: str,
     submitted_version: str,
@@ -520,6 +423,7 @@ def render_verify_report(  # over 80 lines only for the docstring of its 15 para
     cautions: list[str],
     verdicts: list[dict] | None = None,
     rule_sets: str = "",
+    changes: dict | None = None,
 ) -> str:
     """verify.html as text: a self-contained, offline-readable verification report.
 
@@ -565,6 +469,9 @@ def render_verify_report(  # over 80 lines only for the docstring of its 15 para
         ``<kind>_passes`` for each kind of _VERDICT_KINDS, and ``regulator_rule``.
     rule_sets : str
         Which rule sets were used, in one line.
+    changes : dict, optional
+        What changed since the run (``Changes.as_dict()`` of :mod:`siting.runs.changes`):
+        the page's first section; None says nothing was compared.
 
     Returns
     -------
@@ -579,6 +486,7 @@ def render_verify_report(  # over 80 lines only for the docstring of its 15 para
     _check_columns(sensitivity, SENSITIVITY_COLUMNS, "sensitivity")
     _check_columns(sensitivity_summary, SENSITIVITY_SUMMARY_COLUMNS, "sensitivity summary")
     n_high = _severity_counts(findings).get("high", 0)
+    changed = changes_view(changes)
     name = PurePath(str(submission)).name or submission
     return render(
         "verify.html",
@@ -588,13 +496,14 @@ def render_verify_report(  # over 80 lines only for the docstring of its 15 para
         this_version=text(this_version),
         run_time=text(run_time),
         exit_code=int(exit_code),
-        box=_verdict_box(verdict, exit_code, n_high, _flipping_sites(sensitivity_summary)),
-        checks=_checks(findings, integrity, differences, sensitivity_summary),
+        box=_verdict_box(verdict, exit_code, n_high, flipping_sites(sensitivity_summary)),
+        checks=_checks(findings, integrity, differences, sensitivity_summary, changed),
+        changes=changed,
         findings=_findings(findings) if findings else None,
         verdicts=_verdicts(verdicts, rule_sets),
         integrity=_integrity(integrity) if integrity else None,
         tolerance=text(tolerance_text),
         figures=_figures(differences, submitted_version, this_version),
-        sensitivity=_sensitivity(sensitivity, sensitivity_summary),
+        sensitivity=sensitivity_view(sensitivity, sensitivity_summary),
         cautions=[text(caution) for caution in cautions],
     )

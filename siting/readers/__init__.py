@@ -55,9 +55,11 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "Scenario": "siting.readers.scenario",
         "projected_crs": "siting.readers.scenario",
         "load_scenario": "siting.readers.scenario",
+        "named_files": "siting.readers.scenario",
         # scenario_appraisal.py: the scenario's optional [appraisal] prices and interest rate
         "AppraisalSection": "siting.readers.scenario_appraisal",
         # scenario_sections.py: the scenario's sections other than its sources
+        "ProjectSection": "siting.readers.scenario_sections",
         "WeatherSection": "siting.readers.scenario_sections",
         "SeasonalSection": "siting.readers.scenario_sections",
         "GridSection": "siting.readers.scenario_sections",
@@ -83,6 +85,9 @@ __all__, __getattr__, __dir__ = lazy_exports(
         # submission.py: reading a submitted screening run for ``siting verify``
         "Submission": "siting.readers.submission",
         "load_submission": "siting.readers.submission",
+        # toml_values.py: the values of a run's TOML inputs as JSON data, for run.json
+        "read_toml_values": "siting.readers.toml_values",
+        "recorded_toml_values": "siting.readers.toml_values",
         # table_appraisal.py: abatement_appraisal.toml's rows and file (pydantic models)
         "ScrubberCostRow": "siting.readers.table_appraisal",
         "HousingMeasureCostRow": "siting.readers.table_appraisal",

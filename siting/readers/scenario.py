@@ -34,6 +34,7 @@ from siting.readers.scenario_sections import (
     GridSection,
     HabitatsSection,
     HoldingSection,
+    ProjectSection,
     ReceptorsSection,
     SeasonalSection,
     WeatherSection,
@@ -52,6 +53,8 @@ class Scenario(_Section):
         Title shown in every output.
     crs : str
         Projected CRS in metres; every x/y of the file is in it.
+    project : ProjectSection, optional
+        [project]: applicant, site, reference, author and date, for the report's cover.
     weather : WeatherSection
         [weather].
     grid : GridSection
@@ -88,6 +91,7 @@ class Scenario(_Section):
 
     title: str = Field(min_length=1, max_length=200)
     crs: str
+    project: ProjectSection | None = None
     weather: WeatherSection
     grid: GridSection = GridSection()
     deposition: DepositionSection = DepositionSection()
@@ -253,7 +257,16 @@ def _where(loc: tuple, raw: dict) -> tuple[str, str]:
     return ".".join(section), ".".join(keys)
 
 
-_SECTIONS = ("weather", "grid", "deposition", "assessment", "habitats", "receptors", "appraisal")
+_SECTIONS = (
+    "project",
+    "weather",
+    "grid",
+    "deposition",
+    "assessment",
+    "habitats",
+    "receptors",
+    "appraisal",
+)
 
 
 def _known_keys(loc: tuple) -> list[str]:
@@ -295,8 +308,19 @@ def _format_error(exc: ValidationError, raw: dict, filename: str) -> str:
         msg = err["msg"].removeprefix("Value error, ")
         if isinstance(got, (dict, list)):
             return f"{prefix}: {key + ': ' if key else ''}{msg}"
-        return f"{prefix}: {key + ': ' if key else ''}{msg}, got {got!r}"
+        return f"{prefix}: {key + ': ' if key else ''}{msg}, got {_shown(got)}"
     return f"{prefix}: {key} {validation_wording(err)}"
+
+
+#: Longest text of a refused value an error message repeats [characters]; a longer one is cut.
+_SHOWN_MAX = 60
+
+
+def _shown(value) -> str:
+    """A refused value as an error message repeats it: its repr, a long text cut short."""
+    if isinstance(value, str) and len(value) > _SHOWN_MAX:
+        return f"{value[:_SHOWN_MAX]!r}... ({len(value)} characters)"
+    return repr(value)
 
 
 #: pydantic error types worded by errors.validation_wording (others keep pydantic's message)
@@ -564,3 +588,52 @@ def _resolved_holding(
             "exclusion": exclusions,
         }
     )
+
+
+def named_files(path: str | Path) -> dict[str, str]:
+    """The files a scenario file names, as written, by the key its run record gives each.
+
+    The keys are those of run.json's ``inputs`` and of the package map (``weather``,
+    ``weather_2``, ..., ``habitats``, ``receptors``, ``rules``, ``holding``, ``exclusion_1``,
+    ...), and ``config_dir`` for its own tables folder; the values are the texts of the file,
+    unresolved. ``siting verify`` uses them to find each packed copy wherever the scenario
+    named the file (an absolute path included). Nothing is validated beyond the TOML itself.
+
+    Parameters
+    ----------
+    path : str or Path
+        The scenario file.
+
+    Returns
+    -------
+    dict of str to str
+
+    Raises
+    ------
+    InputFileError, InputError
+        As :func:`load_scenario` raises them for a missing or unreadable file.
+    """
+    raw = _read_toml(Path(path))
+
+    def table(value) -> dict:
+        return value if isinstance(value, dict) else {}
+
+    found: dict[str, object] = {}
+    weather = table(raw.get("weather"))
+    hourly = weather.get("hourly")
+    records = hourly if isinstance(hourly, list) else [hourly or weather.get("frequency_table")]
+    for i, record in enumerate(records, start=1):
+        found["weather" if i == 1 else f"weather_{i}"] = record
+    found["habitats"] = table(raw.get("habitats")).get("file")
+    found["receptors"] = table(raw.get("receptors")).get("file")
+    assessment = table(raw.get("assessment"))
+    rules = assessment.get("rules")
+    if isinstance(rules, str) and _names_a_file(rules):
+        found["rules"] = rules
+    found["config_dir"] = assessment.get("config_dir")
+    holding = table(raw.get("holding"))
+    found["holding"] = holding.get("file")
+    exclusions = holding.get("exclusion")
+    for i, exclusion in enumerate(exclusions if isinstance(exclusions, list) else [], start=1):
+        found[f"exclusion_{i}"] = table(exclusion).get("file")
+    return {key: value for key, value in found.items() if isinstance(value, str) and value}

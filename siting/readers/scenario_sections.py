@@ -1,25 +1,111 @@
 """The scenario file's sections other than its sources, as pydantic models.
 
-[weather], [seasonal], [grid], [deposition], [assessment], [habitats], [receptors] and
-[holding] (with its [[holding.exclusion]] layers): each model checks its keys (unknown keys,
-types, units, ranges) and the rules between them. The [[source]] tables are in
-``scenario_sources.py``; the whole file, its error messages and its paths in ``scenario.py``.
+[project] (who and what the report is for), [weather], [seasonal], [grid], [deposition],
+[assessment], [habitats], [receptors] and [holding] (with its [[holding.exclusion]] layers):
+each model checks its keys (unknown keys, types, units, ranges) and the rules between them.
+The [[source]] tables are in ``scenario_sources.py``; the whole file, its error messages and
+its paths in ``scenario.py``.
 """
 
 from __future__ import annotations
 
+import datetime
+import re
+import unicodedata
 from pathlib import Path
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, StrictBool, StringConstraints, model_validator
+from pydantic import (
+    AfterValidator,
+    BaseModel,
+    BeforeValidator,
+    ConfigDict,
+    Field,
+    StrictBool,
+    StringConstraints,
+    model_validator,
+)
 
 FilePath = Annotated[Path, Field(strict=False)]
+
+#: Line breaks and tabs in a [project] text, with the spaces round them: each run becomes one
+#: space (the text is shown on one line).
+_LINE_BREAKS = re.compile(r"\s*[\t\n\r\v\f\x85\u2028\u2029]+\s*")
+
+
+def _one_line(value):
+    """A [project] text as shown: line breaks and tabs become a space, every other control or
+    format character (Unicode categories Cc, Cf: escapes, bidirectional overrides) is dropped,
+    and the ends are stripped. Anything but a string is left to the type check."""
+    if not isinstance(value, str):
+        return value
+    value = _LINE_BREAKS.sub(" ", value)
+    kept = "".join(c for c in value if unicodedata.category(c) not in ("Cc", "Cf"))
+    return kept.strip()
+
+
+def _project_text(max_length: int):
+    """A [project] text: cleaned by :func:`_one_line`, then 1..max_length characters."""
+
+    def length(value: str) -> str:
+        if not value:
+            raise ValueError("must not be blank")
+        if len(value) > max_length:
+            raise ValueError(f"must be at most {max_length} characters")
+        return value
+
+    return Annotated[str, BeforeValidator(_one_line), AfterValidator(length)]
+
+
+def _iso_date(value):
+    """A [project] date: a TOML date as it is, an ISO date text (YYYY-MM-DD) read; a TOML
+    date and time, or any other value, refused in words."""
+    if isinstance(value, datetime.datetime):  # a subclass of date: refused, not truncated
+        raise ValueError("must be a date without a time, e.g. 2025-03-14")
+    if isinstance(value, datetime.date):
+        return value
+    if isinstance(value, str):
+        try:
+            return datetime.date.fromisoformat(value.strip())
+        except ValueError:
+            pass
+    raise ValueError("must be an ISO date YYYY-MM-DD, e.g. 2025-03-14")
 
 
 class _Section(BaseModel):
     # strict: a TOML string or boolean is never taken for a number; floats accept integers.
     # Paths are given as text, so path fields relax strictness (FilePath below).
     model_config = ConfigDict(extra="forbid", frozen=True, strict=True, allow_inf_nan=False)
+
+
+class ProjectSection(_Section):
+    """[project]: who and what the report is for, shown on its cover and in run.json (optional).
+
+    Every key is optional text (the date an ISO date). Line breaks and tabs become spaces,
+    other control characters are dropped, and the ends are stripped before the length is
+    checked. Nothing here enters a computation.
+
+    Attributes
+    ----------
+    applicant : str, optional
+        Who applies (a person or a business), at most 200 characters.
+    site : str, optional
+        The site's address or description, at most 300 characters.
+    reference : str, optional
+        The application's or job's reference, at most 100 characters; shown in the report's
+        running header.
+    author : str, optional
+        Who prepared the screening, at most 200 characters.
+    date : datetime.date, optional
+        The report's date: a TOML date (``2025-03-14``) or an ISO date text.
+    """
+
+    applicant: _project_text(200) | None = None
+    site: _project_text(300) | None = None
+    reference: _project_text(100) | None = None
+    author: _project_text(200) | None = None
+    # a TOML date literal arrives as datetime.date; an ISO text is read by _iso_date
+    date: Annotated[datetime.date, BeforeValidator(_iso_date)] | None = None
 
 
 class WeatherSection(_Section):

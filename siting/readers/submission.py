@@ -10,12 +10,13 @@ from __future__ import annotations
 import json
 import os
 from dataclasses import dataclass
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 
 import pandas as pd
 
 from siting.errors import InputError, InputFileError
 from siting.readers.csv_cells import spreadsheet_text
+from siting.readers.scenario import named_files
 
 
 @dataclass
@@ -38,6 +39,9 @@ class Submission:
         Each packed input's original absolute path -> where it is now.
     config_dir : Path or None
         The packed config tables; None to use the scenario's own.
+    sources : pandas.DataFrame or None
+        The submitted sources table (sources.csv: each source's emission derivation), where
+        there is one.
     """
 
     folder: Path
@@ -47,11 +51,12 @@ class Submission:
     scenario_path: Path
     moved: dict[str, Path]
     config_dir: Path | None
+    sources: pd.DataFrame | None = None
 
 
 def _read_csv(path: Path, what: str, parameters: tuple[str, ...] = ()) -> pd.DataFrame:
     try:
-        table = pd.read_csv(path, dtype={"id": str, "site_id": str, "name": str})
+        table = pd.read_csv(path, dtype={"id": str, "site_id": str, "source_id": str, "name": str})
     except FileNotFoundError as exc:
         raise InputFileError(f"{what}: {path} not found", parameters=parameters) from exc
     except Exception as exc:  # pandas raises many types
@@ -106,7 +111,7 @@ def load_submission(path: Path, results: Path | None = None) -> Submission:
         raise InputFileError(
             f"{path}: no run.json; is this an output folder of `siting screen`?"
         ) from exc
-    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+    except (json.JSONDecodeError, UnicodeDecodeError, RecursionError) as exc:
         raise InputError(f"{record_path}: not readable JSON: {exc}") from exc
     if not isinstance(record, dict):
         raise InputError(f"{record_path}: not a run record (a JSON object expected)")
@@ -126,7 +131,11 @@ def load_submission(path: Path, results: Path | None = None) -> Submission:
 
     def move(original: str, now: Path) -> None:
         """Where the packed scenario will look for a file it named, and where it is now: an
-        absolute name stays as written; a relative one now resolves against inputs/."""
+        absolute name stays as written; a relative one now resolves against inputs/. A record
+        written since its paths are relative says nothing of where the files were: the
+        packed scenario's own names map them (below)."""
+        if not Path(original).is_absolute():
+            return
         original_path = Path(original).resolve()
         moved[str(original_path)] = now.resolve()
         relative = os.path.relpath(original_path, original_folder.resolve())
@@ -141,20 +150,46 @@ def load_submission(path: Path, results: Path | None = None) -> Submission:
     for entry in record.get("config_tables", {}).values():  # the tables' own folder, packed
         move(str(Path(entry["path"]).parent), config_dir)
         break
+    try:  # each file as the packed scenario names it (absolute or relative) -> its packed copy
+        named = named_files(inputs / files["scenario"])
+    except (InputError, InputFileError):
+        named = {}  # the re-run says what is wrong with the scenario
+    for key, written in named.items():
+        suffixed = files.get(key, files.get(key + Path(written).suffix))
+        packed = package.get("config", "_config") if key == "config_dir" else suffixed
+        if not packed:
+            continue
+        try:
+            where = Path(written)  # as scenario.load_scenario resolves it
+            where = where if where.is_absolute() else (scenario_folder / where).resolve()
+        except (ValueError, OSError):  # a name no file can have (a NUL in it): the re-run says so
+            continue
+        moved[str(where)] = (inputs / packed).resolve()
     sites = _read_csv(results if results else path / "sites.csv", "sites table")
     receptors = (
         _read_csv(path / "receptors.csv", "receptors table")
         if (path / "receptors.csv").exists()
         else None
     )
+    try:  # only set beside the re-run's emissions: an unreadable one is left out, not fatal
+        sources = _read_csv(path / "sources.csv", "sources table")
+    except InputError:
+        sources = None
     return Submission(
-        path, record, sites, receptors, (inputs / files["scenario"]).resolve(), moved, config_dir
+        path,
+        record,
+        sites,
+        receptors,
+        (inputs / files["scenario"]).resolve(),
+        moved,
+        config_dir,
+        sources,
     )
 
 
 def _inside(folder: Path, relative, what: str, record_path: Path) -> None:
     """A path named by a submitted record must stay inside the package's inputs/ folder."""
-    if not isinstance(relative, str) or not relative.strip():
+    if not isinstance(relative, str) or not relative.strip() or "\x00" in relative:
         raise InputError(f"{record_path}: {what} must be a file name, got {relative!r}")
     target = (folder / relative).resolve()
     if Path(relative).is_absolute() or not (
@@ -163,6 +198,20 @@ def _inside(folder: Path, relative, what: str, record_path: Path) -> None:
         raise InputError(
             f"{record_path}: {what} {relative!r} points outside the package "
             f"({folder.name}/); a submission is read only inside itself"
+        )
+
+
+def _inside_lexically(relative, what: str, record_path: Path) -> None:
+    """An output named by a submitted record is a relative path without "..": it stays inside
+    the folder as written. Whether a symbolic link takes it elsewhere is a finding of the
+    outputs' check (which then does not read it), not a refusal."""
+    if not isinstance(relative, str) or not relative.strip() or "\x00" in relative:
+        raise InputError(f"{record_path}: {what} must be a file name, got {relative!r}")
+    pure = PurePosixPath(relative.replace("\\", "/"))
+    if pure.is_absolute() or Path(relative).is_absolute() or ".." in pure.parts:
+        raise InputError(
+            f"{record_path}: {what} {relative!r} points outside the package; a submission "
+            "is read only inside itself"
         )
 
 
@@ -192,5 +241,7 @@ def _check_record(record: dict, record_path: Path, inputs: Path) -> None:
                 raise InputError(f"{record_path}: {section}.{key} needs a sha256 text")
             if "path" in entry and not isinstance(entry["path"], str):
                 raise InputError(f"{record_path}: {section}.{key}.path must be text")
-            if folder is not None:
+            if section == "outputs":
+                _inside_lexically(key, f"{section}.{key}", record_path)
+            elif folder is not None:
                 _inside(folder, key, f"{section}.{key}", record_path)

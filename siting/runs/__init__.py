@@ -28,6 +28,12 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "safe_file_stem": "siting.runs.comparing",
         "site_changes": "siting.runs.comparing",
         "compare": "siting.runs.comparing",
+        # changes.py: verify's what changed since the run, key by key, and each emission
+        "Changes": "siting.runs.changes",
+        "toml_differences": "siting.runs.changes",
+        "emission_rows": "siting.runs.changes",
+        "emission_differences": "siting.runs.changes",
+        "what_changed": "siting.runs.changes",
         # comparison.py: verify's submitted figures against the re-run's, at a tolerance
         "compare_figures": "siting.runs.comparison",
         # findings.py: verify's plausibility review, each finding against a table or range

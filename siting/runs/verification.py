@@ -2,7 +2,9 @@
 
 Given an output folder of ``siting screen`` (or a scenario plus the applicant's sites table):
 1. integrity: every input and table recorded in run.json is found in the folder's inputs/ with
-   the same SHA-256;
+   the same SHA-256, and every output the run wrote is in the folder as it was written; what
+   changed is said key by key (which key of which file, old and new value, and what it does
+   to each source's emission);
 2. re-run: the packed scenario is assessed again with this version and every site and receptor
    figure is compared with the submitted one at a stated tolerance; each difference says which
    changed input (or version) explains it, when one does;
@@ -17,7 +19,8 @@ The re-run judges the sites by the submission's own rule set (the one its sites.
 its scenario's [assessment] rules); given the regulator's rule set (``rules``) as well, each
 site is judged by it too, and a verdict that differs from the submitted one is a finding.
 
-Each step has its module: ``integrity.py`` (1), ``comparison.py`` (2), ``findings.py`` (3) and
+Each step has its module: ``integrity.py`` and ``changes.py`` (1), ``comparison.py`` (2),
+``findings.py`` (3) and
 ``sensitivity.py`` (4); this one runs them in order and sums them up in a :class:`VerifyResult`.
 Reading and writing is done by the loaders it calls (submission, scenario, tables) and by
 ``siting.output.verify``.
@@ -25,6 +28,7 @@ Reading and writing is done by the loaders it calls (submission, scenario, table
 
 from __future__ import annotations
 
+import json
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -38,6 +42,7 @@ from siting.readers.scenario import load_scenario
 from siting.readers.submission import Submission, load_submission
 from siting.readers.tables import load_tables
 from siting.runs import screening  # screening.screen at call time: tests stand one in
+from siting.runs.changes import Changes, emission_differences, what_changed
 from siting.runs.comparison import TOLERANCE_TEXT, compare_figures
 from siting.runs.findings import SEVERITY_ORDER, Finding, review
 from siting.runs.integrity import check_integrity, check_outputs
@@ -83,6 +88,10 @@ class VerifyResult:
         submitted one).
     rule_sets_text : str
         Which rule sets were used, in one line.
+    changes : Changes
+        What changed since the run: each changed input's keys (old and new value, and the
+        emissions they set), each source's emission as submitted and re-derived, and the
+        outputs' findings.
     """
 
     submission: Submission
@@ -98,6 +107,7 @@ class VerifyResult:
     regulator_rules: RuleSet | None = None
     verdicts: list[dict] = field(default_factory=list)
     rule_sets_text: str = ""
+    changes: Changes = field(default_factory=Changes)
 
     @property
     def cautions(self) -> list[str]:
@@ -187,7 +197,7 @@ def verify(
     """
 
     sub = load_submission(Path(submission), results)
-    scenario, tables = _packed_scenario(sub)
+    scenario, tables, parameters_now = _packed_scenario(sub)
     tier_ids = [tier["id"] for tier in tables.thresholds]
     regulator = None if rules is None else _regulator_rules(rules, tier_ids)  # before computing
     own = _submission_rules(sub, scenario, tier_ids, regulator)
@@ -197,14 +207,19 @@ def verify(
     regulator_sites = _judged_by_regulator(scenario, tables, result, regulator)
     verdicts = _verdict_rows(sub, result, regulator_sites)
     explanation = _explanation(integrity, submitted_version, __version__)
+    outputs = check_outputs(sub)
+    changes = what_changed(
+        sub, integrity, result.sources, parameters_now, [f.as_dict() for f in outputs]
+    )
     differences = compare_figures(sub, result, explanation)
+    differences += emission_differences(changes.emissions, explanation)
     reviewed = review(sub, result, load_tables(), reference_habitats, name_field)
     if regulator_sites is not None:  # the verdicts first within each severity
         reviewed = sorted(
             _verdict_findings(verdicts, own, regulator) + reviewed,
             key=lambda f: SEVERITY_ORDER.get(f.severity, 9),
         )
-    findings = _all_findings(sub, integrity, differences, explanation, reviewed)
+    findings = _all_findings(sub, integrity, differences, explanation, outputs + reviewed, changes)
 
     long, summary = sensitivity(scenario, result, weather_files, run=screening.screen)
     return VerifyResult(
@@ -220,15 +235,18 @@ def verify(
         regulator_rules=regulator,
         verdicts=verdicts,
         rule_sets_text=_rule_sets_text(own, regulator, regulator_sites is not None),
+        changes=changes,
     )
 
 
 def _packed_scenario(sub: Submission):
     """The packed scenario, read with its files where the package now holds them and its
-    packed tables (when there are), and those tables. Returns (scenario, tables); a SitingError
-    becomes one InputError, "the submission cannot be re-run: ..."."""
+    packed tables (when there are), those tables, and its parameters as run.json records them
+    (before the packed tables are put in). Returns (scenario, tables, parameters); a
+    SitingError becomes one InputError, "the submission cannot be re-run: ..."."""
     try:
         scenario = load_scenario(sub.scenario_path, moved=sub.moved)
+        parameters = json.loads(scenario.model_dump_json(by_alias=True))
         if sub.config_dir is not None and sub.config_dir.is_dir():
             scenario = scenario.model_copy(
                 update={
@@ -237,7 +255,7 @@ def _packed_scenario(sub: Submission):
                     )
                 }
             )
-        return scenario, load_tables(scenario.assessment.config_dir)
+        return scenario, load_tables(scenario.assessment.config_dir), parameters
     except SitingError as exc:
         raise _cannot_rerun(exc) from exc
 
@@ -477,14 +495,16 @@ def _all_findings(
     differences: list[dict],
     explanation: str,
     reviewed: list[Finding],
+    changes: Changes,
 ) -> list[Finding]:
     """Every finding of a verification, in the order they are reported: RESULTS_DIFFER, the
-    changed or missing inputs (the last recorded first), the outputs' checks, the plausibility
-    review (``reviewed``, by severity), then NO_RUN_RECORD."""
-    findings = check_outputs(sub) + reviewed
+    changed or missing inputs (the last recorded first, each with the keys that changed), then
+    ``reviewed`` (the outputs' checks and the plausibility review, by severity), then
+    NO_RUN_RECORD."""
+    findings = list(reviewed)
     for row in integrity:
         if row["status"] != "ok":
-            findings.insert(0, _input_finding(row))
+            findings.insert(0, _input_finding(row, changes))
     if sub.record is None:
         findings.append(
             Finding(
@@ -500,19 +520,38 @@ def _all_findings(
     return findings
 
 
-def _input_finding(row: dict) -> Finding:
-    """An integrity row that is not ok (see check_integrity): INPUT_CHANGED or INPUT_MISSING."""
+def _input_finding(row: dict, changes: Changes) -> Finding:
+    """An integrity row that is not ok (see check_integrity): INPUT_CHANGED or INPUT_MISSING,
+    a changed one with the keys that differ (the first three named) or why none are listed."""
+    keys = [k for k in changes.keys if k["input"] == row["key"]]
+    listed = next((f for f in changes.files if f["input"] == row["key"]), None)
+    detail = ""
+    if row["status"] == "changed" and keys:
+        named = "; ".join(f"{k['key']}: {_value(k['old'])} -> {_value(k['new'])}" for k in keys[:3])
+        detail = f"; changed after the run: {len(keys)} key(s) differ ({named}"
+        detail += ", ...)" if len(keys) > 3 else ")"
+    elif row["status"] == "changed" and listed is not None:
+        detail = f"; {listed['note']}"
     return Finding(
         "INPUT_CHANGED" if row["status"] == "changed" else "INPUT_MISSING",
         "high",
         f"input {row['key']}",
         f"{row['file']} {'differs from' if row['status'] == 'changed' else 'is missing; it was'}"
-        " the file the run recorded (SHA-256)",
+        " the file the run recorded (SHA-256)" + detail,
         {
             "expected_sha256": row["expected_sha256"],
             "actual_sha256": row["actual_sha256"],
+            **({"keys_changed": len(keys)} if row["status"] == "changed" else {}),
         },
     )
+
+
+def _value(value) -> str:
+    """A key's value in a finding's message: as TOML would write it, "(absent)" for none."""
+    if value is None:
+        return "(absent)"
+    text = json.dumps(value, ensure_ascii=False, default=str)
+    return text if len(text) <= 60 else text[:57] + "..."
 
 
 def _results_differ_finding(differences: list[dict], explanation: str) -> Finding:
