@@ -557,8 +557,8 @@ def cli(*tokens):
     return build
 
 
-SCREEN = ("screen", "@inputs/scenario.toml", "--out", "@out", "--quiet")
-HOURLY_SCREEN = ("screen", "@inputs/scenario_hourly.toml", "--out", "@out", "--quiet")
+SCREEN = ("screen", "@inputs/scenario.toml", "--out", "@out", "--quiet", "--no-pdf")
+HOURLY_SCREEN = ("screen", "@inputs/scenario_hourly.toml", "--out", "@out", "--quiet", "--no-pdf")
 WEATHER = (
     "weather",
     "@inputs/hourly_short.csv",
@@ -721,7 +721,9 @@ NOT_OURS = r"is not a folder siting wrote"
 
 case(
     "overwrite-out-is-scenario-folder",
-    cli("screen", "@inputs/scenario.toml", "--out", "@inputs", "--overwrite", "--quiet"),
+    cli(
+        "screen", "@inputs/scenario.toml", "--out", "@inputs", "--overwrite", "--quiet", "--no-pdf"
+    ),
     2,
     HOLDS_INPUT + r" \(scenario\.toml\)",
     README_OVERWRITE,
@@ -730,7 +732,7 @@ case(
 )
 case(
     "overwrite-out-is-symlink-to-scenario-folder",
-    cli("screen", "@inputs/scenario.toml", "--out", "@link", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@link", "--overwrite", "--quiet", "--no-pdf"),
     2,
     HOLDS_INPUT,
     README_OVERWRITE,
@@ -739,7 +741,9 @@ case(
 )
 case(
     "overwrite-out-is-ancestor-of-scenario",
-    cli("screen", "@out/nested/scenario.toml", "--out", "@out", "--overwrite", "--quiet"),
+    cli(
+        "screen", "@out/nested/scenario.toml", "--out", "@out", "--overwrite", "--quiet", "--no-pdf"
+    ),
     2,
     HOLDS_INPUT + r" \(scenario\.toml\)",
     README_OVERWRITE,
@@ -749,7 +753,7 @@ case(
 )
 case(
     "overwrite-out-is-cwd",
-    cli("screen", "@inputs/scenario.toml", "--out", ".", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", ".", "--overwrite", "--quiet", "--no-pdf"),
     2,
     CURRENT,
     README_OVERWRITE,
@@ -758,7 +762,7 @@ case(
 )
 case(
     "overwrite-out-is-parent-of-cwd",
-    cli("screen", "@inputs/scenario.toml", "--out", "..", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "..", "--overwrite", "--quiet", "--no-pdf"),
     2,
     CURRENT,
     README_OVERWRITE,
@@ -767,7 +771,7 @@ case(
 )
 case(
     "overwrite-out-is-grandparent-of-cwd",
-    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet", "--no-pdf"),
     2,
     CURRENT,
     README_OVERWRITE,
@@ -778,7 +782,7 @@ case(
 )
 case(
     "overwrite-out-not-a-siting-folder",
-    cli("screen", "@inputs/scenario.toml", "--out", "@notes", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@notes", "--overwrite", "--quiet", "--no-pdf"),
     2,
     NOT_OURS,
     README_OVERWRITE,
@@ -790,7 +794,7 @@ case(
 )
 case(
     "overwrite-out-empty-foreign-folder",
-    cli("screen", "@inputs/scenario.toml", "--out", "@empty", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@empty", "--overwrite", "--quiet", "--no-pdf"),
     2,
     NOT_OURS,
     README_OVERWRITE,
@@ -799,7 +803,7 @@ case(
 )
 case(
     "overwrite-out-holds-frequency-table",
-    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet", "--no-pdf"),
     2,
     HOLDS_INPUT + r" \(weather_table\.csv\)",
     README_OVERWRITE,
@@ -812,7 +816,7 @@ case(
 )
 case(
     "overwrite-out-holds-habitats",
-    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet", "--no-pdf"),
     2,
     HOLDS_INPUT + r" \(habitats\.gpkg\)",
     README_OVERWRITE,
@@ -825,7 +829,7 @@ case(
 )
 case(
     "overwrite-out-holds-receptors",
-    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet", "--no-pdf"),
     2,
     HOLDS_INPUT + r" \(receptors\.csv\)",
     README_OVERWRITE,
@@ -838,7 +842,7 @@ case(
 )
 case(
     "overwrite-out-holds-config-dir",
-    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--overwrite", "--quiet", "--no-pdf"),
     2,
     HOLDS_INPUT,
     README_OVERWRITE,
@@ -851,7 +855,7 @@ case(
 )
 case(
     "overwrite-out-exists-without-flag",
-    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@out", "--quiet", "--no-pdf"),
     2,
     r"out: output folder exists; pass --overwrite",
     README_OVERWRITE,
@@ -860,7 +864,7 @@ case(
 )
 case(
     "overwrite-out-is-a-file",
-    cli("screen", "@inputs/scenario.toml", "--out", "@afile", "--overwrite", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--out", "@afile", "--overwrite", "--quiet", "--no-pdf"),
     2,
     r"afile: exists and is not a folder",
     README_OVERWRITE,
@@ -1124,7 +1128,7 @@ case(
 )
 case(
     "out-default-maps-is-a-file",
-    cli("screen", "@inputs/scenario.toml", "--quiet"),
+    cli("screen", "@inputs/scenario.toml", "--quiet", "--no-pdf"),
     2,
     r"maps is a file, not a folder",
     README_EXIT,
@@ -1480,14 +1484,14 @@ case(
 )
 case(
     "scenario-file-missing",
-    cli("screen", "@inputs/nothere.toml", "--out", "@out", "--quiet"),
+    cli("screen", "@inputs/nothere.toml", "--out", "@out", "--quiet", "--no-pdf"),
     2,
     r"nothere\.toml.*not found",
     README_EXIT,
 )
 case(
     "scenario-is-a-folder",
-    cli("screen", "@inputs", "--out", "@out", "--quiet"),
+    cli("screen", "@inputs", "--out", "@out", "--quiet", "--no-pdf"),
     2,
     r"inputs.*(not found|not a file|folder)",
     README_EXIT,

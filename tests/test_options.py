@@ -200,7 +200,7 @@ def test_cli_writes_options_csv_differences_report_and_map(tmp_path, capsys):
     )
     path = _scenario(tmp_path / "in", _H1 + _E1, options)
     out = tmp_path / "out"
-    assert main(["screen", str(path), "--out", str(out)]) == 0
+    assert main(["screen", str(path), "--out", str(out), "--no-pdf"]) == 0
     printed = capsys.readouterr().out
     assert "Options: PC % of load (judged)" in printed and "taller" in printed
     sites = pd.read_csv(out / "sites.csv")

@@ -250,3 +250,27 @@ def test_markup_in_user_text_is_escaped(run):
     assert f'<span class="site-name">{escaped}</span>' in page
     assert f'<td class="farm">{escaped}</td>' in page
     assert f"<h1>{escaped}</h1>" in page
+
+
+def test_no_region_output_names_a_folder_of_the_machine(farms_file, tmp_path):
+    """The issue's check for the region command: no output file's text (run.json, report.html,
+    map.html, the CSV tables) holds the temporary folder or siting's package folder, even
+    with a warning naming an input by its absolute path."""
+    import siting
+
+    result = region(
+        farms_file,
+        demo_dir() / "weather_table.csv",
+        None,
+        RegionOptions(spacing_m=200.0, margin_m=500.0, scheduler=None),
+    )
+    message = f"farms layer {farms_file}: an invented warning for this test"
+    out = write_region_outputs(replace(result, warnings=[message]), tmp_path / "out")
+    package = str(Path(siting.__file__).resolve().parent)
+    texts = [p for p in out.rglob("*") if p.suffix in (".json", ".html", ".csv")]
+    assert {"run.json", "report.html", "map.html"} <= {p.name for p in texts}
+    for path in texts:
+        text = path.read_text(encoding="utf-8")
+        assert str(tmp_path) not in text and package not in text, path.name
+    record = json.loads((out / "run.json").read_text(encoding="utf-8"))
+    assert "an invented warning for this test" in record["warnings"][0]

@@ -71,7 +71,7 @@ def _run_bad(scenario: Path, capsys) -> str:
     """Run ``siting screen`` on a bad scenario; check the contract; return the stderr line."""
     out = scenario.parent.parent / "out"
     before = _listing(scenario.parent)
-    rc = main(["screen", str(scenario), "--out", str(out), "--quiet"])
+    rc = main(["screen", str(scenario), "--out", str(out), "--quiet", "--no-pdf"])
     captured = capsys.readouterr()
     assert rc == 2  # DESIGN.md: exit code 2 = bad input
     lines = captured.err.splitlines()
@@ -434,7 +434,7 @@ def test_existing_output_folder_needs_overwrite(demo_copy, capsys):
     out = demo_copy.parent.parent / "out"
     out.mkdir()
     (out / "earlier_result.txt").write_text("keep me", encoding="utf-8")
-    rc = main(["screen", str(demo_copy), "--out", str(out), "--quiet"])
+    rc = main(["screen", str(demo_copy), "--out", str(out), "--quiet", "--no-pdf"])
     err = capsys.readouterr().err.splitlines()
     assert rc == 2
     assert len(err) == 1 and err[0].startswith("siting: error:")
@@ -485,7 +485,7 @@ def test_screen_from_another_folder_reads_the_scenario_folder(demo_copy, elsewhe
     _replace_once(demo_copy, "spacing_m = 25.0", "spacing_m = 100.0")
     _replace_once(demo_copy, "margin_m = 2500.0", "margin_m = 1000.0")
     out = demo_copy.parent.parent / "out"
-    rc = main(["screen", str(demo_copy.resolve()), "--out", str(out), "--quiet"])
+    rc = main(["screen", str(demo_copy.resolve()), "--out", str(out), "--quiet", "--no-pdf"])
     assert rc == 0, capsys.readouterr().err
     assert (out / "sites.csv").is_file()
     # nothing written in the cwd: only the three decoys are there

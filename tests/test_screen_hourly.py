@@ -138,7 +138,7 @@ def test_scrubber_design_share_needs_an_hourly_record(tmp_path, capsys):
         'abatement = "acid_scrubber"', 'abatement = "acid_scrubber"\nscrubber_design_share = 0.5', 1
     )
     scenario.write_text(text)
-    rc = main(["screen", str(scenario), "--out", str(tmp_path / "out")])
+    rc = main(["screen", str(scenario), "--out", str(tmp_path / "out"), "--no-pdf"])
     assert rc == 2 and not (tmp_path / "out").exists()
     assert "scrubber_design_share" in capsys.readouterr().err
 
@@ -150,7 +150,7 @@ def test_hourly_run_outputs_record_the_weather(tmp_path):
         seasonal=True,
         source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.6',
     )
-    rc = main(["screen", str(path), "--out", str(tmp_path / "out"), "--quiet"])
+    rc = main(["screen", str(path), "--out", str(tmp_path / "out"), "--quiet", "--no-pdf"])
     assert rc == 0
     record = json.loads((tmp_path / "out" / "run.json").read_text())
     assert record["inputs"]["weather"]["path"].endswith("hourly.csv")

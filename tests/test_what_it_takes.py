@@ -7,6 +7,8 @@ the claim checked is the search's, not the figures'), the pass condition p (1 - 
 checked on every answer, and `siting place` on a one-house copy of the invented demo.
 """
 
+import hashlib
+import json
 import math
 import shutil
 
@@ -138,6 +140,12 @@ def test_place_writes_the_cheapest_way_of_every_position(tmp_path):
     for way in ways["way"].unique():  # every way of position_ways.csv heads a column
         assert f"<th>{way}</th>" in report.replace("&#39;", "'"), way
     page = (out / "map.html").read_text()
+    # run.json, written last, hashes every output (hashlib on the files as written)
+    recorded = json.loads((out / "run.json").read_text())["outputs"]
+    written = {p.name for p in out.iterdir() if p.is_file()} - {"run.json", ".siting-output"}
+    assert set(recorded) == written and {"map.html", "report.html"} <= written
+    for name, entry in recorded.items():
+        assert entry["sha256"] == hashlib.sha256((out / name).read_bytes()).hexdigest(), name
     assert "Cheapest annual cost to pass" in page
     assert any(w in page for w in words.head(10))
 
@@ -175,7 +183,10 @@ def test_screen_finds_the_largest_emission_that_passes(tmp_path):
 
 def test_screen_writes_what_it_takes(tmp_path):
     out = tmp_path / "out"
-    assert main(["screen", str(_one_house(tmp_path, 2400)), "--out", str(out), "--quiet"]) == 0
+    assert (
+        main(["screen", str(_one_house(tmp_path, 2400)), "--out", str(out), "--quiet", "--no-pdf"])
+        == 0
+    )
     table = pd.read_csv(out / "what_it_takes.csv")
     assert list(table["source_id"]) == ["H1"]
     report = (out / "report.html").read_text()

@@ -14,7 +14,7 @@ from siting._version import __version__
 from siting.output.folder import check_output_dir, staged_folder
 from siting.output.geotiff import write_geotiff
 from siting.output.portable import portable_record
-from siting.output.records import package_inputs, run_record_base
+from siting.output.records import output_hashes, package_inputs, run_record_base
 from siting.output.tables import write_csv
 from siting.presentation.place_report import render_place_report
 from siting.presentation.webmap_place import render_place_map
@@ -129,11 +129,6 @@ def write_place_outputs(
                 "warnings": result.warnings,
             }
         )
-        record["package"] = package_inputs(prep, staging)
-        record = portable_record(record, prep)  # no folder of the machine in run.json
-        (staging / "run.json").write_text(
-            json.dumps(record, indent=2, default=str), encoding="utf-8"
-        )
         ranked = result.positions  # the map numbers `top` distinct ones of them
         write_place_map(
             staging / "map.html",
@@ -158,5 +153,11 @@ def write_place_outputs(
             sources=source_footprints(scenario, prep.sources, leave_out=result.house_id),
             context=read_map_context(scenario),
             tables=prep.tables,
+        )
+        record["package"] = package_inputs(prep, staging)
+        record = portable_record(record, prep)  # no folder of the machine in run.json
+        record["outputs"] = output_hashes(staging)  # every file above, hashed
+        (staging / "run.json").write_text(
+            json.dumps(record, indent=2, default=str), encoding="utf-8"
         )
     return out_dir

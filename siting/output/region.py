@@ -22,7 +22,11 @@ from siting.output.geotiff import write_large_geotiff
 from siting.output.records import output_hashes, sha256_of
 from siting.output.tables import write_csv
 from siting.physics.constants import deposition_kg_n_ha_yr
-from siting.presentation.region_report import render_region_report
+from siting.presentation.region_report import (
+    render_region_report,
+    shown_path,
+    shown_warnings,
+)
 from siting.presentation.webmap_region import render_region_map
 
 if TYPE_CHECKING:  # the type only: a run's result is written, never computed, here
@@ -101,6 +105,17 @@ ACCURACY_NOTE = (
     "is about 1e-15 of the field's largest value. Site figures and contributors are direct "
     "sums at the sites' own points, not read from the grid."
 )
+
+
+def _portable(record: dict, out_dir: Path) -> dict:
+    """The record with every file's path as the report shows it (:func:`shown_path`: relative
+    to the output folder, ``siting/...`` for siting's own tables), never absolute."""
+    record["warnings"] = shown_warnings(record, record["warnings"], out_dir)
+    for section in ("inputs", "config_tables"):
+        for entry in record[section].values():
+            entry["path"] = shown_path(entry["path"], out_dir)
+    record["rules"]["path"] = shown_path(record["rules"]["path"], out_dir)
+    return record
 
 
 def region_record(result: RegionResult, run_time: str) -> dict:
@@ -267,6 +282,7 @@ def write_region_outputs(
         record = region_record(result, run_time)
         # the report shows the record so far (its version, time, inputs); hashed with the rest
         (staging / "report.html").write_text(_region_report(result, record, out_dir), "utf-8")
+        record = _portable(record, out_dir)  # as the report shows them: nothing of the machine
         record["outputs"] = output_hashes(staging)  # every file above, hashed
         (staging / "run.json").write_text(
             json.dumps(record, indent=2, default=str), encoding="utf-8"

@@ -71,6 +71,37 @@ def shown_path(path: Any, out_dir: str | Path) -> str:
     return Path(os.path.relpath(file, out)).as_posix()
 
 
+def shown_warnings(
+    record: Mapping[str, Any], warnings: Sequence[Any], out_dir: str | Path
+) -> list[str]:
+    """The warnings as the report and run.json show them: each input's absolute folder, and the
+    output folder, replaced by the way :func:`shown_path` names them.
+
+    Parameters
+    ----------
+    record : mapping
+        The run record, its input paths still absolute.
+    warnings : sequence
+        The run's warnings (messages or their text).
+    out_dir : str or Path
+        The output folder.
+
+    Returns
+    -------
+    list of str
+        Each warning's text, no folder of the machine in it.
+    """
+    folders = sorted(
+        {
+            (str(Path(entry["path"]).parent), str(Path(shown_path(entry["path"], out_dir)).parent))
+            for entry in record["inputs"].values()
+        }
+        | {(str(Path(out_dir).resolve()), ".")},
+        key=lambda pair: -len(pair[0]),
+    )
+    return [_scrubbed(str(w), folders) for w in warnings]
+
+
 def _scrubbed(message: str, folders: Sequence[tuple[str, str]]) -> str:
     """A message with each absolute folder replaced by the way the report shows it."""
     for folder, shown in folders:
@@ -290,14 +321,6 @@ def render_region_report(
         The page, UTF-8 text with inline CSS, no scripts, no links outside it.
     """
     rules = record["rules"]
-    folders = sorted(
-        {
-            (str(Path(entry["path"]).parent), str(Path(shown_path(entry["path"], out_dir)).parent))
-            for entry in record["inputs"].values()
-        }
-        | {(str(Path(out_dir).resolve()), ".")},
-        key=lambda pair: -len(pair[0]),
-    )
     farms_file = shown_path(record["inputs"]["farms"]["path"], out_dir)
     has_sites = sites is not None and len(sites) > 0
     return render(
@@ -320,6 +343,6 @@ def render_region_report(
         top=record["options"].get("top"),
         method=_method(record, farms_file),
         cautions=[text(c) for c in cautions],
-        warnings=[_scrubbed(text(w), folders) for w in warnings],
+        warnings=[text(w) for w in shown_warnings(record, warnings, out_dir)],
         run_record=_run_record(record, out_dir),
     )
