@@ -62,8 +62,8 @@ def test_no_label_is_the_key_title_cased(key):
 
 def test_a_unit_suffix_is_said_in_the_label():
     """A key whose name carries a unit (_m, _m_s, _deg, _h, _mb, _c, _percent) names the
-    unit in its label: [m], [m/s], [deg], [h], [MB], [°C], [%]."""
-    units = {"_m_s": "[m/s]", "_m": "[m]", "_deg": "[deg]", "_h": "[h]", "_mb": "[MB]",
+    unit in its label: [m], [m/s], [°], [h], [MB], [°C], [%]."""
+    units = {"_m_s": "[m/s]", "_m": "[m]", "_deg": "[°]", "_h": "[h]", "_mb": "[MB]",
              "_c": "[°C]", "_percent": "%"}  # fmt: skip
     for key, setting in SETTINGS.items():
         for suffix, unit in units.items():

@@ -83,7 +83,7 @@ UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
     ("_m_s", "m/s"),
     ("_percent", "%"),
     ("_fraction", "%"),
-    ("_deg", "deg"),
+    ("_deg", "°"),
     ("_ha", "ha"),
     ("_m", "m"),
     ("_s", "s"),
