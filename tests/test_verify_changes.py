@@ -8,9 +8,11 @@ applicant might after the run, and verifies the copy.
 import json
 import shutil
 import tomllib
+from pathlib import Path
 
 import pytest
 
+import siting
 from siting.cli import main
 from siting.readers.resources import demo_dir
 from siting.runs.changes import toml_differences
@@ -71,6 +73,12 @@ def test_an_untouched_submission_has_nothing_changed(submitted, tmp_path):
     assert not {c for c in codes if c.startswith(("OUTPUT_", "INPUT_", "GEOTIFF_"))}
     page = (out / "verify.html").read_text(encoding="utf-8")
     assert "Nothing changed since the run" in page
+    # what the regulator files names no folder of the machine: the submission relative to
+    # the output folder, the bundled rule set as siting/config/...
+    package = str(Path(siting.__file__).resolve().parent)
+    for text in (page, (out / "findings.json").read_text(encoding="utf-8")):
+        assert str(submitted.parent) not in text and package not in text
+    assert payload["rule_sets"]["submission"]["path"] == "siting/config/rules/plain.toml"
 
 
 def test_a_changed_reduction_is_named_with_both_values_and_its_emission(submitted, copy, tmp_path):

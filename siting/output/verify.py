@@ -10,6 +10,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from siting.output.folder import check_output_dir, staged_folder
+from siting.presentation.region_report import shown_path
 from siting.presentation.verify_report import render_verify_report
 
 if TYPE_CHECKING:  # the type only: a run's result is written here, never computed
@@ -64,14 +65,14 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
         "findings)."
     )
     payload = {
-        "submission": str(result.submission.folder),
+        "submission": shown_path(result.submission.folder, out_dir),
         "submitted_version": result.submitted_version,
         "this_version": result.this_version,
         "run_time_utc": run_time,
         "consistent": result.consistent,
         "exit_code": result.exit_code,
         "tolerance": result.tolerance_text,
-        "rule_sets": _rule_sets(result),
+        "rule_sets": _rule_sets(result, out_dir),
         "changes": result.changes.as_dict(),
         "findings": [f.as_dict() for f in result.findings],
         "integrity": result.integrity,
@@ -85,7 +86,7 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
         )
         write_verify_report(
             staging / "verify.html",
-            submission=str(result.submission.folder),
+            submission=shown_path(result.submission.folder, out_dir),
             submitted_version=result.submitted_version,
             this_version=result.this_version,
             run_time=run_time,
@@ -105,14 +106,19 @@ def write_verify_outputs(result: VerifyResult, out_dir: Path, overwrite: bool = 
     return out_dir
 
 
-def _rule_sets(result: VerifyResult) -> dict:
+def _rule_sets(result: VerifyResult, out_dir: Path) -> dict:
     """The rule sets of a verification (findings.json): the submission's and the regulator's
     (None when none was given), each by id, title and basis, and the line that names them."""
 
     def described(rules) -> dict | None:
         if rules is None:
             return None
-        return {"id": rules.id, "title": rules.title, "basis": rules.basis, "path": str(rules.path)}
+        return {
+            "id": rules.id,
+            "title": rules.title,
+            "basis": rules.basis,
+            "path": shown_path(rules.path, out_dir),
+        }
 
     return {
         "submission": described(result.rules),
