@@ -8,6 +8,7 @@ siting/readers/resources.py), not in this checkout, so it runs from an empty fol
 
 from __future__ import annotations
 
+import hashlib
 import importlib.util
 import json
 import os
@@ -120,8 +121,20 @@ def test_installed_demo_runs_from_an_empty_folder(installed, tmp_path):
     exe = installed / ("siting.exe" if os.name == "nt" else "siting")
     _run([str(exe), "demo", "--quiet"], timeout_s=600, cwd=work, env=_clean_env())
     assert (work / "maps" / "demo" / "sites.csv").is_file()
-    # the demo came from the installed wheel, not from this checkout
-    record = json.loads((work / "maps" / "demo" / "run.json").read_text(encoding="utf-8"))
-    scenario_path = Path(record["inputs"]["scenario"]["path"])
-    assert scenario_path.parts[-3:] == ("siting", "data_demo", "scenario.toml")
-    assert REPO not in scenario_path.parents
+    # the demo came from the installed wheel, not from this checkout: the installed siting's
+    # demo folder lies in the fresh venv, and its scenario is the one run.json hashes
+    python = installed / ("python.exe" if os.name == "nt" else "python")
+    where = _run(
+        [str(python), "-c", "from siting.readers.resources import demo_dir; print(demo_dir())"],
+        timeout_s=120,
+        cwd=work,
+        env=_clean_env(),
+    ).stdout.strip()
+    demo = Path(where)
+    assert installed.parent in demo.parents and REPO not in demo.parents
+    text = (work / "maps" / "demo" / "run.json").read_text(encoding="utf-8")
+    record = json.loads(text)
+    scenario = record["inputs"]["scenario"]
+    assert scenario["path"] == "scenario.toml"  # relative to its folder: nothing of the machine
+    assert scenario["sha256"] == hashlib.sha256((demo / "scenario.toml").read_bytes()).hexdigest()
+    assert str(installed.parent) not in text and str(REPO) not in text
