@@ -134,8 +134,9 @@ def test_verify_of_the_api_written_folder_agrees_with_siting_verify(guide, cli):
     ours = json.loads((out / "findings.json").read_text(encoding="utf-8"))
     for record in (api, ours):
         record.pop("run_time_utc", None)
-    # the guide names the folder relative to its working folder, the CLI run absolutely
-    assert (work / api.pop("submission")).resolve() == Path(ours.pop("submission")).resolve()
+    # each names the submission relative to its own output folder (no folder of the machine)
+    api_folder = (work / "maps" / "check" / api.pop("submission")).resolve()
+    assert api_folder == (out / ours.pop("submission")).resolve()
     assert api == ours
     assert [f.as_dict() for f in check.findings] == ours["findings"]
 
