@@ -23,7 +23,8 @@ from test_region import _farms
 
 from siting.cli import main
 from siting.output.region import write_region_outputs
-from siting.presentation.region_report import PACKAGE_MARK, render_region_report, shown_path
+from siting.presentation.formats import PACKAGE_MARK, shown_path
+from siting.presentation.region_report import render_region_report
 from siting.readers.resources import config_dir, demo_dir
 from siting.runs.region_inputs import RegionOptions
 from siting.runs.regional import CAUTIONS, region

@@ -22,11 +22,8 @@ from siting.output.geotiff import write_large_geotiff
 from siting.output.records import output_hashes, sha256_of
 from siting.output.tables import write_csv
 from siting.physics.constants import deposition_kg_n_ha_yr
-from siting.presentation.region_report import (
-    render_region_report,
-    shown_path,
-    shown_warnings,
-)
+from siting.presentation.formats import shown_path
+from siting.presentation.region_report import render_region_report, shown_warnings
 from siting.presentation.webmap_region import render_region_map
 
 if TYPE_CHECKING:  # the type only: a run's result is written, never computed, here

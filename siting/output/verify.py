@@ -10,7 +10,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from siting.output.folder import check_output_dir, staged_folder
-from siting.presentation.region_report import shown_path
+from siting.presentation.formats import shown_path
 from siting.presentation.verify_report import render_verify_report
 
 if TYPE_CHECKING:  # the type only: a run's result is written here, never computed

@@ -11,6 +11,8 @@ page layout and plotting belong to the modules that use them."""
 from __future__ import annotations
 
 import math
+import os
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -19,6 +21,8 @@ import pandas as pd
 from siting.errors import InputError
 
 __all__ = [
+    "PACKAGE_MARK",
+    "shown_path",
     "DEPOSITION_COLORMAP",
     "MISSING_TEXT",
     "VERDICT_COLOURS",
@@ -333,3 +337,41 @@ def most_affected_order(sites: pd.DataFrame) -> np.ndarray:
             score = column("pc_dep_max_kg_n_ha_yr")
     score = np.where(np.isnan(score), -np.inf, score)
     return np.argsort(-score, kind="stable")
+
+
+#: How a file inside the installed siting package is shown: ``siting/config/...``, as the
+#: screening run's record names siting's bundled files.
+PACKAGE_MARK = "siting"
+
+#: The package's own folder (bundled config tables, rule sets and demo data live below it).
+_PACKAGE = Path(__file__).resolve().parents[1]
+
+
+def shown_path(path: Any, out_dir: str | Path) -> str:
+    """A file's path as the report shows it: never absolute.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file (absolute or relative to the working folder).
+    out_dir : str or Path
+        The output folder the report is written to.
+
+    Returns
+    -------
+    str
+        ``siting/<path below the package>`` for a file of the installed package; else the path
+        relative to ``out_dir`` (POSIX separators) where the two share a folder below the root of
+        the file system; else the file's name alone.
+    """
+    file = Path(os.path.abspath(path))
+    out = Path(os.path.abspath(out_dir))
+    if file.is_relative_to(_PACKAGE):
+        return f"{PACKAGE_MARK}/{file.relative_to(_PACKAGE).as_posix()}"
+    try:
+        common = Path(os.path.commonpath([file, out]))
+    except ValueError:  # another drive
+        return file.name
+    if common == Path(common.anchor):
+        return file.name
+    return Path(os.path.relpath(file, out)).as_posix()

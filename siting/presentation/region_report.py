@@ -17,7 +17,6 @@ shares nothing with the output folder but the root of the file system by its nam
 
 from __future__ import annotations
 
-import os
 from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
@@ -25,50 +24,18 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from siting.presentation.formats import format_for_column, format_number, format_percent
+from siting.presentation.formats import (
+    format_for_column,
+    format_number,
+    format_percent,
+    shown_path,
+)
 from siting.presentation.html_parts import Verdict, render, text, verdict
 
-__all__ = ["PACKAGE_MARK", "render_region_report", "shown_path"]
-
-#: How a file inside the installed siting package is shown: ``siting/config/...``, as the
-#: screening run's record names siting's bundled files.
-PACKAGE_MARK = "siting"
-
-#: The package's own folder (bundled config tables, rule sets and demo data live below it).
-_PACKAGE = Path(__file__).resolve().parents[1]
+__all__ = ["render_region_report", "shown_warnings"]
 
 #: Largest contributors listed in the summary.
 _TOP_FARMS = 5
-
-
-def shown_path(path: Any, out_dir: str | Path) -> str:
-    """A file's path as the report shows it: never absolute.
-
-    Parameters
-    ----------
-    path : str or Path
-        The file (absolute or relative to the working folder).
-    out_dir : str or Path
-        The output folder the report is written to.
-
-    Returns
-    -------
-    str
-        ``siting/<path below the package>`` for a file of the installed package; else the path
-        relative to ``out_dir`` (POSIX separators) where the two share a folder below the root of
-        the file system; else the file's name alone.
-    """
-    file = Path(os.path.abspath(path))
-    out = Path(os.path.abspath(out_dir))
-    if file.is_relative_to(_PACKAGE):
-        return f"{PACKAGE_MARK}/{file.relative_to(_PACKAGE).as_posix()}"
-    try:
-        common = Path(os.path.commonpath([file, out]))
-    except ValueError:  # another drive
-        return file.name
-    if common == Path(common.anchor):
-        return file.name
-    return Path(os.path.relpath(file, out)).as_posix()
 
 
 def shown_warnings(
