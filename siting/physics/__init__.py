@@ -32,6 +32,12 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "kg_per_year_to_g_s": "siting.physics.constants",
         "deposition_kg_n_ha_yr": "siting.physics.constants",
         "kg_n_to_mol_n": "siting.physics.constants",
+        # met_units.py: wind from u/v, speeds, directions, cloud fractions as oktas, feet
+        "wind_from_components": "siting.physics.met_units",
+        "speed_in_m_s": "siting.physics.met_units",
+        "direction_in_deg": "siting.physics.met_units",
+        "oktas_from_fraction": "siting.physics.met_units",
+        "feet_from_metres": "siting.physics.met_units",
         # deposition.py: dry deposition: flux at the ground and source depletion of the plume
         "ground_vertical_density_per_m": "siting.physics.deposition",
         "cumulative_depletion_integral_m0": "siting.physics.deposition",

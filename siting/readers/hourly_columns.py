@@ -16,6 +16,7 @@ the rows (missing hours, calms, stability) are in ``hourly_rules.py``.
 from __future__ import annotations
 
 import csv
+import io
 import warnings
 from dataclasses import dataclass
 from itertools import pairwise
@@ -40,7 +41,15 @@ _TIME_RE = (
 
 
 class _RawFile:
-    """One hourly CSV as read: stripped cell texts by column, line numbers, UTC times."""
+    """One hourly file as read: its columns by name, row numbers, UTC times.
+
+    Siting's own CSV holds stripped cell texts; the other formats' readers
+    (``weather_formats.py``) give float columns already in siting's units (NaN where missing),
+    the time as ``time`` texts, and ``labels`` naming each column as the source does, so a
+    message points at the source's own column. ``row_word`` is what a row number counts
+    ("line" in a text file, "time step" in a NetCDF file); ``source`` describes the format
+    and what its missing codes and quality flags removed (for the summary).
+    """
 
     def __init__(
         self,
@@ -49,12 +58,40 @@ class _RawFile:
         lines: np.ndarray,
         time_utc: np.ndarray,
         offsets: set[str],
+        *,
+        labels: dict[str, str] | None = None,
+        shown: dict[str, np.ndarray] | None = None,
+        row_word: str = "line",
+        source: dict | None = None,
+        year: np.ndarray | None = None,
     ):
         self.name = name
         self.columns = columns
         self.lines = lines
         self.time_utc = time_utc  # datetime64[m]
         self.offsets = offsets
+        self.labels = labels or {}
+        self.shown = shown or {}
+        self.row_word = row_word
+        self.source = source or {"format": "csv", "layout": "siting's hourly CSV"}
+        # each row's calendar year as the source writes it (local time where it is local)
+        self.year = (
+            np.array([int(t[:4]) for t in columns["time"]], dtype=int) if year is None else year
+        )
+
+    def where(self, line: int) -> str:
+        """'<file>, line <n>' (or 'time step <n>')."""
+        return f"{self.name}, {self.row_word} {line}"
+
+    def label(self, column: str) -> str:
+        """The column as the source names it (siting's own name where it is the same)."""
+        return self.labels.get(column, column)
+
+    def shown_value(self, column: str, i: int) -> str:
+        """Row i's value of a column as the source wrote it, for a message."""
+        values = self.shown.get(column, self.columns[column])
+        value = values[i]
+        return repr(value) if isinstance(value, str) else f"{value:g}"
 
 
 @dataclass
@@ -76,6 +113,7 @@ class _Rows:
     line: np.ndarray  # the row's line number in its file
     file_of: np.ndarray  # the row's file, an index into files
     written: np.ndarray  # the row's time text as written
+    year: np.ndarray  # the row's calendar year as the source writes it
 
     @property
     def names(self) -> str:
@@ -83,8 +121,8 @@ class _Rows:
         return ", ".join(f.name for f in self.files)
 
     def where(self, i: int) -> str:
-        """'<file>, line <n>' of row i."""
-        return _where(self.files[self.file_of[i]].name, self.line[i])
+        """'<file>, line <n>' of row i ('time step <n>' in a NetCDF file)."""
+        return self.files[self.file_of[i]].where(self.line[i])
 
 
 def _where(name: str, line: int) -> str:
@@ -118,11 +156,14 @@ def _read_files(paths, utc_offset_h: float | None) -> list[_RawFile]:
     return _join_files(files)
 
 
-def _read_hourly_file(path: Path, utc_offset_h: float | None) -> _RawFile:
-    """Read one hourly CSV, parse its times and check they increase; a WeatherWarning for
-    ignored columns, an unused utc_offset_h and an unused ceiling_ft."""
+def _read_hourly_file(
+    path: Path, utc_offset_h: float | None, data: bytes | None = None
+) -> _RawFile:
+    """Read one hourly CSV (from ``data``, its bytes, when given), parse its times and check
+    they increase; a WeatherWarning for ignored columns, an unused utc_offset_h and an unused
+    ceiling_ft."""
     name = path.name
-    header, rows, lines, header_line, ignored = _read_rows(path)
+    header, rows, lines, header_line, ignored = _read_rows(path, data)
     if not rows:
         raise InputError(f"{name}: no data rows after the header (line {header_line})")
     table = np.array(rows, dtype=object).reshape(len(rows), len(header))
@@ -171,32 +212,36 @@ def _read_hourly_file(path: Path, utc_offset_h: float | None) -> _RawFile:
     return _RawFile(name, columns, line_numbers, time_utc, offsets)
 
 
-def _read_rows(path: Path) -> tuple[list[str], list[list[str]], list[int], int, list[str]]:
+def _read_rows(
+    path: Path, data: bytes | None = None
+) -> tuple[list[str], list[list[str]], list[int], int, list[str]]:
     """Header, data rows (stripped cells), their 1-based line numbers, the header's line and
     the ignored columns; skips blank and # lines. The header is checked before any row."""
     name = path.name
-    if not path.is_file():
-        raise InputFileError(f"{path}: hourly weather file not found")
+    if data is None:
+        if not path.is_file():
+            raise InputFileError(f"{path}: hourly weather file not found")
+        data = path.read_bytes()
     header, header_line, rows, lines, ignored = None, 0, [], [], []
     try:
-        with open(path, newline="", encoding="utf-8-sig") as handle:
-            reader = csv.reader(handle)
-            for cells in reader:
-                cells = [c.strip() for c in cells]
-                if not any(cells) or cells[0].startswith("#"):
-                    continue
-                if header is None:
-                    header, header_line = cells, reader.line_num
-                    ignored = _check_header(name, header, header_line)
-                    continue
-                if len(cells) != len(header):
-                    raise InputError(
-                        f"{_where(name, reader.line_num)}: {len(cells)} values, "
-                        f"but the header line {header_line} has {len(header)} "
-                        f"columns ({','.join(header)})"
-                    )
-                rows.append(cells)
-                lines.append(reader.line_num)
+        handle = io.StringIO(data.decode("utf-8-sig"), newline="")
+        reader = csv.reader(handle)
+        for cells in reader:
+            cells = [c.strip() for c in cells]
+            if not any(cells) or cells[0].startswith("#"):
+                continue
+            if header is None:
+                header, header_line = cells, reader.line_num
+                ignored = _check_header(name, header, header_line)
+                continue
+            if len(cells) != len(header):
+                raise InputError(
+                    f"{_where(name, reader.line_num)}: {len(cells)} values, "
+                    f"but the header line {header_line} has {len(header)} "
+                    f"columns ({','.join(header)})"
+                )
+            rows.append(cells)
+            lines.append(reader.line_num)
     except UnicodeDecodeError as exc:
         raise InputError(f"{name}: not UTF-8 text ({exc.reason} at byte {exc.start})") from exc
     except csv.Error as exc:
@@ -224,7 +269,10 @@ def _check_header(name: str, header: list[str], header_line: int) -> list[str]:
             f"{_where(name, header_line)}: missing column(s) {', '.join(need)}; "
             f"need {','.join(HOURLY_REQUIRED)} plus stability (A-F) or "
             f"cloud_oktas (0-8), optional ceiling_ft, temperature_c "
-            f"(got {','.join(header)})"
+            f"(got {','.join(header)}); a CSV in another layout is read with a column map "
+            "(columns: time=...,direction=...,speed=...,cloud=...; in a scenario "
+            "[weather] columns)",
+            parameters=("columns",),
         )
     if has_class and has_cloud:
         raise InputError(
@@ -326,9 +374,9 @@ def _join_files(files: list[_RawFile]) -> list[_RawFile]:
     for before, after in pairwise(files):
         if after.time_utc[0] <= before.time_utc[-1]:
             raise InputError(
-                f"{after.name}, line {after.lines[0]}: time "
+                f"{after.where(after.lines[0])}: time "
                 f"{after.columns['time'][0]!r} overlaps {before.name}, which runs "
-                f"to {before.columns['time'][-1]!r} (line {before.lines[-1]}); "
+                f"to {before.columns['time'][-1]!r} ({before.row_word} {before.lines[-1]}); "
                 "hourly files must not overlap"
             )
     return files
@@ -364,6 +412,7 @@ def _joined_rows(files: list[_RawFile]) -> _Rows:
         line=np.concatenate([f.lines for f in files]),
         file_of=np.concatenate([np.full(f.lines.size, k) for k, f in enumerate(files)]),
         written=np.concatenate([f.columns["time"] for f in files]),
+        year=np.concatenate([f.year for f in files]),
     )
 
 
@@ -433,6 +482,16 @@ def _is_missing(texts: np.ndarray) -> np.ndarray:
 def _numbers(raw: _RawFile, column: str) -> np.ndarray:
     """A column as floats, NaN where empty; anything else that is not a finite number fails."""
     texts = raw.columns[column]
+    if texts.dtype.kind == "f":  # a reader of another format: numbers in siting's units
+        # +inf is an unlimited ceiling (no cloud base); any other infinity is a fault
+        bad = np.isinf(texts) & ~((column == "ceiling_ft") & (texts > 0))
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise InputError(
+                f"{raw.where(raw.lines[i])}: {raw.label(column)} must be a finite number, "
+                f"got {raw.shown_value(column, i)}"
+            )
+        return texts
     missing = _is_missing(texts)
     values = pd.to_numeric(
         pd.Series(np.where(missing, "nan", texts), dtype=object), errors="coerce"
@@ -455,6 +514,6 @@ def _check_range(
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
         raise InputError(
-            f"{_where(raw.name, raw.lines[i])}: {column} must be {expected}, "
-            f"got {raw.columns[column][i]!r}"
+            f"{raw.where(raw.lines[i])}: {raw.label(column)} must be {expected}, "
+            f"got {raw.shown_value(column, i)}"
         )

@@ -64,7 +64,7 @@ import numpy as np
 from siting.dispersion.hourly import HourlyWeather
 from siting.errors import InputError
 from siting.physics.plume import STABILITY_CLASSES
-from siting.readers.hourly_columns import _joined_rows, _read_files, _Rows, _utc_text, _warn
+from siting.readers.hourly_columns import _joined_rows, _Rows, _utc_text, _warn
 from siting.readers.hourly_rules import (
     CALM_RULE,
     MISSING_RULE,
@@ -80,6 +80,7 @@ from siting.readers.hourly_rules import (
     _usable_hours,
 )
 from siting.readers.hourly_table import compass_words, hours_by_sector
+from siting.readers.weather_formats import WeatherSource, read_record_files
 
 HOURS_PER_YEAR = 8760  # 365 d x 24 h: a common (non-leap) year
 _HOURS_PER_MEAN_YEAR = 8766.0  # 365.25 d x 24 h, for the record length in years
@@ -115,14 +116,17 @@ def read_hourly_record(
     min_wind_speed_m_s: float = 1.0,
     max_missing_percent: float = 10.0,
     direction_step_deg: float | None = None,
+    source: WeatherSource | None = None,
 ) -> tuple[HourlyWeather, dict]:
-    """Read, check and prepare an hourly weather record (one or several CSV files).
+    """Read, check and prepare an hourly weather record (one or several files).
 
     Parameters
     ----------
     paths : path or sequence of paths
-        One CSV file, or several (e.g. one per year), joined in time order. Format, time rule,
-        calm rule and missing-hour rule: see the module docstring.
+        One file, or several (e.g. one per year), joined in time order: siting's hourly CSV,
+        any CSV by a column map, ISD-Lite station-year files or reanalysis NetCDF
+        (``weather_formats.py``). Time rule, calm rule and missing-hour rule: see the module
+        docstring.
     latitude_deg, longitude_deg : float
         Site position [deg], north and east positive, -90..90 and -180..180; sets the solar
         elevation of Turner's method.
@@ -141,6 +145,9 @@ def read_hourly_record(
         Interval the directions were reported in [deg], 0..45; each hour's plume is spread
         evenly over it (0: exact directions). None infers it from the directions
         (:func:`direction_step_deg`); an inferred step of 1 deg or finer is not spread.
+    source : WeatherSource, optional
+        The files' format and, for a CSV by a column map or a NetCDF file, the map, units and
+        grid point rule; None detects the format and reads siting's own CSV layout.
 
     Returns
     -------
@@ -157,7 +164,10 @@ def read_hourly_record(
         over, in HourlyWeather.direction_step_deg), direction_rule (in words), stability_share
         (A..F fractions of the hours used), stability_method, temperature_c (min, mean, max,
         hours_without, or None), years_covered (calendar years as written), record_years,
-        anemometer_height_m, calm_rule, missing_rule.
+        anemometer_height_m, calm_rule, missing_rule, format (csv, isd-lite or netcdf),
+        sources (each file's layout and the values its missing codes and quality flags
+        removed), grid_point (a NetCDF record: the grid point's position, the rule and its
+        distance from the site [km]; else None).
 
     Warns
     -----
@@ -192,7 +202,7 @@ def read_hourly_record(
         max_missing_percent,
         direction_step_deg,
     )
-    files = _read_files(paths, utc_offset_h)
+    files = read_record_files(paths, source, utc_offset_h, latitude_deg, longitude_deg)
     rows = _joined_rows(files)
     hour_index, n_expected = _hour_index(rows)
     timeline = _usable_hours(rows, hour_index, n_expected, calm_threshold_m_s, max_missing_percent)
@@ -333,12 +343,27 @@ def _summary(
         "stability_share": {c: float(share[i]) for i, c in enumerate(STABILITY_CLASSES)},
         "stability_method": STABILITY_GIVEN if rows.given_class else STABILITY_TURNER,
         "temperature_c": _temperature_summary(weather.temperature_c),
-        "years_covered": sorted({int(text[:4]) for text in rows.written[used]}),
+        "years_covered": sorted({int(y) for y in rows.year[used]}),
         "record_years": round(n_expected / _HOURS_PER_MEAN_YEAR, 3),
         "anemometer_height_m": float(options.anemometer_height_m),
         "calm_rule": CALM_RULE,
         "missing_rule": MISSING_RULE,
+        "format": rows.files[0].source["format"],
+        "sources": {f.name: f.source for f in rows.files},
+        "grid_point": _grid_point(rows),
     }
+
+
+def _grid_point(rows: _Rows) -> dict | None:
+    """A NetCDF record's grid point (the first file's; a warning where the files differ)."""
+    points = [f.source for f in rows.files if f.source.get("format") == "netcdf"]
+    if not points:
+        return None
+    keys = ("grid_latitude_deg", "grid_longitude_deg", "grid_point_rule", "distance_km")
+    first = {k: points[0][k] for k in keys}
+    if any({k: p[k] for k in keys} != first for p in points[1:]):
+        _warn(f"{rows.names}: the files' grid points differ; the first file's is reported")
+    return first
 
 
 def _temperature_summary(temperature_c: np.ndarray) -> dict | None:
@@ -383,6 +408,12 @@ def _warn_about_record(
             f"{names}: {len(long_gaps)} gap(s) longer than {_LONG_GAP_H} h, the "
             f"longest {long_gaps[0]['hours']} h from {long_gaps[0]['start_utc']}; "
             "missing hours are not filled, so that part of the year counts less"
+        )
+    if summary["format"] == "netcdf" and options.anemometer_height_m != 10.0:
+        _warn(
+            f"{names}: a reanalysis gives the wind 10 m above ground, but "
+            f"anemometer_height_m = {options.anemometer_height_m:g} is given",
+            parameters=("anemometer_height_m",),
         )
     observed = rows.speed_m_s[timeline.used]
     if observed.max() > _FAST_SPEED_M_S:
