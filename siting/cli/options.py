@@ -166,17 +166,19 @@ def _add_weather(sub: argparse._SubParsersAction, common: argparse.ArgumentParse
         "weather",
         parents=[common],
         help="frequency table and charts from an hourly weather record",
-        description="Check an hourly station record (one or more CSV files in "
-        "time order) and write frequency_table.csv (usable as a "
-        "scenario's frequency_table), wind_rose.png, "
+        description="Check an hourly weather record (one or more files in time "
+        "order: siting's hourly CSV, any CSV by a column map, ISD-Lite station-year files "
+        "or reanalysis CF NetCDF) and write frequency_table.csv (all years; usable as a "
+        "scenario's frequency_table), one table per calendar year, wind_rose.png, "
         "stability_by_speed.png and summary.json.",
     )
     p.add_argument(
         "hourly",
         nargs="+",
-        metavar="HOURLY.csv",
-        help="hourly record: time,direction_deg,speed_m_s and stability or "
-        "cloud_oktas (optional ceiling_ft, temperature_c)",
+        metavar="FILE",
+        help="hourly record: siting's CSV (time,direction_deg,speed_m_s and stability or "
+        "cloud_oktas, optional ceiling_ft, temperature_c), a CSV by --columns, ISD-Lite "
+        "files (.gz too) or NetCDF",
     )
     p.add_argument(
         "--lat",
@@ -240,7 +242,105 @@ def _add_weather(sub: argparse._SubParsersAction, common: argparse.ArgumentParse
         metavar="M",
         help="height of the wind measurement [m] (default 10)",
     )
+    p.add_argument(
+        "--station-lat",
+        dest="station_latitude_deg",
+        type=float,
+        default=None,
+        metavar="DEG",
+        help="the station's latitude [deg north], for its distance from the site",
+    )
+    p.add_argument(
+        "--station-lon",
+        dest="station_longitude_deg",
+        type=float,
+        default=None,
+        metavar="DEG",
+        help="the station's longitude [deg east]",
+    )
+    add_weather_source_options(p)
     p.set_defaults(command_module="weather")
+
+
+def add_weather_source_options(p: argparse.ArgumentParser) -> None:
+    """The options of a weather file's format: what it is, its column map and units, its
+    missing codes and flags, and a NetCDF grid's point (``readers/weather_formats.py``)."""
+    g = p.add_argument_group("format of the weather files")
+    g.add_argument(
+        "--format",
+        dest="format",
+        choices=("auto", "csv", "isd-lite", "netcdf"),
+        default="auto",
+        help="the files' format (default: detected from the content)",
+    )
+    g.add_argument(
+        "--columns",
+        dest="columns",
+        default=None,
+        metavar="MAP",
+        help="a CSV's column map, siting name=column: time (or DATE+HOUR), direction, "
+        "speed, cloud or stability, optional ceiling, temperature, NAME_flag; or a NetCDF "
+        "file's variables u, v, cloud, ceiling, temperature (e.g. "
+        "time=DATE,direction=DD,speed=FF,cloud=N)",
+    )
+    g.add_argument(
+        "--speed-unit",
+        dest="speed_unit",
+        choices=("m/s", "knots", "km/h"),
+        default="m/s",
+        help="unit of a mapped CSV's speed (default m/s)",
+    )
+    g.add_argument(
+        "--direction-unit",
+        dest="direction_unit",
+        choices=("deg", "tens"),
+        default="deg",
+        help="unit of a mapped CSV's direction: degrees, or tens of degrees (27 = 270)",
+    )
+    g.add_argument(
+        "--cloud-unit",
+        dest="cloud_unit",
+        choices=("oktas", "fraction", "percent"),
+        default="oktas",
+        help="unit of a mapped CSV's cloud cover (default oktas)",
+    )
+    g.add_argument(
+        "--ceiling-unit",
+        dest="ceiling_unit",
+        choices=("ft", "m"),
+        default="ft",
+        help="unit of a mapped CSV's ceiling (default ft)",
+    )
+    g.add_argument(
+        "--time-format",
+        dest="time_format",
+        default=None,
+        metavar="FORMAT",
+        help="a mapped CSV's time format, as strptime writes it (e.g. '%%d.%%m.%%Y %%H:%%M'; "
+        "default ISO 8601)",
+    )
+    g.add_argument(
+        "--missing-codes",
+        dest="missing_codes",
+        default=None,
+        metavar="CODES",
+        help="comma-separated cell values meaning missing in a mapped CSV (e.g. -999,9999)",
+    )
+    g.add_argument(
+        "--flags-ok",
+        dest="flags_ok",
+        default=None,
+        metavar="FLAGS",
+        help="comma-separated quality flags that accept a value (other flags: missing)",
+    )
+    g.add_argument(
+        "--grid-point",
+        dest="grid_point",
+        choices=("nearest", "bilinear"),
+        default="nearest",
+        help="a NetCDF grid's value at the site: the nearest grid point (default) or "
+        "bilinear interpolation",
+    )
 
 
 def _add_place(sub: argparse._SubParsersAction, common: argparse.ArgumentParser) -> None:

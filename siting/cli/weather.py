@@ -11,6 +11,7 @@ from siting.errors import InputError, collect_warnings
 from siting.output.folder import check_output_dir
 from siting.output.weather import write_weather_outputs
 from siting.readers.hourly_record import read_hourly_record
+from siting.readers.weather_formats import weather_source
 
 
 def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, quiet: bool) -> None:
@@ -27,6 +28,18 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
     )
     table.add_column("what", style="bold")
     table.add_column("value")
+    layouts = sorted({s["layout"] for s in summary["sources"].values()})
+    table.add_row("format", "; ".join(layouts))
+    removed = _removed_words(summary["sources"])
+    if removed:
+        table.add_row("missing codes, flags", removed)
+    station = summary["station"]
+    table.add_row(
+        "record's position",
+        f"{station['position']}, {station['distance_km']:.1f} km from the site"
+        if station["position"]
+        else "not given (give the station's position for its distance from the site)",
+    )
     table.add_row("period (UTC)", f"{summary['first_time_utc']} to {summary['last_time_utc']}")
     table.add_row("hours used", f"{summary['hours_used']} of {summary['hours_expected']} expected")
     longest = (
@@ -66,12 +79,34 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
             "temperature",
             f"{t['min']:.1f} / {t['mean']:.1f} / {t['max']:.1f} °C (min / mean / max)",
         )
+    if len(summary["by_year"]) > 1:
+        for year in summary["by_year"]:
+            table.add_row(
+                f"year {year['year']}",
+                f"{year['hours_used']} h used, calms {year['calm_percent']:.1f} %, mean "
+                f"{year['mean_speed_m_s']:.2f} m/s, prevailing {year['prevailing_from_words']}",
+            )
     console.print(table)
     print_warnings(console, warnings_, flags_by_parameter("weather"), soft_wrap=False)
+    per_year = (
+        " by_year/frequency_table_<year>.csv, years.csv," if len(summary["by_year"]) > 1 else ""
+    )
     console.print(
-        f"Outputs in {out_dir} (frequency_table.csv, wind_rose.png, "
+        f"Outputs in {out_dir} (frequency_table.csv,{per_year} wind_rose.png, "
         "stability_by_speed.png, summary.json)."
     )
+
+
+def _removed_words(sources: dict) -> str:
+    """What the files' missing codes and quality flags removed, in words ('' for nothing)."""
+    totals: dict[str, int] = {}
+    for source in sources.values():
+        for group in ("missing_codes", "flags_rejected", "not_in_oktas"):
+            for what, n in source.get(group, {}).items():
+                key = {"flags_rejected": f"{what}: flag not accepted"}.get(group, what)
+                totals[key] = totals.get(key, 0) + int(n)
+    shown = [f"{what} {n}" for what, n in totals.items() if n]
+    return ", ".join(shown)
 
 
 def run(args) -> int:
@@ -85,6 +120,18 @@ def run(args) -> int:
     out_dir = Path(args.out_dir).resolve()
     paths = [Path(p) for p in args.hourly]
     check_output_dir(out_dir, args.overwrite, paths)
+    source = weather_source(
+        args.format,
+        args.columns,
+        speed_unit=args.speed_unit,
+        direction_unit=args.direction_unit,
+        cloud_unit=args.cloud_unit,
+        ceiling_unit=args.ceiling_unit,
+        time_format=args.time_format,
+        missing_codes=args.missing_codes,
+        flags_ok=args.flags_ok,
+        grid_point=args.grid_point,
+    )
     with collect_warnings() as reading:  # the record's warnings, for the summary and its file
         weather, summary = read_hourly_record(
             paths,
@@ -95,6 +142,9 @@ def run(args) -> int:
             calm_threshold_m_s=args.calm_threshold_m_s,
             min_wind_speed_m_s=args.min_wind_speed_m_s,
             max_missing_percent=args.max_missing_percent,
+            source=source,
+            station_latitude_deg=args.station_latitude_deg,
+            station_longitude_deg=args.station_longitude_deg,
         )
     written, warnings_ = write_weather_outputs(
         out_dir,

@@ -65,6 +65,9 @@ class HourlyWeather:
         Interval the directions were reported in [deg], 0..45: each hour's plume is spread
         evenly over +-step/2 of its direction (:func:`spread_lateral_density_per_m`). 0 means
         exact directions (no spreading).
+    calendar_year : ndarray of int, optional
+        Each hour's calendar year as its source writes it (local time where the source is
+        local), for per-year tables and the worst single year; None: the UTC year.
     """
 
     time_utc: np.ndarray
@@ -74,11 +77,33 @@ class HourlyWeather:
     temperature_c: np.ndarray
     anemometer_height_m: float = 10.0
     direction_step_deg: float = 0.0
+    calendar_year: np.ndarray | None = None
 
     @property
     def n_hours(self) -> int:
         """Number of hours in the record (after missing hours are left out)."""
         return int(self.direction_deg.size)
+
+    @property
+    def years(self) -> np.ndarray:
+        """Each hour's calendar year (``calendar_year``, else the UTC year)."""
+        if self.calendar_year is not None:
+            return np.asarray(self.calendar_year, dtype=int)
+        return np.asarray(self.time_utc, dtype="datetime64[Y]").astype(int) + 1970
+
+    def of_year(self, year: int) -> HourlyWeather:
+        """The hours of one calendar year (``years``), as a record of their own."""
+        mine = self.years == int(year)
+        return HourlyWeather(
+            self.time_utc[mine],
+            self.direction_deg[mine],
+            self.speed_m_s[mine],
+            self.stability_index[mine],
+            self.temperature_c[mine],
+            self.anemometer_height_m,
+            self.direction_step_deg,
+            None if self.calendar_year is None else self.calendar_year[mine],
+        )
 
 
 def group_identical_hours(weather: HourlyWeather, hour_weights=None):

@@ -15,6 +15,8 @@ from collections.abc import Sequence
 from datetime import UTC, datetime
 from pathlib import Path
 
+import pandas as pd
+
 from siting._version import __version__
 from siting.dispersion.hourly import HourlyWeather
 from siting.errors import collect_warnings, unique_messages
@@ -47,9 +49,12 @@ def write_weather_outputs(
 ) -> tuple[Path, list[str]]:
     """Write the products of ``siting weather`` into ``out_dir``, atomically.
 
-    Files: ``frequency_table.csv`` (usable as a scenario's ``frequency_table``),
-    ``wind_rose.png``, ``stability_by_speed.png`` and ``summary.json`` (the summary, warnings,
-    table settings and the SHA-256 of every input file). Everything is written into a staging
+    Files: ``frequency_table.csv`` (all years together; usable as a scenario's
+    ``frequency_table``), ``by_year/frequency_table_<year>.csv`` (one per calendar year, the
+    same sectors and speed classes) and ``years.csv`` (per year: hours used, calms, mean speed,
+    prevailing wind) when the record spans more than one calendar year, ``wind_rose.png``,
+    ``stability_by_speed.png`` and ``summary.json`` (the summary, warnings, table settings and
+    the SHA-256 of every input file). Everything is written into a staging
     folder beside ``out_dir`` and moved into place when complete; an existing ``out_dir`` is
     replaced only with ``overwrite`` (``outputs.staged_folder``, as for ``siting screen``).
 
@@ -91,6 +96,15 @@ def write_weather_outputs(
     check_output_dir(out_dir, overwrite)
     with collect_warnings() as binning:
         table = weather_hourly.frequency_table_from_hourly(weather, n_sectors)
+        years = sorted({int(y) for y in weather.years})
+        by_year = (
+            {
+                y: weather_hourly.frequency_table_from_hourly(weather.of_year(y), n_sectors)
+                for y in years
+            }
+            if len(years) > 1
+            else {}
+        )
     warnings = unique_messages([*warnings, *binning.messages])
     record = {
         "tool": "siting weather",
@@ -105,12 +119,24 @@ def write_weather_outputs(
             "speed_rule": "speed_m_s of a class = mean speed of the hours in it (after the calm "
             "rule); the last class is open",
             "rows": len(table),
+            "by_year": [f"by_year/frequency_table_{y}.csv" for y in by_year],
         },
         "summary": summary,
         "warnings": warnings,
     }
     with staged_folder(out_dir, overwrite) as staging:
         table.to_csv(staging / "frequency_table.csv", index=False, float_format="%.10g")
+        if by_year:
+            (staging / "by_year").mkdir()
+            for year, year_table in by_year.items():
+                year_table.to_csv(
+                    staging / "by_year" / f"frequency_table_{year}.csv",
+                    index=False,
+                    float_format="%.10g",
+                )
+            pd.DataFrame(summary["by_year"]).to_csv(
+                staging / "years.csv", index=False, float_format="%.6g"
+            )
         (staging / "wind_rose.png").write_bytes(
             figure_png(weather_figures.wind_rose_figure(weather, n_sectors=n_sectors))
         )

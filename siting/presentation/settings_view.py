@@ -81,6 +81,17 @@ SETTINGS: dict[str, Setting] = {
         "hourly",
         "none: inferred from the record",
     ),
+    "weather.format": Setting("Format of the hourly files", "hourly", "detected from the content"),
+    "weather.columns": Setting("Column map of the hourly files", "hourly"),
+    "weather.speed_unit": Setting("Unit of the mapped wind speed", "hourly"),
+    "weather.direction_unit": Setting("Unit of the mapped wind direction", "hourly"),
+    "weather.cloud_unit": Setting("Unit of the mapped cloud cover", "hourly"),
+    "weather.ceiling_unit": Setting("Unit of the mapped ceiling", "hourly"),
+    "weather.time_format": Setting("Time format of the mapped CSV", "hourly", "none: ISO 8601"),
+    "weather.missing_codes": Setting("Missing-value codes of the mapped CSV", "hourly"),
+    "weather.flags_ok": Setting("Quality flags that accept a value", "hourly"),
+    "weather.grid_point": Setting("Reanalysis grid: value at the site from", "hourly"),
+    "weather.screen_by": Setting("Several weather years: screened by", "hourly"),
     # [seasonal]
     "seasonal": Setting("Hour-by-hour emission"),
     "seasonal.temperature_dependent_emission": Setting(

@@ -88,6 +88,9 @@ _CALM_WARN_PERCENT = 10.0  # our choice: more calms than this deserve a look at 
 _LONG_GAP_H = 24  # our choice: a gap longer than a day may hide a season's pattern
 _MAX_GAPS_LISTED = 20
 _FAST_SPEED_M_S = 50.0  # hourly means above this suggest knots or gusts (our choice)
+#: A record's station or grid point farther than this from the site [km] is warned about
+#: (common practice, no source; ``siting verify`` rates 30-60 km medium, beyond high).
+STATION_WARN_KM = 30.0
 
 
 @dataclass(frozen=True)
@@ -117,6 +120,8 @@ def read_hourly_record(
     max_missing_percent: float = 10.0,
     direction_step_deg: float | None = None,
     source: WeatherSource | None = None,
+    station_latitude_deg: float | None = None,
+    station_longitude_deg: float | None = None,
 ) -> tuple[HourlyWeather, dict]:
     """Read, check and prepare an hourly weather record (one or several files).
 
@@ -148,6 +153,9 @@ def read_hourly_record(
     source : WeatherSource, optional
         The files' format and, for a CSV by a column map or a NetCDF file, the map, units and
         grid point rule; None detects the format and reads siting's own CSV layout.
+    station_latitude_deg, station_longitude_deg : float, optional
+        The station's position [deg], for its distance from the site (a NetCDF record's
+        position is its grid point's, and these are then not used).
 
     Returns
     -------
@@ -167,14 +175,18 @@ def read_hourly_record(
         anemometer_height_m, calm_rule, missing_rule, format (csv, isd-lite or netcdf),
         sources (each file's layout and the values its missing codes and quality flags
         removed), grid_point (a NetCDF record: the grid point's position, the rule and its
-        distance from the site [km]; else None).
+        distance from the site [km]; else None), station (the record's position: where it
+        comes from, latitude_deg, longitude_deg, distance_km from the site, or None where
+        not known; the rule of the warning), by_year (per calendar year: hours used, hours
+        missing, calm %, mean speed, prevailing direction).
 
     Warns
     -----
     WeatherWarning
         Legal but doubtful content: calms above 10 %, a record shorter than a year, gaps
         longer than 24 h, ignored columns, very high speeds, directions that are not
-        multiples of a given direction step.
+        multiples of a given direction step; a station or grid point farther from the site
+        than ``STATION_WARN_KM``.
 
     Raises
     ------
@@ -208,6 +220,8 @@ def read_hourly_record(
     timeline = _usable_hours(rows, hour_index, n_expected, calm_threshold_m_s, max_missing_percent)
     weather, filled, step = _hours_used(rows, timeline, options)
     summary = _summary(rows, timeline, weather, filled, step, options)
+    summary["station"] = _station(summary, options, station_latitude_deg, station_longitude_deg)
+    summary["by_year"] = _by_year(rows, timeline, weather, step)
     _warn_about_record(summary, rows, timeline, options)
     return weather, summary
 
@@ -288,6 +302,7 @@ def _hours_used(
         rows.temperature_c[used].astype(float),
         float(options.anemometer_height_m),
         spread,
+        rows.year[used].astype(int),
     )
     return weather, filled, step
 
@@ -352,6 +367,61 @@ def _summary(
         "sources": {f.name: f.source for f in rows.files},
         "grid_point": _grid_point(rows),
     }
+
+
+def _station(summary: dict, options: _Options, lat, lon) -> dict:
+    """The record's position and its distance from the site, with a WeatherWarning past
+    STATION_WARN_KM; position unknown (None) where neither the file nor the caller gives it."""
+    rule = f"a warning past {STATION_WARN_KM:g} km from the site (common practice, no source)"
+    point = summary["grid_point"]
+    if point is not None:
+        where = f"the reanalysis grid point nearest the site (values by {point['grid_point_rule']})"
+        lat, lon = point["grid_latitude_deg"], point["grid_longitude_deg"]
+    elif lat is not None and lon is not None:
+        where = "the station position given"
+    else:
+        return {"position": None, "distance_km": None, "rule": rule}
+    from pyproj import Geod
+
+    _, _, metres = Geod(ellps="WGS84").inv(options.longitude_deg, options.latitude_deg, lon, lat)
+    distance_km = round(float(metres) / 1000.0, 2)
+    if distance_km > STATION_WARN_KM:
+        _warn(
+            f"the weather record's position ({where}) is {distance_km:.1f} km from the site, "
+            f"more than {STATION_WARN_KM:g} km; check that it represents the site's wind",
+            parameters=("station_latitude_deg", "station_longitude_deg"),
+        )
+    return {
+        "position": where,
+        "latitude_deg": float(lat),
+        "longitude_deg": float(lon),
+        "distance_km": distance_km,
+        "rule": rule,
+    }
+
+
+def _by_year(rows: _Rows, timeline: _Timeline, weather: HourlyWeather, step: float) -> list:
+    """Per calendar year (as the source writes it) of the used hours: hours used and missing,
+    calm %, mean speed after raising and the prevailing direction."""
+    years = rows.year[timeline.used]
+    expected = rows.year  # the rows of each year (missing hours inside a year are not rows)
+    out = []
+    for year in sorted({int(y) for y in years}):
+        mine = years == year
+        by_point = hours_by_sector(weather.direction_deg[mine], 16, step)
+        prevailing = float(np.argmax(by_point) * 22.5)
+        calm = timeline.calm[timeline.used][mine]
+        out.append(
+            {
+                "year": year,
+                "hours_used": int(mine.sum()),
+                "rows_in_files": int((expected == year).sum()),
+                "calm_percent": 100.0 * float(calm.mean()),
+                "mean_speed_m_s": float(weather.speed_m_s[mine].mean()),
+                "prevailing_from_words": compass_words(prevailing),
+            }
+        )
+    return out
 
 
 def _grid_point(rows: _Rows) -> dict | None:

@@ -26,6 +26,8 @@ from pydantic import (
     model_validator,
 )
 
+from siting.errors import SitingError
+
 FilePath = Annotated[Path, Field(strict=False)]
 
 #: Line breaks and tabs in a [project] text, with the spaces round them: each run becomes one
@@ -108,6 +110,13 @@ class ProjectSection(_Section):
     date: Annotated[datetime.date, BeforeValidator(_iso_date)] | None = None
 
 
+def _code_text(value):
+    """A missing code or flag as text: TOML numbers (-999) are read as they are written."""
+    if isinstance(value, bool) or not isinstance(value, (str, int, float)):
+        raise ValueError("a code must be a text or a number")
+    return str(value)
+
+
 class WeatherSection(_Section):
     """[weather]: the weather behind the long-term means.
 
@@ -141,6 +150,24 @@ class WeatherSection(_Section):
         Lowest height the power law is taken down to [m], (0, 10] (default 1).
     direction_step_deg : float, optional
         The step hourly directions were reported in [deg], 0..45; None infers it, 0 is exact.
+    format : {"auto", "csv", "isd-lite", "netcdf"}
+        The hourly files' format (default: detected from the content).
+    columns : dict of str to str
+        A CSV's column map (time, direction, speed, cloud or stability, ceiling, temperature,
+        <name>_flag) or a NetCDF file's variables (u, v, cloud, ceiling, temperature).
+    speed_unit, direction_unit, cloud_unit, ceiling_unit : str
+        Units of a mapped CSV: m/s, knots or km/h; deg or tens; oktas, fraction or percent;
+        ft or m.
+    time_format : str, optional
+        A mapped CSV's time format (strptime); None reads ISO 8601.
+    missing_codes, flags_ok : list of str
+        A mapped CSV's missing-value codes, and the quality flags that accept a value.
+    grid_point : {"nearest", "bilinear"}
+        A NetCDF grid's value at the site.
+    screen_by : {"all_years", "worst_year"}
+        An hourly record of several years: the long-term mean of all the years, or the worst
+        single year at each point (each point takes the year that gives it the highest
+        judged contribution; each site's year is reported).
     """
 
     frequency_table: FilePath | None = None
@@ -160,11 +187,47 @@ class WeatherSection(_Section):
     wind_profile_min_height_m: float = Field(1.0, gt=0, le=10)
     # hourly records: the step the directions were reported in [deg]; None = inferred
     direction_step_deg: float | None = Field(None, ge=0, le=45)
+    # the hourly files' format and, for a CSV by a column map or NetCDF, the map and units
+    format: Literal["auto", "csv", "isd-lite", "netcdf"] = "auto"
+    columns: dict[str, str] = Field(default_factory=dict)
+    speed_unit: Literal["m/s", "knots", "km/h"] = "m/s"
+    direction_unit: Literal["deg", "tens"] = "deg"
+    cloud_unit: Literal["oktas", "fraction", "percent"] = "oktas"
+    ceiling_unit: Literal["ft", "m"] = "ft"
+    time_format: str | None = Field(None, min_length=2, max_length=100)
+    missing_codes: list[Annotated[str, BeforeValidator(_code_text)]] = Field(default_factory=list)
+    flags_ok: list[Annotated[str, BeforeValidator(_code_text)]] = Field(default_factory=list)
+    grid_point: Literal["nearest", "bilinear"] = "nearest"
+    screen_by: Literal["all_years", "worst_year"] = "all_years"
+
+    def source(self):
+        """The hourly files' :class:`~siting.readers.weather_formats.WeatherSource`."""
+        from siting.readers.weather_formats import weather_source
+
+        return weather_source(
+            self.format,
+            self.columns,
+            speed_unit=self.speed_unit,
+            direction_unit=self.direction_unit,
+            cloud_unit=self.cloud_unit,
+            ceiling_unit=self.ceiling_unit,
+            time_format=self.time_format,
+            missing_codes=self.missing_codes,
+            flags_ok=self.flags_ok,
+            grid_point=self.grid_point,
+        )
 
     @model_validator(mode="after")
     def _one_record(self):
         if (self.frequency_table is None) == (self.hourly is None):
             raise ValueError("give exactly one of frequency_table or hourly")
+        if self.columns:
+            from siting.readers.weather_formats import parse_column_map
+
+            try:
+                parse_column_map(",".join(f"{k}={v}" for k, v in self.columns.items()))
+            except SitingError as exc:
+                raise ValueError(str(exc)) from None
         if self.sigma_scheme == "pasquill_gifford" and self.land_type == "urban":
             raise ValueError(
                 "the Pasquill-Gifford curve fits are rural only; use "

@@ -129,6 +129,58 @@ def parse_column_map(text: str | None) -> dict[str, str]:
     return pairs
 
 
+def weather_source(
+    format: str = "auto",
+    columns: str | dict[str, str] | None = None,
+    *,
+    speed_unit: str = "m/s",
+    direction_unit: str = "deg",
+    cloud_unit: str = "oktas",
+    ceiling_unit: str = "ft",
+    time_format: str | None = None,
+    missing_codes: str | list[str] | tuple[str, ...] | None = None,
+    flags_ok: str | list[str] | tuple[str, ...] | None = None,
+    grid_point: str = "nearest",
+) -> WeatherSource:
+    """A checked :class:`WeatherSource` from options as the command line or a scenario gives
+    them: the column map as ``time=DATE,...`` text or a table, the codes and flags as
+    comma-separated text or a list.
+
+    Raises
+    ------
+    InputError
+        A malformed column map or an option outside its choices.
+    """
+
+    def listed(value) -> tuple[str, ...]:
+        if value is None:
+            return ()
+        items = value.split(",") if isinstance(value, str) else list(value)
+        return tuple(str(item).strip() for item in items if str(item).strip())
+
+    mapping = (
+        parse_column_map(columns)
+        if isinstance(columns, str) or columns is None
+        else {str(k): str(v) for k, v in columns.items()}
+    )
+    if not isinstance(columns, str) and columns:
+        parse_column_map(",".join(f"{k}={v}" for k, v in mapping.items()))  # the same checks
+    return checked_source(
+        WeatherSource(
+            format=format,
+            columns=mapping,
+            speed_unit=speed_unit,
+            direction_unit=direction_unit,
+            cloud_unit=cloud_unit,
+            ceiling_unit=ceiling_unit,
+            time_format=time_format,
+            missing_codes=listed(missing_codes),
+            flags_ok=listed(flags_ok),
+            grid_point=grid_point,
+        )
+    )
+
+
 def checked_source(source: WeatherSource | None) -> WeatherSource:
     """The source's options checked (None: detect everything, siting's units)."""
     source = source or WeatherSource()

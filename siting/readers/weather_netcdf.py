@@ -112,6 +112,9 @@ def read_netcdf_file(path: Path, data: bytes, latitude_deg, longitude_deg, sourc
         values[key], missing[found[key]] = array, n_missing
     time_utc = _times(name, times)
     direction, speed = wind_from_components(values["u"], values["v"])
+    # to 1e-6 deg and m/s, far below any product's precision: a speed of 3 m/s from u, v
+    # stays 3 (not 2.9999999999999996) and falls in the class a station's 3.0 falls in
+    direction, speed = np.round(direction, 6) % 360.0, np.round(speed, 6)
     columns = {
         "direction_deg": direction,
         "speed_m_s": speed,

@@ -374,6 +374,9 @@ def _read_hourly(scenario: Scenario):
         min_wind_speed_m_s=w.min_wind_speed_m_s,
         max_missing_percent=w.max_missing_percent,
         direction_step_deg=w.direction_step_deg,
+        source=w.source(),
+        station_latitude_deg=w.station_latitude_deg,
+        station_longitude_deg=w.station_longitude_deg,
     )
 
 

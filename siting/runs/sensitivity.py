@@ -199,9 +199,10 @@ class _Variants:
             )
 
     def weather(self, path: Path) -> None:
-        """Another weather record (a frequency table or an hourly record, by its header)."""
-        first = path.read_text(encoding="utf-8", errors="replace").splitlines()[:1]
-        hourly = bool(first) and first[0].lower().startswith("time")
+        """Another weather record, read by the same readers as the scenario's own: a NetCDF
+        or ISD-Lite file (by content), siting's hourly CSV (by its header) or a CSV by the
+        scenario's column map is an hourly record; any other CSV a frequency table."""
+        hourly = _is_hourly(path, bool(self.scenario.weather.columns))
         weather = self.scenario.weather.model_copy(
             update={
                 "frequency_table": None if hourly else path.resolve(),
@@ -209,6 +210,22 @@ class _Variants:
             }
         )
         self.rerun(f"weather: {path.name}", self.scenario.model_copy(update={"weather": weather}))
+
+
+def _is_hourly(path: Path, mapped: bool) -> bool:
+    """True for an hourly record: NetCDF or ISD-Lite content, a CSV whose header starts with
+    ``time``, or (with a column map) any CSV that is not a frequency table."""
+    from siting.readers.weather_formats import detect_format, file_bytes
+
+    data = file_bytes(path)
+    if detect_format(path, data) != "csv":
+        return True
+    lines = data[:4096].decode("utf-8", errors="replace").splitlines()
+    first = next((ln for ln in lines if ln.strip() and not ln.startswith("#")), "")
+    header = [c.strip().lower() for c in first.split(",")]
+    if header[:1] == ["time"]:
+        return True
+    return mapped and "frequency" not in header
 
 
 def _summary(long: pd.DataFrame) -> pd.DataFrame:
