@@ -33,7 +33,7 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
     removed = _removed_words(summary["sources"])
     if removed:
         table.add_row("missing codes, flags", removed)
-    station = summary["station"]
+    station = summary["record_position"]
     table.add_row(
         "record's position",
         f"{station['position']}, {station['distance_km']:.1f} km from the site"

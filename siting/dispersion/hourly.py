@@ -92,7 +92,18 @@ class HourlyWeather:
         return np.asarray(self.time_utc, dtype="datetime64[Y]").astype(int) + 1970
 
     def of_year(self, year: int) -> HourlyWeather:
-        """The hours of one calendar year (``years``), as a record of their own."""
+        """The hours of one calendar year (``years``), as a record of their own.
+
+        Parameters
+        ----------
+        year : int
+            The calendar year.
+
+        Returns
+        -------
+        HourlyWeather
+            Its hours (none if the record has no hour of that year).
+        """
         mine = self.years == int(year)
         return HourlyWeather(
             self.time_utc[mine],

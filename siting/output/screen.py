@@ -194,6 +194,8 @@ def _write_tables(result, folder: Path) -> pd.DataFrame:
     columns = list(SITE_COLUMNS)
     at = columns.index("pc_pct_load") + 1  # beside the depleted figures
     columns[at:at] = [c for c in UNDEPLETED_COLUMNS if c in sites.columns]
+    if "weather_year" in sites.columns:  # screened by the worst single year (weather_years.py)
+        columns.insert(columns.index("judged_conc_max_ug_m3"), "weather_year")
     table = pd.DataFrame(sites[columns])
     write_csv(table, folder / "sites.csv")
     write_csv(result.receptors, folder / "receptors.csv")

@@ -70,6 +70,18 @@ def wind_from_components(u_m_s, v_m_s) -> tuple[np.ndarray, np.ndarray]:
 def speed_in_m_s(values, unit: str) -> np.ndarray:
     """Speeds in ``unit`` ("m/s", "knots" or "km/h") as m/s; NaN stays NaN.
 
+    Parameters
+    ----------
+    values : float or ndarray
+        Speeds in ``unit``.
+    unit : {"m/s", "knots", "km/h"}
+        Their unit.
+
+    Returns
+    -------
+    ndarray
+        Speeds [m s-1].
+
     Raises
     ------
     ValueError
@@ -82,6 +94,18 @@ def speed_in_m_s(values, unit: str) -> np.ndarray:
 
 def direction_in_deg(values, unit: str) -> np.ndarray:
     """Directions in ``unit`` ("deg", or "tens" of degrees: 27 = 270 deg) as degrees.
+
+    Parameters
+    ----------
+    values : float or ndarray
+        Directions in ``unit``.
+    unit : {"deg", "tens"}
+        Their unit.
+
+    Returns
+    -------
+    ndarray
+        Directions [deg].
 
     Raises
     ------
@@ -101,6 +125,16 @@ def oktas_from_fraction(fraction) -> np.ndarray:
     The nearest eighth, except that any cloud (fraction > 0) is at least 1 okta and any gap
     (fraction < 1) at most 7 oktas (WMO's definitions of 1 and 7 oktas; module docstring).
     NaN stays NaN; values outside 0..1 are the caller's to refuse.
+
+    Parameters
+    ----------
+    fraction : float or ndarray
+        Cloud cover [fraction of the sky], 0..1.
+
+    Returns
+    -------
+    ndarray
+        Cloud cover [oktas], whole numbers 0..8 (float, NaN where the fraction is NaN).
     """
     f = np.asarray(fraction, dtype=float)
     oktas = np.round(8.0 * f)
@@ -109,5 +143,16 @@ def oktas_from_fraction(fraction) -> np.ndarray:
 
 
 def feet_from_metres(height_m) -> np.ndarray:
-    """Heights [m] -> [ft] (1 ft = 0.3048 m exactly); NaN stays NaN."""
+    """Heights [m] -> [ft] (1 ft = 0.3048 m exactly); NaN stays NaN.
+
+    Parameters
+    ----------
+    height_m : float or ndarray
+        Heights [m].
+
+    Returns
+    -------
+    ndarray
+        Heights [ft].
+    """
     return np.asarray(height_m, dtype=float) / FOOT_M

@@ -28,6 +28,9 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "wind_rose_figure": "siting.presentation.weather_figures",
         "wind_rose_from_table_figure": "siting.presentation.weather_figures",
         "stability_by_speed_figure": "siting.presentation.weather_figures",
+        # weather_view.py: the weather summary's source, position and distance in words
+        "weather_summary_view": "siting.presentation.weather_view",
+        "station_words": "siting.presentation.weather_view",
         # rule_text.py: a rule set in words
         "condition_words": "siting.presentation.rule_text",
         "rule_words": "siting.presentation.rule_text",

@@ -32,6 +32,7 @@ from siting.presentation.html_parts import (
     text,
 )
 from siting.presentation.settings_view import settings_groups
+from siting.presentation.weather_view import weather_summary_view
 
 __all__ = ["flag_count", "inputs_view", "run_record_view"]
 
@@ -172,6 +173,13 @@ _WEATHER_LABELS = {
     "temperature_c": "Air temperature [deg C]",
     "calm_rule": "Rule for calms",
     "missing_rule": "Rule for missing hours",
+    "format": "Format of the hourly files",
+    "sources": "The files as read (layout, missing codes, quality flags)",
+    "grid_point": "Reanalysis grid point",
+    "record_position": "Position of the record and its distance from the site",
+    "by_year": "Each calendar year of the record",
+    "screened_by": "Screened by",
+    "worst_year_by_site": "Worst weather year of each site",
     "scrubber_treated_share": "Partial scrubbing: share of the year's ammonia treated",
     "emission_profile": "Hourly emission profile",
 }
@@ -392,7 +400,7 @@ def inputs_view(
     :func:`siting.presentation.settings_view.settings_groups`)."""
     return {
         "source_blocks": _source_blocks(sources) if len(sources) else None,
-        "weather": key_values(weather_summary, _WEATHER_LABELS),
+        "weather": key_values(weather_summary_view(weather_summary), _WEATHER_LABELS),
         "habitats": _habitats(habitat_values),
         "thresholds": _thresholds(sites),
         "settings": settings_groups(parameters, command) if isinstance(parameters, Mapping) else [],

@@ -24,8 +24,20 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "critical_level_for": "siting.readers.habitats",
         "critical_load_range": "siting.readers.habitats",
         "read_habitats": "siting.readers.habitats",
-        # hourly_record.py: hourly station CSV files -> HourlyWeather and a summary
+        # hourly_record.py: hourly weather files -> HourlyWeather and a summary
         "read_hourly_record": "siting.readers.hourly_record",
+        "record_position": "siting.readers.hourly_record",
+        # weather_formats.py: the hourly files' formats, their options and their detection
+        "WeatherSource": "siting.readers.weather_formats",
+        "parse_column_map": "siting.readers.weather_formats",
+        "weather_source": "siting.readers.weather_formats",
+        "file_bytes": "siting.readers.weather_formats",
+        "detect_format": "siting.readers.weather_formats",
+        "read_record_files": "siting.readers.weather_formats",
+        # weather_isd.py, weather_netcdf.py, weather_mapped.py: one file of each format
+        "read_isd_lite_file": "siting.readers.weather_isd",
+        "read_netcdf_file": "siting.readers.weather_netcdf",
+        "read_mapped_csv": "siting.readers.weather_mapped",
         # hourly_table.py: directions and speeds named, binned, classed; the frequency table
         "compass_words": "siting.readers.hourly_table",
         "direction_step_deg": "siting.readers.hourly_table",

@@ -517,3 +517,59 @@ def _check_range(
             f"{raw.where(raw.lines[i])}: {raw.label(column)} must be {expected}, "
             f"got {raw.shown_value(column, i)}"
         )
+
+
+# --- the files of the other formats (weather_isd.py, weather_netcdf.py, weather_mapped.py) ---
+
+
+def _numeric_file(
+    name: str,
+    time_utc: np.ndarray,
+    values: dict[str, np.ndarray],
+    rows: np.ndarray,
+    *,
+    labels: dict[str, str],
+    source: dict,
+    row_word: str = "line",
+    written: np.ndarray | None = None,
+    year: np.ndarray | None = None,
+    offsets: set[str] | None = None,
+) -> _RawFile:
+    """A file read by another format's reader, as the rows ``hourly_record`` checks.
+
+    ``values`` holds float columns in siting's units (direction_deg, speed_m_s, cloud_oktas,
+    and optional ceiling_ft, temperature_c); NaN where missing. ``written`` is each row's time
+    as the source writes it (default: the UTC time, ``2025-01-01T00:00Z``); ``year`` its
+    calendar year (default: the UTC year); ``offsets`` the UTC offsets the times carry
+    (default: UTC, the format's own time scale; an empty set for naive local times).
+    """
+    time_utc = np.asarray(time_utc, dtype="datetime64[m]")
+    if written is None:
+        written = np.array([str(t) + "Z" for t in time_utc], dtype=object)
+    if year is None:
+        year = time_utc.astype("datetime64[Y]").astype(int) + 1970
+    columns = {"time": written, **values}
+    return _RawFile(
+        name,
+        columns,
+        np.asarray(rows, dtype=int),
+        time_utc,
+        {"UTC"} if offsets is None else offsets,
+        labels=labels,
+        row_word=row_word,
+        source=source,
+        year=np.asarray(year, dtype=int),
+    )
+
+
+def _check_increasing(raw: _RawFile) -> None:
+    """Raise where a file's times repeat or go back (rows must be in increasing time order)."""
+    step = np.diff(raw.time_utc).astype(np.int64)
+    if (step <= 0).any():
+        i = int(np.flatnonzero(step <= 0)[0]) + 1
+        what = "repeats the time of" if step[i - 1] == 0 else "is earlier than"
+        raise InputError(
+            f"{raw.where(raw.lines[i])}: time {raw.columns['time'][i]!r} {what} "
+            f"{raw.row_word} {raw.lines[i - 1]} ({raw.columns['time'][i - 1]!r}); rows must "
+            "be in increasing time order without duplicates"
+        )

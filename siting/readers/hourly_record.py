@@ -175,7 +175,7 @@ def read_hourly_record(
         anemometer_height_m, calm_rule, missing_rule, format (csv, isd-lite or netcdf),
         sources (each file's layout and the values its missing codes and quality flags
         removed), grid_point (a NetCDF record: the grid point's position, the rule and its
-        distance from the site [km]; else None), station (the record's position: where it
+        distance from the site [km]; else None), record_position (the record's position: where it
         comes from, latitude_deg, longitude_deg, distance_km from the site, or None where
         not known; the rule of the warning), by_year (per calendar year: hours used, hours
         missing, calm %, mean speed, prevailing direction).
@@ -220,7 +220,13 @@ def read_hourly_record(
     timeline = _usable_hours(rows, hour_index, n_expected, calm_threshold_m_s, max_missing_percent)
     weather, filled, step = _hours_used(rows, timeline, options)
     summary = _summary(rows, timeline, weather, filled, step, options)
-    summary["station"] = _station(summary, options, station_latitude_deg, station_longitude_deg)
+    summary["record_position"] = record_position(
+        latitude_deg,
+        longitude_deg,
+        station_latitude_deg,
+        station_longitude_deg,
+        summary["grid_point"],
+    )
     summary["by_year"] = _by_year(rows, timeline, weather, step)
     _warn_about_record(summary, rows, timeline, options)
     return weather, summary
@@ -369,21 +375,47 @@ def _summary(
     }
 
 
-def _station(summary: dict, options: _Options, lat, lon) -> dict:
-    """The record's position and its distance from the site, with a WeatherWarning past
-    STATION_WARN_KM; position unknown (None) where neither the file nor the caller gives it."""
+def record_position(
+    site_latitude_deg: float,
+    site_longitude_deg: float,
+    station_latitude_deg: float | None,
+    station_longitude_deg: float | None,
+    grid_point: dict | None = None,
+) -> dict:
+    """A weather record's position and its distance from the site [km] (WGS 84 geodesic),
+    with a WeatherWarning past STATION_WARN_KM.
+
+    Parameters
+    ----------
+    site_latitude_deg, site_longitude_deg : float
+        The site [deg].
+    station_latitude_deg, station_longitude_deg : float, optional
+        The station's position as given [deg].
+    grid_point : dict, optional
+        A NetCDF record's grid point (the summary's ``grid_point``); it wins over a station
+        position given.
+
+    Returns
+    -------
+    dict
+        position (in words; None where not known), latitude_deg, longitude_deg,
+        distance_km, rule (the warning's, in words).
+    """
     rule = f"a warning past {STATION_WARN_KM:g} km from the site (common practice, no source)"
-    point = summary["grid_point"]
-    if point is not None:
-        where = f"the reanalysis grid point nearest the site (values by {point['grid_point_rule']})"
-        lat, lon = point["grid_latitude_deg"], point["grid_longitude_deg"]
+    lat, lon = station_latitude_deg, station_longitude_deg
+    if grid_point is not None:
+        where = (
+            "the reanalysis grid point nearest the site (values by "
+            f"{grid_point['grid_point_rule']})"
+        )
+        lat, lon = grid_point["grid_latitude_deg"], grid_point["grid_longitude_deg"]
     elif lat is not None and lon is not None:
         where = "the station position given"
     else:
         return {"position": None, "distance_km": None, "rule": rule}
     from pyproj import Geod
 
-    _, _, metres = Geod(ellps="WGS84").inv(options.longitude_deg, options.latitude_deg, lon, lat)
+    _, _, metres = Geod(ellps="WGS84").inv(site_longitude_deg, site_latitude_deg, lon, lat)
     distance_km = round(float(metres) / 1000.0, 2)
     if distance_km > STATION_WARN_KM:
         _warn(

@@ -27,6 +27,7 @@ from pydantic import (
 )
 
 from siting.errors import SitingError
+from siting.readers.weather_formats import parse_column_map, weather_source
 
 FilePath = Annotated[Path, Field(strict=False)]
 
@@ -201,9 +202,13 @@ class WeatherSection(_Section):
     screen_by: Literal["all_years", "worst_year"] = "all_years"
 
     def source(self):
-        """The hourly files' :class:`~siting.readers.weather_formats.WeatherSource`."""
-        from siting.readers.weather_formats import weather_source
+        """The hourly files' format options.
 
+        Returns
+        -------
+        WeatherSource
+            The checked options (``siting.readers.weather_formats``).
+        """
         return weather_source(
             self.format,
             self.columns,
@@ -222,8 +227,6 @@ class WeatherSection(_Section):
         if (self.frequency_table is None) == (self.hourly is None):
             raise ValueError("give exactly one of frequency_table or hourly")
         if self.columns:
-            from siting.readers.weather_formats import parse_column_map
-
             try:
                 parse_column_map(",".join(f"{k}={v}" for k, v in self.columns.items()))
             except SitingError as exc:

@@ -29,10 +29,11 @@ import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import numpy as np
-
 from siting.errors import InputError, InputFileError
 from siting.readers.hourly_columns import _join_files, _RawFile, _read_hourly_file
+from siting.readers.weather_isd import read_isd_lite_file
+from siting.readers.weather_mapped import read_mapped_csv
+from siting.readers.weather_netcdf import read_netcdf_file
 
 FORMATS = ("csv", "isd-lite", "netcdf")
 #: Column-map keys of a CSV (each names one source column; time may be "DATE+HOUR").
@@ -102,6 +103,16 @@ class WeatherSource:
 def parse_column_map(text: str | None) -> dict[str, str]:
     """``time=DATE,direction=DD,speed=FF`` -> {"time": "DATE", ...}; None or "" -> {}.
 
+    Parameters
+    ----------
+    text : str, optional
+        The map as NAME=COLUMN pairs, comma-separated.
+
+    Returns
+    -------
+    dict of str to str
+        siting's name -> the source's column or variable.
+
     Raises
     ------
     InputError
@@ -146,6 +157,18 @@ def weather_source(
     them: the column map as ``time=DATE,...`` text or a table, the codes and flags as
     comma-separated text or a list.
 
+    Parameters
+    ----------
+    format, columns, speed_unit, direction_unit, cloud_unit, ceiling_unit, time_format, \
+missing_codes, flags_ok, grid_point
+        As the attributes of :class:`WeatherSource`; ``columns`` may be its text form,
+        ``missing_codes`` and ``flags_ok`` comma-separated text.
+
+    Returns
+    -------
+    WeatherSource
+        The options, checked.
+
     Raises
     ------
     InputError
@@ -165,7 +188,7 @@ def weather_source(
     )
     if not isinstance(columns, str) and columns:
         parse_column_map(",".join(f"{k}={v}" for k, v in mapping.items()))  # the same checks
-    return checked_source(
+    return _checked_source(
         WeatherSource(
             format=format,
             columns=mapping,
@@ -181,7 +204,7 @@ def weather_source(
     )
 
 
-def checked_source(source: WeatherSource | None) -> WeatherSource:
+def _checked_source(source: WeatherSource | None) -> WeatherSource:
     """The source's options checked (None: detect everything, siting's units)."""
     source = source or WeatherSource()
     choices = [
@@ -202,6 +225,16 @@ def checked_source(source: WeatherSource | None) -> WeatherSource:
 
 def file_bytes(path: Path) -> bytes:
     """A file's bytes, gunzipped when it is gzip-compressed.
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+
+    Returns
+    -------
+    bytes
+        Its content (decompressed).
 
     Raises
     ------
@@ -227,6 +260,18 @@ def detect_format(path: Path, data: bytes | None = None) -> str:
     NetCDF by its signature (classic ``CDF``, or HDF5 for NetCDF-4); ISD-Lite when its first
     non-blank line is a data line of that format; otherwise "csv" (whether it is siting's own
     layout or needs a column map is decided when it is read).
+
+    Parameters
+    ----------
+    path : Path
+        The file.
+    data : bytes, optional
+        Its content (read from ``path`` when not given).
+
+    Returns
+    -------
+    str
+        "netcdf", "isd-lite" or "csv".
     """
     data = file_bytes(path) if data is None else data
     if data.startswith(_NETCDF_SIGNATURES):
@@ -247,7 +292,21 @@ def read_record_files(
 ) -> list[_RawFile]:
     """Read every file of a record by its format and join them in time order.
 
-    Returns the files in time order (overlaps refused; ``hourly_columns._join_files``).
+    Parameters
+    ----------
+    paths : path or sequence of paths
+        The record's files.
+    source : WeatherSource, optional
+        Their format and its options (None: detected, siting's own CSV layout).
+    utc_offset_h : float, optional
+        Offset of naive times from UTC [h].
+    latitude_deg, longitude_deg : float
+        The site [deg] (a NetCDF grid's point).
+
+    Returns
+    -------
+    list of _RawFile
+        The files in time order (overlaps refused; ``hourly_columns._join_files``).
 
     Raises
     ------
@@ -257,11 +316,7 @@ def read_record_files(
         No file, files of different formats, a named format the content contradicts, or any
         fault of a file (named by the reader).
     """
-    from siting.readers.weather_isd import read_isd_lite_file
-    from siting.readers.weather_mapped import read_mapped_csv
-    from siting.readers.weather_netcdf import read_netcdf_file
-
-    source = checked_source(source)
+    source = _checked_source(source)
     paths = [Path(paths)] if isinstance(paths, (str, Path)) else [Path(p) for p in paths]
     if not paths:
         raise InputError("hourly weather: no file given")
@@ -294,56 +349,3 @@ def read_record_files(
             "read from files of one format"
         )
     return _join_files(files)
-
-
-def numeric_file(
-    name: str,
-    time_utc: np.ndarray,
-    values: dict[str, np.ndarray],
-    rows: np.ndarray,
-    *,
-    labels: dict[str, str],
-    source: dict,
-    row_word: str = "line",
-    written: np.ndarray | None = None,
-    year: np.ndarray | None = None,
-    offsets: set[str] | None = None,
-) -> _RawFile:
-    """A file read by another format's reader, as the rows ``hourly_record`` checks.
-
-    ``values`` holds float columns in siting's units (direction_deg, speed_m_s, cloud_oktas,
-    and optional ceiling_ft, temperature_c); NaN where missing. ``written`` is each row's time
-    as the source writes it (default: the UTC time, ``2025-01-01T00:00Z``); ``year`` its
-    calendar year (default: the UTC year); ``offsets`` the UTC offsets the times carry
-    (default: UTC, the format's own time scale; an empty set for naive local times).
-    """
-    time_utc = np.asarray(time_utc, dtype="datetime64[m]")
-    if written is None:
-        written = np.array([str(t) + "Z" for t in time_utc], dtype=object)
-    if year is None:
-        year = time_utc.astype("datetime64[Y]").astype(int) + 1970
-    columns = {"time": written, **values}
-    return _RawFile(
-        name,
-        columns,
-        np.asarray(rows, dtype=int),
-        time_utc,
-        {"UTC"} if offsets is None else offsets,
-        labels=labels,
-        row_word=row_word,
-        source=source,
-        year=np.asarray(year, dtype=int),
-    )
-
-
-def check_increasing(raw: _RawFile) -> None:
-    """Raise where a file's times repeat or go back (rows must be in increasing time order)."""
-    step = np.diff(raw.time_utc).astype(np.int64)
-    if (step <= 0).any():
-        i = int(np.flatnonzero(step <= 0)[0]) + 1
-        what = "repeats the time of" if step[i - 1] == 0 else "is earlier than"
-        raise InputError(
-            f"{raw.where(raw.lines[i])}: time {raw.columns['time'][i]!r} {what} "
-            f"{raw.row_word} {raw.lines[i - 1]} ({raw.columns['time'][i - 1]!r}); rows must "
-            "be in increasing time order without duplicates"
-        )

@@ -38,7 +38,7 @@ from pathlib import Path
 import numpy as np
 
 from siting.errors import InputError
-from siting.readers.weather_formats import check_increasing, numeric_file
+from siting.readers.hourly_columns import _check_increasing, _numeric_file
 
 MISSING_CODE = -9999  # every element (ISD-Lite Format Documentation 2006)
 # (first, end) character positions of fields 1-12 (0-based, end exclusive)
@@ -103,7 +103,7 @@ def read_isd_lite_file(path: Path, data: bytes):
     not_oktas = ~missing[:, 9] & (sky > _OKTAS_CODES)
     cloud = np.where(missing[:, 9] | not_oktas, np.nan, sky.astype(float))
     _check_codes(name, rows, table, missing)
-    raw = numeric_file(
+    raw = _numeric_file(
         name,
         time_utc,
         {
@@ -135,7 +135,7 @@ def read_isd_lite_file(path: Path, data: bytes):
             "ceiling": "not in this format: Turner's method without a ceiling",
         },
     )
-    check_increasing(raw)
+    _check_increasing(raw)
     return raw
 
 

@@ -38,8 +38,12 @@ from siting.physics.met_units import (
     oktas_from_fraction,
     speed_in_m_s,
 )
-from siting.readers.hourly_columns import MISSING_MARKERS, _parse_times
-from siting.readers.weather_formats import check_increasing, numeric_file
+from siting.readers.hourly_columns import (
+    MISSING_MARKERS,
+    _check_increasing,
+    _numeric_file,
+    _parse_times,
+)
 
 _SEPARATORS = (",", ";", "\t", "|")
 #: siting's column and the map key of each quantity read as a number.
@@ -82,6 +86,12 @@ def read_mapped_csv(path: Path, data: bytes, source, utc_offset_h: float | None)
     name = path.name
     columns = dict(source.columns)
     _check_map(name, columns)
+    if any(key.endswith("_flag") for key in columns) and not source.flags_ok:
+        raise InputError(
+            f"{name}: the column map names quality-flag columns but no flag is accepted; "
+            "give flags_ok, the flag values that accept a value (e.g. 0,1)",
+            parameters=("flags_ok",),
+        )
     text, encoding = _decoded(data)
     header, rows, lines, separator = _table(name, text, columns)
     index = {c: k for k, c in enumerate(header)}
@@ -115,7 +125,7 @@ def read_mapped_csv(path: Path, data: bytes, source, utc_offset_h: float | None)
         values["stability"] = np.where(missing, "", texts).astype(object)
         labels["stability"] = f"{columns['stability']} (Pasquill class)"
         counts["stability"] = {"missing codes or empty": n_codes, "flag not accepted": 0}
-    raw = numeric_file(
+    raw = _numeric_file(
         name,
         time_utc,
         values,
@@ -141,7 +151,7 @@ def read_mapped_csv(path: Path, data: bytes, source, utc_offset_h: float | None)
         offsets=offsets,
     )
     raw.shown = shown
-    check_increasing(raw)
+    _check_increasing(raw)
     return raw
 
 

@@ -37,7 +37,7 @@ import numpy as np
 
 from siting.errors import InputError
 from siting.physics.met_units import feet_from_metres, oktas_from_fraction, wind_from_components
-from siting.readers.weather_formats import check_increasing, numeric_file
+from siting.readers.hourly_columns import _check_increasing, _numeric_file
 
 #: Each quantity's CF standard names, then short names (reanalysis usage; common practice).
 _STANDARD_NAMES = {
@@ -142,7 +142,7 @@ def read_netcdf_file(path: Path, data: bytes, latitude_deg, longitude_deg, sourc
         if source.grid_point == "nearest"
         else "bilinear interpolation between the four grid points around the site"
     )
-    raw = numeric_file(
+    raw = _numeric_file(
         name,
         time_utc,
         columns,
@@ -163,7 +163,7 @@ def read_netcdf_file(path: Path, data: bytes, latitude_deg, longitude_deg, sourc
             "anemometer_height_m": 10.0,
         },
     )
-    check_increasing(raw)
+    _check_increasing(raw)
     return raw
 
 
@@ -288,12 +288,17 @@ def _values(name: str, variable, series, key: str) -> tuple[np.ndarray, int]:
     """One variable's series in siting's units, and how many values were missing (fill
     values, missing_value, outside the valid range, or NaN)."""
     if "expver" in series.dims:  # final and preliminary data: the first with a value
-        series = series.bfill("expver").isel(expver=0)
+        # (fillna version by version: xarray's bfill needs bottleneck, not installed here)
+        first = series.isel(expver=0, drop=True)
+        for k in range(1, series.sizes["expver"]):
+            first = first.fillna(series.isel(expver=k, drop=True))
+        series = first
     values = np.asarray(series.values, dtype=float).reshape(-1)
     attrs = variable.attrs
     low, high = attrs.get("valid_min"), attrs.get("valid_max")
     if "valid_range" in attrs:
         low, high = attrs["valid_range"][0], attrs["valid_range"][1]
+    low, high = (_unpacked(bound, variable.encoding) for bound in (low, high))
     outside = np.zeros(values.shape, dtype=bool)
     if low is not None:
         outside |= values < float(low)
@@ -330,6 +335,18 @@ def _values(name: str, variable, series, key: str) -> tuple[np.ndarray, int]:
         return values - _ZERO_CELSIUS_K, n_missing
     _need_units(name, var, units, _CELSIUS_UNITS, "K or degC")
     return values, n_missing
+
+
+def _unpacked(bound, encoding: dict):
+    """A valid_min/max/range bound in the values' units. CF conventions section 8.1 (from
+    memory) give a packed variable's bounds in the packed type, so an integer bound of a
+    variable with scale_factor/add_offset is unpacked as xarray unpacked the values."""
+    scale, offset = encoding.get("scale_factor"), encoding.get("add_offset")
+    if bound is None or (scale is None and offset is None):
+        return bound
+    if np.asarray(bound).dtype.kind not in "iu":
+        return bound  # a float bound: already in the values' units
+    return float(bound) * float(1.0 if scale is None else scale) + float(offset or 0.0)
 
 
 def _need_units(name: str, var: str, units: str, known: set[str], want: str) -> None:

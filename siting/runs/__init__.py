@@ -42,6 +42,11 @@ __all__, __getattr__, __dir__ = lazy_exports(
         # integrity.py: verify's packed inputs and written outputs against their hashes
         "check_integrity": "siting.runs.integrity",
         "check_outputs": "siting.runs.integrity",
+        # weather_years.py: the worst single weather year at each point
+        "judged_concentration": "siting.runs.weather_years",
+        "screened_years": "siting.runs.weather_years",
+        "worst_year_by_role": "siting.runs.weather_years",
+        "site_years": "siting.runs.weather_years",
         # judging.py: sites judged by a rule set (figures, verdict, deciding rule)
         "site_figures": "siting.runs.judging",
         "judge_sites": "siting.runs.judging",
@@ -75,6 +80,7 @@ __all__, __getattr__, __dir__ = lazy_exports(
         # screening_inputs.py: prepare(), a scenario's inputs read and checked; the engines' calls
         "site_lat_lon": "siting.runs.screening_inputs",
         "Prepared": "siting.runs.screening_inputs",
+        "RoleConcentrations": "siting.runs.screening_inputs",
         "prepare": "siting.runs.screening_inputs",
         # screening_sites.py: the receptor grid of a screening run
         "screen_grid": "siting.runs.screening_sites",

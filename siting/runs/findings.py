@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from siting.errors import InputError
+from siting.readers.hourly_record import STATION_WARN_KM
 from siting.readers.submission import Submission
 from siting.readers.tables import default_reduction_percent, is_claimed_reduction
 from siting.runs.screening_inputs import site_lat_lon
@@ -26,7 +27,7 @@ SEARCH_DISTANCE_M = {"international": 10_000.0, "national": 5_000.0, "local": 2_
 #: Ranges below are common practice without a published source; findings say so.
 HOUSE_HEIGHT_RANGE_M = (1.0, 15.0)
 EXIT_VELOCITY_MAX_M_S = 15.0
-STATION_DISTANCE_M = (30_000.0, 60_000.0)  # medium, high
+STATION_DISTANCE_M = (STATION_WARN_KM * 1000.0, 60_000.0)  # medium, high
 SEVERITY_ORDER = {"high": 0, "medium": 1, "low": 2, "info": 3}
 
 
@@ -363,7 +364,7 @@ def _weather_findings(scenario, result) -> list[Finding]:
         ]
     else:
         findings = _hourly_record_findings(result.weather_summary)
-    return findings + _station_findings(scenario)
+    return findings + _station_findings(scenario, result.weather_summary)
 
 
 def _hourly_record_findings(summary: dict) -> list[Finding]:
@@ -419,10 +420,14 @@ def _hourly_record_findings(summary: dict) -> list[Finding]:
     return findings
 
 
-def _station_findings(scenario) -> list[Finding]:
+def _station_findings(scenario, summary: dict | None = None) -> list[Finding]:
     """The weather station's distance from the site (WGS84 geodesic): unknown without its
-    position, medium beyond STATION_DISTANCE_M's first figure, high beyond its second."""
+    position, medium beyond STATION_DISTANCE_M's first figure, high beyond its second. A
+    record that knows its own position (a reanalysis grid point) is placed by it."""
     w = scenario.weather
+    position = (summary or {}).get("record_position") or {}
+    if position.get("distance_km") is not None:
+        return _distance_findings(float(position["distance_km"]) * 1000.0, position["position"])
     if w.station_latitude_deg is None or w.station_longitude_deg is None:
         return [
             Finding(
@@ -441,6 +446,11 @@ def _station_findings(scenario) -> list[Finding]:
     _, _, distance = Geod(ellps="WGS84").inv(
         lon, lat, w.station_longitude_deg, w.station_latitude_deg
     )
+    return _distance_findings(distance, "the station")
+
+
+def _distance_findings(distance: float, what: str) -> list[Finding]:
+    """WEATHER_FAR past STATION_DISTANCE_M's first figure (medium), its second (high)."""
     medium, high = STATION_DISTANCE_M
     if distance > medium:
         return [
@@ -448,7 +458,7 @@ def _station_findings(scenario) -> list[Finding]:
                 "WEATHER_FAR",
                 "high" if distance > high else "medium",
                 "weather",
-                f"the station is {distance / 1000:.0f} km from the "
+                f"{what} is {distance / 1000:.0f} km from the "
                 f"site (over {medium / 1000:.0f} km; common practice, no "
                 "source)",
                 {"distance_km": round(distance / 1000, 1)},

@@ -47,6 +47,7 @@ from siting.runs.screening_sites import (
 )
 from siting.runs.screening_sources import _source_elements
 from siting.runs.sensitivity import sensitivity as two_sided
+from siting.runs.weather_years import judged_concentration, site_years
 from siting.runs.what_it_takes import proposal_ways
 
 
@@ -276,7 +277,10 @@ def _disperse(prep: Prepared, layout: _Layout, with_grid: bool, progress: bool):
     depleted = prep.settings.depletion_velocity_m_s is not None
     bar = _progress(progress)
     task = (
-        bar.add_task("dispersion", total=len(element_lists) * (2 if depleted else 1))
+        bar.add_task(
+            "dispersion",
+            total=len(element_lists) * (2 if depleted else 1) * max(1, len(prep.weather_years)),
+        )
         if bar
         else None
     )
@@ -332,14 +336,22 @@ def _assess(
     }
     combos["incomb"] = combos["pc"] + conc_by_role["other"]
     # the contribution the rule set judges, alone and with the other sources
-    combos["judged"] = {
-        "proposal": conc_by_role["proposed"],
-        "installation": combos["pc"],
-        "net": combos["net"],
-    }[prep.rules.basis]
+    combos["judged"] = judged_concentration(conc_by_role, prep.rules.basis)
     combos["judged_incomb"] = combos["judged"] + conc_by_role["other"]
     dep = {k: deposition_kg_n_ha_yr(v, rec.vd_m_s) for k, v in combos.items()}
     sites = _site_table(prep, combos, undepleted_pc, rec, layout.source_shapes, layout.assessed)
+    if getattr(conc_by_role, "year_pick", None) is not None:
+        sites["weather_year"] = site_years(
+            prep.weather_years,
+            conc_by_role.year_pick,
+            combos["judged"],
+            rec.member_site,
+            rec.member_receptor,
+            len(sites),
+        )
+        prep.weather_summary["worst_year_by_site"] = dict(
+            zip(sites["name"].astype(str), sites["weather_year"])
+        )
     sites = with_verdicts(sites, prep.rules)
     receptors = _named_point_table(layout.named, combos, dep, rec)
     shape = (grid.n_rows, grid.n_cols) if with_grid else (0, 0)

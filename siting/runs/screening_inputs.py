@@ -24,7 +24,7 @@ from siting.errors import InputError, collect_warnings, collecting_warnings
 from siting.physics.constants import UG_PER_G
 from siting.readers.frequency_table import read_frequency_table
 from siting.readers.habitats import read_habitats
-from siting.readers.hourly_record import read_hourly_record
+from siting.readers.hourly_record import read_hourly_record, record_position
 from siting.readers.rules import RuleSet, load_rule_set
 from siting.readers.scenario import Scenario, load_scenario
 from siting.readers.scenario_sources import ROLES
@@ -32,6 +32,7 @@ from siting.readers.tables import Tables, load_tables
 from siting.runs.appraisal import appraise_sources
 from siting.runs.run_cache import RunCache
 from siting.runs.screening_sources import _hourly_emission_weights, derive_sources
+from siting.runs.weather_years import screened_years, worst_year_by_role
 
 CAUTIONS = [
     "Screening estimate from a simplified model: flat terrain, no building wake, long-term "
@@ -72,6 +73,9 @@ class Prepared:
         Shared by the re-runs of one scenario (a sensitivity).
     rules : RuleSet, optional
         The rule set the sites are judged by ([assessment] rules, or the caller's).
+    weather_years : tuple of int
+        With ``[weather] screen_by = "worst_year"``: the years dispersed one by one, each
+        receptor taking its worst (``weather_years.py``); empty for all years together.
     """
 
     scenario: Scenario
@@ -85,6 +89,31 @@ class Prepared:
     warnings: list[str]
     cache: RunCache | None = None
     rules: RuleSet | None = None
+    weather_years: tuple[int, ...] = ()
+
+    def of_year(self, year: int) -> Prepared:
+        """The same inputs with the hours of one calendar year only; each source's hourly
+        emission weights renormalised to a mean of 1 over that year (the annual emission
+        stays the annual emission).
+
+        Parameters
+        ----------
+        year : int
+            The calendar year.
+
+        Returns
+        -------
+        Prepared
+            The inputs of a run over that year alone (``weather_years`` empty).
+        """
+        mine = self.weather.years == int(year)
+        weights = {
+            key: (None if w is None else np.asarray(w)[mine] / np.asarray(w)[mine].mean())
+            for key, w in self.hour_weights.items()
+        }
+        return dataclasses.replace(
+            self, weather=self.weather.of_year(year), hour_weights=weights, weather_years=()
+        )
 
     @property
     def cautions(self) -> list[str]:
@@ -185,8 +214,15 @@ class Prepared:
         Returns
         -------
         dict of str to ndarray
-            Role ("proposed", "existing", "removed", "other") -> concentration [ug m-3].
+            Role ("proposed", "existing", "removed", "other") -> concentration [ug m-3]; with
+            ``weather_years``, each receptor's worst year's (``year_pick`` on the dict: the
+            year taken at each receptor, an index into ``weather_years``).
         """
+        if self.weather_years:
+            by_role, pick = worst_year_by_role(
+                self, elements_of_sources, receptor_x_m, receptor_y_m, settings, advance
+            )
+            return RoleConcentrations(by_role, year_pick=pick)
         by_role = {role: np.zeros(np.size(receptor_x_m)) for role in ROLES}
         for src, elements, emission_g_s in zip(
             self.scenario.sources, elements_of_sources, self.sources["emission_g_s"]
@@ -197,7 +233,24 @@ class Prepared:
                 )
             if advance:
                 advance()
-        return by_role
+        return RoleConcentrations(by_role)
+
+
+class RoleConcentrations(dict):
+    """Role -> concentration [ug m-3] at the receptors, and the worst year's choice.
+
+    Parameters
+    ----------
+    by_role : dict of str to ndarray
+        Role -> concentration [ug m-3].
+    year_pick : ndarray of int, optional
+        With the worst single year, the year taken at each receptor (an index into
+        ``Prepared.weather_years``); None otherwise.
+    """
+
+    def __init__(self, by_role: dict, year_pick: np.ndarray | None = None) -> None:
+        super().__init__(by_role)
+        self.year_pick = year_pick
 
 
 @collecting_warnings
@@ -255,6 +308,11 @@ def prepare(
     if not isinstance(rules, RuleSet):
         tier_ids = [tier["id"] for tier in tables.thresholds]
         rules = load_rule_set(scenario.assessment.rules if rules is None else rules, tier_ids)
+    years = (
+        screened_years(weather, weather_summary, scenario.weather.screen_by)
+        if isinstance(weather, HourlyWeather)
+        else ()
+    )
     return Prepared(
         scenario,
         tables,
@@ -267,6 +325,7 @@ def prepare(
         [],  # filled by @collecting_warnings
         cache,
         rules,
+        years,
     )
 
 
@@ -287,6 +346,11 @@ def _read_weather(scenario: Scenario, tables: Tables) -> tuple[object, dict, dic
             scenario.weather.frequency_table,
             scenario.weather.anemometer_height_m,
             scenario.weather.min_wind_speed_m_s,
+        )
+        weather_summary["record_position"] = record_position(
+            *site_lat_lon(scenario),
+            scenario.weather.station_latitude_deg,
+            scenario.weather.station_longitude_deg,
         )
         hour_weights = treated_shares = {}
     else:

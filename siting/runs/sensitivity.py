@@ -18,6 +18,7 @@ import pandas as pd
 from siting.errors import SitingWarning
 from siting.physics import assess
 from siting.readers.tables import is_claimed_reduction
+from siting.readers.weather_formats import detect_format, file_bytes
 from siting.runs.judging import judge_sites
 from siting.runs.run_cache import RunCache
 
@@ -215,8 +216,6 @@ class _Variants:
 def _is_hourly(path: Path, mapped: bool) -> bool:
     """True for an hourly record: NetCDF or ISD-Lite content, a CSV whose header starts with
     ``time``, or (with a column map) any CSV that is not a frequency table."""
-    from siting.readers.weather_formats import detect_format, file_bytes
-
     data = file_bytes(path)
     if detect_format(path, data) != "csv":
         return True
