@@ -174,6 +174,13 @@ def _print_summary(result, out_dir: Path, quiet: bool, command: str = "screen") 
             markup=True,
         )
     _print_flips(console, result)
+    by_site = result.weather_summary.get("worst_year_by_site")
+    if by_site:
+        years = ", ".join(f"{plain(str(name))} {year}" for name, year in by_site.items())
+        console.print(
+            f"weather: screened by the worst single year at each point ({years}; "
+            "sites.csv weather_year)"
+        )
     ways = getattr(result, "what_it_takes", None)
     for row in [] if ways is None else ways.itertuples():
         console.print(

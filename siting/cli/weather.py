@@ -99,14 +99,21 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
 
 def _removed_words(sources: dict) -> str:
     """What the files' missing codes and quality flags removed, in words ('' for nothing)."""
-    totals: dict[str, int] = {}
-    for source in sources.values():
-        for group in ("missing_codes", "flags_rejected", "not_in_oktas"):
-            for what, n in source.get(group, {}).items():
-                key = {"flags_rejected": f"{what}: flag not accepted"}.get(group, what)
-                totals[key] = totals.get(key, 0) + int(n)
-    shown = [f"{what} {n}" for what, n in totals.items() if n]
-    return ", ".join(shown)
+    groups = (
+        ("missing_codes", "missing or missing codes"),
+        ("not_in_oktas", "not in oktas"),
+        ("flags_rejected", "quality flag not accepted"),
+    )
+    parts = []
+    for group, words in groups:
+        totals: dict[str, int] = {}
+        for source in sources.values():
+            for what, n in (source.get(group) or {}).items():
+                totals[what] = totals.get(what, 0) + int(n)
+        shown = [f"{what} {n}" for what, n in totals.items() if n]
+        if shown:
+            parts.append(f"{words}: {', '.join(shown)}")
+    return "; ".join(parts)
 
 
 def run(args) -> int:
