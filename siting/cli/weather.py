@@ -100,7 +100,7 @@ def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, q
 def _removed_words(sources: dict) -> str:
     """What the files' missing codes and quality flags removed, in words ('' for nothing)."""
     groups = (
-        ("missing_codes", "missing or missing codes"),
+        ("missing_codes", "missing values"),
         ("not_in_oktas", "not in oktas"),
         ("flags_rejected", "quality flag not accepted"),
     )

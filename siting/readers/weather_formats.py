@@ -12,7 +12,7 @@ check and turn into hours, so a record is treated the same whatever it came in:
   base height and 2 m temperature on a grid, read with xarray at the site's grid cell
   (``weather_netcdf.py``).
 
-The format is named (``--format``, ``[weather] format``) or detected from the content
+The format is named (the command line's format option, ``[weather] format``) or detected from the content
 (:func:`detect_format`): NetCDF by its file signature, an ISD-Lite file by its first data line
 (four date fields and eight signed integers in the documented columns), siting's CSV by its
 header, any other CSV only with a column map. A file is never guessed at: content that fits
