@@ -243,3 +243,34 @@ def test_a_scenario_reads_a_mapped_csv_as_its_own_layout(tmp_path):
         own.sites["judged_dep_max_kg_n_ha_yr"],
         rtol=1e-9,
     )
+
+
+def test_siting_weather_reads_a_mapped_export_and_refuses_a_bad_map(tmp_path, capsys):
+    """`siting weather --columns ... --speed-unit knots --direction-unit tens`: the hours of a
+    foreign export give siting's own table; a map without speed exits 2 naming the option."""
+    names = _write_record(tmp_path, {2025: 270})
+    times = np.arange("2025-01-01T00", "2026-01-01T00", dtype="datetime64[h]")
+    knots = f"{4.0 / (1852 / 3600):.12g}"  # 1 knot = 1852/3600 m/s (exact definition)
+    lines = ["when,dd,ff,cls"] + [f"{t}:00Z,27,{knots},D" for t in times]
+    (tmp_path / "export.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    common = ["--lat", "52.0", "--lon", "9.0", "--quiet"]
+    mapping = "time=when,direction=dd,speed=ff,stability=cls"
+    units = ["--speed-unit", "knots", "--direction-unit", "tens"]
+    assert main(["weather", str(tmp_path / names[0]), "--out", str(tmp_path / "own"), *common]) == 0
+    code = main(
+        ["weather", str(tmp_path / "export.csv"), "--out", str(tmp_path / "mapped")]
+        + ["--columns", mapping, *units, *common]
+    )
+    assert code == 0
+    pd.testing.assert_frame_equal(
+        pd.read_csv(tmp_path / "mapped" / "frequency_table.csv"),
+        pd.read_csv(tmp_path / "own" / "frequency_table.csv"),
+    )
+    capsys.readouterr()
+    code = main(
+        ["weather", str(tmp_path / "export.csv"), "--out", str(tmp_path / "bad")]
+        + ["--columns", "time=when,direction=dd,stability=cls", *common]
+    )
+    assert code == 2
+    assert "--columns" in capsys.readouterr().err
+    assert not (tmp_path / "bad").exists()

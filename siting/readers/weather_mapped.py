@@ -160,20 +160,20 @@ def _check_map(name: str, columns: dict[str, str]) -> None:
     needed = [k for k in ("time", "direction", "speed") if k not in columns]
     if needed:
         raise InputError(
-            f"{name}: the column map has no {', '.join(needed)}; a CSV needs "
+            f"{name}: the column map (columns) has no {', '.join(needed)}; a CSV needs "
             "time=...,direction=...,speed=... and cloud=... or stability=...",
             parameters=("columns",),
         )
     if ("cloud" in columns) == ("stability" in columns):
         raise InputError(
-            f"{name}: the column map needs exactly one of cloud (Turner's method sets the "
+            f"{name}: the column map (columns) needs exactly one of cloud (Turner's method sets the "
             "class) and stability (the class given)",
             parameters=("columns",),
         )
     for key in [k for k in columns if k.endswith("_flag")]:
         if key[: -len("_flag")] not in columns:
             raise InputError(
-                f"{name}: the column map has {key} but no {key[: -len('_flag')]}",
+                f"{name}: the column map (columns) has {key} but no {key[: -len('_flag')]}",
                 parameters=("columns",),
             )
     for key in ("u", "v"):
