@@ -150,9 +150,21 @@ class Prepared:
         Returns
         -------
         ndarray
-            [ug m-3 per g s-1], the receptors' shape.
+            [ug m-3 per g s-1], the receptors' shape; with ``weather_years``, the highest of
+            the single years' at each receptor (the placement search adds these: a sum of
+            each source's worst year, never below the worst single year of the sum).
         """
         settings = settings or self.settings
+        if self.weather_years:  # each year on its own, the highest at each receptor
+            return np.max(
+                [
+                    self.of_year(year).unit_concentration_ug_m3(
+                        source_id, elements, receptor_x_m, receptor_y_m, settings
+                    )
+                    for year in self.weather_years
+                ],
+                axis=0,
+            )
         if self.cache is not None:
             key = (
                 "unit",

@@ -8,7 +8,9 @@ figures (proposed, existing, removed, other) from that same year, so a net or in
 figure is always one year's. A site's maximum is then the highest of the single years' site
 maxima, and the site's worst year is the year whose figure gives that maximum (in
 ``sites.csv``'s ``weather_year``). This errs towards the higher PC: it is never below the
-all-years mean, nor below any single year.
+all-years mean, nor below any single year. The placement search (``siting place``), which adds
+one field per source, takes each source's worst year at each point on its own: a sum of worst
+years, never below the worst single year of the sum (cautious again).
 
 Years with fewer than ``MIN_YEAR_HOURS`` hours used are left out of the choice (a part-year,
 one season, could be "worst" for the season's wind alone), with a warning; with fewer than two
