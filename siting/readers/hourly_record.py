@@ -1,4 +1,8 @@
-"""Hourly weather records: station CSV files -> :class:`HourlyWeather` and a summary.
+"""Hourly weather records: station or reanalysis files -> :class:`HourlyWeather` and a summary.
+
+The files may be siting's own CSV (below), any CSV by a column map, ISD-Lite station-year
+files or reanalysis CF NetCDF: ``weather_formats.py`` reads each into the same rows, and
+every rule below applies to them all alike.
 
 An adapter: reads, checks and converts; the physics is elsewhere (solar position in
 ``solar.py``, Turner's stability classes in ``stability.py``, the hour-by-hour plume in
@@ -177,8 +181,8 @@ def read_hourly_record(
         removed), grid_point (a NetCDF record: the grid point's position, the rule and its
         distance from the site [km]; else None), record_position (the record's position: where it
         comes from, latitude_deg, longitude_deg, distance_km from the site, or None where
-        not known; the rule of the warning), by_year (per calendar year: hours used, hours
-        missing, calm %, mean speed, prevailing direction).
+        not known; the rule of the warning), by_year (per calendar year as the source writes
+        it: hours used, rows in the files, calm %, mean speed, prevailing direction).
 
     Warns
     -----

@@ -254,6 +254,14 @@ def file_bytes(path: Path) -> bytes:
     return data
 
 
+def _head(path: Path) -> bytes:
+    """A file's first bytes (its signature); InputFileError when it does not exist."""
+    if not path.is_file():
+        raise InputFileError(f"{path}: hourly weather file not found")
+    with open(path, "rb") as handle:
+        return handle.read(16)
+
+
 def detect_format(path: Path, data: bytes | None = None) -> str:
     """The format of a weather file from its content: "netcdf", "isd-lite" or "csv".
 
@@ -322,8 +330,11 @@ def read_record_files(
         raise InputError("hourly weather: no file given")
     files, formats = [], {}
     for path in paths:
-        data = file_bytes(path)
-        found = detect_format(path, data)
+        head = _head(path)
+        # a NetCDF file is opened where it lies (xarray reads the site's point only: a
+        # reanalysis file may be larger than memory); anything else is read whole
+        data = None if head.startswith(_NETCDF_SIGNATURES) else file_bytes(path)
+        found = "netcdf" if data is None else detect_format(path, data)
         kind = found if source.format == "auto" else source.format
         if source.format != "auto" and found == "netcdf" and kind != "netcdf":
             raise InputError(f"{path.name}: a NetCDF file, but the format given is {kind}")

@@ -63,15 +63,16 @@ _CELSIUS_UNITS = {"degC", "deg C", "°C", "C", "celsius", "degree_Celsius", "deg
 _ZERO_CELSIUS_K = 273.15  # [K] (definition of the Celsius scale)
 
 
-def read_netcdf_file(path: Path, data: bytes, latitude_deg, longitude_deg, source):
+def read_netcdf_file(path: Path, data: bytes | None, latitude_deg, longitude_deg, source):
     """Read one reanalysis NetCDF file at the site's grid point.
 
     Parameters
     ----------
     path : Path
         The file (its name is used in messages).
-    data : bytes
-        Its content.
+    data : bytes, optional
+        Its content (a gunzipped file); None opens the file where it lies, so that only the
+        site's grid point is read from a file that may be larger than memory.
     latitude_deg, longitude_deg : float
         The site [deg].
     source : WeatherSource
@@ -94,7 +95,12 @@ def read_netcdf_file(path: Path, data: bytes, latitude_deg, longitude_deg, sourc
 
     name = path.name
     try:
-        ds = xr.open_dataset(io.BytesIO(data), engine=_engine(data), mask_and_scale=True)
+        if data is None:
+            with open(path, "rb") as handle:
+                engine = _engine(handle.read(8))
+            ds = xr.open_dataset(path, engine=engine, mask_and_scale=True)
+        else:
+            ds = xr.open_dataset(io.BytesIO(data), engine=_engine(data), mask_and_scale=True)
     except Exception as exc:  # noqa: BLE001 - any failure to open is the file's fault
         raise InputError(f"{name}: cannot be read as NetCDF: {exc}") from None
     with ds:
