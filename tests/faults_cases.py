@@ -1849,13 +1849,21 @@ case(
     setup=hourly_cell(3, "time", "2025-01-01T01:00+01:99"),
 )
 # the same record errors through a scenario's [weather] hourly
+# an hour without the temperature hour-by-hour emission needs is a missing hour, counted
+# like any other: with no missing hour allowed, the record is refused naming the share
 case(
     "scenario-hourly-temperature-nan",
     hourly_screen(),
     2,
-    HW + r".*temperature_c \(the first at \d{4}-\d\d-\d\d \d\d:\d\d",
-    PRACTICE,  # the hour named
-    setup=hourly_cell(10, "temperature_c", "NaN"),
+    HW + r".*expected hours are missing \(1 h\)",
+    PRACTICE,  # missing hours are never filled
+    setup=steps(
+        hourly_cell(10, "temperature_c", "NaN"),
+        scenario_edit(
+            lambda d: d["weather"].update(max_missing_percent=0.0),
+            "inputs/scenario_hourly.toml",
+        ),
+    ),
 )
 case(
     "scenario-hourly-utc-offset-bad",

@@ -274,3 +274,25 @@ def test_siting_weather_reads_a_mapped_export_and_refuses_a_bad_map(tmp_path, ca
     assert code == 2
     assert "--columns" in capsys.readouterr().err
     assert not (tmp_path / "bad").exists()
+
+
+def test_an_hour_without_the_temperature_seasonal_emission_needs_is_a_missing_hour(tmp_path):
+    """[seasonal] temperature-dependent emission needs every hour's temperature: an hour
+    without one (a station's missing code) is left out and counted, never filled (the
+    missing-hour rule); without [seasonal] the same hour is used."""
+    names = _write_record(tmp_path, {2025: 270})
+    path = tmp_path / names[0]
+    lines = path.read_text(encoding="utf-8").splitlines()
+    lines[100] = lines[100].rsplit(",", 1)[0] + ","  # hour 99 loses its temperature
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    case = _write_case(tmp_path, names, "all_years")
+    plain = screen(case, with_grid=False)
+    case.write_text(
+        case.read_text(encoding="utf-8") + "[seasonal]\ntemperature_dependent_emission = true\n",
+        encoding="utf-8",
+    )
+    seasonal = screen(case, with_grid=False)
+    assert plain.weather_summary["hours_missing"] == 0
+    assert seasonal.weather_summary["hours_missing"] == 1
+    assert seasonal.weather_summary["hours_used"] == 8759  # 8760 h in 2025, less one
+    assert seasonal.weather_summary["temperature_required"] is True

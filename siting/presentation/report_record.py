@@ -179,6 +179,7 @@ _WEATHER_LABELS = {
     "record_position": "Position of the record and its distance from the site",
     "by_year": "Each calendar year of the record",
     "screened_by": "Screened by",
+    "temperature_required": "Hours without an air temperature counted missing",
     "worst_year_by_site": "Worst weather year of each site",
     "scrubber_treated_share": "Partial scrubbing: share of the year's ammonia treated",
     "emission_profile": "Hourly emission profile",

@@ -124,6 +124,7 @@ def read_hourly_record(
     max_missing_percent: float = 10.0,
     direction_step_deg: float | None = None,
     source: WeatherSource | None = None,
+    temperature_required: bool = False,
     station_latitude_deg: float | None = None,
     station_longitude_deg: float | None = None,
 ) -> tuple[HourlyWeather, dict]:
@@ -157,6 +158,9 @@ def read_hourly_record(
     source : WeatherSource, optional
         The files' format and, for a CSV by a column map or a NetCDF file, the map, units and
         grid point rule; None detects the format and reads siting's own CSV layout.
+    temperature_required : bool
+        Every hour used needs its air temperature (hour-by-hour emission follows it): an
+        hour without one is a missing hour, counted and left out like any other.
     station_latitude_deg, station_longitude_deg : float, optional
         The station's position [deg], for its distance from the site (a NetCDF record's
         position is its grid point's, and these are then not used).
@@ -182,7 +186,8 @@ def read_hourly_record(
         distance from the site [km]; else None), record_position (the record's position: where it
         comes from, latitude_deg, longitude_deg, distance_km from the site, or None where
         not known; the rule of the warning), by_year (per calendar year as the source writes
-        it: hours used, rows in the files, calm %, mean speed, prevailing direction).
+        it: hours used, rows in the files, calm %, mean speed, prevailing direction),
+        temperature_required (an hour without its temperature counted missing).
 
     Warns
     -----
@@ -221,7 +226,14 @@ def read_hourly_record(
     files = read_record_files(paths, source, utc_offset_h, latitude_deg, longitude_deg)
     rows = _joined_rows(files)
     hour_index, n_expected = _hour_index(rows)
-    timeline = _usable_hours(rows, hour_index, n_expected, calm_threshold_m_s, max_missing_percent)
+    timeline = _usable_hours(
+        rows,
+        hour_index,
+        n_expected,
+        calm_threshold_m_s,
+        max_missing_percent,
+        temperature_required,
+    )
     weather, filled, step = _hours_used(rows, timeline, options)
     summary = _summary(rows, timeline, weather, filled, step, options)
     summary["record_position"] = record_position(
@@ -232,6 +244,7 @@ def read_hourly_record(
         summary["grid_point"],
     )
     summary["by_year"] = _by_year(rows, timeline, weather, step)
+    summary["temperature_required"] = bool(temperature_required)
     _warn_about_record(summary, rows, timeline, options)
     return weather, summary
 

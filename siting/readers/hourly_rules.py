@@ -118,11 +118,13 @@ def _usable_hours(
     n_expected: int,
     calm_threshold_m_s: float,
     max_missing_percent: float,
+    temperature_required: bool = False,
 ) -> _Timeline:
     """The missing-hour rule: which hours can be used, the calms and the gaps.
 
     An hour is used when its speed and its class (or cloud cover) are given and its direction
-    too, unless it is a calm (the calm rule gives it one). Returns the :class:`_Timeline`.
+    too, unless it is a calm (the calm rule gives it one), and its temperature where
+    ``temperature_required``. Returns the :class:`_Timeline`.
     Raises when no hour can be used, when more than ``max_missing_percent`` of the expected
     hours are missing, or when every usable hour is calm (no direction to give the calms).
     """
@@ -132,6 +134,8 @@ def _usable_hours(
     else:
         has_class = np.isfinite(rows.method_value)
     valid = np.isfinite(rows.speed_m_s) & has_class & (np.isfinite(rows.direction_deg) | calm)
+    if temperature_required:
+        valid &= np.isfinite(rows.temperature_c)
     gaps = _gaps(hour_index[valid], n_expected, rows.time_utc[0])
     timeline = _Timeline(hour_index, n_expected, calm, valid, gaps)
     names = rows.names

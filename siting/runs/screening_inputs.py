@@ -31,7 +31,11 @@ from siting.readers.scenario_sources import ROLES
 from siting.readers.tables import Tables, load_tables
 from siting.runs.appraisal import appraise_sources
 from siting.runs.run_cache import RunCache
-from siting.runs.screening_sources import _hourly_emission_weights, derive_sources
+from siting.runs.screening_sources import (
+    _hourly_emission_weights,
+    derive_sources,
+    hourly_temperature_needed,
+)
 from siting.runs.weather_years import screened_years, worst_year_by_role
 
 CAUTIONS = [
@@ -451,6 +455,7 @@ def _read_hourly(scenario: Scenario):
         max_missing_percent=w.max_missing_percent,
         direction_step_deg=w.direction_step_deg,
         source=w.source(),
+        temperature_required=hourly_temperature_needed(scenario),
         station_latitude_deg=w.station_latitude_deg,
         station_longitude_deg=w.station_longitude_deg,
     )

@@ -347,9 +347,7 @@ def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summar
     cfg = scenario.seasonal
     temperature_c = weather.temperature_c
     partial = [s for s in scenario.sources if s.scrubber_design_share is not None]
-    needs_temperature = bool(cfg.temperature_dependent_emission) or (
-        bool(partial) and cfg.temperature_dependent_emission is not False
-    )
+    needs_temperature = hourly_temperature_needed(scenario)
     if needs_temperature:
         _check_temperatures(scenario, weather)
     flat = np.ones(weather.n_hours)
@@ -376,6 +374,28 @@ def _hourly_emission_weights(scenario: Scenario, tables: Tables, weather, summar
     if profile:
         summary["emission_profile"] = profile
     return weights, treated
+
+
+def hourly_temperature_needed(scenario: Scenario) -> bool:
+    """True when every hour used needs its air temperature: [seasonal] temperature-dependent
+    emission, or a partly sized scrubber (scrubber_design_share) unless the seasonal weighting
+    is switched off. The reader then counts an hour without one as missing.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        The scenario.
+
+    Returns
+    -------
+    bool
+        Whether an hour needs its temperature.
+    """
+    cfg = scenario.seasonal
+    partial = any(s.scrubber_design_share is not None for s in scenario.sources)
+    return bool(cfg.temperature_dependent_emission) or (
+        partial and cfg.temperature_dependent_emission is not False
+    )
 
 
 def _check_temperatures(scenario: Scenario, weather) -> None:
