@@ -94,6 +94,7 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "outlet_rise": "siting.runs.screening_sources",
         "reduction_basis": "siting.runs.screening_sources",
         "derive_sources": "siting.runs.screening_sources",
+        "hourly_temperature_needed": "siting.runs.screening_sources",
         # verification.py: a regulator's spot-check of a submitted screening run (``siting verify``)
         "VerifyResult": "siting.runs.verification",
         "verify": "siting.runs.verification",
