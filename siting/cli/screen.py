@@ -174,7 +174,7 @@ def _print_summary(result, out_dir: Path, quiet: bool, command: str = "screen") 
             markup=True,
         )
     _print_flips(console, result)
-    by_site = result.weather_summary.get("worst_year_by_site")
+    by_site = (getattr(result, "weather_summary", None) or {}).get("worst_year_by_site")
     if by_site:
         years = ", ".join(f"{plain(str(name))} {year}" for name, year in by_site.items())
         console.print(
