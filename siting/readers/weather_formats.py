@@ -223,13 +223,15 @@ def _checked_source(source: WeatherSource | None) -> WeatherSource:
     return source
 
 
-def file_bytes(path: Path) -> bytes:
+def file_bytes(path: Path, head: bool = False) -> bytes:
     """A file's bytes, gunzipped when it is gzip-compressed.
 
     Parameters
     ----------
     path : Path
         The file.
+    head : bool
+        Only its first 16 bytes, as they are (its signature).
 
     Returns
     -------
@@ -243,6 +245,8 @@ def file_bytes(path: Path) -> bytes:
     InputError
         A gzip file that cannot be decompressed.
     """
+    if head:
+        return _head(path)
     if not path.is_file():
         raise InputFileError(f"{path}: hourly weather file not found")
     data = path.read_bytes()

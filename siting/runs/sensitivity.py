@@ -216,6 +216,9 @@ class _Variants:
 def _is_hourly(path: Path, mapped: bool) -> bool:
     """True for an hourly record: NetCDF or ISD-Lite content, a CSV whose header starts with
     ``time``, or (with a column map) any CSV that is not a frequency table."""
+    data = file_bytes(path, head=True)  # a NetCDF file by its signature, never read whole
+    if detect_format(path, data) == "netcdf":
+        return True
     data = file_bytes(path)
     if detect_format(path, data) != "csv":
         return True
