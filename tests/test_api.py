@@ -55,14 +55,13 @@ def guide(tmp_path_factory):
 
 
 @pytest.fixture(scope="module")
-def cli(guide, tmp_path_factory):
-    """The command line on the same inputs as the guide; {command: (exit code, out folder)}."""
+def cli(guide, tmp_path_factory, demo_place_run):
+    """The command line on the same inputs as the guide; {command: (exit code, out folder)}.
+    `siting place DEMO --house H2 --spacing 25` is the session's run of conftest.py (read by
+    tests/test_browser.py too)."""
     work, _ = guide
     out = tmp_path_factory.mktemp("cli")
     runs = {
-        "place": [
-            "place", str(DEMO / "scenario.toml"), "--house", "H2", "--spacing", "25",
-        ],
         "verify": ["verify", str(work / "maps" / "my_run")],
         "region": [
             "region", str(DEMO / "region_farms.gpkg"),
@@ -75,7 +74,7 @@ def cli(guide, tmp_path_factory):
             "weather", str(DEMO / "hourly_weather.csv"), "--lat", "52.4", "--lon", "9.0",
         ],
     }  # fmt: skip
-    done = {}
+    done = {"place": demo_place_run}
     for name, argv in runs.items():
         code = main([*argv, "--out", str(out / name), "--quiet"])
         done[name] = (code, out / name)

@@ -635,13 +635,10 @@ def test_offline_page_shows_the_farm_not_a_grey_void(open_offline, demo_output):
 
 
 @pytest.fixture(scope="module")
-def place_output(tmp_path_factory) -> Path:
-    """`siting place` on the demo for H2 at a 25 m spacing (seconds)."""
-    out = tmp_path_factory.mktemp("place") / "out"
-    code = main(
-        ["place", str(demo_dir() / "scenario.toml"), "--house", "H2", "--spacing", "25",
-         "--out", str(out), "--quiet"]
-    )  # fmt: skip
+def place_output(demo_place_run) -> Path:
+    """`siting place` on the demo for H2 at a 25 m spacing (seconds; the session's run of
+    conftest.py, which tests/test_api.py reads too)."""
+    code, out = demo_place_run
     assert code == 0
     return out
 
@@ -675,7 +672,11 @@ def test_place_popup_says_whether_the_house_passes_and_clears_the_title(open_off
     page.locator(".siting-rank.first").click()
     popup = page.locator(".leaflet-popup")
     popup.wait_for(state="visible", timeout=5_000)
-    page.wait_for_timeout(400)  # the auto-pan
+    # the auto-pan: Leaflet starts it as the popup opens and marks the map pane while it runs
+    # (a fixed wait would race it on a busy machine)
+    page.wait_for_function(
+        "() => !document.querySelector('.leaflet-map-pane.leaflet-pan-anim')", timeout=5_000
+    )
     assert "The house as described does not pass here" in popup.inner_text()
     title = page.locator(".siting-title").bounding_box()
     assert popup.bounding_box()["y"] >= title["y"] + title["height"]

@@ -1,6 +1,7 @@
 """The command line end to end: the invented demo through ``siting demo`` into tmp_path.
 
-The demo runs ONCE per module (fixture ``demo``); the tests read its outputs. Expected values are
+The demo runs ONCE per session (fixture ``demo``, conftest.py's ``demo_run``); the tests read
+its outputs. Expected values are
 either properties of the outputs named in DESIGN.md ("Outputs of screen"), figures copied from
 the demo scenario and the config tables (each read from the file, so the test names its origin),
 or analytic properties of the model (linear in the emission, falling with distance).
@@ -75,11 +76,11 @@ def _run(argv: list[str]) -> tuple[int, str]:
 
 
 @pytest.fixture(scope="module")
-def demo(tmp_path_factory) -> dict:
-    """The demo run once: exit code, stdout and the output folder."""
-    out = tmp_path_factory.mktemp("cli") / "demo"
-    rc, stdout = _run(["demo", "--out", str(out), "--quiet"])
-    return {"rc": rc, "stdout": stdout, "out": out}
+def demo(demo_run) -> dict:
+    """The demo run once (`siting demo --out ... --quiet`, in-process, stdout captured; the
+    session's ``demo_run`` of conftest.py, which other modules read too): exit code, stdout
+    and the output folder."""
+    return demo_run
 
 
 @pytest.fixture(scope="module")

@@ -7,7 +7,6 @@ from html.parser import HTMLParser
 import pandas as pd
 import pytest
 
-from siting.cli import main
 from siting.presentation.formats import format_for_column, format_percent, is_missing
 
 SECTION_ORDER = [
@@ -148,11 +147,10 @@ class _ReportParser(HTMLParser):
 
 
 @pytest.fixture(scope="module")
-def demo_out(tmp_path_factory):
-    """The table-mode demo run once (report.pdf too): its output folder."""
-    out = tmp_path_factory.mktemp("report_output") / "demo"
-    assert main(["demo", "--out", str(out), "--quiet"]) == 0
-    return out
+def demo_out(demo_output):
+    """The table-mode demo run once (`siting demo --quiet`, report.pdf too; the session's run
+    of conftest.py): its output folder."""
+    return demo_output
 
 
 @pytest.fixture(scope="module")

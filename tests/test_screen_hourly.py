@@ -4,6 +4,7 @@ import json
 import shutil
 
 import numpy as np
+import pytest
 from numpy.testing import assert_allclose
 
 from siting.cli import main
@@ -79,14 +80,21 @@ def test_warm_hours_shift_where_deposition_lands(tmp_path):
     assert_allclose(w["West Bog"] + w["East Bog"], f["West Bog"] + f["East Bog"], rtol=0.05)
 
 
-def test_partial_scrubber_reports_both_shares(tmp_path):
+#: An acid scrubber sized for 40 % of the house's maximum air flow (no reduction stated).
+SCRUBBER_40 = 'abatement = "acid_scrubber"\nscrubber_design_share = 0.4'
+
+
+@pytest.fixture(scope="module")
+def scrubbed_flat(tmp_path_factory):
+    """screen() of the synthetic year with SCRUBBER_40 and the temperature-dependent emission
+    switched off: one run (a year of hours, seconds) read by the two scrubber tests."""
+    folder = tmp_path_factory.mktemp("scrubbed_flat")
+    return screen(_write_case(folder, seasonal=False, source_extra=SCRUBBER_40))
+
+
+def test_partial_scrubber_reports_both_shares(scrubbed_flat):
     """A scrubber sized for 40 % of maximum air treats more than 40 % of the year's ammonia."""
-    path = _write_case(
-        tmp_path,
-        seasonal=False,
-        source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4',
-    )
-    result = screen(path)
+    result = scrubbed_flat
     row = result.sources.iloc[0]
     assert row["scrubber_design_share"] == 0.4
     assert 0.4 < row["treated_air_fraction"] < 1.0
@@ -99,16 +107,12 @@ def test_partial_scrubber_reports_both_shares(tmp_path):
     assert shares["design_share"] == 0.4 and shares["treated_share"] == row["treated_air_fraction"]
 
 
-def test_partial_scrubber_counts_the_years_ammonia_not_its_hours(tmp_path):
+def test_partial_scrubber_counts_the_years_ammonia_not_its_hours(tmp_path, scrubbed_flat):
     """With [seasonal] left unset, a part-sized scrubber's treated share weights each hour by its
     (temperature-dependent) emission: warm hours run at full ventilation, when the scrubber takes
     the smallest share, and emit most, so the share of the ammonia is below the share of the hours
     (seasonal.py model; analytic direction, common practice, no source for the parameters)."""
-    path = _write_case(
-        tmp_path,
-        seasonal=False,
-        source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4',
-    )
+    path = _write_case(tmp_path, seasonal=False, source_extra=SCRUBBER_40)
     text = path.read_text().replace("temperature_dependent_emission = false\n", "")
     path.write_text(text)
     result = screen(path)
@@ -116,14 +120,7 @@ def test_partial_scrubber_counts_the_years_ammonia_not_its_hours(tmp_path):
     assert shares["treated_share"] < shares["treated_share_of_hours"] - 0.01
     assert shares["hours_weighted_by"].startswith("emission")
     # explicitly switched off: the hours count alike, as before
-    (tmp_path / "flat").mkdir()
-    flat = screen(
-        _write_case(
-            tmp_path / "flat",
-            seasonal=False,
-            source_extra='abatement = "acid_scrubber"\nscrubber_design_share = 0.4',
-        )
-    )
+    flat = scrubbed_flat
     flat_shares = flat.weather_summary["scrubber_treated_share"]["H1"]
     assert_allclose(flat_shares["treated_share"], flat_shares["treated_share_of_hours"], rtol=1e-12)
     # less treated ammonia: more emitted (the cautious side)

@@ -4,15 +4,14 @@ import dataclasses
 
 from numpy.testing import assert_allclose
 
-from siting.readers.resources import demo_dir
 from siting.runs.screening import screen
 
 
-def test_velocity_variants_without_depletion_equal_a_rerun():
+def test_velocity_variants_without_depletion_equal_a_rerun(demo_screen):
     """Without depletion the v_d variants are scaled (flux = v_d x C, linear); a full re-run
     with the table's high and low velocities gives the same % of critical load (analytic;
     rtol: the re-run uses the sites' own points only, the demo maxima lie on them)."""
-    result = screen(demo_dir() / "scenario.toml")
+    result = demo_screen  # screen(demo_dir() / "scenario.toml"), conftest.py
     assert not result.scenario.deposition.plume_depletion
     long = result.sensitivity
     tables = result.tables
@@ -36,10 +35,10 @@ def test_velocity_variants_without_depletion_equal_a_rerun():
         assert_allclose(got.loc[expected.index], expected, rtol=1e-6)
 
 
-def test_emission_factor_variants_scale_factor_derived_sources_only():
+def test_emission_factor_variants_scale_factor_derived_sources_only(demo_screen):
     """+-30 % on the factors (IPCC2006 analogy, emission_factors.toml) moves the PC by less than
     30 % where a source given directly (M1, 420 kg/yr) contributes: bounds by linearity."""
-    result = screen(demo_dir() / "scenario.toml")
+    result = demo_screen  # screen(demo_dir() / "scenario.toml"), conftest.py
     long = result.sensitivity.set_index(["variant", "site"])["pct_load"]
     for site in result.sites["name"]:
         central = long[("central", site)]

@@ -32,8 +32,10 @@ def _screen(tmp_path, name="sub", edit=None, habitats=None):
 
 
 @pytest.fixture(scope="module")
-def clean(tmp_path_factory):
-    return _screen(tmp_path_factory.mktemp("clean"))
+def clean(coarse_demo_submission):
+    """The demo on a 100 m grid as `screen` wrote it (what ``_screen`` makes without an edit;
+    the session's run of conftest.py, also verified by tests/test_verify_rules.py)."""
+    return coarse_demo_submission
 
 
 def _codes(result):

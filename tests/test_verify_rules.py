@@ -1,7 +1,8 @@
 """`siting verify --rules`: a submission held to the regulator's rule set, site by site.
 
-One demo submission (judged by plain, the default) is screened once for the module; each
-verification re-runs it under plain and judges its sites by the regulator's set as well.
+One demo submission (judged by plain, the default) is screened once for the session (conftest.py,
+``coarse_demo_submission``); each verification re-runs it under plain and judges its sites by
+the regulator's set as well.
 """
 
 import json
@@ -51,16 +52,10 @@ status = "common practice, no source"
 
 
 @pytest.fixture(scope="module")
-def submission(tmp_path_factory):
-    """`siting screen` of the demo (grid spacing 100 m to keep it quick), judged by plain."""
-    base = tmp_path_factory.mktemp("rules")
-    folder = base / "in"
-    shutil.copytree(demo_dir(), folder)
-    scenario = folder / "scenario.toml"
-    scenario.write_text(scenario.read_text().replace("spacing_m = 25.0", "spacing_m = 100.0", 1))
-    out = base / "sub"
-    assert main(["screen", str(scenario), "--out", str(out), "--quiet", "--no-pdf"]) == 0
-    return out
+def submission(coarse_demo_submission):
+    """`siting screen` of the demo (grid spacing 100 m to keep it quick), judged by plain (the
+    session's run of conftest.py, also verified by tests/test_verify.py)."""
+    return coarse_demo_submission
 
 
 @pytest.fixture(scope="module")

@@ -35,7 +35,6 @@ from siting.errors import (
     collect_warnings,
     collecting_warnings,
 )
-from siting.readers.resources import demo_dir
 from siting.runs.screening import screen
 
 ROOT = Path(siting.__file__).parent
@@ -135,9 +134,9 @@ def test_decorated_run_adds_its_warnings_after_those_it_holds():
 # --- the runs ----------------------------------------------------------------------------------
 
 
-def test_demo_has_the_warnings_it_showed_before():
+def test_demo_has_the_warnings_it_showed_before(demo_screen):
     """The demo printed no warning before this change (siting demo, no "warning:" line)."""
-    assert screen(demo_dir() / "scenario.toml").warnings == []
+    assert demo_screen.warnings == []  # screen(demo_dir() / "scenario.toml"), conftest.py
 
 
 def test_screen_keeps_and_issues_its_warnings_not_the_sensitivitys(tmp_path):
