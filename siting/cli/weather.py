@@ -11,7 +11,7 @@ from siting.errors import InputError, collect_warnings
 from siting.output.folder import check_output_dir
 from siting.output.weather import write_weather_outputs
 from siting.readers.hourly_record import read_hourly_record
-from siting.readers.weather_formats import weather_source
+from siting.readers.weather_formats import source_of
 
 
 def _print_weather_summary(summary: dict, warnings_: list[str], out_dir: Path, quiet: bool) -> None:
@@ -127,18 +127,7 @@ def run(args) -> int:
     out_dir = Path(args.out_dir).resolve()
     paths = [Path(p) for p in args.hourly]
     check_output_dir(out_dir, args.overwrite, paths)
-    source = weather_source(
-        args.format,
-        args.columns,
-        speed_unit=args.speed_unit,
-        direction_unit=args.direction_unit,
-        cloud_unit=args.cloud_unit,
-        ceiling_unit=args.ceiling_unit,
-        time_format=args.time_format,
-        missing_codes=args.missing_codes,
-        flags_ok=args.flags_ok,
-        grid_point=args.grid_point,
-    )
+    source = source_of(args)  # the options' dests are WeatherSource's own names
     with collect_warnings() as reading:  # the record's warnings, for the summary and its file
         weather, summary = read_hourly_record(
             paths,

@@ -31,6 +31,7 @@ __all__, __getattr__, __dir__ = lazy_exports(
         "WeatherSource": "siting.readers.weather_formats",
         "parse_column_map": "siting.readers.weather_formats",
         "weather_source": "siting.readers.weather_formats",
+        "source_of": "siting.readers.weather_formats",
         "file_bytes": "siting.readers.weather_formats",
         "detect_format": "siting.readers.weather_formats",
         "read_record_files": "siting.readers.weather_formats",

@@ -27,7 +27,7 @@ from pydantic import (
 )
 
 from siting.errors import SitingError
-from siting.readers.weather_formats import parse_column_map, weather_source
+from siting.readers.weather_formats import parse_column_map, source_of
 
 FilePath = Annotated[Path, Field(strict=False)]
 
@@ -209,18 +209,7 @@ class WeatherSection(_Section):
         WeatherSource
             The checked options (``siting.readers.weather_formats``).
         """
-        return weather_source(
-            self.format,
-            self.columns,
-            speed_unit=self.speed_unit,
-            direction_unit=self.direction_unit,
-            cloud_unit=self.cloud_unit,
-            ceiling_unit=self.ceiling_unit,
-            time_format=self.time_format,
-            missing_codes=self.missing_codes,
-            flags_ok=self.flags_ok,
-            grid_point=self.grid_point,
-        )
+        return source_of(self)
 
     @model_validator(mode="after")
     def _one_record(self):

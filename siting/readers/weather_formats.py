@@ -204,6 +204,36 @@ missing_codes, flags_ok, grid_point
     )
 
 
+def source_of(options) -> WeatherSource:
+    """A checked :class:`WeatherSource` from any object whose attributes carry its options
+    under their own names: the command line's parsed arguments and a scenario's [weather]
+    section alike.
+
+    Parameters
+    ----------
+    options : object
+        Has format, columns, speed_unit, direction_unit, cloud_unit, ceiling_unit,
+        time_format, missing_codes, flags_ok and grid_point.
+
+    Returns
+    -------
+    WeatherSource
+        The options, checked (:func:`weather_source`).
+    """
+    return weather_source(
+        options.format,
+        options.columns,
+        speed_unit=options.speed_unit,
+        direction_unit=options.direction_unit,
+        cloud_unit=options.cloud_unit,
+        ceiling_unit=options.ceiling_unit,
+        time_format=options.time_format,
+        missing_codes=options.missing_codes,
+        flags_ok=options.flags_ok,
+        grid_point=options.grid_point,
+    )
+
+
 def _checked_source(source: WeatherSource | None) -> WeatherSource:
     """The source's options checked (None: detect everything, siting's units)."""
     source = source or WeatherSource()
