@@ -181,15 +181,8 @@ def _read_hourly_file(
             "time (leave out the row of a missing hour instead)"
         )
     time_utc, offsets = _parse_times(name, columns["time"], line_numbers, utc_offset_h)
-    step = np.diff(time_utc).astype(np.int64)
-    if (step <= 0).any():
-        i = int(np.flatnonzero(step <= 0)[0]) + 1
-        what = "repeats the time of" if step[i - 1] == 0 else "is earlier than"
-        raise InputError(
-            f"{_where(name, line_numbers[i])}: time {columns['time'][i]!r} {what} "
-            f"line {line_numbers[i - 1]} ({columns['time'][i - 1]!r}); rows must be "
-            "in increasing time order without duplicates"
-        )
+    raw = _RawFile(name, columns, line_numbers, time_utc, offsets)
+    _check_increasing(raw)  # the same order rule as every other format's
     if ignored:
         _warn(
             f"{name}: column(s) {', '.join(ignored)} ignored (known columns: "
@@ -209,7 +202,7 @@ def _read_hourly_file(
             f"{name}: ceiling_ft is used only with cloud_oktas; ignored because "
             "the stability class is given"
         )
-    return _RawFile(name, columns, line_numbers, time_utc, offsets)
+    return raw
 
 
 def _read_rows(
