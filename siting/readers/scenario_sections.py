@@ -166,9 +166,9 @@ class WeatherSection(_Section):
     grid_point : {"nearest", "bilinear"}
         A NetCDF grid's value at the site.
     screen_by : {"all_years", "worst_year"}
-        An hourly record of several years: the long-term mean of all the years, or the worst
-        single year at each point (each point takes the year that gives it the highest
-        judged contribution; each site's year is reported).
+        An hourly record of several years: the worst single year at each point (default,
+        cautious: each point takes the year that gives it the highest judged contribution;
+        each site's year is reported), or the long-term mean of all the years.
     """
 
     frequency_table: FilePath | None = None
@@ -199,7 +199,8 @@ class WeatherSection(_Section):
     missing_codes: list[Annotated[str, BeforeValidator(_code_text)]] = Field(default_factory=list)
     flags_ok: list[Annotated[str, BeforeValidator(_code_text)]] = Field(default_factory=list)
     grid_point: Literal["nearest", "bilinear"] = "nearest"
-    screen_by: Literal["all_years", "worst_year"] = "all_years"
+    # several years: the worst single year at each point (cautious) or their long-term mean
+    screen_by: Literal["all_years", "worst_year"] = "worst_year"
 
     def source(self):
         """The hourly files' format options.

@@ -1,8 +1,9 @@
 """Screening by the worst single weather year: each point takes the year that is worst for it.
 
-An hourly record of several years is screened by default as one long-term mean over all its
-hours (``[weather] screen_by = "all_years"``). With ``screen_by = "worst_year"`` each calendar
-year is dispersed on its own, and at every receptor (grid node, named point, site sample point)
+An hourly record of several years is screened by default by the worst single year
+(``[weather] screen_by = "worst_year"``, the cautious choice), or as one long-term mean over all
+its hours (``screen_by = "all_years"``). By the worst year, each calendar year is dispersed on
+its own, and at every receptor (grid node, named point, site sample point)
 the year that gives the highest contribution the rule set judges is taken, with all its roles'
 figures (proposed, existing, removed, other) from that same year, so a net or in-combination
 figure is always one year's. A site's maximum is then the highest of the single years' site
@@ -78,6 +79,9 @@ def screened_years(weather, summary: dict, screen_by: str) -> tuple[int, ...]:
     years, counts = np.unique(weather.years, return_counts=True)
     if screen_by != "worst_year":
         summary["screened_by"] = f"all years together ({_listed(years)})"
+        return ()
+    if len(years) == 1:  # one calendar year: its own mean is the worst single year
+        summary["screened_by"] = f"the record's one calendar year ({_listed(years)})"
         return ()
     kept = tuple(int(y) for y, n in zip(years, counts) if n >= MIN_YEAR_HOURS)
     short = [f"{int(y)} ({int(n)} h)" for y, n in zip(years, counts) if n < MIN_YEAR_HOURS]
